@@ -1,0 +1,66 @@
+"""Result types shared by every validation characteristic."""
+
+from __future__ import annotations
+
+import warnings
+from contextlib import contextmanager
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy"]
+
+
+@dataclass(frozen=True)
+class ConfidenceInterval:
+    """A two-sided confidence interval; ``level`` is e.g. 0.95."""
+
+    low: float
+    high: float
+    level: float
+
+    def contains(self, value: float) -> bool:
+        return self.low <= value <= self.high
+
+
+@dataclass(frozen=True)
+class TestResult:
+    """A hypothesis test, or the statement that it was not applicable.
+
+    ``statistic`` and ``pvalue`` are ``None`` exactly when ``reason`` says why
+    the test could not be done on these data.
+    """
+
+    method: str
+    statistic: float | None
+    pvalue: float | None
+    df: tuple | None = None
+    reason: str = ""
+
+    @property
+    def applicable(self) -> bool:
+        return self.statistic is not None
+
+
+def not_applicable(method: str, reason: str) -> TestResult:
+    return TestResult(method=method, statistic=None, pvalue=None, df=None, reason=reason)
+
+
+def finite_or_none(value):
+    """A float for JSON: ``None`` for NaN/inf (the reason is recorded elsewhere)."""
+    if value is None:
+        return None
+    value = float(value)
+    return value if np.isfinite(value) else None
+
+
+@contextmanager
+def quiet_numpy():
+    """Turn numpy/scipy runtime warnings off inside a calculation.
+
+    Degenerate data are detected explicitly and reported as diagnostics; the
+    raw library warnings would only be noise to the user.
+    """
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        yield

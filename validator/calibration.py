@@ -1,0 +1,415 @@
+"""Calibration function: fit, diagnostics, back-calculation and inverse prediction.
+
+Pure functions over arrays; nothing here reads files or formats text.
+
+References
+----------
+.. [ISO8466-1] ISO 8466-1:2021, Water quality - Calibration and evaluation
+   of analytical methods - Part 1: Linear calibration function.
+.. [ISO8466-2] ISO 8466-2:2001, Part 2: non-linear second-order calibration.
+.. [DIN38402-51] DIN 38402-51:2017, German standard methods - Calibration of
+   analytical methods (Mandel's fitting test).
+.. [Mandel] Mandel, J. (1964). The Statistical Analysis of Experimental Data,
+   Wiley (the linear-vs-quadratic variance comparison).
+.. [Draper-Smith] Draper, N. R. and Smith, H. (1998). Applied Regression
+   Analysis, 3rd ed., Wiley: lack of fit against pure error (sec. 2.1),
+   studentised residuals and Cook's distance (ch. 8).
+.. [Almeida] Almeida, A. M., Castel-Branco, M. M. and Falcao, A. C. (2002).
+   Linear regression for calibration lines revisited: weighting schemes for
+   bioanalytical methods. J. Chromatogr. B 774, 215-222.
+.. [Koenker] Koenker, R. (1981). A note on studentizing a test for
+   heteroscedasticity. J. Econometrics 17, 107-112.
+.. [SW] Shapiro, S. S. and Wilk, M. B. (1965). Biometrika 52, 591-611.
+.. [Levene] Levene, H. (1960); Brown, M. B. and Forsythe, A. B. (1974).
+   JASA 69, 364-367 (median-centred form, scipy's default).
+.. [Cook] Cook, R. D. (1977). Detection of influential observation in linear
+   regression. Technometrics 19, 15-18.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import stats
+from statsmodels.stats.diagnostic import het_breuschpagan
+
+from ._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
+from .regression import PolynomialFit, fit_polynomial, raw_weights
+
+__all__ = [
+    "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate",
+    "SampleResult", "analyse_calibration", "quantify", "lack_of_fit", "mandel_test",
+    "choose_weighting", "back_calculate",
+]
+
+
+@dataclass(frozen=True)
+class BackCalculated:
+    nominal: float
+    response: float
+    found: float
+    deviation_pct: float | None     # None for nominal 0
+    tolerance_pct: float | None
+    passed: bool | None             # None: not judged (nominal 0)
+
+
+@dataclass(frozen=True)
+class OutlierFlag:
+    index: int
+    concentration: float
+    response: float
+    studentised_residual: float
+    cooks_distance: float
+    reasons: tuple
+
+
+@dataclass(frozen=True)
+class WeightingCandidate:
+    weighting: str
+    sum_abs_relative_error_pct: float | None
+    residual_sd: float | None
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class CalibrationResult:
+    """Everything known about one analyte's calibration."""
+
+    fit: PolynomialFit = field(repr=False)
+    model: str                     # "linear" | "quadratic" (as the study names it)
+    through_origin: bool
+    weighting: str
+    model_choice: str              # how the model was chosen
+    weighting_candidates: tuple    # WeightingCandidate, empty unless auto
+    levels: tuple                  # distinct concentrations, ascending
+    replicates: tuple              # count per level
+    lack_of_fit: TestResult
+    mandel: TestResult
+    normality: TestResult
+    heteroscedasticity: TestResult
+    levene: TestResult
+    intercept_test: TestResult
+    back_calculated: tuple
+    fraction_within_tolerance: float | None
+    outliers: tuple
+    studentised_limit: float | None
+    cooks_limit: float | None
+    diagnostics: tuple             # sentences about degenerate data
+
+
+def _levels(x):
+    levels, counts = np.unique(x, return_counts=True)
+    return levels, counts
+
+
+def lack_of_fit(fit: PolynomialFit) -> TestResult:
+    """Lack-of-fit F test against pure error.
+
+    Notes
+    -----
+    With k distinct concentrations and p parameters, SS_pe = sum_i w_ij
+    (y_ij - ybar_i)^2 (weighted group means), SS_lof = SS_res - SS_pe,
+    F = (SS_lof / (k - p)) / (SS_pe / (n - k)) on F(k - p, n - k).
+    Requires replicated levels (n > k) and k > p. [Draper-Smith] sec. 2.1;
+    [ISO8466-1].
+    """
+    method = "lack-of-fit F test"
+    levels, counts = _levels(fit.x)
+    k, n, p = levels.size, fit.n, fit.n_params
+    if n <= k:
+        return not_applicable(method, "no concentration is replicated, so there is no pure error")
+    if k <= p:
+        return not_applicable(method, f"{k} distinct concentrations leave no degrees of freedom "
+                                      f"for lack of fit with {p} parameters")
+    w, y = fit.weights, fit.y
+    ss_pe = 0.0
+    for level in levels:
+        m = fit.x == level
+        ybar = np.sum(w[m] * y[m]) / np.sum(w[m])
+        ss_pe += float(np.sum(w[m] * (y[m] - ybar) ** 2))
+    ss_lof = max(fit.ssr - ss_pe, 0.0)
+    d1, d2 = k - p, n - k
+    if ss_pe <= 0:
+        return not_applicable(method, "replicates are identical (zero pure error)")
+    F = (ss_lof / d1) / (ss_pe / d2)
+    return TestResult(method, float(F), float(stats.f.sf(F, d1, d2)), (d1, d2))
+
+
+def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResult:
+    """Mandel's fitting test: does a quadratic fit significantly better than a line?
+
+    Notes
+    -----
+    With s1 and s2 the residual SDs of the straight line and the quadratic,
+    DS^2 = (n - 2) s1^2 - (n - 3) s2^2 and F = DS^2 / s2^2 on F(1, n - 3).
+    [ISO8466-1], [DIN38402-51], [Mandel].
+    """
+    method = "Mandel's fitting test"
+    x = np.asarray(x, float)
+    n = x.size
+    if np.unique(x).size < 3 or n < 4:
+        return not_applicable(method, "needs at least 3 distinct concentrations and 4 points")
+    lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
+    quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
+    if not quad.residual_variance > 0:
+        return not_applicable(method, "the quadratic fits exactly (zero residual SD)")
+    ds2 = (n - 2) * lin.residual_variance - (n - 3) * quad.residual_variance
+    F = max(ds2, 0.0) / quad.residual_variance
+    return TestResult(method, float(F), float(stats.f.sf(F, 1, n - 3)), (1, n - 3))
+
+
+def back_calculate(fit: PolynomialFit, tolerance_pct: float, lowest_tolerance_pct: float) -> tuple:
+    """Back-calculated concentration of every calibrator and its % deviation.
+
+    Notes
+    -----
+    found_i = f^-1(y_i); deviation = 100 (found_i - x_i) / x_i. The lowest
+    non-zero level is judged against ``lowest_tolerance_pct``, the others
+    against ``tolerance_pct``; nominal zero is reported, not judged.
+    Common practice in bioanalytical validation (ICH M10, sec. 3.2.5.1 and
+    EMA 2011 guideline: +/-15 %, +/-20 % at the LLOQ).
+    """
+    nonzero = fit.x[fit.x > 0]
+    lowest = float(nonzero.min()) if nonzero.size else None
+    out = []
+    for xi, yi in zip(fit.x, fit.y):
+        found, _ = fit.inverse(float(yi))
+        if xi == 0:
+            out.append(BackCalculated(float(xi), float(yi), found, None, None, None))
+            continue
+        tol = lowest_tolerance_pct if xi == lowest else tolerance_pct
+        dev = 100.0 * (found - xi) / xi
+        ok = bool(np.isfinite(dev) and abs(dev) <= tol)
+        out.append(BackCalculated(float(xi), float(yi), found, float(dev), tol, ok))
+    return tuple(out)
+
+
+def _sum_abs_re(fit: PolynomialFit) -> float:
+    total = 0.0
+    for b in back_calculate(fit, np.inf, np.inf):
+        if b.deviation_pct is not None:
+            total += abs(b.deviation_pct) if np.isfinite(b.deviation_pct) else np.inf
+    return total
+
+
+def choose_weighting(x, y, model: str, alpha: float = 0.05) -> tuple:
+    """Choose the weighting with the smallest sum of |relative error| of back-calculation.
+
+    Candidates none, 1/x, 1/x^2, 1/y, 1/y^2; a candidate that cannot be
+    computed on these data is listed with the reason. [Almeida].
+    Returns ``(best, candidates)``.
+    """
+    candidates = []
+    for wt in ("none", "1/x", "1/x^2", "1/y", "1/y^2"):
+        try:
+            raw_weights(wt, x, y)
+        except ValueError as exc:
+            candidates.append(WeightingCandidate(wt, None, None, str(exc)))
+            continue
+        fit = fit_polynomial(x, y, model=model, weighting=wt, alpha=alpha)
+        candidates.append(WeightingCandidate(wt, _sum_abs_re(fit), fit.residual_sd))
+    usable = [c for c in candidates if c.sum_abs_relative_error_pct is not None]
+    best = min(usable, key=lambda c: c.sum_abs_relative_error_pct).weighting
+    return best, tuple(candidates)
+
+
+def _normality(fit: PolynomialFit) -> TestResult:
+    method = "Shapiro-Wilk"
+    r = fit.weighted_residuals
+    if r.size < 3:
+        return not_applicable(method, "needs at least 3 residuals")
+    if not fit.residual_variance > 0 or np.ptp(r) <= 1e-12 * np.max(np.abs(fit.y)):
+        return not_applicable(method, "the residuals are all zero (perfect fit)")
+    with quiet_numpy():
+        res = stats.shapiro(r)
+    return TestResult(method, float(res.statistic), float(res.pvalue))
+
+
+def _breusch_pagan(x, y, model: str) -> TestResult:
+    method = "Breusch-Pagan (Koenker studentised)"
+    unweighted = fit_polynomial(x, y, model=model, weighting="none")
+    resid = unweighted.residuals
+    if not unweighted.residual_variance > 0 or np.ptp(resid**2) == 0:
+        return not_applicable(method, "the residuals are all zero (perfect fit)")
+    powers = unweighted.powers
+    u = (np.asarray(x, float) - unweighted.centre) / unweighted.scale
+    exog = np.column_stack([np.ones_like(u)] + [u**k for k in powers if k > 0])
+    with quiet_numpy():
+        lm, lm_p, _, _ = het_breuschpagan(resid, exog)
+    return TestResult(method, float(lm), float(lm_p), (exog.shape[1] - 1,))
+
+
+def _levene(x, y) -> TestResult:
+    method = "Levene (median-centred)"
+    levels, counts = _levels(x)
+    if levels.size < 2 or counts.min() < 3:
+        return not_applicable(method, "needs at least 3 replicates at every concentration")
+    groups = [np.asarray(y)[np.asarray(x) == lv] for lv in levels]
+    if all(np.ptp(g) == 0 for g in groups):
+        return not_applicable(method, "every level has identical replicates")
+    with quiet_numpy():
+        res = stats.levene(*groups, center="median")
+    return TestResult(method, float(res.statistic), float(res.pvalue), (levels.size - 1, x.size - levels.size))
+
+
+def _outliers(fit: PolynomialFit, alpha: float):
+    """Externally studentised residuals and Cook's distance, on the weighted fit.
+
+    Notes
+    -----
+    r_i = e_i sqrt(w_i) / (s sqrt(1 - h_i)); t_i = r_i sqrt((n-p-1)/(n-p-r_i^2));
+    flagged when |t_i| > t(1 - alpha/(2n), n - p - 1) (Bonferroni).
+    Cook's D_i = r_i^2 h_i / (p (1 - h_i)), flagged when above the median of
+    F(p, n - p). [Draper-Smith] ch. 8, [Cook].
+    """
+    n, p = fit.n, fit.n_params
+    if n - p - 1 < 1 or not fit.residual_variance > 0:
+        return (), None, None
+    h = np.clip(fit.leverage, 0, 1 - 1e-12)
+    with quiet_numpy():
+        r = fit.weighted_residuals / (fit.residual_sd * np.sqrt(1 - h))
+        t = r * np.sqrt((n - p - 1) / np.maximum(n - p - r**2, 1e-300))
+        cooks = r**2 * h / (p * (1 - h))
+    t_limit = float(stats.t.ppf(1 - alpha / (2 * n), n - p - 1))
+    d_limit = float(stats.f.ppf(0.5, p, n - p))
+    flags = []
+    for i in range(n):
+        reasons = []
+        if abs(t[i]) > t_limit:
+            reasons.append("studentised residual")
+        if cooks[i] > d_limit:
+            reasons.append("Cook's distance")
+        if reasons:
+            flags.append(OutlierFlag(i, float(fit.x[i]), float(fit.y[i]), float(t[i]),
+                                     float(cooks[i]), tuple(reasons)))
+    return tuple(flags), t_limit, d_limit
+
+
+def _intercept_test(fit: PolynomialFit) -> TestResult:
+    method = "t test, H0: intercept = 0"
+    c = fit.coefficients.get("intercept")
+    if c is None:
+        return not_applicable(method, "the line is forced through the origin")
+    if c.statistic is None:
+        return not_applicable(method, "the intercept has zero standard error (perfect fit)")
+    return TestResult(method, c.statistic, c.pvalue, (fit.df_resid,))
+
+
+def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
+                        through_origin: bool = False, alpha: float = 0.05,
+                        tolerance_pct: float = 15.0, lowest_tolerance_pct: float = 20.0
+                        ) -> CalibrationResult:
+    """Fit and assess one analyte's calibration.
+
+    ``model`` may be "auto" (Mandel's test at ``alpha`` decides between
+    straight line and quadratic) and ``weighting`` may be "auto" (see
+    :func:`choose_weighting`).
+    """
+    x = np.asarray(x, float)
+    y = np.asarray(y, float)
+    levels, counts = _levels(x)
+    diagnostics = []
+    if np.ptp(y) == 0:
+        diagnostics.append("every response is the same: the method does not respond to concentration")
+
+    wt = weighting
+    candidates = ()
+    base_model = "origin" if through_origin else "linear"
+    if weighting == "auto":
+        wt, candidates = choose_weighting(x, y, base_model, alpha)
+    mandel = mandel_test(x, y, wt if wt != "auto" else "none", alpha) if not through_origin else \
+        not_applicable("Mandel's fitting test", "the line is forced through the origin")
+    chosen = model
+    model_choice = f'as declared (model = "{model}")'
+    if model == "auto":
+        if mandel.applicable and mandel.pvalue < alpha:
+            chosen = "quadratic"
+            model_choice = (f"quadratic, because Mandel's test is significant "
+                            f"(p = {mandel.pvalue:.3g} < alpha = {alpha:g})")
+        else:
+            chosen = "linear"
+            model_choice = ("straight line, because Mandel's test is not significant"
+                            if mandel.applicable else
+                            f"straight line, because Mandel's test is not applicable ({mandel.reason})")
+        if weighting == "auto" and chosen == "quadratic":
+            wt, candidates = choose_weighting(x, y, "quadratic", alpha)
+    fit_model = "origin" if through_origin else chosen
+    fit = fit_polynomial(x, y, model=fit_model, weighting=wt, alpha=alpha)
+    if not fit.residual_variance > 0:
+        diagnostics.append("the fit is exact (zero residual SD): tests that need residual "
+                           "scatter are not applicable and every interval has zero width")
+    back = back_calculate(fit, tolerance_pct, lowest_tolerance_pct)
+    judged = [b for b in back if b.passed is not None]
+    fraction = sum(b.passed for b in judged) / len(judged) if judged else None
+    outliers, t_limit, d_limit = _outliers(fit, alpha)
+    with quiet_numpy():
+        result = CalibrationResult(
+            fit=fit, model=chosen, through_origin=through_origin, weighting=wt,
+            model_choice=model_choice, weighting_candidates=candidates,
+            levels=tuple(float(v) for v in levels), replicates=tuple(int(c) for c in counts),
+            lack_of_fit=lack_of_fit(fit), mandel=mandel, normality=_normality(fit),
+            heteroscedasticity=_breusch_pagan(x, y, fit_model), levene=_levene(x, y),
+            intercept_test=_intercept_test(fit), back_calculated=back,
+            fraction_within_tolerance=fraction, outliers=outliers,
+            studentised_limit=t_limit, cooks_limit=d_limit, diagnostics=tuple(diagnostics))
+    return result
+
+
+@dataclass(frozen=True)
+class SampleResult:
+    """Concentration read back from the calibration for one unknown.
+
+    ``concentration`` is NaN (and ``reason`` says why) when the response has
+    no real inverse on a quadratic.
+    """
+
+    id: str
+    replicates: int
+    mean_response: float
+    concentration: float
+    std_error: float
+    ci: ConfidenceInterval
+    within_range: bool
+    reason: str = ""
+
+
+def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
+    """Inverse prediction x0 from the mean of m readings, with its standard error.
+
+    Notes
+    -----
+    x0 solves f(x0) = ybar0. By first-order propagation,
+
+        Var(x0) = [s^2 / (w0 m) + Var(yhat(x0))] / f'(x0)^2,
+
+    with w0 the weight at x0 (1 unweighted) and Var(yhat(x0)) the variance of
+    the fitted response at x0. For the unweighted straight line this is the
+    closed form s(x0) = (s/b) sqrt(1/m + 1/n + (ybar0 - ybar)^2 / (b^2 Sxx))
+    [ISO8466-1] sec. 6; [Draper-Smith] sec. 3.2 (inverse regression).
+    CI: x0 +/- t(1 - alpha/2, n - p) s(x0). ``within_range`` is False when x0
+    lies outside [min x, max x] (extrapolation).
+    """
+    r = np.asarray(responses, float)
+    m = r.size
+    y0 = float(r.mean())
+    x0, inside = fit.inverse(y0)
+    lo, hi = float(fit.x.min()), float(fit.x.max())
+    level = 1 - fit.alpha
+    if not np.isfinite(x0):
+        nan = float("nan")
+        return SampleResult(sample_id, m, y0, nan, nan, ConfidenceInterval(nan, nan, level), False,
+                            "the mean response lies beyond the vertex of the quadratic; "
+                            "no concentration corresponds to it")
+    with quiet_numpy():
+        w0 = fit.weight_at(x0, y0)
+        slope = float(fit.slope_at(x0))
+        var = (fit.residual_variance / (w0 * m) + float(fit.mean_response_variance(x0))) / slope**2
+    se = float(np.sqrt(var)) if np.isfinite(var) else float("nan")
+    tq = fit.t_quantile
+    reason = ""
+    if not np.isfinite(se):
+        reason = "the weight at this concentration cannot be computed (zero or negative value)"
+    within = bool(inside and lo <= x0 <= hi)
+    return SampleResult(sample_id, m, y0, x0, se, ConfidenceInterval(x0 - tq * se, x0 + tq * se, level),
+                        within, reason)

@@ -1,0 +1,156 @@
+"""Command line: ``validator run``, ``validator check``.
+
+Errors the user can fix (:class:`~validator.errors.ValidatorError`) are caught
+here and only here: one line on stderr, exit code 2, no traceback.
+
+Exit codes: 0 every criterion met; 1 the run completed and at least one
+criterion was not met; 2 bad input or usage.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import sys
+import tempfile
+from datetime import datetime, timezone
+from pathlib import Path
+
+from . import __version__
+from .errors import OutputError, ValidatorError
+
+__all__ = ["main"]
+
+FORMATS = ("html", "pdf", "json")
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):          # usage errors: one line, exit 2
+        raise ValidatorError(f"usage: {message} (see 'validator --help')")
+
+
+def _formats(text: str) -> tuple:
+    chosen = tuple(dict.fromkeys(p.strip().lower() for p in text.split(",") if p.strip()))
+    bad = [p for p in chosen if p not in FORMATS]
+    if bad or not chosen:
+        raise ValidatorError(f'--format: unknown format "{",".join(bad)}"; choose from html, pdf, json')
+    return chosen
+
+
+def run_timestamp() -> str:
+    """UTC time of the run; SOURCE_DATE_EPOCH (reproducible builds) wins if set."""
+    epoch = os.environ.get("SOURCE_DATE_EPOCH")
+    if epoch is not None:
+        try:
+            moment = datetime.fromtimestamp(int(epoch), tz=timezone.utc)
+        except ValueError:
+            raise ValidatorError(f'SOURCE_DATE_EPOCH = "{epoch}" is not a whole number of seconds') from None
+    else:
+        moment = datetime.now(timezone.utc).replace(microsecond=0)
+    return moment.isoformat().replace("+00:00", "Z")
+
+
+def _write_outputs(out: Path, force: bool, write) -> None:
+    """Write into a temporary sibling folder, then move it into place."""
+    if out.exists() and not force:
+        raise OutputError(f"{out}: output folder exists; choose another --out or add --force")
+    if out.exists() and not out.is_dir():
+        raise OutputError(f"{out}: exists and is not a folder")
+    parent = out.resolve().parent
+    try:
+        parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=parent))
+    except OSError as exc:
+        raise OutputError(f"{out}: cannot create the output folder ({exc.strerror})") from None
+    try:
+        write(tmp)
+        if out.exists():
+            shutil.rmtree(out)
+        os.replace(tmp, out)
+    finally:
+        if tmp.exists():
+            shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _cmd_run(args) -> int:
+    from .engine import analyse_study
+    from .loading import load_study
+    from .results import build_results, dumps
+
+    formats = _formats(args.format)
+    loaded = load_study(args.study)
+    result = analyse_study(loaded)
+    results = build_results(result, generated_at=run_timestamp())
+    out = Path(args.out)
+
+    def write(folder: Path):
+        if "json" in formats:
+            (folder / "results.json").write_text(dumps(results), encoding="utf-8")
+        if "html" in formats or "pdf" in formats:
+            from .report import render_dossier
+            render_dossier(result, results, folder, formats=formats, paper=args.paper)
+        from .integrity import write_manifest
+        write_manifest(folder)
+
+    _write_outputs(out, args.force, write)
+    failed = [c for a in results["analytes"] for c in a["criteria"] if c["pass"] is False]
+    print(f"validator: {results['verdict'].upper()}: {len(results['analytes'])} analyte(s), "
+          f"{len(failed)} criterion/criteria not met; output in {out}")
+    return 1 if results["verdict"] == "fail" else 0
+
+
+def _cmd_check(args) -> int:
+    from .loading import load_study
+
+    loaded = load_study(args.study)
+    n = sum(len(a.calibration.concentration) for a in loaded.analytes)
+    print(f"validator: {args.study} is valid: {len(loaded.analytes)} analyte(s), "
+          f"{n} calibration point(s), {len(loaded.inputs) - 1} data file(s)")
+    return 0
+
+
+def _cmd_verify(args) -> int:
+    from .integrity import verify
+
+    problems = verify(Path(args.folder), args.study)
+    if problems:
+        for p in problems:
+            print(f"validator: CHANGED: {p}")
+        return 1
+    print(f"validator: {args.folder} is intact: every output and input matches its recorded SHA-256")
+    return 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="validator", description="Analytical method validation: statistics, "
+                     "acceptance criteria and a dossier from one study file.")
+    parser.add_argument("--version", action="version", version=f"validator {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    run = sub.add_parser("run", help="analyse a study and write results.json and the dossier")
+    run.add_argument("study", help="the study file (TOML)")
+    run.add_argument("--out", required=True, help="output folder (must not exist unless --force)")
+    run.add_argument("--format", default="html,pdf,json", help="any of html,pdf,json (default all)")
+    run.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size")
+    run.add_argument("--force", action="store_true", help="replace an existing output folder")
+    run.set_defaults(func=_cmd_run)
+    check = sub.add_parser("check", help="validate the study file and its data without analysing")
+    check.add_argument("study")
+    check.set_defaults(func=_cmd_check)
+    ver = sub.add_parser("verify", help="check that an output folder still matches its data")
+    ver.add_argument("folder")
+    ver.add_argument("--study", help="also re-hash the inputs named by this study file")
+    ver.set_defaults(func=_cmd_verify)
+    return parser
+
+
+def main(argv=None) -> int:
+    try:
+        args = build_parser().parse_args(argv)
+        return args.func(args)
+    except ValidatorError as exc:
+        print(f"validator: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print("validator: interrupted; nothing was written", file=sys.stderr)
+        return 130

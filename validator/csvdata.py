@@ -1,0 +1,194 @@
+"""Reading the study's CSV data files into plain columns.
+
+This is the only module that opens data files. It turns a CSV export into a
+:class:`Table` of strings and numbers, and turns everything it cannot read
+into a :class:`~validator.errors.DataError` that names the file, the row (the
+line number in the file, header = row 1), the column and the value.
+
+Numbers are parsed strictly: a cell is a number only if it is one number in
+the declared decimal style. Thousands separators, units pasted after the
+number, NaN and infinity are refused with a message saying which.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import os
+import re
+import stat
+from dataclasses import dataclass
+from pathlib import Path
+
+from .errors import DataError
+
+__all__ = ["Table", "read_table", "DEFAULT_MAX_BYTES", "DEFAULT_MAX_ROWS"]
+
+DEFAULT_MAX_BYTES = 100 * 1024 * 1024
+DEFAULT_MAX_ROWS = 1_000_000
+
+_DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
+_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s].*)")
+_THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?")
+
+
+@dataclass(frozen=True)
+class Table:
+    """A CSV file read into columns.
+
+    ``rows`` holds the file row number of each record, so that later checks
+    (a negative concentration, a duplicate id) can point at the line.
+    """
+
+    path: str            # as written in the study file
+    columns: dict        # canonical (lower-case) name -> list of raw strings
+    rows: tuple          # file row number of each record
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def has(self, name: str) -> bool:
+        return name in self.columns
+
+    def numbers(self, name: str, decimal: str) -> list:
+        """Column ``name`` parsed as finite floats (every cell required)."""
+        return [parse_number(v, decimal=decimal, file=self.path, row=r, column=name)
+                for v, r in zip(self.columns[name], self.rows)]
+
+    def texts(self, name: str) -> list:
+        """Column ``name`` as stripped strings; empty cells are an error."""
+        out = []
+        for v, r in zip(self.columns[name], self.rows):
+            if v == "":
+                raise DataError("the cell is empty", file=self.path, row=r, column=name, value=v)
+            out.append(v)
+        return out
+
+
+def parse_number(text: str, *, decimal: str, file: str, row: int, column: str) -> float:
+    """Parse one cell as a finite number in the declared decimal style."""
+    s = text.strip()
+    where = dict(file=file, row=row, column=column, value=text)
+    if s == "":
+        raise DataError("the cell is empty", **where)
+    if s.lower().lstrip("+-") in {"nan", "inf", "infinity", "na", "n/a"}:
+        raise DataError(f'"{s}" is not a finite number', **where)
+    other = "," if decimal == "." else "."
+    if other not in s:
+        candidate = s.replace(",", ".")
+        if _NUMBER.fullmatch(candidate):
+            return float(candidate)
+    if _THOUSANDS.fullmatch(s) and (s.count(",") + s.count(".") + s.count("'") + s.count(" ")) > 1:
+        raise DataError(f'"{s}" has thousands separators; write the number without them', **where)
+    if other in s and _NUMBER.fullmatch(s.replace(other, ".")) and s.count(other) == 1:
+        if decimal == ".":
+            raise DataError(f'"{s}" uses a decimal comma but the study declares decimal = "."; '
+                            'set decimal = "," in [study]', **where)
+        raise DataError(f'"{s}" uses a decimal point but the study declares decimal = ","; '
+                        'set decimal = "." in [study]', **where)
+    m = _NUMBER_THEN_TEXT.fullmatch(s)
+    if m:
+        raise DataError(f'"{s}" has text after the number ("{m.group(5)}"); '
+                        'give units in the study file, not in data cells', **where)
+    raise DataError(f'"{s}" is not a number', **where)
+
+
+def _check_path(path: Path, shown: str, max_bytes: int) -> int:
+    try:
+        st = os.stat(path)
+    except FileNotFoundError:
+        raise DataError("data file not found", file=shown) from None
+    except OSError as exc:
+        raise DataError(f"data file cannot be read ({exc.strerror})", file=shown) from None
+    if stat.S_ISDIR(st.st_mode):
+        raise DataError("is a directory, not a data file", file=shown)
+    if not stat.S_ISREG(st.st_mode):
+        raise DataError("is not a regular file (device, FIFO or socket); refused", file=shown)
+    if st.st_size > max_bytes:
+        raise DataError(f"is {st.st_size} bytes, over the limit of {max_bytes} bytes", file=shown)
+    return st.st_size
+
+
+def read_bytes(path: Path, shown: str, max_bytes: int = DEFAULT_MAX_BYTES) -> bytes:
+    """Read a data file after checking it is a regular file under the size limit."""
+    _check_path(path, shown, max_bytes)
+    with open(path, "rb") as fh:
+        data = fh.read(max_bytes + 1)
+    if len(data) > max_bytes:
+        raise DataError(f"is over the limit of {max_bytes} bytes", file=shown)
+    return data
+
+
+def decode_text(data: bytes, shown: str) -> str:
+    """Decode UTF-8 (with or without BOM), naming the byte offset of a bad byte."""
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise DataError(f"is not UTF-8 text (byte 0x{data[exc.start]:02x} at byte offset "
+                        f"{exc.start}); save it as UTF-8", file=shown) from None
+    if "\x00" in text:
+        raise DataError(f"contains a NUL byte at character {text.index(chr(0))}; "
+                        "it is not a text CSV file", file=shown)
+    return text
+
+
+def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
+               optional: tuple = (), max_rows: int = DEFAULT_MAX_ROWS) -> Table:
+    """Parse CSV bytes into a :class:`Table`.
+
+    Header names are matched case-insensitively with surrounding spaces
+    stripped. Blank lines are skipped. Columns other than ``required`` and
+    ``optional`` are refused, so that a misspelt header is not ignored.
+    """
+    text = decode_text(data, shown)
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=_DELIMITERS[delimiter], strict=True)
+    header = None
+    header_row = 0
+    records, rows = [], []
+    try:
+        for record in reader:
+            line = reader.line_num
+            if not any(cell.strip() for cell in record):
+                continue
+            if header is None:
+                header, header_row = [c.strip().lower() for c in record], line
+                continue
+            if len(records) >= max_rows:
+                raise DataError(f"has more than {max_rows} data rows; refused", file=shown)
+            records.append([c.strip() for c in record])
+            rows.append(line)
+    except csv.Error as exc:
+        raise DataError(f"is not valid CSV ({exc})", file=shown, row=reader.line_num) from None
+    if header is None:
+        raise DataError("is empty (no header row)", file=shown)
+    seen = set()
+    for name in header:
+        if name == "":
+            raise DataError("the header has an empty column name", file=shown, row=header_row)
+        if name in seen:
+            raise DataError(f'the header names column "{name}" twice', file=shown, row=header_row)
+        seen.add(name)
+    allowed = set(required) | set(optional)
+    for name in header:
+        if name not in allowed:
+            expected = ", ".join(f'"{c}"' for c in (*required, *optional))
+            hint = ""
+            if delimiter != "," and "," in name or delimiter == "," and ";" in name:
+                hint = " (is the delimiter in [study] right?)"
+            raise DataError(f'unknown column "{name}"{hint}; expected {expected}',
+                            file=shown, row=header_row)
+    for name in required:
+        if name not in header:
+            raise DataError(f'the header has no column "{name}" (found: '
+                            + ", ".join(f'"{c}"' for c in header) + ")", file=shown, row=header_row)
+    if not records:
+        raise DataError("has a header but no data rows", file=shown)
+    columns = {name: [] for name in header}
+    for record, line in zip(records, rows):
+        if len(record) != len(header):
+            raise DataError(f"has {len(record)} cells but the header has {len(header)}",
+                            file=shown, row=line)
+        for name, cell in zip(header, record):
+            columns[name].append(cell)
+    return Table(path=shown, columns=columns, rows=tuple(rows))

@@ -1,0 +1,177 @@
+"""Loading a study: the study file plus every data file it names.
+
+This layer does all the file reading and every check that needs to point at
+a file row (negative concentrations, too few levels, a weighting that cannot
+be computed). What it returns is plain arrays, grouped per analyte, ready for
+the pure analysis layer.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .csvdata import read_bytes, read_table
+from .errors import DataError, StudyError
+from .study import StudyFile, read_study_file
+
+__all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
+
+
+@dataclass(frozen=True)
+class InputFile:
+    role: str          # "study", "calibration", "samples", ...
+    path: str          # as given in the study file
+    resolved: str
+    sha256: str
+    size: int
+
+
+@dataclass(frozen=True)
+class CalibrationData:
+    concentration: np.ndarray = field(repr=False)
+    response: np.ndarray = field(repr=False)
+    series: tuple = field(repr=False)
+    rows: tuple = field(repr=False)
+
+
+@dataclass(frozen=True)
+class SampleData:
+    id: str
+    responses: tuple
+    rows: tuple
+
+
+@dataclass(frozen=True)
+class AnalyteData:
+    name: str
+    calibration: CalibrationData
+    samples: tuple = ()
+
+
+@dataclass(frozen=True)
+class LoadedStudy:
+    study: StudyFile
+    inputs: tuple            # InputFile, the study file first
+    analytes: tuple          # AnalyteData, in order of first appearance
+
+    @property
+    def config(self):
+        return self.study.config
+
+
+def _group(names, rows):
+    order, groups = [], {}
+    for i, name in enumerate(names):
+        if name not in groups:
+            groups[name] = []
+            order.append(name)
+        groups[name].append(i)
+    return order, groups
+
+
+class _Reader:
+    def __init__(self, study: StudyFile):
+        self.study = study
+        cfg = study.config.study
+        self.decimal = cfg.decimal
+        self.delimiter = cfg.delimiter
+        self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
+        self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
+                                 len(study.text.encode()))]
+
+    def table(self, role: str, path: str, required: tuple, optional: tuple = ()):
+        resolved = self.study.resolve(path)
+        data = read_bytes(resolved, path, self.max_bytes)
+        self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data)))
+        return read_table(data, path, delimiter=self.delimiter, required=required, optional=optional)
+
+
+def _check_weighting(weighting: str, name: str, table, idx, x, y):
+    if weighting in ("1/x", "1/x^2"):
+        for i in idx:
+            if x[i] <= 0:
+                raise DataError(f"concentration {x[i]:g} cannot be weighted by {weighting}; "
+                                f'use weighting = "none" or "1/y", or remove the zero calibrator',
+                                file=table.path, row=table.rows[i], column="concentration",
+                                value=x[i])
+    if weighting in ("1/y", "1/y^2"):
+        for i in idx:
+            if y[i] <= 0:
+                raise DataError(f"response {y[i]:g} cannot be weighted by {weighting} "
+                                "(needs responses > 0)", file=table.path, row=table.rows[i],
+                                column="response", value=y[i])
+
+
+def _calibration(reader: _Reader):
+    cfg = reader.study.config
+    table = reader.table("calibration", cfg.calibration.data, ("concentration", "response"),
+                         ("analyte", "series"))
+    x = np.array(table.numbers("concentration", reader.decimal))
+    y = np.array(table.numbers("response", reader.decimal))
+    for i, xi in enumerate(x):
+        if xi < 0:
+            raise DataError(f"concentration {table.columns['concentration'][i]} is negative",
+                            file=table.path, row=table.rows[i], column="concentration", value=xi)
+    names = table.texts("analyte") if table.has("analyte") else [cfg.study.id] * len(table)
+    series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
+    order, groups = _group(names, table.rows)
+    result = {}
+    needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
+    for name in order:
+        idx = groups[name]
+        levels = np.unique(x[idx])
+        if levels.size < needed:
+            what = f'analyte "{name}" has' if table.has("analyte") else "the calibration has"
+            raise DataError(f"{what} {levels.size} distinct concentration(s); "
+                            f"at least {needed} are needed for this model",
+                            file=table.path, row=table.rows[idx[0]], column="concentration")
+        if np.ptp(y[idx]) == 0:
+            raise DataError(f'every response of analyte "{name}" is {y[idx][0]:g}: the instrument '
+                            "does not respond to concentration", file=table.path,
+                            row=table.rows[idx[0]], column="response")
+        _check_weighting(cfg.calibration.weighting, name, table, idx, x, y)
+        result[name] = CalibrationData(x[idx], y[idx], tuple(series[i] for i in idx),
+                                       tuple(table.rows[i] for i in idx))
+    return result, table.has("analyte")
+
+
+def _samples(reader: _Reader, analytes: dict, has_analyte: bool):
+    cfg = reader.study.config
+    if cfg.samples is None:
+        return {name: () for name in analytes}
+    table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
+    ids = table.texts("sample")
+    responses = table.numbers("response", reader.decimal)
+    if table.has("analyte"):
+        names = table.texts("analyte")
+    elif len(analytes) == 1:
+        names = [next(iter(analytes))] * len(table)
+    else:
+        raise DataError('has no column "analyte" but the calibration covers '
+                        f"{len(analytes)} analytes; say which analyte each reading belongs to",
+                        file=table.path)
+    out = {name: {} for name in analytes}
+    for sid, resp, name, row in zip(ids, responses, names, table.rows):
+        if name not in analytes:
+            raise DataError(f'analyte "{name}" is not in the calibration data (known: '
+                            + ", ".join(f'"{a}"' for a in analytes) + ")",
+                            file=table.path, row=row, column="analyte", value=name)
+        out[name].setdefault(sid, ([], []))
+        out[name][sid][0].append(resp)
+        out[name][sid][1].append(row)
+    return {name: tuple(SampleData(sid, tuple(r), tuple(rw)) for sid, (r, rw) in groups.items())
+            for name, groups in out.items()}
+
+
+def load_study(path: str | Path) -> LoadedStudy:
+    """Read and check a study file and all its data files."""
+    study = read_study_file(path)
+    reader = _Reader(study)
+    calibration, has_analyte = _calibration(reader)
+    samples = _samples(reader, calibration, has_analyte)
+    analytes = tuple(AnalyteData(name, calibration[name], samples[name]) for name in calibration)
+    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes)

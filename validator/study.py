@@ -1,0 +1,197 @@
+"""The study file: its schema, its defaults and its loading.
+
+A study file is TOML. Its schema is declared once, here, as pydantic models
+with ``extra="forbid"``, so that a misspelt key is an error (with a "did you
+mean" suggestion) instead of a silently ignored setting. Pydantic's error
+locations are translated into :class:`~validator.errors.StudyError` messages
+that name the study file, the line, the key and the offending value.
+
+Every default that was applied (a key the user did not write) is recorded so
+that the results and the dossier can list it.
+"""
+
+from __future__ import annotations
+
+import difflib
+import hashlib
+import re
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Literal, Optional
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+
+from .errors import StudyError
+
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS"]
+
+WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
+
+
+class _Section(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+
+
+class StudySection(_Section):
+    id: str = Field(min_length=1)
+    title: str = Field(min_length=1)
+    concentration_unit: str = Field(min_length=1)
+    response_unit: str = Field(min_length=1)
+    purpose: Literal["initial", "revalidation"] = "initial"
+    analyst: str = ""
+    reviewer: str = ""
+    instrument: str = ""
+    method: str = ""
+    notes: str = ""
+    decimal: Literal[".", ","] = "."
+    delimiter: Literal[",", ";", "tab"] = ","
+    max_data_file_mb: float = Field(100.0, gt=0)
+
+    @model_validator(mode="after")
+    def _dialect(self):
+        if self.decimal == "," and self.delimiter == ",":
+            raise ValueError('decimal = "," needs delimiter = ";" or "tab" (a comma cannot be both)')
+        return self
+
+
+class CalibrationSection(_Section):
+    data: str
+    model: Literal["linear", "quadratic", "auto"] = "linear"
+    weighting: Literal["none", "1/x", "1/x^2", "1/y", "1/y^2", "auto"] = "none"
+    through_origin: bool = False
+
+    @model_validator(mode="after")
+    def _origin_linear(self):
+        if self.through_origin and self.model != "linear":
+            raise ValueError('through_origin = true is only allowed with model = "linear"')
+        return self
+
+
+class SamplesSection(_Section):
+    data: str
+
+
+class CriteriaSection(_Section):
+    alpha: float = Field(0.05, gt=0, lt=0.5)
+    back_calculation_tolerance_pct: float = Field(15.0, gt=0)
+    lowest_level_tolerance_pct: float = Field(20.0, gt=0)
+    min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
+    r_squared_min: Optional[float] = Field(None, ge=0, le=1)
+
+
+class StudyConfig(_Section):
+    """The whole study file as validated data (no data files read yet)."""
+
+    study: StudySection
+    calibration: CalibrationSection
+    samples: Optional[SamplesSection] = None
+    criteria: CriteriaSection = CriteriaSection()
+
+
+@dataclass(frozen=True)
+class StudyFile:
+    """A study file read and validated, with what is needed for the audit trail."""
+
+    path: Path
+    shown: str                 # the path as the user gave it
+    text: str                  # the study file as given
+    sha256: str
+    config: StudyConfig
+    defaults_applied: tuple    # ("criteria.alpha", 0.05), ...
+
+    def resolve(self, data_path: str) -> Path:
+        """A data path from the study file, relative to the study file's folder."""
+        p = Path(data_path)
+        return p if p.is_absolute() else self.path.parent / p
+
+
+def _key_line(text: str, loc: tuple) -> int | None:
+    """Best-effort line number of the key at ``loc`` in the TOML text."""
+    lines = text.splitlines()
+    section, key = (loc[0], loc[-1]) if len(loc) > 1 else (None, loc[0])
+    in_section = section is None
+    for number, line in enumerate(lines, start=1):
+        stripped = line.strip()
+        if stripped.startswith("["):
+            name = stripped.strip("[] \t").split("]")[0].strip()
+            in_section = name == section
+            if section is None or len(loc) == 1:
+                if name == key:
+                    return number
+            continue
+        if in_section and re.match(rf'\s*"?{re.escape(str(key))}"?\s*=', line):
+            return number
+    return None
+
+
+def _fields_of(loc: tuple):
+    model = StudyConfig
+    for part in loc[:-1]:
+        field = model.model_fields.get(part)
+        if field is None:
+            return []
+        ann = field.annotation
+        args = getattr(ann, "__args__", None)
+        model = next((a for a in (args or (ann,)) if isinstance(a, type) and issubclass(a, BaseModel)), None)
+        if model is None:
+            return []
+    return list(model.model_fields)
+
+
+def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
+    err = exc.errors(include_url=False)[0]
+    loc = tuple(str(p) for p in err["loc"])
+    dotted = ".".join(loc) if loc else "(top level)"
+    line = _key_line(text, loc) if loc else None
+    kind = err["type"]
+    value = err.get("input")
+    if kind == "extra_forbidden":
+        choices = _fields_of(loc)
+        what = "section" if len(loc) == 1 else "key"
+        close = difflib.get_close_matches(loc[-1], choices, n=1, cutoff=0.6)
+        hint = f'; did you mean "{close[0]}"?' if close else (
+            "; allowed: " + ", ".join(choices) if choices else "")
+        return StudyError(f"unknown {what}{hint}", file=shown, line=line, key=dotted, value=loc[-1])
+    if kind == "missing":
+        what = "section" if len(loc) == 1 else "key"
+        return StudyError(f"required {what} is missing", file=shown, key=dotted)
+    message = err["msg"].removeprefix("Value error, ")
+    if kind == "value_error" or not loc or kind.startswith("model"):
+        return StudyError(message, file=shown, line=line, key=dotted or None)
+    return StudyError(f"{message}; got {value!r}", file=shown, line=line, key=dotted, value=value)
+
+
+def _defaults(model: BaseModel, prefix: str = "") -> list:
+    out = []
+    for name, field in type(model).model_fields.items():
+        value = getattr(model, name)
+        if isinstance(value, BaseModel):
+            out.extend(_defaults(value, f"{prefix}{name}."))
+        elif name not in model.model_fields_set and value is not None:
+            out.append((f"{prefix}{name}", value))
+    return out
+
+
+def read_study_file(path: str | Path) -> StudyFile:
+    """Read and validate a study file (the data files are not opened here)."""
+    from .csvdata import decode_text  # the same UTF-8 rules as data files
+
+    shown = str(path)
+    p = Path(path)
+    if not p.exists():
+        raise StudyError("study file not found", file=shown)
+    if not p.is_file():
+        raise StudyError("is not a regular file", file=shown)
+    raw = p.read_bytes()
+    text = decode_text(raw, shown)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(f"TOML syntax error: {exc}", file=shown) from None
+    try:
+        config = StudyConfig.model_validate(data)
+    except ValidationError as exc:
+        raise _translate(exc, shown, text) from None
+    return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
+                     config=config, defaults_applied=tuple(_defaults(config)))
