@@ -130,7 +130,9 @@ def lack_of_fit(fit: PolynomialFit) -> TestResult:
         ss_pe += float(np.sum(w[m] * (y[m] - ybar) ** 2))
     ss_lof = max(fit.ssr - ss_pe, 0.0)
     d1, d2 = k - p, n - k
-    if ss_pe <= 0:
+    if fit.exact:
+        return not_applicable(method, "the fit is exact (zero residual SD)")
+    if ss_pe <= 1e-18 * np.sum(w * y**2):
         return not_applicable(method, "replicates are identical (zero pure error)")
     F = (ss_lof / d1) / (ss_pe / d2)
     return TestResult(method, float(F), float(stats.f.sf(F, d1, d2)), (d1, d2))
@@ -152,7 +154,7 @@ def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResul
         return not_applicable(method, "needs at least 3 distinct concentrations and 4 points")
     lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
     quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
-    if not quad.residual_variance > 0:
+    if quad.exact:
         return not_applicable(method, "the quadratic fits exactly (zero residual SD)")
     ds2 = (n - 2) * lin.residual_variance - (n - 3) * quad.residual_variance
     F = max(ds2, 0.0) / quad.residual_variance
@@ -219,7 +221,7 @@ def _normality(fit: PolynomialFit) -> TestResult:
     r = fit.weighted_residuals
     if r.size < 3:
         return not_applicable(method, "needs at least 3 residuals")
-    if not fit.residual_variance > 0 or np.ptp(r) <= 1e-12 * np.max(np.abs(fit.y)):
+    if fit.exact:
         return not_applicable(method, "the residuals are all zero (perfect fit)")
     with quiet_numpy():
         res = stats.shapiro(r)
@@ -230,7 +232,7 @@ def _breusch_pagan(x, y, model: str) -> TestResult:
     method = "Breusch-Pagan (Koenker studentised)"
     unweighted = fit_polynomial(x, y, model=model, weighting="none")
     resid = unweighted.residuals
-    if not unweighted.residual_variance > 0 or np.ptp(resid**2) == 0:
+    if unweighted.exact:
         return not_applicable(method, "the residuals are all zero (perfect fit)")
     powers = unweighted.powers
     u = (np.asarray(x, float) - unweighted.centre) / unweighted.scale
@@ -264,7 +266,7 @@ def _outliers(fit: PolynomialFit, alpha: float):
     F(p, n - p). [Draper-Smith] ch. 8, [Cook].
     """
     n, p = fit.n, fit.n_params
-    if n - p - 1 < 1 or not fit.residual_variance > 0:
+    if n - p - 1 < 1 or fit.exact:
         return (), None, None
     h = np.clip(fit.leverage, 0, 1 - 1e-12)
     with quiet_numpy():
@@ -291,8 +293,8 @@ def _intercept_test(fit: PolynomialFit) -> TestResult:
     c = fit.coefficients.get("intercept")
     if c is None:
         return not_applicable(method, "the line is forced through the origin")
-    if c.statistic is None:
-        return not_applicable(method, "the intercept has zero standard error (perfect fit)")
+    if c.statistic is None or fit.exact:
+        return not_applicable(method, "the fit is exact (zero residual SD)")
     return TestResult(method, c.statistic, c.pvalue, (fit.df_resid,))
 
 
@@ -336,7 +338,7 @@ def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
             wt, candidates = choose_weighting(x, y, "quadratic", alpha)
     fit_model = "origin" if through_origin else chosen
     fit = fit_polynomial(x, y, model=fit_model, weighting=wt, alpha=alpha)
-    if not fit.residual_variance > 0:
+    if fit.exact:
         diagnostics.append("the fit is exact (zero residual SD): tests that need residual "
                            "scatter are not applicable and every interval has zero width")
     back = back_calculate(fit, tolerance_pct, lowest_tolerance_pct)

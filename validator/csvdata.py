@@ -29,7 +29,7 @@ DEFAULT_MAX_ROWS = 1_000_000
 
 _DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
 _NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
-_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s].*)")
+_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s.,+-].*)")
 _THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?")
 
 
@@ -98,7 +98,7 @@ def _check_path(path: Path, shown: str, max_bytes: int) -> int:
     try:
         st = os.stat(path)
     except FileNotFoundError:
-        raise DataError("data file not found", file=shown) from None
+        raise DataError(f"data file not found (looked for {path})", file=shown) from None
     except OSError as exc:
         raise DataError(f"data file cannot be read ({exc.strerror})", file=shown) from None
     if stat.S_ISDIR(st.st_mode):
@@ -187,7 +187,11 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
     columns = {name: [] for name in header}
     for record, line in zip(records, rows):
         if len(record) != len(header):
-            raise DataError(f"has {len(record)} cells but the header has {len(header)}",
+            hint = ""
+            if len(record) > len(header) and delimiter == ",":
+                hint = ('; is there a decimal comma or a thousands separator? Files with decimal '
+                        'commas need delimiter = ";" and decimal = "," in [study]')
+            raise DataError(f"has {len(record)} cells but the header has {len(header)}{hint}",
                             file=shown, row=line)
         for name, cell in zip(header, record):
             columns[name].append(cell)

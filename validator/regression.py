@@ -110,6 +110,14 @@ class PolynomialFit:
         return len(self.powers)
 
     @property
+    def exact(self) -> bool:
+        """True when the fit passes through every point (to rounding error).
+
+        Tests that need residual scatter are then not applicable.
+        """
+        return bool(self.residual_sd <= 1e-9 * np.max(np.abs(self.y)))
+
+    @property
     def residual_sd(self) -> float:
         return float(np.sqrt(self.residual_variance))
 

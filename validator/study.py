@@ -20,7 +20,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal, Optional
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator, model_validator
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 from .errors import StudyError
 
@@ -140,7 +140,9 @@ def _fields_of(loc: tuple):
 
 
 def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
-    err = exc.errors(include_url=False)[0]
+    errors = exc.errors(include_url=False)
+    # an unknown key usually explains a "missing" one (a typo), so report it first
+    err = sorted(errors, key=lambda e: e["type"] != "extra_forbidden")[0]
     loc = tuple(str(p) for p in err["loc"])
     dotted = ".".join(loc) if loc else "(top level)"
     line = _key_line(text, loc) if loc else None
