@@ -61,6 +61,9 @@ def _write_outputs(out: Path, force: bool, write) -> None:
     try:
         parent.mkdir(parents=True, exist_ok=True)
         tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=parent))
+        umask = os.umask(0)
+        os.umask(umask)
+        tmp.chmod(0o777 & ~umask)       # mkdtemp makes 0700; give the usual folder mode
     except OSError as exc:
         raise OutputError(f"{out}: cannot create the output folder ({exc.strerror})") from None
     try:

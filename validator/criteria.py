@@ -46,7 +46,7 @@ def calibration_criteria(cal, crit) -> tuple:
         ("" if frac is not None else "not applicable: no calibrator with a non-zero nominal value")))
     if crit.r_squared_min is not None:
         r2 = cal.fit.r_squared
-        out.append(Criterion("r-squared", f"coefficient of determination R^2 at least {crit.r_squared_min:g}",
+        out.append(Criterion("r-squared", f"coefficient of determination R² at least {crit.r_squared_min:g}",
                              r2, crit.r_squared_min, r2 >= crit.r_squared_min))
     return tuple(out)
 

@@ -10,12 +10,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from scipy import stats
 from ._common import quiet_numpy
 from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import Criterion, calibration_criteria, overall_verdict
 from .loading import AnalyteData, LoadedStudy
 
-__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "analyse_study", "curve_bands"]
+__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "analyse_study", "curve_bands",
+           "residual_series"]
 
 
 @dataclass(frozen=True)
@@ -52,6 +54,34 @@ def curve_bands(fit, points: int = 121) -> CurveBands:
 
 
 @dataclass(frozen=True)
+class ResidualSeries:
+    """Residual views for the dossier plots.
+
+    Relative residual = 100 e_i / yhat_i (undefined where yhat_i = 0).
+    Q-Q: ordered weight-scaled residuals against normal quantiles with
+    Filliben's plotting positions, and the least-squares line through them,
+    as scipy.stats.probplot computes them.
+    """
+
+    relative_x: tuple
+    relative_pct: tuple
+    qq_theoretical: tuple
+    qq_ordered: tuple
+    qq_line: tuple | None      # (intercept, slope)
+
+
+def residual_series(fit) -> ResidualSeries:
+    yhat = fit.predict(fit.x)
+    keep = np.abs(yhat) > 0
+    rel = 100.0 * fit.residuals[keep] / yhat[keep]
+    with quiet_numpy():
+        (osm, osr), (slope, intercept, _) = stats.probplot(fit.weighted_residuals, dist="norm")
+    line = (float(intercept), float(slope)) if np.isfinite(slope) and not fit.exact else None
+    return ResidualSeries(tuple(map(float, fit.x[keep])), tuple(map(float, rel)),
+                          tuple(map(float, osm)), tuple(map(float, osr)), line)
+
+
+@dataclass(frozen=True)
 class AnalyteResult:
     name: str
     data: AnalyteData = field(repr=False)
@@ -59,6 +89,7 @@ class AnalyteResult:
     samples: tuple               # SampleResult
     criteria: tuple              # Criterion
     bands: CurveBands = field(repr=False)
+    residual_views: ResidualSeries = field(repr=False)
 
     @property
     def verdict(self) -> str:
@@ -88,7 +119,8 @@ def analyse_analyte(data: AnalyteData, config) -> AnalyteResult:
         lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
     samples = tuple(quantify(cal.fit, s.id, s.responses) for s in data.samples)
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
-                         criteria=calibration_criteria(cal, crit), bands=curve_bands(cal.fit))
+                         criteria=calibration_criteria(cal, crit), bands=curve_bands(cal.fit),
+                         residual_views=residual_series(cal.fit))
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

@@ -1,0 +1,126 @@
+"""Rendering: results -> self-contained HTML dossier -> PDF (WeasyPrint).
+
+The dossier is rendered from the results.json content (so every number shown
+is the number recorded, and carries a ``data-src`` attribute naming its
+path in results.json) plus the figures drawn from the engine's plot series.
+Templates live in ``report_templates/`` (installed as
+``validator.report_templates``) with autoescaping on; they format and never
+compute.
+"""
+
+from __future__ import annotations
+
+from importlib import resources
+from pathlib import Path
+
+import jinja2
+
+from .plots import PALETTE, figures_for_all
+from .text import SIG, SIG_P, calibration_sentences, fmt, fmt_p, verdict_label
+
+__all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
+
+
+def templates_dir() -> Path:
+    """The bundled templates: the installed package data, else the source tree."""
+    try:
+        installed = resources.files("validator.report_templates")
+        if installed.joinpath("dossier.html.j2").is_file():
+            return Path(str(installed))
+    except ModuleNotFoundError:
+        pass
+    return Path(__file__).resolve().parents[2] / "report_templates"
+
+
+def _environment() -> jinja2.Environment:
+    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(templates_dir())),
+                             autoescape=True, undefined=jinja2.StrictUndefined,
+                             trim_blocks=True, lstrip_blocks=True)
+    env.filters["fmt"] = fmt
+    env.filters["fmt_p"] = fmt_p
+    env.globals["verdict"] = verdict_label
+    return env
+
+
+def _plot_data(index: int, a, study: dict) -> dict:
+    fit, bands, rv = a.calibration.fit, a.bands, a.residual_views
+    back = a.calibration.back_calculated
+    judged = [b for b in back if b.passed is not None]
+    return {
+        "key": str(index), "xunit": study["concentration_unit"], "yunit": study["response_unit"],
+        "level_pct": f"{100 * (1 - fit.alpha):g}",
+        "x": fit.x.tolist(), "y": fit.y.tolist(), "residuals": fit.residuals.tolist(),
+        "grid": bands.x.tolist(), "fit": bands.fit.tolist(),
+        "conf_low": bands.confidence_low.tolist(), "conf_high": bands.confidence_high.tolist(),
+        "pred_low": bands.prediction_low.tolist(), "pred_high": bands.prediction_high.tolist(),
+        "outliers_x": [o.concentration for o in a.calibration.outliers],
+        "outliers_y": [o.response for o in a.calibration.outliers],
+        "rel_x": list(rv.relative_x), "rel_residuals": list(rv.relative_pct),
+        "qq_theoretical": list(rv.qq_theoretical), "qq_ordered": list(rv.qq_ordered),
+        "qq_line": rv.qq_line,
+        "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
+        "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
+    }
+
+
+def render_html(result, results: dict, *, paper: str = "a4") -> str:
+    """The dossier as one self-contained HTML document."""
+    study = results["study"]
+    alpha = result.loaded.config.criteria.alpha
+    figures = figures_for_all([_plot_data(i, a, study) for i, a in enumerate(result.analytes)])
+    analytes = []
+    for i, a in enumerate(results["analytes"]):
+        analytes.append({"index": i, "data": a, "figures": figures[i],
+                         "text": calibration_sentences(a, alpha, study["concentration_unit"])})
+    summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
+               for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
+    css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
+    page = {"a4": "A4", "letter": "letter"}[paper]
+    return _environment().get_template("dossier.html.j2").render(
+        r=results, study=study, analytes=analytes, summary=summary, alpha=alpha,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
+        study_text=result.loaded.study.text,
+        config=result.loaded.config)
+
+
+
+def _url_fetcher():
+    """A WeasyPrint URL fetcher that serves only inline ``data:`` URLs.
+
+    Everything else (file://, http(s)://, relative paths) is refused, so the
+    PDF step can read nothing but what is inside the HTML.
+    """
+    from weasyprint.urls import URLFetcher
+
+    class InlineOnlyFetcher(URLFetcher):
+        refused: list = []
+
+        def fetch(self, url, headers=None):
+            if url.startswith("data:"):
+                return super().fetch(url, headers)
+            InlineOnlyFetcher.refused.append(url)
+            raise ValueError(f"validator: external resource refused: {url}")
+
+    return InlineOnlyFetcher(allowed_protocols=("data",))
+
+
+def write_pdf(html: str, target: Path) -> list:
+    """Render the HTML to PDF; returns the list of refused URLs."""
+    import logging
+
+    import weasyprint
+
+    logging.getLogger("weasyprint").setLevel(logging.CRITICAL)
+    fetcher = _url_fetcher()
+    type(fetcher).refused = []
+    weasyprint.HTML(string=html, base_url=None, url_fetcher=fetcher).write_pdf(
+        str(target), pdf_identifier=b"validator-dossier", uncompressed_pdf=False)
+    return list(type(fetcher).refused)
+
+
+def render_dossier(result, results: dict, folder: Path, *, formats=("html", "pdf"), paper="a4") -> None:
+    html = render_html(result, results, paper=paper)
+    if "html" in formats:
+        (folder / "dossier.html").write_text(html, encoding="utf-8")
+    if "pdf" in formats:
+        write_pdf(html, folder / "dossier.pdf")

@@ -1,0 +1,142 @@
+"""Dossier figures as deterministic inline SVG.
+
+Plots are drawn from numbers the engine already computed (fitted curve,
+bands, residuals, Q-Q coordinates, back-calculated deviations); nothing is
+estimated here. Series are told apart by marker shape and line style as well
+as colour, so the figures survive greyscale printing. The SVG is made
+reproducible: fixed hash salt (stable element ids) and no date metadata.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import re
+from concurrent.futures import ProcessPoolExecutor
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+
+__all__ = ["PALETTE", "analyte_figures", "figures_for_all"]
+
+# our own palette: blue / amber / plum / slate, distinguishable with common colour-vision deficiencies
+PALETTE = {"ink": "#1d2430", "data": "#1f5a8c", "fit": "#1d2430", "conf": "#1f5a8c",
+           "pred": "#b36b00", "bad": "#a1331f", "band": "#dbe6f0", "grid": "#d9dde3"}
+
+_RC = {
+    "svg.hashsalt": "validator-dossier",
+    "svg.fonttype": "none",
+    "font.family": "DejaVu Sans",
+    "font.size": 8,
+    "axes.edgecolor": PALETTE["ink"],
+    "axes.labelcolor": PALETTE["ink"],
+    "axes.grid": True,
+    "grid.color": PALETTE["grid"],
+    "grid.linewidth": 0.5,
+    "xtick.color": PALETTE["ink"],
+    "ytick.color": PALETTE["ink"],
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "figure.dpi": 100,
+}
+
+
+def _svg(fig, name: str) -> str:
+    buf = io.StringIO()
+    fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": "validator", "Title": name})
+    plt.close(fig)
+    text = buf.getvalue()
+    text = text[text.index("<svg"):]
+    # unique ids per figure so that several inline SVGs never share an id
+    prefix = re.sub(r"[^A-Za-z0-9]", "", name)
+    text = re.sub(r'id="([^"]+)"', lambda m: f'id="{prefix}-{m.group(1)}"', text)
+    text = re.sub(r'url\(#([^)]+)\)', lambda m: f'url(#{prefix}-{m.group(1)})', text)
+    text = re.sub(r'xlink:href="#([^"]+)"', lambda m: f'xlink:href="#{prefix}-{m.group(1)}"', text)
+    return re.sub(r"\s+width=\"[^\"]+\"\s+height=\"[^\"]+\"", ' width="100%"', text, count=1)
+
+
+def _calibration_figure(d: dict) -> str:
+    fig, ax = plt.subplots(figsize=(6.4, 3.6))
+    ax.fill_between(d["grid"], d["pred_low"], d["pred_high"], color=PALETTE["band"], alpha=0.6,
+                    linewidth=0, label=f"{d['level_pct']} % prediction band")
+    ax.plot(d["grid"], d["pred_low"], ":", color=PALETTE["pred"], linewidth=1)
+    ax.plot(d["grid"], d["pred_high"], ":", color=PALETTE["pred"], linewidth=1)
+    ax.plot(d["grid"], d["conf_low"], "--", color=PALETTE["conf"], linewidth=1,
+            label=f"{d['level_pct']} % confidence band")
+    ax.plot(d["grid"], d["conf_high"], "--", color=PALETTE["conf"], linewidth=1)
+    ax.plot(d["grid"], d["fit"], "-", color=PALETTE["fit"], linewidth=1.4, label="fitted function")
+    ax.plot(d["x"], d["y"], "o", markersize=4, markerfacecolor="white",
+            markeredgecolor=PALETTE["data"], markeredgewidth=1.2, label="calibrators")
+    if d["outliers_x"]:
+        ax.plot(d["outliers_x"], d["outliers_y"], "x", markersize=8, color=PALETTE["bad"],
+                markeredgewidth=1.5, label="flagged point")
+    ax.set_xlabel(f"concentration ({d['xunit']})")
+    ax.set_ylabel(f"response ({d['yunit']})")
+    ax.legend(frameon=False, fontsize=7, loc="upper left")
+    fig.tight_layout()
+    return _svg(fig, f"cal{d['key']}")
+
+
+def _diagnostic_figure(d: dict) -> str:
+    fig, axes = plt.subplots(2, 2, figsize=(6.4, 4.8))
+    ax = axes[0, 0]
+    ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
+    ax.plot(d["x"], d["residuals"], "o", markersize=3.5, markerfacecolor="white",
+            markeredgecolor=PALETTE["data"])
+    ax.set_title("residuals", fontsize=8, loc="left")
+    ax.set_xlabel(f"concentration ({d['xunit']})")
+    ax.set_ylabel(f"response ({d['yunit']})")
+    ax = axes[0, 1]
+    ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
+    ax.plot(d["rel_x"], d["rel_residuals"], "s", markersize=3.5, markerfacecolor="white",
+            markeredgecolor=PALETTE["data"])
+    ax.set_title("relative residuals", fontsize=8, loc="left")
+    ax.set_xlabel(f"concentration ({d['xunit']})")
+    ax.set_ylabel("% of fitted response")
+    ax = axes[1, 0]
+    ax.plot(d["qq_theoretical"], d["qq_ordered"], "o", markersize=3.5, markerfacecolor="white",
+            markeredgecolor=PALETTE["data"])
+    if d["qq_line"]:
+        lo, hi = min(d["qq_theoretical"]), max(d["qq_theoretical"])
+        a, b = d["qq_line"]
+        ax.plot([lo, hi], [a + b * lo, a + b * hi], "--", color=PALETTE["ink"], linewidth=0.8)
+    ax.set_title("normal Q-Q of scaled residuals", fontsize=8, loc="left")
+    ax.set_xlabel("theoretical normal quantile")
+    ax.set_ylabel("ordered residual")
+    ax = axes[1, 1]
+    xs, tols = d["bc_x"], d["bc_tol"]
+    if xs:
+        ax.fill_between(range(len(xs)), [-t for t in tols], tols, step="mid", color=PALETTE["band"],
+                        linewidth=0, label="tolerance")
+    ok = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p]
+    bad = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p is False]
+    if ok:
+        ax.plot(*zip(*ok), "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"],
+                label="within")
+    if bad:
+        ax.plot(*zip(*bad), "x", markersize=6, color=PALETTE["bad"], markeredgewidth=1.4, label="outside")
+    ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
+    ax.set_xticks(range(len(xs)))
+    ax.set_xticklabels([f"{v:g}" for v in xs], rotation=90, fontsize=6)
+    ax.set_title("back-calculated deviation", fontsize=8, loc="left")
+    ax.set_xlabel(f"nominal ({d['xunit']})")
+    ax.set_ylabel("% deviation")
+    ax.legend(frameon=False, fontsize=6)
+    fig.tight_layout()
+    return _svg(fig, f"diag{d['key']}")
+
+
+def analyte_figures(d: dict) -> dict:
+    with matplotlib.rc_context(_RC):
+        return {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
+
+
+def figures_for_all(plot_data: list) -> list:
+    """Figures for every analyte; two processes when there are several analytes."""
+    if len(plot_data) >= 4 and (os.cpu_count() or 1) > 1:
+        import multiprocessing
+        with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork")) as pool:
+            return list(pool.map(analyte_figures, plot_data))
+    return [analyte_figures(d) for d in plot_data]
