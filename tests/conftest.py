@@ -10,7 +10,8 @@ import numpy as np
 import pytest
 
 REPO = Path(__file__).resolve().parents[1]
-REFERENCE = REPO.parent / "shared" / "reference-data"
+# CI and sessions lay shared/ beside the clone; VALIDATOR_REFERENCE_DATA overrides
+REFERENCE = Path(os.environ.get("VALIDATOR_REFERENCE_DATA", REPO.parent / "shared" / "reference-data"))
 ARTEFACTS = REPO / "tests" / "artefacts"
 
 
