@@ -47,6 +47,35 @@ def anions():
                 samples.append((f"{name[:2].upper()}-{i:03d}", name, f"{mu + rng.normal(0, 0.01 * mu):.5f}"))
     write(folder / "samples.csv", ("sample", "analyte", "response"), samples)
 
+    blanks = [(name, f"{analytes[name][1] + rng.normal(0, analytes[name][5] * 1.5):.5f}")
+              for name in analytes for _ in range(10)]
+    write(folder / "blanks.csv", ("analyte", "response"), blanks)
+
+    # spike recovery in a groundwater matrix with native analyte, three levels x 3 replicates
+    recovery = []
+    for name, native, added_levels, bias in (("nitrate", 3.1, (2, 10, 30), 0.985),
+                                             ("fluoride", 0.21, (0.1, 0.5, 1.5), 1.01)):
+        for added in added_levels:
+            for _ in range(3):
+                found = native + bias * added * (1 + rng.normal(0, 0.02)) + rng.normal(0, 0.003)
+                recovery.append((name, native, added, f"{found:.4f}", "matrix-GW1"))
+    write(folder / "recovery.csv", ("analyte", "native", "added", "found", "series"), recovery)
+
+    # precision: 3 days x 3 replicates at 3 levels; the middle fluoride level lost one result (unbalanced)
+    precision = []
+    for name, levels in (("nitrate", (0.5, 10.0, 30.0)), ("fluoride", (0.1, 0.5, 1.5))):
+        for level in levels:
+            for day in range(1, 4):
+                day_effect = rng.normal(0, 0.012 * level)
+                reps = 2 if (name == "fluoride" and level == 0.5 and day == 2) else 3
+                for _ in range(reps):
+                    precision.append((name, level, f"day-{day}",
+                                      f"{level + day_effect + rng.normal(0, 0.015 * level):.4f}"))
+    write(folder / "precision.csv", ("analyte", "level", "series", "found"), precision)
+
+    # certified reference material for nitrate (invented certificate: 12.5 mg/L, u = 0.15 mg/L)
+    write(folder / "crm.csv", ("found",), [(f"{12.5 * (1 + rng.normal(-0.004, 0.012)):.3f}",) for _ in range(6)])
+
 
 if __name__ == "__main__":
     anions()

@@ -4,7 +4,7 @@ Errors the user can fix (:class:`~validator.errors.ValidatorError`) are caught
 here and only here: one line on stderr, exit code 2, no traceback.
 
 Exit codes: 0 every criterion met; 1 the run completed and at least one
-criterion was not met; 2 bad input or usage.
+criterion was not met; 2 bad input or usage; 3 internal error (a bug).
 """
 
 from __future__ import annotations
@@ -157,3 +157,9 @@ def main(argv=None) -> int:
     except KeyboardInterrupt:
         print("validator: interrupted; nothing was written", file=sys.stderr)
         return 130
+    except Exception as exc:  # a bug in validator, not bad input: still one line, nothing written
+        if os.environ.get("VALIDATOR_DEBUG"):
+            raise
+        print(f"validator: internal error: {type(exc).__name__}: {exc} (nothing was written; "
+              "please report it, with VALIDATOR_DEBUG=1 for the traceback)", file=sys.stderr)
+        return 3

@@ -12,7 +12,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["Criterion", "calibration_criteria", "overall_verdict"]
+__all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_criteria",
+           "reference_material_criterion", "loq_criterion", "overall_verdict"]
 
 
 @dataclass(frozen=True)
@@ -20,7 +21,7 @@ class Criterion:
     id: str
     description: str
     value: float | None
-    limit: float | None
+    limit: float | list | None       # a maximum/minimum, or [low, high] for a range
     passed: bool | None
     note: str = ""
 
@@ -54,3 +55,47 @@ def calibration_criteria(cal, crit) -> tuple:
 def overall_verdict(criteria) -> str:
     """"fail" if any criterion is not met, else "pass"."""
     return "fail" if any(c.passed is False for c in criteria) else "pass"
+
+
+def recovery_criteria(recovery) -> tuple:
+    """One criterion per spiking level: mean recovery inside its range."""
+    return tuple(Criterion(
+        f"recovery-{lv.added:g}",
+        f"mean recovery at added {lv.added:g} within {lv.range_pct[0]:g} to {lv.range_pct[1]:g} %",
+        lv.mean_pct, list(lv.range_pct), lv.passed) for lv in recovery.levels)
+
+
+def precision_criteria(levels, limits_for) -> tuple:
+    """Repeatability and intermediate RSD against their maxima, per level (where set)."""
+    out = []
+    for lv in levels:
+        r_max, i_max = limits_for(lv.level)
+        if r_max is not None:
+            v = lv.repeatability_rsd_pct
+            out.append(Criterion(f"repeatability-rsd-{lv.level:g}",
+                                 f"repeatability RSD at level {lv.level:g} at most {r_max:g} %",
+                                 v, r_max, None if v is None else v <= r_max,
+                                 "" if v is not None else "not applicable: the mean is zero"))
+        if i_max is not None:
+            v = lv.intermediate_rsd_pct
+            out.append(Criterion(f"intermediate-rsd-{lv.level:g}",
+                                 f"intermediate precision RSD at level {lv.level:g} at most {i_max:g} %",
+                                 v, i_max, None if v is None else v <= i_max,
+                                 "" if v is not None else "not applicable: the mean is zero"))
+    return tuple(out)
+
+
+def reference_material_criterion(rm) -> Criterion:
+    return Criterion("reference-material-bias",
+                     f"|bias| against the certified value at most k·sqrt(u_mean² + u_CRM²), k = {rm.coverage_factor:g}",
+                     abs(rm.bias), rm.expanded_uncertainty,
+                     None if rm.significant is None else not rm.significant,
+                     "" if rm.significant is not None else "not applicable: needs at least 2 results")
+
+
+def loq_criterion(check) -> Criterion:
+    worst = max((r[2] for r in check.levels if r[2] is not None), default=None)
+    return Criterion("loq-verification",
+                     f"RSD at every precision/recovery level up to 2 × LOQ at most {check.rsd_max_pct:g} %",
+                     worst, check.rsd_max_pct, check.passed,
+                     "" if check.passed is not None else f"not applicable: {check.reason}")

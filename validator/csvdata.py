@@ -56,6 +56,17 @@ class Table:
         return [parse_number(v, decimal=decimal, file=self.path, row=r, column=name)
                 for v, r in zip(self.columns[name], self.rows)]
 
+    def centred_numbers(self, name: str, decimal: str):
+        """Column ``name`` as (offset, values - offset), the subtraction done exactly.
+
+        The offset is the first value. Subtracting it in decimal arithmetic
+        before converting to binary floating point keeps the digits that
+        differ when every value shares many leading digits (the NIST StRD
+        SmLs07-09 case: 13 constant digits).
+        """
+        self.numbers(name, decimal)          # the same checks and messages
+        return exact_centre(self.columns[name], decimal)
+
     def texts(self, name: str) -> list:
         """Column ``name`` as stripped strings; empty cells are an error."""
         out = []
@@ -64,6 +75,16 @@ class Table:
                 raise DataError("the cell is empty", file=self.path, row=r, column=name, value=v)
             out.append(v)
         return out
+
+
+def exact_centre(cells, decimal: str = "."):
+    """(offset, np.ndarray of value - offset) with the subtraction done in Decimal."""
+    import numpy as np
+    from decimal import Decimal
+
+    vals = [Decimal(c.strip().replace(",", ".") if decimal == "," else c.strip()) for c in cells]
+    offset = vals[0]
+    return float(offset), np.array([float(v - offset) for v in vals])
 
 
 def parse_number(text: str, *, decimal: str, file: str, row: int, column: str) -> float:

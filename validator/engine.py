@@ -13,7 +13,12 @@ import numpy as np
 from scipy import stats
 from ._common import quiet_numpy
 from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
-from .criteria import Criterion, calibration_criteria, overall_verdict
+from .criteria import (calibration_criteria, loq_criterion, overall_verdict, precision_criteria,
+                       recovery_criteria, reference_material_criterion)
+from .detection import DetectionResult, assess_detection
+from .precision import assess_precision_level
+from .recovery import assess_recovery, assess_reference_material
+from .working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .loading import AnalyteData, LoadedStudy
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "analyse_study", "curve_bands",
@@ -90,6 +95,25 @@ class AnalyteResult:
     criteria: tuple              # Criterion
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
+    detection: DetectionResult | None = None
+    working_range: WorkingRange | None = None
+    loq_check: LoqCheck | None = None
+    recovery: object = None                  # RecoveryResult
+    precision: tuple = ()                    # PrecisionLevel per level
+    reference_material: object = None        # ReferenceMaterialResult
+
+    @property
+    def characteristics(self) -> tuple:
+        out = ["calibration", "detection", "working_range"]
+        if self.samples:
+            out.append("samples")
+        if self.recovery is not None:
+            out.append("recovery")
+        if self.precision:
+            out.append("precision")
+        if self.reference_material is not None:
+            out.append("reference_material")
+        return tuple(out)
 
     @property
     def verdict(self) -> str:
@@ -110,20 +134,62 @@ class StudyResult:
         return overall_verdict(self.criteria)
 
 
-def analyse_analyte(data: AnalyteData, config) -> AnalyteResult:
-    cal_cfg, crit = config.calibration, config.criteria
+def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
+    cal_cfg, crit, det = config.calibration, config.criteria, config.detection
+    alpha = crit.alpha
     cal = analyse_calibration(
         data.calibration.concentration, data.calibration.response,
         model=cal_cfg.model, weighting=cal_cfg.weighting, through_origin=cal_cfg.through_origin,
-        alpha=crit.alpha, tolerance_pct=crit.back_calculation_tolerance_pct,
+        alpha=alpha, tolerance_pct=crit.back_calculation_tolerance_pct,
         lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
     samples = tuple(quantify(cal.fit, s.id, s.responses) for s in data.samples)
+    criteria = list(calibration_criteria(cal, crit))
+    detection = assess_detection(cal, data.blanks, lod_factor=det.lod_factor, loq_factor=det.loq_factor,
+                                 readings_per_sample=det.readings_per_sample, beta=det.beta, alpha=alpha,
+                                 reporting_method=det.reporting_basis)
+    recovery = precision = rm = None
+    failing, assessed = [], []
+    if data.recovery is not None:
+        r = data.recovery
+        recovery = assess_recovery(r.added, r.found, r.native, alpha=alpha,
+                                   range_for=config.recovery.range_for)
+        criteria += recovery_criteria(recovery)
+        assessed += [lv.added for lv in recovery.levels]
+        failing += [(lv.added, "recovery") for lv in recovery.levels if not lv.passed]
+    if data.precision is not None:
+        p = data.precision
+        precision = tuple(
+            assess_precision_level(level, p.found[p.level == level],
+                                   [s for s, lv in zip(p.series, p.level) if lv == level],
+                                   alpha=alpha, unit=concentration_unit, offset=p.offset)
+            for level in np.unique(p.level))
+        crits = precision_criteria(precision, config.precision.limits_for)
+        criteria += crits
+        assessed += [lv.level for lv in precision]
+        bad = {c.id for c in crits if c.passed is False}
+        failing += [(lv.level, "precision") for lv in precision
+                    if f"repeatability-rsd-{lv.level:g}" in bad or f"intermediate-rsd-{lv.level:g}" in bad]
+    if data.reference_material is not None:
+        rmc = config.reference_material
+        rm = assess_reference_material(data.reference_material, rmc.certified_value,
+                                       rmc.standard_uncertainty, k=rmc.coverage_factor)
+        criteria.append(reference_material_criterion(rm))
+    reported = detection.reported
+    loq_check = verify_loq(reported.loq, precision or (), recovery.levels if recovery else (),
+                           det.loq_rsd_max_pct)
+    if loq_check.levels:
+        criteria.append(loq_criterion(loq_check))
+    wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
+                       concentration_unit)
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
-                         criteria=calibration_criteria(cal, crit), bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit))
+                         criteria=tuple(criteria), bands=curve_bands(cal.fit),
+                         residual_views=residual_series(cal.fit), detection=detection,
+                         working_range=wr, loq_check=loq_check, recovery=recovery,
+                         precision=precision or (), reference_material=rm)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:
     """Analyse every analyte of a loaded study."""
     return StudyResult(loaded=loaded,
-                       analytes=tuple(analyse_analyte(a, loaded.config) for a in loaded.analytes))
+                       analytes=tuple(analyse_analyte(a, loaded.config, loaded.config.study.concentration_unit)
+                                      for a in loaded.analytes))

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .csvdata import read_bytes, read_table
+from .csvdata import exact_centre, read_bytes, read_table
 from .errors import DataError, StudyError
 from .study import StudyFile, read_study_file
 
@@ -46,10 +46,30 @@ class SampleData:
 
 
 @dataclass(frozen=True)
+class RecoveryData:
+    added: np.ndarray = field(repr=False)
+    found: np.ndarray = field(repr=False)
+    native: np.ndarray = field(repr=False)
+    series: tuple = field(repr=False)
+
+
+@dataclass(frozen=True)
+class PrecisionData:
+    level: np.ndarray = field(repr=False)
+    series: tuple = field(repr=False)
+    found: np.ndarray = field(repr=False)       # found - offset, the subtraction done exactly
+    offset: float = 0.0
+
+
+@dataclass(frozen=True)
 class AnalyteData:
     name: str
     calibration: CalibrationData
     samples: tuple = ()
+    blanks: np.ndarray | None = field(default=None, repr=False)
+    recovery: RecoveryData | None = None
+    precision: PrecisionData | None = None
+    reference_material: np.ndarray | None = field(default=None, repr=False)
 
 
 @dataclass(frozen=True)
@@ -139,39 +159,115 @@ def _calibration(reader: _Reader):
     return result, table.has("analyte")
 
 
-def _samples(reader: _Reader, analytes: dict, has_analyte: bool):
-    cfg = reader.study.config
-    if cfg.samples is None:
-        return {name: () for name in analytes}
-    table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
-    ids = table.texts("sample")
-    responses = table.numbers("response", reader.decimal)
+def _analyte_rows(table, analytes: dict, what: str) -> dict:
+    """Row indices of ``table`` per analyte (all rows if there is one analyte and no column)."""
     if table.has("analyte"):
         names = table.texts("analyte")
     elif len(analytes) == 1:
         names = [next(iter(analytes))] * len(table)
     else:
-        raise DataError('has no column "analyte" but the calibration covers '
-                        f"{len(analytes)} analytes; say which analyte each reading belongs to",
-                        file=table.path)
-    out = {name: {} for name in analytes}
-    for sid, resp, name, row in zip(ids, responses, names, table.rows):
+        raise DataError(f'has no column "analyte" but the calibration covers {len(analytes)} analytes; '
+                        f"say which analyte each {what} belongs to", file=table.path)
+    out = {name: [] for name in analytes}
+    for i, (name, row) in enumerate(zip(names, table.rows)):
         if name not in analytes:
             raise DataError(f'analyte "{name}" is not in the calibration data (known: '
                             + ", ".join(f'"{a}"' for a in analytes) + ")",
                             file=table.path, row=row, column="analyte", value=name)
-        out[name].setdefault(sid, ([], []))
-        out[name][sid][0].append(resp)
-        out[name][sid][1].append(row)
-    return {name: tuple(SampleData(sid, tuple(r), tuple(rw)) for sid, (r, rw) in groups.items())
-            for name, groups in out.items()}
+        out[name].append(i)
+    return out
+
+
+def _samples(reader: _Reader, analytes: dict):
+    cfg = reader.study.config
+    if cfg.samples is None:
+        return {}
+    table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
+    ids = table.texts("sample")
+    responses = table.numbers("response", reader.decimal)
+    out = {}
+    for name, idx in _analyte_rows(table, analytes, "reading").items():
+        groups = {}
+        for i in idx:
+            groups.setdefault(ids[i], ([], []))
+            groups[ids[i]][0].append(responses[i])
+            groups[ids[i]][1].append(table.rows[i])
+        out[name] = tuple(SampleData(sid, tuple(r), tuple(rw)) for sid, (r, rw) in groups.items())
+    return out
+
+
+def _positive(table, column, values, what="must be > 0"):
+    for v, cell, row in zip(values, table.columns[column], table.rows):
+        if not v > 0:
+            raise DataError(f"{column} {cell} {what}", file=table.path, row=row, column=column, value=v)
+
+
+def _blanks(reader, analytes):
+    cfg = reader.study.config
+    if cfg.blanks is None:
+        return {}
+    table = reader.table("blanks", cfg.blanks.data, ("response",), ("analyte",))
+    y = np.array(table.numbers("response", reader.decimal))
+    return {name: y[idx] for name, idx in _analyte_rows(table, analytes, "blank").items() if idx}
+
+
+def _recovery(reader, analytes):
+    cfg = reader.study.config
+    if cfg.recovery is None:
+        return {}
+    table = reader.table("recovery", cfg.recovery.data, ("added", "found"), ("native", "analyte", "series"))
+    added = np.array(table.numbers("added", reader.decimal))
+    _positive(table, "added", added)
+    found = np.array(table.numbers("found", reader.decimal))
+    native = np.array(table.numbers("native", reader.decimal)) if table.has("native") else np.zeros_like(added)
+    series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
+    return {name: RecoveryData(added[idx], found[idx], native[idx], tuple(series[i] for i in idx))
+            for name, idx in _analyte_rows(table, analytes, "recovery result").items() if idx}
+
+
+def _precision(reader, analytes):
+    cfg = reader.study.config
+    if cfg.precision is None:
+        return {}
+    table = reader.table("precision", cfg.precision.data, ("level", "series", "found"), ("analyte",))
+    level = np.array(table.numbers("level", reader.decimal))
+    series = table.texts("series")
+    table.numbers("found", reader.decimal)
+    out = {}
+    for name, idx in _analyte_rows(table, analytes, "precision result").items():
+        if not idx:
+            continue
+        offset, centred = exact_centre([table.columns["found"][i] for i in idx], reader.decimal)
+        out[name] = PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
+    return out
+
+
+def _reference_material(reader, analytes):
+    cfg = reader.study.config.reference_material
+    if cfg is None:
+        return {}
+    if cfg.analyte is None and len(analytes) > 1:
+        raise StudyError("the study covers several analytes; say which one the reference material "
+                         "certifies (analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
+    name = cfg.analyte or next(iter(analytes))
+    if name not in analytes:
+        raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
+                         key="reference_material.analyte", value=name)
+    table = reader.table("reference_material", cfg.data, ("found",), ())
+    return {name: np.array(table.numbers("found", reader.decimal))}
 
 
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files."""
     study = read_study_file(path)
     reader = _Reader(study)
-    calibration, has_analyte = _calibration(reader)
-    samples = _samples(reader, calibration, has_analyte)
-    analytes = tuple(AnalyteData(name, calibration[name], samples[name]) for name in calibration)
+    calibration, _ = _calibration(reader)
+    samples = _samples(reader, calibration)
+    blanks = _blanks(reader, calibration)
+    recovery = _recovery(reader, calibration)
+    precision = _precision(reader, calibration)
+    crm = _reference_material(reader, calibration)
+    analytes = tuple(AnalyteData(name, calibration[name], samples.get(name, ()), blanks.get(name),
+                                 recovery.get(name), precision.get(name), crm.get(name))
+                     for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes)

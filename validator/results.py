@@ -110,18 +110,90 @@ def _not_applicable(a):
     return out
 
 
+def _detection(a):
+    d = a.detection
+    out = []
+    for e in d.estimates:
+        entry = {"method": e.method, "basis": e.basis, "lod": num(e.lod), "loq": num(e.loq),
+                 "sigma": num(e.sigma), "applicable": e.applicable, "reason": e.reason}
+        if e.method == "iso-11843-2":
+            entry["critical_value"] = num(e.critical_value)
+            entry["delta"] = num(e.delta)
+        out.append(entry)
+    lc = a.loq_check
+    return {"lod_factor": d.lod_factor, "loq_factor": d.loq_factor, "reported_basis": d.reporting_method,
+            "estimates": out,
+            "loq_verification": {"loq": num(lc.loq), "rsd_max_pct": lc.rsd_max_pct, "pass": lc.passed,
+                                 "reason": lc.reason,
+                                 "levels": [{"source": src, "level": num(lv), "rsd_pct": num(rsd),
+                                             "recovery_pct": num(rec)} for src, lv, rsd, rec in lc.levels]}}
+
+
+def _recovery(r):
+    if r is None:
+        return None
+    return {"n": r.n, "overall_mean_pct": num(r.overall_mean_pct), "levels": [
+        {"added": num(lv.added), "n": lv.n, "mean_pct": num(lv.mean_pct), "sd_pct": num(lv.sd_pct),
+         "rsd_pct": num(lv.rsd_pct), "ci_pct": _ci(lv.ci_pct) if lv.ci_pct else [None, None],
+         "t_statistic": num(lv.t_statistic), "p_value": num(lv.pvalue), "range_pct": list(lv.range_pct),
+         "pass": lv.passed, "recoveries_pct": [num(v) for v in lv.recoveries_pct]} for lv in r.levels]}
+
+
+def _precision(levels):
+    if not levels:
+        return None
+    out = []
+    for lv in levels:
+        an = lv.anova
+        out.append({
+            "level": num(lv.level), "series": lv.series, "n": lv.n, "mean": num(lv.mean),
+            "ms_between": num(an.ms_between), "ms_within": num(an.ms_within),
+            "df": [an.df_between, an.df_within], "n0": num(an.n0),
+            "f_statistic": num(an.statistic), "p_value": num(an.pvalue),
+            "repeatability_sd": num(lv.repeatability_sd), "repeatability_rsd_pct": num(lv.repeatability_rsd_pct),
+            "between_series_sd": num(lv.between_series_sd), "between_series_set_to_zero": lv.between_clamped,
+            "intermediate_sd": num(lv.intermediate_sd), "intermediate_rsd_pct": num(lv.intermediate_rsd_pct),
+            "repeatability_sd_ci": _ci(lv.repeatability_sd_ci) if lv.repeatability_sd_ci else [None, None],
+            "intermediate_sd_ci": _ci(lv.intermediate_sd_ci) if lv.intermediate_sd_ci else [None, None],
+            "intermediate_df": num(lv.intermediate_df),
+            "cochran": _test(lv.cochran, True), "grubbs": _test(lv.grubbs, True),
+            "horrat": num(lv.horrat), "horwitz_prsd_pct": num(lv.horwitz_prsd_pct), "horwitz_note": lv.horwitz_note,
+        })
+    return {"levels": out}
+
+
+def _reference_material(rm):
+    if rm is None:
+        return None
+    return {"n": rm.n, "mean": num(rm.mean), "sd": num(rm.sd), "certified_value": num(rm.certified_value),
+            "certified_standard_uncertainty": num(rm.certified_uncertainty), "bias": num(rm.bias),
+            "bias_pct": num(rm.bias_pct), "u_mean": num(rm.u_mean),
+            "expanded_uncertainty": num(rm.expanded_uncertainty), "coverage_factor": rm.coverage_factor,
+            "significant": rm.significant}
+
+
+def _limit(v):
+    return [num(x) for x in v] if isinstance(v, (list, tuple)) else num(v)
+
+
 def _analyte(a):
+    wr = a.working_range
     return {
         "name": a.name,
         "verdict": a.verdict,
-        "characteristics_assessed": ["calibration"] + (["samples"] if a.samples else []),
+        "characteristics_assessed": list(a.characteristics),
         "calibration": _calibration(a),
         "samples": [
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
              "concentration": num(s.concentration), "std_error": num(s.std_error), "ci": _ci(s.ci),
              "within_range": s.within_range} for s in a.samples],
+        "detection": _detection(a),
+        "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis},
+        "recovery": _recovery(a.recovery),
+        "precision": _precision(a.precision),
+        "reference_material": _reference_material(a.reference_material),
         "criteria": [{"id": c.id, "description": c.description, "value": num(c.value),
-                      "limit": num(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
+                      "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
         "diagnostics": list(a.calibration.diagnostics),
         "not_applicable": _not_applicable(a),
     }

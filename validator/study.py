@@ -80,6 +80,86 @@ class CriteriaSection(_Section):
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
 
 
+class BlanksSection(_Section):
+    data: str
+
+
+class DetectionSection(_Section):
+    lod_factor: float = Field(3.3, gt=0)
+    loq_factor: float = Field(10.0, gt=0)
+    readings_per_sample: int = Field(1, ge=1)
+    beta: float = Field(0.05, gt=0, lt=0.5)
+    reporting_basis: Literal["ich-residual-sd", "ich-intercept-sd", "blank-sd"] = "ich-residual-sd"
+    loq_rsd_max_pct: float = Field(20.0, gt=0)
+
+    @model_validator(mode="after")
+    def _order(self):
+        if self.loq_factor <= self.lod_factor:
+            raise ValueError("loq_factor must be larger than lod_factor")
+        return self
+
+
+def _range(v):
+    if len(v) != 2 or not v[0] < v[1]:
+        raise ValueError(f"range_pct must be [low, high] with low < high, got {list(v)}")
+    return v
+
+
+class RecoveryLevelLimit(_Section):
+    added: float = Field(gt=0)
+    range_pct: list[float]
+
+    @model_validator(mode="after")
+    def _check(self):
+        _range(self.range_pct)
+        return self
+
+
+class RecoverySection(_Section):
+    data: str
+    range_pct: list[float] = [90.0, 110.0]
+    levels: list[RecoveryLevelLimit] = []
+
+    @model_validator(mode="after")
+    def _check(self):
+        _range(self.range_pct)
+        return self
+
+    def range_for(self, added: float) -> tuple:
+        for lv in self.levels:
+            if abs(lv.added - added) <= 1e-9 * max(abs(added), 1.0):
+                return tuple(lv.range_pct)
+        return tuple(self.range_pct)
+
+
+class PrecisionLevelLimit(_Section):
+    level: float
+    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0)
+    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0)
+
+
+class PrecisionSection(_Section):
+    data: str
+    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0)
+    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0)
+    levels: list[PrecisionLevelLimit] = []
+
+    def limits_for(self, level: float) -> tuple:
+        for lv in self.levels:
+            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
+                return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
+                        lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
+        return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
+
+
+class ReferenceMaterialSection(_Section):
+    data: str
+    certified_value: float = Field(gt=0)
+    standard_uncertainty: float = Field(ge=0)
+    analyte: Optional[str] = None
+    coverage_factor: float = Field(2.0, gt=0)
+
+
 class StudyConfig(_Section):
     """The whole study file as validated data (no data files read yet)."""
 
@@ -87,6 +167,11 @@ class StudyConfig(_Section):
     calibration: CalibrationSection
     samples: Optional[SamplesSection] = None
     criteria: CriteriaSection = CriteriaSection()
+    blanks: Optional[BlanksSection] = None
+    detection: DetectionSection = DetectionSection()
+    recovery: Optional[RecoverySection] = None
+    precision: Optional[PrecisionSection] = None
+    reference_material: Optional[ReferenceMaterialSection] = None
 
 
 @dataclass(frozen=True)
@@ -128,6 +213,8 @@ def _key_line(text: str, loc: tuple) -> int | None:
 def _fields_of(loc: tuple):
     model = StudyConfig
     for part in loc[:-1]:
+        if part.isdigit():
+            continue
         field = model.model_fields.get(part)
         if field is None:
             return []
@@ -170,7 +257,7 @@ def _defaults(model: BaseModel, prefix: str = "") -> list:
         value = getattr(model, name)
         if isinstance(value, BaseModel):
             out.extend(_defaults(value, f"{prefix}{name}."))
-        elif name not in model.model_fields_set and value is not None:
+        elif name not in model.model_fields_set and value is not None and value != []:
             out.append((f"{prefix}{name}", value))
     return out
 

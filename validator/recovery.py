@@ -1,0 +1,119 @@
+"""Trueness: recovery of spiked analyte, and bias against a certified reference material.
+
+References
+----------
+.. [Eurachem] Eurachem Guide, The Fitness for Purpose of Analytical Methods,
+   2nd ed. (2014), sec. 6.5 (trueness, recovery).
+.. [ICH-Q2] ICH Q2(R2) (2023), accuracy.
+.. [ERM] Linsinger, T. (2010). ERM Application Note 1: Comparison of a
+   measurement result with the certified value. European Commission JRC-IRMM.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from ._common import ConfidenceInterval
+
+__all__ = ["RecoveryLevel", "RecoveryResult", "ReferenceMaterialResult", "assess_recovery",
+           "assess_reference_material"]
+
+
+@dataclass(frozen=True)
+class RecoveryLevel:
+    added: float
+    n: int
+    recoveries_pct: tuple
+    mean_pct: float
+    sd_pct: float | None
+    rsd_pct: float | None
+    ci_pct: ConfidenceInterval | None
+    t_statistic: float | None
+    pvalue: float | None
+    range_pct: tuple
+    passed: bool
+
+
+@dataclass(frozen=True)
+class RecoveryResult:
+    levels: tuple
+    overall_mean_pct: float
+    n: int
+
+
+def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda added: (90.0, 110.0)):
+    """Recovery per spiking level.
+
+    Notes
+    -----
+    R_i = 100 (found_i - native_i) / added_i. Per level (same ``added``):
+    mean, SD (n - 1), RSD = 100 SD/mean, CI mean +/- t(1 - alpha/2, n - 1) SD/sqrt(n),
+    one-sample t = (mean - 100)/(SD/sqrt(n)) on n - 1 df. The level passes
+    when the mean lies inside its acceptance range.
+    """
+    added = np.asarray(added, float)
+    found = np.asarray(found, float)
+    native = np.zeros_like(added) if native is None else np.asarray(native, float)
+    rec = 100.0 * (found - native) / added
+    levels = []
+    for a in np.unique(added):
+        r = rec[added == a]
+        n = r.size
+        mean = float(r.mean())
+        lo_hi = tuple(float(v) for v in range_for(float(a)))
+        if n >= 2:
+            sd = float(np.std(r - mean, ddof=1))
+            se = sd / np.sqrt(n)
+            tq = float(stats.t.ppf(1 - alpha / 2, n - 1))
+            ci = ConfidenceInterval(mean - tq * se, mean + tq * se, 1 - alpha)
+            t = (mean - 100.0) / se if se > 0 else None
+            p = float(2 * stats.t.sf(abs(t), n - 1)) if t is not None else None
+            rsd = 100 * sd / mean if mean != 0 else None
+        else:
+            sd = rsd = t = p = None
+            ci = None
+        levels.append(RecoveryLevel(float(a), n, tuple(map(float, r)), mean, sd, rsd, ci, t, p, lo_hi,
+                                    bool(lo_hi[0] <= mean <= lo_hi[1])))
+    return RecoveryResult(tuple(levels), float(rec.mean()), int(rec.size))
+
+
+@dataclass(frozen=True)
+class ReferenceMaterialResult:
+    n: int
+    mean: float
+    sd: float | None
+    certified_value: float
+    certified_uncertainty: float
+    bias: float
+    bias_pct: float
+    u_mean: float | None
+    expanded_uncertainty: float | None   # k sqrt(u_mean^2 + u_crm^2)
+    coverage_factor: float
+    significant: bool | None
+
+
+def assess_reference_material(found, certified_value, standard_uncertainty, *, k=2.0):
+    """Bias against a certified value, judged as in ERM Application Note 1.
+
+    Notes
+    -----
+    Delta_m = |mean - c_CRM|; u_Delta = sqrt(u_m^2 + u_CRM^2) with u_m = s/sqrt(n);
+    the bias is significant when Delta_m > k u_Delta (k = 2). [ERM]
+    """
+    x = np.asarray(found, float)
+    n = x.size
+    mean = float(x.mean())
+    bias = mean - certified_value
+    if n >= 2:
+        sd = float(np.std(x - mean, ddof=1))
+        u_mean = sd / np.sqrt(n)
+        U = k * float(np.sqrt(u_mean**2 + standard_uncertainty**2))
+        significant = bool(abs(bias) > U)
+    else:
+        sd = u_mean = U = None
+        significant = None
+    return ReferenceMaterialResult(n, mean, sd, float(certified_value), float(standard_uncertainty), bias,
+                                   100 * bias / certified_value, u_mean, U, k, significant)

@@ -1,0 +1,88 @@
+"""The validated working range and the verification of the reported LOQ.
+
+Notes
+-----
+Low end: the larger of the lowest calibrator that passes back-calculation
+and the LOQ chosen for reporting. High end: the highest calibrator that
+passes. Each recovery or precision level that fails its criteria then
+narrows the range: a failing level in the lower half of the assessed
+levels moves the low end up to the next passing calibrator above it, one in
+the upper half moves the high end down to the next passing calibrator below
+it. ICH Q2(R2) sec. 3.2 (range); Eurachem Guide (2014) sec. 6.3.
+# common practice, no published source: the narrowing rule for failing levels
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = ["WorkingRange", "LoqCheck", "working_range", "verify_loq"]
+
+
+@dataclass(frozen=True)
+class WorkingRange:
+    low: float | None
+    high: float | None
+    basis: str
+
+
+def working_range(back_calculated, loq, loq_method, failing_levels, assessed_levels, unit="") -> WorkingRange:
+    passing = sorted(b.nominal for b in back_calculated if b.passed)
+    if not passing:
+        return WorkingRange(None, None, "no calibrator passes back-calculation, so no range can be stated")
+    low, high = passing[0], passing[-1]
+    basis = [f"lowest passing calibrator {low:g} {unit}".strip(), f"highest passing calibrator {high:g} {unit}".strip()]
+    if loq is not None and loq > low:
+        low = loq
+        basis[0] = f"reported LOQ {loq:.4g} {unit} ({loq_method}), above the lowest passing calibrator".strip()
+    middle = float(np.median(assessed_levels)) if len(assessed_levels) else None
+    for level, why in sorted(failing_levels):
+        if level <= middle:
+            above = [c for c in passing if c > level]
+            new_low = above[0] if above else np.inf
+            if new_low > low:
+                low = new_low
+                basis.append(f"low end raised to {low:g} because {why} fails at {level:g}")
+        else:
+            below = [c for c in passing if c < level]
+            new_high = below[-1] if below else -np.inf
+            if new_high < high:
+                high = new_high
+                basis.append(f"high end lowered to {high:g} because {why} fails at {level:g}")
+    if not np.isfinite(low) or not np.isfinite(high) or low >= high:
+        return WorkingRange(None, None, "no range remains: " + "; ".join(basis))
+    return WorkingRange(float(low), float(high), "; ".join(basis))
+
+
+@dataclass(frozen=True)
+class LoqCheck:
+    loq: float | None
+    levels: tuple       # (source, level, rsd_pct, recovery_pct)
+    rsd_max_pct: float
+    passed: bool | None
+    reason: str = ""
+
+
+def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
+    """Evidence that the LOQ is fit for use: RSD (and recovery) at levels up to 2 x LOQ.
+
+    ICH Q2(R2) sec. 3.3: the quantitation limit is validated by the accuracy
+    and precision of results at or near it.
+    """
+    if loq is None:
+        return LoqCheck(None, (), rsd_max_pct, None, "no LOQ could be estimated")
+    rows = []
+    for p in precision_levels:
+        if p.level <= 2 * loq:
+            rows.append(("precision", p.level, p.repeatability_rsd_pct, None))
+    for r in recovery_levels:
+        if r.added <= 2 * loq:
+            rows.append(("recovery", r.added, r.rsd_pct, r.mean_pct))
+    if not rows:
+        return LoqCheck(loq, (), rsd_max_pct, None, "no precision or recovery level at or below 2 × LOQ")
+    rsds = [r[2] for r in rows if r[2] is not None]
+    passed = bool(rsds) and all(v <= rsd_max_pct for v in rsds)
+    return LoqCheck(loq, tuple(rows), rsd_max_pct, passed if rsds else None,
+                    "" if rsds else "no RSD available at those levels")
