@@ -106,7 +106,7 @@ def test_html_is_self_contained(demo_out):
         assert tag["href"].startswith("#")
     for tag in soup.find_all(src=True):
         assert tag["src"].startswith("data:")
-    assert len(soup.select("svg")) == 2 * 2     # two figures per analyte, inline
+    assert len(soup.select("svg")) == 3 * 2     # three figures per analyte, inline
 
 
 def test_pdf_text_pages_and_previews(demo_out, artefacts):

@@ -60,7 +60,11 @@ def noncentrality_delta(df: int, alpha: float, beta: float) -> float:
     t(1 - alpha, df). (The common shortcut delta ~ 2 t is not used.)
     """
     tc = stats.t.ppf(1 - alpha, df)
-    return float(optimize.brentq(lambda d: stats.nct.cdf(tc, df, d) - beta, 0.0, 200.0, xtol=1e-12))
+    f = lambda d: stats.nct.cdf(tc, df, d) - beta  # noqa: E731  decreasing in d
+    hi = 2 * tc + 4
+    while not f(hi) < 0:          # widen the bracket until the root is inside
+        hi *= 1.5
+    return float(optimize.brentq(f, 0.0, hi, xtol=1e-12))
 
 
 def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_per_sample=1,

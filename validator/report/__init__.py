@@ -16,7 +16,7 @@ from pathlib import Path
 import jinja2
 
 from .plots import PALETTE, figures_for_all
-from .text import SIG, SIG_P, calibration_sentences, fmt, fmt_p, verdict_label
+from .text import SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, verdict_label
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
 
@@ -60,7 +60,24 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "qq_line": rv.qq_line,
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
+        "recovery": [{"added": lv.added, "values": list(lv.recoveries_pct), "mean": lv.mean_pct,
+                      "range": list(lv.range_pct)} for lv in (a.recovery.levels if a.recovery else ())],
+        "precision": [{"level": lv.level, "series": _series_pct(a.data.precision, lv)} for lv in a.precision],
     }
+
+
+def _series_pct(data, lv):
+    """Precision results of one level as % of the level mean, grouped by series (for plotting)."""
+    import numpy as np
+
+    mask = data.level == lv.level
+    values = data.found[mask] + data.offset
+    series = [s for s, m in zip(data.series, mask) if m]
+    out = []
+    for name in dict.fromkeys(series):
+        vals = [100 * v / lv.mean for v, s in zip(values, series) if s == name]
+        out.append((name, vals))
+    return out
 
 
 def render_html(result, results: dict, *, paper: str = "a4") -> str:
@@ -71,7 +88,8 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     analytes = []
     for i, a in enumerate(results["analytes"]):
         analytes.append({"index": i, "data": a, "figures": figures[i],
-                         "text": calibration_sentences(a, alpha, study["concentration_unit"])})
+                         "text": {**calibration_sentences(a, alpha, study["concentration_unit"]),
+                                  **characteristic_sentences(a, alpha, study["concentration_unit"])}})
     summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")

@@ -128,9 +128,46 @@ def _diagnostic_figure(d: dict) -> str:
     return _svg(fig, f"diag{d['key']}")
 
 
+def _trueness_precision_figure(d: dict) -> str:
+    panels = [k for k in ("recovery", "precision") if d.get(k)]
+    fig, axes = plt.subplots(1, len(panels), figsize=(6.4, 2.8), squeeze=False)
+    for ax, kind in zip(axes[0], panels):
+        if kind == "recovery":
+            for i, lv in enumerate(d["recovery"]):
+                lo, hi = lv["range"]
+                ax.fill_between([i - 0.35, i + 0.35], lo, hi, color=PALETTE["band"], linewidth=0)
+                ax.plot([i] * len(lv["values"]), lv["values"], "o", markersize=3.5, markerfacecolor="white",
+                        markeredgecolor=PALETTE["data"])
+                ax.plot([i - 0.25, i + 0.25], [lv["mean"]] * 2, "-", color=PALETTE["ink"], linewidth=1.4)
+            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+            ax.set_xticks(range(len(d["recovery"])))
+            ax.set_xticklabels([f"{lv['added']:g}" for lv in d["recovery"]])
+            ax.set_xlabel(f"added ({d['xunit']})")
+            ax.set_ylabel("recovery (%)")
+            ax.set_title("recovery per replicate, mean (bar), range (shaded)", fontsize=8, loc="left")
+        else:
+            markers = "osD^v<>p*h"
+            for i, lv in enumerate(d["precision"]):
+                for j, (series, values) in enumerate(lv["series"]):
+                    xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
+                    ax.plot(xs, values, markers[j % len(markers)], markersize=3.5, markerfacecolor="white",
+                            markeredgecolor=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
+            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+            ax.set_xticks(range(len(d["precision"])))
+            ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
+            ax.set_xlabel(f"level ({d['xunit']})")
+            ax.set_ylabel("% of level mean")
+            ax.set_title("precision results by series (marker = series)", fontsize=8, loc="left")
+    fig.tight_layout()
+    return _svg(fig, f"tp{d['key']}")
+
+
 def analyte_figures(d: dict) -> dict:
     with matplotlib.rc_context(_RC):
-        return {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
+        figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
+        if d.get("recovery") or d.get("precision"):
+            figs["trueness_precision"] = _trueness_precision_figure(d)
+        return figs
 
 
 def figures_for_all(plot_data: list) -> list:

@@ -131,3 +131,76 @@ def _reason(a: dict, item: str) -> str:
 
 def isfinite(value) -> bool:
     return value is not None and math.isfinite(value)
+
+
+def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
+    """Plain-language reading of detection, range, recovery, precision and CRM results."""
+    out = {}
+    det = a["detection"]
+    rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
+    if rep["lod"] is not None:
+        out["detection"] = (f"On the reported basis ({rep['method']}), the limit of detection is "
+                            f"{fmt(rep['lod'])} {unit} and the limit of quantitation {fmt(rep['loq'])} {unit}. "
+                            "Estimates on the other bases are listed for comparison; they differ because "
+                            "each uses a different estimate of the noise.")
+    else:
+        out["detection"] = f"No LOD/LOQ on the reported basis ({rep['method']}): {rep['reason']}."
+    iso = next(e for e in det["estimates"] if e["method"] == "iso-11843-2")
+    if iso["lod"] is not None:
+        out["iso"] = (f"ISO 11843-2: critical value x_C = {fmt(iso['critical_value'])} {unit} (a result above it "
+                      f"is distinguished from zero with error probability alpha = {alpha:g}) and minimum detectable "
+                      f"value x_D = {fmt(iso['lod'])} {unit}, with delta = {fmt(iso['delta'])} computed exactly "
+                      "from the non-central t distribution (not the 2t approximation).")
+    else:
+        out["iso"] = f"ISO 11843-2 was not applicable: {iso['reason']}."
+    lv = det["loq_verification"]
+    if lv["pass"] is None:
+        out["loq_verification"] = f"The LOQ could not be verified with data near it: {lv['reason']}."
+    else:
+        state = "supports" if lv["pass"] else "does NOT support"
+        out["loq_verification"] = (f"The precision at levels up to 2 × LOQ {state} the LOQ: every RSD there is "
+                                   f"{'at most' if lv['pass'] else 'not all within'} {fmt(lv['rsd_max_pct'])} %.")
+    wr = a["working_range"]
+    if wr["low"] is None:
+        out["working_range"] = f"No working range can be stated: {wr['basis']}."
+    else:
+        out["working_range"] = (f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {unit} "
+                                f"({wr['basis']}).")
+    rec = a.get("recovery")
+    if rec:
+        failed = [lvl for lvl in rec["levels"] if not lvl["pass"]]
+        out["recovery"] = (f"Mean recovery over all {rec['n']} spiked results is {fmt(rec['overall_mean_pct'], 4)} %. "
+                           + ("Every level's mean lies inside its acceptance range." if not failed else
+                              "The mean recovery is outside its acceptance range at added "
+                              + ", ".join(fmt(lvl["added"]) for lvl in failed) + "."))
+        sig = [lvl for lvl in rec["levels"] if lvl["p_value"] is not None and lvl["p_value"] < alpha]
+        out["recovery_t"] = ("The t test against 100 % finds a significant bias at added "
+                             + ", ".join(fmt(lvl["added"]) for lvl in sig)
+                             + f" (alpha = {alpha:g}); judge whether its size matters against the range."
+                             if sig else f"The t test against 100 % finds no significant bias at any level (alpha = {alpha:g}).")
+    prec = a.get("precision")
+    if prec:
+        parts = []
+        for lvl in prec["levels"]:
+            clamp = " (between-series variance estimated negative, set to 0)" if lvl["between_series_set_to_zero"] else ""
+            parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {fmt(lvl['repeatability_rsd_pct'], 3)} %, "
+                         f"intermediate RSD {fmt(lvl['intermediate_rsd_pct'], 3)} %{clamp}")
+        out["precision"] = "Precision " + "; ".join(parts) + "."
+        flagged = [lvl for lvl in prec["levels"] for t in (lvl["cochran"], lvl["grubbs"])
+                   if t is not None and t["p_value"] is not None and t["p_value"] < alpha]
+        out["precision_outliers"] = ("Cochran's or Grubbs' test flags a series at level(s) "
+                                     + ", ".join(sorted({fmt(lvl["level"]) for lvl in flagged}))
+                                     + "; the series stay in the estimate and need a reviewer's judgement."
+                                     if flagged else "Neither Cochran's nor Grubbs' test flags a series.")
+    rm = a.get("reference_material")
+    if rm:
+        if rm["significant"] is None:
+            out["reference_material"] = "The reference material needs at least 2 results for a bias test."
+        else:
+            word = "is" if rm["significant"] else "is not"
+            out["reference_material"] = (
+                f"The mean of {rm['n']} results on the reference material is {fmt(rm['mean'])} {unit} against "
+                f"the certified {fmt(rm['certified_value'])} {unit}: bias {fmt(rm['bias'])} {unit} "
+                f"({fmt(rm['bias_pct'], 3)} %), which {word} significant, since |bias| "
+                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}.")
+    return out
