@@ -119,18 +119,13 @@ def test_cochran_and_grubbs():
 
 
 def _means_with_g(G):
-    # four means 0, 0, 0 and d with G = 3d/4 / (d/2) ... solve numerically for d: G(d) = G
+    """Four series means (0, 1, -1, d) whose Grubbs statistic equals G (solved for d)."""
     from scipy.optimize import brentq
 
-    def g_of(d):
-        m = np.array([0, 0, 0, d])
-        return np.max(np.abs(m - m.mean())) / np.std(m, ddof=1) - G
-    # G for (0,0,0,d) is constant 1.5 (scale-free); use (0, 1, -1, d) instead
-    def g2(d):
+    def excess(d):
         m = np.array([0.0, 1.0, -1.0, d])
         return np.max(np.abs(m - m.mean())) / np.std(m, ddof=1) - G
-    d = brentq(g2, 1.5, 1e6)
-    return [0.0, 1.0, -1.0, d]
+    return [0.0, 1.0, -1.0, brentq(excess, 1.5, 1e6)]
 
 
 def test_horwitz():

@@ -75,13 +75,13 @@ def precision_criteria(levels, limits_for) -> tuple:
             out.append(Criterion(f"repeatability-rsd-{lv.level:g}",
                                  f"repeatability RSD at level {lv.level:g} at most {r_max:g} %",
                                  v, r_max, None if v is None else v <= r_max,
-                                 "" if v is not None else "not applicable: the mean is zero"))
+                                 "" if v is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
         if i_max is not None:
             v = lv.intermediate_rsd_pct
             out.append(Criterion(f"intermediate-rsd-{lv.level:g}",
                                  f"intermediate precision RSD at level {lv.level:g} at most {i_max:g} %",
                                  v, i_max, None if v is None else v <= i_max,
-                                 "" if v is not None else "not applicable: the mean is zero"))
+                                 "" if v is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
 
 

@@ -185,6 +185,14 @@ def _samples(reader: _Reader, analytes: dict):
     table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
     ids = table.texts("sample")
     responses = table.numbers("response", reader.decimal)
+    seen = {}
+    for sid, row in zip(ids, table.rows):
+        key = " ".join(sid.split()).casefold()
+        if key in seen and seen[key][0] != sid:
+            raise DataError(f'sample id "{sid}" differs only in case or spacing from "{seen[key][0]}" '
+                            f"(row {seen[key][1]}); use one spelling per sample", file=table.path, row=row,
+                            column="sample", value=sid)
+        seen.setdefault(key, (sid, row))
     out = {}
     for name, idx in _analyte_rows(table, analytes, "reading").items():
         groups = {}

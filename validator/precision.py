@@ -188,6 +188,7 @@ class PrecisionLevel:
     horrat: float | None
     horwitz_prsd_pct: float | None
     horwitz_note: str
+    reason: str = ""          # why some estimates are missing (degenerate design)
 
 
 def _sd_ci(sd, df, alpha):
@@ -211,20 +212,32 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     [ISO5725-2], [Satterthwaite].
     """
     a = one_way_anova(values, series, offset)
-    sr2 = a.ms_within
-    sl2 = (a.ms_between - a.ms_within) / a.n0 if a.df_between > 0 else 0.0
-    clamped = bool(sl2 < 0)
-    sl2 = max(sl2, 0.0)
-    si2 = sr2 + sl2
-    sr, sl, si = float(np.sqrt(sr2)), float(np.sqrt(sl2)), float(np.sqrt(si2))
-    mean = a.grand_mean
-    rsd = (lambda s: 100 * s / mean if mean != 0 else None)
-    if clamped or a.df_between == 0:
-        df_i = float(a.df_within)
+    notes = []
+    nan = float("nan")
+    sr2 = a.ms_within if a.df_within > 0 else nan
+    if a.df_within == 0:
+        notes.append("every series has a single result, so repeatability cannot be estimated")
+    if a.df_between == 0:
+        notes.append("only one series, so between-series variance cannot be estimated "
+                     "(intermediate precision is not assessed)")
+        sl2 = nan
     else:
-        num = si2**2
-        den = (a.ms_between / a.n0) ** 2 / a.df_between + ((1 - 1 / a.n0) * a.ms_within) ** 2 / a.df_within
-        df_i = float(num / den) if den > 0 else None
+        sl2 = (a.ms_between - a.ms_within) / a.n0
+    clamped = bool(sl2 < 0)
+    if clamped:
+        sl2 = 0.0
+    si2 = sr2 + sl2
+    sr, sl, si = (float(np.sqrt(v)) for v in (sr2, sl2, si2))
+    mean = a.grand_mean
+    rsd = (lambda sd: 100 * sd / mean if mean != 0 and np.isfinite(sd) else None)
+    df_i = None
+    if np.isfinite(si2):
+        if clamped:
+            df_i = float(a.df_within)
+        else:
+            den = ((a.ms_between / a.n0) ** 2 / a.df_between
+                   + ((1 - 1 / a.n0) * a.ms_within) ** 2 / a.df_within)
+            df_i = float(si2**2 / den) if den > 0 else None
     horrat = prsd = None
     note = ""
     conv = mass_fraction_factor(unit) if unit else None
@@ -232,6 +245,8 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
         note = f'the concentration unit "{unit}" does not convert to a mass fraction'
     elif mean <= 0:
         note = "the mean is not positive"
+    elif rsd(si) is None:
+        note = "intermediate precision was not estimated"
     else:
         factor, assumption = conv
         prsd = horwitz_prsd(mean * factor)
@@ -240,5 +255,7 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
                 + (f"; {assumption}" if assumption else ""))
     return PrecisionLevel(
         float(level), a.groups, a.n, a, mean, sr, rsd(sr), sl, clamped, si, rsd(si),
-        _sd_ci(sr, a.df_within, alpha), _sd_ci(si, df_i, alpha), df_i,
-        cochran_c(values, series, alpha), grubbs_means(values, series, alpha), horrat, prsd, note)
+        _sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
+        _sd_ci(si, df_i, alpha) if np.isfinite(si) else None, df_i,
+        cochran_c(values, series, alpha), grubbs_means(values, series, alpha), horrat, prsd, note,
+        "; ".join(notes))

@@ -158,6 +158,7 @@ def _precision(levels):
             "intermediate_df": num(lv.intermediate_df),
             "cochran": _test(lv.cochran, True), "grubbs": _test(lv.grubbs, True),
             "horrat": num(lv.horrat), "horwitz_prsd_pct": num(lv.horwitz_prsd_pct), "horwitz_note": lv.horwitz_note,
+            "notes": lv.reason,
         })
     return {"levels": out}
 
