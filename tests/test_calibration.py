@@ -183,3 +183,10 @@ def test_perfect_fit_is_not_a_crash():
     assert any("exact" in d for d in res.diagnostics)
     s = quantify(res.fit, "x", [5.0])
     assert s.concentration == pytest.approx(2.0)
+
+
+def test_sample_with_non_positive_response_under_1_over_y_weighting():
+    # found by fuzzing: a reading <= 0 has no 1/y weight; the result says so instead of crashing
+    fit = fit_polynomial(X, Y, weighting="1/y")
+    res = quantify(fit, "neg", [-0.5])
+    assert not np.isfinite(res.std_error) and "weight" in res.reason

@@ -162,8 +162,11 @@ class PolynomialFit:
 
     def weight_at(self, x0: float, y0: float) -> float:
         """Normalised weight of a new reading at (x0, y0), on the fit's scale."""
-        with quiet_numpy():
-            return float(self.weight_factor * raw_weights(self.weighting, np.array([x0]), np.array([y0]))[0])
+        try:
+            with quiet_numpy():
+                return float(self.weight_factor * raw_weights(self.weighting, np.array([x0]), np.array([y0]))[0])
+        except ValueError:          # 1/x or 1/y at a value <= 0: no weight exists there
+            return float("nan")
 
     def inverse(self, y0: float) -> tuple:
         """Concentration x0 with fitted response y0.
