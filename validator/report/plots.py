@@ -172,7 +172,7 @@ def analyte_figures(d: dict) -> dict:
 
 def figures_for_all(plot_data: list) -> list:
     """Figures for every analyte; two processes when there are several analytes."""
-    if len(plot_data) >= 4 and (os.cpu_count() or 1) > 1:
+    if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
         with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork")) as pool:
             return list(pool.map(analyte_figures, plot_data))
