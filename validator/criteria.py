@@ -70,18 +70,14 @@ def precision_criteria(levels, limits_for) -> tuple:
     out = []
     for lv in levels:
         r_max, i_max = limits_for(lv.level)
-        if r_max is not None:
-            v = lv.repeatability_rsd_pct
-            out.append(Criterion(f"repeatability-rsd-{lv.level:g}",
-                                 f"repeatability RSD at level {lv.level:g} at most {r_max:g} %",
-                                 v, r_max, None if v is None else v <= r_max,
-                                 "" if v is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
-        if i_max is not None:
-            v = lv.intermediate_rsd_pct
-            out.append(Criterion(f"intermediate-rsd-{lv.level:g}",
-                                 f"intermediate precision RSD at level {lv.level:g} at most {i_max:g} %",
-                                 v, i_max, None if v is None else v <= i_max,
-                                 "" if v is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
+        for kind, label, value, limit in (
+                ("repeatability", "repeatability RSD", lv.repeatability_rsd_pct, r_max),
+                ("intermediate", "intermediate precision RSD", lv.intermediate_rsd_pct, i_max)):
+            if limit is None:
+                continue
+            out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
+                                 value, limit, None if value is None else value <= limit,
+                                 "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
 
 
