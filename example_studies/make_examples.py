@@ -77,5 +77,36 @@ def anions():
     write(folder / "crm.csv", ("found",), [(f"{12.5 * (1 + rng.normal(-0.004, 0.012)):.3f}",) for _ in range(6)])
 
 
+def after_maintenance():
+    """The same laboratory re-validates after the suppressor and conductivity cell were replaced.
+
+    Invented outcome: nitrate responds as before (+1 % slope), fluoride has lost about 9 %
+    sensitivity. The previous validation's results.json is made by running validator on the
+    anions study (see the study file's header).
+    """
+    folder = HERE / "anions-after-maintenance"
+    folder.mkdir(exist_ok=True)
+    analytes = {
+        "nitrate": ((0.5, 1, 2, 5, 10, 20, 40), 0.003, 0.1873 * 1.01, 0.0, 0.012, 0.002),
+        "fluoride": ((0.05, 0.1, 0.2, 0.5, 1.0, 1.5, 2.0), 0.001, 0.4120 * 0.91, -0.0150 * 0.91, 0.010, 0.0008),
+    }
+    cal = []
+    for name, (levels, a, b, c, rel, ab) in analytes.items():
+        for x in levels:
+            for rep in range(3):
+                mu = a + b * x + c * x * x
+                cal.append((name, x, f"{mu + rng.normal(0, ab + rel * mu):.5f}", f"run-{rep + 1}"))
+    write(folder / "calibration.csv", ("analyte", "concentration", "response", "series"), cal)
+    comparison = []
+    for name, factor, truths in (("nitrate", 1.004, rng.uniform(1, 38, 14)),
+                                 ("fluoride", 0.93, rng.uniform(0.08, 1.9, 14))):
+        for i, x in enumerate(truths, start=1):
+            ref = x * (1 + rng.normal(0, 0.015))
+            test = factor * x * (1 + rng.normal(0, 0.015))
+            comparison.append((f"DW-{i:03d}", name, f"{ref:.4f}", f"{test:.4f}"))
+    write(folder / "comparison.csv", ("sample", "analyte", "reference", "test"), comparison)
+
+
 if __name__ == "__main__":
     anions()
+    after_maintenance()

@@ -28,6 +28,7 @@ KEYS = {
     "detection": ["lod_factor", "loq_factor", "readings_per_sample", "beta", "reporting_basis"],
     "recovery": ["data", "range_pct"],
     "precision": ["data", "repeatability_rsd_max_pct"],
+    "comparison": ["data", "error_ratio", "slope_limits"],
     "nonsense": ["x"],
 }
 VALUES = st.one_of(
@@ -52,6 +53,7 @@ VALID = {
     "calibration": 'data = "calibration.csv"\n',
     "samples": 'data = "samples.csv"\n', "blanks": 'data = "blanks.csv"\n',
     "recovery": 'data = "recovery.csv"\n', "precision": 'data = "precision.csv"\n',
+    "comparison": 'data = "comparison.csv"\n',
 }
 
 
@@ -59,7 +61,8 @@ VALID = {
 def study_text(draw):
     """Mostly well-formed studies with random extra keys and values; some truncated or with stray bytes."""
     sections = ["study", "calibration"] + draw(st.lists(
-        st.sampled_from(["samples", "criteria", "blanks", "detection", "recovery", "precision"] * 3 + ["nonsense"]),
+        st.sampled_from(["samples", "criteria", "blanks", "detection", "recovery", "precision", "comparison"] * 3
+                        + ["nonsense"]),
         max_size=4, unique=True))
     if draw(st.integers(0, 9)) == 0:
         sections = draw(st.permutations(sections))[: draw(st.integers(0, len(sections)))]
@@ -110,6 +113,7 @@ def good_table(draw, name):
     rows = {"samples.csv": ["sample,response"] + [f"S{i % 3},{draw(st.floats(0, 50)):.4g}" for i in range(draw(st.integers(1, 6)))],
             "blanks.csv": ["response"] + [f"{draw(st.floats(-0.1, 0.5)):.4g}" for _ in range(draw(st.integers(1, 6)))],
             "recovery.csv": ["added,found"] + [f"{a},{a * draw(st.floats(0.5, 1.5)):.4g}" for a in draw(st.lists(st.sampled_from([1, 2, 5]), min_size=1, max_size=9))],
+            "comparison.csv": ["sample,reference,test"] + [f"S{i},{v:.4g},{v * draw(st.floats(0.8, 1.2)):.4g}" for i, v in enumerate(draw(st.lists(st.floats(0.1, 50), min_size=1, max_size=12)))],
             "precision.csv": ["level,series,found"] + [f"{lv},d{draw(st.integers(1, 3))},{lv * draw(st.floats(0.8, 1.2)):.5g}" for lv in draw(st.lists(st.sampled_from([1, 5]), min_size=1, max_size=12))],
             }[name]
     return ("\n".join(rows) + "\n").encode()
@@ -121,6 +125,7 @@ COLUMNS = {
     "blanks.csv": ["response", "analyte"],
     "recovery.csv": ["added", "found", "native"],
     "precision.csv": ["level", "series", "found"],
+    "comparison.csv": ["sample", "reference", "test"],
 }
 
 

@@ -175,3 +175,43 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
     return BlandAltman(n, bias, ConfidenceInterval(bias - t * se_bias, bias + t * se_bias, level), sd,
                        (lo, hi), ConfidenceInterval(lo - t * se_lim, lo + t * se_lim, level),
                        ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level), percentage)
+
+
+@dataclass(frozen=True)
+class ComparisonResult:
+    n: int
+    samples: tuple
+    reference: tuple
+    test: tuple
+    passing_bablok: PassingBablok
+    deming: Deming
+    bland_altman: BlandAltman
+    passed: bool
+    basis: str
+
+
+def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits=None,
+                      intercept_limits=None, percentage=False, alpha=0.05) -> ComparisonResult:
+    """All three comparisons and the verdict on the Passing-Bablok intervals.
+
+    Verdict: the slope CI contains 1 and the intercept CI contains 0; where limits
+    are given, the CIs must lie inside them instead [EP09].
+    """
+    x = np.asarray(reference, float)
+    y = np.asarray(test, float)
+    pb = passing_bablok(x, y, alpha)
+    if slope_limits is not None:
+        ok_slope = slope_limits[0] <= pb.slope_ci.low and pb.slope_ci.high <= slope_limits[1]
+        slope_basis = f"slope CI inside [{slope_limits[0]:g}, {slope_limits[1]:g}]"
+    else:
+        ok_slope = pb.slope_ci.contains(1.0)
+        slope_basis = "slope CI contains 1"
+    if intercept_limits is not None:
+        ok_icpt = intercept_limits[0] <= pb.intercept_ci.low and pb.intercept_ci.high <= intercept_limits[1]
+        icpt_basis = f"intercept CI inside [{intercept_limits[0]:g}, {intercept_limits[1]:g}]"
+    else:
+        ok_icpt = pb.intercept_ci.contains(0.0)
+        icpt_basis = "intercept CI contains 0"
+    return ComparisonResult(x.size, tuple(samples), tuple(map(float, x)), tuple(map(float, y)), pb,
+                            deming(x, y, error_ratio, alpha), bland_altman(x, y, alpha, percentage),
+                            bool(ok_slope and ok_icpt), f"Passing-Bablok: {slope_basis} and {icpt_basis}")

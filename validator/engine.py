@@ -18,6 +18,9 @@ from .criteria import (calibration_criteria, loq_criterion, overall_verdict, pre
 from .detection import DetectionResult, assess_detection
 from .precision import assess_precision_level
 from .recovery import assess_recovery, assess_reference_material
+from .comparison import assess_comparison
+from .criteria import Criterion
+from .revalidation import assess_revalidation
 from .working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .loading import AnalyteData, LoadedStudy
 
@@ -101,6 +104,8 @@ class AnalyteResult:
     recovery: object = None                  # RecoveryResult
     precision: tuple = ()                    # PrecisionLevel per level
     reference_material: object = None        # ReferenceMaterialResult
+    revalidation: object = None              # RevalidationResult
+    comparison: object = None                # ComparisonResult
 
     @property
     def characteristics(self) -> tuple:
@@ -113,6 +118,10 @@ class AnalyteResult:
             out.append("precision")
         if self.reference_material is not None:
             out.append("reference_material")
+        if self.revalidation is not None:
+            out.append("revalidation")
+        if self.comparison is not None:
+            out.append("comparison")
         return tuple(out)
 
     @property
@@ -181,11 +190,51 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         criteria.append(loq_criterion(loq_check))
     wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
                        concentration_unit)
+    comparison = reval = None
+    if data.comparison is not None:
+        cc = config.comparison
+        ids, ref, test = data.comparison
+        comparison = assess_comparison(ids, ref, test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
+                                       intercept_limits=cc.intercept_limits,
+                                       percentage=cc.percentage_differences, alpha=alpha)
+        criteria.append(Criterion("method-comparison", comparison.basis, None, None, comparison.passed))
+    if data.previous is not None:
+        rc = config.revalidation
+        reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),
+                                    slope_change_max_pct=rc.slope_change_max_pct,
+                                    residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
+        criteria.append(Criterion("slope-equivalence",
+                                  f"90 % CI of the slope change inside ±{rc.slope_change_max_pct:g} % of the "
+                                  "previous validation", reval.slope.change_pct, rc.slope_change_max_pct,
+                                  reval.slope.verdict == "equivalent", reval.slope.verdict))
+        criteria.append(Criterion("residual-sd-ratio",
+                                  f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
+                                  reval.residual_sd_ratio, rc.residual_sd_ratio_max,
+                                  reval.residual_sd_ratio <= rc.residual_sd_ratio_max))
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
                          criteria=tuple(criteria), bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=detection,
                          working_range=wr, loq_check=loq_check, recovery=recovery,
-                         precision=precision or (), reference_material=rm)
+                         precision=precision or (), reference_material=rm, revalidation=reval,
+                         comparison=comparison)
+
+
+def _summary(cal, detection, recovery, precision) -> dict:
+    """This run's numbers in the layout of a results.json analyte entry (the fields a comparison reads)."""
+    fit = cal.fit
+    rep = detection.reported
+    return {
+        "calibration": {"coefficients": {k: {"estimate": c.estimate, "std_error": c.std_error}
+                                         for k, c in fit.coefficients.items()},
+                        "residual_sd": fit.residual_sd, "n": fit.n, "df_resid": fit.df_resid},
+        "detection": {"reported_basis": rep.method,
+                      "estimates": [{"method": rep.method, "lod": rep.lod, "loq": rep.loq}]},
+        "recovery": None if recovery is None else {
+            "levels": [{"recoveries_pct": list(lv.recoveries_pct)} for lv in recovery.levels]},
+        "precision": {"levels": [{"level": lv.level, "repeatability_sd": lv.repeatability_sd,
+                                  "df": [lv.anova.df_between, lv.anova.df_within]} for lv in precision]}
+        if precision else None,
+    }
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

@@ -70,6 +70,19 @@ class AnalyteData:
     recovery: RecoveryData | None = None
     precision: PrecisionData | None = None
     reference_material: np.ndarray | None = field(default=None, repr=False)
+    comparison: tuple | None = field(default=None, repr=False)     # (sample ids, reference, test)
+    previous: dict | None = field(default=None, repr=False)        # the analyte in the previous results
+
+
+@dataclass(frozen=True)
+class PreviousRun:
+    """The results.json of an earlier validation, as identified in the audit trail."""
+
+    path: str
+    sha256: str
+    study_id: str
+    generated_at: str
+    unmatched: tuple         # analyte names present in only one of the two runs
 
 
 @dataclass(frozen=True)
@@ -77,6 +90,7 @@ class LoadedStudy:
     study: StudyFile
     inputs: tuple            # InputFile, the study file first
     analytes: tuple          # AnalyteData, in order of first appearance
+    previous: PreviousRun | None = None
 
     @property
     def config(self):
@@ -265,6 +279,55 @@ def _reference_material(reader, analytes):
     return {name: np.array(table.numbers("found", reader.decimal))}
 
 
+def _comparison(reader, analytes):
+    cfg = reader.study.config.comparison
+    if cfg is None:
+        return {}
+    table = reader.table("comparison", cfg.data, ("sample", "reference", "test"), ("analyte",))
+    ids = table.texts("sample")
+    ref = np.array(table.numbers("reference", reader.decimal))
+    test = np.array(table.numbers("test", reader.decimal))
+    out = {}
+    for name, idx in _analyte_rows(table, analytes, "comparison result").items():
+        if not idx:
+            continue
+        if len(idx) < 3:
+            raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
+                            file=table.path, row=table.rows[idx[0]])
+        out[name] = (tuple(ids[i] for i in idx), ref[idx], test[idx])
+    return out
+
+
+def _previous(reader, analytes):
+    import json
+
+    cfg = reader.study.config.revalidation
+    if cfg is None:
+        return {}, None
+    path = cfg.previous
+    resolved = reader.study.resolve(path)
+    data = read_bytes(resolved, path, reader.max_bytes)
+    reader.inputs.append(InputFile("previous-results", path, str(resolved), hashlib.sha256(data).hexdigest(),
+                                   len(data)))
+    try:
+        previous = json.loads(data.decode("utf-8"))
+        version = str(previous["schema_version"])
+        unit = previous["study"]["concentration_unit"]
+        names = [a["name"] for a in previous["analytes"]]
+    except (ValueError, KeyError, TypeError, UnicodeDecodeError):
+        raise DataError("is not a results.json written by validator", file=path) from None
+    if version.split(".")[0] != "1":
+        raise DataError(f'has schema version "{version}"; this validator reads version 1.x', file=path)
+    current_unit = reader.study.config.study.concentration_unit
+    if unit != current_unit:
+        raise DataError(f'uses concentration unit "{unit}" but this study uses "{current_unit}"; '
+                        "results in different units cannot be compared", file=path)
+    by_name = {a["name"]: a for a in previous["analytes"]}
+    unmatched = tuple([n for n in analytes if n not in by_name] + [n for n in names if n not in analytes])
+    run = PreviousRun(path, reader.inputs[-1].sha256, previous["study"]["id"], previous["generated_at"], unmatched)
+    return by_name, run
+
+
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files."""
     study = read_study_file(path)
@@ -275,7 +338,10 @@ def load_study(path: str | Path) -> LoadedStudy:
     recovery = _recovery(reader, calibration)
     precision = _precision(reader, calibration)
     crm = _reference_material(reader, calibration)
+    comparison = _comparison(reader, calibration)
+    previous, run = _previous(reader, calibration)
     analytes = tuple(AnalyteData(name, calibration[name], samples.get(name, ()), blanks.get(name),
-                                 recovery.get(name), precision.get(name), crm.get(name))
+                                 recovery.get(name), precision.get(name), crm.get(name),
+                                 comparison.get(name), previous.get(name))
                      for name in calibration)
-    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes)
+    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

@@ -173,11 +173,57 @@ def _reference_material(rm):
             "significant": rm.significant}
 
 
+def _revalidation(r, previous):
+    if r is None:
+        return None
+    sl = r.slope
+    return {
+        "previous": {"path": previous.path, "study_id": previous.study_id, "generated_at": previous.generated_at,
+                     "sha256": previous.sha256},
+        "slope": {"previous": num(sl.previous), "current": num(sl.current), "change_pct": num(sl.change_pct),
+                  "change_ci_pct": _ci(sl.change_ci_pct), "t_statistic": num(sl.t_statistic), "df": sl.df,
+                  "p_value": num(sl.pvalue), "margin_pct": num(sl.margin_pct), "equivalent": sl.verdict == "equivalent"},
+        "intercept": {"previous": num(r.intercept_previous), "current": num(r.intercept_current)},
+        "residual_sd": {"previous": num(r.residual_sd_previous), "current": num(r.residual_sd_current),
+                        "ratio": num(r.residual_sd_ratio), "f_statistic": num(r.residual_sd_f),
+                        "p_value": num(r.residual_sd_pvalue), "ratio_max": num(r.residual_sd_ratio_max)},
+        "lod": [num(v) for v in r.lod], "loq": [num(v) for v in r.loq],
+        "recovery": None if r.recovery is None else {"previous_mean_pct": num(r.recovery[0]),
+                                                     "current_mean_pct": num(r.recovery[1]),
+                                                     "welch_p_value": num(r.recovery[2])},
+        "repeatability": [{"level": num(lv), "previous_sd": num(a), "current_sd": num(b), "f_p_value": num(p)}
+                          for lv, a, b, p in r.repeatability],
+        "verdict": r.verdict,
+        "reasons": list(r.reasons),
+    }
+
+
+def _comparison(c):
+    if c is None:
+        return None
+    pb, dm, ba = c.passing_bablok, c.deming, c.bland_altman
+    return {
+        "n": c.n,
+        "passing_bablok": {"slope": num(pb.slope), "slope_ci": _ci(pb.slope_ci), "intercept": num(pb.intercept),
+                           "intercept_ci": _ci(pb.intercept_ci), "cusum_p_value": num(pb.cusum_pvalue),
+                           "cusum_statistic": num(pb.cusum_statistic), "offset_k": pb.offset_k},
+        "deming": {"slope": num(dm.slope), "slope_ci": _ci(dm.slope_ci), "intercept": num(dm.intercept),
+                   "intercept_ci": _ci(dm.intercept_ci), "error_ratio": num(dm.error_ratio),
+                   "slope_se": num(dm.slope_se), "intercept_se": num(dm.intercept_se)},
+        "bland_altman": {"bias": num(ba.bias), "bias_ci": _ci(ba.bias_ci), "sd": num(ba.sd),
+                         "limits": [num(v) for v in ba.limits], "lower_limit_ci": _ci(ba.lower_limit_ci),
+                         "upper_limit_ci": _ci(ba.upper_limit_ci), "percentage": ba.percentage},
+        "verdict": "pass" if c.passed else "fail",
+        "basis": c.basis,
+        "data": [{"sample": s, "reference": num(x), "test": num(y)} for s, x, y in zip(c.samples, c.reference, c.test)],
+    }
+
+
 def _limit(v):
     return [num(x) for x in v] if isinstance(v, (list, tuple)) else num(v)
 
 
-def _analyte(a):
+def _analyte(a, previous=None):
     wr = a.working_range
     return {
         "name": a.name,
@@ -193,6 +239,8 @@ def _analyte(a):
         "recovery": _recovery(a.recovery),
         "precision": _precision(a.precision),
         "reference_material": _reference_material(a.reference_material),
+        "revalidation": _revalidation(a.revalidation, previous),
+        "comparison": _comparison(a.comparison),
         "criteria": [{"id": c.id, "description": c.description, "value": num(c.value),
                       "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
         "diagnostics": list(a.calibration.diagnostics),
@@ -217,7 +265,11 @@ def build_results(result, *, generated_at: str) -> dict:
         "inputs": [{"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size}
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
-        "analytes": [_analyte(a) for a in result.analytes],
+        "analytes": [_analyte(a, loaded.previous) for a in result.analytes],
+        "revalidation": None if loaded.previous is None else {
+            "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
+                         "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},
+            "unmatched_analytes": list(loaded.previous.unmatched)},
     }
 
 

@@ -78,3 +78,79 @@ def residual_sd_ratio(previous_sd, previous_df, current_sd, current_df):
     F = (current_sd / previous_sd) ** 2
     p = 2 * min(stats.f.sf(F, current_df, previous_df), stats.f.cdf(F, current_df, previous_df))
     return float(current_sd / previous_sd), float(F), float(min(p, 1.0))
+
+
+@dataclass(frozen=True)
+class RevalidationResult:
+    slope: SlopeComparison
+    intercept_previous: float | None
+    intercept_current: float | None
+    residual_sd_previous: float
+    residual_sd_current: float
+    residual_sd_ratio: float
+    residual_sd_f: float
+    residual_sd_pvalue: float
+    residual_sd_ratio_max: float
+    lod: tuple            # (previous, current) on the reported basis
+    loq: tuple
+    recovery: tuple | None        # (previous mean %, current mean %, Welch p)
+    repeatability: tuple          # (level, previous s_r, current s_r, F p) for levels in both runs
+    verdict: str
+    reasons: tuple
+
+
+def _reported(analyte: dict, key: str):
+    det = analyte.get("detection") or {}
+    for e in det.get("estimates", []):
+        if e["method"] == det.get("reported_basis"):
+            return e[key]
+    return None
+
+
+def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: float,
+                        residual_sd_ratio_max: float, alpha: float = 0.05) -> RevalidationResult:
+    """Compare one analyte of this run (its results.json entry) with the previous run's entry.
+
+    Notes
+    -----
+    Slopes: :func:`compare_slopes`. Residual SD: ratio s2/s1 and F = ratio^2 on
+    (n2 - p2, n1 - p1), two-sided. Recovery: Welch's t test on the per-replicate
+    recoveries of all levels (scipy.stats.ttest_ind, equal_var=False). Repeatability:
+    F = s_r2^2/s_r1^2 per level present in both runs. Verdict: "different" when the slope
+    interval lies outside the margin or the residual SD ratio exceeds its maximum;
+    "not shown equivalent" when the slope interval straddles the margin; else "equivalent".
+    """
+    pc, cc = previous["calibration"], current["calibration"]
+    summary = lambda c: (c["coefficients"]["slope"]["estimate"], c["coefficients"]["slope"]["std_error"],  # noqa: E731
+                         c["residual_sd"], c["n"])
+    slope = compare_slopes(summary(pc), summary(cc), slope_change_max_pct, alpha)
+    ratio, F, p = residual_sd_ratio(pc["residual_sd"], pc["df_resid"], cc["residual_sd"], cc["df_resid"])
+    rec = None
+    if previous.get("recovery") and current.get("recovery"):
+        r1 = [v for lv in previous["recovery"]["levels"] for v in lv["recoveries_pct"]]
+        r2 = [v for lv in current["recovery"]["levels"] for v in lv["recoveries_pct"]]
+        welch = stats.ttest_ind(r2, r1, equal_var=False) if len(r1) > 1 and len(r2) > 1 else None
+        rec = (float(np.mean(r1)), float(np.mean(r2)), None if welch is None else float(welch.pvalue))
+    rep = []
+    if previous.get("precision") and current.get("precision"):
+        old = {lv["level"]: lv for lv in previous["precision"]["levels"]}
+        for lv in current["precision"]["levels"]:
+            o = old.get(lv["level"])
+            if o and o["repeatability_sd"] and lv["repeatability_sd"]:
+                f = (lv["repeatability_sd"] / o["repeatability_sd"]) ** 2
+                d2, d1 = lv["df"][1], o["df"][1]
+                pf = 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))
+                rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], float(min(pf, 1.0))))
+    reasons = [f"slope change {slope.change_pct:+.2f} % with 90 % CI {slope.change_ci_pct.low:+.2f} to "
+               f"{slope.change_ci_pct.high:+.2f} % against the margin ±{slope_change_max_pct:g} %: {slope.verdict}"]
+    verdict = slope.verdict
+    if ratio > residual_sd_ratio_max:
+        verdict = "different"
+        reasons.append(f"residual SD ratio {ratio:.3g} exceeds the maximum {residual_sd_ratio_max:g}")
+    else:
+        reasons.append(f"residual SD ratio {ratio:.3g} is within the maximum {residual_sd_ratio_max:g}")
+    ci = lambda c: c["coefficients"].get("intercept", {}).get("estimate")  # noqa: E731
+    return RevalidationResult(slope, ci(pc), ci(cc), pc["residual_sd"], cc["residual_sd"], ratio, F, p,
+                              residual_sd_ratio_max, (_reported(previous, "lod"), _reported(current, "lod")),
+                              (_reported(previous, "loq"), _reported(current, "loq")), rec, tuple(rep),
+                              verdict, tuple(reasons))

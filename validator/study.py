@@ -160,6 +160,28 @@ class ReferenceMaterialSection(_Section):
     coverage_factor: float = Field(2.0, gt=0)
 
 
+class RevalidationSection(_Section):
+    previous: str
+    slope_change_max_pct: float = Field(5.0, gt=0)
+    residual_sd_ratio_max: float = Field(2.0, gt=0)
+
+
+class ComparisonSection(_Section):
+    data: str
+    error_ratio: float = Field(1.0, gt=0)
+    slope_limits: Optional[list[float]] = None
+    intercept_limits: Optional[list[float]] = None
+    percentage_differences: bool = False
+
+    @model_validator(mode="after")
+    def _limits(self):
+        for name in ("slope_limits", "intercept_limits"):
+            v = getattr(self, name)
+            if v is not None and (len(v) != 2 or not v[0] < v[1]):
+                raise ValueError(f"{name} must be [low, high] with low < high, got {list(v)}")
+        return self
+
+
 class StudyConfig(_Section):
     """The whole study file as validated data (no data files read yet)."""
 
@@ -172,6 +194,8 @@ class StudyConfig(_Section):
     recovery: Optional[RecoverySection] = None
     precision: Optional[PrecisionSection] = None
     reference_material: Optional[ReferenceMaterialSection] = None
+    revalidation: Optional[RevalidationSection] = None
+    comparison: Optional[ComparisonSection] = None
 
 
 @dataclass(frozen=True)

@@ -80,11 +80,35 @@ def _series_pct(data, lv):
     return out
 
 
+def _change_data(a, entry: dict) -> dict:
+    out = {}
+    prev = a.data.previous
+    if prev is not None:
+        levels = [lv["concentration"] for lv in prev["calibration"]["level_table"]]
+        out["revalidation"] = {
+            "previous_coefficients": prev["calibration"]["coefficients"],
+            "previous_range": (min(levels), max(levels)),
+            "current_coefficients": entry["calibration"]["coefficients"],
+            "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
+    c = a.comparison
+    if c is not None:
+        ba = c.bland_altman
+        out["comparison"] = {
+            "reference": list(c.reference), "test": list(c.test),
+            "differences": [100 * (y - x) / ((x + y) / 2) if ba.percentage else y - x
+                            for x, y in zip(c.reference, c.test)],
+            "bias": ba.bias, "limits": list(ba.limits), "percentage": ba.percentage,
+            "pb_a": c.passing_bablok.intercept, "pb_b": c.passing_bablok.slope,
+            "dm_a": c.deming.intercept, "dm_b": c.deming.slope}
+    return out
+
+
 def render_html(result, results: dict, *, paper: str = "a4") -> str:
     """The dossier as one self-contained HTML document."""
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
-    figures = figures_for_all([_plot_data(i, a, study) for i, a in enumerate(result.analytes)])
+    figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i])}
+                               for i, a in enumerate(result.analytes)])
     analytes = []
     for i, a in enumerate(results["analytes"]):
         analytes.append({"index": i, "data": a, "figures": figures[i],

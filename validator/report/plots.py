@@ -162,11 +162,67 @@ def _trueness_precision_figure(d: dict) -> str:
     return _svg(fig, f"tp{d['key']}")
 
 
+def _line(coefficients: dict, xs):
+    """Values of a calibration function a + b x + c x^2 for drawing (coefficients from results.json)."""
+    a = coefficients.get("intercept", {}).get("estimate", 0.0)
+    b = coefficients["slope"]["estimate"]
+    c = coefficients.get("quadratic", {}).get("estimate", 0.0)
+    return [a + b * x + c * x * x for x in xs]
+
+
+def _revalidation_figure(d: dict) -> str:
+    r = d["revalidation"]
+    fig, ax = plt.subplots(figsize=(6.4, 3.0))
+    for label, coef, (lo, hi), style, colour in (
+            ("previous validation", r["previous_coefficients"], r["previous_range"], "--", PALETTE["pred"]),
+            ("this run", r["current_coefficients"], r["current_range"], "-", PALETTE["fit"])):
+        xs = [lo + (hi - lo) * i / 60 for i in range(61)]
+        ax.plot(xs, _line(coef, xs), style, color=colour, linewidth=1.4, label=label)
+    ax.plot(d["x"], d["y"], "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"],
+            label="calibrators, this run")
+    ax.set_xlabel(f"concentration ({d['xunit']})")
+    ax.set_ylabel(f"response ({d['yunit']})")
+    ax.legend(frameon=False, fontsize=7, loc="upper left")
+    fig.tight_layout()
+    return _svg(fig, f"rv{d['key']}")
+
+
+def _comparison_figure(d: dict) -> str:
+    c = d["comparison"]
+    x, y = c["reference"], c["test"]
+    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(6.4, 3.0))
+    lo, hi = min(min(x), min(y)), max(max(x), max(y))
+    ax1.plot([lo, hi], [lo, hi], ":", color=PALETTE["ink"], linewidth=0.8, label="identity")
+    ax1.plot([lo, hi], [c["pb_a"] + c["pb_b"] * lo, c["pb_a"] + c["pb_b"] * hi], "-", color=PALETTE["fit"],
+             linewidth=1.2, label="Passing-Bablok")
+    ax1.plot([lo, hi], [c["dm_a"] + c["dm_b"] * lo, c["dm_a"] + c["dm_b"] * hi], "--", color=PALETTE["pred"],
+             linewidth=1.2, label="Deming")
+    ax1.plot(x, y, "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"])
+    ax1.set_xlabel(f"previous / reference ({d['xunit']})")
+    ax1.set_ylabel(f"this run / test ({d['xunit']})")
+    ax1.legend(frameon=False, fontsize=6)
+    means = [(a + b) / 2 for a, b in zip(x, y)]
+    ax2.plot(means, c["differences"], "s", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"])
+    ax2.axhline(c["bias"], color=PALETTE["fit"], linewidth=1.2)
+    for limit in c["limits"]:
+        ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, linestyle="--")
+    ax2.axhline(0, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+    ax2.set_xlabel(f"mean of the two ({d['xunit']})")
+    ax2.set_ylabel("difference" + (" (%)" if c["percentage"] else f" ({d['xunit']})"))
+    ax2.set_title("bias (solid), limits of agreement (dashed)", fontsize=8, loc="left")
+    fig.tight_layout()
+    return _svg(fig, f"mc{d['key']}")
+
+
 def analyte_figures(d: dict) -> dict:
     with matplotlib.rc_context(_RC):
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
         if d.get("recovery") or d.get("precision"):
             figs["trueness_precision"] = _trueness_precision_figure(d)
+        if d.get("revalidation"):
+            figs["revalidation"] = _revalidation_figure(d)
+        if d.get("comparison"):
+            figs["comparison"] = _comparison_figure(d)
         return figs
 
 
