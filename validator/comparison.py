@@ -1,7 +1,7 @@
 """Comparison of two methods on the same samples: Passing-Bablok, Deming, Bland-Altman.
 
-Pure functions over arrays (x = reference method, y = test method).
-Not yet wired into the study file or the dossier (see issue 5).
+Pure functions over arrays (x = reference method, y = test method); the
+``[comparison]`` section of a study runs :func:`assess_comparison` per analyte.
 
 References
 ----------

@@ -190,7 +190,8 @@ def _revalidation(r, previous):
         "lod": [num(v) for v in r.lod], "loq": [num(v) for v in r.loq],
         "recovery": None if r.recovery is None else {"previous_mean_pct": num(r.recovery[0]),
                                                      "current_mean_pct": num(r.recovery[1]),
-                                                     "welch_p_value": num(r.recovery[2])},
+                                                     "welch_p_value": num(r.recovery[2]),
+                                                     "variance_f_p_value": num(r.recovery[3])},
         "repeatability": [{"level": num(lv), "previous_sd": num(a), "current_sd": num(b), "f_p_value": num(p)}
                           for lv, a, b, p in r.repeatability],
         "verdict": r.verdict,

@@ -1,8 +1,8 @@
 """Comparing a calibration with a previous validation's: slopes and residual SDs.
 
 Pure functions over the summary numbers a results.json records (slope, its
-standard error, s(y/x), n). Not yet wired into the study file or the dossier
-(see issue 5).
+standard error, s(y/x), n); the ``[revalidation]`` section of a study runs
+:func:`assess_revalidation` per analyte matched by name.
 
 References
 ----------
@@ -93,7 +93,7 @@ class RevalidationResult:
     residual_sd_ratio_max: float
     lod: tuple            # (previous, current) on the reported basis
     loq: tuple
-    recovery: tuple | None        # (previous mean %, current mean %, Welch p)
+    recovery: tuple | None        # (previous mean %, current mean %, Welch p, F-test p of the variances)
     repeatability: tuple          # (level, previous s_r, current s_r, F p) for levels in both runs
     verdict: str
     reasons: tuple
@@ -115,7 +115,8 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
     -----
     Slopes: :func:`compare_slopes`. Residual SD: ratio s2/s1 and F = ratio^2 on
     (n2 - p2, n1 - p1), two-sided. Recovery: Welch's t test on the per-replicate
-    recoveries of all levels (scipy.stats.ttest_ind, equal_var=False). Repeatability:
+    recoveries of all levels (scipy.stats.ttest_ind, equal_var=False), and the F test of
+    their variances. Repeatability:
     F = s_r2^2/s_r1^2 per level present in both runs. Verdict: "different" when the slope
     interval lies outside the margin or the residual SD ratio exceeds its maximum;
     "not shown equivalent" when the slope interval straddles the margin; else "equivalent".
@@ -129,8 +130,13 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
     if previous.get("recovery") and current.get("recovery"):
         r1 = [v for lv in previous["recovery"]["levels"] for v in lv["recoveries_pct"]]
         r2 = [v for lv in current["recovery"]["levels"] for v in lv["recoveries_pct"]]
-        welch = stats.ttest_ind(r2, r1, equal_var=False) if len(r1) > 1 and len(r2) > 1 else None
-        rec = (float(np.mean(r1)), float(np.mean(r2)), None if welch is None else float(welch.pvalue))
+        welch = f_p = None
+        if len(r1) > 1 and len(r2) > 1:
+            welch = float(stats.ttest_ind(r2, r1, equal_var=False).pvalue)
+            f = np.var(r2, ddof=1) / np.var(r1, ddof=1) if np.var(r1) > 0 else np.inf
+            d2, d1 = len(r2) - 1, len(r1) - 1
+            f_p = float(min(1.0, 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))))
+        rec = (float(np.mean(r1)), float(np.mean(r2)), welch, f_p)
     rep = []
     if previous.get("precision") and current.get("precision"):
         old = {lv["level"]: lv for lv in previous["precision"]["levels"]}
