@@ -92,3 +92,15 @@ def test_unmatched_analytes_are_listed(make_study, tmp_path):
     results = json.loads((tmp_path / "o" / "results.json").read_text())
     assert set(results["revalidation"]["unmatched_analytes"]) == {"T-1", "nitrate", "fluoride"}
     assert results["analytes"][0]["revalidation"] is None
+
+
+def test_a_run_compared_with_itself_is_equivalent():
+    # identity check: every change is zero, every two-sample p-value is 1
+    from validator.revalidation import assess_revalidation
+    prev = json.loads((REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json").read_text())
+    for a in prev["analytes"]:
+        r = assess_revalidation(a, a, slope_change_max_pct=5, residual_sd_ratio_max=2)
+        assert r.slope.change_pct == 0 and r.slope.verdict == "equivalent"
+        assert r.residual_sd_ratio == 1 and r.residual_sd_pvalue == pytest.approx(1)
+        assert r.recovery[2] == pytest.approx(1) and r.recovery[3] == pytest.approx(1)
+        assert all(p == pytest.approx(1) for *_, p in r.repeatability) and r.repeatability
