@@ -177,6 +177,13 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
                        ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level), percentage)
 
 
+def _judge(ci, limits, ideal, name):
+    """CI inside the limits where given, else the CI contains the ideal value."""
+    if limits is not None:
+        return limits[0] <= ci.low and ci.high <= limits[1], f"{name} CI inside [{limits[0]:g}, {limits[1]:g}]"
+    return ci.contains(ideal), f"{name} CI contains {ideal:g}"
+
+
 @dataclass(frozen=True)
 class ComparisonResult:
     n: int
@@ -200,18 +207,8 @@ def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits
     x = np.asarray(reference, float)
     y = np.asarray(test, float)
     pb = passing_bablok(x, y, alpha)
-    if slope_limits is not None:
-        ok_slope = slope_limits[0] <= pb.slope_ci.low and pb.slope_ci.high <= slope_limits[1]
-        slope_basis = f"slope CI inside [{slope_limits[0]:g}, {slope_limits[1]:g}]"
-    else:
-        ok_slope = pb.slope_ci.contains(1.0)
-        slope_basis = "slope CI contains 1"
-    if intercept_limits is not None:
-        ok_icpt = intercept_limits[0] <= pb.intercept_ci.low and pb.intercept_ci.high <= intercept_limits[1]
-        icpt_basis = f"intercept CI inside [{intercept_limits[0]:g}, {intercept_limits[1]:g}]"
-    else:
-        ok_icpt = pb.intercept_ci.contains(0.0)
-        icpt_basis = "intercept CI contains 0"
+    ok_slope, slope_basis = _judge(pb.slope_ci, slope_limits, 1.0, "slope")
+    ok_icpt, icpt_basis = _judge(pb.intercept_ci, intercept_limits, 0.0, "intercept")
     return ComparisonResult(x.size, tuple(samples), tuple(map(float, x)), tuple(map(float, y)), pb,
                             deming(x, y, error_ratio, alpha), bland_altman(x, y, alpha, percentage),
                             bool(ok_slope and ok_icpt), f"Passing-Bablok: {slope_basis} and {icpt_basis}")

@@ -139,7 +139,7 @@ def _trueness_precision_figure(d: dict) -> str:
                 ax.plot([i] * len(lv["values"]), lv["values"], "o", markersize=3.5, markerfacecolor="white",
                         markeredgecolor=PALETTE["data"])
                 ax.plot([i - 0.25, i + 0.25], [lv["mean"]] * 2, "-", color=PALETTE["ink"], linewidth=1.4)
-            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
             ax.set_xticks(range(len(d["recovery"])))
             ax.set_xticklabels([f"{lv['added']:g}" for lv in d["recovery"]])
             ax.set_xlabel(f"added ({d['xunit']})")
@@ -152,7 +152,7 @@ def _trueness_precision_figure(d: dict) -> str:
                     xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
                     ax.plot(xs, values, markers[j % len(markers)], markersize=3.5, markerfacecolor="white",
                             markeredgecolor=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
-            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
             ax.set_xticks(range(len(d["precision"])))
             ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
             ax.set_xlabel(f"level ({d['xunit']})")
@@ -205,8 +205,8 @@ def _comparison_figure(d: dict) -> str:
     ax2.plot(means, c["differences"], "s", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"])
     ax2.axhline(c["bias"], color=PALETTE["fit"], linewidth=1.2)
     for limit in c["limits"]:
-        ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, linestyle="--")
-    ax2.axhline(0, color=PALETTE["ink"], linewidth=0.6, linestyle=":")
+        ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, ls="--")
+    ax2.axhline(0, color=PALETTE["ink"], linewidth=0.6, ls=":")
     ax2.set_xlabel(f"mean of the two ({d['xunit']})")
     ax2.set_ylabel("difference" + (" (%)" if c["percentage"] else f" ({d['xunit']})"))
     ax2.set_title("bias (solid), limits of agreement (dashed)", fontsize=8, loc="left")
