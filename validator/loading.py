@@ -97,7 +97,7 @@ class LoadedStudy:
         return self.study.config
 
 
-def _group(names, rows):
+def _group(names):
     order, groups = [], {}
     for i, name in enumerate(names):
         if name not in groups:
@@ -124,7 +124,7 @@ class _Reader:
         return read_table(data, path, delimiter=self.delimiter, required=required, optional=optional)
 
 
-def _check_weighting(weighting: str, name: str, table, idx, x, y):
+def _check_weighting(weighting: str, table, idx, x, y):
     if weighting in ("1/x", "1/x^2"):
         for i in idx:
             if x[i] <= 0:
@@ -152,7 +152,7 @@ def _calibration(reader: _Reader):
                             file=table.path, row=table.rows[i], column="concentration", value=xi)
     names = table.texts("analyte") if table.has("analyte") else [cfg.study.id] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
-    order, groups = _group(names, table.rows)
+    order, groups = _group(names)
     result = {}
     needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
     for name in order:
@@ -167,10 +167,10 @@ def _calibration(reader: _Reader):
             raise DataError(f'every response of analyte "{name}" is {y[idx][0]:g}: the instrument '
                             "does not respond to concentration", file=table.path,
                             row=table.rows[idx[0]], column="response")
-        _check_weighting(cfg.calibration.weighting, name, table, idx, x, y)
+        _check_weighting(cfg.calibration.weighting, table, idx, x, y)
         result[name] = CalibrationData(x[idx], y[idx], tuple(series[i] for i in idx),
                                        tuple(table.rows[i] for i in idx))
-    return result, table.has("analyte")
+    return result
 
 
 def _analyte_rows(table, analytes: dict, what: str) -> dict:
@@ -332,7 +332,7 @@ def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files."""
     study = read_study_file(path)
     reader = _Reader(study)
-    calibration, _ = _calibration(reader)
+    calibration = _calibration(reader)
     samples = _samples(reader, calibration)
     blanks = _blanks(reader, calibration)
     recovery = _recovery(reader, calibration)

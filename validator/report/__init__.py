@@ -68,8 +68,6 @@ def _plot_data(index: int, a, study: dict) -> dict:
 
 def _series_pct(data, lv):
     """Precision results of one level as % of the level mean, grouped by series (for plotting)."""
-    import numpy as np
-
     mask = data.level == lv.level
     values = data.found[mask] + data.offset
     series = [s for s, m in zip(data.series, mask) if m]

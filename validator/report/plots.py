@@ -43,6 +43,12 @@ _RC = {
 }
 
 
+def _points(ax, x, y, marker="o", colour=None, **kw):
+    """Open markers: the house style for data points (legible in greyscale)."""
+    ax.plot(x, y, marker, markersize=kw.pop("markersize", 3.5), markerfacecolor="white",
+            markeredgecolor=colour or PALETTE["data"], **kw)
+
+
 def _svg(fig, name: str) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": "validator", "Title": name})
@@ -67,8 +73,7 @@ def _calibration_figure(d: dict) -> str:
             label=f"{d['level_pct']} % confidence band")
     ax.plot(d["grid"], d["conf_high"], "--", color=PALETTE["conf"], linewidth=1)
     ax.plot(d["grid"], d["fit"], "-", color=PALETTE["fit"], linewidth=1.4, label="fitted function")
-    ax.plot(d["x"], d["y"], "o", markersize=4, markerfacecolor="white",
-            markeredgecolor=PALETTE["data"], markeredgewidth=1.2, label="calibrators")
+    _points(ax, d["x"], d["y"], "o", markersize=4, markeredgewidth=1.2, label="calibrators")
     if d["outliers_x"]:
         ax.plot(d["outliers_x"], d["outliers_y"], "x", markersize=8, color=PALETTE["bad"],
                 markeredgewidth=1.5, label="flagged point")
@@ -83,21 +88,18 @@ def _diagnostic_figure(d: dict) -> str:
     fig, axes = plt.subplots(2, 2, figsize=(6.4, 4.8))
     ax = axes[0, 0]
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
-    ax.plot(d["x"], d["residuals"], "o", markersize=3.5, markerfacecolor="white",
-            markeredgecolor=PALETTE["data"])
+    _points(ax, d["x"], d["residuals"], "o")
     ax.set_title("residuals", fontsize=8, loc="left")
     ax.set_xlabel(f"concentration ({d['xunit']})")
     ax.set_ylabel(f"response ({d['yunit']})")
     ax = axes[0, 1]
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
-    ax.plot(d["rel_x"], d["rel_residuals"], "s", markersize=3.5, markerfacecolor="white",
-            markeredgecolor=PALETTE["data"])
+    _points(ax, d["rel_x"], d["rel_residuals"], "s")
     ax.set_title("relative residuals", fontsize=8, loc="left")
     ax.set_xlabel(f"concentration ({d['xunit']})")
     ax.set_ylabel("% of fitted response")
     ax = axes[1, 0]
-    ax.plot(d["qq_theoretical"], d["qq_ordered"], "o", markersize=3.5, markerfacecolor="white",
-            markeredgecolor=PALETTE["data"])
+    _points(ax, d["qq_theoretical"], d["qq_ordered"], "o")
     if d["qq_line"]:
         lo, hi = min(d["qq_theoretical"]), max(d["qq_theoretical"])
         a, b = d["qq_line"]
@@ -113,8 +115,7 @@ def _diagnostic_figure(d: dict) -> str:
     ok = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p]
     bad = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p is False]
     if ok:
-        ax.plot(*zip(*ok), "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"],
-                label="within")
+        _points(ax, *zip(*ok), "o", label="within")
     if bad:
         ax.plot(*zip(*bad), "x", markersize=6, color=PALETTE["bad"], markeredgewidth=1.4, label="outside")
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
@@ -136,8 +137,7 @@ def _trueness_precision_figure(d: dict) -> str:
             for i, lv in enumerate(d["recovery"]):
                 lo, hi = lv["range"]
                 ax.fill_between([i - 0.35, i + 0.35], lo, hi, color=PALETTE["band"], linewidth=0)
-                ax.plot([i] * len(lv["values"]), lv["values"], "o", markersize=3.5, markerfacecolor="white",
-                        markeredgecolor=PALETTE["data"])
+                _points(ax, [i] * len(lv["values"]), lv["values"], "o")
                 ax.plot([i - 0.25, i + 0.25], [lv["mean"]] * 2, "-", color=PALETTE["ink"], linewidth=1.4)
             ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
             ax.set_xticks(range(len(d["recovery"])))
@@ -150,8 +150,8 @@ def _trueness_precision_figure(d: dict) -> str:
             for i, lv in enumerate(d["precision"]):
                 for j, (series, values) in enumerate(lv["series"]):
                     xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
-                    ax.plot(xs, values, markers[j % len(markers)], markersize=3.5, markerfacecolor="white",
-                            markeredgecolor=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
+                    _points(ax, xs, values, markers[j % len(markers)],
+                            colour=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
             ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
             ax.set_xticks(range(len(d["precision"])))
             ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
@@ -178,8 +178,7 @@ def _revalidation_figure(d: dict) -> str:
             ("this run", r["current_coefficients"], r["current_range"], "-", PALETTE["fit"])):
         xs = [lo + (hi - lo) * i / 60 for i in range(61)]
         ax.plot(xs, _line(coef, xs), style, color=colour, linewidth=1.4, label=label)
-    ax.plot(d["x"], d["y"], "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"],
-            label="calibrators, this run")
+    _points(ax, d["x"], d["y"], "o", label="calibrators, this run")
     ax.set_xlabel(f"concentration ({d['xunit']})")
     ax.set_ylabel(f"response ({d['yunit']})")
     ax.legend(frameon=False, fontsize=7, loc="upper left")
@@ -197,12 +196,12 @@ def _comparison_figure(d: dict) -> str:
              linewidth=1.2, label="Passing-Bablok")
     ax1.plot([lo, hi], [c["dm_a"] + c["dm_b"] * lo, c["dm_a"] + c["dm_b"] * hi], "--", color=PALETTE["pred"],
              linewidth=1.2, label="Deming")
-    ax1.plot(x, y, "o", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"])
+    _points(ax1, x, y, "o")
     ax1.set_xlabel(f"previous / reference ({d['xunit']})")
     ax1.set_ylabel(f"this run / test ({d['xunit']})")
     ax1.legend(frameon=False, fontsize=6)
     means = [(a + b) / 2 for a, b in zip(x, y)]
-    ax2.plot(means, c["differences"], "s", markersize=3.5, markerfacecolor="white", markeredgecolor=PALETTE["data"])
+    _points(ax2, means, c["differences"], "s")
     ax2.axhline(c["bias"], color=PALETTE["fit"], linewidth=1.2)
     for limit in c["limits"]:
         ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, ls="--")

@@ -8,8 +8,6 @@ study's alpha and limits but estimates nothing.
 
 from __future__ import annotations
 
-import math
-
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "verdict_label", "calibration_sentences"]
 
 SIG = 5
@@ -128,9 +126,6 @@ def _reason(a: dict, item: str) -> str:
             return entry["reason"]
     return "see the analyte's notes"
 
-
-def isfinite(value) -> bool:
-    return value is not None and math.isfinite(value)
 
 
 def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
