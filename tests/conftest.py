@@ -10,15 +10,16 @@ import numpy as np
 import pytest
 
 REPO = Path(__file__).resolve().parents[1]
-# CI and sessions lay shared/ beside the clone; VALIDATOR_REFERENCE_DATA overrides
-REFERENCE = Path(os.environ.get("VALIDATOR_REFERENCE_DATA", REPO.parent / "shared" / "reference-data"))
+# the published reference data ship inside the package (validator/reference_data/,
+# sources in its README.md); VALIDATOR_REFERENCE_DATA may point elsewhere
+REFERENCE = Path(os.environ.get("VALIDATOR_REFERENCE_DATA", REPO / "validator" / "reference_data"))
 ARTEFACTS = REPO / "tests" / "artefacts"
 
 
 def reference_file(*parts) -> Path:
     path = REFERENCE.joinpath(*parts)
     if not path.is_file():
-        pytest.fail(f"reference data file missing: {path} (see shared/reference-data/SOURCES.md)")
+        pytest.fail(f"reference data file missing: {path} (see validator/reference_data/README.md)")
     return path
 
 
