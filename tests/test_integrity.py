@@ -89,24 +89,24 @@ def test_inputs_are_never_modified(run_once):
     assert {p.name: p.read_bytes() for p in inputs.iterdir()} == before
 
 
-def test_crash_mid_render_leaves_no_partial_output(make_study, tmp_path, monkeypatch, capsys):
+def test_crash_mid_render_leaves_no_partial_output(make_study, outside, monkeypatch, capsys):
     import validator.report as report
 
     def boom(*a, **k):
         raise RuntimeError("renderer exploded")
     monkeypatch.setattr(report, "write_pdf", boom)
     study = make_study()
-    out = tmp_path / "out"
+    out = outside / "out"
     assert main(["run", str(study), "--out", str(out)]) == 3
     assert not out.exists()
-    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".out.partial")]
+    assert list(outside.iterdir()) == []          # no partial folder, no lock file
     assert capsys.readouterr().err.startswith("validator: internal error: RuntimeError: renderer exploded")
 
 
-def test_force_replaces_only_after_success(make_study, tmp_path, monkeypatch):
+def test_force_replaces_only_after_success(make_study, outside, monkeypatch):
     import validator.report as report
     study = make_study()
-    out = tmp_path / "out"
+    out = outside / "out"
     assert main(["run", str(study), "--out", str(out), "--format", "json"]) == 0
     before = (out / "results.json").read_bytes()
     monkeypatch.setattr(report, "render_dossier", lambda *a, **k: (_ for _ in ()).throw(RuntimeError("x")))
@@ -116,22 +116,22 @@ def test_force_replaces_only_after_success(make_study, tmp_path, monkeypatch):
 
 # --- degenerate but legal data ----------------------------------------------------------------
 
-def test_no_numpy_warning_reaches_the_user(make_study, tmp_path):
+def test_no_numpy_warning_reaches_the_user(make_study, outside):
     # an exact fit and a single-replicate design: every degenerate case becomes a stated diagnostic
     study = make_study(files={"calibration.csv": "concentration,response\n1,2\n2,4\n3,6\n4,8\n1,2\n"})
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        assert main(["run", str(study), "--out", str(tmp_path / "o"), "--format", "json,html"]) == 0
-    a = json.loads((tmp_path / "o" / "results.json").read_text())["analytes"][0]
+        assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json,html"]) == 0
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
     assert any("exact" in d for d in a["diagnostics"])
     assert a["calibration"]["normality"] is None
 
 
-def test_two_levels_through_origin(make_study, tmp_path):
+def test_two_levels_through_origin(make_study, outside):
     study = make_study('[calibration]\ndata = "calibration.csv"\nthrough_origin = true\n',
                        {"calibration.csv": "concentration,response\n1,2.01\n1,1.99\n5,10.02\n5,9.97\n"})
-    assert main(["run", str(study), "--out", str(tmp_path / "o"), "--format", "json"]) == 0
-    cal = json.loads((tmp_path / "o" / "results.json").read_text())["analytes"][0]["calibration"]
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 0
+    cal = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]["calibration"]
     assert set(cal["coefficients"]) == {"slope"} and cal["through_origin"]
 
 
@@ -153,15 +153,15 @@ def test_extreme_magnitudes_give_the_same_relative_results(scale):
         [b.deviation_pct for b in ref.back_calculated], rel=1e-7, abs=1e-9)
 
 
-def test_very_unbalanced_precision(make_study, tmp_path):
+def test_very_unbalanced_precision(make_study, outside):
     rows = ["level,series,found"]
     sizes = {"d1": 12, "d2": 2, "d3": 3}
     rng = np.random.default_rng(4)
     for s, n in sizes.items():
         rows += [f"5,{s},{5 + rng.normal(0, 0.05):.4f}" for _ in range(n)]
     study = make_study(CALIB_PREC, {"calibration.csv": CAL_OK, "p.csv": "\n".join(rows) + "\n"})
-    assert main(["run", str(study), "--out", str(tmp_path / "o"), "--format", "json"]) == 0
-    lv = json.loads((tmp_path / "o" / "results.json").read_text())["analytes"][0]["precision"]["levels"][0]
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 0
+    lv = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]["precision"]["levels"][0]
     n0 = (17 - (144 + 4 + 9) / 17) / 2          # ISO 5725-2 n0, hand arithmetic
     assert lv["n0"] == pytest.approx(n0)
     assert lv["n"] == 17 and lv["series"] == 3
