@@ -25,9 +25,11 @@ Rules (each refusal is an :class:`~validator.errors.OutputError`, exit code 2):
   an aside folder whose output is missing is renamed back into place.
 
 Test hook: if the environment variable ``VALIDATOR_TEST_PAUSE_IN_SWAP`` holds a
-number of seconds, the swap prints ``validator-test-hook: pause STEP`` on
-stderr and sleeps that long at each step, so that tests can kill the process
-there. It is read nowhere else and has no other effect.
+number of seconds (``SECONDS``, or ``STEP:SECONDS`` for one step only; steps
+``before-swap``, ``aside``, ``after-swap``), the swap prints
+``validator-test-hook: pause STEP`` on stderr and sleeps that long there, so
+that tests can kill the process at that point. It is read nowhere else and has
+no other effect.
 """
 
 from __future__ import annotations
@@ -197,10 +199,12 @@ def _renameat2(src: Path, dst: Path, flags: int) -> bool:
 
 
 def _pause(step: str) -> None:
-    seconds = os.environ.get("VALIDATOR_TEST_PAUSE_IN_SWAP")       # test hook, see module docstring
-    if seconds:
-        print(f"validator-test-hook: pause {step}", file=sys.stderr, flush=True)
-        time.sleep(float(seconds))
+    hook = os.environ.get("VALIDATOR_TEST_PAUSE_IN_SWAP")          # test hook, see module docstring
+    if hook:
+        only, _, seconds = hook.rpartition(":")
+        if only in ("", step):
+            print(f"validator-test-hook: pause {step}", file=sys.stderr, flush=True)
+            time.sleep(float(seconds))
 
 
 def _swap(new: Path, target: Path, shown: str) -> None:
