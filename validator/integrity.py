@@ -90,9 +90,10 @@ def _read_small(path: Path, limit: int, shown: str) -> bytes:
     except OSError as exc:
         reason = "is a symbolic link" if os.path.islink(path) else f"cannot be read ({exc.strerror})"
         raise OutputError(f"{shown}: {reason}", path=path) from None
+    if not stat.S_ISREG(os.fstat(fd).st_mode):
+        os.close(fd)
+        raise OutputError(f"{shown}: is not a regular file", path=path)
     with os.fdopen(fd, "rb") as fh:
-        if not stat.S_ISREG(os.fstat(fh.fileno()).st_mode):
-            raise OutputError(f"{shown}: is not a regular file", path=path)
         data = fh.read(limit + 1)
     if len(data) > limit:
         raise OutputError(f"{shown}: is larger than {limit} bytes; not read", path=path)
@@ -168,10 +169,11 @@ def _hash_bounded(path: Path, size: int, *, follow: bool) -> tuple:
         if not follow and os.path.islink(path):
             return "is a symbolic link (not followed)", None
         return f"cannot be read ({exc.strerror})", None
+    st = os.fstat(fd)
+    if not stat.S_ISREG(st.st_mode):
+        os.close(fd)
+        return "is not a regular file", None
     with os.fdopen(fd, "rb") as fh:
-        st = os.fstat(fh.fileno())
-        if not stat.S_ISREG(st.st_mode):
-            return "is not a regular file", None
         if st.st_size != size:
             return f"has {st.st_size} bytes, {size} recorded", None
         h, left = hashlib.sha256(), size
