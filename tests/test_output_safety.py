@@ -378,3 +378,19 @@ def test_two_runs_into_one_folder(lab):
         "try again when it has finished")
     assert integrity.verify(out) == []
     assert [p.name for p in (lab / "outputs").iterdir()] == ["out"]
+
+
+def test_a_link_loop_in_out_is_exit_2(lab, capsys):
+    (lab / "outputs" / "a").symlink_to(lab / "outputs" / "b")
+    (lab / "outputs" / "b").symlink_to(lab / "outputs" / "a")
+    code, _, err = _run(capsys, lab / "study" / "study.toml", "--out", lab / "outputs" / "a" / "x")
+    assert code == 2 and "cannot be used as the output folder" in err
+
+
+def test_folders_of_a_linked_study_and_of_its_target_are_both_protected(lab, capsys):
+    (lab / "linked").mkdir()
+    for name in ("study.toml", "calibration.csv"):
+        (lab / "linked" / name).symlink_to(lab / "study" / name)
+    for where in ("linked/o", "study/o"):
+        code, _, err = _run(capsys, lab / "linked" / "study.toml", "--out", lab / where)
+        assert code == 2 and "lies inside the folder of the input" in err

@@ -74,7 +74,7 @@ def _cmd_run(args) -> int:
     from .results import build_results, dumps
 
     loaded = load_study(args.study)
-    target = check_target(args.out, [f.resolved for f in loaded.inputs])
+    target = check_target(args.out, [args.study] + [f.resolved for f in loaded.inputs])
     check_existing(target, args.out, args.force)          # early; repeated under the lock
     result = analyse_study(loaded)
     results = build_results(result, generated_at=generated_at)

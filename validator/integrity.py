@@ -295,9 +295,15 @@ def _study_text(path: Path) -> str:
 def verify(folder: Path, study: str | None = None) -> list:
     """Differences between an output folder and what it recorded; empty if intact."""
     folder = Path(folder)
-    if not folder.is_dir():
-        raise OutputError(f"{folder}: is not a folder", path=folder)
-    problems = _check_outputs(folder, read_manifest(folder))
-    if study is not None:
-        problems += _check_inputs(folder, study)
+    try:
+        if not folder.is_dir():
+            raise OutputError(f"{folder}: is not a folder", path=folder)
+        problems = _check_outputs(folder, read_manifest(folder))
+        if study is not None:
+            problems += _check_inputs(folder, study)
+    except OSError as exc:
+        if isinstance(exc, OutputError):
+            raise
+        where = exc.filename or folder
+        raise OutputError(f"{where}: cannot be read ({exc.strerror or exc})", path=where) from None
     return problems

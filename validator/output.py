@@ -81,10 +81,28 @@ def _home() -> Path | None:
 def check_target(out: str, input_files, *, cwd: Path | None = None) -> Path:
     """The absolute output folder for ``--out``, or :class:`OutputError` if it may not be used.
 
-    ``input_files`` are the paths of every input (study file and data files).
+    ``input_files`` are the paths of every input (study file and data files), as given or
+    resolved; the folder holding each (and, for a link, the folder of its target) is protected.
     """
-    shown = str(out)
-    given = Path(out)
+    try:
+        return _check_target(str(out), input_files, cwd)
+    except (OSError, RuntimeError) as exc:      # a link loop, a name too long, no permission ...
+        if isinstance(exc, OutputError):
+            raise
+        reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+        raise OutputError(f"{out}: cannot be used as the output folder ({reason})", path=out) from None
+
+
+def _input_folders(input_files) -> dict:
+    folders = {}
+    for f in input_files:
+        for folder in (Path(os.path.abspath(f)).parent.resolve(), Path(f).resolve().parent):
+            folders.setdefault(folder, f)
+    return folders
+
+
+def _check_target(shown: str, input_files, cwd: Path | None) -> Path:
+    given = Path(shown)
     if given.is_symlink():
         raise OutputError(f"{shown}: is a symbolic link; give the real folder as --out", path=shown)
     target = given.resolve()
@@ -104,8 +122,7 @@ def check_target(out: str, input_files, *, cwd: Path | None = None) -> Path:
     if target == cwd or _inside(cwd, target):
         raise OutputError(f"{shown}: {target} is or contains the current folder; "
                           "choose another --out", path=shown)
-    for f in input_files:
-        folder = Path(f).resolve().parent
+    for folder, f in _input_folders(input_files).items():
         if target == folder or _inside(folder, target) or _inside(target, folder):
             relation = ("is" if target == folder else "contains" if _inside(folder, target)
                         else "lies inside")
