@@ -68,6 +68,13 @@ def make_study(tmp_path):
 
 
 @pytest.fixture
+def outside(tmp_path_factory) -> Path:
+    """A fresh folder apart from ``tmp_path`` (where make_study puts the inputs), for outputs:
+    validator refuses an --out that is, contains or lies inside an input's folder."""
+    return tmp_path_factory.mktemp("out")
+
+
+@pytest.fixture
 def artefacts() -> Path:
     ARTEFACTS.mkdir(parents=True, exist_ok=True)
     return ARTEFACTS

@@ -135,11 +135,11 @@ def test_ten_million_rows_is_refused(make_study, tmp_path, capsys):
     assert capsys.readouterr().err == "validator: error: calibration.csv: has more than 1000000 data rows; refused\n"
 
 
-def test_single_replicates_make_tests_not_applicable(make_study, tmp_path):
+def test_single_replicates_make_tests_not_applicable(make_study, outside):
     import json
     study = make_study(CALIB, {"calibration.csv": "concentration,response\n1,2.01\n2,3.98\n4,8.03\n8,15.96\n"})
-    assert main(["run", str(study), "--out", str(tmp_path / "o"), "--format", "json"]) == 0
-    a = json.loads((tmp_path / "o" / "results.json").read_text())["analytes"][0]
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 0
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
     assert a["calibration"]["lack_of_fit"] is None
     assert {"item": "lack_of_fit", "reason": "no concentration is replicated, so there is no pure error"} \
         in a["not_applicable"]

@@ -15,37 +15,40 @@ def run(capsys, *argv):
     return code, out, err
 
 
-def test_run_writes_valid_results_and_exit_0(make_study, tmp_path, capsys):
+def test_run_writes_valid_results_and_exit_0(make_study, outside, capsys):
     study = make_study()
-    code, out, err = run(capsys, "run", study, "--out", tmp_path / "out", "--format", "json")
+    code, out, err = run(capsys, "run", study, "--out", outside / "out", "--format", "json")
     assert code == 0, err
-    results = json.loads((tmp_path / "out" / "results.json").read_text())
+    results = json.loads((outside / "out" / "results.json").read_text())
     jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
     assert results["verdict"] == "pass"
     assert "PASS" in out
 
 
-def test_failed_criterion_gives_exit_1(make_study, tmp_path, capsys):
+def test_failed_criterion_gives_exit_1(make_study, outside, capsys):
     study = make_study('[calibration]\ndata = "calibration.csv"\n[criteria]\nr_squared_min = 0.9999999\n')
-    code, out, _ = run(capsys, "run", study, "--out", tmp_path / "out", "--format", "json")
+    code, out, _ = run(capsys, "run", study, "--out", outside / "out", "--format", "json")
     assert code == 1
-    results = json.loads((tmp_path / "out" / "results.json").read_text())
+    results = json.loads((outside / "out" / "results.json").read_text())
     assert results["verdict"] == "fail"
     crit = {c["id"]: c for c in results["analytes"][0]["criteria"]}
     assert crit["r-squared"]["pass"] is False
 
 
-def test_existing_output_is_not_overwritten(make_study, tmp_path, capsys):
+def test_existing_output_is_not_overwritten(make_study, outside, capsys):
     study = make_study()
-    out = tmp_path / "out"
+    out = outside / "out"
     out.mkdir()
     (out / "keep.txt").write_text("mine")
     code, _, err = run(capsys, "run", study, "--out", out, "--format", "json")
     assert code == 2
     assert err == f"validator: error: {out}: output folder exists; choose another --out or add --force\n"
     assert (out / "keep.txt").read_text() == "mine"
-    code, _, _ = run(capsys, "run", study, "--out", out, "--format", "json", "--force")
-    assert code == 0 and not (out / "keep.txt").exists()
+    # --force replaces only a previous validator output, never a folder holding the user's files
+    code, _, err = run(capsys, "run", study, "--out", out, "--format", "json", "--force")
+    assert code == 2 and (out / "keep.txt").read_text() == "mine"
+    assert err == (f'validator: error: {out}: holds no readable manifest.json written by validator; '
+                   "--force replaces only a previous validator output\n")
 
 
 def test_check_reports_summary(make_study, capsys):

@@ -136,9 +136,9 @@ def test_pdf_text_pages_and_previews(demo_out, artefacts):
         assert (artefacts / f"dossier-{name}.png").stat().st_size > 10_000
 
 
-def test_letter_paper(make_study, tmp_path):
+def test_letter_paper(make_study, outside):
     study = make_study()
-    out = tmp_path / "out"
+    out = outside / "out"
     assert main(["run", str(study), "--out", str(out), "--format", "pdf", "--paper", "letter"]) == 0
     box = PdfReader(str(out / "dossier.pdf")).pages[0].mediabox
     assert (round(float(box.width)), round(float(box.height))) == (612, 792)
@@ -148,7 +148,7 @@ def test_letter_paper(make_study, tmp_path):
 HOSTILE = '<script>alert(1)</script><img src="file:///etc/passwd">'
 
 
-def test_hostile_strings_are_escaped_everywhere(make_study, tmp_path):
+def test_hostile_strings_are_escaped_everywhere(make_study, outside):
     head = (f'[study]\nid = "{HOSTILE}"\ntitle = "{HOSTILE}"\nconcentration_unit = "<b>mg</b>"\n'
             f'response_unit = "{HOSTILE}"\nanalyst = "{HOSTILE}"\nreviewer = "{HOSTILE}"\n'
             f'method = "{HOSTILE}"\ninstrument = "{HOSTILE}"\nnotes = "{HOSTILE}"\n').replace('"file', "'file").replace('passwd">', "passwd'>")
@@ -158,7 +158,7 @@ def test_hostile_strings_are_escaped_everywhere(make_study, tmp_path):
     samples = f'sample,analyte,response\n"{hostile}","{hostile}",5\n'
     study = make_study('[calibration]\ndata = "calibration.csv"\n[samples]\ndata = "samples.csv"\n',
                        {"calibration.csv": cal, "samples.csv": samples}, head=head)
-    out = tmp_path / "out"
+    out = outside / "out"
     assert main(["run", str(study), "--out", str(out)]) == 0
     html = (out / "dossier.html").read_text()
     assert "<script" not in html and "<img" not in html and "<b>mg" not in html

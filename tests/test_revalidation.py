@@ -84,12 +84,12 @@ def test_incompatible_previous_results(make_study, tmp_path, capsys, changes, me
     assert capsys.readouterr().err == f"validator: error: {message}\n"
 
 
-def test_unmatched_analytes_are_listed(make_study, tmp_path):
+def test_unmatched_analytes_are_listed(make_study, tmp_path, outside):
     _previous(tmp_path)
     study = make_study('[calibration]\ndata = "calibration.csv"\n[revalidation]\nprevious = "prev.json"\n',
                        {"calibration.csv": CAL})
-    main(["run", str(study), "--out", str(tmp_path / "o"), "--format", "json"])
-    results = json.loads((tmp_path / "o" / "results.json").read_text())
+    main(["run", str(study), "--out", str(outside / "o"), "--format", "json"])
+    results = json.loads((outside / "o" / "results.json").read_text())
     assert set(results["revalidation"]["unmatched_analytes"]) == {"T-1", "nitrate", "fluoride"}
     assert results["analytes"][0]["revalidation"] is None
 

@@ -11,14 +11,13 @@ from __future__ import annotations
 
 import argparse
 import os
-import shutil
+import re
 import sys
-import tempfile
 from datetime import datetime, timezone
 from pathlib import Path
 
 from . import __version__
-from .errors import OutputError, ValidatorError
+from .errors import ValidatorError
 
 __all__ = ["main"]
 
@@ -38,54 +37,47 @@ def _formats(text: str) -> tuple:
     return chosen
 
 
+# the largest SOURCE_DATE_EPOCH that is still a date (9999-12-31T23:59:59Z)
+_LAST_EPOCH = int(datetime(9999, 12, 31, 23, 59, 59, tzinfo=timezone.utc).timestamp())
+
+
 def run_timestamp() -> str:
-    """UTC time of the run; SOURCE_DATE_EPOCH (reproducible builds) wins if set."""
+    """UTC time of the run; SOURCE_DATE_EPOCH (reproducible builds) wins if set.
+
+    The variable must be a whole number of seconds from 0 to the end of year 9999.
+    """
     epoch = os.environ.get("SOURCE_DATE_EPOCH")
     if epoch is not None:
-        try:
-            moment = datetime.fromtimestamp(int(epoch), tz=timezone.utc)
-        except ValueError:
-            raise ValidatorError(f'SOURCE_DATE_EPOCH = "{epoch}" is not a whole number of seconds') from None
+        if not re.fullmatch(r"[0-9]{1,20}", epoch) or int(epoch) > _LAST_EPOCH:
+            raise ValidatorError(f'SOURCE_DATE_EPOCH = "{epoch[:40]}" is not a whole number of seconds '
+                                 f"from 0 to {_LAST_EPOCH} (end of year 9999)")
+        moment = datetime.fromtimestamp(int(epoch), tz=timezone.utc)
     else:
         moment = datetime.now(timezone.utc).replace(microsecond=0)
     return moment.isoformat().replace("+00:00", "Z")
 
 
-def _write_outputs(out: Path, force: bool, write) -> None:
-    """Write into a temporary sibling folder, then move it into place."""
-    if out.exists() and not force:
-        raise OutputError(f"{out}: output folder exists; choose another --out or add --force")
-    if out.exists() and not out.is_dir():
-        raise OutputError(f"{out}: exists and is not a folder")
-    parent = out.resolve().parent
-    try:
-        parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=parent))
-        umask = os.umask(0)
-        os.umask(umask)
-        tmp.chmod(0o777 & ~umask)       # mkdtemp makes 0700; give the usual folder mode
-    except OSError as exc:
-        raise OutputError(f"{out}: cannot create the output folder ({exc.strerror})") from None
-    try:
-        write(tmp)
-        if out.exists():
-            shutil.rmtree(out)
-        os.replace(tmp, out)
-    finally:
-        if tmp.exists():
-            shutil.rmtree(tmp, ignore_errors=True)
+def _write_outputs(target: Path, shown: str, force: bool, write) -> None:
+    """Write into a partial folder beside ``target``, then swap it in (rules in validator.output)."""
+    from .output import write_output_folder
+
+    write_output_folder(target, shown, force, write)
 
 
 def _cmd_run(args) -> int:
+    formats = _formats(args.format)
+    generated_at = run_timestamp()     # before numpy is imported: numpy.f2py reads the variable too
+
     from .engine import analyse_study
     from .loading import load_study
+    from .output import check_existing, check_target
     from .results import build_results, dumps
 
-    formats = _formats(args.format)
     loaded = load_study(args.study)
+    target = check_target(args.out, [args.study] + [f.resolved for f in loaded.inputs])
+    check_existing(target, args.out, args.force)          # early; repeated under the lock
     result = analyse_study(loaded)
-    results = build_results(result, generated_at=run_timestamp())
-    out = Path(args.out)
+    results = build_results(result, generated_at=generated_at)
 
     def write(folder: Path):
         if "json" in formats:
@@ -96,14 +88,15 @@ def _cmd_run(args) -> int:
         from .integrity import write_manifest
         write_manifest(folder)
 
-    _write_outputs(out, args.force, write)
+    _write_outputs(target, args.out, args.force, write)
     failed = [c for a in results["analytes"] for c in a["criteria"] if c["pass"] is False]
     print(f"validator: {results['verdict'].upper()}: {len(results['analytes'])} analyte(s), "
-          f"{len(failed)} criterion/criteria not met; output in {out}")
+          f"{len(failed)} criterion/criteria not met; output in {args.out}")
     return 1 if results["verdict"] == "fail" else 0
 
 
 def _cmd_check(args) -> int:
+    run_timestamp()                    # a bad SOURCE_DATE_EPOCH is refused here too, before numpy reads it
     from .loading import load_study
 
     loaded = load_study(args.study)
@@ -132,10 +125,12 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
     run = sub.add_parser("run", help="analyse a study and write results.json and the dossier")
     run.add_argument("study", help="the study file (TOML)")
-    run.add_argument("--out", required=True, help="output folder (must not exist unless --force)")
+    run.add_argument("--out", required=True, help="output folder: its parent must exist; apart from "
+                     "the inputs, the current folder and system folders (see README)")
     run.add_argument("--format", default="html,pdf,json", help="any of html,pdf,json (default all)")
     run.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size")
-    run.add_argument("--force", action="store_true", help="replace an existing output folder")
+    run.add_argument("--force", action="store_true",
+                     help="replace a previous validator output at --out (nothing else)")
     run.set_defaults(func=_cmd_run)
     check = sub.add_parser("check", help="validate the study file and its data without analysing")
     check.add_argument("study")

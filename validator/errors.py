@@ -68,4 +68,14 @@ class DataError(StudyError):
 
 
 class OutputError(ValidatorError, OSError):
-    """The output folder cannot be written as asked."""
+    """An output folder cannot be written, or a folder to verify cannot be read, as asked.
+
+    Attributes
+    ----------
+    path
+        The file or folder concerned, as a string; ``None`` where not known.
+    """
+
+    def __init__(self, message: str, *, path: object = None):
+        super().__init__(message)
+        self.path = None if path is None else str(path)
