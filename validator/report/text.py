@@ -201,12 +201,13 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
     rm = a.get("reference_material")
     if rm:
         if rm["significant"] is None:
-            out["reference_material"] = "The reference material needs at least 2 results for a bias test."
+            out["reference_material"] = f"The reference material bias was not tested: {rm.get('reason') or 'needs at least 2 results'}."
         else:
             word = "is" if rm["significant"] else "is not"
             out["reference_material"] = (
                 f"The mean of {rm['n']} results on the reference material is {fmt(rm['mean'])} {unit} against "
                 f"the certified {fmt(rm['certified_value'])} {unit}: bias {fmt(rm['bias'])} {unit} "
                 f"({fmt(rm['bias_pct'], 3)} %), which {word} significant, since |bias| "
-                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}.")
+                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}"
+                f" ({rm.get('u_mean_basis', '')}).")
     return out
