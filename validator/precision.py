@@ -315,7 +315,7 @@ def grubbs_within_series(values, groups, alpha=0.05) -> tuple:
         else:
             G, p, idx, exact = _grubbs_single(x)
             out.append(OutlierTest(method, G, p, (int(x.size),), basis=_grubbs_basis(exact),
-                                   suspect=f"result {x[idx]!r}", series=str(lab)))
+                                   suspect=f"result {float(x[idx])!r}", series=str(lab)))
     return tuple(out)
 
 
