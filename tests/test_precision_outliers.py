@@ -149,7 +149,7 @@ def test_grubbs_within_series_pvalue_at_the_published_critical_value(n):
     res, = grubbs_within_series(x, ["a"] * n)
     assert res.statistic == pytest.approx(G, rel=1e-9)
     assert res.pvalue == pytest.approx(0.05, rel=1e-6)
-    assert res.series == "a" and res.suspect == f"result {float(x[-1])!r}"
+    assert res.series == "a" and res.suspect == f"result {x[-1]:.12g}"
     assert ("exact" in res.basis) == (G > np.sqrt((n - 1) / 2))
 
 
@@ -162,6 +162,20 @@ def test_grubbs_within_series_flags_the_extreme_result_per_series():
     assert a.statistic == pytest.approx(np.max(np.abs(xa - xa.mean())) / np.std(xa, ddof=1))  # definition
     assert b.applicable and b.pvalue > 0.05
     assert not c.applicable and "at least 3" in c.reason and c.series == "c"
+
+
+def test_grubbs_ties_at_the_bound_are_not_judged():
+    # two of three results identical: G = 2/sqrt(3), its largest possible value (hand derivation), so the
+    # continuous-data p-value 0 would judge the rounding; reported not applicable with the reason
+    x = np.array([0.5009, 0.5009, 0.5206])
+    dev = x - x.mean()
+    assert np.max(np.abs(dev)) / np.std(x, ddof=1) == pytest.approx(2 / np.sqrt(3), rel=1e-9)
+    res, = grubbs_within_series(x, ["day-3"] * 3)
+    assert not res.applicable and "ties" in res.reason
+    # the suspect is shown in the data's own units when the values were centred before the analysis
+    lv = assess_precision_level(0.5, [v - 0.5 for v in [0.49, 0.4931, 0.486, 0.5, 0.51, 0.503]],
+                                ["a"] * 3 + ["b"] * 3, offset=0.5)
+    assert lv.grubbs_within[0].suspect == "result 0.486"
 
 
 # ---------------------------------------------------------------- Grubbs double

@@ -255,6 +255,21 @@ def _grubbs_single(x):
     return G, p, idx, bool(G > np.sqrt((n - 1) / 2))
 
 
+def _at_grubbs_maximum(x) -> bool:
+    """True when all but one value are identical: G then equals its bound (n - 1)/sqrt(n).
+
+    For continuous data this has probability zero, so the closed-form p is 0;
+    with rounded data it happens by ties alone, and a p-value of 0 would
+    judge the rounding, not the data.
+    """
+    vals, counts = np.unique(x, return_counts=True)
+    return bool(vals.size == 2 and counts.min() == 1)
+
+
+_TIES = ("all results but one are identical (ties, e.g. from rounding), so G is at its largest possible value "
+         "(n - 1)/sqrt(n) whatever the odd value is; the test cannot judge it")
+
+
 def _grubbs_basis(exact):
     return ("closed form from the t distribution (2n·P(T > t_G)), exact here (G > sqrt((n - 1)/2))" if exact else
             "closed form from the t distribution (2n·P(T > t_G)), Bonferroni upper bound here "
@@ -285,11 +300,13 @@ def grubbs_means(values, groups, alpha=0.05) -> OutlierTest:
         return _outlier_na(method, "a series mean is not finite")
     if np.std(m, ddof=1) == 0:
         return _outlier_na(method, "all series means are equal")
+    if _at_grubbs_maximum(m):
+        return _outlier_na(method, _TIES.replace("results", "series means"))
     G, p, idx, exact = _grubbs_single(m)
     return OutlierTest(method, G, p, (k,), basis=_grubbs_basis(exact), suspect=f"series {labels[idx]}")
 
 
-def grubbs_within_series(values, groups, alpha=0.05) -> tuple:
+def grubbs_within_series(values, groups, alpha=0.05, offset=0.0) -> tuple:
     """Grubbs' single-outlier test on the individual results of each series.
 
     Notes
@@ -297,6 +314,10 @@ def grubbs_within_series(values, groups, alpha=0.05) -> tuple:
     Per series j with n_j >= 3 results: G_j = max_i |y_ij - ybar_j| / s_j and
     its two-sided p-value as in :func:`grubbs_means` with n_j in place of p.
     Each series is tested on its own (no correction for the number of series).
+    When all results of a series but one are identical, G sits at its bound
+    (n - 1)/sqrt(n) through ties alone and the test is reported not applicable.
+    ``offset`` is a constant already subtracted from ``values``; it is added
+    back to the suspect result shown.
     [ISO5725-2] sec. 7.3.4 applies Grubbs' test to single results as well as
     to series means.
     """
@@ -312,10 +333,12 @@ def grubbs_within_series(values, groups, alpha=0.05) -> tuple:
             out.append(_outlier_na(method, "a result is not finite", series=str(lab)))
         elif np.all(x == x[0]):
             out.append(_outlier_na(method, "every result in the series is identical", series=str(lab)))
+        elif _at_grubbs_maximum(x):
+            out.append(_outlier_na(method, _TIES, series=str(lab)))
         else:
             G, p, idx, exact = _grubbs_single(x)
             out.append(OutlierTest(method, G, p, (int(x.size),), basis=_grubbs_basis(exact),
-                                   suspect=f"result {float(x[idx])!r}", series=str(lab)))
+                                   suspect=f"result {float(x[idx]) + offset:.12g}", series=str(lab)))
     return tuple(out)
 
 
@@ -525,4 +548,4 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
         _sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
         _sd_ci(si, df_i, alpha) if np.isfinite(si) else None, df_i,
         cochran_c(values, series, alpha), grubbs_means(values, series, alpha), horrat, prsd, note,
-        "; ".join(notes), grubbs_double(values, series, alpha), grubbs_within_series(values, series, alpha))
+        "; ".join(notes), grubbs_double(values, series, alpha), grubbs_within_series(values, series, alpha, offset))
