@@ -116,6 +116,15 @@ def test_cochran_not_applicable_reasons():
         assert res.statistic is None and res.pvalue is None and res.reason
 
 
+def test_simulated_pvalues_are_bounded_in_size():
+    # 501 series of unequal sizes: refused with a reason instead of an unbounded simulation
+    sizes = np.resize([2, 3], 501)
+    g = np.repeat(np.arange(501), sizes)
+    y = np.random.default_rng(2).standard_normal(g.size)
+    for res in (cochran_c(y, g), grubbs_double(y, g)):
+        assert not res.applicable and "at most 500 series" in res.reason
+
+
 # ---------------------------------------------------------------- Grubbs single
 
 # third-party table of one-sided Grubbs critical values (SOURCES.md sec. 5): n -> (alpha 0.05, 0.025, 0.01)

@@ -150,10 +150,27 @@ def cochran_null_sample(sizes: tuple, draws: int = MONTE_CARLO_DRAWS, seed: int 
     """
     df = np.asarray(sizes, float) - 1
     rng = np.random.default_rng(seed)
-    v = rng.chisquare(np.broadcast_to(df, (draws, df.size))) / df
-    out = np.sort(v.max(axis=1) / v.sum(axis=1))
+    parts = []
+    for rows in _chunks(draws, df.size):
+        v = rng.chisquare(np.broadcast_to(df, (rows, df.size))) / df
+        parts.append(v.max(axis=1) / v.sum(axis=1))
+    out = np.sort(np.concatenate(parts))
     out.setflags(write=False)
     return out
+
+
+MAX_SIMULATED_SERIES = 500      # beyond this the simulated p-values would take too long
+_CHUNK_VALUES = 2_000_000       # random numbers held in memory at once by a simulation
+
+
+def _chunks(draws: int, width: int):
+    """Row counts that split ``draws`` rows of ``width`` values into memory-bounded blocks."""
+    step = max(1, _CHUNK_VALUES // max(width, 1))
+    done = 0
+    while done < draws:
+        rows = min(step, draws - done)
+        yield rows
+        done += rows
 
 
 def cochran_critical_value(series: int, n: int, alpha: float = 0.05) -> float:
@@ -215,6 +232,9 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
                  "closed form from the F distribution, Bonferroni upper bound (equal series sizes, C < 1/2; "
                  "conservative)")
         return OutlierTest(method, C, p, (k, n), basis=basis, suspect=suspect, sizes=tuple(int(s) for s in sizes))
+    if k > MAX_SIMULATED_SERIES:
+        return _outlier_na(method, f"unequal series sizes need a simulated p-value, done for at most "
+                                   f"{MAX_SIMULATED_SERIES} series (this level has {k})")
     key = tuple(sorted(int(s) for s in sizes))
     p, se = _monte_carlo_pvalue(cochran_null_sample(key), C, upper=True)
     basis = (f"Monte Carlo under the normal null with the actual series sizes ({MONTE_CARLO_DRAWS} draws, "
@@ -354,9 +374,11 @@ def _double_ratios(sorted_values):
 def grubbs_double_null_sample(p: int, draws: int = MONTE_CARLO_DRAWS, seed: int = MONTE_CARLO_SEED) -> np.ndarray:
     """Sorted simulated min(G_high, G_low) for p independent standard normal values."""
     rng = np.random.default_rng(seed)
-    z = np.sort(rng.standard_normal((draws, p)), axis=1)
-    hi, lo = _double_ratios(z)
-    out = np.sort(np.minimum(hi, lo))
+    parts = []
+    for rows in _chunks(draws, p):
+        hi, lo = _double_ratios(np.sort(rng.standard_normal((rows, p)), axis=1))
+        parts.append(np.minimum(hi, lo))
+    out = np.sort(np.concatenate(parts))
     out.setflags(write=False)
     return out
 
@@ -387,6 +409,9 @@ def grubbs_double(values, groups, alpha=0.05) -> OutlierTest:
         return _outlier_na(method, "a series mean is not finite")
     if np.all(m == m[0]):
         return _outlier_na(method, "all series means are equal")
+    if k > MAX_SIMULATED_SERIES:
+        return _outlier_na(method, f"the simulated p-value is done for at most {MAX_SIMULATED_SERIES} series "
+                                   f"(this level has {k})")
     order = np.argsort(m, kind="stable")
     hi, lo = _double_ratios(m[order])
     G = float(min(hi, lo))
@@ -517,6 +542,8 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     si2 = sr2 + sl2
     sr, sl, si = (float(np.sqrt(v)) for v in (sr2, sl2, si2))
     mean = a.grand_mean
+    if mean == 0:
+        notes.append("the mean is zero, so no relative standard deviation exists")
     rsd = (lambda sd: 100 * sd / mean if mean != 0 and np.isfinite(sd) else None)
     df_i = None
     if np.isfinite(si2):
