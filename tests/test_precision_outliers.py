@@ -111,7 +111,8 @@ def test_cochran_size_under_the_null_for_unbalanced_designs(sizes):
 
 
 def test_cochran_not_applicable_reasons():
-    for y, g in (([1.0, 2.0, 3.0], ["a", "a", "b"]), ([1.0, 1.0, 2.0, 2.0], ["a", "a", "b", "b"])):
+    for y, g in (([1.0, 2.0, 3.0], ["a", "a", "b"]), ([1.0, 1.0, 2.0, 2.0], ["a", "a", "b", "b"]),
+                 ([1.0, 1.0, 2.0, 2.0, 3.0, 3.4], ["a", "a", "b", "b", "c", "c"])):   # last: C = 1 by ties
         res = cochran_c(y, g)
         assert res.statistic is None and res.pvalue is None and res.reason
 

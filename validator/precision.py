@@ -206,6 +206,9 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
       p-value comes from a seeded Monte Carlo simulation of C under the null
       with the actual sizes (:func:`cochran_null_sample`, 100 000 draws;
       standard error of p at most 0.0016, reported in ``pvalue_se``).
+
+    When every series but one has zero variance (ties), C = 1 whatever that
+    variance is, and the test is reported not applicable rather than p = 0.
     """
     method = "Cochran's C"
     y = np.asarray(values, float)
@@ -220,6 +223,9 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
     if np.sum(var) == 0:
         return _outlier_na(method, "every series has zero variance")
     k = len(labels)
+    if np.count_nonzero(var) == 1:
+        return _outlier_na(method, "every series but one has zero variance (ties, e.g. from rounding), so C = 1 "
+                                   "whatever the one variance is; the test cannot judge it")
     C = float(var.max() / var.sum())
     suspect = f"series {labels[int(np.argmax(var))]}"
     if np.all(sizes == sizes[0]):
