@@ -197,7 +197,7 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
                                                       for lvl, t in within)
                                           + "; these results stay in the estimate and need a reviewer's judgement.")
         else:
-            out["precision_outliers"] += " Grubbs' test within each series flags no single result."
+            out["precision_outliers"] += " Grubbs' test within a series flags no single result where it applies."
     rm = a.get("reference_material")
     if rm:
         if rm["significant"] is None:
@@ -208,6 +208,5 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
                 f"The mean of {rm['n']} results on the reference material is {fmt(rm['mean'])} {unit} against "
                 f"the certified {fmt(rm['certified_value'])} {unit}: bias {fmt(rm['bias'])} {unit} "
                 f"({fmt(rm['bias_pct'], 3)} %), which {word} significant, since |bias| "
-                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}"
-                f" ({rm.get('u_mean_basis', '')}).")
+                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}.")
     return out
