@@ -52,19 +52,86 @@ class DetectionResult:
         return next(e for e in self.estimates if e.method == self.reporting_method)
 
 
-def noncentrality_delta(df: int, alpha: float, beta: float) -> float:
+def noncentrality_delta(df: int, alpha: float, beta: float, *, max_iter: int = 200) -> float:
     """Exact delta(nu, alpha, beta) of ISO 11843-2.
 
     The non-centrality parameter for which the non-central t distribution
     with ``df`` degrees of freedom has probability ``beta`` below
     t(1 - alpha, df). (The common shortcut delta ~ 2 t is not used.)
+
+    Raises
+    ------
+    ValueError
+        For a non-finite or out-of-range ``df``, ``alpha`` or ``beta``
+        (0 < alpha, beta and alpha + beta < 1 are needed for delta >= 0), when
+        the quantile or the non-central t probability is not finite, or when
+        the root is not bracketed within ``max_iter`` doublings. The search
+        never runs longer than ``max_iter`` bracket steps plus ``max_iter``
+        Brent iterations.
     """
-    tc = stats.t.ppf(1 - alpha, df)
-    f = lambda d: stats.nct.cdf(tc, df, d) - beta  # noqa: E731  decreasing in d
-    hi = 2 * tc + 4
-    while not f(hi) < 0:          # widen the bracket until the root is inside
-        hi *= 1.5
-    return float(optimize.brentq(f, 0.0, hi, xtol=1e-12))
+    for name, v in (("df", df), ("alpha", alpha), ("beta", beta)):
+        if not isinstance(v, (int, float, np.integer, np.floating)) or not np.isfinite(v):
+            raise ValueError(f"noncentrality_delta: {name} must be a finite number, got {v!r}")
+    if df < 1:
+        raise ValueError(f"noncentrality_delta: df must be at least 1, got {df!r}")
+    if not (0 < alpha < 1 and 0 < beta < 1 and alpha + beta < 1):
+        raise ValueError(f"noncentrality_delta: needs 0 < alpha, 0 < beta and alpha + beta < 1, "
+                         f"got alpha = {alpha!r}, beta = {beta!r}")
+    tc = float(stats.t.isf(alpha, df))       # isf, not ppf(1 - alpha): 1 - 1e-17 rounds to 1
+    if not np.isfinite(tc):
+        raise ValueError(f"noncentrality_delta: t quantile for alpha = {alpha!r}, df = {df!r} is not finite")
+
+    def f(d):                                 # decreasing in d
+        v = float(stats.nct.cdf(tc, df, d)) - beta
+        if not np.isfinite(v):
+            raise ValueError(f"noncentrality_delta: non-central t probability not finite at delta = {d!r} "
+                             f"(alpha = {alpha!r}, beta = {beta!r}, df = {df!r})")
+        return v
+
+    hi = 2 * max(tc, 0.0) + 4
+    for _ in range(max_iter):                 # widen the bracket until the root is inside
+        if f(hi) < 0:
+            break
+        hi *= 2.0
+        if not np.isfinite(hi):
+            break
+    else:
+        hi = float("inf")
+    if not np.isfinite(hi):
+        raise ValueError(f"noncentrality_delta: no root bracketed for alpha = {alpha!r}, beta = {beta!r}, "
+                         f"df = {df!r}")
+    try:
+        root = optimize.brentq(f, 0.0, hi, xtol=1e-12, maxiter=max_iter)
+    except RuntimeError as exc:               # brentq did not converge within maxiter
+        raise ValueError(f"noncentrality_delta: {exc} (alpha = {alpha!r}, beta = {beta!r}, df = {df!r})") from exc
+    return float(root)
+
+
+def _slope_note(b: float) -> str:
+    return "; the calibration slope is negative, so |S| is used" if b < 0 else ""
+
+
+def _sigma_residual(fit):
+    """(sigma, basis text, reason) for the residual-SD basis.
+
+    Unweighted: sigma = s(y/x). Weighted: the SD of one reading at the lowest
+    calibrator above zero, s(y/x)/sqrt(w(x_low)) with the fit's normalised
+    weight there; this does not depend on how the weights are scaled (a
+    weighted s(y/x) alone does: it scales with 1/sqrt(weight factor)).
+    """
+    s = fit.residual_sd
+    if fit.weighting == "none":
+        return s, "s(y/x) of the unweighted calibration", ""
+    positive = fit.x[fit.x > 0]
+    if positive.size == 0:
+        return None, "", "the weighted calibration has no calibrator above zero to take the noise at"
+    x_low = float(positive.min())
+    w = fit.weight_at(x_low, float(fit.predict(x_low)))
+    if not (np.isfinite(w) and w > 0):
+        return None, "", f"the weight of the {fit.weighting} fit at the lowest calibrator {x_low:g} is not positive"
+    return (float(s / np.sqrt(w)),
+            f"s(y/x) of the {fit.weighting} weighted fit taken at the lowest calibrator above zero, "
+            f"x = {x_low:g}: s(y/x)/√w(x_low), independent of how the weights are scaled", "")
 
 
 def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_per_sample=1,
@@ -79,27 +146,50 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
 
     Notes
     -----
-    S is the slope at zero concentration (the linear coefficient b; for a
-    quadratic, df/dx at x = 0). ISO 11843-2 with I J = n calibration
-    readings, K readings per test sample:
-    x_C = t(1 - alpha, n - 2) (s/b) sqrt(1/K + 1/n + xbar^2/Sxx),
-    x_D = delta (s/b) sqrt(1/K + 1/n + xbar^2/Sxx).
+    LOD = f_LOD sigma/|S|, LOQ = f_LOQ sigma/|S| [ICH-Q2]. S is the slope at
+    zero concentration (the linear coefficient b; for a quadratic, df/dx at
+    x = 0); a negative slope (response falling with concentration) is used by
+    its magnitude and the basis says so; a zero or non-finite slope makes
+    every estimate not applicable.
+
+    sigma for the residual-SD basis: s(y/x) for an unweighted fit; for a
+    weighted fit the SD of one reading at the lowest calibrator above zero,
+    s(y/x)/sqrt(w(x_low)), which does not depend on how the weights are
+    normalised (s(y/x) of a weighted fit alone does).
+
+    ISO 11843-2 with I J = n individual calibration readings (every reading,
+    not the level means) and K readings per test sample, whose mean is the
+    test result:
+    x_C = t(1 - alpha, n - 2) (s/|b|) sqrt(1/K + 1/n + xbar^2/Sxx),
+    x_D = delta (s/|b|) sqrt(1/K + 1/n + xbar^2/Sxx).
     """
     fit = cal.fit
-    b = float(fit.slope_at(0.0))
-    s = fit.residual_sd
+    b_signed = float(fit.slope_at(0.0))
     out = []
     f_lod, f_loq = lod_factor, loq_factor
+    if not np.isfinite(b_signed) or b_signed == 0:
+        reason = f"the calibration slope at zero concentration is {b_signed:g}, so no limit can be computed"
+        for m in METHODS[:3]:
+            out.append(DetectionEstimate(m, "", None, None, None, reason=reason))
+        out.append(DetectionEstimate("iso-11843-2", "", None, None, None, reason=reason))
+        return DetectionResult(tuple(out), reporting_method, lod_factor, loq_factor)
+    b = abs(b_signed)
+    note = _slope_note(b_signed)
 
     def pair(sigma):
         return f_lod * sigma / b, f_loq * sigma / b
 
     if fit.exact:
-        out.append(DetectionEstimate("ich-residual-sd", "residual SD of the calibration", None, None, s,
+        out.append(DetectionEstimate("ich-residual-sd", "residual SD of the calibration", None, None, fit.residual_sd,
                                      reason="the calibration fits exactly (zero residual SD)"))
     else:
-        out.append(DetectionEstimate("ich-residual-sd", f"{f_lod:g}·s(y/x)/b and {f_loq:g}·s(y/x)/b",
-                                     *pair(s), s))
+        sigma, how, reason = _sigma_residual(fit)
+        if sigma is None:
+            out.append(DetectionEstimate("ich-residual-sd", "residual SD of the calibration", None, None, None,
+                                         reason=reason))
+        else:
+            out.append(DetectionEstimate("ich-residual-sd", f"{f_lod:g}·σ/S and {f_loq:g}·σ/S, σ = {how}{note}",
+                                         *pair(sigma), sigma))
     icpt = fit.coefficients.get("intercept")
     if icpt is None:
         out.append(DetectionEstimate("ich-intercept-sd", "SD of the intercept", None, None, None,
@@ -108,7 +198,7 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
         out.append(DetectionEstimate("ich-intercept-sd", "SD of the intercept", None, None, None,
                                      reason="the calibration fits exactly (zero residual SD)"))
     else:
-        out.append(DetectionEstimate("ich-intercept-sd", f"{f_lod:g}·s(a)/b and {f_loq:g}·s(a)/b",
+        out.append(DetectionEstimate("ich-intercept-sd", f"{f_lod:g}·s(a)/b and {f_loq:g}·s(a)/b{note}",
                                      *pair(icpt.std_error), icpt.std_error))
     blanks = None if blanks is None else np.asarray(blanks, float)
     if blanks is None or blanks.size == 0:
@@ -124,7 +214,7 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
                                          reason="every blank reading is identical"))
         else:
             out.append(DetectionEstimate("blank-sd", f"{f_lod:g}·s(blank)/b and {f_loq:g}·s(blank)/b "
-                                         f"({blanks.size} blanks)", *pair(sb), sb))
+                                         f"({blanks.size} blanks){note}", *pair(sb), sb))
     out.append(_iso11843(cal, readings_per_sample, alpha, beta, f_loq))
     return DetectionResult(tuple(out), reporting_method, lod_factor, loq_factor)
 
@@ -150,13 +240,19 @@ def _iso11843(cal, K, alpha, beta, f_loq) -> DetectionEstimate:
     x = fit.x
     xbar = x.mean()
     sxx = float(np.sum((x - xbar) ** 2))
-    b = fit.coefficients["slope"].estimate
+    b_signed = fit.coefficients["slope"].estimate
+    b = abs(b_signed)
     s = fit.residual_sd
     root = np.sqrt(1.0 / K + 1.0 / n + xbar**2 / sxx)
-    tq = float(stats.t.ppf(1 - alpha, df))
-    delta = noncentrality_delta(df, alpha, beta)
+    tq = float(stats.t.isf(alpha, df))
+    try:
+        delta = noncentrality_delta(df, alpha, beta)
+    except ValueError as exc:
+        return DetectionEstimate(name, basis, None, None, None, reason=f"delta could not be computed: {exc}")
     xc = tq * s / b * root
     xd = delta * s / b * root
     # ISO 11843-2 defines no quantitation limit, so none is reported under this basis
-    return DetectionEstimate(name, basis + "; no quantitation limit is defined by this standard",
+    return DetectionEstimate(name, basis + f"; K = {K} reading(s) per test sample (their mean is the result), "
+                             f"calibration from its n = {n} individual readings; "
+                             "no quantitation limit is defined by this standard" + _slope_note(b_signed),
                              float(xd), None, s, critical_value=float(xc), delta=delta)

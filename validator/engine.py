@@ -181,7 +181,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     if data.reference_material is not None:
         rmc = config.reference_material
         rm = assess_reference_material(data.reference_material, rmc.certified_value,
-                                       rmc.standard_uncertainty, k=rmc.coverage_factor)
+                                       rmc.standard_uncertainty, k=rmc.coverage_factor,
+                                       measurement_uncertainty=rmc.measurement_standard_uncertainty)
         criteria.append(reference_material_criterion(rm))
     reported = detection.reported
     loq_check = verify_loq(reported.loq, precision or (), recovery.levels if recovery else (),

@@ -35,6 +35,7 @@ class RecoveryLevel:
     pvalue: float | None
     range_pct: tuple
     passed: bool
+    reason: str = ""          # why sd/rsd/ci/t/p are missing, when they are
 
 
 @dataclass(frozen=True)
@@ -72,11 +73,15 @@ def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda a
             t = (mean - 100.0) / se if se > 0 else None
             p = float(2 * stats.t.sf(abs(t), n - 1)) if t is not None else None
             rsd = 100 * sd / mean if mean != 0 else None
+            reasons = (["every recovery at this level is identical, so the t test is not applicable"] if t is None
+                       else []) + (["the mean recovery is zero, so no RSD"] if rsd is None else [])
+            reason = "; ".join(reasons)
         else:
             sd = rsd = t = p = None
             ci = None
+            reason = "one result at this level: SD, RSD, CI and t test need at least 2"
         levels.append(RecoveryLevel(float(a), n, tuple(map(float, r)), mean, sd, rsd, ci, t, p, lo_hi,
-                                    bool(lo_hi[0] <= mean <= lo_hi[1])))
+                                    bool(lo_hi[0] <= mean <= lo_hi[1]), reason))
     return RecoveryResult(tuple(levels), float(rec.mean()), int(rec.size))
 
 
@@ -89,31 +94,59 @@ class ReferenceMaterialResult:
     certified_uncertainty: float
     bias: float
     bias_pct: float
-    u_mean: float | None
+    u_mean: float | None                 # u_m, the standard uncertainty of the laboratory's result
     expanded_uncertainty: float | None   # k sqrt(u_mean^2 + u_crm^2)
     coverage_factor: float
     significant: bool | None
+    u_mean_basis: str = ""               # which u_m: s/sqrt(n) or the laboratory's stated uncertainty
+    reason: str = ""                     # why the test is not applicable, when significant is None
 
 
-def assess_reference_material(found, certified_value, standard_uncertainty, *, k=2.0):
+def assess_reference_material(found, certified_value, standard_uncertainty, *, k=2.0,
+                              measurement_uncertainty=None):
     """Bias against a certified value, judged as in ERM Application Note 1.
+
+    Parameters
+    ----------
+    measurement_uncertainty : float, optional
+        The laboratory's combined standard uncertainty of its result (u_m in
+        ERM Application Note 1), when the study states one.
 
     Notes
     -----
-    Delta_m = |mean - c_CRM|; u_Delta = sqrt(u_m^2 + u_CRM^2) with u_m = s/sqrt(n);
-    the bias is significant when Delta_m > k u_Delta (k = 2). [ERM]
+    Delta_m = |mean - c_CRM|; u_Delta = sqrt(u_m^2 + u_CRM^2); the bias is
+    significant when Delta_m > k u_Delta (k = 2) [ERM]. ERM Application
+    Note 1 takes u_m as the combined standard uncertainty of the laboratory's
+    result. When the study gives it, it is used; otherwise u_m = s/sqrt(n),
+    the standard error of the mean of the n results, which holds only the
+    repeatability of these results (no between-run or calibration
+    contributions), so it is usually smaller and finds a bias significant more
+    readily. ``u_mean_basis`` says which was used.
     """
     x = np.asarray(found, float)
     n = x.size
     mean = float(x.mean())
     bias = mean - certified_value
-    if n >= 2:
-        sd = float(np.std(x - mean, ddof=1))
+    sd = float(np.std(x - mean, ddof=1)) if n >= 2 else None
+    reason = ""
+    if measurement_uncertainty is not None:
+        u_mean = float(measurement_uncertainty)
+        basis = ("u_m = the laboratory's combined standard uncertainty of its result, as stated in the study "
+                 "(ERM Application Note 1)")
+    elif n >= 2:
         u_mean = sd / np.sqrt(n)
+        basis = (f"u_m = s/√n = standard error of the mean of the {n} results (repeatability only; ERM "
+                 "Application Note 1 asks for the combined standard uncertainty of the laboratory's result, which "
+                 "the study can give as measurement_standard_uncertainty)")
+    else:
+        u_mean = None
+        basis = "u_m = s/√n needs at least 2 results"
+        reason = ("one result and no measurement_standard_uncertainty in the study, so u_m (and the bias test) "
+                  "cannot be estimated")
+    if u_mean is None:
+        U = significant = None
+    else:
         U = k * float(np.sqrt(u_mean**2 + standard_uncertainty**2))
         significant = bool(abs(bias) > U)
-    else:
-        sd = u_mean = U = None
-        significant = None
     return ReferenceMaterialResult(n, mean, sd, float(certified_value), float(standard_uncertainty), bias,
-                                   100 * bias / certified_value, u_mean, U, k, significant)
+                                   100 * bias / certified_value, u_mean, U, k, significant, basis, reason)

@@ -136,7 +136,21 @@ def _recovery(r):
         {"added": num(lv.added), "n": lv.n, "mean_pct": num(lv.mean_pct), "sd_pct": num(lv.sd_pct),
          "rsd_pct": num(lv.rsd_pct), "ci_pct": _ci(lv.ci_pct) if lv.ci_pct else [None, None],
          "t_statistic": num(lv.t_statistic), "p_value": num(lv.pvalue), "range_pct": list(lv.range_pct),
-         "pass": lv.passed, "recoveries_pct": [num(v) for v in lv.recoveries_pct]} for lv in r.levels]}
+         "pass": lv.passed, "recoveries_pct": [num(v) for v in lv.recoveries_pct], "reason": lv.reason}
+        for lv in r.levels]}
+
+
+def _outlier(t):
+    """An outlier test, applicable or not: a null statistic always comes with its reason."""
+    out = {"method": t.method, "statistic": num(t.statistic), "p_value": num(t.pvalue),
+           "p_value_basis": t.basis, "p_value_se": num(t.pvalue_se), "suspect": t.suspect, "reason": t.reason}
+    if t.df is not None:
+        out["df"] = list(t.df)
+    if t.sizes is not None:
+        out["series_sizes"] = list(t.sizes)
+    if t.series is not None:
+        out["series"] = t.series
+    return out
 
 
 def _precision(levels):
@@ -156,7 +170,9 @@ def _precision(levels):
             "repeatability_sd_ci": _ci(lv.repeatability_sd_ci) if lv.repeatability_sd_ci else [None, None],
             "intermediate_sd_ci": _ci(lv.intermediate_sd_ci) if lv.intermediate_sd_ci else [None, None],
             "intermediate_df": num(lv.intermediate_df),
-            "cochran": _test(lv.cochran, True), "grubbs": _test(lv.grubbs, True),
+            "cochran": _outlier(lv.cochran), "grubbs": _outlier(lv.grubbs),
+            "grubbs_double": None if lv.grubbs_double is None else _outlier(lv.grubbs_double),
+            "grubbs_within_series": [_outlier(t) for t in lv.grubbs_within],
             "horrat": num(lv.horrat), "horwitz_prsd_pct": num(lv.horwitz_prsd_pct), "horwitz_note": lv.horwitz_note,
             "notes": lv.reason,
         })
@@ -170,7 +186,7 @@ def _reference_material(rm):
             "certified_standard_uncertainty": num(rm.certified_uncertainty), "bias": num(rm.bias),
             "bias_pct": num(rm.bias_pct), "u_mean": num(rm.u_mean),
             "expanded_uncertainty": num(rm.expanded_uncertainty), "coverage_factor": rm.coverage_factor,
-            "significant": rm.significant}
+            "significant": rm.significant, "u_mean_basis": rm.u_mean_basis, "reason": rm.reason}
 
 
 def _revalidation(r, previous):

@@ -158,6 +158,7 @@ class ReferenceMaterialSection(_Section):
     standard_uncertainty: float = Field(ge=0)
     analyte: Optional[str] = None
     coverage_factor: float = Field(2.0, gt=0)
+    measurement_standard_uncertainty: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
 
 
 class RevalidationSection(_Section):

@@ -181,16 +181,27 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
             parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {fmt(lvl['repeatability_rsd_pct'], 3)} %, "
                          f"intermediate RSD {fmt(lvl['intermediate_rsd_pct'], 3)} %{clamp}")
         out["precision"] = "Precision " + "; ".join(parts) + "."
-        flagged = [lvl for lvl in prec["levels"] for t in (lvl["cochran"], lvl["grubbs"])
+        flagged = [lvl for lvl in prec["levels"]
+                   for t in (lvl["cochran"], lvl["grubbs"], lvl.get("grubbs_double"))
                    if t is not None and t["p_value"] is not None and t["p_value"] < alpha]
-        out["precision_outliers"] = ("Cochran's or Grubbs' test flags a series at level(s) "
+        within = [(lvl, t) for lvl in prec["levels"] for t in lvl.get("grubbs_within_series", [])
+                  if t["p_value"] is not None and t["p_value"] < alpha]
+        out["precision_outliers"] = ("Cochran's or Grubbs' test (single or double) flags a series at level(s) "
                                      + ", ".join(sorted({fmt(lvl["level"]) for lvl in flagged}))
                                      + "; the series stay in the estimate and need a reviewer's judgement."
-                                     if flagged else "Neither Cochran's nor Grubbs' test flags a series.")
+                                     if flagged else "Neither Cochran's nor Grubbs' tests (single or double) flag a series.")
+        if within:
+            out["precision_outliers"] += (" Grubbs' test within a series flags "
+                                          + "; ".join(f"{t['suspect']} in series {t['series']} at level "
+                                                      f"{fmt(lvl['level'])} (p = {fmt_p(t['p_value'])})"
+                                                      for lvl, t in within)
+                                          + "; these results stay in the estimate and need a reviewer's judgement.")
+        else:
+            out["precision_outliers"] += " Grubbs' test within a series flags no single result where it applies."
     rm = a.get("reference_material")
     if rm:
         if rm["significant"] is None:
-            out["reference_material"] = "The reference material needs at least 2 results for a bias test."
+            out["reference_material"] = f"The reference material bias was not tested: {rm.get('reason') or 'needs at least 2 results'}."
         else:
             word = "is" if rm["significant"] else "is not"
             out["reference_material"] = (
