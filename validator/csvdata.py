@@ -203,9 +203,10 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
     header = None
     header_row = 0
     records, rows = [], []
+    end = 0
     try:
         for record in reader:
-            line = reader.line_num
+            line, end = end + 1, reader.line_num     # a quoted cell may span lines: the first one
             if not any(cell.strip() for cell in record):
                 continue
             if header is None:

@@ -267,9 +267,21 @@ class StudyFile:
 
 def _key_line(text: str, loc: tuple) -> int | None:
     """Best-effort line number of the key at ``loc`` in the TOML text."""
+    names = [part for part in loc if not part.isdigit()]
+    if len(names) == len(loc):
+        return _line_of(text, loc)
+    # an item of a list, or a key in an inline table in a list (levels = [{ level = ... }]):
+    # the line of the key itself if it has one, else the list's line
+    for end in range(len(names), 0, -1):
+        line = _line_of(text, tuple(names[:end]) if end > 1 else (names[0],))
+        if line is not None:
+            return line
+    return None
+
+
+def _line_of(text: str, loc: tuple) -> int | None:
     lines = text.splitlines()
-    names = [part for part in loc if not part.isdigit()]      # list items: the list's key
-    section, key = (names[0], names[-1]) if len(names) > 1 else (None, names[0])
+    section, key = (loc[0], loc[-1]) if len(loc) > 1 else (None, loc[0])
     if len(str(key)) > 1000:
         return None
     in_section = section is None
