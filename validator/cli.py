@@ -12,7 +12,6 @@ from __future__ import annotations
 import argparse
 import logging
 import os
-import re
 import shutil
 import sys
 import tempfile
@@ -21,7 +20,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 from . import __version__
-from .errors import OutputError, ValidatorError, escape_control, one_line, show
+from .errors import OutputError, ValidatorError, control_character, one_line, show
 
 __all__ = ["main"]
 
@@ -150,21 +149,19 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")
 _POSITIONAL = {"study": "STUDY", "folder": "FOLDER"}
 
 
 def _check_arguments(args) -> None:
     """Refuse a control character (NUL, newline, ...) in any command-line argument."""
     for dest, value in vars(args).items():
-        bad = _CONTROL.search(value) if isinstance(value, str) else None
+        bad = control_character(value) if isinstance(value, str) else None
         if bad:
             name = f"--{dest.replace('_', '-')}"
             if dest in _POSITIONAL and not (args.command == "verify" and dest == "study"):
                 name = _POSITIONAL[dest]
             raise ValidatorError(f'command line, argument {name}: "{show(value)}" contains a control character '
-                                 f"({escape_control(bad.group())} at position {bad.start()}); "
-                                 "paths and options must not contain control characters")
+                                 f"({bad}); paths and options must not contain control characters")
 
 
 def _dispatch(argv) -> int:

@@ -19,7 +19,8 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["ValidatorError", "StudyError", "DataError", "OutputError", "MAX_ECHO", "show", "one_line"]
+__all__ = ["ValidatorError", "StudyError", "DataError", "OutputError", "MAX_ECHO", "show", "shorten",
+           "escape_control", "one_line", "control_character"]
 
 MAX_ECHO = 80            # characters of a user's value echoed in a message
 MAX_LOCATION = 300       # characters of a path or key named in a message
@@ -29,6 +30,13 @@ MAX_LINE = 2000          # characters of a whole message line (last resort)
 # them could break a message into several lines or hide part of it
 _CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
 _NAMED = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+_IN_PATH = re.compile("[\x00-\x1f\x7f-\x9f]")      # Unicode category Cc
+
+
+def control_character(path: str) -> str | None:
+    """The first control character in ``path`` and its position, as text ("\\x00 at position 3")."""
+    bad = _IN_PATH.search(path)
+    return None if bad is None else f"{_escape(bad)} at position {bad.start()}"
 
 
 def _escape(match: re.Match) -> str:

@@ -32,7 +32,7 @@ from typing import Annotated, Literal, Optional
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .errors import StudyError, escape_control, show
+from .errors import StudyError, control_character, show
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
@@ -48,14 +48,10 @@ TEXT_LIMITS = {"id": 100, "title": 300, "concentration_unit": 100, "response_uni
                "analyst": 200, "reviewer": 200, "instrument": 200, "method": 200, "notes": 5000,
                "analyte": 100}
 
-_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")
-
-
 def _no_control(path: str) -> str:
-    bad = _CONTROL.search(path)
+    bad = control_character(path)
     if bad:
-        raise ValueError(f'the path "{show(path)}" contains a control character '
-                         f"({escape_control(bad.group())} at position {bad.start()}); "
+        raise ValueError(f'the path "{show(path)}" contains a control character ({bad}); '
                          "paths must not contain control characters")
     return path
 
@@ -453,10 +449,10 @@ def read_study_file(path: str | Path) -> StudyFile:
     from .csvdata import decode_text  # the same UTF-8 rules as data files
 
     shown = str(path)
-    bad = _CONTROL.search(shown)
+    bad = control_character(shown)
     if bad:
-        raise StudyError(f"the study file path contains a control character ({escape_control(bad.group())} "
-                         f"at position {bad.start()}); paths must not contain control characters", file=shown)
+        raise StudyError(f"the study file path contains a control character ({bad}); "
+                         "paths must not contain control characters", file=shown)
     p = Path(path)
     raw = _read_limited(p, shown)
     text = decode_text(raw, shown)
