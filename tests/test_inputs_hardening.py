@@ -97,6 +97,13 @@ CASES = [
     ("nul-in-previous-path", CALIB + '[revalidation]\nprevious = "old\\u0000.json"\n', None, "",
      '{dir}/study.toml, line 9, key revalidation.previous: the path "old\\x00.json" contains a control '
      "character (\\x00 at position 3); paths must not contain control characters"),
+    # control characters in text shown in the dossier
+    ("escape-sequence-in-title", CALIB, None, None,
+     '{dir}/study.toml, line 3, key study.title: "red \\x1b[31malert" contains a control character '
+     "(\\x1b at position 4); text may hold tabs and line breaks but no other control characters"),
+    ("control-in-analyte-name", CALIB, {"calibration.csv": 'analyte,concentration,response\n"le\x07ad",1,1\n'}, "",
+     'calibration.csv, row 2, column "analyte": "le\\x07ad" contains a control character (\\x07 at position 2); '
+     "names must not contain control characters"),
     # nesting
     ("nested-arrays-5000", CALIB + "[recovery]\nrange_pct = " + "[" * 5000 + "]" * 5000 + "\n", None, "",
      "{dir}/study.toml: is nested more than 32 levels deep (tables, arrays or dotted keys); refused"),
@@ -115,7 +122,8 @@ CASES = [
 ]
 
 HEADS = {"title-1-mb": STUDY_HEAD.replace('title = "Test study"', 'title = "' + "x" * 1_000_000 + '"'),
-         "id-101": STUDY_HEAD.replace('id = "T-1"', 'id = "' + "i" * 101 + '"')}
+         "id-101": STUDY_HEAD.replace('id = "T-1"', 'id = "' + "i" * 101 + '"'),
+         "escape-sequence-in-title": STUDY_HEAD.replace('title = "Test study"', 'title = "red \\u001b[31malert"')}
 
 
 @pytest.mark.parametrize("case_id, body, files, head, expected", CASES, ids=[c[0] for c in CASES])

@@ -23,7 +23,7 @@ import stat
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import DataError, shorten, show
+from .errors import DataError, control_character, shorten, show
 
 __all__ = ["Table", "read_table", "read_limited", "DEFAULT_MAX_BYTES", "DEFAULT_MAX_ROWS",
            "MAX_NAME_LENGTH"]
@@ -74,8 +74,11 @@ class Table:
         return exact_centre(self.columns[name], decimal)
 
     def texts(self, name: str, max_length: int | None = None) -> list:
-        """Column ``name`` as stripped strings; empty cells, and cells longer than
-        ``max_length`` characters, are an error."""
+        """Column ``name`` as stripped strings; empty cells are an error.
+
+        With ``max_length`` (names: analytes, samples), a longer cell or one with
+        a control character is an error too.
+        """
         out = []
         for v, r in zip(self.columns[name], self.rows):
             if v == "":
@@ -83,6 +86,10 @@ class Table:
             if max_length is not None and len(v) > max_length:
                 raise DataError(f'"{show(v)}" is {len(v)} characters long; at most {max_length} '
                                 f"are allowed in this column", file=self.path, row=r, column=name, value=v)
+            bad = control_character(v) if max_length is not None else None
+            if bad:
+                raise DataError(f'"{show(v)}" contains a control character ({bad}); names must not contain '
+                                "control characters", file=self.path, row=r, column=name, value=v)
             out.append(v)
         return out
 

@@ -30,12 +30,16 @@ MAX_LINE = 2000          # characters of a whole message line (last resort)
 # them could break a message into several lines or hide part of it
 _CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
 _NAMED = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
-_IN_PATH = re.compile("[\x00-\x1f\x7f-\x9f]")      # Unicode category Cc
+_CC = re.compile("[\x00-\x1f\x7f-\x9f]")                   # Unicode category Cc
+_CC_BUT_WHITESPACE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
 
 
-def control_character(path: str) -> str | None:
-    """The first control character in ``path`` and its position, as text ("\\x00 at position 3")."""
-    bad = _IN_PATH.search(path)
+def control_character(text: str, *, allow_whitespace: bool = False) -> str | None:
+    """The first control character in ``text`` and its position, as text ("\\x00 at position 3").
+
+    With ``allow_whitespace``, tab, line feed and carriage return are not counted.
+    """
+    bad = (_CC_BUT_WHITESPACE if allow_whitespace else _CC).search(text)
     return None if bad is None else f"{_escape(bad)} at position {bad.start()}"
 
 

@@ -56,8 +56,18 @@ def _no_control(path: str) -> str:
     return path
 
 
+def _printable(text: str) -> str:
+    bad = control_character(text, allow_whitespace=True)
+    if bad:
+        raise ValueError(f'"{show(text)}" contains a control character ({bad}); text may hold tabs and '
+                         "line breaks but no other control characters")
+    return text
+
+
 # a data path as written in the study file: relative to the study file's folder
 DataPath = Annotated[str, Field(min_length=1, max_length=MAX_PATH_LENGTH), AfterValidator(_no_control)]
+# free text shown in the dossier (lengths in TEXT_LIMITS)
+Text = Annotated[str, AfterValidator(_printable)]
 
 
 def _text(key: str, required: bool = False):
@@ -76,16 +86,16 @@ class _Section(BaseModel):
 
 
 class StudySection(_Section):
-    id: str = _text("id", required=True)
-    title: str = _text("title", required=True)
-    concentration_unit: str = _text("concentration_unit", required=True)
-    response_unit: str = _text("response_unit", required=True)
+    id: Text = _text("id", required=True)
+    title: Text = _text("title", required=True)
+    concentration_unit: Text = _text("concentration_unit", required=True)
+    response_unit: Text = _text("response_unit", required=True)
     purpose: Literal["initial", "revalidation"] = "initial"
-    analyst: str = _text("analyst")
-    reviewer: str = _text("reviewer")
-    instrument: str = _text("instrument")
-    method: str = _text("method")
-    notes: str = _text("notes")
+    analyst: Text = _text("analyst")
+    reviewer: Text = _text("reviewer")
+    instrument: Text = _text("instrument")
+    method: Text = _text("method")
+    notes: Text = _text("notes")
     decimal: Literal[".", ","] = "."
     delimiter: Literal[",", ";", "tab"] = ","
     max_data_file_mb: float = Field(100.0, gt=0, le=MAX_DATA_FILE_MB)
@@ -202,7 +212,7 @@ class ReferenceMaterialSection(_Section):
     data: DataPath
     certified_value: float = Field(gt=0)
     standard_uncertainty: float = Field(ge=0)
-    analyte: Optional[str] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
+    analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
     coverage_factor: float = Field(2.0, gt=0, le=10)
 
 
