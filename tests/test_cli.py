@@ -69,7 +69,7 @@ CASES = [
     ('[calibration]\ndata = "calibration.csv"\nthrough_origin = "yes"\n', None,
      "study.toml, line 8, key calibration.through_origin: Input should be a valid boolean; got 'yes'"),
     ('[calibration]\ndata = "calibration.csv"\n[criteria]\nalpha = 0.7\n', None,
-     "study.toml, line 9, key criteria.alpha: Input should be less than 0.5; got 0.7"),
+     "study.toml, line 9, key criteria.alpha: must be 1e-06 <= alpha < 0.5; got 0.7"),
     ('[calibration]\ndata = \n', None,
      "study.toml: TOML syntax error: Invalid value (at line 7, column 8)"),
     ('[calibration]\ndata = "calibration.csv"\n', {"calibration.csv": "concentration,response\n1,1\n2,1.2.3\n"},

@@ -10,14 +10,16 @@ criterion was not met; 2 bad input or usage; 3 internal error (a bug).
 from __future__ import annotations
 
 import argparse
+import logging
 import os
 import re
 import sys
+import warnings
 from datetime import datetime, timezone
 from pathlib import Path
 
 from . import __version__
-from .errors import ValidatorError
+from .errors import ValidatorError, control_character, one_line, show
 
 __all__ = ["main"]
 
@@ -142,19 +144,61 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+_POSITIONAL = {"study": "STUDY", "folder": "FOLDER"}
+
+
+def _check_arguments(args) -> None:
+    """Refuse a control character (NUL, newline, ...) in any command-line argument."""
+    for dest, value in vars(args).items():
+        bad = control_character(value) if isinstance(value, str) else None
+        if bad:
+            name = f"--{dest.replace('_', '-')}"
+            if dest in _POSITIONAL and not (args.command == "verify" and dest == "study"):
+                name = _POSITIONAL[dest]
+            raise ValidatorError(f'command line, argument {name}: "{show(value)}" contains a control character '
+                                 f"({bad}); paths and options must not contain control characters")
+
+
+def _dispatch(argv) -> int:
+    args = build_parser().parse_args(argv)
+    _check_arguments(args)
+    return args.func(args)
+
+
+def _quietly(argv) -> int:
+    """Run the command with library warnings and log records kept off stderr.
+
+    numpy, scipy, statsmodels and matplotlib can warn (through ``warnings``
+    or ``logging``) on legal but degenerate data; the analysis states such
+    cases in the results, so stderr keeps only validator's own one line.
+    """
+    root = logging.getLogger()
+    silence = logging.NullHandler()      # stops logging's last-resort handler writing to stderr
+    root.addHandler(silence)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return _dispatch(argv)
+    finally:
+        root.removeHandler(silence)
+
+
+def _say(text: str) -> None:
+    print(one_line(text), file=sys.stderr)
+
+
 def main(argv=None) -> int:
     try:
-        args = build_parser().parse_args(argv)
-        return args.func(args)
+        return _quietly(argv)
     except ValidatorError as exc:
-        print(f"validator: error: {exc}", file=sys.stderr)
+        _say(f"validator: error: {exc}")
         return exc.exit_code
     except KeyboardInterrupt:
-        print("validator: interrupted; nothing was written", file=sys.stderr)
+        _say("validator: interrupted; nothing was written")
         return 130
     except Exception as exc:  # a bug in validator, not bad input: still one line, nothing written
         if os.environ.get("VALIDATOR_DEBUG"):
             raise
-        print(f"validator: internal error: {type(exc).__name__}: {exc} (nothing was written; "
-              "please report it, with VALIDATOR_DEBUG=1 for the traceback)", file=sys.stderr)
+        _say(f"validator: internal error: {type(exc).__name__}: {show(str(exc), 500)} (nothing was written; "
+             "please report it, with VALIDATOR_DEBUG=1 for the traceback)")
         return 3

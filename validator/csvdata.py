@@ -7,25 +7,31 @@ line number in the file, header = row 1), the column and the value.
 
 Numbers are parsed strictly: a cell is a number only if it is one number in
 the declared decimal style. Thousands separators, units pasted after the
-number, NaN and infinity are refused with a message saying which.
+number, NaN and infinity are refused with a message saying which, and so is a
+number too large for a float (``1e999``). Files are read in chunks up to
+their size limit, never by allocating the limit up front.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import math
 import os
 import re
 import stat
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import DataError
+from .errors import DataError, control_character, shorten, show
 
-__all__ = ["Table", "read_table", "DEFAULT_MAX_BYTES", "DEFAULT_MAX_ROWS"]
+__all__ = ["Table", "read_table", "read_limited", "DEFAULT_MAX_BYTES", "DEFAULT_MAX_ROWS",
+           "MAX_NAME_LENGTH"]
 
 DEFAULT_MAX_BYTES = 100 * 1024 * 1024
 DEFAULT_MAX_ROWS = 1_000_000
+MAX_NAME_LENGTH = 100          # characters of an analyte name or sample id
+_CHUNK = 1024 * 1024
 
 _DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
 _NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
@@ -67,12 +73,23 @@ class Table:
         self.numbers(name, decimal)          # the same checks and messages
         return exact_centre(self.columns[name], decimal)
 
-    def texts(self, name: str) -> list:
-        """Column ``name`` as stripped strings; empty cells are an error."""
+    def texts(self, name: str, max_length: int | None = None) -> list:
+        """Column ``name`` as stripped strings; empty cells are an error.
+
+        With ``max_length`` (names: analytes, samples), a longer cell or one with
+        a control character is an error too.
+        """
         out = []
         for v, r in zip(self.columns[name], self.rows):
             if v == "":
                 raise DataError("the cell is empty", file=self.path, row=r, column=name, value=v)
+            if max_length is not None and len(v) > max_length:
+                raise DataError(f'"{show(v)}" is {len(v)} characters long; at most {max_length} '
+                                f"are allowed in this column", file=self.path, row=r, column=name, value=v)
+            bad = control_character(v) if max_length is not None else None
+            if bad:
+                raise DataError(f'"{show(v)}" contains a control character ({bad}); names must not contain '
+                                "control characters", file=self.path, row=r, column=name, value=v)
             out.append(v)
         return out
 
@@ -94,25 +111,29 @@ def parse_number(text: str, *, decimal: str, file: str, row: int, column: str) -
     if s == "":
         raise DataError("the cell is empty", **where)
     if s.lower().lstrip("+-") in {"nan", "inf", "infinity", "na", "n/a"}:
-        raise DataError(f'"{s}" is not a finite number', **where)
+        raise DataError(f'"{show(s)}" is not a finite number', **where)
     other = "," if decimal == "." else "."
     if other not in s:
         candidate = s.replace(",", ".")
         if _NUMBER.fullmatch(candidate):
-            return float(candidate)
+            value = float(candidate)
+            if not math.isfinite(value):
+                raise DataError(f'"{show(s)}" is too large for a number (the largest magnitude is '
+                                "about 1.8e308)", **where)
+            return value
     if _THOUSANDS.fullmatch(s) and (s.count(",") + s.count(".") + s.count("'") + s.count(" ")) > 1:
-        raise DataError(f'"{s}" has thousands separators; write the number without them', **where)
+        raise DataError(f'"{show(s)}" has thousands separators; write the number without them', **where)
     if other in s and _NUMBER.fullmatch(s.replace(other, ".")) and s.count(other) == 1:
         if decimal == ".":
-            raise DataError(f'"{s}" uses a decimal comma but the study declares decimal = "."; '
+            raise DataError(f'"{show(s)}" uses a decimal comma but the study declares decimal = "."; '
                             'set decimal = "," in [study]', **where)
-        raise DataError(f'"{s}" uses a decimal point but the study declares decimal = ","; '
+        raise DataError(f'"{show(s)}" uses a decimal point but the study declares decimal = ","; '
                         'set decimal = "." in [study]', **where)
     m = _NUMBER_THEN_TEXT.fullmatch(s)
     if m:
-        raise DataError(f'"{s}" has text after the number ("{m.group(5)}"); '
+        raise DataError(f'"{show(s)}" has text after the number ("{show(m.group(5))}"); '
                         'give units in the study file, not in data cells', **where)
-    raise DataError(f'"{s}" is not a number', **where)
+    raise DataError(f'"{show(s)}" is not a number', **where)
 
 
 def _check_path(path: Path, shown: str, max_bytes: int) -> int:
@@ -122,6 +143,8 @@ def _check_path(path: Path, shown: str, max_bytes: int) -> int:
         raise DataError(f"data file not found (looked for {path})", file=shown) from None
     except OSError as exc:
         raise DataError(f"data file cannot be read ({exc.strerror})", file=shown) from None
+    except ValueError:      # a NUL in the path; the study schema refuses it earlier
+        raise DataError("the path contains a NUL character", file=shown) from None
     if stat.S_ISDIR(st.st_mode):
         raise DataError("is a directory, not a data file", file=shown)
     if not stat.S_ISREG(st.st_mode):
@@ -131,12 +154,32 @@ def _check_path(path: Path, shown: str, max_bytes: int) -> int:
     return st.st_size
 
 
+def read_limited(fh, max_bytes: int) -> bytes | None:
+    """Up to ``max_bytes`` bytes of ``fh``, read in chunks; ``None`` if there are more.
+
+    Memory grows with the file, never with the limit: a limit far larger than
+    the file allocates nothing extra.
+    """
+    chunks, total = [], 0
+    while True:
+        chunk = fh.read(min(_CHUNK, max_bytes + 1 - total))
+        if not chunk:
+            return b"".join(chunks)
+        chunks.append(chunk)
+        total += len(chunk)
+        if total > max_bytes:
+            return None
+
+
 def read_bytes(path: Path, shown: str, max_bytes: int = DEFAULT_MAX_BYTES) -> bytes:
     """Read a data file after checking it is a regular file under the size limit."""
     _check_path(path, shown, max_bytes)
-    with open(path, "rb") as fh:
-        data = fh.read(max_bytes + 1)
-    if len(data) > max_bytes:
+    try:
+        with open(path, "rb") as fh:
+            data = read_limited(fh, max_bytes)
+    except OSError as exc:
+        raise DataError(f"data file cannot be read ({exc.strerror})", file=shown) from None
+    if data is None:        # the file grew after it was checked
         raise DataError(f"is over the limit of {max_bytes} bytes", file=shown)
     return data
 
@@ -167,9 +210,10 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
     header = None
     header_row = 0
     records, rows = [], []
+    end = 0
     try:
         for record in reader:
-            line = reader.line_num
+            line, end = end + 1, reader.line_num     # a quoted cell may span lines: the first one
             if not any(cell.strip() for cell in record):
                 continue
             if header is None:
@@ -188,7 +232,7 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
         if name == "":
             raise DataError("the header has an empty column name", file=shown, row=header_row)
         if name in seen:
-            raise DataError(f'the header names column "{name}" twice', file=shown, row=header_row)
+            raise DataError(f'the header names column "{show(name)}" twice', file=shown, row=header_row)
         seen.add(name)
     allowed = set(required) | set(optional)
     for name in header:
@@ -197,12 +241,12 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
             hint = ""
             if delimiter != "," and "," in name or delimiter == "," and ";" in name:
                 hint = " (is the delimiter in [study] right?)"
-            raise DataError(f'unknown column "{name}"{hint}; expected {expected}',
+            raise DataError(f'unknown column "{show(name)}"{hint}; expected {expected}',
                             file=shown, row=header_row)
     for name in required:
         if name not in header:
-            raise DataError(f'the header has no column "{name}" (found: '
-                            + ", ".join(f'"{c}"' for c in header) + ")", file=shown, row=header_row)
+            found = shorten(", ".join(f'"{c}"' for c in header), 4 * MAX_NAME_LENGTH)
+            raise DataError(f'the header has no column "{name}" (found: {found})', file=shown, row=header_row)
     if not records:
         raise DataError("has a header but no data rows", file=shown)
     columns = {name: [] for name in header}

@@ -9,11 +9,77 @@ Input errors carry where the problem is (file, row, column or key) and the
 offending value as attributes, and their message reads like::
 
     calibration.csv, row 7, column "response": "1.2.3" is not a number
+
+A message is always one line: control characters in echoed values, paths and
+keys are shown as escapes (``\\n``, ``\\x00``) and a long echoed value is cut
+to its first :data:`MAX_ECHO` characters followed by its length.
 """
 
 from __future__ import annotations
 
-__all__ = ["ValidatorError", "StudyError", "DataError", "OutputError"]
+import re
+
+__all__ = ["ValidatorError", "StudyError", "DataError", "OutputError", "MAX_ECHO", "show", "shorten",
+           "escape_control", "one_line", "control_character"]
+
+MAX_ECHO = 80            # characters of a user's value echoed in a message
+MAX_LOCATION = 300       # characters of a path or key named in a message
+MAX_LINE = 2000          # characters of a whole message line (last resort)
+
+# C0 and C1 controls, DEL, and the Unicode line and paragraph separators: all of
+# them could break a message into several lines or hide part of it
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
+_NAMED = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+_CC = re.compile("[\x00-\x1f\x7f-\x9f]")                   # Unicode category Cc
+_CC_BUT_WHITESPACE = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+
+
+def control_character(text: str, *, allow_whitespace: bool = False) -> str | None:
+    """The first control character in ``text`` and its position, as text ("\\x00 at position 3").
+
+    With ``allow_whitespace``, tab, line feed and carriage return are not counted.
+    """
+    bad = (_CC_BUT_WHITESPACE if allow_whitespace else _CC).search(text)
+    return None if bad is None else f"{_escape(bad)} at position {bad.start()}"
+
+
+def _escape(match: re.Match) -> str:
+    c = match.group()
+    return _NAMED.get(c) or (f"\\x{ord(c):02x}" if ord(c) < 0x100 else f"\\u{ord(c):04x}")
+
+
+def escape_control(text: str) -> str:
+    """``text`` with every control character written as an escape (``\\n``, ``\\x00``)."""
+    return _CONTROL.sub(_escape, text)
+
+
+def shorten(text: str, limit: int = MAX_ECHO) -> str:
+    """``text`` cut to ``limit`` characters, followed by its length when cut."""
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}... ({len(text)} characters)"
+
+
+def show(value: object, limit: int = MAX_ECHO) -> str:
+    """A user's value as echoed in a message: shortened, control characters escaped.
+
+    Strings are shown as they are (the caller adds quotes); anything else by
+    its ``repr``. An integer too long to write out is described by its size.
+    """
+    if isinstance(value, str):
+        text = value
+    else:
+        try:
+            text = repr(value)
+        except ValueError:   # an int over Python's limit on digits converted to text
+            text = (f"<an integer of about {int(value.bit_length() * 0.30103) + 1} digits>"
+                    if isinstance(value, int) else f"<a {type(value).__name__} holding such an integer>")
+    return escape_control(shorten(text, limit))
+
+
+def one_line(text: str) -> str:
+    """A whole message made safe to print as one line on stderr."""
+    return escape_control(shorten(text, MAX_LINE))
 
 
 class ValidatorError(Exception):
@@ -26,15 +92,15 @@ def _locate(file: str | None, row: int | None, column: str | None, key: str | No
             line: int | None = None) -> str:
     parts = []
     if file:
-        parts.append(file)
+        parts.append(show(file, MAX_LOCATION))
     if line is not None:
         parts.append(f"line {line}")
     if row is not None:
         parts.append(f"row {row}")
     if column is not None:
-        parts.append(f'column "{column}"')
+        parts.append(f'column "{show(column, MAX_LOCATION)}"')
     if key is not None:
-        parts.append(f"key {key}")
+        parts.append(f"key {show(key, MAX_LOCATION)}")
     return ", ".join(parts)
 
 
@@ -47,6 +113,11 @@ class StudyError(ValidatorError, ValueError):
         Where the problem is and what was found; ``None`` where not relevant.
     problem
         The bare description, without the location.
+
+    The message is one line whatever the inputs: the location parts are
+    shortened and escaped here, and any control character left in ``problem``
+    is escaped too. Callers echo values through :func:`show`, which also
+    shortens them.
     """
 
     def __init__(self, problem: str, *, file: str | None = None, row: int | None = None,
@@ -60,7 +131,7 @@ class StudyError(ValidatorError, ValueError):
         self.value = value
         self.line = line
         where = _locate(file, row, column, key, line)
-        super().__init__(f"{where}: {problem}" if where else problem)
+        super().__init__(escape_control(f"{where}: {problem}" if where else problem))
 
 
 class DataError(StudyError):

@@ -14,8 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .csvdata import exact_centre, read_bytes, read_table
-from .errors import DataError, StudyError
+from .csvdata import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
+from .errors import DataError, StudyError, shorten, show
 from .study import StudyFile, read_study_file
 
 __all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
@@ -148,9 +148,9 @@ def _calibration(reader: _Reader):
     y = np.array(table.numbers("response", reader.decimal))
     for i, xi in enumerate(x):
         if xi < 0:
-            raise DataError(f"concentration {table.columns['concentration'][i]} is negative",
+            raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
                             file=table.path, row=table.rows[i], column="concentration", value=xi)
-    names = table.texts("analyte") if table.has("analyte") else [cfg.study.id] * len(table)
+    names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [cfg.study.id] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     order, groups = _group(names)
     result = {}
@@ -176,7 +176,7 @@ def _calibration(reader: _Reader):
 def _analyte_rows(table, analytes: dict, what: str) -> dict:
     """Row indices of ``table`` per analyte (all rows if there is one analyte and no column)."""
     if table.has("analyte"):
-        names = table.texts("analyte")
+        names = table.texts("analyte", MAX_NAME_LENGTH)
     elif len(analytes) == 1:
         names = [next(iter(analytes))] * len(table)
     else:
@@ -186,7 +186,7 @@ def _analyte_rows(table, analytes: dict, what: str) -> dict:
     for i, (name, row) in enumerate(zip(names, table.rows)):
         if name not in analytes:
             raise DataError(f'analyte "{name}" is not in the calibration data (known: '
-                            + ", ".join(f'"{a}"' for a in analytes) + ")",
+                            + shorten(", ".join(f'"{a}"' for a in analytes), 4 * MAX_NAME_LENGTH) + ")",
                             file=table.path, row=row, column="analyte", value=name)
         out[name].append(i)
     return out
@@ -197,7 +197,7 @@ def _samples(reader: _Reader, analytes: dict):
     if cfg.samples is None:
         return {}
     table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
-    ids = table.texts("sample")
+    ids = table.texts("sample", MAX_NAME_LENGTH)
     responses = table.numbers("response", reader.decimal)
     seen = {}
     for sid, row in zip(ids, table.rows):
@@ -221,7 +221,7 @@ def _samples(reader: _Reader, analytes: dict):
 def _positive(table, column, values, what="must be > 0"):
     for v, cell, row in zip(values, table.columns[column], table.rows):
         if not v > 0:
-            raise DataError(f"{column} {cell} {what}", file=table.path, row=row, column=column, value=v)
+            raise DataError(f"{column} {show(cell)} {what}", file=table.path, row=row, column=column, value=v)
 
 
 def _blanks(reader, analytes):
@@ -284,7 +284,7 @@ def _comparison(reader, analytes):
     if cfg is None:
         return {}
     table = reader.table("comparison", cfg.data, ("sample", "reference", "test"), ("analyte",))
-    ids = table.texts("sample")
+    ids = table.texts("sample", MAX_NAME_LENGTH)
     ref = np.array(table.numbers("reference", reader.decimal))
     test = np.array(table.numbers("test", reader.decimal))
     out = {}

@@ -8,45 +8,97 @@ that name the study file, the line, the key and the offending value.
 
 Every default that was applied (a key the user did not write) is recorded so
 that the results and the dossier can list it.
+
+Limits (stated in README.md, "Limits"): the study file is at most
+:data:`MAX_STUDY_BYTES` and nested at most :data:`MAX_NESTING` levels deep;
+every number must be finite and within its key's range; alpha and beta lie in
+[:data:`MIN_PROBABILITY`, 0.5) so that 1 - alpha is distinguishable from 1;
+text keys have the maximum lengths in :data:`TEXT_LIMITS`; paths contain no
+control characters.
 """
 
 from __future__ import annotations
 
 import difflib
 import hashlib
+import os
 import re
+import stat
+import sys
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal, Optional
+from typing import Annotated, Literal, Optional
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .errors import StudyError
+from .errors import StudyError, control_character, show
 
-__all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS"]
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
+           "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
 WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
 
+MAX_STUDY_BYTES = 1024 * 1024    # a study file is a few kB; 1 MiB leaves room for long notes
+MAX_NESTING = 32                 # levels of tables and arrays; the schema itself needs 5
+MAX_DATA_FILE_MB = 2048          # the largest value of max_data_file_mb
+MIN_PROBABILITY = 1e-6           # alpha and beta: 1 - p must differ from 1 with room to spare
+MAX_PATH_LENGTH = 4096           # characters of a data path (Linux PATH_MAX)
+TEXT_LIMITS = {"id": 100, "title": 300, "concentration_unit": 100, "response_unit": 100,
+               "analyst": 200, "reviewer": 200, "instrument": 200, "method": 200, "notes": 5000,
+               "analyte": 100}
+
+def _no_control(path: str) -> str:
+    bad = control_character(path)
+    if bad:
+        raise ValueError(f'the path "{show(path)}" contains a control character ({bad}); '
+                         "paths must not contain control characters")
+    return path
+
+
+def _printable(text: str) -> str:
+    bad = control_character(text, allow_whitespace=True)
+    if bad:
+        raise ValueError(f'"{show(text)}" contains a control character ({bad}); text may hold tabs and '
+                         "line breaks but no other control characters")
+    return text
+
+
+# a data path as written in the study file: relative to the study file's folder
+DataPath = Annotated[str, Field(min_length=1, max_length=MAX_PATH_LENGTH), AfterValidator(_no_control)]
+# free text shown in the dossier (lengths in TEXT_LIMITS)
+Text = Annotated[str, AfterValidator(_printable)]
+
+
+def _text(key: str, required: bool = False):
+    if required:
+        return Field(min_length=1, max_length=TEXT_LIMITS[key])
+    return Field("", max_length=TEXT_LIMITS[key])
+
+
+def _probability(default: float):
+    return Field(default, ge=MIN_PROBABILITY, lt=0.5)
+
 
 class _Section(BaseModel):
-    model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
+    # allow_inf_nan=False: inf, -inf and nan (and 1e999, which TOML reads as inf) are refused
+    model_config = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False)
 
 
 class StudySection(_Section):
-    id: str = Field(min_length=1)
-    title: str = Field(min_length=1)
-    concentration_unit: str = Field(min_length=1)
-    response_unit: str = Field(min_length=1)
+    id: Text = _text("id", required=True)
+    title: Text = _text("title", required=True)
+    concentration_unit: Text = _text("concentration_unit", required=True)
+    response_unit: Text = _text("response_unit", required=True)
     purpose: Literal["initial", "revalidation"] = "initial"
-    analyst: str = ""
-    reviewer: str = ""
-    instrument: str = ""
-    method: str = ""
-    notes: str = ""
+    analyst: Text = _text("analyst")
+    reviewer: Text = _text("reviewer")
+    instrument: Text = _text("instrument")
+    method: Text = _text("method")
+    notes: Text = _text("notes")
     decimal: Literal[".", ","] = "."
     delimiter: Literal[",", ";", "tab"] = ","
-    max_data_file_mb: float = Field(100.0, gt=0)
+    max_data_file_mb: float = Field(100.0, gt=0, le=MAX_DATA_FILE_MB)
 
     @model_validator(mode="after")
     def _dialect(self):
@@ -56,7 +108,7 @@ class StudySection(_Section):
 
 
 class CalibrationSection(_Section):
-    data: str
+    data: DataPath
     model: Literal["linear", "quadratic", "auto"] = "linear"
     weighting: Literal["none", "1/x", "1/x^2", "1/y", "1/y^2", "auto"] = "none"
     through_origin: bool = False
@@ -69,28 +121,28 @@ class CalibrationSection(_Section):
 
 
 class SamplesSection(_Section):
-    data: str
+    data: DataPath
 
 
 class CriteriaSection(_Section):
-    alpha: float = Field(0.05, gt=0, lt=0.5)
-    back_calculation_tolerance_pct: float = Field(15.0, gt=0)
-    lowest_level_tolerance_pct: float = Field(20.0, gt=0)
+    alpha: float = _probability(0.05)
+    back_calculation_tolerance_pct: float = Field(15.0, gt=0, le=100)
+    lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
 
 
 class BlanksSection(_Section):
-    data: str
+    data: DataPath
 
 
 class DetectionSection(_Section):
-    lod_factor: float = Field(3.3, gt=0)
-    loq_factor: float = Field(10.0, gt=0)
-    readings_per_sample: int = Field(1, ge=1)
-    beta: float = Field(0.05, gt=0, lt=0.5)
+    lod_factor: float = Field(3.3, gt=0, le=100)
+    loq_factor: float = Field(10.0, gt=0, le=100)
+    readings_per_sample: int = Field(1, ge=1, le=1000)
+    beta: float = _probability(0.05)
     reporting_basis: Literal["ich-residual-sd", "ich-intercept-sd", "blank-sd"] = "ich-residual-sd"
-    loq_rsd_max_pct: float = Field(20.0, gt=0)
+    loq_rsd_max_pct: float = Field(20.0, gt=0, le=100)
 
     @model_validator(mode="after")
     def _order(self):
@@ -101,13 +153,17 @@ class DetectionSection(_Section):
 
 def _range(v):
     if len(v) != 2 or not v[0] < v[1]:
-        raise ValueError(f"range_pct must be [low, high] with low < high, got {list(v)}")
+        raise ValueError(f"range_pct must be [low, high] with low < high, got {show(list(v))}")
     return v
+
+
+# a recovery in per cent, as a bound of an acceptance range
+RecoveryPct = Annotated[float, Field(ge=0, le=1000)]
 
 
 class RecoveryLevelLimit(_Section):
     added: float = Field(gt=0)
-    range_pct: list[float]
+    range_pct: list[RecoveryPct]
 
     @model_validator(mode="after")
     def _check(self):
@@ -116,8 +172,8 @@ class RecoveryLevelLimit(_Section):
 
 
 class RecoverySection(_Section):
-    data: str
-    range_pct: list[float] = [90.0, 110.0]
+    data: DataPath
+    range_pct: list[RecoveryPct] = [90.0, 110.0]
     levels: list[RecoveryLevelLimit] = []
 
     @model_validator(mode="after")
@@ -133,15 +189,15 @@ class RecoverySection(_Section):
 
 
 class PrecisionLevelLimit(_Section):
-    level: float
-    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0)
-    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0)
+    level: float = Field(ge=0)
+    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
+    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
 
 
 class PrecisionSection(_Section):
-    data: str
-    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0)
-    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0)
+    data: DataPath
+    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
+    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     levels: list[PrecisionLevelLimit] = []
 
     def limits_for(self, level: float) -> tuple:
@@ -153,23 +209,23 @@ class PrecisionSection(_Section):
 
 
 class ReferenceMaterialSection(_Section):
-    data: str
+    data: DataPath
     certified_value: float = Field(gt=0)
     standard_uncertainty: float = Field(ge=0)
-    analyte: Optional[str] = None
-    coverage_factor: float = Field(2.0, gt=0)
+    analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
+    coverage_factor: float = Field(2.0, gt=0, le=10)
     measurement_standard_uncertainty: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
 
 
 class RevalidationSection(_Section):
-    previous: str
-    slope_change_max_pct: float = Field(5.0, gt=0)
-    residual_sd_ratio_max: float = Field(2.0, gt=0)
+    previous: DataPath
+    slope_change_max_pct: float = Field(5.0, gt=0, le=100)
+    residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
 
 
 class ComparisonSection(_Section):
-    data: str
-    error_ratio: float = Field(1.0, gt=0)
+    data: DataPath
+    error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
     slope_limits: Optional[list[float]] = None
     intercept_limits: Optional[list[float]] = None
     percentage_differences: bool = False
@@ -179,7 +235,7 @@ class ComparisonSection(_Section):
         for name in ("slope_limits", "intercept_limits"):
             v = getattr(self, name)
             if v is not None and (len(v) != 2 or not v[0] < v[1]):
-                raise ValueError(f"{name} must be [low, high] with low < high, got {list(v)}")
+                raise ValueError(f"{name} must be [low, high] with low < high, got {show(list(v))}")
         return self
 
 
@@ -218,8 +274,23 @@ class StudyFile:
 
 def _key_line(text: str, loc: tuple) -> int | None:
     """Best-effort line number of the key at ``loc`` in the TOML text."""
+    names = [part for part in loc if not part.isdigit()]
+    if len(names) == len(loc):
+        return _line_of(text, loc)
+    # an item of a list, or a key in an inline table in a list (levels = [{ level = ... }]):
+    # the line of the key itself if it has one, else the list's line
+    for end in range(len(names), 0, -1):
+        line = _line_of(text, tuple(names[:end]) if end > 1 else (names[0],))
+        if line is not None:
+            return line
+    return None
+
+
+def _line_of(text: str, loc: tuple) -> int | None:
     lines = text.splitlines()
     section, key = (loc[0], loc[-1]) if len(loc) > 1 else (None, loc[0])
+    if len(str(key)) > 1000:
+        return None
     in_section = section is None
     for number, line in enumerate(lines, start=1):
         stripped = line.strip()
@@ -235,20 +306,52 @@ def _key_line(text: str, loc: tuple) -> int | None:
     return None
 
 
-def _fields_of(loc: tuple):
+def _model_at(loc: tuple):
+    """The pydantic model holding the key at ``loc`` (``None`` if there is none)."""
     model = StudyConfig
     for part in loc[:-1]:
         if part.isdigit():
             continue
         field = model.model_fields.get(part)
         if field is None:
-            return []
+            return None
         ann = field.annotation
         args = getattr(ann, "__args__", None)
         model = next((a for a in (args or (ann,)) if isinstance(a, type) and issubclass(a, BaseModel)), None)
         if model is None:
-            return []
-    return list(model.model_fields)
+            return None
+    return model
+
+
+def _fields_of(loc: tuple):
+    model = _model_at(loc)
+    return [] if model is None else list(model.model_fields)
+
+
+def _valid_range(loc: tuple) -> str | None:
+    """The valid range of the numeric key at ``loc``, e.g. "1e-06 <= alpha < 0.5"."""
+    model = _model_at(loc)
+    field = None if model is None else model.model_fields.get(loc[-1])
+    if field is None:
+        return None
+    low = high = None
+    for m in field.metadata:
+        for attr, sign in (("gt", "<"), ("ge", "<=")):
+            if getattr(m, attr, None) is not None:
+                low = f"{getattr(m, attr):g} {sign} "
+        for attr, sign in (("lt", "<"), ("le", "<=")):
+            if getattr(m, attr, None) is not None:
+                high = f" {sign} {getattr(m, attr):g}"
+    if low is None and high is None:
+        return None
+    return f"{low or ''}{loc[-1]}{high or ''}"
+
+
+def _got(value) -> str:
+    return f"'{show(value)}'" if isinstance(value, str) else show(value)
+
+
+_BOUNDS = ("greater_than", "greater_than_equal", "less_than", "less_than_equal")
 
 
 def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
@@ -273,7 +376,14 @@ def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
     message = err["msg"].removeprefix("Value error, ")
     if kind == "value_error" or not loc or kind.startswith("model"):
         return StudyError(message, file=shown, line=line, key=dotted or None)
-    return StudyError(f"{message}; got {value!r}", file=shown, line=line, key=dotted, value=value)
+    valid = _valid_range(loc) if kind in _BOUNDS or kind == "finite_number" else None
+    if kind == "float_type" and isinstance(value, int) and not isinstance(value, bool):
+        message = "is too large for a number (the largest magnitude is about 1.8e308)"
+    elif valid and kind == "finite_number":
+        message = f"must be a finite number with {valid}"
+    elif valid:
+        message = f"must be {valid}"
+    return StudyError(f"{message}; got {_got(value)}", file=shown, line=line, key=dotted, value=value)
 
 
 def _defaults(model: BaseModel, prefix: str = "") -> list:
@@ -287,22 +397,77 @@ def _defaults(model: BaseModel, prefix: str = "") -> list:
     return out
 
 
+def _nesting(data) -> int:
+    """Depth of nested tables and arrays (the document itself is 1), counted without recursion.
+
+    Counting stops once the depth passes :data:`MAX_NESTING`.
+    """
+    deepest, stack = 0, [(data, 1)]
+    while stack and deepest <= MAX_NESTING:
+        item, depth = stack.pop()
+        deepest = max(deepest, depth)
+        children = item.values() if isinstance(item, dict) else item
+        stack.extend((c, depth + 1) for c in children if isinstance(c, (dict, list)))
+    return deepest
+
+
+def _read_limited(p: Path, shown: str) -> bytes:
+    """The study file's bytes, refused if over :data:`MAX_STUDY_BYTES` or not a regular file."""
+    from .csvdata import read_limited
+
+    try:
+        st = os.stat(p)
+    except FileNotFoundError:
+        raise StudyError("study file not found", file=shown) from None
+    except OSError as exc:
+        raise StudyError(f"study file cannot be read ({exc.strerror})", file=shown) from None
+    if not stat.S_ISREG(st.st_mode):
+        raise StudyError("is not a regular file", file=shown)
+    if st.st_size > MAX_STUDY_BYTES:
+        raise StudyError(f"is {st.st_size} bytes, over the limit of {MAX_STUDY_BYTES} bytes for a study file",
+                         file=shown)
+    try:
+        with open(p, "rb") as fh:
+            raw = read_limited(fh, MAX_STUDY_BYTES)
+    except OSError as exc:
+        raise StudyError(f"study file cannot be read ({exc.strerror})", file=shown) from None
+    if raw is None:        # it grew after the check
+        raise StudyError(f"is over the limit of {MAX_STUDY_BYTES} bytes for a study file", file=shown)
+    return raw
+
+
+def _parse_toml(text: str, shown: str) -> dict:
+    deep = StudyError(f"is nested more than {MAX_NESTING} levels deep (tables, arrays or dotted keys); "
+                      "refused", file=shown)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise StudyError(f"TOML syntax error: {exc}", file=shown) from None
+    except RecursionError:
+        raise deep from None
+    except ValueError as exc:   # Python's limit on the digits of an integer read from text
+        if "digits" not in str(exc):
+            raise
+        raise StudyError(f"TOML value error: an integer has more than {sys.get_int_max_str_digits()} "
+                         "digits; no key takes such a number", file=shown) from None
+    if _nesting(data) > MAX_NESTING:
+        raise deep
+    return data
+
+
 def read_study_file(path: str | Path) -> StudyFile:
     """Read and validate a study file (the data files are not opened here)."""
     from .csvdata import decode_text  # the same UTF-8 rules as data files
 
     shown = str(path)
+    bad = control_character(shown)
+    if bad:
+        raise StudyError(f"the study file path contains a control character ({bad}); "
+                         "paths must not contain control characters", file=shown)
     p = Path(path)
-    if not p.exists():
-        raise StudyError("study file not found", file=shown)
-    if not p.is_file():
-        raise StudyError("is not a regular file", file=shown)
-    raw = p.read_bytes()
+    raw = _read_limited(p, shown)
     text = decode_text(raw, shown)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise StudyError(f"TOML syntax error: {exc}", file=shown) from None
+    data = _parse_toml(text, shown)
     try:
         config = StudyConfig.model_validate(data)
     except ValidationError as exc:

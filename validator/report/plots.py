@@ -5,6 +5,9 @@ bands, residuals, Q-Q coordinates, back-calculated deviations); nothing is
 estimated here. Series are told apart by marker shape and line style as well
 as colour, so the figures survive greyscale printing. The SVG is made
 reproducible: fixed hash salt (stable element ids) and no date metadata.
+
+Every text is drawn literally: units and names come from the user, so
+matplotlib's mathtext (``$...$``) and TeX are switched off for all figures.
 """
 
 from __future__ import annotations
@@ -40,6 +43,9 @@ _RC = {
     "axes.spines.top": False,
     "axes.spines.right": False,
     "figure.dpi": 100,
+    # user-supplied units and names are literal text: "$\frac{$" is drawn as typed, never parsed
+    "text.parse_math": False,
+    "text.usetex": False,
 }
 
 
