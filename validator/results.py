@@ -77,7 +77,9 @@ def _calibration(a):
         "r_squared": num(fit.r_squared),
         "r": num(r),
         "lack_of_fit": _test(cal.lack_of_fit),
-        "mandel": _test(cal.mandel),
+        "mandel": None if not cal.mandel.applicable else {**_test(cal.mandel), "weighting": cal.mandel_weighting},
+        "choice_steps": [{"step": c.step, "model": c.model, "weighting": c.weighting, "outcome": c.outcome}
+                         for c in cal.choice_steps],
         "normality": _test(cal.normality, True),
         "heteroscedasticity": _test(cal.heteroscedasticity, True),
         "levene": _test(cal.levene, True),
