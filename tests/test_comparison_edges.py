@@ -282,3 +282,73 @@ def test_cusum_not_applicable_when_all_points_on_one_side():
     res = passing_bablok(x, 2 * x + 1)          # every point on the line
     assert res.cusum_statistic is None and "on the line" in res.cusum_reason
     assert (res.slope, res.intercept) == (2.0, 1.0)
+
+
+def _exact_pb_full(x, y, alpha=0.05):
+    """Passing & Bablok (1983) entirely in Fractions, ties and slopes of -1 included."""
+    xf, yf = [Fraction(v) for v in x], [Fraction(v) for v in y]
+    finite, inf = [], []
+    for i, j in itertools.combinations(range(len(xf)), 2):
+        dx, dy = xf[j] - xf[i], yf[j] - yf[i]
+        if dx == 0 and dy == 0:
+            continue
+        if dx == 0:
+            inf.append(1 if dy > 0 else -1)
+        elif dy / dx != -1:
+            finite.append(dy / dx)
+    K = sum(s < -1 for s in finite) + inf.count(-1)
+    ranked = [(-1, None)] * inf.count(-1) + [(0, s) for s in sorted(finite)] + [(1, None)] * inf.count(1)
+    N = len(ranked)
+
+    def order(k):
+        kind, value = ranked[k - 1]
+        return value if kind == 0 else kind * math.inf
+
+    if ((N + 1) // 2 if N % 2 else N // 2 + 1) + K > N:
+        return None, None, K, N                        # the shifted median does not exist
+    b = order((N + 1) // 2 + K) if N % 2 else (order(N // 2 + K) + order(N // 2 + 1 + K)) / 2
+    C = stats.norm.ppf(1 - alpha / 2) * math.sqrt(len(x) * (len(x) - 1) * (2 * len(x) + 5) / 18)
+    M1 = round((N - C) / 2)
+    M2 = N - M1 + 1
+    ci = (order(M1 + K), order(M2 + K)) if M1 + K >= 1 and M2 + K <= N else None
+    return b, ci, K, N
+
+
+def test_order_statistics_and_minus_one_are_exact():
+    # exact arithmetic with fractions on 1-decimal data: many ties, slopes of exactly -1
+    rng = np.random.default_rng(7)
+    checked = minus_one = 0
+    for _ in range(300):
+        n = int(rng.integers(5, 12))
+        x = np.round(rng.uniform(0, 3, n), 1)
+        y = np.round(x * rng.choice([1.0, -1.0, 0.3]) + rng.uniform(-0.5, 0.5, n), 1)
+        if np.unique(x).size < 3:
+            continue
+        res = passing_bablok(x, y)
+        b, ci, K, N = _exact_pb_full(list(x), list(y))
+        assert (res.n_slopes, res.offset_k) == (N, K)
+        minus_one += any(float(Fraction(y[j]) - Fraction(y[i])) == -float(Fraction(x[j]) - Fraction(x[i]))
+                         for i, j in itertools.combinations(range(n), 2) if x[i] != x[j])
+        if res.slope is None:
+            assert not isinstance(b, Fraction)
+            continue
+        assert isinstance(b, Fraction) and res.slope == float(b)
+        if ci is None:
+            assert res.slope_ci is None and "does not exist" in res.ci_reason
+        elif res.slope_ci is not None:
+            assert (res.slope_ci.low, res.slope_ci.high) == (float(ci[0]), float(ci[1]))
+        else:
+            assert "unbounded" in res.ci_reason and math.inf in map(abs, ci)
+        checked += 1
+    assert checked >= 150 and minus_one >= 20
+
+
+def test_large_tied_comparison_is_fast_enough():
+    # 1000 identical-method pairs: 499500 slopes, all exactly 1 (hand computation)
+    import time
+    x = np.arange(1.0, 1001.0)
+    start = time.perf_counter()
+    res = passing_bablok(x, x.copy())
+    assert (res.slope, res.intercept) == (1.0, 0.0)
+    assert (res.slope_ci.low, res.slope_ci.high) == (1.0, 1.0)
+    assert time.perf_counter() - start < 30          # generous: 2 shared cores; about 1 s alone

@@ -98,40 +98,63 @@ def _exact_slope(x, y, i, j):
     return dy / dx
 
 
+def _two_diff(a, b):
+    """a - b as an unevaluated sum hi + lo of two floats, exactly (Knuth's TwoSum).
+
+    hi = fl(a - b) and |lo| <= ulp(hi)/2, so equal differences have equal (hi, lo) and
+    differences compare lexicographically on (hi, lo).
+    """
+    hi = a - b
+    bb = hi - a
+    lo = (a - (hi - bb)) + (-b - bb)
+    return hi, lo
+
+
+def _dd_less(a_hi, a_lo, b_hi, b_lo):
+    return (a_hi < b_hi) | ((a_hi == b_hi) & (a_lo < b_lo))
+
+
 class _Slopes:
     """The pairwise slopes, sorted in floating point, with exact order statistics on request.
 
     A float slope fl(fl(dy)/fl(dx)) is within 2 units of the last place of the exact slope of
     the float inputs, so the float order differs from the exact one only among slopes within
     that distance of each other. An order statistic is taken from the float sort and then
-    decided exactly among the slopes within a relative band of 1e-9 around it.
+    decided exactly (``fractions.Fraction``) among the slopes within a relative band of 1e-9
+    around it; pairs with the same exact differences dy and dx share one computation. When
+    more than ``EXACT_MAX`` distinct slopes fall in that band, the float order is kept among
+    them (they differ by less than 1e-9 relative) and the chosen slope is the exact slope of
+    the pair at that float rank. Slopes equal to or below -1 are always decided exactly.
     """
 
     BAND = 1e-9
+    EXACT_MAX = 20000
 
     def __init__(self, x, y):
         self.x, self.y = x, y
         i, j = np.triu_indices(x.size, k=1)
         keep = ~((x[j] == x[i]) & (y[j] == y[i]))       # identical pairs carry no information
         i, j = i[keep], j[keep]
-        dx, dy = x[j] - x[i], y[j] - y[i]
+        dx_hi, dx_lo = _two_diff(x[j], x[i])
+        dy_hi, dy_lo = _two_diff(y[j], y[i])
         with quiet_numpy():
-            s = np.where(dx == 0, np.sign(dy) * np.inf, dy / np.where(dx == 0, 1.0, dx))
-        # slopes of exactly -1 are excluded and K counts slopes below -1 [PB1983]; decided
-        # exactly for the slopes whose float value is near -1
-        near = np.isfinite(s) & (np.abs(s + 1.0) <= self.BAND)
-        exact_near = {int(k): _exact_slope(x, y, i[k], j[k]) for k in np.flatnonzero(near)}
-        drop = np.zeros(s.size, bool)
-        below = s < -1.0
-        for k, v in exact_near.items():
-            drop[k] = v == -1
-            below[k] = v < -1
-        keep = ~drop
+            s = np.where(dx_hi == 0, np.sign(dy_hi) * np.inf, dy_hi / np.where(dx_hi == 0, 1.0, dx_hi))
+        # slopes of exactly -1 are excluded and K counts slopes below -1 [PB1983]: with the
+        # exact differences, dy/dx = -1 iff dy = -dx, and dy/dx < -1 iff dy < -dx (dx > 0)
+        # or dy > -dx (dx < 0); for dx = 0 the slope is +-inf
+        finite = dx_hi != 0
+        minus_one = finite & (dy_hi == -dx_hi) & (dy_lo == -dx_lo)
+        lt = _dd_less(dy_hi, dy_lo, -dx_hi, -dx_lo)
+        gt = _dd_less(-dx_hi, -dx_lo, dy_hi, dy_lo)
+        below = np.where(finite, np.where(dx_hi > 0, lt, gt), s < 0)
+        keep = ~minus_one
         self.offset_k = int(np.sum(below & keep))
-        s, i, j = s[keep], i[keep], j[keep]
-        order = np.argsort(s, kind="stable")
+        keep_idx = np.flatnonzero(keep)
+        order = keep_idx[np.argsort(s[keep], kind="stable")]
         self.s, self.i, self.j = s[order], i[order], j[order]
+        self.key = np.column_stack([dy_hi[order], dy_lo[order], dx_hi[order], dx_lo[order]])
         self.n = int(self.s.size)
+        self._bands = {}
 
     def order_statistic(self, k: int):
         """The k-th smallest slope (1-based), exact as a Fraction, or +-inf."""
@@ -141,8 +164,21 @@ class _Slopes:
         tol = self.BAND * abs(v)
         lo = int(np.searchsorted(self.s, v - tol, side="left"))
         hi = int(np.searchsorted(self.s, v + tol, side="right"))
-        band = sorted(_exact_slope(self.x, self.y, self.i[m], self.j[m]) for m in range(lo, hi))
-        return band[k - 1 - lo]
+        if (lo, hi) not in self._bands:                  # the median and the limits often share a band
+            uniq, inverse = np.unique(self.key[lo:hi], axis=0, return_inverse=True)
+            if len(uniq) > self.EXACT_MAX:
+                self._bands[lo, hi] = None
+            else:
+                values = [(Fraction(float(a)) + Fraction(float(b))) / (Fraction(float(c)) + Fraction(float(d)))
+                          for a, b, c, d in uniq]
+                counts = np.bincount(inverse.ravel(), minlength=len(values))
+                order = sorted(range(len(values)), key=lambda m: values[m])
+                self._bands[lo, hi] = ([values[m] for m in order], np.cumsum(counts[order]))
+        band = self._bands[lo, hi]
+        if band is None:
+            return _exact_slope(self.x, self.y, self.i[k - 1], self.j[k - 1])
+        values, upto = band
+        return values[int(np.searchsorted(upto, k - lo, side="left"))]   # rank k - lo inside the band
 
 
 def _median_exact(values):
