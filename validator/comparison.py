@@ -475,11 +475,17 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
                        excluded, note)
 
 
+def _rule(limits, ideal, name):
+    if limits is not None:
+        return f"{name} CI inside [{limits[0]:g}, {limits[1]:g}]"
+    return f"{name} CI contains {ideal:g}"
+
+
 def _judge(ci, limits, ideal, name):
     """CI inside the limits where given, else the CI contains the ideal value."""
     if limits is not None:
-        return limits[0] <= ci.low and ci.high <= limits[1], f"{name} CI inside [{limits[0]:g}, {limits[1]:g}]"
-    return ci.contains(ideal), f"{name} CI contains {ideal:g}"
+        return limits[0] <= ci.low and ci.high <= limits[1], _rule(limits, ideal, name)
+    return ci.contains(ideal), _rule(limits, ideal, name)
 
 
 @dataclass(frozen=True)
@@ -516,8 +522,9 @@ def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits
     ba = bland_altman(x, y, alpha, percentage)
     common = (x.size, tuple(samples), tuple(map(float, x)), tuple(map(float, y)), pb, dm, ba)
     if pb.slope_ci is None or pb.intercept_ci is None:
-        reason = f"Passing-Bablok: {pb.reason or pb.ci_reason}"
-        return ComparisonResult(*common, None, f"not applicable: {reason}", reason, 1 - alpha)
+        rule = (f"Passing-Bablok: {_rule(slope_limits, 1.0, 'slope')} and "
+                f"{_rule(intercept_limits, 0.0, 'intercept')}")
+        return ComparisonResult(*common, None, rule, f"Passing-Bablok: {pb.reason or pb.ci_reason}", 1 - alpha)
     ok_slope, slope_basis = _judge(pb.slope_ci, slope_limits, 1.0, "slope")
     ok_icpt, icpt_basis = _judge(pb.intercept_ci, intercept_limits, 0.0, "intercept")
     return ComparisonResult(*common, bool(ok_slope and ok_icpt), f"Passing-Bablok: {slope_basis} and {icpt_basis}",
