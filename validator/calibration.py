@@ -38,7 +38,7 @@ from ._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
 from .regression import PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
-    "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate",
+    "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
     "SampleResult", "analyse_calibration", "quantify", "lack_of_fit", "mandel_test",
     "choose_weighting", "back_calculate",
 ]
@@ -73,6 +73,16 @@ class WeightingCandidate:
 
 
 @dataclass(frozen=True)
+class ChoiceStep:
+    """One recorded step of the model/weighting choice (see :func:`analyse_calibration`)."""
+
+    step: str          # "weighting" | "mandel" | "model"
+    model: str         # the model the step was computed for ("linear", "quadratic", "origin")
+    weighting: str     # the weighting the step chose or was computed under
+    outcome: str       # what the step found, in words
+
+
+@dataclass(frozen=True)
 class CalibrationResult:
     """Everything known about one analyte's calibration."""
 
@@ -96,6 +106,8 @@ class CalibrationResult:
     studentised_limit: float | None
     cooks_limit: float | None
     diagnostics: tuple             # sentences about degenerate data
+    mandel_weighting: str | None = None   # the weighting Mandel's test was computed under
+    choice_steps: tuple = ()       # ChoiceStep, in the order they were taken
 
 
 def _levels(x):
@@ -298,6 +310,20 @@ def _intercept_test(fit: PolynomialFit) -> TestResult:
     return TestResult(method, c.statistic, c.pvalue, (fit.df_resid,))
 
 
+_MODEL_WORDS = {"linear": "straight line", "quadratic": "quadratic", "origin": "line through the origin"}
+
+
+def _weighting_words(wt: str) -> str:
+    return "unweighted" if wt == "none" else f"weighting {wt}"
+
+
+def _mandel_outcome(mandel: TestResult, alpha: float) -> str:
+    if not mandel.applicable:
+        return f"not applicable: {mandel.reason}"
+    verdict = "significant" if mandel.pvalue < alpha else "not significant"
+    return f"F = {mandel.statistic:.6g}, p = {mandel.pvalue:.3g}: {verdict} at alpha = {alpha:g}"
+
+
 def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
                         through_origin: bool = False, alpha: float = 0.05,
                         tolerance_pct: float = 15.0, lowest_tolerance_pct: float = 20.0
@@ -307,6 +333,27 @@ def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
     ``model`` may be "auto" (Mandel's test at ``alpha`` decides between
     straight line and quadratic) and ``weighting`` may be "auto" (see
     :func:`choose_weighting`).
+
+    Notes
+    -----
+    The automatic choice is one fixed sequence, recorded step by step in
+    ``choice_steps``:
+
+    1. weighting "auto": choose the weighting for the straight line
+       (:func:`choose_weighting`); otherwise use the declared weighting;
+    2. model "auto": Mandel's test under that weighting; p < alpha selects
+       the quadratic, otherwise the straight line stays;
+    3. if the quadratic was selected and the weighting is "auto", choose the
+       weighting again, now for the quadratic (this is the weighting of the
+       final fit, ``weighting``);
+    4. ``mandel`` is the test of step 2 and ``mandel_weighting`` the weighting
+       it was computed under, which differs from ``weighting`` when step 3
+       changed it. The test is not re-run after step 3: the model decision
+       was taken on step 2, and a re-run could contradict the decision.
+
+    With a declared model the weighting is chosen for that model (the line
+    through the origin when ``through_origin``) and Mandel's test is
+    reported for information under the weighting of the fit.
     """
     x = np.asarray(x, float)
     y = np.asarray(y, float)
@@ -315,27 +362,53 @@ def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
     if np.ptp(y) == 0:
         diagnostics.append("every response is the same: the method does not respond to concentration")
 
-    wt = weighting
-    candidates = ()
-    base_model = "origin" if through_origin else "linear"
-    if weighting == "auto":
-        wt, candidates = choose_weighting(x, y, base_model, alpha)
-    mandel = mandel_test(x, y, wt if wt != "auto" else "none", alpha) if not through_origin else \
-        not_applicable("Mandel's fitting test", "the line is forced through the origin")
+    wt, candidates, steps = weighting, (), []
+    mandel_wt = None
+
+    def pick_weighting(for_model):
+        best, cands = choose_weighting(x, y, for_model, alpha)
+        steps.append(ChoiceStep("weighting", for_model, best,
+                                f"{best} has the smallest sum of |relative error| of back-calculation "
+                                f"for the {_MODEL_WORDS[for_model]}"))
+        return best, cands
+
     chosen = model
     model_choice = f'as declared (model = "{model}")'
-    if model == "auto":
+    if through_origin:
+        mandel = not_applicable("Mandel's fitting test", "the line is forced through the origin")
+        if model == "auto":
+            chosen = "linear"
+            model_choice = ("straight line, because Mandel's test is not applicable "
+                            "(the line is forced through the origin)")
+        if weighting == "auto":
+            wt, candidates = pick_weighting("origin")
+    elif model == "auto":
+        # (a) weighting for the straight line, (b) Mandel's test under it, (c) if the quadratic
+        # wins, the weighting is chosen again for the quadratic; Mandel's F stays the one of (b)
+        # and is reported with the weighting of (b)
+        if weighting == "auto":
+            wt, candidates = pick_weighting("linear")
+        mandel, mandel_wt = mandel_test(x, y, wt, alpha), wt
+        steps.append(ChoiceStep("mandel", "linear", wt, _mandel_outcome(mandel, alpha)))
         if mandel.applicable and mandel.pvalue < alpha:
             chosen = "quadratic"
-            model_choice = (f"quadratic, because Mandel's test is significant "
+            model_choice = (f"quadratic, because Mandel's test ({_weighting_words(wt)}) is significant "
                             f"(p = {mandel.pvalue:.3g} < alpha = {alpha:g})")
         else:
             chosen = "linear"
-            model_choice = ("straight line, because Mandel's test is not significant"
+            model_choice = (f"straight line, because Mandel's test ({_weighting_words(wt)}) is not significant"
                             if mandel.applicable else
                             f"straight line, because Mandel's test is not applicable ({mandel.reason})")
+        steps.append(ChoiceStep("model", chosen, wt, model_choice))
         if weighting == "auto" and chosen == "quadratic":
-            wt, candidates = choose_weighting(x, y, "quadratic", alpha)
+            wt, candidates = pick_weighting("quadratic")
+    else:
+        # declared model: the weighting is chosen for that model; Mandel's test is reported
+        # for information under the weighting of the fit
+        if weighting == "auto":
+            wt, candidates = pick_weighting(model)
+        mandel, mandel_wt = mandel_test(x, y, wt, alpha), wt
+        steps.append(ChoiceStep("mandel", "linear", wt, _mandel_outcome(mandel, alpha)))
     fit_model = "origin" if through_origin else chosen
     fit = fit_polynomial(x, y, model=fit_model, weighting=wt, alpha=alpha)
     if fit.exact:
@@ -354,7 +427,8 @@ def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
             heteroscedasticity=_breusch_pagan(x, y, fit_model), levene=_levene(x, y),
             intercept_test=_intercept_test(fit), back_calculated=back,
             fraction_within_tolerance=fraction, outliers=outliers,
-            studentised_limit=t_limit, cooks_limit=d_limit, diagnostics=tuple(diagnostics))
+            studentised_limit=t_limit, cooks_limit=d_limit, diagnostics=tuple(diagnostics),
+            mandel_weighting=mandel_wt if mandel.applicable else None, choice_steps=tuple(steps))
     return result
 
 

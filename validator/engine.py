@@ -198,7 +198,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         comparison = assess_comparison(ids, ref, test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
                                        intercept_limits=cc.intercept_limits,
                                        percentage=cc.percentage_differences, alpha=alpha)
-        criteria.append(Criterion("method-comparison", comparison.basis, None, None, comparison.passed))
+        criteria.append(Criterion("method-comparison", comparison.basis, None, None, comparison.passed,
+                                  "" if comparison.passed is not None else f"not applicable: {comparison.reason}"))
     if data.previous is not None:
         rc = config.revalidation
         reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),

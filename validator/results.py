@@ -77,7 +77,9 @@ def _calibration(a):
         "r_squared": num(fit.r_squared),
         "r": num(r),
         "lack_of_fit": _test(cal.lack_of_fit),
-        "mandel": _test(cal.mandel),
+        "mandel": None if not cal.mandel.applicable else {**_test(cal.mandel), "weighting": cal.mandel_weighting},
+        "choice_steps": [{"step": c.step, "model": c.model, "weighting": c.weighting, "outcome": c.outcome}
+                         for c in cal.choice_steps],
         "normality": _test(cal.normality, True),
         "heteroscedasticity": _test(cal.heteroscedasticity, True),
         "levene": _test(cal.levene, True),
@@ -215,23 +217,35 @@ def _revalidation(r, previous):
     }
 
 
+def _ci_or_none(ci):
+    return None if ci is None else _ci(ci)
+
+
 def _comparison(c):
     if c is None:
         return None
     pb, dm, ba = c.passing_bablok, c.deming, c.bland_altman
     return {
         "n": c.n,
-        "passing_bablok": {"slope": num(pb.slope), "slope_ci": _ci(pb.slope_ci), "intercept": num(pb.intercept),
-                           "intercept_ci": _ci(pb.intercept_ci), "cusum_p_value": num(pb.cusum_pvalue),
-                           "cusum_statistic": num(pb.cusum_statistic), "offset_k": pb.offset_k},
-        "deming": {"slope": num(dm.slope), "slope_ci": _ci(dm.slope_ci), "intercept": num(dm.intercept),
-                   "intercept_ci": _ci(dm.intercept_ci), "error_ratio": num(dm.error_ratio),
-                   "slope_se": num(dm.slope_se), "intercept_se": num(dm.intercept_se)},
-        "bland_altman": {"bias": num(ba.bias), "bias_ci": _ci(ba.bias_ci), "sd": num(ba.sd),
-                         "limits": [num(v) for v in ba.limits], "lower_limit_ci": _ci(ba.lower_limit_ci),
-                         "upper_limit_ci": _ci(ba.upper_limit_ci), "percentage": ba.percentage},
-        "verdict": "pass" if c.passed else "fail",
+        "level": c.level,
+        "passing_bablok": {"slope": num(pb.slope), "slope_ci": _ci_or_none(pb.slope_ci), "intercept": num(pb.intercept),
+                           "intercept_ci": _ci_or_none(pb.intercept_ci), "cusum_p_value": num(pb.cusum_pvalue),
+                           "cusum_statistic": num(pb.cusum_statistic), "offset_k": pb.offset_k,
+                           "n_slopes": pb.n_slopes, "reason": pb.reason, "ci_reason": pb.ci_reason,
+                           "min_n_for_ci": pb.min_n_for_ci, "cusum_reason": pb.cusum_reason,
+                           "cusum_p_value_method": pb.cusum_pvalue_method},
+        "deming": {"slope": num(dm.slope), "slope_ci": _ci_or_none(dm.slope_ci), "intercept": num(dm.intercept),
+                   "intercept_ci": _ci_or_none(dm.intercept_ci), "error_ratio": num(dm.error_ratio),
+                   "slope_se": num(dm.slope_se), "intercept_se": num(dm.intercept_se), "reason": dm.reason},
+        "bland_altman": {"bias": num(ba.bias), "bias_ci": _ci_or_none(ba.bias_ci), "sd": num(ba.sd),
+                         "limits": None if ba.limits is None else [num(v) for v in ba.limits],
+                         "lower_limit_ci": _ci_or_none(ba.lower_limit_ci),
+                         "upper_limit_ci": _ci_or_none(ba.upper_limit_ci), "percentage": ba.percentage,
+                         "n": ba.n, "reason": ba.reason,
+                         "excluded_samples": [c.samples[i] for i in ba.excluded], "note": ba.note},
+        "verdict": {True: "pass", False: "fail", None: "not applicable"}[c.passed],
         "basis": c.basis,
+        "reason": c.reason,
         "data": [{"sample": s, "reference": num(x), "test": num(y)} for s, x, y in zip(c.samples, c.reference, c.test)],
     }
 

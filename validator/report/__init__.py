@@ -15,6 +15,7 @@ from pathlib import Path
 
 import jinja2
 
+from ..comparison import percentage_differences
 from .plots import PALETTE, figures_for_all
 from .text import SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, verdict_label
 
@@ -93,9 +94,10 @@ def _change_data(a, entry: dict) -> dict:
         ba = c.bland_altman
         out["comparison"] = {
             "reference": list(c.reference), "test": list(c.test),
-            "differences": [100 * (y - x) / ((x + y) / 2) if ba.percentage else y - x
-                            for x, y in zip(c.reference, c.test)],
-            "bias": ba.bias, "limits": list(ba.limits), "percentage": ba.percentage,
+            # a pair without a percentage difference (mean 0) is NaN: not drawn
+            "differences": (list(map(float, percentage_differences(c.reference, c.test))) if ba.percentage
+                            else [y - x for x, y in zip(c.reference, c.test)]),
+            "bias": ba.bias, "limits": None if ba.limits is None else list(ba.limits), "percentage": ba.percentage,
             "pb_a": c.passing_bablok.intercept, "pb_b": c.passing_bablok.slope,
             "dm_a": c.deming.intercept, "dm_b": c.deming.slope}
     return out

@@ -78,7 +78,8 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
         out["mandel"] = f"Mandel's fitting test was not applicable: {_reason(a, 'mandel')}."
     else:
         better = "fits significantly better" if _sig(m["p_value"], alpha) else "does not fit significantly better"
-        out["mandel"] = (f"Mandel's fitting test gives F = {fmt(m['statistic'])} on (1, {m['df'][1]}) df, "
+        under = "unweighted fits" if m["weighting"] == "none" else f"fits weighted {m['weighting']}"
+        out["mandel"] = (f"Mandel's fitting test ({under}) gives F = {fmt(m['statistic'])} on (1, {m['df'][1]}) df, "
                          f"p = {fmt_p(m['p_value'])}: a second-order polynomial {better} than a straight line "
                          f"at alpha = {alpha:g}.")
     nt = cal["normality"]
