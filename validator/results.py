@@ -283,6 +283,7 @@ def build_results(result, *, generated_at: str) -> dict:
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
                          "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},
+            "change_ci_level": 1 - 2 * loaded.config.criteria.alpha,
             "matched_analytes": [{"analyte": new, "previous_analyte": old} for new, old in loaded.previous.matched],
             "unmatched_analytes": list(loaded.previous.unmatched)},
     }
