@@ -462,9 +462,8 @@ def _previous(reader, analytes):
         raise DataError("is not a results.json written by validator (no schema_version at the top level)",
                         file=path)
     version = previous["schema_version"]
-    if not isinstance(version, str) or version.split(".")[0] != "1":
-        shown = str(version)[:40]
-        raise DataError(f'has schema version "{shown}"; this validator reads version 1.x', file=path)
+    if isinstance(version, str) and version.split(".")[0] != "1":       # other types: the schema names them
+        raise DataError(f'has schema version "{version[:40]}"; this validator reads version 1.x', file=path)
     _check_schema(previous, path)
     unit = previous["study"]["concentration_unit"]
     current_unit = reader.study.config.study.concentration_unit

@@ -111,11 +111,11 @@ def compare_slopes(previous, current, margin_pct: float, alpha: float = 0.05, *,
     p = int(n_params)
     df = int(n1 + n2 - 2 * p)
     with quiet_numpy():
-        pooled = ((n1 - p) * s1**2 + (n2 - p) * s2**2) / df
+        pooled = ((n1 - p) * s1**2 + (n2 - p) * s2**2) / df if df > 0 else float("nan")
         unscaled = (se1 / s1) ** 2 + (se2 / s2) ** 2 if s1 > 0 and s2 > 0 else float("nan")
     if not (df > 0 and np.isfinite(unscaled) and b1 != 0):
         reason = ("the previous slope is zero" if b1 == 0 else
-                  "a residual SD is zero, so the slope standard errors give no pooled variance")
+                  "a residual SD or slope standard error is zero or missing, so no pooled variance exists")
         return SlopeComparison(b1, b2, None, None, None, max(df, 0), None, margin_pct, "not applicable",
                                reason=reason)
     se = float(np.sqrt(pooled * unscaled))
@@ -299,7 +299,8 @@ def _fallback(previous: dict, current_fit: PolynomialFit, margin_pct, alpha):
                                 "the previous results.json lacks the raw calibration points that the comparison "
                                 "of curves needs")
     else:
-        prev = (pc["coefficients"]["slope"]["estimate"], pc["coefficients"]["slope"]["std_error"] or 0.0,
+        se = pc["coefficients"]["slope"]["std_error"]
+        prev = (pc["coefficients"]["slope"]["estimate"], float("nan") if se is None else se,
                 pc["residual_sd"], pc["n"])
         cur = (current_fit.coefficients["slope"].estimate, current_fit.coefficients["slope"].std_error,
                current_fit.residual_sd, current_fit.n)
