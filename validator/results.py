@@ -20,7 +20,7 @@ from . import __version__
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
 
 SCHEMA_VERSION = "1.0"
-LIBRARIES = ("numpy", "scipy", "statsmodels", "matplotlib", "jinja2", "weasyprint", "pydantic")
+LIBRARIES = ("numpy", "scipy", "statsmodels", "matplotlib", "jinja2", "weasyprint", "pydantic", "jsonschema")
 
 
 def library_versions() -> dict:
