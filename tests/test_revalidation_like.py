@@ -380,3 +380,61 @@ def test_alpha_001_labels_the_change_interval_98_percent(tmp_path):
     assert any("98 % CI" in r for r in rv["reasons"])
     criterion = next(c for c in results["analytes"][0]["criteria"] if c["id"] == "slope-equivalence")
     assert criterion["description"].startswith("98 % CI")
+
+
+# --- fuzzing: any mutation of a previous results.json gives exit 0, 1 or 2, never 3 ------------------
+
+def _leaves(node, path=()):
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from _leaves(v, path + (k,))
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield from _leaves(v, path + (i,))
+    else:
+        yield path
+
+
+def test_mutated_previous_results_never_crash(tmp_path_factory):
+    # property: a damaged previous file is an input error (2) or is used (0/1); an internal error (3) never
+    from hypothesis import HealthCheck, given, settings
+    from hypothesis import strategies as st
+
+    base = json.loads(EXAMPLE_PREVIOUS.read_text())
+    leaves = [p for p in _leaves(base) if p and p[0] in ("analytes", "study", "schema_version")]
+    values = st.one_of(st.none(), st.booleans(), st.integers(-10**6, 10**6),
+                       st.floats(allow_nan=False, allow_infinity=False), st.text(max_size=5),
+                       st.just([]), st.just({}), st.just([[1.0]]), st.sampled_from([0.0, -1.0, 1e300, 5e-324]))
+    x = np.repeat([0.5, 1, 2, 5, 10], 2).astype(float)
+    y = 0.187 * x * (1 + 0.01 * np.sin(np.arange(x.size)))
+
+    @settings(max_examples=40, deadline=None, suppress_health_check=list(HealthCheck), derandomize=True)
+    @given(st.lists(st.tuples(st.sampled_from(leaves), values), min_size=1, max_size=3))
+    def run(mutations):
+        doc = json.loads(json.dumps(base))
+        for path, value in mutations:
+            _set(doc, path, value)
+        folder = tmp_path_factory.mktemp("fuzz")
+        (folder / "prev.json").write_text(json.dumps(doc))
+        (folder / "cal.csv").write_text(_calibration_csv(x, y))
+        (folder / "study.toml").write_text(_head("nitrate") + '[calibration]\ndata = "cal.csv"\n'
+                                           '[revalidation]\nprevious = "prev.json"\n')
+        assert main(["run", str(folder / "study.toml"), "--out", str(folder / "o"), "--format", "json"]) in (0, 1, 2)
+
+    run()
+
+
+@pytest.mark.parametrize("change, json_path", [
+    ((_CAL + ["n"], 1e300), "$.analytes[0].calibration.n"),                       # "integer" admits 1e300
+    ((_CAL + ["back_calculated", 2, "nominal"], 1e-300), "$.analytes[0].calibration.back_calculated"),
+    ((_CAL + ["back_calculated", 2, "nominal"], -1.0), "$.analytes[0].calibration.back_calculated[2].nominal"),
+])
+def test_schema_valid_but_unusable_previous_points_exit_2(tmp_path, capsys, change, json_path):
+    # 1/x^2 of 1e-300 overflows; a negative concentration has no 1/x^2 weight (nitrate is fitted 1/x^2)
+    doc = json.loads(EXAMPLE_PREVIOUS.read_text())
+    _set(doc, *change)
+    (tmp_path / "prev.json").write_text(json.dumps(doc))
+    x, y = _fourteen_points()
+    code, _ = _current(tmp_path, tmp_path / "prev.json", x, y, study_id="nitrate")
+    err = capsys.readouterr().err
+    assert code == 2 and err.count("\n") == 1 and f"at JSON path {json_path}:" in err, err

@@ -397,6 +397,31 @@ def _match(current: list, previous: list, mapping: dict, study_path: str) -> lis
 _NEEDS_POSITIVE = {"1/x": "concentration", "1/x^2": "concentration", "1/y": "response", "1/y^2": "response"}
 
 
+def _fit_problem(x: np.ndarray, y: np.ndarray, weighting: str, n_params: int) -> str | None:
+    """Why a least-squares fit with this weighting cannot be computed on these points, or None.
+
+    Checks what the fit needs: enough points and distinct levels (levels closer than 1e-9
+    of the range count as one), weights 1/v^k that are finite and positive, and weighted
+    sums of squares that do not overflow.
+    """
+    levels = np.unique(x)
+    spread = float(levels[-1] - levels[0]) if levels.size else 0.0
+    distinct = 1 + int(np.sum(np.diff(levels) > 1e-9 * spread)) if levels.size else 0
+    if n_params == 1:
+        distinct = int(np.any(x != 0))
+    if x.size <= n_params or distinct < n_params:
+        return f"{x.size} points at {distinct} distinct levels are too few for {n_params} coefficients"
+    with np.errstate(all="ignore"):
+        base = {"1/x": x, "1/x^2": x, "1/y": y, "1/y^2": y}.get(weighting)
+        raw = np.ones_like(x) if base is None else 1.0 / base ** (2 if weighting.endswith("^2") else 1)
+        sums = (np.sum(raw), np.sum(raw * x * x), np.sum(raw * y * y))
+    if not (np.all(np.isfinite(raw)) and np.all(raw > 0)):
+        return f"weighting {weighting} gives weights that are not finite positive numbers"
+    if not all(np.isfinite(v) and v > 0 for v in sums[:1]) or not all(np.isfinite(v) for v in sums[1:]):
+        return "the values are too large or too small for a least-squares fit"
+    return None
+
+
 def _check_refit(reader, name: str, index: int, entry: dict, data: CalibrationData, prev_path: str):
     """The previous run's calibration function must be computable on both runs' points.
 
@@ -408,20 +433,23 @@ def _check_refit(reader, name: str, index: int, entry: dict, data: CalibrationDa
     n_params = 1 if origin else {"linear": 2, "quadratic": 3}[model]
     what = _NEEDS_POSITIVE.get(weighting)
     cal_path = reader.study.config.calibration.data
+    function = f'the previous validation\'s calibration function ({prev_path}, analyte "{entry["name"]}")'
     if what:
         values = data.concentration if what == "concentration" else data.response
         bad = np.flatnonzero(~(values > 0))
         if bad.size:
             i = int(bad[0])
-            raise DataError(f"{what} {values[i]:g} cannot be weighted by {weighting}, the weighting of the "
-                            f'previous validation ({prev_path}, analyte "{entry["name"]}") with which this '
-                            "run's points are refitted for the comparison", file=cal_path, row=data.rows[i],
-                            column=what, value=values[i])
-    if np.unique(data.concentration).size < n_params or data.concentration.size <= n_params:
-        raise DataError(f'analyte "{name}" has too few calibration levels for the previous validation\'s '
-                        f"{model} calibration function ({prev_path})", file=cal_path)
+            raise DataError(f"{what} {values[i]:g} cannot be weighted by {weighting}, the weighting of {function}, "
+                            "with which this run's points are refitted for the comparison", file=cal_path,
+                            row=data.rows[i], column=what, value=values[i])
+    problem = _fit_problem(data.concentration, data.response, weighting, n_params)
+    if problem:
+        raise DataError(f'analyte "{name}" cannot be refitted with {function}: {problem}', file=cal_path)
     rows = cal["back_calculated"]
     base = ["analytes", index, "calibration", "back_calculated"]
+    if not cal["n"] <= 10**9:           # the schema's "integer" also admits 1e300
+        raise DataError(f"is not a consistent results.json: at JSON path {_json_path(base[:-1] + ['n'])}: "
+                        f"{cal['n']!r} is not a plausible number of calibration points", file=prev_path)
     if len(rows) != cal["n"]:
         return                     # no raw points: the comparison falls back to summary statistics
     if what:
@@ -431,9 +459,12 @@ def _check_refit(reader, name: str, index: int, entry: dict, data: CalibrationDa
                 raise DataError(f"is not a consistent results.json: at JSON path {_json_path(base + [i, key])}: "
                                 f"{r[key]!r} cannot be weighted by the recorded weighting {weighting}",
                                 file=prev_path)
-    if len({r["nominal"] for r in rows}) < n_params or len(rows) <= n_params:
-        raise DataError(f"is not a consistent results.json: at JSON path {_json_path(base)}: too few calibration "
-                        f"points for its {model} calibration function", file=prev_path)
+    x = np.array([r["nominal"] for r in rows], float)
+    y = np.array([r["response"] for r in rows], float)
+    problem = _fit_problem(x, y, weighting, n_params)
+    if problem:
+        raise DataError(f"is not a consistent results.json: at JSON path {_json_path(base)}: {problem} "
+                        f"(recorded {model} calibration function, weighting {weighting})", file=prev_path)
 
 
 def _previous(reader, analytes):
