@@ -438,3 +438,23 @@ def test_schema_valid_but_unusable_previous_points_exit_2(tmp_path, capsys, chan
     code, _ = _current(tmp_path, tmp_path / "prev.json", x, y, study_id="nitrate")
     err = capsys.readouterr().err
     assert code == 2 and err.count("\n") == 1 and f"at JSON path {json_path}:" in err, err
+
+
+def test_quadratic_without_previous_points_is_not_applicable_and_not_passed(tmp_path):
+    # "not shown is not passed": no raw points for a curve -> no value, no verdict, a reason in the dossier
+    doc = json.loads(EXAMPLE_PREVIOUS.read_text())
+    assert doc["analytes"][1]["calibration"]["model"] == "quadratic"
+    doc["analytes"][1]["calibration"]["back_calculated"] = []
+    (tmp_path / "prev.json").write_text(json.dumps(doc))
+    x = np.repeat([0.05, 0.1, 0.5, 1, 2], 2)
+    y = 0.38 * x - 0.01 * x**2 + 0.001 * np.cos(np.arange(x.size))
+    code, out = _current(tmp_path, tmp_path / "prev.json", x, y, study_id="fluoride", formats="json,html")
+    a = json.loads((out / "results.json").read_text())["analytes"][0]
+    rv = a["revalidation"]
+    assert rv["basis"] == "summary statistics" and rv["slope"]["verdict"] == "not applicable"
+    assert rv["slope"]["change_pct"] is None and rv["verdict"] == "not shown equivalent"
+    criterion = next(c for c in a["criteria"] if c["id"] == "slope-equivalence")
+    assert criterion["pass"] is None and criterion["value"] is None and "raw calibration points" in criterion["note"]
+    soup = BeautifulSoup((out / "dossier.html").read_text(), "html.parser")
+    assert "was not tested: the previous results.json lacks the raw calibration points" in \
+        soup.select_one("#changes").get_text(" ")
