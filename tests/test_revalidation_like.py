@@ -458,3 +458,33 @@ def test_quadratic_without_previous_points_is_not_applicable_and_not_passed(tmp_
     soup = BeautifulSoup((out / "dossier.html").read_text(), "html.parser")
     assert "was not tested: the previous results.json lacks the raw calibration points" in \
         soup.select_one("#changes").get_text(" ")
+
+
+def test_joint_comparison_is_invariant_to_units_and_row_order():
+    # property: scaling every concentration by k (both runs) and permuting rows change no relative result
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    x1, y1, x2, y2 = _two_runs("quadratic", seed=9)
+
+    @settings(max_examples=25, deadline=None, derandomize=True)
+    @given(st.floats(1e-3, 1e3), st.sampled_from(["none", "1/x", "1/x^2", "1/y"]),
+           st.sampled_from(["linear", "quadratic"]), st.randoms(use_true_random=False))
+    def check(k, weighting, model, rnd):
+        ref = joint_comparison(fit_polynomial(x1, y1, model=model, weighting=weighting),
+                               fit_polynomial(x2, y2, model=model, weighting=weighting), margin_pct=5)
+        order = list(range(x2.size))
+        rnd.shuffle(order)
+        res = joint_comparison(fit_polynomial(k * x1, y1, model=model, weighting=weighting),
+                               fit_polynomial(k * x2[order], y2[order], model=model, weighting=weighting),
+                               margin_pct=5)
+        assert res.slope.df == ref.slope.df
+        assert res.slope.change_pct == pytest.approx(ref.slope.change_pct, rel=1e-7, abs=1e-9)
+        assert res.slope.t_statistic == pytest.approx(ref.slope.t_statistic, rel=1e-7)
+        assert res.slope.previous == pytest.approx(ref.slope.previous / k, rel=1e-7)
+        assert res.residual_sd_current / res.residual_sd_previous == pytest.approx(
+            ref.residual_sd_current / ref.residual_sd_previous, rel=1e-7)
+        lo, hi = (res.slope.change_ci_pct.low, res.slope.change_ci_pct.high)
+        assert lo <= res.slope.change_pct <= hi
+
+    check()
