@@ -276,7 +276,8 @@ _CAL = ["analytes", 0, "calibration"]
 MALFORMED = [
     # (change, JSON path expected in the message); numbers as strings first
     ((_CAL + ["coefficients", "slope", "estimate"], "0.187"), "$.analytes[0].calibration.coefficients.slope.estimate"),
-    ((_CAL + ["coefficients", "slope", "std_error"], "0.001"), "$.analytes[0].calibration.coefficients.slope.std_error"),
+    ((_CAL + ["coefficients", "slope", "std_error"], "0.001"),
+     "$.analytes[0].calibration.coefficients.slope.std_error"),
     ((_CAL + ["residual_sd"], "0.004"), "$.analytes[0].calibration.residual_sd"),
     ((_CAL + ["n"], "21"), "$.analytes[0].calibration.n"),
     ((_CAL + ["df_resid"], "19"), "$.analytes[0].calibration.df_resid"),

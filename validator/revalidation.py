@@ -37,7 +37,7 @@ import numpy as np
 from scipy import stats
 
 from ._common import ConfidenceInterval, quiet_numpy
-from .regression import PolynomialFit, fit_polynomial, raw_weights
+from .regression import PolynomialFit, fit_polynomial
 
 __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "compare_slopes", "residual_sd_ratio",
            "refit_like", "joint_comparison", "assess_revalidation", "calibration_points"]
