@@ -299,7 +299,7 @@ def _comparison(reader, analytes):
     return out
 
 
-MAX_PREVIOUS_BYTES = 16 * 1024 * 1024     # a results.json is kilobytes; anything this large is not one
+MAX_PREVIOUS_BYTES = 16 * 1024 * 1024     # a results.json is at most a few megabytes
 MAX_PREVIOUS_DEPTH = 32                   # results.json nests 7 levels deep
 
 
