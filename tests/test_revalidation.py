@@ -35,7 +35,9 @@ def test_example_verdicts(revalidation_out):
     for a in results["analytes"]:
         s = a["revalidation"]["slope"]
         assert s["change_ci_pct"][0] <= s["change_pct"] <= s["change_ci_pct"][1]
-        assert s["df"] == a["calibration"]["n"] + 21 - 4        # previous runs had n = 21
+        p = 1 if a["revalidation"]["refit_through_origin"] else {"linear": 2, "quadratic": 3}[
+            a["revalidation"]["refit_model"]]
+        assert s["df"] == a["calibration"]["n"] + 21 - 2 * p    # previous runs had n = 21; joint fit, p per run
 
 
 def test_dossier_opens_with_what_changed(revalidation_out):
@@ -65,16 +67,18 @@ CAL = "concentration,response\n1,2.01\n1,1.98\n2,4.02\n2,3.99\n4,8.02\n4,7.99\n8
 
 def _previous(tmp_path, **changes):
     results = json.loads((REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json").read_text())
-    results.update(changes)
+    for key, value in changes.items():      # one level deep, so a changed unit keeps the rest of "study"
+        results[key] = {**results[key], **value} if isinstance(value, dict) else value
     (tmp_path / "prev.json").write_text(json.dumps(results))
 
 
 @pytest.mark.parametrize("changes, message", [
     ({"schema_version": "2.0"}, 'prev.json: has schema version "2.0"; this validator reads version 1.x'),
-    ({"study": {"id": "X", "concentration_unit": "µg/L"}},
+    ({"study": {"concentration_unit": "µg/L"}},
      'prev.json: uses concentration unit "µg/L" but this study uses "mg/L"; results in different units '
      "cannot be compared"),
-    ({"analytes": None}, "prev.json: is not a results.json written by validator"),
+    ({"analytes": None}, "prev.json: is not a valid results.json: at JSON path $.analytes: None is not of type "
+                         "'array'"),
 ])
 def test_incompatible_previous_results(make_study, tmp_path, capsys, changes, message):
     _previous(tmp_path, **changes)
@@ -84,14 +88,16 @@ def test_incompatible_previous_results(make_study, tmp_path, capsys, changes, me
     assert capsys.readouterr().err == f"validator: error: {message}\n"
 
 
-def test_unmatched_analytes_are_listed(make_study, tmp_path, outside):
+def test_a_revalidation_that_matches_nothing_is_an_input_error(make_study, tmp_path, outside, capsys):
+    # formerly exit 0 "PASS" with revalidation null; now exit 2 naming both lists of analytes
     _previous(tmp_path)
     study = make_study('[calibration]\ndata = "calibration.csv"\n[revalidation]\nprevious = "prev.json"\n',
                        {"calibration.csv": CAL})
-    main(["run", str(study), "--out", str(outside / "o"), "--format", "json"])
-    results = json.loads((outside / "o" / "results.json").read_text())
-    assert set(results["revalidation"]["unmatched_analytes"]) == {"T-1", "nitrate", "fluoride"}
-    assert results["analytes"][0]["revalidation"] is None
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 2
+    assert capsys.readouterr().err == (
+        'validator: error: prev.json: shares no analyte with this study, so nothing was compared: this study has '
+        '"T-1"; the previous results have "nitrate", "fluoride"; map renamed analytes with [revalidation] '
+        'analytes = {new = "old"}\n')
 
 
 def test_a_run_compared_with_itself_is_equivalent():

@@ -205,14 +205,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
-        criteria.append(Criterion("slope-equivalence",
-                                  f"90 % CI of the slope change inside ±{rc.slope_change_max_pct:g} % of the "
-                                  "previous validation", reval.slope.change_pct, rc.slope_change_max_pct,
-                                  reval.slope.verdict == "equivalent", reval.slope.verdict))
-        criteria.append(Criterion("residual-sd-ratio",
-                                  f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
-                                  reval.residual_sd_ratio, rc.residual_sd_ratio_max,
-                                  reval.residual_sd_ratio <= rc.residual_sd_ratio_max))
+        criteria += _revalidation_criteria(reval, rc)
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
                          criteria=tuple(criteria), bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=detection,
@@ -221,14 +214,39 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                          comparison=comparison)
 
 
+def _revalidation_criteria(reval, rc) -> list:
+    """Slope (sensitivity) equivalence and residual SD ratio; "not applicable" when no value exists."""
+    sl = reval.slope
+    what = sl.quantity if sl.sensitivity_range is None else \
+        f"{sl.quantity} over {sl.sensitivity_range[0]:g} to {sl.sensitivity_range[1]:g}"
+    level = "" if sl.change_ci_pct is None else f"{100 * sl.change_ci_pct.level:g} % "
+    slope = Criterion("slope-equivalence",
+                      f"{level}CI of the {what} change inside ±{rc.slope_change_max_pct:g} % of the previous "
+                      "validation", sl.change_pct, rc.slope_change_max_pct,
+                      None if sl.change_ci_pct is None else sl.verdict == "equivalent",
+                      sl.reason if sl.change_ci_pct is None else sl.verdict)
+    ratio = reval.residual_sd_ratio
+    sd = Criterion("residual-sd-ratio", f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
+                   ratio, rc.residual_sd_ratio_max, None if ratio is None else ratio <= rc.residual_sd_ratio_max,
+                   "the previous residual SD is zero, so no ratio exists" if ratio is None else "")
+    return [slope, sd]
+
+
 def _summary(cal, detection, recovery, precision) -> dict:
-    """This run's numbers in the layout of a results.json analyte entry (the fields a comparison reads)."""
+    """This run's numbers in the layout of a results.json analyte entry (the fields a comparison reads).
+
+    ``back_calculated`` carries every calibration point, so the comparison can refit them
+    with the previous run's calibration function.
+    """
     fit = cal.fit
     rep = detection.reported
     return {
-        "calibration": {"coefficients": {k: {"estimate": c.estimate, "std_error": c.std_error}
+        "calibration": {"model": cal.model, "weighting": cal.weighting, "through_origin": cal.through_origin,
+                        "coefficients": {k: {"estimate": c.estimate, "std_error": c.std_error}
                                          for k, c in fit.coefficients.items()},
-                        "residual_sd": fit.residual_sd, "n": fit.n, "df_resid": fit.df_resid},
+                        "residual_sd": fit.residual_sd, "n": fit.n, "df_resid": fit.df_resid,
+                        "back_calculated": [{"nominal": float(x), "response": float(y)}
+                                            for x, y in zip(fit.x, fit.y)]},
         "detection": {"reported_basis": rep.method,
                       "estimates": [{"method": rep.method, "lod": rep.lod, "loq": rep.loq}]},
         "recovery": None if recovery is None else {

@@ -20,7 +20,7 @@ from . import __version__
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
 
 SCHEMA_VERSION = "1.0"
-LIBRARIES = ("numpy", "scipy", "statsmodels", "matplotlib", "jinja2", "weasyprint", "pydantic")
+LIBRARIES = ("numpy", "scipy", "statsmodels", "matplotlib", "jinja2", "weasyprint", "pydantic", "jsonschema")
 
 
 def library_versions() -> dict:
@@ -191,18 +191,31 @@ def _reference_material(rm):
             "significant": rm.significant, "u_mean_basis": rm.u_mean_basis, "reason": rm.reason}
 
 
-def _revalidation(r, previous):
+def _revalidation(r, previous, name):
     if r is None:
         return None
     sl = r.slope
+    model, weighting, origin = r.current_own_choice
     return {
         "previous": {"path": previous.path, "study_id": previous.study_id, "generated_at": previous.generated_at,
                      "sha256": previous.sha256},
-        "slope": {"previous": num(sl.previous), "current": num(sl.current), "change_pct": num(sl.change_pct),
-                  "change_ci_pct": _ci(sl.change_ci_pct), "t_statistic": num(sl.t_statistic), "df": sl.df,
-                  "p_value": num(sl.pvalue), "margin_pct": num(sl.margin_pct), "equivalent": sl.verdict == "equivalent"},
+        "previous_analyte": dict(previous.matched).get(name, name),
+        "basis": sl.basis,
+        "refit_model": r.refit_model,
+        "refit_weighting": r.refit_weighting,
+        "refit_through_origin": r.refit_through_origin,
+        "current_own_choice": {"model": model, "weighting": weighting, "through_origin": origin},
+        "slope": {"quantity": sl.quantity,
+                  "sensitivity_range": None if sl.sensitivity_range is None else [num(v) for v in sl.sensitivity_range],
+                  "previous": num(sl.previous), "current": num(sl.current), "change_pct": num(sl.change_pct),
+                  "change_ci_pct": [None, None] if sl.change_ci_pct is None else _ci(sl.change_ci_pct),
+                  "change_ci_level": None if sl.change_ci_pct is None else num(sl.change_ci_pct.level),
+                  "t_statistic": num(sl.t_statistic), "df": sl.df,
+                  "p_value": num(sl.pvalue), "margin_pct": num(sl.margin_pct), "equivalent": sl.verdict == "equivalent",
+                  "verdict": sl.verdict, "reason": sl.reason},
         "intercept": {"previous": num(r.intercept_previous), "current": num(r.intercept_current)},
         "residual_sd": {"previous": num(r.residual_sd_previous), "current": num(r.residual_sd_current),
+                        "df": list(r.residual_sd_df),
                         "ratio": num(r.residual_sd_ratio), "f_statistic": num(r.residual_sd_f),
                         "p_value": num(r.residual_sd_pvalue), "ratio_max": num(r.residual_sd_ratio_max)},
         "lod": [num(v) for v in r.lod], "loq": [num(v) for v in r.loq],
@@ -270,7 +283,7 @@ def _analyte(a, previous=None):
         "recovery": _recovery(a.recovery),
         "precision": _precision(a.precision),
         "reference_material": _reference_material(a.reference_material),
-        "revalidation": _revalidation(a.revalidation, previous),
+        "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": _comparison(a.comparison),
         "criteria": [{"id": c.id, "description": c.description, "value": num(c.value),
                       "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
@@ -300,6 +313,8 @@ def build_results(result, *, generated_at: str) -> dict:
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
                          "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},
+            "change_ci_level": 1 - 2 * loaded.config.criteria.alpha,
+            "matched_analytes": [{"analyte": new, "previous_analyte": old} for new, old in loaded.previous.matched],
             "unmatched_analytes": list(loaded.previous.unmatched)},
     }
 

@@ -1,14 +1,29 @@
-"""Comparing a calibration with a previous validation's: slopes and residual SDs.
+"""Comparing a calibration with a previous validation's, like with like.
 
-Pure functions over the summary numbers a results.json records (slope, its
-standard error, s(y/x), n); the ``[revalidation]`` section of a study runs
-:func:`assess_revalidation` per analyte matched by name.
+Pure functions over the numbers a results.json records. The ``[revalidation]``
+section of a study runs :func:`assess_revalidation` for every analyte matched
+with the previous run (see ``loading._previous`` for the matching rules).
+
+Like with like: the current calibration points are refitted with the previous
+run's model, weighting and through-origin setting (:func:`refit_like`), so that
+a change of weighting or model between the runs (or a different automatic
+choice) does not show up as a change of the method. The current run's own
+choice is reported beside the comparison.
+
+The previous run's raw calibration points are its ``back_calculated`` entries
+(nominal concentration and response of every calibrator). With both runs' points
+the comparison is a joint fit with separate coefficients per run
+(:func:`joint_comparison`); a results.json that lacks the points falls back to
+the summary-statistics test (:func:`compare_slopes`), for straight lines only.
 
 References
 ----------
 .. [Armitage] Armitage, P., Berry, G. and Matthews, J. N. S. (2002).
    Statistical Methods in Medical Research, 4th ed., Blackwell, sec. 11.4
    (comparison of two regression slopes with a pooled residual variance).
+.. [Draper-Smith] Draper, N. R. and Smith, H. (1998). Applied Regression
+   Analysis, 3rd ed., Wiley, ch. 9 (weighted least squares) and ch. 14
+   (indicator variables: separate coefficients per group in one fit).
 .. [Schuirmann] Schuirmann, D. J. (1987). A comparison of the two one-sided
    tests procedure and the power approach for assessing the equivalence of
    average bioavailability. J. Pharmacokinet. Biopharm. 15, 657-680.
@@ -21,47 +36,49 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from ._common import ConfidenceInterval
+from ._common import ConfidenceInterval, quiet_numpy
+from .regression import PolynomialFit, fit_polynomial
 
-__all__ = ["SlopeComparison", "compare_slopes", "residual_sd_ratio"]
+__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "compare_slopes", "residual_sd_ratio",
+           "refit_like", "joint_comparison", "assess_revalidation", "calibration_points"]
+
+
+def _level_pct(level: float) -> str:
+    return f"{100 * level:g} %"
 
 
 @dataclass(frozen=True)
 class SlopeComparison:
-    previous: float
-    current: float
-    change_pct: float
-    change_ci_pct: ConfidenceInterval        # 1 - 2*alpha (90 % for alpha = 0.05)
-    t_statistic: float
-    df: int
-    pvalue: float
-    margin_pct: float
-    verdict: str                             # "equivalent" | "not shown equivalent" | "different"
+    """Change of the sensitivity between two runs and its equivalence decision.
 
-
-def compare_slopes(previous, current, margin_pct: float, alpha: float = 0.05) -> SlopeComparison:
-    """t test for the difference of two slopes, and a TOST equivalence decision.
-
-    ``previous`` and ``current`` are ``(slope, std_error, residual_sd, n)``.
-
-    Notes
-    -----
-    Sxx_k = s_k^2 / SE(b_k)^2; pooled s^2 = [(n1 - 2) s1^2 + (n2 - 2) s2^2] / (n1 + n2 - 4);
-    t = (b2 - b1) / sqrt(s^2 (1/Sxx1 + 1/Sxx2)) on n1 + n2 - 4 df [Armitage]. This equals the
-    t of the interaction term in one OLS fit y ~ x * run. Equivalence: the 100(1 - 2 alpha) %
-    CI of the change 100 (b2 - b1)/b1 (b1 taken as the reference value) inside +/- margin
-    [Schuirmann]; "different" when the interval lies wholly outside the margin.
+    ``quantity`` is "slope" for straight lines and "mean sensitivity" for curves
+    (the average first derivative over ``sensitivity_range``). ``change_ci_pct``
+    has level 1 - 2 alpha. Fields are ``None`` (and ``reason`` says why) when the
+    comparison cannot be made.
     """
-    b1, se1, s1, n1 = previous
-    b2, se2, s2, n2 = current
-    sxx1, sxx2 = (s1 / se1) ** 2, (s2 / se2) ** 2
-    df = int(n1 + n2 - 4)
-    pooled = ((n1 - 2) * s1**2 + (n2 - 2) * s2**2) / df
-    se = float(np.sqrt(pooled * (1 / sxx1 + 1 / sxx2)))
-    t = float((b2 - b1) / se)
-    p = float(2 * stats.t.sf(abs(t), df))
+
+    previous: float | None
+    current: float | None
+    change_pct: float | None
+    change_ci_pct: ConfidenceInterval | None
+    t_statistic: float | None
+    df: int
+    pvalue: float | None
+    margin_pct: float
+    verdict: str                 # "equivalent" | "not shown equivalent" | "different" | "not applicable"
+    quantity: str = "slope"
+    sensitivity_range: tuple | None = None
+    basis: str = "summary statistics"
+    reason: str = ""
+
+
+def _decide(b1, b2, diff_se, df, margin_pct, alpha):
+    """Change %, its 1 - 2 alpha CI, t, p and the TOST verdict (b1 is the reference value)."""
+    with quiet_numpy():
+        t = float((b2 - b1) / diff_se) if diff_se > 0 else None
+    p = float(2 * stats.t.sf(abs(t), df)) if t is not None and np.isfinite(t) else None
     tq = float(stats.t.ppf(1 - alpha, df))
-    lo, hi = 100 * (b2 - b1 - tq * se) / b1, 100 * (b2 - b1 + tq * se) / b1
+    lo, hi = 100 * (b2 - b1 - tq * diff_se) / b1, 100 * (b2 - b1 + tq * diff_se) / b1
     lo, hi = min(lo, hi), max(lo, hi)
     if -margin_pct <= lo and hi <= margin_pct:
         verdict = "equivalent"
@@ -69,15 +86,151 @@ def compare_slopes(previous, current, margin_pct: float, alpha: float = 0.05) ->
         verdict = "different"
     else:
         verdict = "not shown equivalent"
-    return SlopeComparison(b1, b2, 100 * (b2 - b1) / b1, ConfidenceInterval(lo, hi, 1 - 2 * alpha), t, df, p,
-                           margin_pct, verdict)
+    return 100 * (b2 - b1) / b1, ConfidenceInterval(lo, hi, 1 - 2 * alpha), t, p, verdict
+
+
+def compare_slopes(previous, current, margin_pct: float, alpha: float = 0.05, *,
+                   n_params: int = 2) -> SlopeComparison:
+    """t test for the difference of two straight-line slopes from summary numbers, and TOST.
+
+    ``previous`` and ``current`` are ``(slope, std_error, residual_sd, n)``; ``n_params``
+    is the number of coefficients of each line (2, or 1 through the origin).
+
+    Notes
+    -----
+    With p = ``n_params``: Sxx_k = s_k^2 / SE(b_k)^2; pooled
+    s^2 = [(n1 - p) s1^2 + (n2 - p) s2^2] / (n1 + n2 - 2p);
+    t = (b2 - b1) / sqrt(s^2 (1/Sxx1 + 1/Sxx2)) on n1 + n2 - 2p df [Armitage]. This equals
+    the t of the interaction term in one OLS fit y ~ x * run (y ~ x + x:run through the
+    origin). Equivalence: the 100(1 - 2 alpha) % CI of the change 100 (b2 - b1)/b1 (b1 taken
+    as the reference value) inside +/- margin [Schuirmann]; "different" when the interval
+    lies wholly outside the margin.
+    """
+    b1, se1, s1, n1 = previous
+    b2, se2, s2, n2 = current
+    p = int(n_params)
+    df = int(n1 + n2 - 2 * p)
+    with quiet_numpy():
+        pooled = ((n1 - p) * s1**2 + (n2 - p) * s2**2) / df if df > 0 else float("nan")
+        unscaled = (se1 / s1) ** 2 + (se2 / s2) ** 2 if s1 > 0 and s2 > 0 else float("nan")
+    if not (df > 0 and np.isfinite(unscaled) and b1 != 0):
+        reason = ("the previous slope is zero" if b1 == 0 else
+                  "a residual SD or slope standard error is zero or missing, so no pooled variance exists")
+        return SlopeComparison(b1, b2, None, None, None, max(df, 0), None, margin_pct, "not applicable",
+                               reason=reason)
+    se = float(np.sqrt(pooled * unscaled))
+    change, ci, t, pv, verdict = _decide(b1, b2, se, df, margin_pct, alpha)
+    return SlopeComparison(b1, b2, change, ci, t, df, pv, margin_pct, verdict)
 
 
 def residual_sd_ratio(previous_sd, previous_df, current_sd, current_df):
-    """(ratio current/previous, F = ratio^2, two-sided p on F(current_df, previous_df))."""
+    """(ratio current/previous, F = ratio^2, two-sided p on F(current_df, previous_df)).
+
+    All three are ``None`` when the previous residual SD is zero (no ratio exists).
+    """
+    if not previous_sd > 0:
+        return None, None, None
     F = (current_sd / previous_sd) ** 2
     p = 2 * min(stats.f.sf(F, current_df, previous_df), stats.f.cdf(F, current_df, previous_df))
     return float(current_sd / previous_sd), float(F), float(min(p, 1.0))
+
+
+def refit_like(x, y, *, model: str, through_origin: bool, weighting: str, alpha: float = 0.05) -> PolynomialFit:
+    """Fit calibration points with a given run's model, through-origin setting and weighting.
+
+    ``model`` is "linear" or "quadratic" as results.json records it; ``through_origin``
+    forces a straight line through 0 (as the calibration does). Raises ``ValueError``
+    when the weighting cannot be computed for these points (checked in loading first).
+    """
+    return fit_polynomial(x, y, model="origin" if through_origin else model, weighting=weighting, alpha=alpha)
+
+
+@dataclass(frozen=True)
+class JointComparison:
+    """Two runs in one weighted least-squares fit with separate coefficients per run.
+
+    ``residual_sd`` values are on the common weight scale of the joint fit (raw weights
+    times one factor, so that the weights of both runs together average 1).
+    """
+
+    slope: SlopeComparison
+    residual_sd_previous: float
+    residual_sd_current: float
+    residual_df: tuple           # (previous, current): n_k - p
+    pooled_residual_sd: float
+    n_params: int
+
+
+def _mean_sensitivity_vector(fit: PolynomialFit, low: float, high: float) -> np.ndarray:
+    """g with g' beta_u = (f(high) - f(low)) / (high - low); for a straight line, the slope."""
+    if 2 not in fit.powers:
+        return np.array([k / fit.scale if k == 1 else 0.0 for k in fit.powers])
+    ua, ub = fit._u(low), fit._u(high)
+    return np.array([(ub**k - ua**k) / (high - low) for k in fit.powers])
+
+
+def joint_comparison(previous: PolynomialFit, current: PolynomialFit, margin_pct: float,
+                     alpha: float = 0.05) -> JointComparison:
+    """Compare two fits of the same model and weighting in one joint fit.
+
+    Notes
+    -----
+    Model: y_i = f_run(i)(x_i) + e_i with separate coefficients for each run, weights
+    w_i = c r_i from the common weighting scheme (r_i the raw weight, c = (n1 + n2)/sum r_i),
+    Var(e_i) = sigma^2 / w_i with one sigma^2 for both runs (equal error variance after
+    weighting is assumed). The coefficients are those of the separate fits; the pooled
+    residual variance is s^2 = (SSR1 + SSR2)/(n1 + n2 - 2p), SSR_k = sum_k w_i e_i^2
+    [Draper-Smith ch. 9, 14].
+
+    Compared quantity: for a straight line (with or without intercept) the slope; for a
+    quadratic the mean sensitivity over the common calibrated range [a, b] (a = larger
+    of the two lowest levels, b = smaller of the two highest),
+    S = (f(b) - f(a))/(b - a) = b1 + b2 (a + b), the average of the first derivative
+    over [a, b]. S is linear in the coefficients, so Var(S_k) = s^2 g' (X_k'W_k X_k)^-1 g
+    exactly; one quantity, so no simultaneous-interval adjustment is needed.
+    t = (S2 - S1)/sqrt(Var(S1) + Var(S2)) on n1 + n2 - 2p df; the change
+    100 (S2 - S1)/S1 with its 100(1 - 2 alpha) % CI is judged against +/- margin by
+    two one-sided tests [Schuirmann]. Residual SDs s_k^2 = SSR_k/(n_k - p) on the
+    common weight scale; their ratio is tested by F = s2^2/s1^2 on (n2 - p, n1 - p).
+    """
+    fits = (previous, current)
+    p = previous.n_params
+    n1, n2 = previous.n, current.n
+    raw_sums = [float(f.weights.sum() / f.weight_factor) for f in fits]
+    common = (n1 + n2) / sum(raw_sums)
+    # a fit's normalised weights are weight_factor * raw; on the common scale: common * raw
+    ssr = [f.ssr / f.weight_factor * common for f in fits]
+    df = n1 + n2 - 2 * p
+    s2_pooled = sum(ssr) / df
+    run_s = [float(np.sqrt(s / (f.n - p))) for s, f in zip(ssr, fits)]
+    quadratic = 2 in previous.powers
+    if quadratic:
+        low = max(float(previous.x.min()), float(current.x.min()))
+        high = min(float(previous.x.max()), float(current.x.max()))
+        if not high > low:
+            slope = SlopeComparison(None, None, None, None, None, df, None, margin_pct, "not applicable",
+                                    "mean sensitivity", None, "joint fit",
+                                    "the two calibrated ranges do not overlap, so no common range exists "
+                                    "over which to compare the sensitivity of the curves")
+            return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
+    else:
+        low = high = None
+    values, unscaled = [], []
+    for f in fits:
+        g = _mean_sensitivity_vector(f, low, high)
+        values.append(float(g @ f.beta_u))
+        # (X'W_c X)^-1 = (weight_factor / common) (X'W X)^-1 for the fit's own weights W
+        unscaled.append(float(g @ f.cov_u @ g) * f.weight_factor / common)
+    b1, b2 = values
+    quantity, rng = ("mean sensitivity", (low, high)) if quadratic else ("slope", None)
+    if b1 == 0:
+        slope = SlopeComparison(b1, b2, None, None, None, df, None, margin_pct, "not applicable", quantity, rng,
+                                "joint fit", f"the previous {quantity} is zero, so no relative change exists")
+    else:
+        se = float(np.sqrt(s2_pooled * (unscaled[0] + unscaled[1])))
+        change, ci, t, pv, verdict = _decide(b1, b2, se, df, margin_pct, alpha)
+        slope = SlopeComparison(b1, b2, change, ci, t, df, pv, margin_pct, verdict, quantity, rng, "joint fit")
+    return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
 
 
 @dataclass(frozen=True)
@@ -87,9 +240,9 @@ class RevalidationResult:
     intercept_current: float | None
     residual_sd_previous: float
     residual_sd_current: float
-    residual_sd_ratio: float
-    residual_sd_f: float
-    residual_sd_pvalue: float
+    residual_sd_ratio: float | None
+    residual_sd_f: float | None
+    residual_sd_pvalue: float | None
     residual_sd_ratio_max: float
     lod: tuple            # (previous, current) on the reported basis
     loq: tuple
@@ -97,6 +250,11 @@ class RevalidationResult:
     repeatability: tuple          # (level, previous s_r, current s_r, F p) for levels in both runs
     verdict: str
     reasons: tuple
+    refit_model: str = "linear"           # the previous run's model, used for both runs
+    refit_weighting: str = "none"
+    refit_through_origin: bool = False
+    current_own_choice: tuple = ()        # (model, weighting, through_origin) this run chose for itself
+    residual_sd_df: tuple = ()            # (previous, current)
 
 
 def _reported(analyte: dict, key: str):
@@ -107,56 +265,143 @@ def _reported(analyte: dict, key: str):
     return None
 
 
+def calibration_points(entry: dict):
+    """(concentrations, responses) of every calibrator of a results.json analyte entry.
+
+    ``None`` when its ``back_calculated`` list does not hold one entry per calibrator
+    (``calibration.n``), which older or reduced files may lack.
+    """
+    cal = entry["calibration"]
+    rows = cal.get("back_calculated") or []
+    if len(rows) != cal["n"] or any(r.get("nominal") is None or r.get("response") is None for r in rows):
+        return None
+    return (np.array([r["nominal"] for r in rows], float), np.array([r["response"] for r in rows], float))
+
+
+def _spec(entry: dict) -> tuple:
+    c = entry["calibration"]
+    return c["model"], c["weighting"], bool(c["through_origin"])
+
+
+def _describe(spec: tuple) -> str:
+    model, weighting, origin = spec
+    shape = "straight line through the origin" if origin else \
+        {"linear": "straight line", "quadratic": "quadratic"}.get(model, model)
+    return f"{shape}, weighting {weighting}"
+
+
+def _fallback(previous: dict, current_fit: PolynomialFit, margin_pct, alpha):
+    pc = previous["calibration"]
+    p = current_fit.n_params
+    if 2 in current_fit.powers:
+        slope = SlopeComparison(None, None, None, None, None, 0, None, margin_pct, "not applicable",
+                                "mean sensitivity", None, "summary statistics",
+                                "the previous results.json lacks the raw calibration points that the comparison "
+                                "of curves needs")
+    else:
+        se = pc["coefficients"]["slope"]["std_error"]
+        prev = (pc["coefficients"]["slope"]["estimate"], float("nan") if se is None else se,
+                pc["residual_sd"], pc["n"])
+        cur = (current_fit.coefficients["slope"].estimate, current_fit.coefficients["slope"].std_error,
+               current_fit.residual_sd, current_fit.n)
+        slope = compare_slopes(prev, cur, margin_pct, alpha, n_params=p)
+    return slope, float(pc["residual_sd"]), current_fit.residual_sd, (int(pc["n"]) - p, current_fit.df_resid)
+
+
 def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: float,
                         residual_sd_ratio_max: float, alpha: float = 0.05) -> RevalidationResult:
     """Compare one analyte of this run (its results.json entry) with the previous run's entry.
 
+    Both entries must give model, weighting and through_origin under ``calibration``;
+    this run's must list every calibrator in ``calibration.back_calculated``.
+
     Notes
     -----
-    Slopes: :func:`compare_slopes`. Residual SD: ratio s2/s1 and F = ratio^2 on
-    (n2 - p2, n1 - p1), two-sided. Recovery: Welch's t test on the per-replicate
-    recoveries of all levels (scipy.stats.ttest_ind, equal_var=False), and the F test of
-    their variances. Repeatability:
-    F = s_r2^2/s_r1^2 per level present in both runs. Verdict: "different" when the slope
-    interval lies outside the margin or the residual SD ratio exceeds its maximum;
-    "not shown equivalent" when the slope interval straddles the margin; else "equivalent".
+    This run's points are refitted with the previous run's model, weighting and
+    through-origin setting (:func:`refit_like`). With the previous run's points the two
+    runs are compared in one joint fit (:func:`joint_comparison`); without them, for
+    straight lines only, by :func:`compare_slopes` on the summary numbers. Residual SD:
+    ratio s2/s1 and F = ratio^2 on (n2 - p, n1 - p), two-sided. Recovery: Welch's t test
+    on the per-replicate recoveries of all levels (scipy.stats.ttest_ind, equal_var=False),
+    and the F test of their variances. Repeatability: F = s_r2^2/s_r1^2 per level present in
+    both runs. Verdict: "different" when the sensitivity interval lies outside the margin or
+    the residual SD ratio exceeds its maximum; "not shown equivalent" when the interval
+    straddles the margin or the comparison cannot be made; else "equivalent".
     """
-    pc, cc = previous["calibration"], current["calibration"]
-    summary = lambda c: (c["coefficients"]["slope"]["estimate"], c["coefficients"]["slope"]["std_error"],  # noqa: E731
-                         c["residual_sd"], c["n"])
-    slope = compare_slopes(summary(pc), summary(cc), slope_change_max_pct, alpha)
-    ratio, F, p = residual_sd_ratio(pc["residual_sd"], pc["df_resid"], cc["residual_sd"], cc["df_resid"])
+    spec = _spec(previous)
+    own = _spec(current)
+    model, weighting, origin = spec
+    x2, y2 = calibration_points(current)
+    refit_current = refit_like(x2, y2, model=model, through_origin=origin, weighting=weighting, alpha=alpha)
+    prev_points = calibration_points(previous)
+    if prev_points is not None:
+        refit_previous = refit_like(*prev_points, model=model, through_origin=origin, weighting=weighting,
+                                    alpha=alpha)
+        joint = joint_comparison(refit_previous, refit_current, slope_change_max_pct, alpha)
+        slope, s1, s2 = joint.slope, joint.residual_sd_previous, joint.residual_sd_current
+        sd_df = joint.residual_df
+        intercept_previous = refit_previous.coefficients.get("intercept")
+        intercept_previous = None if intercept_previous is None else intercept_previous.estimate
+    else:
+        slope, s1, s2, sd_df = _fallback(previous, refit_current, slope_change_max_pct, alpha)
+        intercept_previous = previous["calibration"]["coefficients"].get("intercept", {}).get("estimate")
+    intercept_current = refit_current.coefficients.get("intercept")
+    intercept_current = None if intercept_current is None else intercept_current.estimate
+    ratio, F, p = residual_sd_ratio(s1, sd_df[0], s2, sd_df[1])
+
     rec = None
     if previous.get("recovery") and current.get("recovery"):
-        r1 = [v for lv in previous["recovery"]["levels"] for v in lv["recoveries_pct"]]
-        r2 = [v for lv in current["recovery"]["levels"] for v in lv["recoveries_pct"]]
+        r1 = [v for lv in previous["recovery"]["levels"] for v in lv.get("recoveries_pct", []) if v is not None]
+        r2 = [v for lv in current["recovery"]["levels"] for v in lv.get("recoveries_pct", []) if v is not None]
         welch = f_p = None
         if len(r1) > 1 and len(r2) > 1:
-            welch = float(stats.ttest_ind(r2, r1, equal_var=False).pvalue)
-            f = np.var(r2, ddof=1) / np.var(r1, ddof=1) if np.var(r1) > 0 else np.inf
-            d2, d1 = len(r2) - 1, len(r1) - 1
-            f_p = float(min(1.0, 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))))
-        rec = (float(np.mean(r1)), float(np.mean(r2)), welch, f_p)
+            with quiet_numpy():
+                welch = float(stats.ttest_ind(r2, r1, equal_var=False).pvalue)
+                welch = welch if np.isfinite(welch) else None
+                if np.var(r1) > 0 and np.var(r2) > 0:
+                    f = np.var(r2, ddof=1) / np.var(r1, ddof=1)
+                    d2, d1 = len(r2) - 1, len(r1) - 1
+                    f_p = float(min(1.0, 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))))
+        rec = (float(np.mean(r1)) if r1 else None, float(np.mean(r2)) if r2 else None, welch, f_p)
     rep = []
     if previous.get("precision") and current.get("precision"):
         old = {lv["level"]: lv for lv in previous["precision"]["levels"]}
         for lv in current["precision"]["levels"]:
             o = old.get(lv["level"])
-            if o and o["repeatability_sd"] and lv["repeatability_sd"]:
+            if o and o["repeatability_sd"] and lv["repeatability_sd"] and o.get("df") and lv.get("df"):
                 f = (lv["repeatability_sd"] / o["repeatability_sd"]) ** 2
-                d2, d1 = lv["df"][1], o["df"][1]
-                pf = 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))
-                rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], float(min(pf, 1.0))))
-    reasons = [f"slope change {slope.change_pct:+.2f} % with 90 % CI {slope.change_ci_pct.low:+.2f} to "
-               f"{slope.change_ci_pct.high:+.2f} % against the margin ±{slope_change_max_pct:g} %: {slope.verdict}"]
-    verdict = slope.verdict
-    if ratio > residual_sd_ratio_max:
+                d2, d1 = lv["df"][-1], o["df"][-1]
+                if d1 > 0 and d2 > 0:
+                    pf = 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))
+                    rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], float(min(pf, 1.0))))
+
+    reasons = []
+    if own != spec:
+        reasons.append(f"this run's points were refitted with the previous run's calibration function "
+                       f"({_describe(spec)}) for the comparison; this run itself uses {_describe(own)}")
+    if slope.verdict == "not applicable":
+        reasons.append(f"the {slope.quantity} change cannot be judged: {slope.reason}")
+        verdict = "not shown equivalent"
+    else:
+        where = "" if slope.sensitivity_range is None else \
+            f" over {slope.sensitivity_range[0]:g} to {slope.sensitivity_range[1]:g}"
+        reasons.append(f"{slope.quantity}{where} change {slope.change_pct:+.2f} % with "
+                       f"{_level_pct(slope.change_ci_pct.level)} CI {slope.change_ci_pct.low:+.2f} to "
+                       f"{slope.change_ci_pct.high:+.2f} % against the margin ±{slope_change_max_pct:g} %: "
+                       f"{slope.verdict}")
+        verdict = slope.verdict
+    if ratio is None:
+        reasons.append("the previous residual SD is zero, so no residual SD ratio exists")
+        verdict = "different" if verdict == "different" else "not shown equivalent"
+    elif ratio > residual_sd_ratio_max:
         verdict = "different"
         reasons.append(f"residual SD ratio {ratio:.3g} exceeds the maximum {residual_sd_ratio_max:g}")
     else:
         reasons.append(f"residual SD ratio {ratio:.3g} is within the maximum {residual_sd_ratio_max:g}")
-    ci = lambda c: c["coefficients"].get("intercept", {}).get("estimate")  # noqa: E731
-    return RevalidationResult(slope, ci(pc), ci(cc), pc["residual_sd"], cc["residual_sd"], ratio, F, p,
+    if slope.basis == "summary statistics":
+        reasons.append("the previous results.json lacks the raw calibration points, so the comparison used its "
+                       "summary statistics (slope, its standard error, residual SD and n)")
+    return RevalidationResult(slope, intercept_previous, intercept_current, s1, s2, ratio, F, p,
                               residual_sd_ratio_max, (_reported(previous, "lod"), _reported(current, "lod")),
                               (_reported(previous, "loq"), _reported(current, "loq")), rec, tuple(rep),
-                              verdict, tuple(reasons))
+                              verdict, tuple(reasons), model, weighting, origin, own, tuple(sd_df))

@@ -221,6 +221,8 @@ class RevalidationSection(_Section):
     previous: DataPath
     slope_change_max_pct: float = Field(5.0, gt=0, le=100)
     residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
+    # this run's analyte name -> its name in the previous results.json, for renamed analytes
+    analytes: dict[str, str] = Field(default_factory=dict)
 
 
 class ComparisonSection(_Section):
