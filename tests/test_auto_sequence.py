@@ -86,11 +86,11 @@ def test_through_origin_auto_model_is_a_straight_line():
     assert [s.step for s in res.choice_steps] == ["weighting"]
 
 
-def test_results_json_records_the_sequence(make_study, tmp_path):
+def test_results_json_records_the_sequence(make_study, outside):
     cal = "concentration,response\n" + "".join(f"{float(x)!r},{float(y)!r}\n" for x, y in zip(X, Y))
     study = make_study('[calibration]\ndata = "calibration.csv"\nmodel = "auto"\nweighting = "auto"\n',
                        {"calibration.csv": cal})
-    out = tmp_path / "o"
+    out = outside / "o"
     main(["run", str(study), "--out", str(out), "--format", "json,html"])
     results = json.loads((out / "results.json").read_text())
     jsonschema.validate(results, load_schema())
@@ -104,9 +104,9 @@ def test_results_json_records_the_sequence(make_study, tmp_path):
     assert f"Linear vs quadratic (Mandel, weighting {c['mandel']['weighting']})" in html
 
 
-def test_plain_study_has_a_single_mandel_step(make_study, tmp_path):
+def test_plain_study_has_a_single_mandel_step(make_study, outside):
     study = make_study(files={"calibration.csv": CALIBRATION})
-    out = tmp_path / "o"
+    out = outside / "o"
     main(["run", str(study), "--out", str(out), "--format", "json"])
     c = json.loads((out / "results.json").read_text())["analytes"][0]["calibration"]
     assert c["mandel"]["weighting"] == "none" == c["weighting"]

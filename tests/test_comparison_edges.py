@@ -25,13 +25,13 @@ def _csv(rows):
 
 
 @pytest.fixture
-def run_comparison(make_study, tmp_path):
+def run_comparison(make_study, outside):
     from conftest import CALIBRATION
 
     def run(rows, extra=""):
         study = make_study('[calibration]\ndata = "calibration.csv"\n[comparison]\ndata = "comparison.csv"\n' + extra,
                            {"calibration.csv": CALIBRATION, "comparison.csv": _csv(rows)})
-        out = tmp_path / f"out{len(list(tmp_path.iterdir()))}"
+        out = outside / f"out{len(list(outside.iterdir()))}"
         code = main(["run", str(study), "--out", str(out), "--format", "html,json"])
         results = json.loads((out / "results.json").read_text())
         jsonschema.validate(results, load_schema())

@@ -127,7 +127,7 @@ HEADS = {"title-1-mb": STUDY_HEAD.replace('title = "Test study"', 'title = "' + 
 
 
 @pytest.mark.parametrize("case_id, body, files, head, expected", CASES, ids=[c[0] for c in CASES])
-def test_hostile_input_is_one_line_exit_2(make_study, tmp_path, capsys, case_id, body, files, head, expected):
+def test_hostile_input_is_one_line_exit_2(make_study, tmp_path, outside, capsys, case_id, body, files, head, expected):
     files = {"calibration.csv": CAL} if files is None else files
     study = make_study(body, files, head=HEADS[case_id] if head is None else STUDY_HEAD + head)
     code = main(["check", str(study)])
@@ -135,8 +135,8 @@ def test_hostile_input_is_one_line_exit_2(make_study, tmp_path, capsys, case_id,
     assert (code, err) == (2, f"validator: error: {expected.format(dir=tmp_path)}\n")
     assert out == "" and err.count("\n") == 1
     # `run` refuses the same way and writes nothing
-    code = main(["run", str(study), "--out", str(tmp_path / "out"), "--format", "json"])
-    assert code == 2 and not (tmp_path / "out").exists()
+    code = main(["run", str(study), "--out", str(outside / "out"), "--format", "json"])
+    assert code == 2 and not (outside / "out").exists()
     assert capsys.readouterr().err.count("\n") == 1
 
 
@@ -220,7 +220,7 @@ def test_library_warnings_and_log_records_never_reach_stderr(monkeypatch, capsys
     assert logging.getLogger().handlers == handlers   # the silencing handler is removed again
 
 
-def test_warnings_stay_off_stderr_in_a_real_process(tmp_path):
+def test_warnings_stay_off_stderr_in_a_real_process(tmp_path, outside):
     """The whole command in a subprocess: stderr is empty on success (real stderr, no capture)."""
     import os
     import subprocess
@@ -231,17 +231,17 @@ def test_warnings_stay_off_stderr_in_a_real_process(tmp_path):
                                          '[detection]\nreporting_basis = "blank-sd"\n')
     env = dict(os.environ, PYTHONPATH=str(REPO), PYTHONWARNINGS="always")
     r = subprocess.run([sys.executable, "-m", "validator", "run", str(tmp_path / "study.toml"), "--out",
-                        str(tmp_path / "out"), "--format", "json"], capture_output=True, text=True, env=env)
+                        str(outside / "out"), "--format", "json"], capture_output=True, text=True, env=env)
     assert r.returncode in (0, 1) and r.stderr == ""
 
 
 @pytest.mark.slow
-def test_mathtext_in_unit_and_analyte_name_is_drawn_literally(make_study, tmp_path, capsys):
+def test_mathtext_in_unit_and_analyte_name_is_drawn_literally(make_study, outside, capsys):
     """``$\\frac{$`` once crashed matplotlib's mathtext parser (exit 3); it is now plain text."""
     head = STUDY_HEAD.replace('concentration_unit = "mg/L"', 'concentration_unit = "$\\\\frac{$"')
     cal = "analyte,concentration,response\n" + "".join(f"$\\frac{{$,{line}\n" for line in CAL.splitlines()[1:])
     study = make_study(CALIB, {"calibration.csv": cal}, head=head)
-    out = tmp_path / "out"
+    out = outside / "out"
     code = main(["run", str(study), "--out", str(out), "--format", "html,pdf,json"])
     captured = capsys.readouterr()
     assert code in (0, 1) and captured.err == ""

@@ -446,10 +446,12 @@ def test_quadratic_without_previous_points_is_not_applicable_and_not_passed(tmp_
     doc = json.loads(EXAMPLE_PREVIOUS.read_text())
     assert doc["analytes"][1]["calibration"]["model"] == "quadratic"
     doc["analytes"][1]["calibration"]["back_calculated"] = []
-    (tmp_path / "prev.json").write_text(json.dumps(doc))
+    (tmp_path / "earlier").mkdir()
+    (tmp_path / "earlier" / "prev.json").write_text(json.dumps(doc))
     x = np.repeat([0.05, 0.1, 0.5, 1, 2], 2)
     y = 0.38 * x - 0.01 * x**2 + 0.001 * np.cos(np.arange(x.size))
-    code, out = _current(tmp_path, tmp_path / "prev.json", x, y, study_id="fluoride", formats="json,html")
+    code, out = _current(tmp_path, tmp_path / "earlier" / "prev.json", x, y, study_id="fluoride",
+                         formats="json,html")
     a = json.loads((out / "results.json").read_text())["analytes"][0]
     rv = a["revalidation"]
     assert rv["basis"] == "summary statistics" and rv["slope"]["verdict"] == "not applicable"
