@@ -5,7 +5,8 @@ Run with ``python benchmarks/bench_rows.py 10000 100000 1000000`` (repeats with
 line ``validator run --format json`` in a fresh interpreter (interpreter start
 and imports included, as a user sees them); peak memory is the child's maximum
 resident set size from ``resource.getrusage``. One analyte, 10 levels, straight
-line, no weighting, 3 samples. Synthetic data are invented (fixed seed), for
+line, no weighting, 3 samples (``--worst``: every concentration distinct,
+model and weighting "auto", so five weightings and two models are fitted). Synthetic data are invented (fixed seed), for
 timing only. The machine's load (``os.getloadavg``) is printed beside each line
 because timings on a shared machine drift.
 """
@@ -25,10 +26,11 @@ from pathlib import Path
 import numpy as np
 
 
-def make_study(folder: Path, rows: int) -> Path:
+def make_study(folder: Path, rows: int, worst: bool = False) -> Path:
+    """One analyte; ``worst``: every concentration distinct, model and weighting "auto"."""
     rng = np.random.default_rng(rows)
     levels = np.array([0.5, 1, 2, 5, 10, 20, 50, 100, 200, 500])
-    x = np.resize(levels, rows)
+    x = rng.uniform(0.5, 500, rows).round(6) if worst else np.resize(levels, rows)
     y = 0.02 + 1.7 * x + rng.normal(0, 0.05, rows)
     with open(folder / "calibration.csv", "w") as fh:
         fh.write("analyte,concentration,response\n")
@@ -38,7 +40,8 @@ def make_study(folder: Path, rows: int) -> Path:
     study.write_text(f'[study]\nid = "ROWS-{rows}"\ntitle = "Benchmark with {rows} calibration rows"\n'
                      'concentration_unit = "mg/L"\nresponse_unit = "area"\n'
                      '[calibration]\ndata = "calibration.csv"\n'
-                     '[samples]\ndata = "samples.csv"\n')
+                     + ('model = "auto"\nweighting = "auto"\n' if worst else "")
+                     + '[samples]\ndata = "samples.csv"\n')
     return study
 
 
@@ -65,13 +68,15 @@ def main(argv=None):
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("rows", type=int, nargs="+")
     parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--worst", action="store_true",
+                        help='every concentration distinct, model and weighting "auto"')
     args = parser.parse_args(argv)
     print("| rows | median wall (s) | peak RSS (MiB) | results.json (MiB) | load average (1 min) |")
     print("|---:|---:|---:|---:|---:|")
     for rows in args.rows:
         with tempfile.TemporaryDirectory() as tmp:
             folder = Path(tmp)
-            study = make_study(folder, rows)
+            study = make_study(folder, rows, args.worst)
             runs = [run_once(study, folder / f"out{i}") for i in range(args.repeat)]
             wall = statistics.median(r[0] for r in runs)
             peak = max(r[1] for r in runs)
