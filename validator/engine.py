@@ -13,8 +13,8 @@ import numpy as np
 from scipy import stats
 from ._common import quiet_numpy
 from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
-from .criteria import (calibration_criteria, loq_criterion, overall_verdict, precision_criteria,
-                       recovery_criteria, reference_material_criterion)
+from .criteria import (at_most, calibration_criteria, comparison_criteria, loq_criterion, overall_verdict,
+                       precision_criteria, recovery_criteria, reference_material_criterion)
 from .detection import DetectionResult, assess_detection
 from .precision import assess_precision_level
 from .recovery import assess_recovery, assess_reference_material
@@ -197,20 +197,23 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         comparison = assess_comparison(ids, ref, test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
                                        intercept_limits=cc.intercept_limits,
                                        percentage=cc.percentage_differences, alpha=alpha)
-        criteria.append(Criterion("method-comparison", comparison.basis, None, None, comparison.passed))
+        criteria += comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits)
     if data.previous is not None:
         rc = config.revalidation
         reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
+        change_ci = reval.slope.change_ci_pct
         criteria.append(Criterion("slope-equivalence",
-                                  f"90 % CI of the slope change inside ±{rc.slope_change_max_pct:g} % of the "
-                                  "previous validation", reval.slope.change_pct, rc.slope_change_max_pct,
+                                  f"{100 * change_ci.level:g} % CI of the slope change inside "
+                                  f"±{rc.slope_change_max_pct:g} % of the previous validation",
+                                  [change_ci.low, change_ci.high],
+                                  [-rc.slope_change_max_pct, rc.slope_change_max_pct],
                                   reval.slope.verdict == "equivalent", reval.slope.verdict))
         criteria.append(Criterion("residual-sd-ratio",
                                   f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
                                   reval.residual_sd_ratio, rc.residual_sd_ratio_max,
-                                  reval.residual_sd_ratio <= rc.residual_sd_ratio_max))
+                                  at_most(reval.residual_sd_ratio, rc.residual_sd_ratio_max)))
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
                          criteria=tuple(criteria), bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=detection,

@@ -242,7 +242,7 @@ def _analyte(a, previous=None):
         "reference_material": _reference_material(a.reference_material),
         "revalidation": _revalidation(a.revalidation, previous),
         "comparison": _comparison(a.comparison),
-        "criteria": [{"id": c.id, "description": c.description, "value": num(c.value),
+        "criteria": [{"id": c.id, "description": c.description, "value": _limit(c.value),
                       "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
         "diagnostics": list(a.calibration.diagnostics),
         "not_applicable": _not_applicable(a),
