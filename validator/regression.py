@@ -53,11 +53,30 @@ from scipy import linalg, stats
 
 from ._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "EXACT_RTOL"]
+__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "EXACT_RTOL",
+           "MAGNITUDE_LIMIT", "first_out_of_range"]
 
 MODELS = {"linear": (0, 1), "quadratic": (0, 1, 2), "origin": (1,)}
 _NAMES = {0: "intercept", 1: "slope", 2: "quadratic"}
 EXACT_RTOL = 1e-9           # exact fit: s(y/x) <= EXACT_RTOL * spread of the responses
+MAGNITUDE_LIMIT = 1e50      # non-zero data must lie in [1/MAGNITUDE_LIMIT, MAGNITUDE_LIMIT] in magnitude
+
+
+def first_out_of_range(values) -> int | None:
+    """Index of the first value whose non-zero magnitude is outside [1e-50, 1e50], or None.
+
+    Notes
+    -----
+    The statistics square data and combine them in products such as the
+    variance of a quadratic coefficient, of order (y / x^2)^2. With every
+    non-zero |x| and |y| in [1e-50, 1e50] such terms stay within 1e-300 to
+    1e300, inside float64's normal range (about 2.2e-308 to 1.8e308); outside
+    it they would overflow to infinity or underflow to zero and give wrong
+    verdicts (a real lack of fit called "zero pure error"). Zero is allowed.
+    """
+    a = np.abs(np.asarray(values, float))
+    bad = np.flatnonzero(~np.isfinite(a) | (a > MAGNITUDE_LIMIT) | ((a > 0) & (a < 1 / MAGNITUDE_LIMIT)))
+    return int(bad[0]) if bad.size else None
 
 
 @dataclass(frozen=True)
