@@ -159,6 +159,9 @@ def _known_reasons(a) -> dict:
         elif b.found is None or not np.isfinite(b.found):
             out[f"calibration.back_calculated.{i}"] = ("the response lies beyond the vertex of the quadratic; "
                                                        "no concentration corresponds to it")
+    for i, e in enumerate(a.detection.estimates if a.detection is not None else ()):
+        if e.loq is None and e.lod is not None:
+            out[f"detection.estimates.{i}.loq"] = e.reason or "no quantitation limit is defined on this basis"
     wr = a.working_range
     if wr is not None:
         out["working_range"] = wr.basis or "no calibrator passed its back-calculation"
