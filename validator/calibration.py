@@ -416,7 +416,9 @@ def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
     tq = fit.t_quantile
     reason = ""
     if not np.isfinite(se):
-        reason = "the weight at this concentration cannot be computed (zero or negative value)"
+        reason = ("the weight at this concentration cannot be computed (zero or negative value)"
+                  if not w0 > 0 else "the calibration function is flat at this concentration (zero slope), "
+                  "so the standard error does not exist")
     within = bool(inside and lo <= x0 <= hi)
     return SampleResult(sample_id, m, y0, x0, se, ConfidenceInterval(x0 - tq * se, x0 + tq * se, level),
                         within, reason)
