@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import resource
 import statistics
 import subprocess
 import sys

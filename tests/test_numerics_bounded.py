@@ -11,7 +11,6 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator import calibration
 from validator.calibration import analyse_calibration, back_calculate
 from validator.regression import PolynomialFit, fit_polynomial
 from validator.results import dumps

@@ -7,7 +7,6 @@ statistic; these tests check it as a property and at each place criteria are bui
 import math
 
 import numpy as np
-import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
