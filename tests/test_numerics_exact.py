@@ -120,3 +120,18 @@ def test_offset_and_scale_change_only_what_they_should(offset, exponent):
     assert moved.coefficients["intercept"].estimate == pytest.approx(
         (base.coefficients["intercept"].estimate + offset) * k, rel=1e-9, abs=1e-6 * k)
     assert moved.r_squared == pytest.approx(base.r_squared, rel=1e-9)
+
+
+@pytest.mark.parametrize("offset", [0.0, 2.0**20, -(2.0**30)])
+def test_norris_with_a_response_offset_keeps_its_certified_values(offset):
+    from conftest import load_strd
+    d = load_strd("Norris.dat")
+    fit = fit_polynomial(d[:, 1], d[:, 0] + offset, model="linear")
+    # NIST StRD Norris, certified values; the offset moves only the intercept (the data, with one
+    # decimal, gain a rounding error below 2.4e-7 from the addition, far below s = 0.88)
+    assert not fit.exact
+    assert fit.coefficients["slope"].estimate == pytest.approx(1.00211681802045, rel=1e-9)
+    assert fit.coefficients["slope"].std_error == pytest.approx(0.429796848199937e-03, rel=1e-8)
+    assert fit.residual_sd == pytest.approx(0.884796396144373, rel=1e-8)
+    assert fit.coefficients["intercept"].estimate - offset == pytest.approx(-0.262323073774029, abs=1e-6)
+    assert fit.r_squared == pytest.approx(0.999993745883712, rel=1e-9)
