@@ -217,10 +217,9 @@ def _not_applicable(a, entry: dict) -> list:
         prefixes = [".".join(parts[:cut]) for cut in range(len(parts), 0, -1)]
         if any(p in covered for p in prefixes):
             continue
-        found = _own_reason(entry, path)
-        if found is None:
-            prefix = next((p for p in prefixes if p in known), None)
-            found = (prefix, known[prefix]) if prefix is not None else None
+        prefix = next((p for p in prefixes if p in known), None)
+        candidates = [c for c in (_own_reason(entry, path), (prefix, known.get(prefix))) if c and c[0]]
+        found = max(candidates, key=lambda c: c[0].count("."), default=None)     # the most specific
         if found is not None and found[0] not in listed:
             listed.add(found[0])
             out.append({"item": found[0], "reason": found[1]})
