@@ -35,7 +35,7 @@ from scipy import stats
 from statsmodels.stats.diagnostic import het_breuschpagan
 
 from ._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
-from .regression import PolynomialFit, fit_polynomial, raw_weights
+from .regression import EXACT_RTOL, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
     "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
@@ -135,16 +135,14 @@ def lack_of_fit(fit: PolynomialFit) -> TestResult:
         return not_applicable(method, f"{k} distinct concentrations leave no degrees of freedom "
                                       f"for lack of fit with {p} parameters")
     w, y = fit.weights, fit.y
-    ss_pe = 0.0
-    for level in levels:
-        m = fit.x == level
-        ybar = np.sum(w[m] * y[m]) / np.sum(w[m])
-        ss_pe += float(np.sum(w[m] * (y[m] - ybar) ** 2))
+    group = np.unique(fit.x, return_inverse=True)[1]            # O(n log n), one pass per sum
+    ybar = np.bincount(group, w * y) / np.bincount(group, w)
+    ss_pe = float(np.sum(w * (y - ybar[group]) ** 2))
     ss_lof = max(fit.ssr - ss_pe, 0.0)
     d1, d2 = k - p, n - k
     if fit.exact:
         return not_applicable(method, "the fit is exact (zero residual SD)")
-    if ss_pe <= 1e-18 * np.sum(w * y**2):
+    if ss_pe <= (EXACT_RTOL * fit.response_spread) ** 2 * n:     # relative to the centred SS_tot
         return not_applicable(method, "replicates are identical (zero pure error)")
     F = (ss_lof / d1) / (ss_pe / d2)
     return TestResult(method, float(F), float(stats.f.sf(F, d1, d2)), (d1, d2))
@@ -183,19 +181,25 @@ def back_calculate(fit: PolynomialFit, tolerance_pct: float, lowest_tolerance_pc
     against ``tolerance_pct``; nominal zero is reported, not judged.
     Common practice in bioanalytical validation (ICH M10, sec. 3.2.5.1 and
     EMA 2011 guideline: +/-15 %, +/-20 % at the LLOQ).
+    The work is O(n): the inverse is computed for all responses at once by
+    :meth:`PolynomialFit.inverse_many`.
     """
-    nonzero = fit.x[fit.x > 0]
+    x, y = fit.x, fit.y
+    nonzero = x[x > 0]
     lowest = float(nonzero.min()) if nonzero.size else None
+    found, _ = fit.inverse_many(y)
+    with quiet_numpy():
+        dev = 100.0 * (found - x) / x
+    tol = np.where(x == lowest, lowest_tolerance_pct, tolerance_pct) if lowest is not None else \
+        np.full(x.shape, float(tolerance_pct))
+    ok = np.isfinite(dev) & (np.abs(dev) <= tol)
     out = []
-    for xi, yi in zip(fit.x, fit.y):
-        found, _ = fit.inverse(float(yi))
+    for xi, yi, fi, di, ti, oi in zip(x.tolist(), y.tolist(), found.tolist(), dev.tolist(), tol.tolist(),
+                                      ok.tolist()):
         if xi == 0:
-            out.append(BackCalculated(float(xi), float(yi), found, None, None, None))
-            continue
-        tol = lowest_tolerance_pct if xi == lowest else tolerance_pct
-        dev = 100.0 * (found - xi) / xi
-        ok = bool(np.isfinite(dev) and abs(dev) <= tol)
-        out.append(BackCalculated(float(xi), float(yi), found, float(dev), tol, ok))
+            out.append(BackCalculated(xi, yi, fi, None, None, None))
+        else:
+            out.append(BackCalculated(xi, yi, fi, di, ti, oi))
     return tuple(out)
 
 
@@ -259,7 +263,8 @@ def _levene(x, y) -> TestResult:
     levels, counts = _levels(x)
     if levels.size < 2 or counts.min() < 3:
         return not_applicable(method, "needs at least 3 replicates at every concentration")
-    groups = [np.asarray(y)[np.asarray(x) == lv] for lv in levels]
+    order = np.argsort(x, kind="stable")                        # O(n log n), not one pass per level
+    groups = np.split(np.asarray(y)[order], np.cumsum(counts)[:-1])
     if all(np.ptp(g) == 0 for g in groups):
         return not_applicable(method, "every level has identical replicates")
     with quiet_numpy():
@@ -288,7 +293,7 @@ def _outliers(fit: PolynomialFit, alpha: float):
     t_limit = float(stats.t.ppf(1 - alpha / (2 * n), n - p - 1))
     d_limit = float(stats.f.ppf(0.5, p, n - p))
     flags = []
-    for i in range(n):
+    for i in np.flatnonzero((np.abs(t) > t_limit) | (cooks > d_limit)):
         reasons = []
         if abs(t[i]) > t_limit:
             reasons.append("studentised residual")
@@ -485,7 +490,9 @@ def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
     tq = fit.t_quantile
     reason = ""
     if not np.isfinite(se):
-        reason = "the weight at this concentration cannot be computed (zero or negative value)"
+        reason = ("the weight at this concentration cannot be computed (zero or negative value)"
+                  if not w0 > 0 else "the calibration function is flat at this concentration (zero slope), "
+                  "so the standard error does not exist")
     within = bool(inside and lo <= x0 <= hi)
     return SampleResult(sample_id, m, y0, x0, se, ConfidenceInterval(x0 - tq * se, x0 + tq * se, level),
                         within, reason)

@@ -13,8 +13,9 @@ import numpy as np
 from scipy import stats
 from ._common import quiet_numpy
 from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
-from .criteria import (calibration_criteria, loq_criterion, overall_verdict, precision_criteria,
-                       recovery_criteria, reference_material_criterion)
+from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
+                       overall_verdict,
+                       precision_criteria, recovery_criteria, reference_material_criterion)
 from .detection import DetectionResult, assess_detection
 from .precision import assess_precision_level
 from .recovery import assess_recovery, assess_reference_material
@@ -198,8 +199,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         comparison = assess_comparison(ids, ref, test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
                                        intercept_limits=cc.intercept_limits,
                                        percentage=cc.percentage_differences, alpha=alpha)
-        criteria.append(Criterion("method-comparison", comparison.basis, None, None, comparison.passed,
-                                  "" if comparison.passed is not None else f"not applicable: {comparison.reason}"))
+        criteria += comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits)
     if data.previous is not None:
         rc = config.revalidation
         reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),
@@ -219,16 +219,18 @@ def _revalidation_criteria(reval, rc) -> list:
     sl = reval.slope
     what = sl.quantity if sl.sensitivity_range is None else \
         f"{sl.quantity} over {sl.sensitivity_range[0]:g} to {sl.sensitivity_range[1]:g}"
-    level = "" if sl.change_ci_pct is None else f"{100 * sl.change_ci_pct.level:g} % "
+    ci = sl.change_ci_pct
+    level = "" if ci is None else f"{100 * ci.level:g} % "
+    value = None if ci is None else [ci.low, ci.high]
+    margin = [-rc.slope_change_max_pct, rc.slope_change_max_pct]
     slope = Criterion("slope-equivalence",
                       f"{level}CI of the {what} change inside ±{rc.slope_change_max_pct:g} % of the previous "
-                      "validation", sl.change_pct, rc.slope_change_max_pct,
-                      None if sl.change_ci_pct is None else sl.verdict == "equivalent",
-                      sl.reason if sl.change_ci_pct is None else sl.verdict)
+                      "validation", value, margin, interval_within(value, margin),
+                      f"not applicable: {sl.reason}" if ci is None else sl.verdict)
     ratio = reval.residual_sd_ratio
     sd = Criterion("residual-sd-ratio", f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
-                   ratio, rc.residual_sd_ratio_max, None if ratio is None else ratio <= rc.residual_sd_ratio_max,
-                   "the previous residual SD is zero, so no ratio exists" if ratio is None else "")
+                   ratio, rc.residual_sd_ratio_max, at_most(ratio, rc.residual_sd_ratio_max),
+                   "not applicable: the previous residual SD is zero, so no ratio exists" if ratio is None else "")
     return [slope, sd]
 
 

@@ -16,6 +16,7 @@ import numpy as np
 
 from .csvdata import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from .errors import DataError, StudyError, shorten, show
+from .regression import MAGNITUDE_LIMIT, first_out_of_range
 from .study import StudyFile, read_study_file
 
 __all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
@@ -125,6 +126,18 @@ class _Reader:
         return read_table(data, path, delimiter=self.delimiter, required=required, optional=optional)
 
 
+def _numbers(table, column: str, decimal: str) -> np.ndarray:
+    """A numeric column, refused when a value's magnitude is beyond what the statistics can square."""
+    values = np.array(table.numbers(column, decimal))
+    i = first_out_of_range(values)
+    if i is not None:
+        raise DataError(f"{column} {table.columns[column][i]} is outside the magnitudes validator can "
+                        f"compute with (non-zero values from {1 / MAGNITUDE_LIMIT:g} to {MAGNITUDE_LIMIT:g}, "
+                        "so that squares and products of the data stay finite); rescale the unit",
+                        file=table.path, row=table.rows[i], column=column, value=values[i])
+    return values
+
+
 def _check_weighting(weighting: str, table, idx, x, y):
     if weighting in ("1/x", "1/x^2"):
         for i in idx:
@@ -145,8 +158,8 @@ def _calibration(reader: _Reader):
     cfg = reader.study.config
     table = reader.table("calibration", cfg.calibration.data, ("concentration", "response"),
                          ("analyte", "series"))
-    x = np.array(table.numbers("concentration", reader.decimal))
-    y = np.array(table.numbers("response", reader.decimal))
+    x = _numbers(table, "concentration", reader.decimal)
+    y = _numbers(table, "response", reader.decimal)
     for i, xi in enumerate(x):
         if xi < 0:
             raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
@@ -199,7 +212,7 @@ def _samples(reader: _Reader, analytes: dict):
         return {}
     table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
-    responses = table.numbers("response", reader.decimal)
+    responses = _numbers(table, "response", reader.decimal).tolist()
     seen = {}
     for sid, row in zip(ids, table.rows):
         key = " ".join(sid.split()).casefold()
@@ -230,7 +243,7 @@ def _blanks(reader, analytes):
     if cfg.blanks is None:
         return {}
     table = reader.table("blanks", cfg.blanks.data, ("response",), ("analyte",))
-    y = np.array(table.numbers("response", reader.decimal))
+    y = _numbers(table, "response", reader.decimal)
     return {name: y[idx] for name, idx in _analyte_rows(table, analytes, "blank").items() if idx}
 
 
@@ -239,10 +252,10 @@ def _recovery(reader, analytes):
     if cfg.recovery is None:
         return {}
     table = reader.table("recovery", cfg.recovery.data, ("added", "found"), ("native", "analyte", "series"))
-    added = np.array(table.numbers("added", reader.decimal))
+    added = _numbers(table, "added", reader.decimal)
     _positive(table, "added", added)
-    found = np.array(table.numbers("found", reader.decimal))
-    native = np.array(table.numbers("native", reader.decimal)) if table.has("native") else np.zeros_like(added)
+    found = _numbers(table, "found", reader.decimal)
+    native = _numbers(table, "native", reader.decimal) if table.has("native") else np.zeros_like(added)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     return {name: RecoveryData(added[idx], found[idx], native[idx], tuple(series[i] for i in idx))
             for name, idx in _analyte_rows(table, analytes, "recovery result").items() if idx}
@@ -253,9 +266,9 @@ def _precision(reader, analytes):
     if cfg.precision is None:
         return {}
     table = reader.table("precision", cfg.precision.data, ("level", "series", "found"), ("analyte",))
-    level = np.array(table.numbers("level", reader.decimal))
+    level = _numbers(table, "level", reader.decimal)
     series = table.texts("series")
-    table.numbers("found", reader.decimal)
+    _numbers(table, "found", reader.decimal)
     out = {}
     for name, idx in _analyte_rows(table, analytes, "precision result").items():
         if not idx:
@@ -277,7 +290,7 @@ def _reference_material(reader, analytes):
         raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
                          key="reference_material.analyte", value=name)
     table = reader.table("reference_material", cfg.data, ("found",), ())
-    return {name: np.array(table.numbers("found", reader.decimal))}
+    return {name: _numbers(table, "found", reader.decimal)}
 
 
 def _comparison(reader, analytes):
@@ -286,8 +299,8 @@ def _comparison(reader, analytes):
         return {}
     table = reader.table("comparison", cfg.data, ("sample", "reference", "test"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
-    ref = np.array(table.numbers("reference", reader.decimal))
-    test = np.array(table.numbers("test", reader.decimal))
+    ref = _numbers(table, "reference", reader.decimal)
+    test = _numbers(table, "test", reader.decimal)
     out = {}
     for name, idx in _analyte_rows(table, analytes, "comparison result").items():
         if not idx:

@@ -12,8 +12,13 @@ For numerical stability the problem is solved in a centred and scaled
 variable u = (x - c)/s (c = weighted mean of x, or 0 through the origin;
 s = weighted SD of x, or the largest |x| through the origin) by a QR
 decomposition of the weighted design matrix, never by forming X'WX. The
-coefficients and their covariance are transformed back to powers of x
-exactly by the binomial expansion of ((x - c)/s)^k. This reproduces the NIST
+responses are centred and scaled the same way, v = (y - m)/d (m = weighted
+mean of y, or 0 through the origin; d = sqrt(SS_tot/n), the spread of the
+responses about m), so that neither a large offset nor a magnitude near the
+ends of the float64 range enters the solve: the fit is invariant to these
+affine maps, the coefficients in v are multiplied back by d and m is added
+to the constant term. The coefficients and their covariance are transformed
+back to powers of x exactly by the binomial expansion of ((x - c)/s)^k. This reproduces the NIST
 StRD certified values for Norris, Pontius, NoInt1 and NoInt2 to 9 or more
 significant digits (see tests/test_regression_nist.py).
 
@@ -21,6 +26,10 @@ Residual variance s^2 = sum w_i e_i^2 / (n - p); the residual standard
 deviation s(y/x) = sqrt(s^2). Cov(beta) = s^2 (X'WX)^-1. R^2 = 1 - SS_res/SS_tot
 with SS_tot centred on the weighted mean, or uncentred (sum w y^2) through the
 origin, as statsmodels reports it.
+
+The fit is called exact (passes through every point to rounding error) when
+s(y/x) <= 1e-9 d: judged against the spread of the responses, never against
+their magnitude, so that adding a constant to every response changes nothing.
 
 References
 ----------
@@ -44,10 +53,30 @@ from scipy import linalg, stats
 
 from ._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS"]
+__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "EXACT_RTOL",
+           "MAGNITUDE_LIMIT", "first_out_of_range"]
 
 MODELS = {"linear": (0, 1), "quadratic": (0, 1, 2), "origin": (1,)}
 _NAMES = {0: "intercept", 1: "slope", 2: "quadratic"}
+EXACT_RTOL = 1e-9           # exact fit: s(y/x) <= EXACT_RTOL * spread of the responses
+MAGNITUDE_LIMIT = 1e50      # non-zero data must lie in [1/MAGNITUDE_LIMIT, MAGNITUDE_LIMIT] in magnitude
+
+
+def first_out_of_range(values) -> int | None:
+    """Index of the first value whose non-zero magnitude is outside [1e-50, 1e50], or None.
+
+    Notes
+    -----
+    The statistics square data and combine them in products such as the
+    variance of a quadratic coefficient, of order (y / x^2)^2. With every
+    non-zero |x| and |y| in [1e-50, 1e50] such terms stay within 1e-300 to
+    1e300, inside float64's normal range (about 2.2e-308 to 1.8e308); outside
+    it they would overflow to infinity or underflow to zero and give wrong
+    verdicts (a real lack of fit called "zero pure error"). Zero is allowed.
+    """
+    a = np.abs(np.asarray(values, float))
+    bad = np.flatnonzero(~np.isfinite(a) | (a > MAGNITUDE_LIMIT) | ((a > 0) & (a < 1 / MAGNITUDE_LIMIT)))
+    return int(bad[0]) if bad.size else None
 
 
 @dataclass(frozen=True)
@@ -92,6 +121,8 @@ class PolynomialFit:
     weight_factor: float            # normalised = weight_factor * raw
     centre: float
     scale: float
+    response_centre: float          # m: weighted mean of y (0 through the origin)
+    response_spread: float          # d = sqrt(SS_tot / n) about m
     beta_u: np.ndarray = field(repr=False, compare=False)     # coefficients in u
     cov_u: np.ndarray = field(repr=False, compare=False)      # (U'WU)^-1, unscaled
     leverage: np.ndarray = field(repr=False, compare=False)
@@ -113,9 +144,12 @@ class PolynomialFit:
     def exact(self) -> bool:
         """True when the fit passes through every point (to rounding error).
 
-        Tests that need residual scatter are then not applicable.
+        Judged against the spread of the responses about their weighted mean
+        (``response_spread``), so that an offset added to every response does
+        not change the verdict. Tests that need residual scatter are then not
+        applicable.
         """
-        return bool(self.residual_sd <= 1e-9 * np.max(np.abs(self.y)))
+        return bool(self.residual_sd <= EXACT_RTOL * self.response_spread)
 
     @property
     def residual_sd(self) -> float:
@@ -173,31 +207,57 @@ class PolynomialFit:
 
         Returns ``(x0, inside)``: for a quadratic, the real root inside the
         calibrated range if there is one, else the root nearest to it;
-        ``x0`` is NaN when no real root exists.
+        ``x0`` is NaN when no real root exists. See :meth:`inverse_many`.
         """
+        x0, inside = self.inverse_many(np.array([float(y0)]))
+        return float(x0[0]), bool(inside[0])
+
+    def inverse_many(self, y0) -> tuple:
+        """:meth:`inverse` for an array of responses, in O(n) work.
+
+        Returns ``(x0, inside)``, two arrays shaped like ``y0``. The
+        calibrated range [min x, max x] is found once for the whole array.
+
+        Notes
+        -----
+        Straight line: u0 = (y0 - b0)/b1 (u0 = y0/b1 through the origin).
+        Quadratic b0 + b1 u + b2 u^2 = y0: with c0 = b0 - y0, q = -(b1 +
+        sign(b1) sqrt(b1^2 - 4 b2 c0))/2 the roots are q/b2 and c0/q, the
+        cancellation-free form (Press et al., Numerical Recipes, 3rd ed.,
+        sec. 5.6); no real root when b1^2 - 4 b2 c0 < 0. x0 = c + s u0.
+        """
+        y0 = np.asarray(y0, float)
         b = self.beta_u
         lo, hi = float(self.x.min()), float(self.x.max())
-        if self.powers == (1,):
-            u = y0 / b[0]
-            roots = [u]
-        elif self.powers == (0, 1):
-            roots = [(y0 - b[0]) / b[1]]
-        else:
-            c0, c1, c2 = b[0] - y0, b[1], b[2]
-            disc = c1 * c1 - 4 * c2 * c0
-            if c2 == 0:
-                roots = [-c0 / c1]
-            elif disc < 0:
-                return float("nan"), False
+        with quiet_numpy():
+            if self.powers == (1,):
+                roots = [y0 / b[0]]
+            elif self.powers == (0, 1):
+                roots = [(y0 - b[0]) / b[1]]
+            elif b[2] == 0:
+                roots = [-(b[0] - y0) / b[1]]
             else:
-                q = -0.5 * (c1 + np.copysign(np.sqrt(disc), c1))   # stable roots
-                roots = [q / c2, c0 / q] if q != 0 else [0.0]
-        xs = [self.centre + self.scale * u for u in roots]
-        inside = [x for x in xs if lo <= x <= hi]
-        if inside:
-            return float(inside[0]), True
-        best = min(xs, key=lambda x: min(abs(x - lo), abs(x - hi)))
-        return float(best), False
+                c0, c1, c2 = b[0] - y0, b[1], b[2]
+                disc = c1 * c1 - 4 * c2 * c0
+                root = np.sqrt(np.where(disc >= 0, disc, np.nan))       # NaN: no real root
+                q = -0.5 * (c1 + np.copysign(root, c1))                 # stable roots
+                roots = [np.where(q != 0, q / c2, 0.0), np.where(q != 0, c0 / q, np.nan)]
+            xs = [self.centre + self.scale * u for u in roots]
+            inside = [(lo <= x) & (x <= hi) for x in xs]
+            if len(xs) == 1:
+                return xs[0], inside[0]
+            d1, d2 = (np.minimum(np.abs(x - lo), np.abs(x - hi)) for x in xs)
+            nearest = np.where(d2 < d1, xs[1], xs[0])       # a tie keeps the first root
+            x0 = np.where(inside[0], xs[0], np.where(inside[1], xs[1], nearest))
+        return x0, inside[0] | inside[1]
+
+
+def _rms(d: np.ndarray, w: np.ndarray) -> float:
+    """sqrt(sum w d^2 / sum w), computed on d / max|d| so that no square over- or underflows."""
+    big = float(np.max(np.abs(d)))
+    if not big > 0:
+        return 0.0
+    return big * float(np.sqrt(np.sum(w * (d / big) ** 2) / np.sum(w)))
 
 
 def _to_x_basis(powers: tuple, centre: float, scale: float) -> np.ndarray:
@@ -236,32 +296,36 @@ def fit_polynomial(x, y, *, model: str = "linear", weighting: str = "none",
     w = raw * factor
     if 0 in powers:
         centre = float(np.sum(w * x) / n)
-        scale = float(np.sqrt(np.sum(w * (x - centre) ** 2) / n))
+        scale = _rms(x - centre, w)
     else:
         centre, scale = 0.0, float(np.max(np.abs(x)))
     if not scale > 0:
         raise ValueError("all concentrations are identical")
     u = (x - centre) / scale
     U = np.column_stack([u**k for k in powers])
+    # centre and scale the responses too (see the module Notes); m is added back exactly below
+    y_centre = float(np.sum(w * y) / n) if 0 in powers else 0.0
+    spread = _rms(y - y_centre, w)
+    v = (y - y_centre) / spread if spread > 0 else y - y_centre
+    unit = spread if spread > 0 else 1.0
     sw = np.sqrt(w)
     Q, R = np.linalg.qr(sw[:, None] * U)
     if np.min(np.abs(np.diag(R))) <= 1e-12 * np.max(np.abs(np.diag(R))):
         raise ValueError(f"{model} fit is singular: too few distinct concentrations")
-    beta_u = linalg.solve_triangular(R, Q.T @ (sw * y))
+    beta_v = linalg.solve_triangular(R, Q.T @ (sw * v))
+    beta_u = beta_v * unit
+    if 0 in powers:
+        beta_u[powers.index(0)] += y_centre
     Rinv = linalg.solve_triangular(R, np.eye(p))
     cov_u = Rinv @ Rinv.T
     leverage = np.sum(Q**2, axis=1)
-    resid = y - U @ beta_u
+    resid_v = v - U @ beta_v
     df = n - p
-    ssr = float(np.sum(w * resid**2))
-    s2 = ssr / df
-    if 0 in powers:
-        ybar = np.sum(w * y) / n
-        sst = float(np.sum(w * (y - ybar) ** 2))
-    else:
-        sst = float(np.sum(w * y**2))
+    ssr_v = float(np.sum(w * resid_v**2))          # in units of d^2
+    sst_v = float(np.sum(w * v**2))
+    s2 = ssr_v / df * unit**2
     with quiet_numpy():
-        r2 = 1.0 - ssr / sst if sst > 0 else float("nan")
+        r2 = 1.0 - ssr_v / sst_v if sst_v > 0 else float("nan")
     T = _to_x_basis(powers, centre, scale)
     beta_x = T @ beta_u
     cov_x = s2 * (T @ cov_u @ T.T)
@@ -278,6 +342,7 @@ def fit_polynomial(x, y, *, model: str = "linear", weighting: str = "none",
             ci=ConfidenceInterval(est - tq * se, est + tq * se, 1 - alpha),
             statistic=t, pvalue=pval)
     return PolynomialFit(model=model, powers=powers, weighting=weighting, x=x, y=y, weights=w,
-                         weight_factor=float(factor), centre=centre, scale=scale, beta_u=beta_u,
+                         weight_factor=float(factor), centre=centre, scale=scale,
+                         response_centre=y_centre, response_spread=spread, beta_u=beta_u,
                          cov_u=cov_u, leverage=leverage, residual_variance=s2, df_resid=df,
                          r_squared=float(r2), coefficients=coefficients, alpha=alpha)

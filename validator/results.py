@@ -14,6 +14,8 @@ import platform
 from importlib import resources
 from importlib.metadata import PackageNotFoundError, version
 
+import numpy as np
+
 from ._common import finite_or_none as num
 from . import __version__
 
@@ -102,13 +104,127 @@ def _calibration(a):
     }
 
 
-def _not_applicable(a):
+SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
+_REASON_FIELDS = ("reason", "note", "notes")
+
+
+def null_paths(value, path: str = ""):
+    """Dotted paths (list items by index) of every ``null`` inside ``value``."""
+    if value is None:
+        yield path
+        return
+    items = value.items() if isinstance(value, dict) else enumerate(value) if isinstance(value, list) else ()
+    for k, v in items:
+        if v is None:
+            yield f"{path}.{k}" if path else str(k)
+        elif isinstance(v, (dict, list)):           # scalars need no recursion (a million residuals)
+            yield from null_paths(v, f"{path}.{k}" if path else str(k))
+
+
+def _lookup(entry: dict, path: str):
+    node = entry
+    for part in path.split("."):
+        node = node[int(part)] if isinstance(node, list) else node[part]
+    return node
+
+
+def _own_reason(entry: dict, path: str):
+    """(path, text) of the nearest object around ``path`` that states its own reason/note."""
+    parts = path.split(".")
+    for cut in range(len(parts) - 1, 0, -1):
+        node = _lookup(entry, ".".join(parts[:cut]))
+        if isinstance(node, dict):
+            text = "; ".join(str(node[f]) for f in _REASON_FIELDS if isinstance(node.get(f), str) and node[f])
+            if text:
+                return ".".join(parts[:cut]), text
+    return None
+
+
+def _known_reasons(a) -> dict:
+    """Reasons for nulls whose entry has no reason field of its own: path prefix -> reason."""
+    cal, fit = a.calibration, a.calibration.fit
+    out = {}
+    for name, c in fit.coefficients.items():
+        if c.statistic is None:
+            out[f"calibration.coefficients.{name}"] = "the standard error is zero (exact fit): no t test"
+    out["calibration.r"] = ("r is reported for a straight line only; see r_squared" if fit.n_params > 2
+                            else "R² does not exist for these data")
+    out["calibration.r_squared"] = "the responses do not vary about their mean: R² does not exist"
+    out["calibration.outliers"] = ("the fit is exact (zero residual SD): residuals cannot be studentised"
+                                   if fit.exact else "needs at least one residual degree of freedom after "
+                                   "leaving a point out (n - p - 1 >= 1)")
+    out["calibration.fraction_within_tolerance"] = "no calibrator with a non-zero nominal value"
+    for i, b in enumerate(cal.back_calculated):
+        if b.nominal == 0:
+            out[f"calibration.back_calculated.{i}"] = ("nominal 0: the % deviation is not defined and the "
+                                                       "calibrator is not judged")
+        elif b.found is None or not np.isfinite(b.found):
+            out[f"calibration.back_calculated.{i}"] = ("the response lies beyond the vertex of the quadratic; "
+                                                       "no concentration corresponds to it")
+    for i, e in enumerate(a.detection.estimates if a.detection is not None else ()):
+        if e.loq is None and e.lod is not None:
+            out[f"detection.estimates.{i}.loq"] = e.reason or "no quantitation limit is defined on this basis"
+    wr = a.working_range
+    if wr is not None:
+        out["working_range"] = wr.basis or "no calibrator passed its back-calculation"
+    if a.recovery is not None:
+        for i, lv in enumerate(a.recovery.levels):
+            out[f"recovery.levels.{i}"] = (f"{lv.n} result(s) at added {lv.added:g}: the SD, CI and t test "
+                                           "need at least 2" if lv.n < 2 else
+                                           "the results are identical (zero SD): no t test")
+    for i, lv in enumerate(a.precision or ()):
+        for name in ("cochran", "grubbs"):
+            test = getattr(lv, name)
+            if not test.applicable:
+                out[f"precision.levels.{i}.{name}"] = test.reason
+        out[f"precision.levels.{i}.horrat"] = out[f"precision.levels.{i}.horwitz_prsd_pct"] = (
+            lv.horwitz_note or "the Horwitz ratio needs a positive mean")
+    rm = a.reference_material
+    if rm is not None:
+        out["reference_material"] = (f"{rm.n} result(s): the SD and the uncertainty of the mean need at least 2"
+                                     if rm.n < 2 else "the value does not exist for these results")
+    if a.revalidation is not None:
+        out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
+        out["revalidation"] = ("; ".join(a.revalidation.reasons) or
+                               "the previous results.json has no value for it")
+    if a.comparison is not None:
+        out["comparison"] = (getattr(a.comparison, "reason", "") or
+                             "the value does not exist for these data (see the comparison basis)")
+    return out
+
+
+def _not_applicable(a, entry: dict) -> list:
+    """Every ``null`` test or estimate of the analyte entry, with its reason.
+
+    The calibration tests keep their short item names (``lack_of_fit``, ...)
+    and samples are named ``samples.<id>``; every other item is the dotted path,
+    in the analyte entry, of the null value or of the object holding it. A
+    section that was not assessed (``recovery``: null, ...) is not listed:
+    ``characteristics_assessed`` says so.
+    """
     cal = a.calibration
     tests = {"lack_of_fit": cal.lack_of_fit, "mandel": cal.mandel, "normality": cal.normality,
              "heteroscedasticity": cal.heteroscedasticity, "levene": cal.levene,
              "intercept_test": cal.intercept_test}
     out = [{"item": k, "reason": t.reason} for k, t in tests.items() if not t.applicable]
-    out += [{"item": f"samples.{s.id}", "reason": s.reason} for s in a.samples if s.reason]
+    covered = {f"calibration.{k}" for k, t in tests.items() if not t.applicable}
+    for i, s in enumerate(a.samples):
+        if s.reason:
+            out.append({"item": f"samples.{s.id}", "reason": s.reason})
+            covered.add(f"samples.{i}")
+    known = _known_reasons(a)
+    listed = set()
+    for path in null_paths({k: v for k, v in entry.items() if k not in SECTIONS or v is not None}):
+        parts = path.split(".")
+        prefixes = [".".join(parts[:cut]) for cut in range(len(parts), 0, -1)]
+        if any(p in covered for p in prefixes):
+            continue
+        prefix = next((p for p in prefixes if p in known), None)
+        candidates = [c for c in (_own_reason(entry, path), (prefix, known.get(prefix))) if c and c[0]]
+        found = max(candidates, key=lambda c: c[0].count("."), default=None)     # the most specific
+        if found is not None and found[0] not in listed:
+            listed.add(found[0])
+            out.append({"item": found[0], "reason": found[1]})
     return out
 
 
@@ -269,7 +385,7 @@ def _limit(v):
 
 def _analyte(a, previous=None):
     wr = a.working_range
-    return {
+    entry = {
         "name": a.name,
         "verdict": a.verdict,
         "characteristics_assessed": list(a.characteristics),
@@ -285,11 +401,12 @@ def _analyte(a, previous=None):
         "reference_material": _reference_material(a.reference_material),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": _comparison(a.comparison),
-        "criteria": [{"id": c.id, "description": c.description, "value": num(c.value),
+        "criteria": [{"id": c.id, "description": c.description, "value": _limit(c.value),
                       "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
         "diagnostics": list(a.calibration.diagnostics),
-        "not_applicable": _not_applicable(a),
     }
+    entry["not_applicable"] = _not_applicable(a, entry)
+    return entry
 
 
 def build_results(result, *, generated_at: str) -> dict:
@@ -319,6 +436,48 @@ def build_results(result, *, generated_at: str) -> dict:
     }
 
 
+_ITEM = json.JSONEncoder(ensure_ascii=False, allow_nan=False)
+
+
+def _flat(value) -> bool:
+    return not isinstance(value, (dict, list)) or (
+        isinstance(value, dict) and not any(isinstance(v, (dict, list)) for v in value.values()))
+
+
+def _encode(value, depth: int, out: list) -> None:
+    """Two-space indented JSON; a scalar or a flat object (no nested containers) takes one line."""
+    if _flat(value):
+        out.append(_ITEM.encode(value))
+        return
+    pad, inner = "\n" + "  " * depth, "\n" + "  " * (depth + 1)
+    items = value.items() if isinstance(value, dict) else value
+    if not items:
+        out.append("{}" if isinstance(value, dict) else "[]")
+        return
+    if isinstance(value, list) and all(map(_flat, value)):         # e.g. residuals: one join
+        out.append("[" + inner + ("," + inner).join(map(_ITEM.encode, value)) + pad + "]")
+        return
+    out.append("{" if isinstance(value, dict) else "[")
+    for i, item in enumerate(items):
+        out.append(inner if i == 0 else "," + inner)
+        if isinstance(value, dict):
+            out.append(_ITEM.encode(item[0]) + ": ")
+            item = item[1]
+        _encode(item, depth + 1, out)
+    out.append(pad + ("}" if isinstance(value, dict) else "]"))
+
+
 def dumps(results: dict) -> str:
-    """Serialise, refusing NaN/inf (they must have become null already)."""
-    return json.dumps(results, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    """Serialise, refusing NaN/inf (they must have become null already).
+
+    The layout is two-space indentation with every scalar, and every object
+    whose members are all scalars (a back-calculated calibrator, a criterion
+    without a range limit), on one line. Each line is made by the C encoder of
+    the json module, so time and memory grow linearly with the number of
+    calibration points, without the per-token overhead of ``json.dumps(...,
+    indent=2)`` (about 8 times the memory of the text for a million points).
+    """
+    out: list = []
+    _encode(results, 0, out)
+    out.append("\n")
+    return "".join(out)
