@@ -23,6 +23,9 @@ Y = 1 + 0.5 * X + 0.08 * X**2 + np.random.default_rng(7).normal(0, 0.01, X.size)
 
 
 def _run(tmp_path, capsys, x, y, model="linear", blanks=None):
+    out = tmp_path / "out"                  # outputs apart from the inputs (validator refuses --out inside them)
+    tmp_path = tmp_path / "inputs"
+    tmp_path.mkdir(exist_ok=True)
     (tmp_path / "cal.csv").write_text("concentration,response\n"
                                       + "".join(f"{a!r},{b!r}\n" for a, b in zip(map(float, x), map(float, y))))
     extra = ""
@@ -32,10 +35,10 @@ def _run(tmp_path, capsys, x, y, model="linear", blanks=None):
     (tmp_path / "study.toml").write_text(
         '[study]\nid = "X"\ntitle = "extremes"\nconcentration_unit = "u"\nresponse_unit = "a"\n'
         f'[calibration]\ndata = "cal.csv"\nmodel = "{model}"\n' + extra)
-    code = main(["run", str(tmp_path / "study.toml"), "--out", str(tmp_path / "out"), "--format", "json"])
+    code = main(["run", str(tmp_path / "study.toml"), "--out", str(out), "--format", "json"])
     _, err = capsys.readouterr()
     if code in (0, 1):
-        results = json.loads((tmp_path / "out" / "results.json").read_text())
+        results = json.loads((out / "results.json").read_text())
         jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
         return code, err, results["analytes"][0]
     return code, err, None

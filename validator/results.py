@@ -164,6 +164,12 @@ def _known_reasons(a) -> dict:
     for i, e in enumerate(a.detection.estimates if a.detection is not None else ()):
         if e.loq is None and e.lod is not None:
             out[f"detection.estimates.{i}.loq"] = e.reason or "no quantitation limit is defined on this basis"
+    for i, (source, _level, rsd, _rec) in enumerate(a.loq_check.levels if a.loq_check is not None else ()):
+        if source == "precision":
+            out[f"detection.loq_verification.levels.{i}.recovery_pct"] = (
+                "a precision level: recovery is not measured there")
+        if rsd is None:
+            out[f"detection.loq_verification.levels.{i}.rsd_pct"] = "no RSD exists at this level (see its section)"
     wr = a.working_range
     if wr is not None:
         out["working_range"] = wr.basis or "no calibrator passed its back-calculation"
@@ -173,6 +179,14 @@ def _known_reasons(a) -> dict:
                                            "need at least 2" if lv.n < 2 else
                                            "the results are identical (zero SD): no t test")
     for i, lv in enumerate(a.precision or ()):
+        an = lv.anova
+        if lv.reason:
+            out[f"precision.levels.{i}"] = lv.reason
+        elif an.df_within > 0 and not an.ms_within > 0:
+            out[f"precision.levels.{i}"] = ("the results within every series are identical (zero repeatability "
+                                           "variance): the F test and the intervals built on it do not exist")
+        else:
+            out[f"precision.levels.{i}"] = "the value does not exist for these results (see the level's notes)"
         for name in ("cochran", "grubbs"):
             test = getattr(lv, name)
             if not test.applicable:
