@@ -13,7 +13,7 @@ standard error sqrt(p (1 - p) / draws) for
   scipy cannot finish the exact computation it falls back to the asymptotic distribution
   (its warning is silenced here).
 
-The numbers are quoted in the docstring of validator.comparison.passing_bablok.
+The numbers are quoted in the docstring of validator.maths.method_comparison.passing_bablok.
 Run: PYTHONPATH=. python benchmarks/cusum_size.py [draws]
 """
 
@@ -24,7 +24,7 @@ from fractions import Fraction
 import numpy as np
 from scipy import stats
 
-from validator.comparison import cusum_signs, passing_bablok
+from validator.maths.method_comparison import cusum_signs, passing_bablok
 
 DRAWS = int(sys.argv[1]) if len(sys.argv) > 1 else 2000
 SEED = 20261202

@@ -12,9 +12,9 @@ import pytest
 import statsmodels.api as sm
 
 from conftest import CALIBRATION
-from validator.calibration import analyse_calibration, choose_weighting, mandel_test
+from validator.characteristics.calibration import analyse_calibration, choose_weighting, mandel_test
 from validator.cli import main
-from validator.regression import raw_weights
+from validator.maths.regression import raw_weights
 from validator.results import load_schema
 
 WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")

@@ -10,9 +10,9 @@ from statsmodels.stats.anova import anova_lm
 from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 
-from validator.calibration import (analyse_calibration, back_calculate, choose_weighting,
+from validator.characteristics.calibration import (analyse_calibration, back_calculate, choose_weighting,
                                    lack_of_fit, mandel_test, quantify)
-from validator.regression import fit_polynomial
+from validator.maths.regression import fit_polynomial
 
 # invented demo-style data (not reference values): the references are the libraries
 RNG = np.random.default_rng(11)

@@ -8,13 +8,14 @@ from numpy.testing import assert_allclose
 from scipy import stats
 
 from conftest import load_strd, reference_file
-from validator.calibration import analyse_calibration
-from validator.csvdata import exact_centre
-from validator.detection import assess_detection, noncentrality_delta
-from validator.precision import (assess_precision_level, cochran_c, grubbs_means, horwitz_prsd,
-                                 mass_fraction_factor, one_way_anova)
-from validator.recovery import assess_recovery, assess_reference_material
-from validator.working_range import verify_loq, working_range
+from validator.characteristics.calibration import analyse_calibration
+from validator.inputs.tables import exact_centre
+from validator.characteristics.detection import assess_detection, noncentrality_delta
+from validator.characteristics.precision import assess_precision_level, horwitz_prsd, mass_fraction_factor
+from validator.maths.outliers import cochran_c, grubbs_means
+from validator.maths.anova import one_way_anova
+from validator.characteristics.recovery import assess_recovery, assess_reference_material
+from validator.characteristics.working_range import verify_loq, working_range
 
 
 def strd_anova(name):
@@ -232,7 +233,7 @@ def test_precision_shift_and_scale_invariance(shift, k, seed):
 
 
 def test_working_range_and_loq_verification():
-    from validator.calibration import BackCalculated as B
+    from validator.characteristics.calibration import BackCalculated as B
     back = [B(x, 0, x, 0.0, 15, ok) for x, ok in ((0.5, False), (1, True), (2, True), (5, True), (10, True), (20, True))]
     wr = working_range(back, 0.8, "ich-residual-sd", [], [1, 10])
     assert (wr.low, wr.high) == (1, 20)

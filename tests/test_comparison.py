@@ -1,4 +1,4 @@
-"""Method comparison statistics (validator.comparison) against direct implementations and limits."""
+"""Method comparison statistics (validator.maths.method_comparison) against direct implementations and limits."""
 
 import math
 
@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from validator.comparison import bland_altman, deming, passing_bablok
+from validator.maths.method_comparison import bland_altman, deming, passing_bablok
 
 
 def pb_direct(x, y, alpha=0.05):
@@ -116,8 +116,8 @@ def test_bland_altman():
 def test_two_slope_t_equals_statsmodels_interaction():
     # cross-check: statsmodels OLS y ~ x * run; the interaction t is the pooled two-slope t
     import statsmodels.api as sm
-    from validator.regression import fit_polynomial
-    from validator.revalidation import compare_slopes, residual_sd_ratio
+    from validator.maths.regression import fit_polynomial
+    from validator.characteristics.revalidation import compare_slopes, residual_sd_ratio
     rng = np.random.default_rng(12)
     x1 = np.repeat([1.0, 2, 5, 10, 20], 3)
     x2 = np.repeat([1.0, 2, 4, 8, 16, 20], 2)

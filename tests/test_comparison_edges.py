@@ -16,7 +16,8 @@ from scipy import stats
 
 from conftest import reference_file
 from validator.cli import main
-from validator.comparison import assess_comparison, bland_altman, deming, passing_bablok, passing_bablok_min_n
+from validator.characteristics.comparison import assess_comparison
+from validator.maths.method_comparison import bland_altman, deming, passing_bablok, passing_bablok_min_n
 from validator.results import load_schema
 
 

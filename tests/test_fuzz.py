@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 
 from validator.engine import analyse_study
 from validator.errors import ValidatorError
-from validator.loading import load_study
+from validator.inputs.loading import load_study
 from validator.report import render_html
 from validator.report.text import calibration_sentences, characteristic_sentences
 from validator.results import build_results, dumps

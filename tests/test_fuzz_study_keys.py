@@ -25,7 +25,7 @@ from pydantic import BaseModel
 
 from conftest import REPO
 from validator.cli import main
-from validator.study import StudyConfig
+from validator.inputs.study import StudyConfig
 
 EXAMPLES = 2000 if os.environ.get("HYPOTHESIS_PROFILE") == "nightly" else 200
 

@@ -20,7 +20,7 @@ import pytest
 from conftest import STUDY_HEAD
 from validator import cli
 from validator.cli import main
-from validator.csvdata import read_limited
+from validator.inputs.tables import read_limited
 from validator.errors import StudyError, one_line, show
 
 CAL = "concentration,response\n1,2.01\n1,1.98\n2,4.02\n2,3.99\n4,8.02\n4,7.99\n8,15.99\n8,16.02\n"
@@ -180,7 +180,7 @@ def test_control_character_in_a_command_line_path(capsys, argv, expected):
 
 
 def test_control_character_in_study_path_from_python(tmp_path):
-    from validator.loading import load_study
+    from validator.inputs.loading import load_study
     with pytest.raises(StudyError) as info:
         load_study(f"{tmp_path}/st\x00udy.toml")
     assert str(info.value) == (f"{tmp_path}/st\\x00udy.toml: the study file path contains a control "

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from conftest import REPO
-from validator.calibration import analyse_calibration, quantify
+from validator.characteristics.calibration import analyse_calibration, quantify
 from validator.cli import main
 
 DEMO = REPO / "example_studies" / "anions-drinking-water" / "study.toml"
@@ -171,7 +171,7 @@ CAL_OK = "concentration,response\n1,2.01\n1,1.98\n2,4.02\n2,3.99\n4,8.02\n4,7.99
 CALIB_PREC = '[calibration]\ndata = "calibration.csv"\n[precision]\ndata = "p.csv"\n'
 
 
-# --- verify stays inside its folder (rules: validator/integrity.py docstring) --------------------
+# --- verify stays inside its folder (rules: validator/inputs/integrity.py docstring) --------------------
 # Every expectation below is a rule of validator's own design: # common practice, no published source.
 
 import os  # noqa: E402
@@ -181,7 +181,7 @@ from pathlib import Path  # noqa: E402
 from hypothesis import HealthCheck, given, settings  # noqa: E402
 from hypothesis import strategies as st  # noqa: E402
 
-import validator.integrity as integrity  # noqa: E402
+import validator.inputs.integrity as integrity  # noqa: E402
 
 
 @pytest.fixture

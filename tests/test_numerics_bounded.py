@@ -11,8 +11,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator.calibration import analyse_calibration, back_calculate
-from validator.regression import PolynomialFit, fit_polynomial
+from validator.characteristics.calibration import analyse_calibration, back_calculate
+from validator.maths.regression import PolynomialFit, fit_polynomial
 from validator.results import dumps
 
 

@@ -10,11 +10,11 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator.comparison import assess_comparison
+from validator.characteristics.comparison import assess_comparison
 from validator.criteria import (Criterion, at_least, at_most, comparison_criteria, interval_within, loq_criterion,
                                 overall_verdict)
 from validator.engine import analyse_study
-from validator.loading import load_study
+from validator.inputs.loading import load_study
 
 MISSING = st.sampled_from([None, math.nan, math.inf, -math.inf, np.nan, np.float64("inf")])
 FINITE = st.floats(-1e6, 1e6, allow_nan=False, allow_infinity=False)

@@ -1,6 +1,6 @@
 """Exact fits are judged against the spread of the responses, not their magnitude.
 
-The responses are centred and scaled before the QR solve (validator/regression.py), so a
+The responses are centred and scaled before the QR solve (validator/maths/regression.py), so a
 large common offset changes neither the verdict "exact" nor any statistic but the intercept.
 """
 
@@ -12,9 +12,9 @@ import statsmodels.api as sm
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator.calibration import analyse_calibration
-from validator.detection import assess_detection
-from validator.regression import fit_polynomial
+from validator.characteristics.calibration import analyse_calibration
+from validator.characteristics.detection import assess_detection
+from validator.maths.regression import fit_polynomial
 
 # The offset scenario of the issue: six points, y about 1 000 012 + 12.3456 x, noise about 4e-4
 X6 = np.arange(1.0, 7.0)

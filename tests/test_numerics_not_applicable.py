@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 from test_fuzz import GOOD, good_calibration, good_table
 from validator.engine import analyse_study
 from validator.errors import ValidatorError
-from validator.loading import load_study
+from validator.inputs.loading import load_study
 from validator.results import build_results
 
 EXAMPLES = 1000 if os.environ.get("HYPOTHESIS_PROFILE") == "nightly" else 100

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-import validator.integrity as integrity
+import validator.inputs.integrity as integrity
 import validator.output as output
 from conftest import CALIBRATION, REPO, STUDY_HEAD
 from validator.cli import main

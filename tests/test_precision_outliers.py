@@ -8,9 +8,10 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from validator.precision import (assess_precision_level, cochran_c, cochran_critical_value, cochran_null_sample,
-                                 grubbs_critical_value, grubbs_double, grubbs_double_null_sample,
-                                 grubbs_within_series, MONTE_CARLO_DRAWS)
+from validator.characteristics.precision import assess_precision_level
+from validator.maths.outliers import (MONTE_CARLO_DRAWS, cochran_c, cochran_critical_value, cochran_null_sample,
+                                      grubbs_critical_value, grubbs_double, grubbs_double_null_sample,
+                                      grubbs_within_series)
 from validator.results import _precision, load_schema
 
 
@@ -153,7 +154,7 @@ def _values_with_g(G, n):
 @pytest.mark.parametrize("n", [5, 10, 20])
 def test_grubbs_within_series_pvalue_at_the_published_critical_value(n):
     # two-sided p at the one-sided 2.5 % critical value is 5 %; exact when G > sqrt((n - 1)/2)
-    # (hand derivation in validator.precision._grubbs_single), else the same value as an upper bound
+    # (hand derivation in validator.maths.outliers._grubbs_single), else the same value as an upper bound
     G = grubbs_critical_value(n, 0.025)
     x = _values_with_g(G, n)
     res, = grubbs_within_series(x, ["a"] * n)

@@ -10,8 +10,8 @@ import statsmodels.api as sm
 from numpy.testing import assert_allclose
 
 from conftest import load_dataplot, load_strd
-from validator.calibration import analyse_calibration, lack_of_fit
-from validator.regression import fit_polynomial
+from validator.characteristics.calibration import analyse_calibration, lack_of_fit
+from validator.maths.regression import fit_polynomial
 
 RTOL = 1e-9
 

@@ -102,7 +102,7 @@ def test_a_revalidation_that_matches_nothing_is_an_input_error(make_study, tmp_p
 
 def test_a_run_compared_with_itself_is_equivalent():
     # identity check: every change is zero, every two-sample p-value is 1
-    from validator.revalidation import assess_revalidation
+    from validator.characteristics.revalidation import assess_revalidation
     prev = json.loads((REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json").read_text())
     for a in prev["analytes"]:
         r = assess_revalidation(a, a, slope_change_max_pct=5, residual_sd_ratio_max=2)

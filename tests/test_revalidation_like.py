@@ -14,8 +14,8 @@ from scipy import stats
 
 from conftest import REPO
 from validator.cli import main
-from validator.regression import fit_polynomial, raw_weights
-from validator.revalidation import assess_revalidation, joint_comparison, refit_like
+from validator.maths.regression import fit_polynomial, raw_weights
+from validator.characteristics.revalidation import assess_revalidation, joint_comparison, refit_like
 
 EXAMPLE_PREVIOUS = REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json"
 

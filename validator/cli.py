@@ -71,7 +71,7 @@ def _cmd_run(args) -> int:
     generated_at = run_timestamp()     # before numpy is imported: numpy.f2py reads the variable too
 
     from .engine import analyse_study
-    from .loading import load_study
+    from .inputs.loading import load_study
     from .output import check_existing, check_target
     from .results import build_results, dumps
 
@@ -87,7 +87,7 @@ def _cmd_run(args) -> int:
         if "html" in formats or "pdf" in formats:
             from .report import render_dossier
             render_dossier(result, results, folder, formats=formats, paper=args.paper)
-        from .integrity import write_manifest
+        from .inputs.integrity import write_manifest
         write_manifest(folder)
 
     _write_outputs(target, args.out, args.force, write)
@@ -99,7 +99,7 @@ def _cmd_run(args) -> int:
 
 def _cmd_check(args) -> int:
     run_timestamp()                    # a bad SOURCE_DATE_EPOCH is refused here too, before numpy reads it
-    from .loading import load_study
+    from .inputs.loading import load_study
 
     loaded = load_study(args.study)
     n = sum(len(a.calibration.concentration) for a in loaded.analytes)
@@ -109,7 +109,7 @@ def _cmd_check(args) -> int:
 
 
 def _cmd_verify(args) -> int:
-    from .integrity import verify
+    from .inputs.integrity import verify
 
     problems = verify(Path(args.folder), args.study)
     if problems:

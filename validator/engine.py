@@ -12,18 +12,18 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 from ._common import quiet_numpy
-from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
+from .characteristics.calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
                        overall_verdict,
                        precision_criteria, recovery_criteria, reference_material_criterion)
-from .detection import DetectionResult, assess_detection
-from .precision import assess_precision_level
-from .recovery import assess_recovery, assess_reference_material
-from .comparison import assess_comparison
+from .characteristics.detection import DetectionResult, assess_detection
+from .characteristics.precision import assess_precision_level
+from .characteristics.recovery import assess_recovery, assess_reference_material
+from .characteristics.comparison import assess_comparison
 from .criteria import Criterion
-from .revalidation import assess_revalidation
-from .working_range import LoqCheck, WorkingRange, verify_loq, working_range
-from .loading import AnalyteData, LoadedStudy
+from .characteristics.revalidation import assess_revalidation
+from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
+from .inputs.loading import AnalyteData, LoadedStudy
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "analyse_study", "curve_bands",
            "residual_series"]

@@ -48,7 +48,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from .errors import OutputError
-from .integrity import MANIFEST, WRITTEN_BY, read_manifest, start_manifest
+from .inputs.integrity import MANIFEST, WRITTEN_BY, read_manifest, start_manifest
 
 __all__ = ["check_target", "check_existing", "write_output_folder", "remove_own_folder"]
 

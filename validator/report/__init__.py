@@ -15,7 +15,7 @@ from pathlib import Path
 
 import jinja2
 
-from ..comparison import percentage_differences
+from ..maths.method_comparison import percentage_differences
 from .plots import PALETTE, figures_for_all
 from .text import SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, verdict_label
 

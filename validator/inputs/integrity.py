@@ -27,7 +27,7 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import OutputError
+from ..errors import OutputError
 
 __all__ = ["write_manifest", "start_manifest", "read_manifest", "verify", "sha256_file",
            "Manifest", "WRITTEN_BY", "MANIFEST"]

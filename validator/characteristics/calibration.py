@@ -34,8 +34,8 @@ import numpy as np
 from scipy import stats
 from statsmodels.stats.diagnostic import het_breuschpagan
 
-from ._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
-from .regression import EXACT_RTOL, PolynomialFit, fit_polynomial, raw_weights
+from .._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
+from ..maths.regression import EXACT_RTOL, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
     "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",

@@ -32,7 +32,7 @@ from typing import Annotated, Literal, Optional
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
-from .errors import StudyError, control_character, show
+from ..errors import StudyError, control_character, show
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
@@ -415,7 +415,7 @@ def _nesting(data) -> int:
 
 def _read_limited(p: Path, shown: str) -> bytes:
     """The study file's bytes, refused if over :data:`MAX_STUDY_BYTES` or not a regular file."""
-    from .csvdata import read_limited
+    from .tables import read_limited
 
     try:
         st = os.stat(p)
@@ -459,7 +459,7 @@ def _parse_toml(text: str, shown: str) -> dict:
 
 def read_study_file(path: str | Path) -> StudyFile:
     """Read and validate a study file (the data files are not opened here)."""
-    from .csvdata import decode_text  # the same UTF-8 rules as data files
+    from .tables import decode_text  # the same UTF-8 rules as data files
 
     shown = str(path)
     bad = control_character(shown)

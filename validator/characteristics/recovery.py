@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from ._common import ConfidenceInterval
+from .._common import ConfidenceInterval
 
 __all__ = ["RecoveryLevel", "RecoveryResult", "ReferenceMaterialResult", "assess_recovery",
            "assess_reference_material"]

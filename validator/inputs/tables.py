@@ -23,7 +23,7 @@ import stat
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import DataError, control_character, shorten, show
+from ..errors import DataError, control_character, shorten, show
 
 __all__ = ["Table", "read_table", "read_limited", "DEFAULT_MAX_BYTES", "DEFAULT_MAX_ROWS",
            "MAX_NAME_LENGTH"]

@@ -51,7 +51,7 @@ from math import comb
 import numpy as np
 from scipy import linalg, stats
 
-from ._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, quiet_numpy
 
 __all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "EXACT_RTOL",
            "MAGNITUDE_LIMIT", "first_out_of_range"]

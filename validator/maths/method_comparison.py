@@ -1,7 +1,7 @@
 """Comparison of two methods on the same samples: Passing-Bablok, Deming, Bland-Altman.
 
 Pure functions over arrays (x = reference method, y = test method); the
-``[comparison]`` section of a study runs :func:`assess_comparison` per analyte.
+characteristic :mod:`validator.characteristics.comparison` judges them.
 
 References
 ----------
@@ -25,10 +25,10 @@ from fractions import Fraction
 import numpy as np
 from scipy import stats
 
-from ._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["PassingBablok", "Deming", "BlandAltman", "ComparisonResult", "passing_bablok", "passing_bablok_min_n",
-           "deming", "bland_altman", "percentage_differences", "assess_comparison"]
+__all__ = ["PassingBablok", "Deming", "BlandAltman", "passing_bablok", "passing_bablok_min_n",
+           "deming", "bland_altman", "percentage_differences"]
 
 
 @dataclass(frozen=True)
@@ -476,59 +476,3 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
                        (lo, hi), ConfidenceInterval(lo - t * se_lim, lo + t * se_lim, level),
                        ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level), percentage, "",
                        excluded, note)
-
-
-def _rule(limits, ideal, name):
-    if limits is not None:
-        return f"{name} CI inside [{limits[0]:g}, {limits[1]:g}]"
-    return f"{name} CI contains {ideal:g}"
-
-
-def _judge(ci, limits, ideal, name):
-    """CI inside the limits where given, else the CI contains the ideal value."""
-    if limits is not None:
-        return limits[0] <= ci.low and ci.high <= limits[1], _rule(limits, ideal, name)
-    return ci.contains(ideal), _rule(limits, ideal, name)
-
-
-@dataclass(frozen=True)
-class ComparisonResult:
-    """The three comparisons and the verdict; ``passed`` is ``None`` (with ``reason``) when
-    the Passing-Bablok intervals it is judged on do not exist."""
-
-    n: int
-    samples: tuple
-    reference: tuple
-    test: tuple
-    passing_bablok: PassingBablok
-    deming: Deming
-    bland_altman: BlandAltman
-    passed: bool | None
-    basis: str
-    reason: str = ""
-    level: float = 0.95
-
-
-def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits=None,
-                      intercept_limits=None, percentage=False, alpha=0.05) -> ComparisonResult:
-    """All three comparisons and the verdict on the Passing-Bablok intervals.
-
-    Verdict: the slope CI contains 1 and the intercept CI contains 0; where limits
-    are given, the CIs must lie inside them instead [EP09]. When an interval does not
-    exist (see :func:`passing_bablok`) the verdict is not applicable (``passed = None``)
-    with the reason: "not shown is not passed".
-    """
-    x = np.asarray(reference, float)
-    y = np.asarray(test, float)
-    pb = passing_bablok(x, y, alpha)
-    dm = deming(x, y, error_ratio, alpha)
-    ba = bland_altman(x, y, alpha, percentage)
-    common = (x.size, tuple(samples), tuple(map(float, x)), tuple(map(float, y)), pb, dm, ba)
-    if pb.slope_ci is None or pb.intercept_ci is None:
-        rule = (f"Passing-Bablok: {_rule(slope_limits, 1.0, 'slope')} and "
-                f"{_rule(intercept_limits, 0.0, 'intercept')}")
-        return ComparisonResult(*common, None, rule, f"Passing-Bablok: {pb.reason or pb.ci_reason}", 1 - alpha)
-    ok_slope, slope_basis = _judge(pb.slope_ci, slope_limits, 1.0, "slope")
-    ok_icpt, icpt_basis = _judge(pb.intercept_ci, intercept_limits, 0.0, "intercept")
-    return ComparisonResult(*common, bool(ok_slope and ok_icpt), f"Passing-Bablok: {slope_basis} and {icpt_basis}",
-                            "", 1 - alpha)

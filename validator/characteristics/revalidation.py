@@ -36,8 +36,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from ._common import ConfidenceInterval, quiet_numpy
-from .regression import PolynomialFit, fit_polynomial
+from .._common import ConfidenceInterval, quiet_numpy
+from ..maths.regression import PolynomialFit, fit_polynomial
 
 __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "compare_slopes", "residual_sd_ratio",
            "refit_like", "joint_comparison", "assess_revalidation", "calibration_points"]

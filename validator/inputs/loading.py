@@ -14,9 +14,9 @@ from pathlib import Path
 
 import numpy as np
 
-from .csvdata import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
-from .errors import DataError, StudyError, shorten, show
-from .regression import MAGNITUDE_LIMIT, first_out_of_range
+from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
+from ..errors import DataError, StudyError, shorten, show
+from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
 from .study import StudyFile, read_study_file
 
 __all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
@@ -365,7 +365,7 @@ def _check_schema(doc, path: str):
     """Validate against the shipped results schema; the first error names its JSON path."""
     import jsonschema
 
-    from .results import load_schema
+    from ..results import load_schema
 
     validator = jsonschema.Draft202012Validator(load_schema())
     error = jsonschema.exceptions.best_match(validator.iter_errors(doc))

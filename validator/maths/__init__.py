@@ -1,0 +1,3 @@
+"""Pure, reusable mathematics: weighted polynomial regression (:mod:`.regression`), one-way
+ANOVA (:mod:`.anova`), outlier tests (:mod:`.outliers`) and method-comparison regressions
+(:mod:`.method_comparison`). Arrays in, frozen dataclasses out; no files, no text for the user."""
