@@ -43,6 +43,17 @@ def _ci(ci):
     return [num(ci.low), num(ci.high)]
 
 
+def _interval(name: str, ci, missing=(None, None)) -> dict:
+    """``{name: [low, high], name_level: level}``: an interval always carries its own level.
+
+    An interval that does not exist is written as ``missing`` (``[null, null]`` or ``null``,
+    the field's historical form) with a ``null`` level; the reason is in ``not_applicable``.
+    """
+    if ci is None:
+        return {name: None if missing is None else list(missing), f"{name}_level": None}
+    return {name: _ci(ci), f"{name}_level": num(ci.level)}
+
+
 def _test(t, with_method=False):
     if not t.applicable:
         return None
@@ -54,7 +65,7 @@ def _test(t, with_method=False):
 
 
 def _coefficient(c):
-    return {"estimate": num(c.estimate), "std_error": num(c.std_error), "ci": _ci(c.ci),
+    return {"estimate": num(c.estimate), "std_error": num(c.std_error), **_interval("ci", c.ci),
             "t_statistic": num(c.statistic), "p_value": num(c.pvalue)}
 
 
@@ -266,7 +277,7 @@ def _recovery(r):
         return None
     return {"n": r.n, "overall_mean_pct": num(r.overall_mean_pct), "levels": [
         {"added": num(lv.added), "n": lv.n, "mean_pct": num(lv.mean_pct), "sd_pct": num(lv.sd_pct),
-         "rsd_pct": num(lv.rsd_pct), "ci_pct": _ci(lv.ci_pct) if lv.ci_pct else [None, None],
+         "rsd_pct": num(lv.rsd_pct), **_interval("ci_pct", lv.ci_pct),
          "t_statistic": num(lv.t_statistic), "p_value": num(lv.pvalue), "range_pct": list(lv.range_pct),
          "pass": lv.passed, "recoveries_pct": [num(v) for v in lv.recoveries_pct], "reason": lv.reason}
         for lv in r.levels]}
@@ -299,8 +310,8 @@ def _precision(levels):
             "repeatability_sd": num(lv.repeatability_sd), "repeatability_rsd_pct": num(lv.repeatability_rsd_pct),
             "between_series_sd": num(lv.between_series_sd), "between_series_set_to_zero": lv.between_clamped,
             "intermediate_sd": num(lv.intermediate_sd), "intermediate_rsd_pct": num(lv.intermediate_rsd_pct),
-            "repeatability_sd_ci": _ci(lv.repeatability_sd_ci) if lv.repeatability_sd_ci else [None, None],
-            "intermediate_sd_ci": _ci(lv.intermediate_sd_ci) if lv.intermediate_sd_ci else [None, None],
+            **_interval("repeatability_sd_ci", lv.repeatability_sd_ci),
+            **_interval("intermediate_sd_ci", lv.intermediate_sd_ci),
             "intermediate_df": num(lv.intermediate_df),
             "cochran": _outlier(lv.cochran), "grubbs": _outlier(lv.grubbs),
             "grubbs_double": None if lv.grubbs_double is None else _outlier(lv.grubbs_double),
@@ -360,10 +371,6 @@ def _revalidation(r, previous, name):
     }
 
 
-def _ci_or_none(ci):
-    return None if ci is None else _ci(ci)
-
-
 def _comparison(c):
     if c is None:
         return None
@@ -371,19 +378,20 @@ def _comparison(c):
     return {
         "n": c.n,
         "level": c.level,
-        "passing_bablok": {"slope": num(pb.slope), "slope_ci": _ci_or_none(pb.slope_ci), "intercept": num(pb.intercept),
-                           "intercept_ci": _ci_or_none(pb.intercept_ci), "cusum_p_value": num(pb.cusum_pvalue),
+        "passing_bablok": {"slope": num(pb.slope), **_interval("slope_ci", pb.slope_ci, None),
+                           "intercept": num(pb.intercept), **_interval("intercept_ci", pb.intercept_ci, None),
+                           "cusum_p_value": num(pb.cusum_pvalue),
                            "cusum_statistic": num(pb.cusum_statistic), "offset_k": pb.offset_k,
                            "n_slopes": pb.n_slopes, "reason": pb.reason, "ci_reason": pb.ci_reason,
                            "min_n_for_ci": pb.min_n_for_ci, "cusum_reason": pb.cusum_reason,
                            "cusum_p_value_method": pb.cusum_pvalue_method},
-        "deming": {"slope": num(dm.slope), "slope_ci": _ci_or_none(dm.slope_ci), "intercept": num(dm.intercept),
-                   "intercept_ci": _ci_or_none(dm.intercept_ci), "error_ratio": num(dm.error_ratio),
+        "deming": {"slope": num(dm.slope), **_interval("slope_ci", dm.slope_ci, None), "intercept": num(dm.intercept),
+                   **_interval("intercept_ci", dm.intercept_ci, None), "error_ratio": num(dm.error_ratio),
                    "slope_se": num(dm.slope_se), "intercept_se": num(dm.intercept_se), "reason": dm.reason},
-        "bland_altman": {"bias": num(ba.bias), "bias_ci": _ci_or_none(ba.bias_ci), "sd": num(ba.sd),
+        "bland_altman": {"bias": num(ba.bias), **_interval("bias_ci", ba.bias_ci, None), "sd": num(ba.sd),
                          "limits": None if ba.limits is None else [num(v) for v in ba.limits],
-                         "lower_limit_ci": _ci_or_none(ba.lower_limit_ci),
-                         "upper_limit_ci": _ci_or_none(ba.upper_limit_ci), "percentage": ba.percentage,
+                         **_interval("lower_limit_ci", ba.lower_limit_ci, None),
+                         **_interval("upper_limit_ci", ba.upper_limit_ci, None), "percentage": ba.percentage,
                          "n": ba.n, "reason": ba.reason,
                          "excluded_samples": [c.samples[i] for i in ba.excluded], "note": ba.note},
         "verdict": {True: "pass", False: "fail", None: "not applicable"}[c.passed],
@@ -406,7 +414,7 @@ def _analyte(a, previous=None):
         "calibration": _calibration(a),
         "samples": [
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
-             "concentration": num(s.concentration), "std_error": num(s.std_error), "ci": _ci(s.ci),
+             "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
         "detection": _detection(a),
         "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis},

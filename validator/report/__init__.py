@@ -17,7 +17,8 @@ import jinja2
 
 from ..maths.method_comparison import percentage_differences
 from .plots import PALETTE, figures_for_all
-from .text import SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, verdict_label
+from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label,
+                   verdict_label)
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
 
@@ -39,6 +40,7 @@ def _environment() -> jinja2.Environment:
                              trim_blocks=True, lstrip_blocks=True)
     env.filters["fmt"] = fmt
     env.filters["fmt_p"] = fmt_p
+    env.filters["level"] = level_label
     env.globals["verdict"] = verdict_label
     return env
 
@@ -49,7 +51,7 @@ def _plot_data(index: int, a, study: dict) -> dict:
     judged = [b for b in back if b.passed is not None]
     return {
         "key": str(index), "xunit": study["concentration_unit"], "yunit": study["response_unit"],
-        "level_pct": f"{100 * (1 - fit.alpha):g}",
+        "level": level_label(1 - fit.alpha),
         "x": fit.x.tolist(), "y": fit.y.tolist(), "residuals": fit.residuals.tolist(),
         "grid": bands.x.tolist(), "fit": bands.fit.tolist(),
         "conf_low": bands.confidence_low.tolist(), "conf_high": bands.confidence_high.tolist(),

@@ -72,11 +72,11 @@ def _svg(fig, name: str) -> str:
 def _calibration_figure(d: dict) -> str:
     fig, ax = plt.subplots(figsize=(6.4, 3.6))
     ax.fill_between(d["grid"], d["pred_low"], d["pred_high"], color=PALETTE["band"], alpha=0.6,
-                    linewidth=0, label=f"{d['level_pct']} % prediction band")
+                    linewidth=0, label=f"{d['level']} prediction band")
     ax.plot(d["grid"], d["pred_low"], ":", color=PALETTE["pred"], linewidth=1)
     ax.plot(d["grid"], d["pred_high"], ":", color=PALETTE["pred"], linewidth=1)
     ax.plot(d["grid"], d["conf_low"], "--", color=PALETTE["conf"], linewidth=1,
-            label=f"{d['level_pct']} % confidence band")
+            label=f"{d['level']} confidence band")
     ax.plot(d["grid"], d["conf_high"], "--", color=PALETTE["conf"], linewidth=1)
     ax.plot(d["grid"], d["fit"], "-", color=PALETTE["fit"], linewidth=1.4, label="fitted function")
     _points(ax, d["x"], d["y"], "o", markersize=4, markeredgewidth=1.2, label="calibrators")

@@ -8,7 +8,7 @@ study's alpha and limits but estimates nothing.
 
 from __future__ import annotations
 
-__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "verdict_label", "calibration_sentences"]
+__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "verdict_label", "calibration_sentences"]
 
 SIG = 5
 SIG_P = 3
@@ -36,6 +36,17 @@ def fmt_p(value) -> str:
     return fmt(value, SIG_P)
 
 
+def level_label(level) -> str:
+    """An interval's own confidence level as a label, e.g. 0.99 -> "99 %" ("" when it has none).
+
+    Every "NN % CI" of the dossier comes from here, from the level recorded with the interval
+    in results.json, never from text.
+    """
+    if level is None:
+        return ""
+    return f"{100 * level:.6g} %"
+
+
 def verdict_label(passed) -> dict:
     """Word and symbol for a verdict, never colour alone."""
     if passed is True:
@@ -58,10 +69,9 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
         model += " through the origin"
     weighting = "unweighted" if cal["weighting"] == "none" else f"weighted {cal['weighting']}"
     slope = cal["coefficients"]["slope"]
-    level = round(100 * cal["confidence_level"])
     out["fit"] = (f"A {model} ({weighting}) was fitted to n = {cal['n']} points at {cal['levels']} "
                   f"concentration levels ({cal['model_choice']}). The slope is {fmt(slope['estimate'])} "
-                  f"({level} % CI {fmt(slope['ci'][0])} to {fmt(slope['ci'][1])}); the residual standard "
+                  f"({level_label(slope['ci_level'])} CI {fmt(slope['ci'][0])} to {fmt(slope['ci'][1])}); the residual standard "
                   f"deviation s(y/x) is {fmt(cal['residual_sd'])} and R² = {fmt(cal['r_squared'], 6)}.")
     lof = cal["lack_of_fit"]
     if lof is None:
