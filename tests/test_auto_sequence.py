@@ -14,10 +14,9 @@ import statsmodels.api as sm
 from conftest import CALIBRATION
 from validator.characteristics.calibration import analyse_calibration, choose_weighting, mandel_test
 from validator.cli import main
-from validator.maths.regression import raw_weights
+from validator.maths.regression import WEIGHTINGS, raw_weights
 from validator.results import load_schema
 
-WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
 
 # our own data: 1 to 10 in duplicate, slight curvature, SD proportional to x (seeded)
 X = np.repeat(np.arange(1.0, 11), 2)

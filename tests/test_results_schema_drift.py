@@ -116,3 +116,21 @@ def test_every_interval_carries_its_level(name, tmp_path, outside):
             assert level == pytest.approx(0.90), path        # two one-sided tests at alpha = 0.05
         else:
             assert level == pytest.approx(0.95), path        # the study's alpha = 0.05
+
+
+def test_weighting_enums_are_the_regression_weightings():
+    from validator.maths.regression import WEIGHTINGS
+
+    def enums(node):
+        if isinstance(node, dict):
+            for key, value in node.items():
+                if key in ("weighting", "refit_weighting") and "enum" in value:
+                    yield value["enum"]
+                yield from enums(value)
+        elif isinstance(node, list):
+            for value in node:
+                yield from enums(value)
+
+    found = list(enums(load_schema()))
+    assert len(found) >= 4
+    assert all(tuple(e) == WEIGHTINGS for e in found)

@@ -35,7 +35,7 @@ from scipy import stats
 from statsmodels.stats.diagnostic import het_breuschpagan
 
 from .._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
-from ..maths.regression import EXACT_RTOL, PolynomialFit, fit_polynomial, raw_weights
+from ..maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
     "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
@@ -219,7 +219,7 @@ def choose_weighting(x, y, model: str, alpha: float = 0.05) -> tuple:
     Returns ``(best, candidates)``.
     """
     candidates = []
-    for wt in ("none", "1/x", "1/x^2", "1/y", "1/y^2"):
+    for wt in WEIGHTINGS:
         try:
             raw_weights(wt, x, y)
         except ValueError as exc:

@@ -37,6 +37,7 @@ import numpy as np
 from scipy import stats
 
 from .._common import ConfidenceInterval, quiet_numpy
+from ..maths.distributions import f_test_two_sided
 from ..maths.regression import PolynomialFit, fit_polynomial
 
 __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "compare_slopes", "residual_sd_ratio",
@@ -131,8 +132,7 @@ def residual_sd_ratio(previous_sd, previous_df, current_sd, current_df):
     if not previous_sd > 0:
         return None, None, None
     F = (current_sd / previous_sd) ** 2
-    p = 2 * min(stats.f.sf(F, current_df, previous_df), stats.f.cdf(F, current_df, previous_df))
-    return float(current_sd / previous_sd), float(F), float(min(p, 1.0))
+    return float(current_sd / previous_sd), float(F), f_test_two_sided(F, current_df, previous_df)
 
 
 def refit_like(x, y, *, model: str, through_origin: bool, weighting: str, alpha: float = 0.05) -> PolynomialFit:
@@ -361,7 +361,7 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
                 if np.var(r1) > 0 and np.var(r2) > 0:
                     f = np.var(r2, ddof=1) / np.var(r1, ddof=1)
                     d2, d1 = len(r2) - 1, len(r1) - 1
-                    f_p = float(min(1.0, 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))))
+                    f_p = f_test_two_sided(f, d2, d1)
         rec = (float(np.mean(r1)) if r1 else None, float(np.mean(r2)) if r2 else None, welch, f_p)
     rep = []
     if previous.get("precision") and current.get("precision"):
@@ -372,8 +372,7 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
                 f = (lv["repeatability_sd"] / o["repeatability_sd"]) ** 2
                 d2, d1 = lv["df"][-1], o["df"][-1]
                 if d1 > 0 and d2 > 0:
-                    pf = 2 * min(stats.f.sf(f, d2, d1), stats.f.cdf(f, d2, d1))
-                    rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], float(min(pf, 1.0))))
+                    rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], f_test_two_sided(f, d2, d1)))
 
     reasons = []
     if own != spec:

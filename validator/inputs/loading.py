@@ -16,7 +16,7 @@ import numpy as np
 
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
-from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
+from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, first_out_of_range
 from .study import StudyFile, read_study_file
 
 __all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
@@ -139,14 +139,14 @@ def _numbers(table, column: str, decimal: str) -> np.ndarray:
 
 
 def _check_weighting(weighting: str, table, idx, x, y):
-    if weighting in ("1/x", "1/x^2"):
+    if WEIGHTED_BY.get(weighting) == "concentration":
         for i in idx:
             if x[i] <= 0:
                 raise DataError(f"concentration {x[i]:g} cannot be weighted by {weighting}; "
                                 f'use weighting = "none" or "1/y", or remove the zero calibrator',
                                 file=table.path, row=table.rows[i], column="concentration",
                                 value=x[i])
-    if weighting in ("1/y", "1/y^2"):
+    if WEIGHTED_BY.get(weighting) == "response":
         for i in idx:
             if y[i] <= 0:
                 raise DataError(f"response {y[i]:g} cannot be weighted by {weighting} "
@@ -407,9 +407,6 @@ def _match(current: list, previous: list, mapping: dict, study_path: str) -> lis
     return [(c, pairs[c]) for c in current if c in pairs]
 
 
-_NEEDS_POSITIVE = {"1/x": "concentration", "1/x^2": "concentration", "1/y": "response", "1/y^2": "response"}
-
-
 def _fit_problem(x: np.ndarray, y: np.ndarray, weighting: str, n_params: int) -> str | None:
     """Why a least-squares fit with this weighting cannot be computed on these points, or None.
 
@@ -425,7 +422,7 @@ def _fit_problem(x: np.ndarray, y: np.ndarray, weighting: str, n_params: int) ->
     if x.size <= n_params or distinct < n_params:
         return f"{x.size} points at {distinct} distinct levels are too few for {n_params} coefficients"
     with np.errstate(all="ignore"):
-        base = {"1/x": x, "1/x^2": x, "1/y": y, "1/y^2": y}.get(weighting)
+        base = {"concentration": x, "response": y}.get(WEIGHTED_BY.get(weighting))
         raw = np.ones_like(x) if base is None else 1.0 / base ** (2 if weighting.endswith("^2") else 1)
         sums = (np.sum(raw), np.sum(raw * x * x), np.sum(raw * y * y))
     if not (np.all(np.isfinite(raw)) and np.all(raw > 0)):
@@ -444,7 +441,7 @@ def _check_refit(reader, name: str, index: int, entry: dict, data: CalibrationDa
     cal = entry["calibration"]
     model, weighting, origin = cal["model"], cal["weighting"], cal["through_origin"]
     n_params = 1 if origin else {"linear": 2, "quadratic": 3}[model]
-    what = _NEEDS_POSITIVE.get(weighting)
+    what = WEIGHTED_BY.get(weighting)
     cal_path = reader.study.config.calibration.data
     function = f'the previous validation\'s calibration function ({prev_path}, analyte "{entry["name"]}")'
     if what:

@@ -33,11 +33,11 @@ from typing import Annotated, Literal, Optional
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 from ..errors import StudyError, control_character, show
+from ..maths.regression import WEIGHTINGS
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
-WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
 
 MAX_STUDY_BYTES = 1024 * 1024    # a study file is a few kB; 1 MiB leaves room for long notes
 MAX_NESTING = 32                 # levels of tables and arrays; the schema itself needs 5
@@ -110,7 +110,7 @@ class StudySection(_Section):
 class CalibrationSection(_Section):
     data: DataPath
     model: Literal["linear", "quadratic", "auto"] = "linear"
-    weighting: Literal["none", "1/x", "1/x^2", "1/y", "1/y^2", "auto"] = "none"
+    weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
     through_origin: bool = False
 
     @model_validator(mode="after")
@@ -151,9 +151,10 @@ class DetectionSection(_Section):
         return self
 
 
-def _range(v):
-    if len(v) != 2 or not v[0] < v[1]:
-        raise ValueError(f"range_pct must be [low, high] with low < high, got {show(list(v))}")
+def _range(v, name: str = "range_pct"):
+    """The one check of a [low, high] pair in the study file."""
+    if v is not None and (len(v) != 2 or not v[0] < v[1]):
+        raise ValueError(f"{name} must be [low, high] with low < high, got {show(list(v))}")
     return v
 
 
@@ -235,9 +236,7 @@ class ComparisonSection(_Section):
     @model_validator(mode="after")
     def _limits(self):
         for name in ("slope_limits", "intercept_limits"):
-            v = getattr(self, name)
-            if v is not None and (len(v) != 2 or not v[0] < v[1]):
-                raise ValueError(f"{name} must be [low, high] with low < high, got {show(list(v))}")
+            _range(getattr(self, name), name)
         return self
 
 

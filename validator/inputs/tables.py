@@ -62,17 +62,6 @@ class Table:
         return [parse_number(v, decimal=decimal, file=self.path, row=r, column=name)
                 for v, r in zip(self.columns[name], self.rows)]
 
-    def centred_numbers(self, name: str, decimal: str):
-        """Column ``name`` as (offset, values - offset), the subtraction done exactly.
-
-        The offset is the first value. Subtracting it in decimal arithmetic
-        before converting to binary floating point keeps the digits that
-        differ when every value shares many leading digits (the NIST StRD
-        SmLs07-09 case: 13 constant digits).
-        """
-        self.numbers(name, decimal)          # the same checks and messages
-        return exact_centre(self.columns[name], decimal)
-
     def texts(self, name: str, max_length: int | None = None) -> list:
         """Column ``name`` as stripped strings; empty cells are an error.
 

@@ -53,10 +53,13 @@ from scipy import linalg, stats
 
 from .._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "EXACT_RTOL",
-           "MAGNITUDE_LIMIT", "first_out_of_range"]
+__all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "WEIGHTINGS", "WEIGHTED_BY",
+           "EXACT_RTOL", "MAGNITUDE_LIMIT", "first_out_of_range"]
 
 MODELS = {"linear": (0, 1), "quadratic": (0, 1, 2), "origin": (1,)}
+# the weighting schemes, each (but "none") 1/v^k of the variable its weights come from
+WEIGHTINGS = ("none", "1/x", "1/x^2", "1/y", "1/y^2")
+WEIGHTED_BY = {"1/x": "concentration", "1/x^2": "concentration", "1/y": "response", "1/y^2": "response"}
 _NAMES = {0: "intercept", 1: "slope", 2: "quadratic"}
 EXACT_RTOL = 1e-9           # exact fit: s(y/x) <= EXACT_RTOL * spread of the responses
 MAGNITUDE_LIMIT = 1e50      # non-zero data must lie in [1/MAGNITUDE_LIMIT, MAGNITUDE_LIMIT] in magnitude
@@ -100,8 +103,8 @@ def raw_weights(weighting: str, x: np.ndarray, y: np.ndarray) -> np.ndarray:
     y = np.asarray(y, float)
     if weighting == "none":
         return np.ones_like(x)
-    base = {"1/x": x, "1/x^2": x, "1/y": y, "1/y^2": y}[weighting]
-    what = "concentration" if "x" in weighting else "response"
+    what = WEIGHTED_BY[weighting]
+    base = x if what == "concentration" else y
     if np.any(base <= 0):
         raise ValueError(f"weighting {weighting} needs every {what} > 0")
     power = 2 if weighting.endswith("^2") else 1
