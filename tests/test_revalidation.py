@@ -108,5 +108,5 @@ def test_a_run_compared_with_itself_is_equivalent():
         r = assess_revalidation(a, a, slope_change_max_pct=5, residual_sd_ratio_max=2)
         assert r.slope.change_pct == 0 and r.slope.verdict == "equivalent"
         assert r.residual_sd_ratio == 1 and r.residual_sd_pvalue == pytest.approx(1)
-        assert r.recovery[2] == pytest.approx(1) and r.recovery[3] == pytest.approx(1)
-        assert all(p == pytest.approx(1) for *_, p in r.repeatability) and r.repeatability
+        assert r.recovery.welch_pvalue == pytest.approx(1) and r.recovery.variance_f_pvalue == pytest.approx(1)
+        assert all(c.f_pvalue == pytest.approx(1) for c in r.repeatability) and r.repeatability

@@ -34,7 +34,7 @@ class TestResult:
     method: str
     statistic: float | None
     pvalue: float | None
-    df: tuple | None = None
+    df: tuple[float, ...] | None = None
     reason: str = ""
 
     @property

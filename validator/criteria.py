@@ -175,7 +175,7 @@ def reference_material_criterion(rm) -> Criterion:
 
 
 def loq_criterion(check) -> Criterion:
-    worst = max((r[2] for r in check.levels if r[2] is not None), default=None)
+    worst = max((r.rsd_pct for r in check.levels if r.rsd_pct is not None), default=None)
     return Criterion("loq-verification",
                      f"RSD at every precision/recovery level up to 2 × LOQ at most {check.rsd_max_pct:g} %",
                      worst, check.rsd_max_pct, check.passed,

@@ -17,15 +17,16 @@ from .criteria import (at_most, calibration_criteria, comparison_criteria, inter
                        overall_verdict,
                        precision_criteria, recovery_criteria, reference_material_criterion)
 from .characteristics.detection import DetectionResult, assess_detection
-from .characteristics.precision import assess_precision_level
-from .characteristics.recovery import assess_recovery, assess_reference_material
-from .characteristics.comparison import assess_comparison
+from .characteristics.precision import PrecisionLevel, assess_precision_level
+from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
+                                       assess_reference_material)
+from .characteristics.comparison import ComparisonResult, assess_comparison
 from .criteria import Criterion
-from .characteristics.revalidation import assess_revalidation
+from .characteristics.revalidation import RevalidationResult, assess_revalidation
 from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .inputs.loading import AnalyteData, LoadedStudy
 
-__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "analyse_study", "curve_bands",
+__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "analyse_study", "curve_bands",
            "residual_series"]
 
 
@@ -63,6 +64,14 @@ def curve_bands(fit, points: int = 121) -> CurveBands:
 
 
 @dataclass(frozen=True)
+class StraightLine:
+    """y = intercept + slope x."""
+
+    intercept: float
+    slope: float
+
+
+@dataclass(frozen=True)
 class ResidualSeries:
     """Residual views for the dossier plots.
 
@@ -72,11 +81,11 @@ class ResidualSeries:
     as scipy.stats.probplot computes them.
     """
 
-    relative_x: tuple
-    relative_pct: tuple
-    qq_theoretical: tuple
-    qq_ordered: tuple
-    qq_line: tuple | None      # (intercept, slope)
+    relative_x: tuple[float, ...]
+    relative_pct: tuple[float, ...]
+    qq_theoretical: tuple[float, ...]
+    qq_ordered: tuple[float, ...]
+    qq_line: StraightLine | None
 
 
 def residual_series(fit) -> ResidualSeries:
@@ -85,7 +94,7 @@ def residual_series(fit) -> ResidualSeries:
     rel = 100.0 * fit.residuals[keep] / yhat[keep]
     with quiet_numpy():
         (osm, osr), (slope, intercept, _) = stats.probplot(fit.weighted_residuals, dist="norm")
-    line = (float(intercept), float(slope)) if np.isfinite(slope) and not fit.exact else None
+    line = StraightLine(float(intercept), float(slope)) if np.isfinite(slope) and not fit.exact else None
     return ResidualSeries(tuple(map(float, fit.x[keep])), tuple(map(float, rel)),
                           tuple(map(float, osm)), tuple(map(float, osr)), line)
 
@@ -95,18 +104,18 @@ class AnalyteResult:
     name: str
     data: AnalyteData = field(repr=False)
     calibration: CalibrationResult = field(repr=False)
-    samples: tuple               # SampleResult
-    criteria: tuple              # Criterion
+    samples: tuple[SampleResult, ...]
+    criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
     detection: DetectionResult | None = None
     working_range: WorkingRange | None = None
     loq_check: LoqCheck | None = None
-    recovery: object = None                  # RecoveryResult
-    precision: tuple = ()                    # PrecisionLevel per level
-    reference_material: object = None        # ReferenceMaterialResult
-    revalidation: object = None              # RevalidationResult
-    comparison: object = None                # ComparisonResult
+    recovery: RecoveryResult | None = None
+    precision: tuple[PrecisionLevel, ...] = ()           # one per level
+    reference_material: ReferenceMaterialResult | None = None
+    revalidation: RevalidationResult | None = None
+    comparison: ComparisonResult | None = None
 
     @property
     def characteristics(self) -> tuple:
@@ -133,7 +142,7 @@ class AnalyteResult:
 @dataclass(frozen=True)
 class StudyResult:
     loaded: LoadedStudy = field(repr=False)
-    analytes: tuple
+    analytes: tuple[AnalyteResult, ...]
 
     @property
     def criteria(self):
@@ -195,8 +204,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     comparison = reval = None
     if data.comparison is not None:
         cc = config.comparison
-        ids, ref, test = data.comparison
-        comparison = assess_comparison(ids, ref, test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
+        cd = data.comparison
+        comparison = assess_comparison(cd.samples, cd.reference, cd.test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
                                        intercept_limits=cc.intercept_limits,
                                        percentage=cc.percentage_differences, alpha=alpha)
         criteria += comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits)

@@ -175,11 +175,11 @@ def _known_reasons(a) -> dict:
     for i, e in enumerate(a.detection.estimates if a.detection is not None else ()):
         if e.loq is None and e.lod is not None:
             out[f"detection.estimates.{i}.loq"] = e.reason or "no quantitation limit is defined on this basis"
-    for i, (source, _level, rsd, _rec) in enumerate(a.loq_check.levels if a.loq_check is not None else ()):
-        if source == "precision":
+    for i, row in enumerate(a.loq_check.levels if a.loq_check is not None else ()):
+        if row.source == "precision":
             out[f"detection.loq_verification.levels.{i}.recovery_pct"] = (
                 "a precision level: recovery is not measured there")
-        if rsd is None:
+        if row.rsd_pct is None:
             out[f"detection.loq_verification.levels.{i}.rsd_pct"] = "no RSD exists at this level (see its section)"
     wr = a.working_range
     if wr is not None:
@@ -268,8 +268,8 @@ def _detection(a):
             "estimates": out,
             "loq_verification": {"loq": num(lc.loq), "rsd_max_pct": lc.rsd_max_pct, "pass": lc.passed,
                                  "reason": lc.reason,
-                                 "levels": [{"source": src, "level": num(lv), "rsd_pct": num(rsd),
-                                             "recovery_pct": num(rec)} for src, lv, rsd, rec in lc.levels]}}
+                                 "levels": [{"source": r.source, "level": num(r.level), "rsd_pct": num(r.rsd_pct),
+                                             "recovery_pct": num(r.recovery_pct)} for r in lc.levels]}}
 
 
 def _recovery(r):
@@ -336,7 +336,7 @@ def _revalidation(r, previous, name):
     if r is None:
         return None
     sl = r.slope
-    model, weighting, origin = r.current_own_choice
+    own = r.current_own_choice
     return {
         "previous": {"path": previous.path, "study_id": previous.study_id, "generated_at": previous.generated_at,
                      "sha256": previous.sha256},
@@ -345,7 +345,7 @@ def _revalidation(r, previous, name):
         "refit_model": r.refit_model,
         "refit_weighting": r.refit_weighting,
         "refit_through_origin": r.refit_through_origin,
-        "current_own_choice": {"model": model, "weighting": weighting, "through_origin": origin},
+        "current_own_choice": {"model": own.model, "weighting": own.weighting, "through_origin": own.through_origin},
         "slope": {"quantity": sl.quantity,
                   "sensitivity_range": None if sl.sensitivity_range is None else [num(v) for v in sl.sensitivity_range],
                   "previous": num(sl.previous), "current": num(sl.current), "change_pct": num(sl.change_pct),
@@ -359,13 +359,13 @@ def _revalidation(r, previous, name):
                         "df": list(r.residual_sd_df),
                         "ratio": num(r.residual_sd_ratio), "f_statistic": num(r.residual_sd_f),
                         "p_value": num(r.residual_sd_pvalue), "ratio_max": num(r.residual_sd_ratio_max)},
-        "lod": [num(v) for v in r.lod], "loq": [num(v) for v in r.loq],
-        "recovery": None if r.recovery is None else {"previous_mean_pct": num(r.recovery[0]),
-                                                     "current_mean_pct": num(r.recovery[1]),
-                                                     "welch_p_value": num(r.recovery[2]),
-                                                     "variance_f_p_value": num(r.recovery[3])},
-        "repeatability": [{"level": num(lv), "previous_sd": num(a), "current_sd": num(b), "f_p_value": num(p)}
-                          for lv, a, b, p in r.repeatability],
+        "lod": [num(r.lod.previous), num(r.lod.current)], "loq": [num(r.loq.previous), num(r.loq.current)],
+        "recovery": None if r.recovery is None else {"previous_mean_pct": num(r.recovery.previous_mean_pct),
+                                                     "current_mean_pct": num(r.recovery.current_mean_pct),
+                                                     "welch_p_value": num(r.recovery.welch_pvalue),
+                                                     "variance_f_p_value": num(r.recovery.variance_f_pvalue)},
+        "repeatability": [{"level": num(c.level), "previous_sd": num(c.previous_sd), "current_sd": num(c.current_sd),
+                           "f_p_value": num(c.f_pvalue)} for c in r.repeatability],
         "verdict": r.verdict,
         "reasons": list(r.reasons),
     }

@@ -61,7 +61,7 @@ class OutlierFlag:
     response: float
     studentised_residual: float
     cooks_distance: float
-    reasons: tuple
+    reasons: tuple[str, ...]
 
 
 @dataclass(frozen=True)
@@ -91,23 +91,23 @@ class CalibrationResult:
     through_origin: bool
     weighting: str
     model_choice: str              # how the model was chosen
-    weighting_candidates: tuple    # WeightingCandidate, empty unless auto
-    levels: tuple                  # distinct concentrations, ascending
-    replicates: tuple              # count per level
+    weighting_candidates: tuple[WeightingCandidate, ...]    # empty unless auto
+    levels: tuple[float, ...]      # distinct concentrations, ascending
+    replicates: tuple[int, ...]    # count per level
     lack_of_fit: TestResult
     mandel: TestResult
     normality: TestResult
     heteroscedasticity: TestResult
     levene: TestResult
     intercept_test: TestResult
-    back_calculated: tuple
+    back_calculated: tuple[BackCalculated, ...]
     fraction_within_tolerance: float | None
-    outliers: tuple
+    outliers: tuple[OutlierFlag, ...]
     studentised_limit: float | None
     cooks_limit: float | None
-    diagnostics: tuple             # sentences about degenerate data
+    diagnostics: tuple[str, ...]   # sentences about degenerate data
     mandel_weighting: str | None = None   # the weighting Mandel's test was computed under
-    choice_steps: tuple = ()       # ChoiceStep, in the order they were taken
+    choice_steps: tuple[ChoiceStep, ...] = ()       # in the order they were taken
 
 
 def _levels(x):

@@ -47,9 +47,9 @@ class ComparisonResult:
     the Passing-Bablok intervals it is judged on do not exist."""
 
     n: int
-    samples: tuple
-    reference: tuple
-    test: tuple
+    samples: tuple[str, ...]
+    reference: tuple[float, ...]
+    test: tuple[float, ...]
     passing_bablok: PassingBablok
     deming: Deming
     bland_altman: BlandAltman

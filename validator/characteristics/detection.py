@@ -42,7 +42,7 @@ class DetectionEstimate:
 
 @dataclass(frozen=True)
 class DetectionResult:
-    estimates: tuple
+    estimates: tuple[DetectionEstimate, ...]
     reporting_method: str
     lod_factor: float
     loq_factor: float

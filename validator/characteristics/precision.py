@@ -107,7 +107,7 @@ class PrecisionLevel:
     horwitz_note: str
     reason: str = ""          # why some estimates are missing (degenerate design)
     grubbs_double: OutlierTest | None = None
-    grubbs_within: tuple = ()   # OutlierTest per series
+    grubbs_within: tuple[OutlierTest, ...] = ()   # one per series
 
 
 def _sd_ci(sd, df, alpha):

@@ -26,21 +26,21 @@ __all__ = ["RecoveryLevel", "RecoveryResult", "ReferenceMaterialResult", "assess
 class RecoveryLevel:
     added: float
     n: int
-    recoveries_pct: tuple
+    recoveries_pct: tuple[float, ...]
     mean_pct: float
     sd_pct: float | None
     rsd_pct: float | None
     ci_pct: ConfidenceInterval | None
     t_statistic: float | None
     pvalue: float | None
-    range_pct: tuple
+    range_pct: tuple[float, float]
     passed: bool
     reason: str = ""          # why sd/rsd/ci/t/p are missing, when they are
 
 
 @dataclass(frozen=True)
 class RecoveryResult:
-    levels: tuple
+    levels: tuple[RecoveryLevel, ...]
     overall_mean_pct: float
     n: int
 

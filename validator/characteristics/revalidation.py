@@ -40,7 +40,8 @@ from .._common import ConfidenceInterval, quiet_numpy
 from ..maths.distributions import f_test_two_sided
 from ..maths.regression import PolynomialFit, fit_polynomial
 
-__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "compare_slopes", "residual_sd_ratio",
+__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair", "RecoveryChange",
+           "RepeatabilityChange", "CalibrationChoice", "compare_slopes", "residual_sd_ratio",
            "refit_like", "joint_comparison", "assess_revalidation", "calibration_points"]
 
 
@@ -68,7 +69,7 @@ class SlopeComparison:
     margin_pct: float
     verdict: str                 # "equivalent" | "not shown equivalent" | "different" | "not applicable"
     quantity: str = "slope"
-    sensitivity_range: tuple | None = None
+    sensitivity_range: tuple[float, float] | None = None
     basis: str = "summary statistics"
     reason: str = ""
 
@@ -156,7 +157,7 @@ class JointComparison:
     slope: SlopeComparison
     residual_sd_previous: float
     residual_sd_current: float
-    residual_df: tuple           # (previous, current): n_k - p
+    residual_df: tuple[int, int]           # (previous, current): n_k - p
     pooled_residual_sd: float
     n_params: int
 
@@ -234,6 +235,43 @@ def joint_comparison(previous: PolynomialFit, current: PolynomialFit, margin_pct
 
 
 @dataclass(frozen=True)
+class RunPair:
+    """One quantity in the previous run and in this one."""
+
+    previous: float | None
+    current: float | None
+
+
+@dataclass(frozen=True)
+class RecoveryChange:
+    """Mean recovery before and now: Welch's t test of the means, F test of the variances (two-sided)."""
+
+    previous_mean_pct: float | None
+    current_mean_pct: float | None
+    welch_pvalue: float | None
+    variance_f_pvalue: float | None
+
+
+@dataclass(frozen=True)
+class RepeatabilityChange:
+    """Repeatability SD at a level both runs assessed, with the two-sided F test of the variances."""
+
+    level: float
+    previous_sd: float
+    current_sd: float
+    f_pvalue: float
+
+
+@dataclass(frozen=True)
+class CalibrationChoice:
+    """A calibration function: model, weighting, through the origin or not."""
+
+    model: str
+    weighting: str
+    through_origin: bool
+
+
+@dataclass(frozen=True)
 class RevalidationResult:
     slope: SlopeComparison
     intercept_previous: float | None
@@ -244,17 +282,17 @@ class RevalidationResult:
     residual_sd_f: float | None
     residual_sd_pvalue: float | None
     residual_sd_ratio_max: float
-    lod: tuple            # (previous, current) on the reported basis
-    loq: tuple
-    recovery: tuple | None        # (previous mean %, current mean %, Welch p, F-test p of the variances)
-    repeatability: tuple          # (level, previous s_r, current s_r, F p) for levels in both runs
+    lod: RunPair                  # on the reported basis
+    loq: RunPair
+    recovery: RecoveryChange | None
+    repeatability: tuple[RepeatabilityChange, ...]       # levels in both runs
     verdict: str
-    reasons: tuple
+    reasons: tuple[str, ...]
     refit_model: str = "linear"           # the previous run's model, used for both runs
     refit_weighting: str = "none"
     refit_through_origin: bool = False
-    current_own_choice: tuple = ()        # (model, weighting, through_origin) this run chose for itself
-    residual_sd_df: tuple = ()            # (previous, current)
+    current_own_choice: CalibrationChoice | None = None  # the function this run chose for itself
+    residual_sd_df: tuple[int, int] = (0, 0)             # (previous, current)
 
 
 def _reported(analyte: dict, key: str):
@@ -362,7 +400,7 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
                     f = np.var(r2, ddof=1) / np.var(r1, ddof=1)
                     d2, d1 = len(r2) - 1, len(r1) - 1
                     f_p = f_test_two_sided(f, d2, d1)
-        rec = (float(np.mean(r1)) if r1 else None, float(np.mean(r2)) if r2 else None, welch, f_p)
+        rec = RecoveryChange(float(np.mean(r1)) if r1 else None, float(np.mean(r2)) if r2 else None, welch, f_p)
     rep = []
     if previous.get("precision") and current.get("precision"):
         old = {lv["level"]: lv for lv in previous["precision"]["levels"]}
@@ -372,7 +410,8 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
                 f = (lv["repeatability_sd"] / o["repeatability_sd"]) ** 2
                 d2, d1 = lv["df"][-1], o["df"][-1]
                 if d1 > 0 and d2 > 0:
-                    rep.append((lv["level"], o["repeatability_sd"], lv["repeatability_sd"], f_test_two_sided(f, d2, d1)))
+                    rep.append(RepeatabilityChange(lv["level"], o["repeatability_sd"], lv["repeatability_sd"],
+                                                   f_test_two_sided(f, d2, d1)))
 
     reasons = []
     if own != spec:
@@ -401,6 +440,7 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
         reasons.append("the previous results.json lacks the raw calibration points, so the comparison used its "
                        "summary statistics (slope, its standard error, residual SD and n)")
     return RevalidationResult(slope, intercept_previous, intercept_current, s1, s2, ratio, F, p,
-                              residual_sd_ratio_max, (_reported(previous, "lod"), _reported(current, "lod")),
-                              (_reported(previous, "loq"), _reported(current, "loq")), rec, tuple(rep),
-                              verdict, tuple(reasons), model, weighting, origin, own, tuple(sd_df))
+                              residual_sd_ratio_max, RunPair(_reported(previous, "lod"), _reported(current, "lod")),
+                              RunPair(_reported(previous, "loq"), _reported(current, "loq")), rec, tuple(rep),
+                              verdict, tuple(reasons), model, weighting, origin, CalibrationChoice(*own),
+                              tuple(sd_df))

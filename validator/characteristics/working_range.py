@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["WorkingRange", "LoqCheck", "working_range", "verify_loq"]
+__all__ = ["WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq"]
 
 
 @dataclass(frozen=True)
@@ -57,9 +57,19 @@ def working_range(back_calculated, loq, loq_method, failing_levels, assessed_lev
 
 
 @dataclass(frozen=True)
+class LoqLevel:
+    """One precision or recovery level at or below 2 x LOQ: its RSD (and mean recovery)."""
+
+    source: str                      # "precision" or "recovery"
+    level: float
+    rsd_pct: float | None
+    recovery_pct: float | None       # None for a precision level (recovery is not measured there)
+
+
+@dataclass(frozen=True)
 class LoqCheck:
     loq: float | None
-    levels: tuple       # (source, level, rsd_pct, recovery_pct)
+    levels: tuple[LoqLevel, ...]
     rsd_max_pct: float
     passed: bool | None
     reason: str = ""
@@ -76,13 +86,13 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
     rows = []
     for p in precision_levels:
         if p.level <= 2 * loq:
-            rows.append(("precision", p.level, p.repeatability_rsd_pct, None))
+            rows.append(LoqLevel("precision", p.level, p.repeatability_rsd_pct, None))
     for r in recovery_levels:
         if r.added <= 2 * loq:
-            rows.append(("recovery", r.added, r.rsd_pct, r.mean_pct))
+            rows.append(LoqLevel("recovery", r.added, r.rsd_pct, r.mean_pct))
     if not rows:
         return LoqCheck(loq, (), rsd_max_pct, None, "no precision or recovery level at or below 2 × LOQ")
-    rsds = [r[2] for r in rows if r[2] is not None]
+    rsds = [r.rsd_pct for r in rows if r.rsd_pct is not None]
     passed = bool(rsds) and all(v <= rsd_max_pct for v in rsds)
     return LoqCheck(loq, tuple(rows), rsd_max_pct, passed if rsds else None,
                     "" if rsds else "no RSD available at those levels")

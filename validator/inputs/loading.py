@@ -11,6 +11,7 @@ from __future__ import annotations
 import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -35,15 +36,15 @@ class InputFile:
 class CalibrationData:
     concentration: np.ndarray = field(repr=False)
     response: np.ndarray = field(repr=False)
-    series: tuple = field(repr=False)
-    rows: tuple = field(repr=False)
+    series: tuple[str, ...] = field(repr=False)
+    rows: tuple[int, ...] = field(repr=False)
 
 
 @dataclass(frozen=True)
 class SampleData:
     id: str
-    responses: tuple
-    rows: tuple
+    responses: tuple[float, ...]
+    rows: tuple[int, ...]
 
 
 @dataclass(frozen=True)
@@ -51,28 +52,38 @@ class RecoveryData:
     added: np.ndarray = field(repr=False)
     found: np.ndarray = field(repr=False)
     native: np.ndarray = field(repr=False)
-    series: tuple = field(repr=False)
+    series: tuple[str, ...] = field(repr=False)
 
 
 @dataclass(frozen=True)
 class PrecisionData:
     level: np.ndarray = field(repr=False)
-    series: tuple = field(repr=False)
+    series: tuple[str, ...] = field(repr=False)
     found: np.ndarray = field(repr=False)       # found - offset, the subtraction done exactly
     offset: float = 0.0
+
+
+@dataclass(frozen=True)
+class ComparisonData:
+    """Shared samples measured by the reference and the test method."""
+
+    samples: tuple[str, ...]
+    reference: np.ndarray = field(repr=False)
+    test: np.ndarray = field(repr=False)
 
 
 @dataclass(frozen=True)
 class AnalyteData:
     name: str
     calibration: CalibrationData
-    samples: tuple = ()
+    samples: tuple[SampleData, ...] = ()
     blanks: np.ndarray | None = field(default=None, repr=False)
     recovery: RecoveryData | None = None
     precision: PrecisionData | None = None
     reference_material: np.ndarray | None = field(default=None, repr=False)
-    comparison: tuple | None = field(default=None, repr=False)     # (sample ids, reference, test)
-    previous: dict | None = field(default=None, repr=False)        # the analyte in the previous results
+    comparison: ComparisonData | None = field(default=None, repr=False)
+    # the analyte's entry in the previous results.json, as read (checked against the schema)
+    previous: dict[str, Any] | None = field(default=None, repr=False)
 
 
 @dataclass(frozen=True)
@@ -83,15 +94,15 @@ class PreviousRun:
     sha256: str
     study_id: str
     generated_at: str
-    unmatched: tuple         # analyte names present in only one of the two runs
-    matched: tuple = ()      # (name in this study, name in the previous results) per compared analyte
+    unmatched: tuple[str, ...]                # analyte names present in only one of the two runs
+    matched: tuple[tuple[str, str], ...] = ()  # (name in this study, name in the previous results) per analyte
 
 
 @dataclass(frozen=True)
 class LoadedStudy:
     study: StudyFile
-    inputs: tuple            # InputFile, the study file first
-    analytes: tuple          # AnalyteData, in order of first appearance
+    inputs: tuple[InputFile, ...]            # the study file first
+    analytes: tuple[AnalyteData, ...]        # in order of first appearance
     previous: PreviousRun | None = None
 
     @property
@@ -308,7 +319,7 @@ def _comparison(reader, analytes):
         if len(idx) < 3:
             raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
                             file=table.path, row=table.rows[idx[0]])
-        out[name] = (tuple(ids[i] for i in idx), ref[idx], test[idx])
+        out[name] = ComparisonData(tuple(ids[i] for i in idx), ref[idx], test[idx])
     return out
 
 

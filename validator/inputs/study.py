@@ -28,7 +28,7 @@ import sys
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Annotated, Literal, Optional
+from typing import Annotated, Any, Literal, Optional
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
@@ -265,7 +265,7 @@ class StudyFile:
     text: str                  # the study file as given
     sha256: str
     config: StudyConfig
-    defaults_applied: tuple    # ("criteria.alpha", 0.05), ...
+    defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
 
     def resolve(self, data_path: str) -> Path:
         """A data path from the study file, relative to the study file's folder."""

@@ -48,8 +48,8 @@ class Table:
     """
 
     path: str            # as written in the study file
-    columns: dict        # canonical (lower-case) name -> list of raw strings
-    rows: tuple          # file row number of each record
+    columns: dict[str, list[str]]     # canonical (lower-case) name -> raw strings
+    rows: tuple[int, ...]             # file row number of each record
 
     def __len__(self) -> int:
         return len(self.rows)

@@ -419,12 +419,12 @@ class BlandAltman:
     bias: float | None
     bias_ci: ConfidenceInterval | None
     sd: float | None
-    limits: tuple | None
+    limits: tuple[float, float] | None
     lower_limit_ci: ConfidenceInterval | None
     upper_limit_ci: ConfidenceInterval | None
     percentage: bool
     reason: str = ""
-    excluded: tuple = ()
+    excluded: tuple[int, ...] = ()
     note: str = ""
 
 

@@ -41,13 +41,13 @@ class OutlierTest:
     method: str
     statistic: float | None
     pvalue: float | None
-    df: tuple | None = None
+    df: tuple[float, ...] | None = None
     reason: str = ""
     basis: str = ""
     pvalue_se: float | None = None
     suspect: str = ""
     series: str | None = None
-    sizes: tuple | None = None
+    sizes: tuple[int, ...] | None = None
 
     @property
     def applicable(self) -> bool:

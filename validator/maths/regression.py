@@ -116,7 +116,7 @@ class PolynomialFit:
     """A fitted calibration function; arrays are the data it was fitted to."""
 
     model: str
-    powers: tuple
+    powers: tuple[int, ...]
     weighting: str
     x: np.ndarray = field(repr=False, compare=False)
     y: np.ndarray = field(repr=False, compare=False)
@@ -132,7 +132,7 @@ class PolynomialFit:
     residual_variance: float
     df_resid: int
     r_squared: float
-    coefficients: dict              # "intercept"/"slope"/"quadratic" -> Coefficient
+    coefficients: dict[str, Coefficient]     # "intercept"/"slope"/"quadratic" -> Coefficient
     alpha: float
 
     @property

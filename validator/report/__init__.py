@@ -60,7 +60,7 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "outliers_y": [o.response for o in a.calibration.outliers],
         "rel_x": list(rv.relative_x), "rel_residuals": list(rv.relative_pct),
         "qq_theoretical": list(rv.qq_theoretical), "qq_ordered": list(rv.qq_ordered),
-        "qq_line": rv.qq_line,
+        "qq_line": None if rv.qq_line is None else (rv.qq_line.intercept, rv.qq_line.slope),
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
         "recovery": [{"added": lv.added, "values": list(lv.recoveries_pct), "mean": lv.mean_pct,
