@@ -21,8 +21,8 @@ import math
 from dataclasses import dataclass
 
 __all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_criteria",
-           "reference_material_criterion", "loq_criterion", "comparison_criteria", "overall_verdict",
-           "at_least", "at_most", "interval_within", "missing"]
+           "precision_level_criteria", "reference_material_criterion", "loq_criterion", "comparison_criteria",
+           "overall_verdict", "at_least", "at_most", "interval_within", "missing"]
 
 
 def _finite(v) -> bool:
@@ -150,20 +150,24 @@ def recovery_criteria(recovery) -> tuple:
         lv.mean_pct, list(lv.range_pct), lv.passed) for lv in recovery.levels)
 
 
-def precision_criteria(levels, limits_for) -> tuple:
-    """Repeatability and intermediate RSD against their maxima, per level (where set)."""
+def precision_level_criteria(lv, limits: tuple) -> tuple:
+    """Repeatability and intermediate RSD of one level against their maxima ``limits`` (where set)."""
     out = []
-    for lv in levels:
-        r_max, i_max = limits_for(lv.level)
-        for kind, label, value, limit in (
-                ("repeatability", "repeatability RSD", lv.repeatability_rsd_pct, r_max),
-                ("intermediate", "intermediate precision RSD", lv.intermediate_rsd_pct, i_max)):
-            if limit is None:
-                continue
-            out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
-                                 value, limit, at_most(value, limit),
-                                 "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
+    r_max, i_max = limits
+    for kind, label, value, limit in (
+            ("repeatability", "repeatability RSD", lv.repeatability_rsd_pct, r_max),
+            ("intermediate", "intermediate precision RSD", lv.intermediate_rsd_pct, i_max)):
+        if limit is None:
+            continue
+        out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
+                             value, limit, at_most(value, limit),
+                             "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
+
+
+def precision_criteria(levels, limits_for) -> tuple:
+    """:func:`precision_level_criteria` for every level, in order."""
+    return tuple(c for lv in levels for c in precision_level_criteria(lv, limits_for(lv.level)))
 
 
 def reference_material_criterion(rm) -> Criterion:

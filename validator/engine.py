@@ -14,8 +14,7 @@ from scipy import stats
 from ._common import quiet_numpy
 from .characteristics.calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
-                       overall_verdict,
-                       precision_criteria, recovery_criteria, reference_material_criterion)
+                       overall_verdict, precision_level_criteria, recovery_criteria, reference_material_criterion)
 from .characteristics.detection import DetectionResult, assess_detection
 from .characteristics.precision import PrecisionLevel, assess_precision_level
 from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
@@ -182,12 +181,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                                    [s for s, lv in zip(p.series, p.level) if lv == level],
                                    alpha=alpha, unit=concentration_unit, offset=p.offset)
             for level in np.unique(p.level))
-        crits = precision_criteria(precision, config.precision.limits_for)
-        criteria += crits
-        assessed += [lv.level for lv in precision]
-        bad = {c.id for c in crits if c.passed is False}
-        failing += [(lv.level, "precision") for lv in precision
-                    if f"repeatability-rsd-{lv.level:g}" in bad or f"intermediate-rsd-{lv.level:g}" in bad]
+        for lv in precision:
+            crits = precision_level_criteria(lv, config.precision.limits_for(lv.level))
+            criteria += crits
+            assessed.append(lv.level)
+            if any(c.passed is False for c in crits):
+                failing.append((lv.level, "precision"))
     if data.reference_material is not None:
         rmc = config.reference_material
         rm = assess_reference_material(data.reference_material, rmc.certified_value,

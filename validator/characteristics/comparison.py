@@ -5,16 +5,9 @@ The ``[comparison]`` section of a study runs :func:`assess_comparison` per analy
 
 References
 ----------
-.. [PB1983] Passing, H. and Bablok, W. (1983). A new biometrical procedure
-   for testing the equality of measurements from two different analytical
-   methods. J. Clin. Chem. Clin. Biochem. 21, 709-720.
-.. [Linnet1990] Linnet, K. (1990). Estimation of the linear relationship
-   between the measurements of two methods with proportional errors.
-   Stat. Med. 9, 1463-1473 (jackknife standard errors for Deming regression).
-.. [BA1999] Bland, J. M. and Altman, D. G. (1999). Measuring agreement in
-   method comparison studies. Stat. Methods Med. Res. 8, 135-160.
 .. [EP09] CLSI EP09c, Measurement procedure comparison and bias estimation
-   using patient samples, 3rd ed. (2018).
+   using patient samples, 3rd ed. (2018). The statistics' own references are in
+   :mod:`validator.maths.method_comparison`.
 """
 
 from __future__ import annotations

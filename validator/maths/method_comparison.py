@@ -413,6 +413,7 @@ class BlandAltman:
 
     With ``percentage``, a pair whose mean (x + y)/2 is 0 has no percentage difference: it
     is left out, listed in ``excluded`` (0-based indices) and explained in ``note``.
+    ``differences`` holds every pair's difference (NaN where it does not exist).
     """
 
     n: int
@@ -426,6 +427,8 @@ class BlandAltman:
     reason: str = ""
     excluded: tuple[int, ...] = ()
     note: str = ""
+    # every pair's difference in the order given (NaN for an excluded pair), for the plot
+    differences: tuple[float, ...] = ()
 
 
 def percentage_differences(x, y):
@@ -457,13 +460,15 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
         if excluded:
             note = (f"{len(excluded)} pair(s) with mean (reference + test)/2 = 0 have no percentage "
                     "difference and are left out of the percentage analysis")
+        every = tuple(map(float, d))
         d = d[~np.isnan(d)]
     else:
         d = y - x
+        every = tuple(map(float, d))
     n = int(d.size)
     if n < 2:
         return BlandAltman(n, None, None, None, None, None, None, percentage,
-                           f"needs at least 2 differences, got {n}", excluded, note)
+                           f"needs at least 2 differences, got {n}", excluded, note, every)
     bias = float(d.mean())
     sd = float(np.std(d - bias, ddof=1))
     t = float(stats.t.ppf(1 - alpha / 2, n - 1))
@@ -475,4 +480,4 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
     return BlandAltman(n, bias, ConfidenceInterval(bias - t * se_bias, bias + t * se_bias, level), sd,
                        (lo, hi), ConfidenceInterval(lo - t * se_lim, lo + t * se_lim, level),
                        ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level), percentage, "",
-                       excluded, note)
+                       excluded, note, every)

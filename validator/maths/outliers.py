@@ -236,6 +236,20 @@ def _grubbs_basis(exact):
             "(G <= sqrt((n - 1)/2); conservative)")
 
 
+def _series_means(values, groups, method: str, min_series: int):
+    """(labels, means) of the series in order of first appearance, or the not-applicable test
+    when there are fewer than ``min_series`` series or a mean is not finite."""
+    y = np.asarray(values, float)
+    g = np.asarray(groups)
+    labels = list(dict.fromkeys(g.tolist()))
+    if len(labels) < min_series:
+        return _outlier_na(method, f"needs at least {min_series} series")
+    m = np.array([y[g == lab].mean() for lab in labels])
+    if not np.all(np.isfinite(m)):
+        return _outlier_na(method, "a series mean is not finite")
+    return labels, m
+
+
 def grubbs_means(values, groups, alpha=0.05) -> OutlierTest:
     """Grubbs' test for the most extreme series mean (two-sided).
 
@@ -249,15 +263,11 @@ def grubbs_means(values, groups, alpha=0.05) -> OutlierTest:
     Technometrics 11, 1-21.
     """
     method = "Grubbs (series means)"
-    y = np.asarray(values, float)
-    g = np.asarray(groups)
-    labels = list(dict.fromkeys(g.tolist()))
+    got = _series_means(values, groups, method, 3)
+    if isinstance(got, OutlierTest):
+        return got
+    labels, m = got
     k = len(labels)
-    if k < 3:
-        return _outlier_na(method, "needs at least 3 series")
-    m = np.array([y[g == lab].mean() for lab in labels])
-    if not np.all(np.isfinite(m)):
-        return _outlier_na(method, "a series mean is not finite")
     if np.std(m, ddof=1) == 0:
         return _outlier_na(method, "all series means are equal")
     if _at_grubbs_maximum(m):
@@ -338,15 +348,11 @@ def grubbs_double(values, groups, alpha=0.05) -> OutlierTest:
     no table of its critical values is in the reference data.
     """
     method = "Grubbs double (two largest or two smallest series means)"
-    y = np.asarray(values, float)
-    g = np.asarray(groups)
-    labels = list(dict.fromkeys(g.tolist()))
+    got = _series_means(values, groups, method, 4)
+    if isinstance(got, OutlierTest):
+        return got
+    labels, m = got
     k = len(labels)
-    if k < 4:
-        return _outlier_na(method, "needs at least 4 series")
-    m = np.array([y[g == lab].mean() for lab in labels])
-    if not np.all(np.isfinite(m)):
-        return _outlier_na(method, "a series mean is not finite")
     if np.all(m == m[0]):
         return _outlier_na(method, "all series means are equal")
     if k > MAX_SIMULATED_SERIES:

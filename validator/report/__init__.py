@@ -15,9 +15,8 @@ from pathlib import Path
 
 import jinja2
 
-from ..maths.method_comparison import percentage_differences
 from .plots import PALETTE, figures_for_all
-from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label,
+from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
@@ -42,6 +41,7 @@ def _environment() -> jinja2.Environment:
     env.filters["fmt_p"] = fmt_p
     env.filters["level"] = level_label
     env.globals["verdict"] = verdict_label
+    env.globals["met"] = met
     return env
 
 
@@ -97,8 +97,7 @@ def _change_data(a, entry: dict) -> dict:
         out["comparison"] = {
             "reference": list(c.reference), "test": list(c.test),
             # a pair without a percentage difference (mean 0) is NaN: not drawn
-            "differences": (list(map(float, percentage_differences(c.reference, c.test))) if ba.percentage
-                            else [y - x for x, y in zip(c.reference, c.test)]),
+            "differences": list(ba.differences),
             "bias": ba.bias, "limits": None if ba.limits is None else list(ba.limits), "percentage": ba.percentage,
             "pb_a": c.passing_bablok.intercept, "pb_b": c.passing_bablok.slope,
             "dm_a": c.deming.intercept, "dm_b": c.deming.slope}

@@ -8,7 +8,7 @@ study's alpha and limits but estimates nothing.
 
 from __future__ import annotations
 
-__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "verdict_label", "calibration_sentences"]
+__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences"]
 
 SIG = 5
 SIG_P = 3
@@ -47,6 +47,17 @@ def level_label(level) -> str:
     return f"{100 * level:.6g} %"
 
 
+# results.json verdict words -> met (True), not met (False), not applicable (None): the one
+# place the dossier reads a verdict word; a re-validation not shown equivalent is not met
+VERDICT_WORDS = {"pass": True, "fail": False, "not applicable": None,
+                 "equivalent": True, "not shown equivalent": False, "different": False}
+
+
+def met(verdict_word: str) -> bool | None:
+    """Whether a verdict word of results.json means met, not met or not applicable."""
+    return VERDICT_WORDS[verdict_word]
+
+
 def verdict_label(passed) -> dict:
     """Word and symbol for a verdict, never colour alone."""
     if passed is True:
@@ -71,47 +82,46 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
     slope = cal["coefficients"]["slope"]
     out["fit"] = (f"A {model} ({weighting}) was fitted to n = {cal['n']} points at {cal['levels']} "
                   f"concentration levels ({cal['model_choice']}). The slope is {fmt(slope['estimate'])} "
-                  f"({level_label(slope['ci_level'])} CI {fmt(slope['ci'][0])} to {fmt(slope['ci'][1])}); the residual standard "
-                  f"deviation s(y/x) is {fmt(cal['residual_sd'])} and R² = {fmt(cal['r_squared'], 6)}.")
-    lof = cal["lack_of_fit"]
-    if lof is None:
-        out["lack_of_fit"] = f"The lack-of-fit test was not applicable: {_reason(a, 'lack_of_fit')}."
-    else:
+                  f"({level_label(slope['ci_level'])} CI {fmt(slope['ci'][0])} to {fmt(slope['ci'][1])}); "
+                  f"the residual standard deviation s(y/x) is {fmt(cal['residual_sd'])} and R² = {fmt(cal['r_squared'], 6)}.")
+    def test_sentence(key: str, name: str, reading) -> None:
+        """``reading(test)`` for an applicable test, else the one not-applicable sentence with its reason."""
+        test = cal[key]
+        out[key] = f"{name} was not applicable: {_reason(a, key)}." if test is None else reading(test)
+
+    def lack_of_fit(lof):
         evidence = "is" if _sig(lof["p_value"], alpha) else "is no"
-        out["lack_of_fit"] = (
-            f"The lack-of-fit test gives F = {fmt(lof['statistic'])} on ({lof['df'][0]}, {lof['df'][1]}) "
-            f"degrees of freedom with p = {fmt_p(lof['p_value'])}, so there {evidence} evidence at "
-            f"alpha = {alpha:g} that the {model} misses systematic structure (such as curvature) "
-            "beyond the scatter of the replicates.")
-    m = cal["mandel"]
-    if m is None:
-        out["mandel"] = f"Mandel's fitting test was not applicable: {_reason(a, 'mandel')}."
-    else:
+        return (f"The lack-of-fit test gives F = {fmt(lof['statistic'])} on ({lof['df'][0]}, {lof['df'][1]}) "
+                f"degrees of freedom with p = {fmt_p(lof['p_value'])}, so there {evidence} evidence at "
+                f"alpha = {alpha:g} that the {model} misses systematic structure (such as curvature) "
+                "beyond the scatter of the replicates.")
+
+    def mandel(m):
         better = "fits significantly better" if _sig(m["p_value"], alpha) else "does not fit significantly better"
         under = "unweighted fits" if m["weighting"] == "none" else f"fits weighted {m['weighting']}"
-        out["mandel"] = (f"Mandel's fitting test ({under}) gives F = {fmt(m['statistic'])} on (1, {m['df'][1]}) df, "
-                         f"p = {fmt_p(m['p_value'])}: a second-order polynomial {better} than a straight line "
-                         f"at alpha = {alpha:g}.")
-    nt = cal["normality"]
-    if nt is None:
-        out["normality"] = f"The normality test was not applicable: {_reason(a, 'normality')}."
-    else:
+        return (f"Mandel's fitting test ({under}) gives F = {fmt(m['statistic'])} on (1, {m['df'][1]}) df, "
+                f"p = {fmt_p(m['p_value'])}: a second-order polynomial {better} than a straight line "
+                f"at alpha = {alpha:g}.")
+
+    def normality(nt):
         ok = "are not" if _sig(nt["p_value"], alpha) else "are"
-        out["normality"] = (f"{nt['method']}: W = {fmt(nt['statistic'])}, p = {fmt_p(nt['p_value'])}; "
-                            f"the residuals {ok} consistent with a normal distribution at alpha = {alpha:g}.")
-    ht = cal["heteroscedasticity"]
-    if ht is None:
-        out["heteroscedasticity"] = (f"The heteroscedasticity test was not applicable: "
-                                     f"{_reason(a, 'heteroscedasticity')}.")
-    else:
+        return (f"{nt['method']}: W = {fmt(nt['statistic'])}, p = {fmt_p(nt['p_value'])}; "
+                f"the residuals {ok} consistent with a normal distribution at alpha = {alpha:g}.")
+
+    def heteroscedasticity(ht):
         if _sig(ht["p_value"], alpha):
             tail = ("the scatter of the response changes with concentration"
                     + ("; a weighted fit should be considered." if cal["weighting"] == "none"
                        else f"; the fit uses {cal['weighting']} weighting."))
         else:
             tail = "there is no evidence that the scatter of the response changes with concentration."
-        out["heteroscedasticity"] = (f"{ht['method']} on the unweighted fit: LM = {fmt(ht['statistic'])}, "
-                                     f"p = {fmt_p(ht['p_value'])}; at alpha = {alpha:g} {tail}")
+        return (f"{ht['method']} on the unweighted fit: LM = {fmt(ht['statistic'])}, "
+                f"p = {fmt_p(ht['p_value'])}; at alpha = {alpha:g} {tail}")
+
+    test_sentence("lack_of_fit", "The lack-of-fit test", lack_of_fit)
+    test_sentence("mandel", "Mandel's fitting test", mandel)
+    test_sentence("normality", "The normality test", normality)
+    test_sentence("heteroscedasticity", "The heteroscedasticity test", heteroscedasticity)
     it = cal["intercept_test"]
     if it is not None:
         differs = "differs" if _sig(it["p_value"], alpha) else "does not differ"
