@@ -2,7 +2,7 @@
 
 Pure functions over the numbers a results.json records. The ``[revalidation]``
 section of a study runs :func:`assess_revalidation` for every analyte matched
-with the previous run (see ``loading._previous`` for the matching rules).
+with the previous run (see ``validator.inputs.previous`` for the matching rules).
 
 Like with like: the current calibration points are refitted with the previous
 run's model, weighting and through-origin setting (:func:`refit_like`), so that
