@@ -11,6 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from validator.characteristics.comparison import assess_comparison
+from validator.characteristics.working_range import LoqLevel
 from validator.criteria import (Criterion, at_least, at_most, comparison_criteria, interval_within, loq_criterion,
                                 overall_verdict)
 from validator.engine import analyse_study
@@ -73,7 +74,7 @@ def test_a_met_verdict_without_value_is_overruled():
 
 def test_loq_criterion_with_no_level_value_is_not_applicable():
     class Check:           # a LoqCheck whose levels have no RSD but which claims a pass
-        levels = (("precision", 0.1, None, None),)
+        levels = (LoqLevel("precision", 0.1, None, None),)
         rsd_max_pct = 20.0
         passed = True
         reason = ""
