@@ -102,10 +102,11 @@ def test_a_revalidation_that_matches_nothing_is_an_input_error(make_study, tmp_p
 
 def test_a_run_compared_with_itself_is_equivalent():
     # identity check: every change is zero, every two-sample p-value is 1
-    from validator.characteristics.revalidation import assess_revalidation
+    from validator.characteristics.revalidation import RunSummary, assess_revalidation
     prev = json.loads((REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json").read_text())
     for a in prev["analytes"]:
-        r = assess_revalidation(a, a, slope_change_max_pct=5, residual_sd_ratio_max=2)
+        run = RunSummary.from_results(a)
+        r = assess_revalidation(run, run, slope_change_max_pct=5, residual_sd_ratio_max=2)
         assert r.slope.change_pct == 0 and r.slope.verdict == "equivalent"
         assert r.residual_sd_ratio == 1 and r.residual_sd_pvalue == pytest.approx(1)
         assert r.recovery.welch_pvalue == pytest.approx(1) and r.recovery.variance_f_pvalue == pytest.approx(1)

@@ -15,7 +15,7 @@ from scipy import stats
 from conftest import REPO
 from validator.cli import main
 from validator.maths.regression import fit_polynomial, raw_weights
-from validator.characteristics.revalidation import assess_revalidation, joint_comparison, refit_like
+from validator.characteristics.revalidation import RunSummary, assess_revalidation, joint_comparison, refit_like
 
 EXAMPLE_PREVIOUS = REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json"
 
@@ -204,7 +204,8 @@ def test_summary_fallback_uses_n1_plus_n2_minus_2p():
         "back_calculated": [{"nominal": float(a), "response": float(b)} for a, b in zip(x, y)]}}
     previous, current = entry(x1, y1), entry(x2, y2)
     previous["calibration"]["back_calculated"] = []          # an older file without the raw points
-    r = assess_revalidation(previous, current, slope_change_max_pct=5, residual_sd_ratio_max=2)
+    r = assess_revalidation(RunSummary.from_results(previous), RunSummary.from_results(current),
+                            slope_change_max_pct=5, residual_sd_ratio_max=2)
     x = np.concatenate([x1, x2])
     g = np.concatenate([np.zeros_like(x1), np.ones_like(x2)])
     ols = sm.OLS(np.concatenate([y1, y2]), np.column_stack([x, g * x])).fit()

@@ -21,7 +21,7 @@ from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, 
                                        assess_reference_material)
 from .characteristics.comparison import ComparisonResult, assess_comparison
 from .criteria import Criterion
-from .characteristics.revalidation import RevalidationResult, assess_revalidation
+from .characteristics.revalidation import RevalidationResult, RunSummary, assess_revalidation, run_summary
 from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -210,7 +210,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         criteria += comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits)
     if data.previous is not None:
         rc = config.revalidation
-        reval = assess_revalidation(data.previous, _summary(cal, detection, recovery, precision or ()),
+        reval = assess_revalidation(RunSummary.from_results(data.previous),
+                                    run_summary(cal, detection, recovery, precision or ()),
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
         criteria += _revalidation_criteria(reval, rc)
@@ -240,31 +241,6 @@ def _revalidation_criteria(reval, rc) -> list:
                    ratio, rc.residual_sd_ratio_max, at_most(ratio, rc.residual_sd_ratio_max),
                    "not applicable: the previous residual SD is zero, so no ratio exists" if ratio is None else "")
     return [slope, sd]
-
-
-def _summary(cal, detection, recovery, precision) -> dict:
-    """This run's numbers in the layout of a results.json analyte entry (the fields a comparison reads).
-
-    ``back_calculated`` carries every calibration point, so the comparison can refit them
-    with the previous run's calibration function.
-    """
-    fit = cal.fit
-    rep = detection.reported
-    return {
-        "calibration": {"model": cal.model, "weighting": cal.weighting, "through_origin": cal.through_origin,
-                        "coefficients": {k: {"estimate": c.estimate, "std_error": c.std_error}
-                                         for k, c in fit.coefficients.items()},
-                        "residual_sd": fit.residual_sd, "n": fit.n, "df_resid": fit.df_resid,
-                        "back_calculated": [{"nominal": float(x), "response": float(y)}
-                                            for x, y in zip(fit.x, fit.y)]},
-        "detection": {"reported_basis": rep.method,
-                      "estimates": [{"method": rep.method, "lod": rep.lod, "loq": rep.loq}]},
-        "recovery": None if recovery is None else {
-            "levels": [{"recoveries_pct": list(lv.recoveries_pct)} for lv in recovery.levels]},
-        "precision": {"levels": [{"level": lv.level, "repeatability_sd": lv.repeatability_sd,
-                                  "df": [lv.anova.df_between, lv.anova.df_within]} for lv in precision]}
-        if precision else None,
-    }
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

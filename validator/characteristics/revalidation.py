@@ -31,7 +31,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
@@ -42,7 +42,8 @@ from ..maths.regression import PolynomialFit, fit_polynomial
 
 __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair", "RecoveryChange",
            "RepeatabilityChange", "CalibrationChoice", "compare_slopes", "residual_sd_ratio",
-           "refit_like", "joint_comparison", "assess_revalidation", "calibration_points"]
+           "refit_like", "joint_comparison", "assess_revalidation", "calibration_points", "RunSummary",
+           "CalibrationPoints", "LevelRepeatability", "run_summary"]
 
 
 def _level_pct(level: float) -> str:
@@ -295,6 +296,79 @@ class RevalidationResult:
     residual_sd_df: tuple[int, int] = (0, 0)             # (previous, current)
 
 
+@dataclass(frozen=True)
+class CalibrationPoints:
+    """Every calibrator of a run: nominal concentrations and responses."""
+
+    concentration: np.ndarray = field(repr=False)
+    response: np.ndarray = field(repr=False)
+
+
+@dataclass(frozen=True)
+class LevelRepeatability:
+    """A precision level's repeatability SD and its within-series degrees of freedom."""
+
+    level: float
+    sd: float | None
+    df_within: int | None          # None when an earlier file does not record it
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """What a re-validation compares of one run of one analyte.
+
+    This run's is built from its typed results (:func:`run_summary`); the previous run's
+    from its entry in the earlier results.json (:meth:`from_results`).
+    """
+
+    function: CalibrationChoice
+    n: int
+    residual_sd: float | None
+    slope: float | None                    # the straight line's slope and its standard error
+    slope_se: float | None
+    intercept: float | None
+    points: CalibrationPoints | None       # None when an earlier file lacks the raw points
+    lod: float | None                      # on the reported basis
+    loq: float | None
+    recoveries_pct: tuple[float, ...] | None              # None: recovery not assessed
+    repeatability: tuple[LevelRepeatability, ...] | None   # None: precision not assessed
+
+    @classmethod
+    def from_results(cls, entry: dict) -> "RunSummary":
+        """From an analyte entry of a results.json (any version the schema accepts)."""
+        cal = entry["calibration"]
+        coefficients = cal["coefficients"]
+        slope = coefficients.get("slope", {})
+        points = calibration_points(entry)
+        recovery, precision = entry.get("recovery"), entry.get("precision")
+        return cls(
+            CalibrationChoice(cal["model"], cal["weighting"], bool(cal["through_origin"])), cal["n"],
+            cal["residual_sd"], slope.get("estimate"), slope.get("std_error"),
+            coefficients.get("intercept", {}).get("estimate"),
+            None if points is None else CalibrationPoints(*points),
+            _reported(entry, "lod"), _reported(entry, "loq"),
+            None if not recovery else tuple(v for lv in recovery["levels"] for v in lv.get("recoveries_pct", [])
+                                            if v is not None),
+            None if not precision else tuple(
+                LevelRepeatability(lv["level"], lv.get("repeatability_sd"), lv["df"][-1] if lv.get("df") else None)
+                for lv in precision["levels"]))
+
+
+def run_summary(cal, detection, recovery, precision) -> RunSummary:
+    """This run's :class:`RunSummary` from its calibration, detection, recovery and precision results."""
+    fit = cal.fit
+    reported = detection.reported
+    slope, intercept = fit.coefficients.get("slope"), fit.coefficients.get("intercept")
+    return RunSummary(
+        CalibrationChoice(cal.model, cal.weighting, bool(cal.through_origin)), fit.n, fit.residual_sd,
+        None if slope is None else slope.estimate, None if slope is None else slope.std_error,
+        None if intercept is None else intercept.estimate,
+        CalibrationPoints(np.asarray(fit.x, float), np.asarray(fit.y, float)), reported.lod, reported.loq,
+        None if recovery is None else tuple(v for lv in recovery.levels for v in lv.recoveries_pct),
+        tuple(LevelRepeatability(lv.level, lv.repeatability_sd, lv.anova.df_within) for lv in precision)
+        if precision else None)
+
+
 def _reported(analyte: dict, key: str):
     det = analyte.get("detection") or {}
     for e in det.get("estimates", []):
@@ -316,9 +390,8 @@ def calibration_points(entry: dict):
     return (np.array([r["nominal"] for r in rows], float), np.array([r["response"] for r in rows], float))
 
 
-def _spec(entry: dict) -> tuple:
-    c = entry["calibration"]
-    return c["model"], c["weighting"], bool(c["through_origin"])
+def _as_tuple(choice: CalibrationChoice) -> tuple:
+    return choice.model, choice.weighting, choice.through_origin
 
 
 def _describe(spec: tuple) -> str:
@@ -328,8 +401,7 @@ def _describe(spec: tuple) -> str:
     return f"{shape}, weighting {weighting}"
 
 
-def _fallback(previous: dict, current_fit: PolynomialFit, margin_pct, alpha):
-    pc = previous["calibration"]
+def _fallback(previous: RunSummary, current_fit: PolynomialFit, margin_pct, alpha):
     p = current_fit.n_params
     if 2 in current_fit.powers:
         slope = SlopeComparison(None, None, None, None, None, 0, None, margin_pct, "not applicable",
@@ -337,21 +409,20 @@ def _fallback(previous: dict, current_fit: PolynomialFit, margin_pct, alpha):
                                 "the previous results.json lacks the raw calibration points that the comparison "
                                 "of curves needs")
     else:
-        se = pc["coefficients"]["slope"]["std_error"]
-        prev = (pc["coefficients"]["slope"]["estimate"], float("nan") if se is None else se,
-                pc["residual_sd"], pc["n"])
+        se = previous.slope_se
+        prev = (previous.slope, float("nan") if se is None else se, previous.residual_sd, previous.n)
         cur = (current_fit.coefficients["slope"].estimate, current_fit.coefficients["slope"].std_error,
                current_fit.residual_sd, current_fit.n)
         slope = compare_slopes(prev, cur, margin_pct, alpha, n_params=p)
-    return slope, float(pc["residual_sd"]), current_fit.residual_sd, (int(pc["n"]) - p, current_fit.df_resid)
+    return slope, float(previous.residual_sd), current_fit.residual_sd, (int(previous.n) - p, current_fit.df_resid)
 
 
-def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: float,
+def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_change_max_pct: float,
                         residual_sd_ratio_max: float, alpha: float = 0.05) -> RevalidationResult:
-    """Compare one analyte of this run (its results.json entry) with the previous run's entry.
+    """Compare one analyte of this run with the previous run.
 
-    Both entries must give model, weighting and through_origin under ``calibration``;
-    this run's must list every calibrator in ``calibration.back_calculated``.
+    ``current`` must hold every calibrator (``points``); ``previous`` may lack them
+    (an earlier file), in which case straight lines are compared on summary statistics.
 
     Notes
     -----
@@ -366,15 +437,14 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
     the residual SD ratio exceeds its maximum; "not shown equivalent" when the interval
     straddles the margin or the comparison cannot be made; else "equivalent".
     """
-    spec = _spec(previous)
-    own = _spec(current)
+    spec = _as_tuple(previous.function)
+    own = _as_tuple(current.function)
     model, weighting, origin = spec
-    x2, y2 = calibration_points(current)
-    refit_current = refit_like(x2, y2, model=model, through_origin=origin, weighting=weighting, alpha=alpha)
-    prev_points = calibration_points(previous)
-    if prev_points is not None:
-        refit_previous = refit_like(*prev_points, model=model, through_origin=origin, weighting=weighting,
-                                    alpha=alpha)
+    refit_current = refit_like(current.points.concentration, current.points.response, model=model,
+                               through_origin=origin, weighting=weighting, alpha=alpha)
+    if previous.points is not None:
+        refit_previous = refit_like(previous.points.concentration, previous.points.response, model=model,
+                                    through_origin=origin, weighting=weighting, alpha=alpha)
         joint = joint_comparison(refit_previous, refit_current, slope_change_max_pct, alpha)
         slope, s1, s2 = joint.slope, joint.residual_sd_previous, joint.residual_sd_current
         sd_df = joint.residual_df
@@ -382,15 +452,14 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
         intercept_previous = None if intercept_previous is None else intercept_previous.estimate
     else:
         slope, s1, s2, sd_df = _fallback(previous, refit_current, slope_change_max_pct, alpha)
-        intercept_previous = previous["calibration"]["coefficients"].get("intercept", {}).get("estimate")
+        intercept_previous = previous.intercept
     intercept_current = refit_current.coefficients.get("intercept")
     intercept_current = None if intercept_current is None else intercept_current.estimate
     ratio, F, p = residual_sd_ratio(s1, sd_df[0], s2, sd_df[1])
 
     rec = None
-    if previous.get("recovery") and current.get("recovery"):
-        r1 = [v for lv in previous["recovery"]["levels"] for v in lv.get("recoveries_pct", []) if v is not None]
-        r2 = [v for lv in current["recovery"]["levels"] for v in lv.get("recoveries_pct", []) if v is not None]
+    if previous.recoveries_pct is not None and current.recoveries_pct is not None:
+        r1, r2 = list(previous.recoveries_pct), list(current.recoveries_pct)
         welch = f_p = None
         if len(r1) > 1 and len(r2) > 1:
             with quiet_numpy():
@@ -402,16 +471,15 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
                     f_p = f_test_two_sided(f, d2, d1)
         rec = RecoveryChange(float(np.mean(r1)) if r1 else None, float(np.mean(r2)) if r2 else None, welch, f_p)
     rep = []
-    if previous.get("precision") and current.get("precision"):
-        old = {lv["level"]: lv for lv in previous["precision"]["levels"]}
-        for lv in current["precision"]["levels"]:
-            o = old.get(lv["level"])
-            if o and o["repeatability_sd"] and lv["repeatability_sd"] and o.get("df") and lv.get("df"):
-                f = (lv["repeatability_sd"] / o["repeatability_sd"]) ** 2
-                d2, d1 = lv["df"][-1], o["df"][-1]
+    if previous.repeatability is not None and current.repeatability is not None:
+        old = {lv.level: lv for lv in previous.repeatability}
+        for lv in current.repeatability:
+            o = old.get(lv.level)
+            if o and o.sd and lv.sd and o.df_within is not None and lv.df_within is not None:
+                f = (lv.sd / o.sd) ** 2
+                d2, d1 = lv.df_within, o.df_within
                 if d1 > 0 and d2 > 0:
-                    rep.append(RepeatabilityChange(lv["level"], o["repeatability_sd"], lv["repeatability_sd"],
-                                                   f_test_two_sided(f, d2, d1)))
+                    rep.append(RepeatabilityChange(lv.level, o.sd, lv.sd, f_test_two_sided(f, d2, d1)))
 
     reasons = []
     if own != spec:
@@ -440,7 +508,7 @@ def assess_revalidation(previous: dict, current: dict, *, slope_change_max_pct: 
         reasons.append("the previous results.json lacks the raw calibration points, so the comparison used its "
                        "summary statistics (slope, its standard error, residual SD and n)")
     return RevalidationResult(slope, intercept_previous, intercept_current, s1, s2, ratio, F, p,
-                              residual_sd_ratio_max, RunPair(_reported(previous, "lod"), _reported(current, "lod")),
-                              RunPair(_reported(previous, "loq"), _reported(current, "loq")), rec, tuple(rep),
+                              residual_sd_ratio_max, RunPair(previous.lod, current.lod),
+                              RunPair(previous.loq, current.loq), rec, tuple(rep),
                               verdict, tuple(reasons), model, weighting, origin, CalibrationChoice(*own),
                               tuple(sd_df))
