@@ -91,10 +91,11 @@ def _cmd_run(args) -> int:
         write_manifest(folder)
 
     _write_outputs(target, args.out, args.force, write)
-    failed = [c for a in results["analytes"] for c in a["criteria"] if c["pass"] is False]
+    judged = [c["pass"] for a in results["analytes"] for c in a["criteria"]]
     print(f"validator: {results['verdict'].upper()}: {len(results['analytes'])} analyte(s), "
-          f"{len(failed)} criterion/criteria not met; output in {args.out}")
-    return 1 if results["verdict"] == "fail" else 0
+          f"{judged.count(False)} criterion/criteria not met, {judged.count(None)} not applicable; "
+          f"output in {args.out}")
+    return 0 if results["verdict"] == "pass" else 1
 
 
 def _cmd_check(args) -> int:

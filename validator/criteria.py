@@ -138,8 +138,17 @@ def calibration_criteria(cal, crit) -> tuple:
 
 
 def overall_verdict(criteria) -> str:
-    """"fail" if any criterion is not met, else "pass"."""
-    return "fail" if any(c.passed is False for c in criteria) else "pass"
+    """"pass" only when every criterion was evaluated and met.
+
+    "fail" when any criterion is not met; "incomplete" when none failed but at
+    least one could not be evaluated on these data (not applicable), or there
+    is no criterion at all: what was not shown is not passed.
+    """
+    if any(c.passed is False for c in criteria):
+        return "fail"
+    if not criteria or any(c.passed is None for c in criteria):
+        return "incomplete"
+    return "pass"
 
 
 def recovery_criteria(recovery) -> tuple:

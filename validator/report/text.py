@@ -37,7 +37,12 @@ def fmt_p(value) -> str:
 
 
 def verdict_label(passed) -> dict:
-    """Word and symbol for a verdict, never colour alone."""
+    """Word and symbol for a verdict, never colour alone.
+
+    ``passed`` is a criterion's True/False/None or an overall verdict string
+    ("pass", "fail", "incomplete").
+    """
+    passed = {"pass": True, "fail": False, "incomplete": None}.get(passed, passed)
     if passed is True:
         return {"css": "met", "symbol": "✓", "word": "met"}
     if passed is False:
