@@ -284,6 +284,8 @@ def run_case(case: Case, workdir: Path) -> CaseResult:
     stdout, stderr = io.StringIO(), io.StringIO()
     with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
         code = main(["run", str(study), "--out", str(out), "--format", "json"])
+    if code == 130:
+        raise KeyboardInterrupt
     if code not in (0, 1):       # 0 and 1 both mean the run completed (criteria met or not)
         message = (stderr.getvalue().strip() or stdout.getvalue().strip())[:300]
         return CaseResult(case, (), False, f"validator run exited {code}: {message}",
@@ -388,13 +390,12 @@ def render_html(report: dict) -> str:
     import jinja2
 
     from ..report import templates_dir
-    from ..report.text import fmt
 
     env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(templates_dir())), autoescape=True,
                              undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
-    env.filters["fmt"] = fmt
-    env.filters["full"] = lambda v: "—" if v is None else repr(v)
-    return env.get_template("qualification.html.j2").render(r=report)
+    env.filters["full"] = lambda v: "—" if v is None else repr(v)     # every digit, as recorded
+    css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
+    return env.get_template("qualification.html.j2").render(r=report, css=css)
 
 
 def qualify(out: str, *, cases: str | None, force: bool, generated_at: str,
