@@ -61,7 +61,7 @@ def start_manifest(folder: Path) -> None:
 
 def write_manifest(folder: Path) -> None:
     files = sorted(p for p in folder.iterdir()
-                   if p.is_file() and not p.is_symlink() and p.name != MANIFEST)
+                   if p.is_file() and not p.is_symlink() and p.name not in (MANIFEST, SIGNATURE))
     entries = [{"file": p.name, "sha256": sha256_file(p), "bytes": p.stat().st_size} for p in files]
     (folder / MANIFEST).write_text(_manifest_text(entries), encoding="utf-8")
 
