@@ -240,3 +240,13 @@ def test_signature_records_who_and_when(signed, tmp_path, keys, monkeypatch):
 def test_results_record_operator_and_host(signed):
     run = json.loads((signed[1] / "results.json").read_text())["run"]
     assert set(run) == {"operator", "host"} and run["host"]
+
+
+def test_run_force_does_not_replace_a_signed_output(signed, tmp_path, capsys):
+    # documented: a signed folder holds a file its manifest does not list, so --force leaves it alone
+    inputs, _ = signed
+    copy = _copy(signed, tmp_path)
+    before = {p.name: p.read_bytes() for p in copy.iterdir()}
+    assert main(["run", str(inputs / "study.toml"), "--out", str(copy), "--format", "json", "--force"]) == 2
+    assert 'holds "signature.json"' in capsys.readouterr().err
+    assert {p.name: p.read_bytes() for p in copy.iterdir()} == before
