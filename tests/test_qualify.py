@@ -108,6 +108,17 @@ def test_perturbed_reference_value_fails_naming_the_case(tmp_path_factory, capsy
     assert report["verdict"] == "fail" and report["failed_cases"] == ["strd-norris"]
 
 
+def test_case_with_a_missing_column_fails_naming_the_case(tmp_path_factory, capsys):
+    inputs = tmp_path_factory.mktemp("cases")
+    cases = _perturbed(inputs, 'columns = { reference = "x", test = "y" }\n',
+                       'columns = { reference = "x", test = "z" }\n')
+    out = tmp_path_factory.mktemp("missing") / "report"
+    assert main(["qualify", "--out", str(out), "--cases", str(cases), "--format", "json"]) == 1
+    assert ("qualification case passing-bablok-noise-small FAILED: the case cannot be laid out as a study: "
+            "validator/reference_data/method-comparison/pb_noise_small.csv: has no column 'z'"
+            in capsys.readouterr().out)
+
+
 def test_case_that_cannot_run_fails_naming_the_case(tmp_path_factory, capsys):
     inputs = tmp_path_factory.mktemp("cases")
     cases = _perturbed(inputs, 'calibration = { model = "quadratic" }\n',
@@ -124,6 +135,8 @@ def test_case_that_cannot_run_fails_naming_the_case(tmp_path_factory, capsys):
      '"data" must name a file in validator/reference_data/'),
     ("expected = 0.884796396144373\nrtol = 1e-9\n", "expected = 0.884796396144373\n",
      "rtol and atol must be >= 0, and not both 0"),
+    ('columns = { reference = "x", test = "y" }\n', 'columns = { reference = 0, test = 1 }\n',
+     'case "passing-bablok-noise-small": "columns" must give reference and test, as header names'),
 ])
 def test_bad_case_file_is_refused(tmp_path_factory, capsys, old, new, message):
     inputs = tmp_path_factory.mktemp("cases")

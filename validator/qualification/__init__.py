@@ -45,7 +45,6 @@ import hashlib
 import io
 import json
 import math
-import os
 import platform
 import re
 import sys
@@ -63,6 +62,7 @@ __all__ = ["qualify", "load_cases", "run_case", "Case", "Check", "CaseResult", "
 
 CASES_FILE = Path(__file__).resolve().parent / "cases.toml"
 _ID = re.compile(r"[A-Za-z0-9][A-Za-z0-9_.-]{0,79}")
+_KEY = re.compile(r"[A-Za-z0-9_-]+")               # a bare TOML key
 _KINDS = {"calibration": ("concentration", "response"), "precision": ("series", "found"),
           "comparison": ("reference", "test")}
 _TABLES = ("calibration", "precision", "comparison", "criteria")
@@ -147,6 +147,8 @@ def load_cases(path: str | Path | None = None) -> tuple:
     cases, seen = [], set()
     for i, c in enumerate(raw):
         where = f"case[{i}]"
+        if not isinstance(c, dict):
+            _fail(shown, where, "must be a table ([[case]])")
         cid = c.get("id")
         if not isinstance(cid, str) or not _ID.fullmatch(cid):
             _fail(shown, where, f'"id" must be letters, digits, "-", "_" or ".", not {cid!r:.60}')
@@ -165,8 +167,12 @@ def load_cases(path: str | Path | None = None) -> tuple:
                 or not (reference_data_dir() / data).is_file()):
             _fail(shown, where, f'"data" must name a file in validator/reference_data/, not {data!r:.80}')
         columns = c.get("columns")
-        if not isinstance(columns, dict) or set(columns) != set(_KINDS[kind]):
-            _fail(shown, where, f'"columns" must give {" and ".join(_KINDS[kind])}')
+        is_csv = data.endswith(".csv")
+        if (not isinstance(columns, dict) or set(columns) != set(_KINDS[kind]) or not all(
+                isinstance(v, str) if is_csv else (isinstance(v, int) and not isinstance(v, bool) and v >= 0)
+                for v in columns.values())):
+            _fail(shown, where, f'"columns" must give {" and ".join(_KINDS[kind])}, as header names '
+                  "for a .csv file, else as column numbers from 0")
         skip = c.get("skip_lines", 0)
         if isinstance(skip, bool) or not isinstance(skip, int) or skip < 0:
             _fail(shown, where, f'"skip_lines" must be a whole number >= 0, not {skip!r:.40}')
@@ -175,8 +181,10 @@ def load_cases(path: str | Path | None = None) -> tuple:
                 _fail(shown, where, f'"{key}" must be non-empty text')
         tables = {t: c.get(t, {}) for t in _TABLES}
         for t, v in tables.items():
-            if not isinstance(v, dict) or "data" in v:
+            if not isinstance(v, dict) or "data" in v or not all(_KEY.fullmatch(k) for k in v):
                 _fail(shown, where, f'"{t}" must be a table of study keys (without "data")')
+        if not isinstance(c.get("check", []), list):
+            _fail(shown, where, "expected [[case.check]] tables")
         checks = []
         for j, k in enumerate(c.get("check") or []):
             cw = f"{where}, check[{j}]"
@@ -200,15 +208,26 @@ def load_cases(path: str | Path | None = None) -> tuple:
 
 def _columns(data: str, skip: int, columns: dict) -> dict:
     """The named columns of a reference file, as the text written there (no float round trip)."""
-    text = (reference_data_dir() / data).read_text(encoding="utf-8")
-    lines = text.splitlines()
+    shown = f"validator/reference_data/{data}"
+    try:
+        lines = (reference_data_dir() / data).read_text(encoding="utf-8").splitlines()
+    except (OSError, UnicodeDecodeError) as exc:
+        raise CaseFileError(f"{shown}: cannot be read ({exc})") from None
     if data.endswith(".csv"):
-        header = [h.strip() for h in lines[0].split(",")]
+        header = [h.strip() for h in lines[0].split(",")] if lines else []
         rows = [ln.split(",") for ln in lines[1:] if ln.strip()]
+        missing = [col for col in columns.values() if col not in header]
+        if missing:
+            raise CaseFileError(f"{shown}: has no column {missing[0]!r}; its header is {header}")
         index = {name: header.index(col) for name, col in columns.items()}
     else:
         rows = [ln.split() for ln in lines[skip:] if ln.strip()]
         index = dict(columns)
+    for n, r in enumerate(rows):
+        if len(r) <= max(index.values()):
+            raise CaseFileError(f"{shown}: data row {n + 1} has {len(r)} column(s), fewer than the case needs")
+    if not rows:
+        raise CaseFileError(f"{shown}: no data rows after line {skip}")
     return {name: [r[i].strip() for r in rows] for name, i in index.items()}
 
 
@@ -221,6 +240,8 @@ def _toml_value(v) -> str:
         return json.dumps(v)
     if isinstance(v, list):
         return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    if isinstance(v, dict) and all(isinstance(k, str) and _KEY.fullmatch(k) for k in v):
+        return "{ " + ", ".join(f"{k} = {_toml_value(x)}" for k, x in v.items()) + " }"
     raise CaseFileError(f"study value {v!r:.60} cannot be written")
 
 
@@ -280,7 +301,11 @@ def run_case(case: Case, workdir: Path) -> CaseResult:
     started = time.perf_counter()
     inputs, out = workdir / "input", workdir / "output"
     inputs.mkdir()
-    study = write_case_study(case, inputs)
+    try:
+        study = write_case_study(case, inputs)
+    except CaseFileError as exc:
+        return CaseResult(case, (), False, f"the case cannot be laid out as a study: {exc}",
+                          time.perf_counter() - started)
     stdout, stderr = io.StringIO(), io.StringIO()
     with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
         code = main(["run", str(study), "--out", str(out), "--format", "json"])
@@ -303,20 +328,19 @@ def run_case(case: Case, workdir: Path) -> CaseResult:
 # --- environment and package digest ----------------------------------------------------------
 
 def _package_files() -> list:
-    """(name shown, path) of every installed validator file that can change a result or report."""
-    package = Path(str(resources.files("validator")))
+    """(name shown, path) of every installed validator file: code, schema, cases, templates, reference data.
+
+    Compiled caches (``__pycache__``) are left out: Python rebuilds them from the sources listed.
+    """
     from ..report import templates_dir
 
+    package = Path(str(resources.files("validator")))
     files = [(f"validator/{p.relative_to(package).as_posix()}", p) for p in package.rglob("*")
-             if p.is_file() and "__pycache__" not in p.parts and p.suffix in (".py", ".json", ".toml")]
-    files += [(f"validator/reference_data/{p.relative_to(reference_data_dir()).as_posix()}", p)
-              for p in reference_data_dir().rglob("*") if p.is_file()]
+             if p.is_file() and "__pycache__" not in p.relative_to(package).parts]
     templates = templates_dir()
-    if not str(templates).startswith(str(package)):
-        files += [(f"report_templates/{p.name}", p) for p in templates.iterdir()
-                  if p.is_file() and p.suffix in (".j2", ".css", ".html", ".py")]
-    unique = dict(sorted(dict(files).items()))
-    return list(unique.items())
+    if package not in templates.parents:             # the source tree: templates beside the package
+        files += [(f"report_templates/{p.name}", p) for p in templates.iterdir() if p.is_file()]
+    return sorted(files)
 
 
 def package_digest() -> dict:
@@ -405,7 +429,7 @@ def qualify(out: str, *, cases: str | None, force: bool, generated_at: str,
 
     cases_file = str(CASES_FILE if cases is None else Path(cases))
     chosen = load_cases(cases_file)
-    inputs = [] if cases is None else [cases]
+    inputs = [cases_file] + sorted({str(reference_data_dir() / c.data) for c in chosen})
     target = check_target(out, inputs)
     check_existing(target, out, force)
     started = time.perf_counter()
