@@ -18,6 +18,7 @@ import numpy as np
 
 from ._common import finite_or_none as num
 from . import __version__
+from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
 
@@ -433,6 +434,7 @@ def build_results(result, *, generated_at: str) -> dict:
         "tool": {"name": "validator", "version": __version__, "libraries": library_versions(),
                  "platform": platform.platform()},
         "generated_at": generated_at,
+        "run": operator_and_host(),
         "study": {"id": cfg.id, "title": cfg.title, "purpose": cfg.purpose,
                   "concentration_unit": cfg.concentration_unit, "response_unit": cfg.response_unit,
                   "analyst": cfg.analyst, "reviewer": cfg.reviewer, "instrument": cfg.instrument,
