@@ -243,10 +243,13 @@ def test_results_record_operator_and_host(signed):
 
 
 def test_run_force_does_not_replace_a_signed_output(signed, tmp_path, capsys):
-    # documented: a signed folder holds a file its manifest does not list, so --force leaves it alone
+    # a signed record is never replaced, not even with --force (common practice for electronic records,
+    # no published source); the message says so
     inputs, _ = signed
     copy = _copy(signed, tmp_path)
     before = {p.name: p.read_bytes() for p in copy.iterdir()}
     assert main(["run", str(inputs / "study.toml"), "--out", str(copy), "--format", "json", "--force"]) == 2
-    assert 'holds "signature.json"' in capsys.readouterr().err
+    assert capsys.readouterr().err == (
+        f"validator: error: {copy}: holds a signed output (signature.json); a signed record is never replaced, "
+        "not even with --force; choose another --out\n")
     assert {p.name: p.read_bytes() for p in copy.iterdir()} == before

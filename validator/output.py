@@ -48,7 +48,7 @@ from contextlib import contextmanager
 from pathlib import Path
 
 from .errors import OutputError
-from .integrity import MANIFEST, WRITTEN_BY, read_manifest, start_manifest
+from .integrity import MANIFEST, SIGNATURE, WRITTEN_BY, read_manifest, start_manifest
 
 __all__ = ["check_target", "check_existing", "write_output_folder", "remove_own_folder"]
 
@@ -161,6 +161,9 @@ def check_existing(target: Path, shown: str, force: bool) -> None:
     if not force:
         raise OutputError(f"{shown}: output folder exists; choose another --out or add --force",
                           path=shown)
+    if os.path.lexists(target / SIGNATURE):
+        raise OutputError(f"{shown}: holds a signed output ({SIGNATURE}); a signed record is never replaced, "
+                          "not even with --force; choose another --out", path=shown)
     why = _not_previous_output(target)
     if why:
         raise OutputError(f"{shown}: {why}; --force replaces only a previous validator output",
