@@ -47,8 +47,8 @@ import time
 from contextlib import contextmanager
 from pathlib import Path
 
-from .errors import OutputError
-from .integrity import MANIFEST, SIGNATURE, WRITTEN_BY, read_manifest, start_manifest
+from .errors import OutputError, show
+from .integrity import MANIFEST, SIGNATURE, WRITTEN_BY, read_manifest, sha256_file, start_manifest
 
 __all__ = ["check_target", "check_existing", "write_output_folder", "remove_own_folder"]
 
@@ -134,19 +134,41 @@ def _check_target(shown: str, input_files, cwd: Path | None) -> Path:
     return target
 
 
+# the only files validator itself writes into an output folder
+OUTPUT_NAMES = frozenset({"results.json", "dossier.html", "dossier.pdf", "qualification.json",
+                          "qualification.html", "qualification.pdf", MANIFEST})
+
+
+def _foreign_file(folder: Path, listed=OUTPUT_NAMES) -> str | None:
+    """The first entry of ``folder`` that is not a regular file named in ``listed``, if any."""
+    with os.scandir(folder) as it:
+        for d in sorted(it, key=lambda d: d.name):
+            if d.name not in listed or not d.is_file(follow_symlinks=False):
+                return d.name
+    return None
+
+
 def _not_previous_output(folder: Path) -> str | None:
-    """Why ``folder`` is not a previous validator output, or ``None`` if it is one."""
+    """Why ``folder`` is not an unchanged previous validator output, or ``None`` if it is one.
+
+    Every file must be one validator writes, listed in the manifest with the
+    size and SHA-256 it has now: a folder whose files were edited, or whose
+    manifest only looks like ours, is never replaced.
+    """
     try:
         manifest = read_manifest(folder)
     except OutputError:
         return f"holds no readable {MANIFEST} written by validator"
     if manifest.written_by != WRITTEN_BY and not manifest.legacy_shape:
         return f"its {MANIFEST} was not written by validator"
-    listed = {e.file for e in manifest.entries} | {MANIFEST}
-    with os.scandir(folder) as it:
-        for d in sorted(it, key=lambda d: d.name):
-            if d.name not in listed or not d.is_file(follow_symlinks=False):
-                return f'holds "{d.name}", which validator did not write'
+    listed = {e.file for e in manifest.entries if e.file in OUTPUT_NAMES} | {MANIFEST}
+    foreign = _foreign_file(folder, listed)
+    if foreign is not None:
+        return f'holds "{show(foreign)}", which validator did not write'
+    for e in manifest.entries:
+        p = folder / e.file
+        if p.stat().st_size != e.bytes or sha256_file(p) != e.sha256:
+            return f'its file "{show(e.file)}" has changed since validator wrote it'
     return None
 
 
@@ -171,11 +193,14 @@ def check_existing(target: Path, shown: str, force: bool) -> None:
 
 
 def _ours(folder: Path) -> bool:
-    """An empty folder, or one whose manifest validator wrote (older manifests included)."""
+    """An empty folder, or one whose manifest validator wrote (older manifests included) and
+    that holds nothing but files validator writes: a partial or aside folder is deleted only then."""
     try:
         if not any(folder.iterdir()):
             return True
         manifest = read_manifest(folder)
+        if _foreign_file(folder) is not None:
+            return False
     except (OSError, OutputError):
         return False
     return manifest.written_by == WRITTEN_BY or manifest.legacy_shape
