@@ -417,3 +417,28 @@ def test_folders_of_a_linked_study_and_of_its_target_are_both_protected(lab, cap
     for where in ("linked/o", "study/o"):
         code, _, err = _run(capsys, lab / "linked" / "study.toml", "--out", lab / where)
         assert code == 2 and "lies inside the folder of the input" in err
+
+
+def test_figure_workers_end_with_a_killed_run_and_free_the_folder(lab, capsys):
+    # hostile-test finding: forked figure workers outlived a killed run, kept the output folder's
+    # lock and refused every later run into it. They now end with the run.
+    import time
+    from conftest import REPO as repo
+    demo = repo / "example_studies" / "anions-drinking-water" / "study.toml"      # two analytes: two workers
+    out = lab / "outputs" / "killed"
+    proc = _popen(["run", str(demo), "--out", str(out), "--format", "html"])
+    kids = []
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline and len(kids) < 2 and proc.poll() is None:
+        ps = subprocess.run(["ps", "--ppid", str(proc.pid), "-o", "pid="], capture_output=True, text=True)
+        kids = [int(p) for p in ps.stdout.split()]
+        time.sleep(0.05)
+    assert len(kids) >= 2, "the run never started its figure workers"
+    proc.send_signal(signal.SIGKILL)
+    proc.wait()
+    time.sleep(2)
+    alive = [k for k in kids if os.path.exists(f"/proc/{k}") and
+             "Z" not in open(f"/proc/{k}/stat").read().split()[2]]
+    assert alive == []
+    code, _, err = _run(capsys, lab / "study" / "study.toml", "--out", out, "--format", "json")
+    assert code == 0, err
