@@ -162,8 +162,11 @@ def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResul
     n = x.size
     if np.unique(x).size < 3 or n < 4:
         return not_applicable(method, "needs at least 3 distinct concentrations and 4 points")
-    lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
-    quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
+    try:
+        lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
+        quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
+    except ValueError as exc:      # e.g. levels so unevenly spaced that the quadratic is numerically singular
+        return not_applicable(method, f"the quadratic cannot be fitted to these concentrations ({exc})")
     if quad.exact:
         return not_applicable(method, "the quadratic fits exactly (zero residual SD)")
     ds2 = (n - 2) * lin.residual_variance - (n - 3) * quad.residual_variance

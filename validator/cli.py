@@ -126,7 +126,10 @@ def _cmd_verify(args) -> int:
     elif args.public_key is not None:
         print("validator: SIGNATURE: the folder is not signed, so it cannot show it was signed by the key given")
     if not problems:
-        print(f"validator: {args.folder} is intact: every output and input matches its recorded SHA-256")
+        inputs = ("every output and input matches its recorded SHA-256" if args.study is not None else
+                  "every output matches its recorded SHA-256 (the inputs were not checked; add "
+                  "--study STUDY.toml to check them too)")
+        print(f"validator: {args.folder} is intact: {inputs}")
     if signature.present or args.public_key is not None or not problems:   # else the CHANGED lines say it
         print(f"validator: what this proves: {what_it_proves(signature, not problems)}")
     return 1 if problems or signature.problems or signature.trusted is False else 0

@@ -34,9 +34,9 @@ MAX_NAME_LENGTH = 100          # characters of an analyte name or sample id
 _CHUNK = 1024 * 1024
 
 _DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
-_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
-_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s.,+-].*)")
-_THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?")
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?", re.ASCII)   # ASCII digits only
+_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s.,+-].*)", re.ASCII)
+_THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?", re.ASCII)
 
 
 @dataclass(frozen=True)

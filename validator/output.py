@@ -84,6 +84,11 @@ def check_target(out: str, input_files, *, cwd: Path | None = None) -> Path:
     ``input_files`` are the paths of every input (study file and data files), as given or
     resolved; the folder holding each (and, for a link, the folder of its target) is protected.
     """
+    if not str(out).strip():
+        raise OutputError("--out is empty; name the output folder", path=str(out))
+    if str(out).startswith("~"):
+        raise OutputError(f'{show(str(out))}: "~" is not expanded by validator (it would make a folder named "~"); '
+                          "give the folder's full path", path=str(out))
     try:
         return _check_target(str(out), input_files, cwd)
     except (OSError, RuntimeError) as exc:      # a link loop, a name too long, no permission ...

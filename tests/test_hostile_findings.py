@@ -1,0 +1,96 @@
+"""Findings of a hostile test run against the command line, each kept as a test.
+
+Every expected message is our own wording; the rules are the README's
+(common practice, no published source).
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+
+import pytest
+
+from conftest import REPO, STUDY_HEAD
+from validator.cli import main
+
+MAINTENANCE = REPO / "example_studies" / "anions-after-maintenance"
+
+
+def _run(capsys, *argv):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_revalidation_purpose_needs_its_section(make_study, capsys):
+    # a re-validation that names no previous run would compare nothing and pass
+    study = make_study(head=STUDY_HEAD + 'purpose = "revalidation"\n')
+    code, _, err = _run(capsys, "check", study)
+    assert (code, err) == (2, f'validator: error: {study}, line 6, key study.purpose: purpose = "revalidation" '
+                              'needs a [revalidation] section naming the previous results.json (previous = "..."); '
+                              "without it nothing would be compared\n")
+
+
+def test_previous_results_in_another_response_unit_are_refused(tmp_path, outside, capsys):
+    folder = tmp_path / "m"
+    shutil.copytree(MAINTENANCE, folder)
+    prev = json.loads((folder / "previous-results.json").read_text(encoding="utf-8"))
+    prev["study"]["response_unit"] = "mAU"
+    (folder / "previous-results.json").write_text(json.dumps(prev), encoding="utf-8")
+    code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    assert (code, err) == (2, 'validator: error: previous-results.json: uses response unit "mAU" but this study '
+                              'uses "µS·min"; results in different units cannot be compared\n')
+
+
+def test_a_numerically_singular_quadratic_makes_mandel_not_applicable(make_study, outside, capsys):
+    # formerly exit 3: levels 0, 1 and 1e20 leave the quadratic numerically singular
+    cal = "concentration,response\n0,0.001\n0,0.0012\n1,1\n1,1.01\n1e20,1e20\n1e20,1.01e20\n"
+    study = make_study(files={"calibration.csv": cal})
+    code, _, err = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    assert code in (0, 1), err
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["calibration"]["mandel"] is None
+    reason = next(e["reason"] for e in a["not_applicable"] if e["item"] == "mandel")
+    assert reason.startswith("the quadratic cannot be fitted to these concentrations")
+
+
+@pytest.mark.parametrize("cell", ["１６", "٣"])
+def test_only_ascii_digits_are_numbers(make_study, capsys, cell):
+    cal = f"concentration,response\n1,2\n2,4\n4,{cell}\n8,16\n"
+    study = make_study(files={"calibration.csv": cal})
+    code, _, err = _run(capsys, "check", study)
+    assert (code, err) == (2, f'validator: error: calibration.csv, row 4, column "response": "{cell}" is not a '
+                              "number\n")
+
+
+@pytest.mark.parametrize("out, message", [
+    ("", "--out is empty; name the output folder"),
+    ("~", '~: "~" is not expanded by validator (it would make a folder named "~"); give the folder\'s full path'),
+    ("~/results", '~/results: "~" is not expanded by validator (it would make a folder named "~"); give the '
+                  "folder's full path"),
+])
+def test_empty_or_tilde_out_is_refused(make_study, tmp_path, monkeypatch, capsys, out, message):
+    study = make_study()
+    monkeypatch.chdir(tmp_path)
+    code, _, err = _run(capsys, "run", study, "--out", out, "--format", "json")
+    assert (code, err) == (2, f"validator: error: {message}\n")
+    assert not (tmp_path / "~").exists()
+
+
+def test_a_blank_unit_is_refused(make_study, capsys):
+    study = make_study(head=STUDY_HEAD.replace('concentration_unit = "mg/L"', 'concentration_unit = "   "'))
+    code, _, err = _run(capsys, "check", study)
+    assert code == 2 and "key study.concentration_unit" in err and err.count("\n") == 1
+
+
+def test_verify_without_study_says_the_inputs_were_not_checked(make_study, outside, capsys):
+    study = make_study()
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 0
+    capsys.readouterr()
+    code, out, _ = _run(capsys, "verify", outside / "o")
+    assert code == 0
+    assert (f"validator: {outside / 'o'} is intact: every output matches its recorded SHA-256 (the inputs were "
+            "not checked; add --study STUDY.toml to check them too)\n") in out
+    code, out, _ = _run(capsys, "verify", outside / "o", "--study", study)
+    assert code == 0 and "every output and input matches its recorded SHA-256" in out
