@@ -161,12 +161,16 @@ def test_beta_expectation_negative_between_run_estimate():
 def _mean_coverage(design, sigma_b, sigma_w, beta, draws, seed):
     rng = np.random.default_rng(seed)
     total_sd = math.hypot(sigma_b, sigma_w)
-    cover = np.empty(draws)
+    run_effects = rng.normal(0.0, sigma_b, size=(draws, len(design)))
+    noise = rng.normal(0.0, sigma_w, size=(draws, sum(design)))
+    bounds = np.empty((draws, 2))
+    edges = np.cumsum((0,) + tuple(design))
     for i in range(draws):
-        runs = [rng.normal(rng.normal(0.0, sigma_b), sigma_w, size) for size in design]
+        runs = [run_effects[i, j] + noise[i, edges[j]:edges[j + 1]] for j in range(len(design))]
         iv = beta_expectation_interval(runs, beta)
-        # the true proportion of the population N(0, sigma_b^2 + sigma_w^2) inside this interval
-        cover[i] = stats.norm.cdf(iv.high / total_sd) - stats.norm.cdf(iv.low / total_sd)
+        bounds[i] = iv.low, iv.high
+    # the true proportion of the population N(0, sigma_b^2 + sigma_w^2) inside each interval
+    cover = stats.norm.cdf(bounds[:, 1] / total_sd) - stats.norm.cdf(bounds[:, 0] / total_sd)
     return cover.mean(), cover.std(ddof=1) / math.sqrt(draws)
 
 

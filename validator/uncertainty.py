@@ -160,8 +160,8 @@ def combined_uncertainty(components, *, coverage_factor: float = 2.0,
     components : sequence of UncertaintyComponent
         Usually u(Rw) and u(bias); all relative or all absolute.
     coverage_factor : float
-        k of U = k u_c, > 0 (2 gives about 95 % coverage for a normal
-        distribution with many degrees of freedom [Eurachem]).
+        k of U = k u_c, > 0 (2 is the usual choice when u_c has many degrees
+        of freedom and the distribution is close to normal [Eurachem]).
     value : float, optional
         The value (level) the budget applies to, to give both absolute and
         relative forms.
