@@ -11,8 +11,11 @@ import pytest
 from scipy import stats
 
 from conftest import reference_file
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
 from validator.variance_components import (nested_variance_components, sum_of_mean_squares_interval,
-                                           verify_precision_claim)
+                                           verify_precision_claim, verify_precision_claims)
 
 # 2 days x 2 runs x 2 replicates of small integers (invented demo data, exact arithmetic below)
 DAY = [1, 1, 1, 1, 2, 2, 2, 2]
@@ -189,3 +192,64 @@ def test_degenerate_and_invalid():
         nested_variance_components(Y, [DAY, RUN], confidence=95)
     with pytest.raises(ValueError, match="observed_sd must be a finite number >= 0, got -1"):
         verify_precision_claim(-1, 1.0, 10)
+
+
+def test_four_stage_unbalanced_reml_against_statsmodels():
+    # sites > days > runs > replicates, three results lost
+    rng = np.random.default_rng(3)
+    site = np.repeat(np.arange(3), 12)
+    day = np.tile(np.repeat(np.arange(3), 4), 3)
+    run = np.tile(np.repeat(np.arange(2), 2), 9)
+    y = (rng.normal(0, 1.0, 3)[site] + rng.normal(0, 0.7, 9)[site * 3 + day]
+         + rng.normal(0, 0.5, 18)[(site * 3 + day) * 2 + run] + rng.normal(0, 0.3, 36))
+    balanced = nested_variance_components(y, [site, day, run], names=("site", "day", "run"))
+    reml = nested_variance_components(y, [site, day, run], names=("site", "day", "run"), method="reml")
+    # all ANOVA estimates positive: REML (own optimiser) coincides with ANOVA
+    assert [c.variance for c in reml.components] == pytest.approx([c.variance for c in balanced.components],
+                                                                  rel=1e-4)
+    keep = np.ones(36, bool)
+    keep[[1, 10, 23]] = False
+    got = nested_variance_components(y[keep], [site[keep], day[keep], run[keep]], names=("site", "day", "run"))
+    import pandas as pd
+    import statsmodels.formula.api as smf
+    frame = pd.DataFrame({"y": y[keep], "site": site[keep], "day": day[keep], "run": run[keep]})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fit = smf.mixedlm("y ~ 1", frame, groups="site", re_formula="1",
+                          vc_formula={"day": "0 + C(day)", "run": "0 + C(day):C(run)"}).fit(reml=True)
+    # cross-check: statsmodels MixedLM, REML, nested variance components
+    expected = [float(fit.cov_re.iloc[0, 0]), *map(float, fit.vcomp), float(fit.scale)]
+    assert [c.variance for c in got.components] == pytest.approx(expected, rel=2e-4)
+
+
+def test_claims_from_a_study():
+    got = nested_variance_components(Y, [DAY, RUN], names=("day", "run"))
+    rep, wl, reason = verify_precision_claims(got, repeatability_sd=2.0, within_laboratory_sd=5.0)
+    assert reason == "" and rep.df == 4 and wl.df == pytest.approx(got.intermediate_precision.df)
+    assert rep.observed_sd == pytest.approx(math.sqrt(3.0), rel=1e-14)   # MS_e = 3, hand computation
+    unbalanced = nested_variance_components(Y[:-1], [DAY[:-1], RUN[:-1]], names=("day", "run"))
+    rep, wl, reason = verify_precision_claims(unbalanced, repeatability_sd=2.0, within_laboratory_sd=5.0)
+    assert rep is not None and wl is None and "unbalanced" in reason
+
+
+_cells = st.lists(st.floats(-1e3, 1e3, allow_nan=False, allow_infinity=False), min_size=12, max_size=12)
+
+
+@settings(max_examples=60, deadline=None)
+@given(_cells, st.floats(0.01, 100), st.floats(-1e3, 1e3), st.randoms(use_true_random=False))
+def test_properties_permutation_and_scale(values, scale, shift, random):
+    # 3 days x 2 runs x 2 replicates: permuting rows changes nothing; y -> a y + b scales variances by a^2
+    day = np.repeat([1, 2, 3], 4)
+    run = np.tile([1, 1, 2, 2], 3)
+    y = np.array(values)
+    base = nested_variance_components(y, [day, run])
+    order = list(range(12))
+    random.shuffle(order)
+    perm = nested_variance_components(y[order], [day[order], run[order]])
+    moved = nested_variance_components(scale * y + shift, [day, run])
+    for a, b, c in zip(base.components, perm.components, moved.components):
+        assert b.variance == pytest.approx(a.variance, rel=1e-9, abs=1e-9 * (1 + np.var(y)))
+        assert c.variance == pytest.approx(scale ** 2 * a.variance, rel=1e-7, abs=1e-7 * scale ** 2 * (1 + np.var(y)))
+    for cond in base.conditions:
+        if cond.ci_mls is not None and cond.df is not None and not any(x.set_to_zero for x in base.components):
+            assert cond.ci_mls.low <= cond.sd * (1 + 1e-12) and cond.sd <= cond.ci_mls.high * (1 + 1e-12)

@@ -47,7 +47,7 @@ from ._common import ConfidenceInterval, quiet_numpy
 
 __all__ = ["MeanSquare", "VarianceComponent", "PrecisionCondition", "NestedVarianceComponents",
            "ClaimVerification", "nested_variance_components", "sum_of_mean_squares_interval",
-           "verify_precision_claim", "METHODS"]
+           "verify_precision_claim", "verify_precision_claims", "METHODS"]
 
 METHODS = ("auto", "anova", "reml")
 RESIDUAL = "replicate"
@@ -249,7 +249,7 @@ def _nested_anova(y, names, codes):
     return grand, rows
 
 
-def _is_balanced(codes, y_size):
+def _is_balanced(codes):
     for j, code in enumerate(codes):
         counts = np.bincount(code)
         if np.any(counts != counts[0]):
@@ -352,7 +352,7 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
         raise ValueError(f"method must be one of {', '.join(map(repr, METHODS))}, got {method!r}")
     y, names, codes = _codes(values, factors, names)
     sources = names + (RESIDUAL,)
-    balanced = _is_balanced(codes, y.size) if y.size else False
+    balanced = _is_balanced(codes) if y.size else False
 
     def na(reason, mean=None, anova=(), used="ANOVA"):
         return NestedVarianceComponents(used, names, balanced, int(y.size), mean, anova, (), (), confidence, reason)
@@ -470,3 +470,24 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
         basis = "observed SD above the upper verification limit"
     return ClaimVerification(observed, float(claimed_sd), df, alpha_f, int(levels), factor, uvl,
                              observed <= uvl, basis)
+
+
+def verify_precision_claims(result: NestedVarianceComponents, *, repeatability_sd: float,
+                            within_laboratory_sd: float, alpha: float = 0.05, levels: int = 1):
+    """Verify claimed repeatability and within-laboratory SDs from a nested precision study ([EP15]).
+
+    Returns ``(repeatability, within_laboratory, reason)``: two
+    :class:`ClaimVerification` (or ``None``) and the reason when a verification
+    could not be made. Repeatability uses the residual df; within-laboratory
+    precision (the intermediate precision, all components) its Satterthwaite
+    df, which needs a balanced design. See :func:`verify_precision_claim`.
+    """
+    rep, ip = result.repeatability, result.intermediate_precision
+    if rep is None or rep.sd is None:
+        return None, None, result.reason or "no precision estimates"
+    first = verify_precision_claim(rep.sd, repeatability_sd, rep.df, alpha=alpha, levels=levels)
+    if ip.df is None:
+        return first, None, ("within-laboratory SD has no Satterthwaite df: "
+                             + (ip.reason or "not computed"))
+    second = verify_precision_claim(ip.sd, within_laboratory_sd, ip.df, alpha=alpha, levels=levels)
+    return first, second, ""
