@@ -71,6 +71,14 @@ def test_two_sided_factors_against_toleranceinterval_package(n, content, confide
         normal_factor(n, content, confidence, method="howe"), rel=1e-10)
 
 
+def test_pooled_df_factor_against_toleranceinterval_package():
+    from toleranceinterval.twoside import normal_factor
+    # cross-check: toleranceinterval with nu (the df of a pooled SD) different from n - 1
+    for method in ("exact", "howe"):
+        assert normal_tolerance_factor(5, 0.90, 0.95, df=20, method=method) == pytest.approx(
+            normal_factor(5, 0.90, 0.95, method=method, nu=20), rel=1e-9)
+
+
 def test_one_sided_bound_against_toleranceinterval_package():
     import toleranceinterval as ti
     x = _resistors()
@@ -233,6 +241,31 @@ def test_accuracy_profile_hand_interpolation():
     cross_lower = 1.0 + (-10.0 - l0) / (l1 - l0) * 9.0 if l0 < -10 else 1.0
     start = max(cross_upper, cross_lower)
     assert prof.validated_ranges == (pytest.approx((start, 100.0), rel=1e-12),)
+
+
+def test_accuracy_profile_two_pieces_when_a_middle_level_fails():
+    tight = [[1.0, 1.002], [0.998, 1.0], [1.001, 0.999]]
+    wide = [[0.80, 1.25], [1.20, 0.85], [1.0, 1.02]]
+    levels = [(c, [[c * v for v in run] for run in (wide if c == 10.0 else tight)]) for c in (1.0, 10.0, 100.0)]
+    prof = accuracy_profile(levels, beta=0.95, acceptance_percent=5.0)
+    (lo1, hi1), (lo2, hi2) = [(lv.low_percent, lv.high_percent) for lv in prof.levels[:2]]
+    assert prof.levels[0].inside and not prof.levels[1].inside and prof.levels[2].inside
+    # hand computation: on [1, 10] the upper limit reaches +5 at c = 1 + (5 - hi1)/(hi2 - hi1) * 9 and the
+    # lower limit -5 at c = 1 + (-5 - lo1)/(lo2 - lo1) * 9; the first piece ends at the earlier one
+    end = min(1 + (5 - hi1) / (hi2 - hi1) * 9, 1 + (-5 - lo1) / (lo2 - lo1) * 9)
+    hi3, lo3 = prof.levels[2].high_percent, prof.levels[2].low_percent
+    start = max(10 + (5 - hi2) / (hi3 - hi2) * 90, 10 + (-5 - lo2) / (lo3 - lo2) * 90)
+    assert prof.validated_ranges == (pytest.approx((1.0, end), rel=1e-12), pytest.approx((start, 100.0), rel=1e-12))
+
+
+def test_beta_expectation_invariances():
+    # the interval moves with a shift and scales with a positive factor; run order does not matter
+    runs = [[10.1, 10.4, 9.9], [10.8, 10.6, 11.0], [9.7, 10.0, 9.8], [10.2, 10.3, 10.1]]
+    base = beta_expectation_interval(runs, 0.9)
+    moved = beta_expectation_interval([[3 * v - 7 for v in r] for r in runs[::-1]], 0.9)
+    assert (moved.low, moved.high) == (pytest.approx(3 * base.low - 7, rel=1e-12),
+                                       pytest.approx(3 * base.high - 7, rel=1e-12))
+    assert moved.k == pytest.approx(base.k, rel=1e-12) and moved.df == pytest.approx(base.df, rel=1e-12)
 
 
 def test_accuracy_profile_inside_everywhere_and_missing_level():
