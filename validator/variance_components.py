@@ -358,7 +358,7 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
         return NestedVarianceComponents(used, names, balanced, int(y.size), mean, anova, (), (), confidence, reason)
 
     if y.size < 2:
-        return na(f"variance components need results, got {y.size}")
+        return na(f"variance components need at least 2 results, got {y.size}")
     with quiet_numpy():
         grand, rows = _nested_anova(y, names, codes)
     anova = tuple(MeanSquare(s, int(df), ss, ss / df if df > 0 else None,
