@@ -94,3 +94,62 @@ def test_verify_without_study_says_the_inputs_were_not_checked(make_study, outsi
             "not checked; add --study STUDY.toml to check them too)\n") in out
     code, out, _ = _run(capsys, "verify", outside / "o", "--study", study)
     assert code == 0 and "every output and input matches its recorded SHA-256" in out
+
+
+def test_an_loq_above_every_calibrator_fails_the_working_range(make_study, outside, capsys):
+    # formerly PASS with working_range null: the LOQ (about 14.5) lies above the highest calibrator (14),
+    # so the method was shown to quantify nothing
+    rows = [(10, 11.3), (10, 8.7), (11, 12.3), (11, 9.7), (12, 13.3), (12, 10.7), (13, 14.3), (13, 11.7),
+            (14, 15.3), (14, 12.7)]
+    cal = "concentration,response\n" + "".join(f"{x},{y}\n" for x, y in rows)
+    study = make_study(files={"calibration.csv": cal})
+    code, out, _ = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    loq = next(e for e in a["detection"]["estimates"] if e["method"] == "ich-residual-sd")["loq"]
+    assert loq > 14                                                   # the premise of the scenario
+    assert a["working_range"]["low"] is None and a["working_range"]["passing_levels"] == 0
+    crit = next(c for c in a["criteria"] if c["id"] == "working-range")
+    assert crit["pass"] is False and crit["value"] == 0 and crit["note"].startswith("no range remains")
+    assert code == 1 and out.startswith("validator: FAIL:")
+
+
+def test_working_range_criterion_counts_passing_levels_inside():
+    # hand computation: passing calibrators 1, 2, 5, 10 with LOQ 1.5 leave 2, 5, 10 inside [1.5, 10]
+    from validator.calibration import BackCalculated
+    from validator.criteria import working_range_criterion
+    from validator.working_range import working_range
+    back = [BackCalculated(c, 0.0, c, 0.0, 15.0, True) for c in (1.0, 2.0, 5.0, 10.0)]
+    wr = working_range(back, 1.5, "ich-residual-sd", [], [])
+    assert (wr.low, wr.high, wr.passing_levels) == (1.5, 10.0, 3)
+    assert working_range_criterion(wr).passed is True
+    wr = working_range(back, 12.0, "ich-residual-sd", [], [])
+    assert (wr.low, wr.passing_levels) == (None, 0) and working_range_criterion(wr).passed is False
+
+
+def test_a_quadratic_turning_over_inside_the_range_fails(make_study, outside, capsys):
+    # formerly PASS: y = 1.2 x - 0.1 x^2 peaks at x = 6 inside 1..8; a response of 3.2 matches x = 4 and x = 8
+    import numpy as np
+    rng = np.random.default_rng(7)
+    x = np.repeat(np.arange(1.0, 9.0), 3)
+    y = 1.2 * x - 0.1 * x**2 + rng.normal(0, 0.01, x.size)
+    cal = "concentration,response\n" + "".join(f"{float(a)!r},{float(b)!r}\n" for a, b in zip(x, y))
+    study = make_study('[calibration]\ndata = "calibration.csv"\nmodel = "quadratic"\n', {"calibration.csv": cal})
+    code, out, _ = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    b1 = a["calibration"]["coefficients"]["slope"]["estimate"]
+    b2 = a["calibration"]["coefficients"]["quadratic"]["estimate"]
+    # hand computation: f'(x) = b1 + 2 b2 x; ratio of the slope at the flatter end over the steeper end
+    ends = [b1 + 2 * b2 * 1.0, b1 + 2 * b2 * 8.0]
+    steep, flat = max(ends, key=abs), min(ends, key=abs)
+    assert a["calibration"]["sensitivity_ratio"] == pytest.approx(flat / steep, rel=1e-9)
+    crit = next(c for c in a["criteria"] if c["id"] == "monotonic")
+    assert crit["pass"] is False and "turns over" in crit["note"]
+    assert code == 1
+
+
+def test_a_straight_line_is_monotonic(make_study, outside, capsys):
+    study = make_study()
+    assert _run(capsys, "run", study, "--out", outside / "o", "--format", "json")[0] == 0
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["calibration"]["sensitivity_ratio"] == pytest.approx(1.0, rel=1e-12)   # f' is constant
+    assert next(c for c in a["criteria"] if c["id"] == "monotonic")["pass"] is True

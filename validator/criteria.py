@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 __all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_criteria",
            "reference_material_criterion", "loq_criterion", "comparison_criteria", "overall_verdict",
-           "at_least", "at_most", "interval_within", "missing"]
+           "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
 
 
 def _finite(v) -> bool:
@@ -128,6 +128,14 @@ def calibration_criteria(cal, crit) -> tuple:
         frac, crit.min_fraction_within_tolerance, at_least(frac, crit.min_fraction_within_tolerance),
         ("outside tolerance at nominal " + ", ".join(f"{b.nominal:g}" for b in bad)) if bad else
         ("" if frac is not None else "not applicable: no calibrator with a non-zero nominal value")))
+    ratio = cal.sensitivity_ratio
+    out.append(Criterion(
+        "monotonic", "calibration function monotonic over the calibrated range: slope at its flatter end "
+        "over slope at its steeper end greater than 0", ratio, 0.0,
+        None if ratio is None else ratio > 0,
+        "not applicable: the slope is zero at both ends of the range" if ratio is None else
+        ("" if ratio > 0 else "the curve turns over inside the calibrated range: some responses "
+         "correspond to two concentrations")))
     if crit.r_squared_min is not None:
         r2 = cal.fit.r_squared
         out.append(Criterion("r-squared", f"coefficient of determination R² at least {crit.r_squared_min:g}",
@@ -135,6 +143,18 @@ def calibration_criteria(cal, crit) -> tuple:
                              "" if not missing(r2) else "not applicable: R² does not exist "
                              "(the responses do not vary)"))
     return tuple(out)
+
+
+def working_range_criterion(wr) -> Criterion:
+    """A working range must remain and hold at least one calibrator level that passes back-calculation.
+
+    It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
+    to nothing: the method was then not shown to quantify anything.
+    # common practice, no published source: the rule that a range holds a passing calibrator
+    """
+    return Criterion("working-range", "working range remains and holds at least 1 calibrator level that passes "
+                     "back-calculation", wr.passing_levels, 1, at_least(wr.passing_levels, 1),
+                     "" if wr.low is not None else wr.basis)
 
 
 def overall_verdict(criteria) -> str:

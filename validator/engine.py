@@ -15,7 +15,8 @@ from ._common import quiet_numpy
 from .calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
                        overall_verdict,
-                       precision_criteria, recovery_criteria, reference_material_criterion)
+                       precision_criteria, recovery_criteria, reference_material_criterion,
+                       working_range_criterion)
 from .detection import DetectionResult, assess_detection
 from .precision import assess_precision_level
 from .recovery import assess_recovery, assess_reference_material
@@ -192,6 +193,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         criteria.append(loq_criterion(loq_check))
     wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
                        concentration_unit)
+    criteria.append(working_range_criterion(wr))
     comparison = reval = None
     if data.comparison is not None:
         cc = config.comparison
