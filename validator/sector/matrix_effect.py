@@ -21,7 +21,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from .._common import ConfidenceInterval, quiet_numpy
 from ._shared import (as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
