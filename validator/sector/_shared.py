@@ -30,7 +30,7 @@ def as_float_array(values, name: str, *, allow_nan: bool = False) -> np.ndarray:
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
         allowed = "finite numbers or NaN (no numerical result)" if allow_nan else "finite numbers"
-        raise ValueError(f"{name}: value {arr[i]!r} at position {i} is not allowed; "
+        raise ValueError(f"{name}: value {float(arr[i])!r} at position {i} is not allowed; "
                          f"allowed: {allowed}")
     return arr
 
