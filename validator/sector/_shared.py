@@ -81,13 +81,14 @@ class MeanSummary:
 
 
 def mean_sd_cv(values: np.ndarray) -> MeanSummary:
-    """Summary of already-checked finite values."""
+    """Summary of already-checked finite values (SD exactly 0 when all values are equal)."""
     n = int(values.size)
     if n == 0:
         return MeanSummary(0, None, None, None)
     with quiet_numpy():
         mean = float(np.mean(values))
-        sd = float(np.std(values, ddof=1)) if n >= 2 else None
+        # identical values have SD 0 exactly (np.std would return rounding noise about the mean)
+        sd = (0.0 if np.ptp(values) == 0 else float(np.std(values, ddof=1))) if n >= 2 else None
     cv = None if sd is None or mean == 0 else 100.0 * sd / abs(mean)
     return MeanSummary(n, mean, sd, cv)
 
@@ -122,10 +123,14 @@ def fieller_ratio_interval(numerator: float, denominator: float, var_numerator: 
     qb = a * b - t2 * covariance
     qc = a * a - t2 * var_numerator
     disc = qb * qb - qa * qc
+    if not all(math.isfinite(v) for v in (qa, qb, qc, disc)):
+        return None, "Fieller interval: the numbers lie outside the floating-point range"
     if disc < 0:          # cannot happen when qa > 0 (the estimate itself satisfies the inequality)
         return None, "Fieller interval: negative discriminant"
     root = math.sqrt(disc)
     low, high = (qb - root) / qa, (qb + root) / qa
+    if not (math.isfinite(low) and math.isfinite(high)):
+        return None, "Fieller interval: the numbers lie outside the floating-point range"
     return ConfidenceInterval(low=low, high=high, level=level), ""
 
 

@@ -22,7 +22,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from .._common import ConfidenceInterval
+from .._common import ConfidenceInterval, quiet_numpy
 from ._shared import (as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
                       mean_sd_cv, t_quantile_two_sided)
 
@@ -282,10 +282,14 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
         return result(f.mean, None, None, None, f"{f.n} fresh result(s): at least two are needed")
     if f.mean <= 0:
         return result(f.mean, None, None, None, "the fresh samples' mean is not positive")
-    r = s.mean / f.mean
-    v1, v2 = s.sd ** 2 / s.n, f.sd ** 2 / f.n
-    den = v1 ** 2 / (s.n - 1) + r ** 4 * v2 ** 2 / (f.n - 1)
-    df = float((v1 + r * r * v2) ** 2 / den) if den > 0 else float(s.n + f.n - 2)
+    with quiet_numpy():
+        r = s.mean / f.mean
+        v1, v2 = np.square(s.sd) / s.n, np.square(f.sd) / f.n
+        den = np.square(v1) / (s.n - 1) + np.square(r * r * v2) / (f.n - 1)
+        df = float(np.square(v1 + r * r * v2) / den) if den > 0 else float(s.n + f.n - 2)
+    if not all(math.isfinite(v) for v in (r, v1, v2, df)):
+        return result(f.mean, None, None, None,
+                      "the data lie outside the floating-point range this computation can handle")
     ci_r, why = fieller_ratio_interval(s.mean, f.mean, v1, v2, 0.0, t_quantile_two_sided(lv, df), lv)
     ci = None if ci_r is None else ConfidenceInterval(100 * (ci_r.low - 1), 100 * (ci_r.high - 1), lv)
     res = result(f.mean, 100 * (r - 1), ci, df)

@@ -64,6 +64,8 @@ def _line_fit(x: np.ndarray, y: np.ndarray):
     with quiet_numpy():
         xc = x - x.mean()
         sxx = float(np.sum(xc * xc))
+        if not (math.isfinite(sxx) and sxx > 0):
+            return float("nan"), sxx, float("nan")
         slope = float(np.sum(xc * (y - y.mean()))) / sxx
         intercept = float(y.mean()) - slope * float(x.mean())
         sse = float(np.sum((y - intercept - slope * x) ** 2))
@@ -119,6 +121,12 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
             return none(f"the {name} calibration has a single concentration; no slope")
     b_s, sxx_s, sse_s = _line_fit(xs, ys)
     b_m, sxx_m, sse_m = _line_fit(xm, ym)
+    out_of_range = "the data lie outside the floating-point range this computation can handle"
+    for name, sxx in (("solvent", sxx_s), ("matrix", sxx_m)):
+        if math.isfinite(sxx) and sxx <= 0:
+            return none(f"the {name} concentrations have no spread in floating point; no slope")
+    if not all(math.isfinite(v) for v in (b_s, sxx_s, sse_s, b_m, sxx_m, sse_m)):
+        return none(out_of_range)
     if b_s == 0:
         return none("the solvent slope is zero; the ratio is undefined")
     df_s, df_m = xs.size - 2, xm.size - 2
@@ -129,11 +137,18 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
         df = float(df_s + df_m)
     else:
         v_s, v_m = (sse_s / df_s) / sxx_s, (sse_m / df_m) / sxx_m
-        num = (v_m + r * r * v_s) ** 2
-        den = v_m ** 2 / df_m + (r ** 4) * v_s ** 2 / df_s
-        df = float(num / den) if den > 0 else float(df_s + df_m)
+        with quiet_numpy():
+            num = np.square(v_m + r * r * v_s)
+            den = np.square(v_m) / df_m + np.square(r * r * v_s) / df_s
+            df = float(num / den) if den > 0 else float(df_s + df_m)
+    if not all(math.isfinite(v) for v in (r, v_s, v_m, df)):
+        return none(out_of_range)
     t = t_quantile_two_sided(lv, df)
-    se_r = abs(r) * math.sqrt(v_m / b_m ** 2 + v_s / b_s ** 2) if b_m != 0 else math.sqrt(v_m) / abs(b_s)
+    with quiet_numpy():
+        se_r = float(abs(r) * np.sqrt(v_m / np.square(b_m) + v_s / np.square(b_s)) if b_m != 0
+                     else np.sqrt(v_m) / abs(b_s))
+    if not math.isfinite(se_r):
+        return none(out_of_range)
     delta = ConfidenceInterval(100 * (r - t * se_r - 1), 100 * (r + t * se_r - 1), lv)
     fieller, why = fieller_ratio_interval(b_m, b_s, v_m, v_s, 0.0, t, lv)
     fieller_pct = None if fieller is None else ConfidenceInterval(100 * (fieller.low - 1),
