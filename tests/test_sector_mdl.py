@@ -123,3 +123,11 @@ def test_invalid_parameters(kwargs, match):
 def test_nan_spiked_result_is_refused():
     with pytest.raises(ValueError, match="spiked_results: value nan at position 0"):
         method_detection_limit([NAN] + SPIKED, [NAN] * 7)
+
+
+def test_batch_count_note():
+    res = method_detection_limit(SPIKED, [NAN] * 7, spiked_batches=list("aabbaab"),
+                                 blank_batches=list("abcabca"))
+    assert res.notes == ("spiked samples from 2 batch(es), fewer than the 3 Appendix B asks for",)
+    with pytest.raises(ValueError, match="spiked_batches: expected 7 labels"):
+        method_detection_limit(SPIKED, [NAN] * 7, spiked_batches=["a"])

@@ -2,8 +2,12 @@
 
 The initial MDL is the higher of MDL_s (from spiked samples) and MDL_b (from
 method blanks). Section numbers below refer to Appendix B, Revision 2,
-"II. Procedure", step (2) "Determine the initial MDL"; the letters of its
-sub-steps are given from memory.
+"II. Procedure", step (2) "Determine the initial MDL". Sections I and II(1)
+were read in this session; the wording of the MDL_b rules in II(2) (none /
+some / all blanks numerical, the 100-blank threshold, rank round(0.99 n),
+"a negative mean is taken as zero") and the three-batch requirement are
+implemented from memory of the rule and should be checked against the
+Federal Register text before release.
 
 References
 ----------
@@ -27,6 +31,8 @@ __all__ = ["MethodDetectionLimit", "method_detection_limit", "MINIMUM_SPIKED", "
 # Appendix B Rev. 2, II(2): "a minimum of seven spiked samples and seven method blank samples"
 MINIMUM_SPIKED = 7
 MINIMUM_BLANKS = 7
+# from memory: Appendix B Rev. 2, II(2): spiked samples and blanks in at least three batches
+MINIMUM_BATCHES = 3
 # Appendix B Rev. 2, II(2) (MDL_b, some blanks numerical): the highest method blank, unless more
 # than 100 method blanks are available, then the blank at rank round(0.99 n)
 BLANK_RANK_THRESHOLD = 100
@@ -60,7 +66,8 @@ class MethodDetectionLimit:
     reason: str = ""
 
 
-def method_detection_limit(spiked_results, blank_results, *, confidence: float = 0.99) -> MethodDetectionLimit:
+def method_detection_limit(spiked_results, blank_results, *, confidence: float = 0.99,
+                           spiked_batches=None, blank_batches=None) -> MethodDetectionLimit:
     """Initial MDL by 40 CFR Part 136 Appendix B, Revision 2.
 
     Parameters
@@ -73,6 +80,10 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         below the current MDL are numerical results and must be given as numbers.
     confidence : float
         1 - alpha of the one-sided t quantile; the rule fixes 0.99.
+    spiked_batches, blank_batches : sequence of labels, optional
+        The preparation batch of each result; when given, fewer than three
+        distinct batches is stated in ``notes`` (from memory: II(2) asks for
+        samples prepared and analysed in at least three batches on separate dates).
 
     Notes
     -----
@@ -98,6 +109,15 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
     notes = []
     if n_b < MINIMUM_BLANKS:
         notes.append(f"{n_b} method blanks, fewer than the {MINIMUM_BLANKS} Appendix B requires")
+    for kind, labels, n in (("spiked", spiked_batches, n_s), ("blank", blank_batches, n_b)):
+        if labels is None:
+            continue
+        labels = [str(v) for v in labels]
+        if len(labels) != n:
+            raise ValueError(f"{kind}_batches: expected {n} labels (one per result), got {len(labels)}")
+        if len(set(labels)) < MINIMUM_BATCHES:
+            notes.append(f"{kind} samples from {len(set(labels))} batch(es), fewer than the "
+                         f"{MINIMUM_BATCHES} Appendix B asks for")
     if n_s and np.any(spiked <= 0):
         notes.append("a spiked result is not above zero: Appendix B asks to repeat the spiked samples "
                      "at a higher concentration")
