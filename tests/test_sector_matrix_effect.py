@@ -58,6 +58,9 @@ def test_slopes_and_delta_se_match_joint_statsmodels_fit():
     assert res.delta_interval.low == pytest.approx(100 * (b_m / b_s - t * se_delta - 1), rel=1e-9)
     assert res.delta_interval.high == pytest.approx(100 * (b_m / b_s + t * se_delta - 1), rel=1e-9)
     assert res.interval == res.fieller_interval and res.interval.level == 0.95
+    # hand: ME about -19.6 %, inside the default +/-20 % but beyond a 15 % limit
+    assert res.beyond_limit is False
+    assert slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, limit_percent=15.0).beyond_limit is True
 
 
 def test_fieller_limits_are_where_the_joint_t_test_reaches_the_critical_value():

@@ -105,6 +105,8 @@ def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=No
     i_pct = None
     if blank_internal_standard is not None:
         ib = as_float_array(blank_internal_standard, "blank_internal_standard")
+        if ib.size == 0:
+            raise ValueError("blank_internal_standard: at least one IS response is needed, got none")
         iref = _reference_mean(internal_standard_response, "internal_standard_response")
         i_pct = tuple(float(v) for v in 100.0 * ib / iref)
     max_i = None if not i_pct else max(i_pct)

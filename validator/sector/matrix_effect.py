@@ -56,6 +56,8 @@ class SlopeRatioMatrixEffect:
     interval: ConfidenceInterval | None
     fieller_interval: ConfidenceInterval | None
     delta_interval: ConfidenceInterval | None
+    limit_percent: float = 20.0
+    beyond_limit: bool | None = None     # |ME %| > limit_percent: matrix-matched calibration indicated
     reason: str = ""
 
 
@@ -73,7 +75,7 @@ def _line_fit(x: np.ndarray, y: np.ndarray):
 
 
 def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level: float = 0.95,
-                              variance: str = "pooled") -> SlopeRatioMatrixEffect:
+                              variance: str = "pooled", limit_percent: float = 20.0) -> SlopeRatioMatrixEffect:
     """Matrix effect as the ratio of a matrix-matched to a solvent calibration slope (SANTE/11312/2021).
 
     Parameters
@@ -90,6 +92,10 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
         Fieller's interval is then exact under normal errors.
         "separate": each line its own residual variance; the t quantile uses
         Welch-Satterthwaite df for b_m - R b_s at the estimated R (approximate).
+    limit_percent : float
+        |ME %| above it is flagged ``beyond_limit`` (from memory: SANTE/11312/2021
+        treats matrix effects beyond +/-20 % as calling for matrix-matched
+        calibration). The flag uses the estimate; the interval is shown beside it.
 
     Notes
     -----
@@ -101,6 +107,7 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
     ``None`` with a reason) when b_s is not significantly non-zero.
     """
     lv = check_level(level)
+    lim = check_positive(limit_percent, "limit_percent")
     if variance not in VARIANCE_MODELS:
         raise ValueError(f"variance must be one of {VARIANCE_MODELS!r}, got {variance!r}")
     xs, ys = as_float_array(x_solvent, "x_solvent"), as_float_array(y_solvent, "y_solvent")
@@ -111,7 +118,7 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
 
     def none(reason: str) -> SlopeRatioMatrixEffect:
         return SlopeRatioMatrixEffect(None, None, None, None, None, None, None, None, variance, None, None,
-                                      None, reason)
+                                      None, lim, None, reason)
 
     need = 3
     for name, x in (("solvent", xs), ("matrix", xm)):
@@ -153,8 +160,9 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
     fieller, why = fieller_ratio_interval(b_m, b_s, v_m, v_s, 0.0, t, lv)
     fieller_pct = None if fieller is None else ConfidenceInterval(100 * (fieller.low - 1),
                                                                   100 * (fieller.high - 1), lv)
-    return SlopeRatioMatrixEffect(100 * (r - 1), r, b_s, b_m, math.sqrt(v_s), math.sqrt(v_m), se_r, df,
-                                  variance, fieller_pct, fieller_pct, delta, why)
+    me = 100 * (r - 1)
+    return SlopeRatioMatrixEffect(me, r, b_s, b_m, math.sqrt(v_s), math.sqrt(v_m), se_r, df,
+                                  variance, fieller_pct, fieller_pct, delta, lim, abs(me) > lim, why)
 
 
 @dataclass(frozen=True)
