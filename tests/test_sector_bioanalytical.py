@@ -43,7 +43,7 @@ def test_carry_over_by_hand():
 def test_carry_over_invalid_arguments():
     with pytest.raises(ValueError, match="give both or neither"):
         carry_over([1.0], [10.0], blank_internal_standard=[1.0])
-    with pytest.raises(ValueError, match="lloq_response: expected responses with a positive mean"):
+    with pytest.raises(ValueError, match="lloq_response: expected responses with a positive mean of at least 1e-100, got mean 0.0"):
         carry_over([1.0], [0.0])
     with pytest.raises(ValueError, match="analyte_limit_percent must be a finite number > 0, got -20"):
         carry_over([1.0], [10.0], analyte_limit_percent=-20)

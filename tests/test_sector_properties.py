@@ -13,11 +13,13 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator.sector import (incurred_sample_reanalysis, limit_of_blank, lot_accuracy, method_detection_limit,
-                              slope_ratio_matrix_effect, stability)
+from validator.sector import (carry_over, dilution_integrity, incurred_sample_reanalysis, limit_of_blank,
+                              limit_of_detection, limit_of_quantitation, lot_accuracy, method_detection_limit,
+                              normalised_matrix_factor, selectivity, slope_ratio_matrix_effect, stability)
 
 EXAMPLES = 1000 if os.environ.get("HYPOTHESIS_PROFILE") == "nightly" else 60
-finite = st.floats(min_value=-1e9, max_value=1e9, allow_nan=False, allow_subnormal=False)
+# the whole accepted range (|x| <= 1e100, validator.sector._shared.MAX_MAGNITUDE), subnormals included
+finite = st.floats(min_value=-1e100, max_value=1e100, allow_nan=False)
 positive = st.floats(min_value=1e-3, max_value=1e6, allow_nan=False)
 
 
@@ -102,3 +104,37 @@ def test_isr_swap_negates_differences(pairs):
 def test_lot_accuracy_never_crashes(rows):
     res = _strict(lot_accuracy, [v for _, v in rows], [k for k, _ in rows], 10.0)
     assert res.passed is not None or res.reason
+
+
+@settings(max_examples=EXAMPLES, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from("abc"), finite), min_size=2, max_size=20),
+       st.lists(finite, min_size=7, max_size=12), st.lists(finite | st.just(float("nan")), min_size=1, max_size=12),
+       st.floats(min_value=1e-100, max_value=1e100), st.floats(min_value=1.0, max_value=1e100))
+def test_everything_else_gives_a_value_or_a_reason(rows, spiked, blanks, reference, factor):
+    labels, values = [k for k, _ in rows], [v for _, v in rows]
+    lob = _strict(limit_of_blank, values, method="parametric", sample=labels)
+    assert lob.value is not None or lob.reason
+    lod = _strict(limit_of_detection, values, labels, 0.0)
+    assert (lod.value is not None and np.isfinite(lod.value)) or lod.reason
+    loq = _strict(limit_of_quantitation, values, labels, [ord(k) for k in labels], max_cv_percent=20,
+                  max_total_error=1.0)
+    assert loq.value is not None or loq.reason
+    mdl = _strict(method_detection_limit, spiked, blanks)
+    assert (mdl.value is not None and np.isfinite(mdl.value)) or mdl.reason
+    dil = _strict(dilution_integrity, values, factor, reference)
+    assert dil.passed is not None or dil.reason
+    co = _strict(carry_over, values, [reference])
+    assert all(np.isfinite(co.analyte_percent))
+    sel = _strict(selectivity, values, labels, [reference], min_lots=1)
+    assert sel.passed is not None
+    pos = [abs(v) for v in values]
+    isr = _strict(incurred_sample_reanalysis, pos, pos[::-1])
+    assert all(x.difference_percent is None or np.isfinite(x.difference_percent) for x in isr.samples)
+    mf = _strict(normalised_matrix_factor, pos, pos[::-1], labels, [reference], [reference], min_lots=2)
+    assert mf.passed is not None or mf.reason
+
+
+def test_values_beyond_the_supported_magnitude_are_refused():
+    with pytest.raises(ValueError, match=r"blank_results: value 1e\+101 at position 2 is not allowed; "
+                                         r"allowed: finite numbers within \+/-1e\+100"):
+        limit_of_blank([0.0, 1.0, 1e101])

@@ -14,22 +14,31 @@ from scipy import stats
 
 from .._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["as_float_array", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
+__all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "as_float_array", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
            "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided"]
 
 
+# results beyond this magnitude are refused: their squares and sums stay far inside the float range
+MAX_MAGNITUDE = 1e100
+OUT_OF_RANGE = "the numbers lie outside the floating-point range this computation can handle"
+
+
 def as_float_array(values, name: str, *, allow_nan: bool = False) -> np.ndarray:
-    """A 1-D float array; ``ValueError`` naming ``name`` for anything else."""
+    """A 1-D float array of finite numbers within +/-MAX_MAGNITUDE; ``ValueError`` naming ``name``
+    and the value otherwise."""
     try:
         arr = np.asarray(values, dtype=float)
     except (TypeError, ValueError) as exc:
         raise ValueError(f"{name}: expected numbers, got {values!r:.80}") from exc
     if arr.ndim != 1:
         raise ValueError(f"{name}: expected a one-dimensional sequence, got shape {arr.shape}")
-    bad = np.isinf(arr) if allow_nan else ~np.isfinite(arr)
+    with np.errstate(invalid="ignore"):
+        too_large = np.abs(arr) > MAX_MAGNITUDE
+    bad = (np.isinf(arr) | too_large) if allow_nan else (~np.isfinite(arr) | too_large)
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        allowed = "finite numbers or NaN (no numerical result)" if allow_nan else "finite numbers"
+        allowed = (f"finite numbers within +/-{MAX_MAGNITUDE:g}"
+                   + (" or NaN (no numerical result)" if allow_nan else ""))
         raise ValueError(f"{name}: value {float(arr[i])!r} at position {i} is not allowed; "
                          f"allowed: {allowed}")
     return arr
@@ -71,7 +80,8 @@ class MeanSummary:
     """Mean, sample SD (n - 1) and CV of a set of results.
 
     ``sd`` is ``None`` for fewer than two results; ``cv_percent`` is ``None``
-    when ``sd`` is or the mean is zero.
+    when ``sd`` is or the mean is zero. A statistic that overflows the
+    floating-point range is ``None`` too (callers state the reason).
     """
 
     n: int
@@ -89,7 +99,13 @@ def mean_sd_cv(values: np.ndarray) -> MeanSummary:
         mean = float(np.mean(values))
         # identical values have SD 0 exactly (np.std would return rounding noise about the mean)
         sd = (0.0 if np.ptp(values) == 0 else float(np.std(values, ddof=1))) if n >= 2 else None
+    if not math.isfinite(mean):
+        return MeanSummary(n, None, None, None)
+    if sd is not None and not math.isfinite(sd):
+        sd = None
     cv = None if sd is None or mean == 0 else 100.0 * sd / abs(mean)
+    if cv is not None and not math.isfinite(cv):
+        cv = None
     return MeanSummary(n, mean, sd, cv)
 
 
@@ -106,31 +122,42 @@ def fieller_ratio_interval(numerator: float, denominator: float, var_numerator: 
     -----
     With a = numerator, b = denominator, v11, v22, v12 their (co)variances
     and t the quantile, the interval is the set of R with
-    (a - R b)^2 <= t^2 (v11 - 2 R v12 + R^2 v22), i.e. the roots of
-    (b^2 - t^2 v22) R^2 - 2 (a b - t^2 v12) R + (a^2 - t^2 v11) = 0,
-    bounded exactly when g = t^2 v22 / b^2 < 1.
+    (a - R b)^2 <= t^2 (v11 - 2 R v12 + R^2 v22). With r = a/b and the scaled
+    (co)variances A = v11/b^2, C = v22/b^2, D = v12/b^2, g = t^2 C, it is
+    [r - t^2 D -/+ t sqrt(A - 2 r D + r^2 C - t^2 (A C - D^2))] / (1 - g),
+    bounded exactly when g < 1. (This scaled form avoids the cancellation of
+    the quadratic's coefficients a^2, b^2 at extreme magnitudes.)
 
     References
     ----------
     Fieller, E. C. (1954). Some problems in interval estimation. J. R. Stat.
     Soc. B 16, 175-185.
     """
-    a, b, t2 = numerator, denominator, t_quantile ** 2
-    if b == 0 or t2 * var_denominator >= b * b:
+    a, b = float(numerator), float(denominator)
+    v11, v22, v12, t = float(var_numerator), float(var_denominator), float(covariance), float(t_quantile)
+    out = "Fieller interval: the numbers lie outside the floating-point range"
+    if b == 0:
         return None, ("Fieller interval unbounded: the denominator is not significantly different "
                       "from zero at this level")
-    qa = b * b - t2 * var_denominator
-    qb = a * b - t2 * covariance
-    qc = a * a - t2 * var_numerator
-    disc = qb * qb - qa * qc
-    if not all(math.isfinite(v) for v in (qa, qb, qc, disc)):
-        return None, "Fieller interval: the numbers lie outside the floating-point range"
-    if disc < 0:          # cannot happen when qa > 0 (the estimate itself satisfies the inequality)
-        return None, "Fieller interval: negative discriminant"
-    root = math.sqrt(disc)
-    low, high = (qb - root) / qa, (qb + root) / qa
+    r = a / b
+    scaled_a, scaled_c, scaled_d = v11 / b / b, v22 / b / b, v12 / b / b
+    g = t * t * scaled_c
+    if not all(math.isfinite(v) for v in (r, scaled_a, scaled_c, scaled_d, g)):
+        return None, out
+    if g >= 1:
+        return None, ("Fieller interval unbounded: the denominator is not significantly different "
+                      "from zero at this level")
+    inner = (scaled_a - 2 * r * scaled_d + r * r * scaled_c
+             - t * t * (scaled_a * scaled_c - scaled_d * scaled_d))
+    if not math.isfinite(inner):
+        return None, out
+    if inner < 0:         # only by rounding when g < 1 (the quadratic form is then positive)
+        inner = 0.0
+    centre = r - t * t * scaled_d
+    half = t * math.sqrt(inner)
+    low, high = (centre - half) / (1 - g), (centre + half) / (1 - g)
     if not (math.isfinite(low) and math.isfinite(high)):
-        return None, "Fieller interval: the numbers lie outside the floating-point range"
+        return None, out
     return ConfidenceInterval(low=low, high=high, level=level), ""
 
 

@@ -23,7 +23,7 @@ from fractions import Fraction
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
+from ._shared import (MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
                       mean_sd_cv, t_quantile_two_sided)
 
 __all__ = ["CarryOver", "carry_over", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
@@ -51,8 +51,9 @@ def _at_least(count: int, total: int, fraction: float) -> bool:
 
 def _reference_mean(values, name: str) -> float:
     m = mean_sd_cv(as_float_array(values, name)).mean
-    if m is None or m <= 0:
-        raise ValueError(f"{name}: expected responses with a positive mean, got mean {m!r}")
+    if m is None or m < 1 / MAX_MAGNITUDE:
+        raise ValueError(f"{name}: expected responses with a positive mean of at least {1 / MAX_MAGNITUDE:g}, "
+                         f"got mean {m!r}")
     return m
 
 
@@ -260,6 +261,10 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
 
     def result(ref_mean, dev, ci, df, reason=""):
         passed = None
+        if dev is not None and not math.isfinite(dev):
+            dev, ci, reason = None, None, OUT_OF_RANGE
+        if ci is not None and not (math.isfinite(ci.low) and math.isfinite(ci.high)):
+            ci = None
         if not reason:
             if s.n < min_rep:
                 reason = f"{s.n} stored results, at least {min_rep} needed"
@@ -273,6 +278,8 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
 
     if s.n < 2:
         return result(None, None, None, None, f"{s.n} stored result(s): a mean and its interval need two")
+    if s.mean is None or s.sd is None:
+        return result(None, None, None, None, OUT_OF_RANGE)
     if nominal is not None:
         nom = check_positive(nominal, "nominal")
         df = float(s.n - 1)
@@ -280,6 +287,8 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
         ci = ConfidenceInterval(100 * ((s.mean - half) / nom - 1), 100 * ((s.mean + half) / nom - 1), lv)
         return result(nom, 100 * (s.mean / nom - 1), ci, df)
     f = mean_sd_cv(as_float_array(fresh, "fresh"))
+    if f.n >= 2 and (f.mean is None or f.sd is None):
+        return result(None, None, None, None, OUT_OF_RANGE)
     if f.n < 2:
         return result(f.mean, None, None, None, f"{f.n} fresh result(s): at least two are needed")
     if f.mean <= 0:
@@ -346,11 +355,15 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     b_lim = check_positive(max_bias_percent, "max_bias_percent")
     c_lim = check_positive(max_cv_percent, "max_cv_percent")
     min_rep = _check_count(min_replicates, "min_replicates", 2)
-    back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
+    with quiet_numpy():
+        back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
     s = mean_sd_cv(back)
     if s.n == 0:
         return DilutionIntegrity(factor, nom, 0, (), None, None, None, None, b_lim, c_lim, None, "no results")
-    acc = 100.0 * s.mean / nom
+    acc = None if s.mean is None else 100.0 * s.mean / nom
+    if acc is None or not math.isfinite(acc):
+        return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), None, None, None, None,
+                                 b_lim, c_lim, None, OUT_OF_RANGE)
     reason, passed = "", None
     if s.n < min_rep:
         reason = f"{s.n} diluted QCs, at least {min_rep} needed"
@@ -392,8 +405,8 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     Notes
     -----
     Per sample: % difference = 100 (repeat - original) / ((repeat + original) / 2).
-    A pair whose mean is zero or negative has no defined difference and counts
-    as not within. passed = n_within / n >= min_fraction, compared exactly.
+    A pair whose mean is zero or negative (or so small that the difference
+    overflows) has no defined difference and counts as not within. passed = n_within / n >= min_fraction, compared exactly.
     """
     lim = check_positive(limit_percent, "limit_percent")
     frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
@@ -404,11 +417,11 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     rows = []
     for a, b in zip(o.tolist(), r.tolist()):
         mean = (a + b) / 2
-        if mean <= 0:
-            rows.append(ReanalysedSample(a, b, None, False))
-        else:
-            d = 100.0 * (b - a) / mean
+        d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
+        if math.isfinite(d):
             rows.append(ReanalysedSample(a, b, d, abs(d) <= lim))
+        else:
+            rows.append(ReanalysedSample(a, b, None, False))
     n = len(rows)
     n_within = sum(x.within for x in rows)
     n_undef = sum(x.difference_percent is None for x in rows)

@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._common import quiet_numpy
-from ._shared import as_float_array, check_fraction, check_positive, mean_sd_cv
+from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
 
 __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
@@ -173,7 +173,11 @@ def nonparametric_percentile(values, percentile: float = 0.95) -> tuple[float | 
     frac = rank - lower
     if lower == n:
         return float(arr[n - 1]), rank, ""
-    return float(arr[lower - 1] + frac * (arr[lower] - arr[lower - 1])), rank, ""
+    with quiet_numpy():
+        value = float(arr[lower - 1] + frac * (arr[lower] - arr[lower - 1]))
+    if not math.isfinite(value):
+        return None, rank, OUT_OF_RANGE
+    return value, rank, ""
 
 
 def _labels(values, n: int, name: str, default: str) -> np.ndarray:
@@ -268,8 +272,10 @@ def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None,
                 f"than samples")))
         else:
             cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
-            results.append(LotLimit(name, summary.mean + cp * summary.sd, int(v.size), k,
-                                    summary.mean, summary.sd, cp))
+            value = summary.mean + cp * summary.sd
+            results.append(LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
+                           if math.isfinite(value) else
+                           LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE))
     notes = tuple(_design_notes("blank", counts, purpose))
     missing = [r for r in results if r.value is None]
     if not results:
@@ -327,7 +333,9 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
                 f"so SD_L cannot be pooled")))
             continue
         cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
-        results.append(LotLimit(name, float(lob) + cp * sd, int(v.size), j, None, sd, cp))
+        value = float(lob) + cp * sd
+        results.append(LotLimit(name, value, int(v.size), j, None, sd, cp) if math.isfinite(value)
+                       else LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE))
     notes = tuple(_design_notes("low-level", counts, purpose))
     missing = [r for r in results if r.value is None]
     if not results:
@@ -392,8 +400,13 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
                              f"allowed: one per sample")
         nom = noms.pop()
         m = mean_sd_cv(values[mask])
+        if m.mean is None:
+            levels.append(QuantitationLevel(str(s), nom, m.n, None, None, None, None, None, None, OUT_OF_RANGE))
+            continue
         bias = m.mean - nom
         te = None if m.sd is None else abs(bias) + 2.0 * m.sd
+        if te is not None and not math.isfinite(te):
+            te = None
         verdicts, why = [], []
         if max_cv_percent is not None:
             if m.cv_percent is None:

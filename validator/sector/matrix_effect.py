@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
+from ._shared import (OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
                       t_quantile_two_sided)
 
 __all__ = ["SlopeRatioMatrixEffect", "slope_ratio_matrix_effect", "LotAccuracy", "LotAccuracyAssessment",
@@ -242,7 +242,10 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
     out = []
     for name in dict.fromkeys(lots):
         m = mean_sd_cv(values[lots == name])
-        acc = 100.0 * m.mean / nom
+        acc = None if m.mean is None else 100.0 * m.mean / nom
+        if acc is None or not math.isfinite(acc):
+            out.append(LotAccuracy(str(name), m.n, m.mean, None, None, None, None, OUT_OF_RANGE))
+            continue
         if m.n < min_rep or m.cv_percent is None:
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
                                    f"{m.n} results, at least {min_rep} needed" if m.n < min_rep
@@ -325,12 +328,14 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
     rows = []
     for name in dict.fromkeys(lots):
         mask = lots == name
-        mfa = float(a[mask].mean()) / a0
-        mfs = float(s[mask].mean()) / s0
-        rows.append(MatrixFactorLot(str(name), mfa, mfs, mfa / mfs if mfs != 0 else None))
+        with quiet_numpy():
+            mfa = float(a[mask].mean()) / a0
+            mfs = float(s[mask].mean()) / s0
+            norm = mfa / mfs if mfs != 0 else float("nan")
+        rows.append(MatrixFactorLot(str(name), mfa, mfs, norm if math.isfinite(norm) else None))
     if any(r.normalised_factor is None for r in rows):
         bad = next(r for r in rows if r.normalised_factor is None)
-        return none(f"lot {bad.lot}: the IS matrix factor is zero", rows)
+        return none(f"lot {bad.lot}: the IS matrix factor is zero or the factors overflow", rows)
     summary = mean_sd_cv(np.array([r.normalised_factor for r in rows]))
     if summary.cv_percent is None:
         return NormalisedMatrixFactor(tuple(rows), summary.mean, None, float(max_cv_percent), min_lots, None,

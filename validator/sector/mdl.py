@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from ._shared import as_float_array, check_fraction, mean_sd_cv
+from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, mean_sd_cv
 
 __all__ = ["MethodDetectionLimit", "method_detection_limit", "MINIMUM_SPIKED", "BLANK_RANK_THRESHOLD"]
 
@@ -128,7 +128,9 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
     reason_s = ""
     if n_s < MINIMUM_SPIKED:
         reason_s = f"{n_s} spiked samples, fewer than the {MINIMUM_SPIKED} Appendix B requires"
-    elif s.sd is None or s.sd == 0:
+    elif s.sd is None:
+        reason_s = OUT_OF_RANGE
+    elif s.sd == 0:
         reason_s = "the spiked results have no spread (S_s = 0): MDL_s would be zero"
     else:
         t_s = float(stats.t.ppf(conf, n_s - 1))
@@ -157,6 +159,8 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         b_mean, b_sd = b.mean, b.sd
         if n_b < 2:
             notes.append("one method blank: S_b cannot be computed, MDL_b does not apply")
+        elif b.sd is None:
+            notes.append(f"MDL_b does not apply: {OUT_OF_RANGE}")
         else:
             t_b = float(stats.t.ppf(conf, n_b - 1))
             mdl_b = max(b.mean, 0.0) + t_b * b.sd
