@@ -178,3 +178,12 @@ def test_isr_undefined_difference_counts_as_not_within():
 def test_reanalysis_sample_count(n, expected):
     # hand computation: 10 % of the first 1000 plus 5 % beyond, rounded up
     assert reanalysis_sample_count(n) == expected
+
+
+def test_stability_checks_its_reference_even_with_one_result():
+    with pytest.raises(ValueError, match="nominal must be a finite number > 0, got -1"):
+        stability([9.0], nominal=-1)
+    with pytest.raises(ValueError, match="fresh: value inf at position 0"):
+        stability([9.0], fresh=[float("inf")])
+    unbounded = stability(STORED, fresh=[0.1, 5.0, 0.2], level=0.99, judged_on="interval")
+    assert unbounded.passed is None and "unbounded" in unbounded.reason

@@ -17,7 +17,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from fractions import Fraction
 
 import numpy as np
@@ -256,10 +256,12 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
         raise ValueError(f"judged_on must be one of {JUDGEMENTS!r}, got {judged_on!r}")
     min_rep = _check_count(min_replicates, "min_replicates", 2)
     x = as_float_array(stored, "stored")
+    nom = check_positive(nominal, "nominal") if nominal is not None else None
+    fresh_values = as_float_array(fresh, "fresh") if fresh is not None else None
     s = mean_sd_cv(x)
     reference = "nominal" if nominal is not None else "fresh"
 
-    def result(ref_mean, dev, ci, df, reason=""):
+    def result(ref_mean, dev, ci, df, reason="", interval_reason=""):
         passed = None
         if dev is not None and not math.isfinite(dev):
             dev, ci, reason = None, None, OUT_OF_RANGE
@@ -271,22 +273,22 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
             elif judged_on == "estimate":
                 passed = abs(dev) <= lim
             elif ci is None:
-                reason = "no confidence interval to judge on"
+                reason = interval_reason or "no confidence interval to judge on"
             else:
                 passed = -lim <= ci.low and ci.high <= lim
-        return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed, reason)
+        return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed,
+                         reason or interval_reason)
 
     if s.n < 2:
         return result(None, None, None, None, f"{s.n} stored result(s): a mean and its interval need two")
     if s.mean is None or s.sd is None:
         return result(None, None, None, None, OUT_OF_RANGE)
-    if nominal is not None:
-        nom = check_positive(nominal, "nominal")
+    if nom is not None:
         df = float(s.n - 1)
         half = t_quantile_two_sided(lv, df) * s.sd / math.sqrt(s.n)
         ci = ConfidenceInterval(100 * ((s.mean - half) / nom - 1), 100 * ((s.mean + half) / nom - 1), lv)
         return result(nom, 100 * (s.mean / nom - 1), ci, df)
-    f = mean_sd_cv(as_float_array(fresh, "fresh"))
+    f = mean_sd_cv(fresh_values)
     if f.n >= 2 and (f.mean is None or f.sd is None):
         return result(None, None, None, None, OUT_OF_RANGE)
     if f.n < 2:
@@ -303,10 +305,7 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
                       "the data lie outside the floating-point range this computation can handle")
     ci_r, why = fieller_ratio_interval(s.mean, f.mean, v1, v2, 0.0, t_quantile_two_sided(lv, df), lv)
     ci = None if ci_r is None else ConfidenceInterval(100 * (ci_r.low - 1), 100 * (ci_r.high - 1), lv)
-    res = result(f.mean, 100 * (r - 1), ci, df)
-    if why and not res.reason:
-        res = replace(res, reason=why)
-    return res
+    return result(f.mean, 100 * (r - 1), ci, df, interval_reason=why)
 
 
 # ----------------------------------------------------------------------------- dilution integrity
