@@ -153,3 +153,44 @@ def test_a_straight_line_is_monotonic(make_study, outside, capsys):
     a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
     assert a["calibration"]["sensitivity_ratio"] == pytest.approx(1.0, rel=1e-12)   # f' is constant
     assert next(c for c in a["criteria"] if c["id"] == "monotonic")["pass"] is True
+
+
+def _maintenance_copy(tmp_path, scale=1.0, extra=""):
+    folder = tmp_path / "m"
+    shutil.copytree(MAINTENANCE, folder)
+    if scale != 1.0:
+        lines = (folder / "calibration.csv").read_text().splitlines()
+        rows = [lines[0]]
+        for line in lines[1:]:
+            name, x, y, series = line.split(",")
+            rows.append(f"{name},{float(x) * scale!r},{float(y) * scale!r},{series}")
+        (folder / "calibration.csv").write_text("\n".join(rows) + "\n")
+    if extra:
+        study = (folder / "study.toml").read_text().replace('previous = "previous-results.json"\n',
+                                                          'previous = "previous-results.json"\n' + extra)
+        (folder / "study.toml").write_text(study)
+    return folder
+
+
+def test_straight_lines_over_ranges_that_do_not_overlap_are_not_compared(tmp_path, outside, capsys):
+    # formerly "equivalent": 50..4000 mg/L now against 0.5..40 before; a slope is compared only over a
+    # range both runs calibrated (the quadratic analyte was already refused)
+    folder = _maintenance_copy(tmp_path, scale=100.0)
+    code, out, _ = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    a = {x["name"]: x for x in json.loads((outside / "o" / "results.json").read_text())["analytes"]}
+    slope = a["nitrate"]["revalidation"]["slope"]
+    assert slope["verdict"] == "not applicable" and "do not overlap" in slope["reason"]
+    crit = next(c for c in a["nitrate"]["criteria"] if c["id"] == "slope-equivalence")
+    assert crit["pass"] is None
+    assert code == 1
+
+
+def test_an_analyte_without_a_counterpart_leaves_the_revalidation_incomplete(tmp_path, outside, capsys):
+    # formerly PASS with revalidation null: mapping fluoride onto nitrate leaves nitrate unmatched
+    folder = _maintenance_copy(tmp_path, extra='analytes = {fluoride = "nitrate"}\n')
+    code, _, _ = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    a = {x["name"]: x for x in json.loads((outside / "o" / "results.json").read_text())["analytes"]}
+    assert a["nitrate"]["revalidation"] is None
+    crit = next(c for c in a["nitrate"]["criteria"] if c["id"] == "slope-equivalence")
+    assert crit["pass"] is None and "no analyte matching this one" in crit["note"]
+    assert a["nitrate"]["verdict"] != "pass" and code == 1

@@ -208,6 +208,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
         criteria += _revalidation_criteria(reval, rc)
+    elif config.revalidation is not None:       # a re-validation in which this analyte has no counterpart
+        margin = config.revalidation.slope_change_max_pct
+        criteria.append(Criterion(
+            "slope-equivalence", f"slope change inside ±{margin:g} % of the previous validation", None,
+            [-margin, margin], None, "not applicable: the previous results have no analyte matching this one "
+            "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared"))
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
                          criteria=tuple(criteria), bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=detection,
