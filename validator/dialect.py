@@ -116,7 +116,10 @@ def _split(text: str, delimiter: str):
                 header = cells
                 continue
             if len(cells) != len(header):
-                return f"row {line} has {len(cells)} fields but the header has {len(header)}"
+                hint = ""
+                if delimiter == "," and len(cells) > len(header):
+                    hint = " (a decimal comma? a comma cannot separate both fields and decimals)"
+                return f"row {line} has {len(cells)} fields but the header has {len(header)}{hint}"
             records.append(cells)
             lines.append(line)
     except csv.Error as exc:
@@ -227,7 +230,9 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
        "1,25" or "1.25" that only the other mark reads).
     3. *Same table*: readings that give the same cells and the same numbers
        are one outcome (a one-column file reads the same with any delimiter,
-       a file without decimal fractions the same with either mark).
+       a file without decimal fractions the same with either mark). A reading
+       with one column whose name holds another delimiter character is a
+       failed split and is refused.
     4. *Header*: when several outcomes remain, readings whose header has a
        cell holding another delimiter character (a header "a;b" read with ",")
        are set aside. If still more than one outcome remains, the file is
@@ -260,6 +265,12 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
         split = _split(text, delim)
         if isinstance(split, str):
             failures[delim] = split
+            continue
+        header = split[0]
+        if len(header) == 1 and set(header[0]) & (_SEPARATOR_CHARACTERS - {DELIMITERS[delim]}):
+            # one column whose name holds another delimiter: a split that failed, not a column
+            failures[delim] = (f'the header would be one column "{show(header[0])}" holding another '
+                               "delimiter character")
             continue
         for dec in DECIMALS:
             if delim == "," and dec == ",":
