@@ -348,8 +348,8 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
         raise DataError(_mismatch(group, delimiter, decimal), file=file)
 
     # pick within the group: declared first, then "," before ";" before tab, "." before ","
-    delimiter_seen = len({r.delimiter for r in group}) == 1
-    decimal_seen = len({r.decimal for r in group}) == 1
+    delimiter_seen = len(chosen.header) > 1
+    decimal_seen = any(chosen.marked)
     if not delimiter_seen:
         evidence.append("the file has one column; any delimiter reads it the same")
     else:
