@@ -303,3 +303,37 @@ def test_a_workbook_given_as_csv_is_named(tmp_path):
         read(ODS)
     assert str(info.value) == ("run-3.xlsx: is an OpenDocument spreadsheet (.ods), which cannot be read; "
                                "save it as .xlsx or export the sheet as CSV (UTF-8)")
+
+
+def _patched(data: bytes, part: str, change) -> bytes:
+    out = io.BytesIO()
+    with zipfile.ZipFile(io.BytesIO(data)) as src, zipfile.ZipFile(out, "w") as dst:
+        for info in src.infolist():
+            body = src.read(info)
+            dst.writestr(info, change(body) if info.filename == part else body)
+    return out.getvalue()
+
+
+@pytest.mark.parametrize("stored,expected", [
+    (b"1e999", 'run-3.xlsx, sheet Sheet, cell A2: "inf" is not a finite number'),
+    (b"abc", "run-3.xlsx, sheet Sheet: the sheet cannot be read after row 1 (ValueError: invalid literal "
+             "for int() with base 10: 'abc')"),
+])
+def test_a_corrupt_cell_value_is_a_data_error(tmp_path, stored, expected):
+    wb = openpyxl.Workbook()
+    wb.active.append(["a"])
+    wb.active.append([1.5])
+    data = _patched(save(tmp_path, wb), "xl/worksheets/sheet1.xml",
+                    lambda body: body.replace(b"<v>1.5</v>", b"<v>" + stored + b"</v>"))
+    with pytest.raises(DataError) as info:
+        read_workbook(data, "run-3.xlsx", required=("a",)).numbers("a", ".")
+    assert str(info.value) == expected
+
+
+def test_a_corrupt_workbook_part_is_a_data_error(tmp_path):
+    wb, _ = results_book()
+    data = _patched(save(tmp_path, wb), "xl/workbook.xml", lambda body: b"garbage")
+    with pytest.raises(DataError) as info:
+        read(data)
+    assert str(info.value) == ("run-3.xlsx: is not a readable .xlsx workbook (ParseError: syntax error: "
+                               "line 1, column 0)")
