@@ -190,3 +190,32 @@ def test_number_rule_agrees_with_the_strict_parser(cell, decimal):
     if not parsed and too_large:
         return     # "1e999" is a number in form; its size is the loader's concern
     assert (_NUMBER[decimal].fullmatch(cell) is not None) == parsed
+
+
+_NAMES = st.lists(st.text(alphabet="abcdefghij_", min_size=1, max_size=6), min_size=2, max_size=4,
+                  unique=True)
+_DECIMALS = st.decimals(min_value=-1000, max_value=1000, places=3, allow_nan=False, allow_infinity=False)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_NAMES, st.data(), st.sampled_from(LEGAL))
+def test_a_table_written_in_a_dialect_is_detected_as_written(names, data, dialect):
+    """Property: any table with at least two named columns is read back in the dialect it was written in.
+
+    Expected values: the delimiter, decimal mark and numbers used to write the file.
+    """
+    delimiter, decimal = dialect
+    n_rows = data.draw(st.integers(min_value=1, max_value=6))
+    values = [[data.draw(_DECIMALS) for _ in names] for _ in range(n_rows)]
+    sep = CHARACTER[delimiter]
+    cells = [[format(v, "f").replace(".", decimal) for v in row] for row in values]
+    text = "\n".join([sep.join(names)] + [sep.join(row) for row in cells]) + "\n"
+    has_fraction = any(decimal in c for row in cells for c in row)
+    d = detect_dialect(text, "calibration.csv")
+    assert d.delimiter == delimiter
+    assert d.decimal_seen == has_fraction
+    if has_fraction:
+        assert d.decimal == decimal
+    table = read_table(text.encode(), "calibration.csv", delimiter=d.delimiter, required=tuple(names))
+    for j, name in enumerate(names):
+        assert table.numbers(name, d.decimal) == [float(row[j]) for row in values]

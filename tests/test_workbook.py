@@ -11,12 +11,15 @@ from __future__ import annotations
 
 import datetime
 import io
+import math
 import re
 import zipfile
 from decimal import Decimal
 
 import openpyxl
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from validator.csvdata import read_table
 from validator.errors import DataError, StudyError
@@ -315,7 +318,8 @@ def _patched(data: bytes, part: str, change) -> bytes:
 
 
 @pytest.mark.parametrize("stored,expected", [
-    (b"1e999", 'run-3.xlsx, sheet Sheet, cell A2: "inf" is not a finite number'),
+    (b"1e999", "run-3.xlsx, sheet Sheet, cell A2: the number is too large (the largest magnitude is "
+               "about 1.8e308)"),
     (b"abc", "run-3.xlsx, sheet Sheet: the sheet cannot be read after row 1 (ValueError: invalid literal "
              "for int() with base 10: 'abc')"),
 ])
@@ -337,3 +341,43 @@ def test_a_corrupt_workbook_part_is_a_data_error(tmp_path):
         read(data)
     assert str(info.value) == ("run-3.xlsx: is not a readable .xlsx workbook (ParseError: syntax error: "
                                "line 1, column 0)")
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.lists(st.floats(allow_nan=False, allow_infinity=False), min_size=1, max_size=20))
+def test_any_finite_float_written_reads_back_as_stored(tmp_path_factory, values):
+    """Property: a number cell comes back as the float of the text stored in the file.
+
+    openpyxl writes floats with 16 significant digits ("%.16g", openpyxl/compat/strings.py), so the
+    expected value is the float of that text: the reader adds no loss of its own.
+    """
+    wb = openpyxl.Workbook()
+    wb.active.append(["response"])
+    for v in values:
+        wb.active.append([v])
+    path = tmp_path_factory.mktemp("roundtrip") / "r.xlsx"
+    wb.save(path)
+    table = read_workbook(path.read_bytes(), "r.xlsx", required=("response",))
+    stored = [float("%.16g" % v) for v in values]
+    if all(math.isfinite(v) for v in stored):
+        assert table.numbers("response", ".") == stored
+    else:       # 16 digits of a value near the float limit round beyond it: refused, never inf
+        with pytest.raises(CellError, match=r"the number is too large"):
+            table.numbers("response", ".")
+
+
+@pytest.mark.parametrize("stored", ["2.2921523851807028e+16", "0.30000000000000004", "5e-324",
+                                    "-1.7976931348623157e+308", "123456789.12345679"])
+def test_seventeen_significant_digits_in_the_file_are_kept(tmp_path, stored):
+    """A value stored with 17 significant digits (as spreadsheet programs write them) is read exactly.
+
+    Expected value: Python's correctly rounded float() of the stored text.
+    """
+    wb = openpyxl.Workbook()
+    wb.active.append(["response"])
+    wb.active.append([1.5])
+    data = _patched(save(tmp_path, wb), "xl/worksheets/sheet1.xml",
+                    lambda body: body.replace(b"<v>1.5</v>", b"<v>" + stored.encode() + b"</v>"))
+    table = read_workbook(data, "r.xlsx", required=("response",))
+    assert table.numbers("response", ".") == [float(stored)]
+    assert table.columns["response"] == [repr(float(stored))]

@@ -145,9 +145,12 @@ class WorkbookTable(Table):
                     value = float(text)
                 except OverflowError:
                     value = math.inf
-                if not math.isfinite(value):
-                    raise self.error(f'"{show(text)}" is not a finite number', column=name, row=row,
-                                     value=text)
+                if math.isinf(value):      # the stored text was beyond the float range
+                    raise self.error("the number is too large (the largest magnitude is about 1.8e308)",
+                                     column=name, row=row, value=text)
+                if math.isnan(value):
+                    raise self.error('the cell holds "not a number" (NaN), not a finite number',
+                                     column=name, row=row, value=text)
                 out.append(value)
                 continue
             if kind == EMPTY:
