@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 from .errors import DataError, show
 
-__all__ = ["Dialect", "detect_dialect", "DELIMITERS", "DECIMALS"]
+__all__ = ["Dialect", "detect_dialect", "is_number", "DELIMITERS", "DECIMALS"]
 
 # the study's spelling -> the character in the file
 DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
@@ -97,8 +97,13 @@ class _Reading:
         return (self.header, self.records, tuple(values))
 
 
-def _is_number(cell: str, decimal: str) -> bool:
-    return _NUMBER[decimal].fullmatch(cell) is not None
+def is_number(cell: str, decimal: str) -> bool:
+    """True when ``cell`` (stripped) is one number written with ``decimal`` as decimal mark.
+
+    The form accepted by ``csvdata.parse_number`` (sign, digits, one decimal
+    mark, exponent), without its range check.
+    """
+    return _NUMBER[decimal].fullmatch(cell.strip()) is not None
 
 
 def _split(text: str, delimiter: str):
@@ -136,7 +141,7 @@ def _read(split, delimiter: str, decimal: str) -> _Reading:
     numeric, marked = [], []
     for j in range(len(header)):
         cells = [(line, r[j]) for r, line in zip(records, lines) if r[j] != ""]
-        is_numeric = bool(cells) and all(_is_number(c, decimal) for _, c in cells)
+        is_numeric = bool(cells) and all(is_number(c, decimal) for _, c in cells)
         numeric.append(is_numeric)
         mark = None
         if is_numeric:
@@ -279,16 +284,13 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
             # a column numeric only under the other mark contradicts this one
             other = "," if dec == "." else "."
             contradiction = None
+            # (with "," between fields a decimal comma cannot occur: "1,5" is two fields)
             if not (delim == "," and other == ","):
                 alt = _read(split, delim, other)
                 for j, name in enumerate(alt.header):
                     if alt.numeric[j] and not reading.numeric[j] and alt.marked[j]:
                         contradiction = (name, alt.marked[j])
                         break
-            else:
-                # with "," between fields a decimal comma cannot occur; cells
-                # such as "1,5" were already split into two fields
-                pass
             if contradiction is None:
                 readings.append(reading)
             else:

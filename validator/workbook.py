@@ -29,11 +29,12 @@ import math
 import re
 import warnings
 import zipfile
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date, datetime, time, timedelta
 from xml.etree import ElementTree
 
 from .csvdata import DEFAULT_MAX_ROWS, MAX_NAME_LENGTH, Table, exact_centre
+from .dialect import is_number
 from .errors import DataError, escape_control, shorten, show
 
 __all__ = ["WorkbookTable", "CellError", "read_workbook", "sniff_workbook", "workbook_instead_of_csv",
@@ -119,8 +120,8 @@ class WorkbookTable(Table):
 
     sheet: str = ""
     header_row: int = 1
-    letters: dict = None
-    kinds: dict = None
+    letters: dict = field(default_factory=dict)
+    kinds: dict = field(default_factory=dict)
 
     def cell(self, name: str, row: int) -> str:
         """The cell reference of column ``name`` in sheet row ``row`` (``"D14"``)."""
@@ -186,9 +187,7 @@ class WorkbookTable(Table):
 
 
 def _looks_numeric(text: str) -> bool:
-    from .dialect import _NUMBER_COMMA, _NUMBER_POINT
-    s = text.strip()
-    return bool(_NUMBER_POINT.fullmatch(s) or _NUMBER_COMMA.fullmatch(s))
+    return is_number(text, ".") or is_number(text, ",")
 
 
 def sniff_workbook(data: bytes) -> str | None:
