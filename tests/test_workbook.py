@@ -142,6 +142,15 @@ def test_a_formula_with_a_saved_value_gives_that_value(tmp_path):
     assert table.numbers("response", ".")[3] == 0.1      # the saved value, 5.0 * 0.02 in decimal
 
 
+def test_a_formula_whose_saved_result_is_empty_text_is_an_empty_cell(tmp_path):
+    wb, ws = results_book()
+    ws["D7"] = '=""'
+    data = _patched(save(tmp_path, wb), "xl/worksheets/sheet1.xml",
+                    lambda body: body.replace(b'<c r="D7"><f>""</f><v /></c>',
+                                              b'<c r="D7" t="str"><f>""</f><v></v></c>'))
+    assert message(data, header_row=3) == "run-3.xlsx, sheet Results, cell D7: the cell is empty"
+
+
 def test_merged_cells_in_the_data_area(tmp_path):
     wb, ws = results_book()
     ws.merge_cells("B5:B6")

@@ -297,7 +297,8 @@ def _scan_sheet(source, file: str, sheet: str):
             if element.tag == _CELL:
                 if element.find(_FORMULA) is not None:
                     v = element.find(_VALUE)
-                    if v is None or v.text is None:
+                    # a saved empty text result is <v></v> in a cell of type "str"
+                    if v is None or (not v.text and element.get("t") != "str"):
                         uncalculated.append(element.get("r"))
                 element.clear()
             elif element.tag == _MERGE_CELL:
@@ -387,6 +388,8 @@ def read_workbook(data: bytes, file: str, *, required: tuple, optional: tuple = 
     if header_row is not None and (isinstance(header_row, bool) or not isinstance(header_row, int)
                                    or header_row < 1):
         raise ValueError(f"header_row must be an integer of at least 1; got {header_row!r}")
+    if sheet is not None and not isinstance(sheet, str):
+        raise ValueError(f"sheet must be a sheet name (text) or None; got {sheet!r}")
     if max_rows < 1 or max_unpacked_bytes < 1:
         raise ValueError(f"max_rows and max_unpacked_bytes must be at least 1; got {max_rows!r}, "
                          f"{max_unpacked_bytes!r}")
