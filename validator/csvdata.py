@@ -186,6 +186,10 @@ def read_bytes(path: Path, shown: str, max_bytes: int = DEFAULT_MAX_BYTES) -> by
 
 def decode_text(data: bytes, shown: str) -> str:
     """Decode UTF-8 (with or without BOM), naming the byte offset of a bad byte."""
+    from .workbook import workbook_instead_of_csv      # a workbook is binary: say what it is
+    workbook = workbook_instead_of_csv(data, shown)
+    if workbook is not None:
+        raise workbook
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
