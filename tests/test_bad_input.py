@@ -138,8 +138,10 @@ def test_ten_million_rows_is_refused(make_study, tmp_path, capsys):
 def test_single_replicates_make_tests_not_applicable(make_study, outside):
     import json
     study = make_study(CALIB, {"calibration.csv": "concentration,response\n1,2.01\n2,3.98\n4,8.03\n8,15.96\n"})
-    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 0
+    # not shown is not passed: the lack-of-fit criterion cannot be evaluated, so the run is INCOMPLETE (exit 1)
+    assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json"]) == 1
     a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["verdict"] == "incomplete"
     assert a["calibration"]["lack_of_fit"] is None
     assert {"item": "lack_of_fit", "reason": "no concentration is replicated, so there is no pure error"} \
         in a["not_applicable"]

@@ -122,3 +122,19 @@ def test_python_dash_m(make_study, tmp_path):
     proc = subprocess.run([sys.executable, "-m", "validator", "check", str(study)],
                           capture_output=True, text=True)
     assert proc.returncode == 0 and "is valid" in proc.stdout
+
+
+def test_not_applicable_criterion_makes_the_run_incomplete_not_a_pass(make_study, outside, capsys):
+    # "not shown is not passed": no replicate, so lack of fit cannot be tested; nothing failed,
+    # but the run is INCOMPLETE (exit 1), and the dossier's cover says so
+    study = make_study(files={"calibration.csv": "concentration,response\n1,2.01\n2,3.98\n4,8.03\n8,15.96\n"})
+    out = outside / "o"
+    code, stdout, err = run(capsys, "run", study, "--out", out, "--format", "json,html")
+    assert (code, err) == (1, "")
+    assert stdout == (f"validator: INCOMPLETE: 1 analyte(s), 0 criterion/criteria not met, 1 not applicable; "
+                      f"output in {out}\n")
+    results = json.loads((out / "results.json").read_text())
+    jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
+    assert results["verdict"] == results["analytes"][0]["verdict"] == "incomplete"
+    assert "INCOMPLETE: no criterion failed, but not every criterion could be evaluated" in \
+        (out / "dossier.html").read_text()

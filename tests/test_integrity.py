@@ -121,8 +121,10 @@ def test_no_numpy_warning_reaches_the_user(make_study, outside):
     study = make_study(files={"calibration.csv": "concentration,response\n1,2\n2,4\n3,6\n4,8\n1,2\n"})
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json,html"]) == 0
+        # lack of fit cannot be tested on an exact fit: not applicable, so the run is INCOMPLETE (exit 1)
+        assert main(["run", str(study), "--out", str(outside / "o"), "--format", "json,html"]) == 1
     a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["verdict"] == "incomplete"
     assert any("exact" in d for d in a["diagnostics"])
     assert a["calibration"]["normality"] is None
 

@@ -39,7 +39,8 @@ def test_missing_value_or_limit_is_never_judged(value, limit, passed, note):
         assert c.note.startswith("not applicable: ") and len(c.note) > len("not applicable: ")
     else:
         assert c.passed is bool(passed) and type(c.passed) is bool
-    assert overall_verdict([c]) == ("fail" if c.passed is False else "pass")
+    # common practice, no published source: only an evaluated and met criterion can make a pass
+    assert overall_verdict([c]) == {False: "fail", None: "incomplete", True: "pass"}[c.passed]
 
 
 @settings(max_examples=300, deadline=None)
@@ -111,3 +112,16 @@ def test_every_criterion_of_the_demo_studies_is_consistent():
                     assert _exists(c.value) and _exists(c.limit), c
                 else:
                     assert c.note.startswith("not applicable"), c
+
+
+def test_overall_verdict_needs_every_criterion_shown():
+    # "not shown is not passed": a run with a not-applicable criterion and none failed is incomplete,
+    # never a pass; any failure wins; no criterion at all is not a pass either
+    met = Criterion("a", "d", 1.0, 2.0, True)
+    missing = Criterion("b", "d", None, 2.0, True)
+    unmet = Criterion("c", "d", 3.0, 2.0, False)
+    assert missing.passed is None
+    assert overall_verdict([met]) == "pass"
+    assert overall_verdict([met, missing]) == "incomplete"
+    assert overall_verdict([met, missing, unmet]) == "fail"
+    assert overall_verdict([]) == "incomplete"

@@ -162,12 +162,23 @@ def _previous_output(lab, capsys, name="out") -> Path:
     return out
 
 
+def _users_folder_with_a_look_alike_manifest(o: Path) -> None:
+    for name in ("results.json", "manifest.json"):
+        (o / name).unlink()
+    (o / "data.csv").write_text("x,y\n1,2\n")
+    (o / "manifest.json").write_text(json.dumps({"files": [{"file": "data.csv", "sha256": "0" * 64, "bytes": 9}]}))
+
+
 @pytest.mark.parametrize("spoil, why", [
     (lambda o: (o / "signed.txt").write_text("mine"), 'holds "signed.txt", which validator did not write'),
     (lambda o: (o / "sub").mkdir(), 'holds "sub", which validator did not write'),
     (lambda o: (o / "manifest.json").write_text('{"written_by": "someone", "files": []}'),
      "its manifest.json was not written by validator"),
     (lambda o: (o / "manifest.json").unlink(), "holds no readable manifest.json written by validator"),
+    # hostile-test finding: a user's folder with a look-alike manifest (no validator mark, wrong hash)
+    (lambda o: _users_folder_with_a_look_alike_manifest(o), 'holds "data.csv", which validator did not write'),
+    (lambda o: (o / "results.json").write_text("edited by hand"),
+     'its file "results.json" has changed since validator wrote it'),
 ])
 def test_force_replaces_only_a_previous_validator_output(lab, capsys, spoil, why):
     out = _previous_output(lab, capsys)
@@ -256,6 +267,18 @@ def test_stale_partial_folders_are_removed_only_if_ours(lab, capsys):
     assert code == 0, err
     assert not ours.exists()
     assert all((f / "keep.txt").read_text() == "keep" for f in foreign)
+
+
+def test_a_stale_partial_folder_holding_a_users_file_is_left_alone(lab, capsys):
+    # hostile-test finding: a partial folder with our manifest but also a file validator never writes
+    outputs = lab / "outputs"
+    partial = outputs / ".out.partial-abcdefgh"
+    partial.mkdir()
+    integrity.start_manifest(partial)
+    (partial / "thesis.docx").write_text("months of work")
+    code, _, err = _run(capsys, lab / "study" / "study.toml", "--out", outputs / "out", "--format", "json")
+    assert code == 0, err
+    assert (partial / "thesis.docx").read_text() == "months of work"
 
 
 def test_killed_between_renames_the_old_output_is_restored(lab, capsys, monkeypatch):
@@ -394,3 +417,28 @@ def test_folders_of_a_linked_study_and_of_its_target_are_both_protected(lab, cap
     for where in ("linked/o", "study/o"):
         code, _, err = _run(capsys, lab / "linked" / "study.toml", "--out", lab / where)
         assert code == 2 and "lies inside the folder of the input" in err
+
+
+def test_figure_workers_end_with_a_killed_run_and_free_the_folder(lab, capsys):
+    # hostile-test finding: forked figure workers outlived a killed run, kept the output folder's
+    # lock and refused every later run into it. They now end with the run.
+    import time
+    from conftest import REPO as repo
+    demo = repo / "example_studies" / "anions-drinking-water" / "study.toml"      # two analytes: two workers
+    out = lab / "outputs" / "killed"
+    proc = _popen(["run", str(demo), "--out", str(out), "--format", "html"])
+    kids = []
+    deadline = time.monotonic() + 60
+    while time.monotonic() < deadline and len(kids) < 2 and proc.poll() is None:
+        ps = subprocess.run(["ps", "--ppid", str(proc.pid), "-o", "pid="], capture_output=True, text=True)
+        kids = [int(p) for p in ps.stdout.split()]
+        time.sleep(0.05)
+    assert len(kids) >= 2, "the run never started its figure workers"
+    proc.send_signal(signal.SIGKILL)
+    proc.wait()
+    time.sleep(2)
+    alive = [k for k in kids if os.path.exists(f"/proc/{k}") and
+             "Z" not in open(f"/proc/{k}/stat").read().split()[2]]
+    assert alive == []
+    code, _, err = _run(capsys, lab / "study" / "study.toml", "--out", out, "--format", "json")
+    assert code == 0, err

@@ -19,6 +19,8 @@ from validator.results import load_schema
 
 REPO = Path(__file__).resolve().parents[1]
 SERIALISER = REPO / "validator" / "results.py"
+# other functions whose dictionaries results.py writes as they are: (file, function)
+WRITERS = [(REPO / "validator" / "signing.py", "operator_and_host")]
 DOCS = (REPO / "docs" / "results.md").read_text(encoding="utf-8")
 # maps keyed by data, not by field name: library names, coefficient names
 DATA_KEYED = {"libraries", "coefficients"}
@@ -60,6 +62,11 @@ def written_keys() -> set:
         if (isinstance(node, ast.Subscript) and isinstance(node.ctx, ast.Store)
                 and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, str)):
             keys.add(node.slice.value)
+    for path, name in WRITERS:
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        function = next(n for n in tree.body if getattr(n, "name", "") == name)
+        keys.update(k.value for n in ast.walk(function) if isinstance(n, ast.Dict)
+                    for k in n.keys if isinstance(k, ast.Constant) and isinstance(k.value, str))
     return {k for k in keys if "." not in k}        # dotted keys are not_applicable paths, not fields
 
 

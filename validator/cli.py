@@ -1,4 +1,4 @@
-"""Command line: ``validator run``, ``validator check``.
+"""Command line: ``validator run``, ``check``, ``verify``, ``keygen``, ``sign``, ``qualify``.
 
 Errors the user can fix (:class:`~validator.errors.ValidatorError`) are caught
 here and only here: one line on stderr, exit code 2, no traceback.
@@ -91,10 +91,11 @@ def _cmd_run(args) -> int:
         write_manifest(folder)
 
     _write_outputs(target, args.out, args.force, write)
-    failed = [c for a in results["analytes"] for c in a["criteria"] if c["pass"] is False]
+    judged = [c["pass"] for a in results["analytes"] for c in a["criteria"]]
     print(f"validator: {results['verdict'].upper()}: {len(results['analytes'])} analyte(s), "
-          f"{len(failed)} criterion/criteria not met; output in {args.out}")
-    return 1 if results["verdict"] == "fail" else 0
+          f"{judged.count(False)} criterion/criteria not met, {judged.count(None)} not applicable; "
+          f"output in {args.out}")
+    return 0 if results["verdict"] == "pass" else 1
 
 
 def _cmd_check(args) -> int:
@@ -110,14 +111,54 @@ def _cmd_check(args) -> int:
 
 def _cmd_verify(args) -> int:
     from .inputs.integrity import verify
+    from .signing import check_signature, what_it_proves
 
     problems = verify(Path(args.folder), args.study)
-    if problems:
-        for p in problems:
-            print(f"validator: CHANGED: {p}")
-        return 1
-    print(f"validator: {args.folder} is intact: every output and input matches its recorded SHA-256")
+    signature = check_signature(args.folder, args.public_key)
+    for p in problems:
+        print(f"validator: CHANGED: {p}")
+    for p in signature.problems:
+        print(f"validator: SIGNATURE: {p}")
+    if signature.present:
+        print(f"validator: signature by key {signature.key_fingerprint}: "
+              f"{'valid' if signature.valid else 'NOT VALID'}; signed {signature.signed_at} "
+              f"by {signature.operator} on {signature.host} (as recorded in the signature)")
+    elif args.public_key is not None:
+        print("validator: SIGNATURE: the folder is not signed, so it cannot show it was signed by the key given")
+    if not problems:
+        inputs = ("every output and input matches its recorded SHA-256" if args.study is not None else
+                  "every output matches its recorded SHA-256 (the inputs were not checked; add "
+                  "--study STUDY.toml to check them too)")
+        print(f"validator: {args.folder} is intact: {inputs}")
+    if signature.present or args.public_key is not None or not problems:   # else the CHANGED lines say it
+        print(f"validator: what this proves: {what_it_proves(signature, not problems)}")
+    return 1 if problems or signature.problems or signature.trusted is False else 0
+
+
+def _cmd_keygen(args) -> int:
+    from .signing import keygen
+
+    print(f"validator: wrote private key {args.keyfile} (keep it secret) and public key "
+          f"{args.keyfile}.pub; key fingerprint {keygen(args.keyfile)}")
     return 0
+
+
+def _cmd_sign(args) -> int:
+    signed_at = run_timestamp()
+    from .signing import SIGNATURE, sign
+
+    statement = sign(args.folder, args.key, signed_at=signed_at)
+    print(f"validator: signed {args.folder} ({SIGNATURE}) with key {statement['key_fingerprint']} "
+          f"at {signed_at}")
+    return 0
+
+
+def _cmd_qualify(args) -> int:
+    generated_at = run_timestamp()
+    from .qualification import qualify
+
+    return qualify(args.out, cases=args.cases, force=args.force, generated_at=generated_at,
+                   formats=_formats(args.format))
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -140,11 +181,28 @@ def build_parser() -> argparse.ArgumentParser:
     ver = sub.add_parser("verify", help="check that an output folder still matches its data")
     ver.add_argument("folder")
     ver.add_argument("--study", help="also re-hash the inputs named by this study file")
+    ver.add_argument("--public-key", help="a public key file (from keygen): the folder must be signed by it")
     ver.set_defaults(func=_cmd_verify)
+    keygen = sub.add_parser("keygen", help="make an Ed25519 key pair for signing output folders")
+    keygen.add_argument("keyfile", help="private key file to create (mode 0600); the public key goes "
+                        "to KEYFILE.pub; existing files are never overwritten")
+    keygen.set_defaults(func=_cmd_keygen)
+    sign = sub.add_parser("sign", help="sign an intact output folder (adds signature.json)")
+    sign.add_argument("folder")
+    sign.add_argument("--key", required=True, help="the private key file (from keygen)")
+    sign.set_defaults(func=_cmd_sign)
+    qual = sub.add_parser("qualify", help="run the reference cases shipped with validator and write "
+                          "a qualification report")
+    qual.add_argument("--out", required=True, help="output folder (the same rules as for run)")
+    qual.add_argument("--cases", help="a case file to use instead of the shipped one (TOML)")
+    qual.add_argument("--format", default="html,pdf,json", help="any of html,pdf,json (default all)")
+    qual.add_argument("--force", action="store_true",
+                      help="replace a previous validator output at --out (nothing else)")
+    qual.set_defaults(func=_cmd_qualify)
     return parser
 
 
-_POSITIONAL = {"study": "STUDY", "folder": "FOLDER"}
+_POSITIONAL = {"study": "STUDY", "folder": "FOLDER", "keyfile": "KEYFILE"}
 
 
 def _check_arguments(args) -> None:

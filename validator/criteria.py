@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 __all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_criteria",
            "precision_level_criteria", "reference_material_criterion", "loq_criterion", "comparison_criteria",
-           "overall_verdict", "at_least", "at_most", "interval_within", "missing"]
+           "overall_verdict", "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
 
 
 def _finite(v) -> bool:
@@ -128,6 +128,14 @@ def calibration_criteria(cal, crit) -> tuple:
         frac, crit.min_fraction_within_tolerance, at_least(frac, crit.min_fraction_within_tolerance),
         ("outside tolerance at nominal " + ", ".join(f"{b.nominal:g}" for b in bad)) if bad else
         ("" if frac is not None else "not applicable: no calibrator with a non-zero nominal value")))
+    ratio = cal.sensitivity_ratio
+    out.append(Criterion(
+        "monotonic", "calibration function monotonic over the calibrated range: slope at its flatter end "
+        "over slope at its steeper end greater than 0", ratio, 0.0,
+        None if ratio is None else ratio > 0,
+        "not applicable: the slope is zero at both ends of the range" if ratio is None else
+        ("" if ratio > 0 else "the curve turns over inside the calibrated range: some responses "
+         "correspond to two concentrations")))
     if crit.r_squared_min is not None:
         r2 = cal.fit.r_squared
         out.append(Criterion("r-squared", f"coefficient of determination R² at least {crit.r_squared_min:g}",
@@ -137,9 +145,30 @@ def calibration_criteria(cal, crit) -> tuple:
     return tuple(out)
 
 
+def working_range_criterion(wr) -> Criterion:
+    """A working range must remain and hold at least one calibrator level that passes back-calculation.
+
+    It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
+    to nothing: the method was then not shown to quantify anything.
+    # common practice, no published source: the rule that a range holds a passing calibrator
+    """
+    return Criterion("working-range", "working range remains and holds at least 1 calibrator level that passes "
+                     "back-calculation", wr.passing_levels, 1, at_least(wr.passing_levels, 1),
+                     "" if wr.low is not None else wr.basis)
+
+
 def overall_verdict(criteria) -> str:
-    """"fail" if any criterion is not met, else "pass"."""
-    return "fail" if any(c.passed is False for c in criteria) else "pass"
+    """"pass" only when every criterion was evaluated and met.
+
+    "fail" when any criterion is not met; "incomplete" when none failed but at
+    least one could not be evaluated on these data (not applicable), or there
+    is no criterion at all: what was not shown is not passed.
+    """
+    if any(c.passed is False for c in criteria):
+        return "fail"
+    if not criteria or any(c.passed is None for c in criteria):
+        return "incomplete"
+    return "pass"
 
 
 def recovery_criteria(recovery) -> tuple:

@@ -14,7 +14,8 @@ from scipy import stats
 from ._common import quiet_numpy
 from .characteristics.calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
-                       overall_verdict, precision_level_criteria, recovery_criteria, reference_material_criterion)
+                       overall_verdict, precision_level_criteria, recovery_criteria, reference_material_criterion,
+                       working_range_criterion)
 from .characteristics.detection import DetectionResult, assess_detection
 from .characteristics.precision import PrecisionLevel, assess_precision_level
 from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
@@ -200,6 +201,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         criteria.append(loq_criterion(loq_check))
     wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
                        concentration_unit)
+    criteria.append(working_range_criterion(wr))
     comparison = reval = None
     if data.comparison is not None:
         cc = config.comparison
@@ -215,6 +217,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
         criteria += _revalidation_criteria(reval, rc)
+    elif config.revalidation is not None:       # a re-validation in which this analyte has no counterpart
+        margin = config.revalidation.slope_change_max_pct
+        criteria.append(Criterion(
+            "slope-equivalence", f"slope change inside ±{margin:g} % of the previous validation", None,
+            [-margin, margin], None, "not applicable: the previous results have no analyte matching this one "
+            "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared"))
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
                          criteria=tuple(criteria), bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=detection,

@@ -47,8 +47,8 @@ import time
 from contextlib import contextmanager
 from pathlib import Path
 
-from .errors import OutputError
-from .inputs.integrity import MANIFEST, WRITTEN_BY, read_manifest, start_manifest
+from .errors import OutputError, show
+from .inputs.integrity import MANIFEST, SIGNATURE, WRITTEN_BY, read_manifest, sha256_file, start_manifest
 
 __all__ = ["check_target", "check_existing", "write_output_folder", "remove_own_folder"]
 
@@ -84,6 +84,11 @@ def check_target(out: str, input_files, *, cwd: Path | None = None) -> Path:
     ``input_files`` are the paths of every input (study file and data files), as given or
     resolved; the folder holding each (and, for a link, the folder of its target) is protected.
     """
+    if not str(out).strip():
+        raise OutputError("--out is empty; name the output folder", path=str(out))
+    if str(out).startswith("~"):
+        raise OutputError(f'{show(str(out))}: "~" is not expanded by validator (it would make a folder named "~"); '
+                          "give the folder's full path", path=str(out))
     try:
         return _check_target(str(out), input_files, cwd)
     except (OSError, RuntimeError) as exc:      # a link loop, a name too long, no permission ...
@@ -134,19 +139,41 @@ def _check_target(shown: str, input_files, cwd: Path | None) -> Path:
     return target
 
 
+# the only files validator itself writes into an output folder
+OUTPUT_NAMES = frozenset({"results.json", "dossier.html", "dossier.pdf", "qualification.json",
+                          "qualification.html", "qualification.pdf", MANIFEST})
+
+
+def _foreign_file(folder: Path, listed=OUTPUT_NAMES) -> str | None:
+    """The first entry of ``folder`` that is not a regular file named in ``listed``, if any."""
+    with os.scandir(folder) as it:
+        for d in sorted(it, key=lambda d: d.name):
+            if d.name not in listed or not d.is_file(follow_symlinks=False):
+                return d.name
+    return None
+
+
 def _not_previous_output(folder: Path) -> str | None:
-    """Why ``folder`` is not a previous validator output, or ``None`` if it is one."""
+    """Why ``folder`` is not an unchanged previous validator output, or ``None`` if it is one.
+
+    Every file must be one validator writes, listed in the manifest with the
+    size and SHA-256 it has now: a folder whose files were edited, or whose
+    manifest only looks like ours, is never replaced.
+    """
     try:
         manifest = read_manifest(folder)
     except OutputError:
         return f"holds no readable {MANIFEST} written by validator"
     if manifest.written_by != WRITTEN_BY and not manifest.legacy_shape:
         return f"its {MANIFEST} was not written by validator"
-    listed = {e.file for e in manifest.entries} | {MANIFEST}
-    with os.scandir(folder) as it:
-        for d in sorted(it, key=lambda d: d.name):
-            if d.name not in listed or not d.is_file(follow_symlinks=False):
-                return f'holds "{d.name}", which validator did not write'
+    listed = {e.file for e in manifest.entries if e.file in OUTPUT_NAMES} | {MANIFEST}
+    foreign = _foreign_file(folder, listed)
+    if foreign is not None:
+        return f'holds "{show(foreign)}", which validator did not write'
+    for e in manifest.entries:
+        p = folder / e.file
+        if p.stat().st_size != e.bytes or sha256_file(p) != e.sha256:
+            return f'its file "{show(e.file)}" has changed since validator wrote it'
     return None
 
 
@@ -161,6 +188,9 @@ def check_existing(target: Path, shown: str, force: bool) -> None:
     if not force:
         raise OutputError(f"{shown}: output folder exists; choose another --out or add --force",
                           path=shown)
+    if os.path.lexists(target / SIGNATURE):
+        raise OutputError(f"{shown}: holds a signed output ({SIGNATURE}); a signed record is never replaced, "
+                          "not even with --force; choose another --out", path=shown)
     why = _not_previous_output(target)
     if why:
         raise OutputError(f"{shown}: {why}; --force replaces only a previous validator output",
@@ -168,11 +198,14 @@ def check_existing(target: Path, shown: str, force: bool) -> None:
 
 
 def _ours(folder: Path) -> bool:
-    """An empty folder, or one whose manifest validator wrote (older manifests included)."""
+    """An empty folder, or one whose manifest validator wrote (older manifests included) and
+    that holds nothing but files validator writes: a partial or aside folder is deleted only then."""
     try:
         if not any(folder.iterdir()):
             return True
         manifest = read_manifest(folder)
+        if _foreign_file(folder) is not None:
+            return False
     except (OSError, OutputError):
         return False
     return manifest.written_by == WRITTEN_BY or manifest.legacy_shape

@@ -18,6 +18,7 @@ import numpy as np
 
 from ._common import finite_or_none as num
 from . import __version__
+from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
 
@@ -111,6 +112,7 @@ def _calibration(a):
              "deviation_pct": num(b.deviation_pct), "tolerance_pct": num(b.tolerance_pct),
              "pass": b.passed} for b in cal.back_calculated],
         "fraction_within_tolerance": num(cal.fraction_within_tolerance),
+        "sensitivity_ratio": num(cal.sensitivity_ratio),
         "residuals": [num(v) for v in fit.residuals],
     }
 
@@ -165,6 +167,7 @@ def _known_reasons(a) -> dict:
                                    if fit.exact else "needs at least one residual degree of freedom after "
                                    "leaving a point out (n - p - 1 >= 1)")
     out["calibration.fraction_within_tolerance"] = "no calibrator with a non-zero nominal value"
+    out["calibration.sensitivity_ratio"] = "the slope of the calibration function is zero at both ends of the range"
     for i, b in enumerate(cal.back_calculated):
         if b.nominal == 0:
             out[f"calibration.back_calculated.{i}"] = ("nominal 0: the % deviation is not defined and the "
@@ -417,7 +420,8 @@ def _analyte(a, previous=None):
              "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
         "detection": _detection(a),
-        "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis},
+        "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis,
+                          "passing_levels": wr.passing_levels},
         "recovery": _recovery(a.recovery),
         "precision": _precision(a.precision),
         "reference_material": _reference_material(a.reference_material),
@@ -441,6 +445,7 @@ def build_results(result, *, generated_at: str) -> dict:
         "tool": {"name": "validator", "version": __version__, "libraries": library_versions(),
                  "platform": platform.platform()},
         "generated_at": generated_at,
+        "run": operator_and_host(),
         "study": {"id": cfg.id, "title": cfg.title, "purpose": cfg.purpose,
                   "concentration_unit": cfg.concentration_unit, "response_unit": cfg.response_unit,
                   "analyst": cfg.analyst, "reviewer": cfg.reviewer, "instrument": cfg.instrument,

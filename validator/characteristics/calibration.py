@@ -108,6 +108,28 @@ class CalibrationResult:
     diagnostics: tuple[str, ...]   # sentences about degenerate data
     mandel_weighting: str | None = None   # the weighting Mandel's test was computed under
     choice_steps: tuple[ChoiceStep, ...] = ()       # in the order they were taken
+    sensitivity_ratio: float | None = None   # see :func:`sensitivity_ratio`
+
+
+def sensitivity_ratio(fit: PolynomialFit) -> float | None:
+    """Slope of the fitted function at its flatter end of the calibrated range over that at its steeper end.
+
+    Notes
+    -----
+    r = f'(x_a) / f'(x_b), with x_a, x_b the lowest and highest calibrator and
+    b the end with the larger |f'|. r = 1 for a straight line; for a quadratic,
+    whose derivative is linear in x, r > 0 exactly when the vertex lies outside
+    the calibrated range, i.e. the function keeps rising (or keeps falling)
+    from the lowest to the highest calibrator and every response in the range
+    has one concentration. r <= 0: the curve turns over inside the range.
+    ``None`` when the slope is zero at both ends.
+    """
+    ends = [float(fit.slope_at(float(v))) for v in (fit.x.min(), fit.x.max())]
+    steep = max(ends, key=abs)
+    if steep == 0 or not np.isfinite(steep):
+        return None
+    flat = min(ends, key=abs)
+    return float(flat / steep)
 
 
 def _levels(x):
@@ -162,8 +184,11 @@ def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResul
     n = x.size
     if np.unique(x).size < 3 or n < 4:
         return not_applicable(method, "needs at least 3 distinct concentrations and 4 points")
-    lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
-    quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
+    try:
+        lin = fit_polynomial(x, y, model="linear", weighting=weighting, alpha=alpha)
+        quad = fit_polynomial(x, y, model="quadratic", weighting=weighting, alpha=alpha)
+    except ValueError as exc:      # e.g. levels so unevenly spaced that the quadratic is numerically singular
+        return not_applicable(method, f"the quadratic cannot be fitted to these concentrations ({exc})")
     if quad.exact:
         return not_applicable(method, "the quadratic fits exactly (zero residual SD)")
     ds2 = (n - 2) * lin.residual_variance - (n - 3) * quad.residual_variance
@@ -433,7 +458,8 @@ def analyse_calibration(x, y, *, model: str = "linear", weighting: str = "none",
             intercept_test=_intercept_test(fit), back_calculated=back,
             fraction_within_tolerance=fraction, outliers=outliers,
             studentised_limit=t_limit, cooks_limit=d_limit, diagnostics=tuple(diagnostics),
-            mandel_weighting=mandel_wt if mandel.applicable else None, choice_steps=tuple(steps))
+            mandel_weighting=mandel_wt if mandel.applicable else None, choice_steps=tuple(steps),
+            sensitivity_ratio=sensitivity_ratio(fit))
     return result
 
 

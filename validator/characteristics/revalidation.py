@@ -206,16 +206,15 @@ def joint_comparison(previous: PolynomialFit, current: PolynomialFit, margin_pct
     s2_pooled = sum(ssr) / df
     run_s = [float(np.sqrt(s / (f.n - p))) for s, f in zip(ssr, fits)]
     quadratic = 2 in previous.powers
-    if quadratic:
-        low = max(float(previous.x.min()), float(current.x.min()))
-        high = min(float(previous.x.max()), float(current.x.max()))
-        if not high > low:
-            slope = SlopeComparison(None, None, None, None, None, df, None, margin_pct, "not applicable",
-                                    "mean sensitivity", None, "joint fit",
-                                    "the two calibrated ranges do not overlap, so no common range exists "
-                                    "over which to compare the sensitivity of the curves")
-            return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
-    else:
+    low = max(float(previous.x.min()), float(current.x.min()))
+    high = min(float(previous.x.max()), float(current.x.max()))
+    if not high > low:      # a straight line's slope, too, is only compared over a range both runs calibrated
+        slope = SlopeComparison(None, None, None, None, None, df, None, margin_pct, "not applicable",
+                                "mean sensitivity" if quadratic else "slope", None, "joint fit",
+                                "the two calibrated ranges do not overlap, so no common range exists "
+                                "over which to compare the two calibration functions like with like")
+        return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
+    if not quadratic:
         low = high = None
     values, unscaled = [], []
     for f in fits:

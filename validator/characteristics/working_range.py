@@ -23,9 +23,17 @@ __all__ = ["WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq"
 
 @dataclass(frozen=True)
 class WorkingRange:
+    """The validated working range; ``low``/``high`` are ``None`` when no range remains.
+
+    ``passing_levels`` counts the distinct calibrator levels that pass
+    back-calculation and lie inside [low, high] (0 when no range remains): a
+    working range must hold at least one, else nothing in it was shown.
+    """
+
     low: float | None
     high: float | None
     basis: str
+    passing_levels: int = 0
 
 
 def working_range(back_calculated, loq, loq_method, failing_levels, assessed_levels, unit="") -> WorkingRange:
@@ -53,7 +61,8 @@ def working_range(back_calculated, loq, loq_method, failing_levels, assessed_lev
                 basis.append(f"high end lowered to {high:g} because {why} fails at {level:g}")
     if not np.isfinite(low) or not np.isfinite(high) or low >= high:
         return WorkingRange(None, None, "no range remains: " + "; ".join(basis))
-    return WorkingRange(float(low), float(high), "; ".join(basis))
+    inside = len({c for c in passing if low <= c <= high})
+    return WorkingRange(float(low), float(high), "; ".join(basis), inside)
 
 
 @dataclass(frozen=True)

@@ -33,6 +33,7 @@ __all__ = ["write_manifest", "start_manifest", "read_manifest", "verify", "sha25
            "Manifest", "WRITTEN_BY", "MANIFEST"]
 
 MANIFEST = "manifest.json"
+SIGNATURE = "signature.json"        # the one file a manifest does not list (validator.signing checks it)
 WRITTEN_BY = "validator"            # the value of "written_by" in every manifest we write
 MAX_FILE_BYTES = 1 << 30            # hard cap on any file verify reads (1 GiB)
 MAX_JSON_BYTES = 64 << 20           # manifest.json, results.json and the study file (64 MiB)
@@ -60,7 +61,7 @@ def start_manifest(folder: Path) -> None:
 
 def write_manifest(folder: Path) -> None:
     files = sorted(p for p in folder.iterdir()
-                   if p.is_file() and not p.is_symlink() and p.name != MANIFEST)
+                   if p.is_file() and not p.is_symlink() and p.name not in (MANIFEST, SIGNATURE))
     entries = [{"file": p.name, "sha256": sha256_file(p), "bytes": p.stat().st_size} for p in files]
     (folder / MANIFEST).write_text(_manifest_text(entries), encoding="utf-8")
 
@@ -202,7 +203,7 @@ def _check_outputs(folder: Path, manifest: Manifest) -> list:
     with os.scandir(folder) as it:
         found = sorted(it, key=lambda d: d.name)
     for d in found:
-        if d.name == MANIFEST or d.name in listed:
+        if d.name in (MANIFEST, SIGNATURE) or d.name in listed:
             continue
         if d.is_symlink():
             problems.append(f"output {d.name} is a symbolic link not in the manifest")

@@ -229,11 +229,12 @@ def read_previous(reader, analytes):
     if isinstance(version, str) and version.split(".")[0] != "1":       # other types: the schema names them
         raise DataError(f'has schema version "{version[:40]}"; this validator reads version 1.x', file=path)
     _check_schema(previous, path)
-    unit = previous["study"]["concentration_unit"]
-    current_unit = reader.study.config.study.concentration_unit
-    if unit != current_unit:
-        raise DataError(f'uses concentration unit "{unit}" but this study uses "{current_unit}"; '
-                        "results in different units cannot be compared", file=path)
+    for kind in ("concentration", "response"):
+        unit = previous["study"].get(f"{kind}_unit")
+        current_unit = getattr(reader.study.config.study, f"{kind}_unit")
+        if unit is not None and unit != current_unit:
+            raise DataError(f'uses {kind} unit "{show(unit)}" but this study uses "{show(current_unit)}"; '
+                            "results in different units cannot be compared", file=path)
     names = [a["name"] for a in previous["analytes"]]
     if len(set(names)) != len(names):
         dup = next(n for n in names if names.count(n) > 1)

@@ -71,8 +71,8 @@ Text = Annotated[str, AfterValidator(_printable)]
 
 
 def _text(key: str, required: bool = False):
-    if required:
-        return Field(min_length=1, max_length=TEXT_LIMITS[key])
+    if required:     # a required text must say something: blanks alone are refused
+        return Field(min_length=1, max_length=TEXT_LIMITS[key], pattern=r"\S")
     return Field("", max_length=TEXT_LIMITS[key])
 
 
@@ -473,5 +473,9 @@ def read_study_file(path: str | Path) -> StudyFile:
         config = StudyConfig.model_validate(data)
     except ValidationError as exc:
         raise _translate(exc, shown, text) from None
+    if config.study.purpose == "revalidation" and config.revalidation is None:
+        raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
+                         'results.json (previous = "..."); without it nothing would be compared',
+                         file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
                      config=config, defaults_applied=tuple(_defaults(config)))

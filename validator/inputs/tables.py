@@ -34,9 +34,9 @@ MAX_NAME_LENGTH = 100          # characters of an analyte name or sample id
 _CHUNK = 1024 * 1024
 
 _DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
-_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
-_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s.,+-].*)")
-_THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?")
+_NUMBER = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?", re.ASCII)   # ASCII digits only
+_NUMBER_THEN_TEXT = re.compile(r"([+-]?(\d+([.,]\d*)?|[.,]\d+)([eE][+-]?\d+)?)\s*([^\d\s.,+-].*)", re.ASCII)
+_THOUSANDS = re.compile(r"[+-]?\d{1,3}([,.' ]\d{3})+([.,]\d+)?", re.ASCII)
 
 
 @dataclass(frozen=True)
@@ -175,6 +175,10 @@ def read_bytes(path: Path, shown: str, max_bytes: int = DEFAULT_MAX_BYTES) -> by
 
 def decode_text(data: bytes, shown: str) -> str:
     """Decode UTF-8 (with or without BOM), naming the byte offset of a bad byte."""
+    from .workbook import workbook_instead_of_csv      # a workbook is binary: say what it is
+    workbook = workbook_instead_of_csv(data, shown)
+    if workbook is not None:
+        raise workbook
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:

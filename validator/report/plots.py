@@ -234,10 +234,31 @@ def analyte_figures(d: dict) -> dict:
         return figs
 
 
+def _die_with_parent(parent: int) -> None:
+    """Worker start-up: end this worker when the run that forked it ends, however it ends.
+
+    A forked worker inherits the run's open files, among them the lock on the
+    output folder; a worker outliving a killed run would keep that lock and
+    refuse every later run into the folder. Linux's PR_SET_PDEATHSIG sends the
+    worker SIGKILL when its parent dies; elsewhere the check below is the best
+    that can be done.
+    """
+    import ctypes
+    import signal
+
+    try:
+        ctypes.CDLL(None, use_errno=True).prctl(1, int(signal.SIGKILL), 0, 0, 0)   # PR_SET_PDEATHSIG = 1
+    except (OSError, AttributeError):
+        pass
+    if os.getppid() != parent:          # the parent died before the call above took effect
+        os._exit(1)
+
+
 def figures_for_all(plot_data: list) -> list:
     """Figures for every analyte; two processes when there are several analytes."""
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
-        with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork")) as pool:
+        with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
+                                 initializer=_die_with_parent, initargs=(os.getpid(),)) as pool:
             return list(pool.map(analyte_figures, plot_data))
     return [analyte_figures(d) for d in plot_data]

@@ -49,7 +49,7 @@ def level_label(level) -> str:
 
 # results.json verdict words -> met (True), not met (False), not applicable (None): the one
 # place the dossier reads a verdict word; a re-validation not shown equivalent is not met
-VERDICT_WORDS = {"pass": True, "fail": False, "not applicable": None,
+VERDICT_WORDS = {"pass": True, "fail": False, "not applicable": None, "incomplete": None,
                  "equivalent": True, "not shown equivalent": False, "different": False}
 
 
@@ -59,7 +59,12 @@ def met(verdict_word: str) -> bool | None:
 
 
 def verdict_label(passed) -> dict:
-    """Word and symbol for a verdict, never colour alone."""
+    """Word and symbol for a verdict, never colour alone.
+
+    ``passed`` is a criterion's True/False/None or an overall verdict string
+    ("pass", "fail", "incomplete").
+    """
+    passed = met(passed) if isinstance(passed, str) else passed
     if passed is True:
         return {"css": "met", "symbol": "✓", "word": "met"}
     if passed is False:

@@ -1,0 +1,255 @@
+"""Nested variance components (validator/variance_components.py); every expected value names its source."""
+
+from __future__ import annotations
+
+import math
+import warnings
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from conftest import reference_file
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from validator.maths.variance_components import (nested_variance_components, sum_of_mean_squares_interval,
+                                           verify_precision_claim, verify_precision_claims)
+
+# 2 days x 2 runs x 2 replicates of small integers (invented demo data, exact arithmetic below)
+DAY = [1, 1, 1, 1, 2, 2, 2, 2]
+RUN = [1, 1, 2, 2, 1, 1, 2, 2]
+Y = [10, 12, 15, 15, 20, 22, 19, 23]
+
+
+def test_balanced_three_stage_against_expected_mean_squares_by_hand():
+    # hand computation with fractions: cell means 11, 15, 21, 21; day means 13, 21; grand 17
+    ss_e = Fraction(2 + 0 + 2 + 8)                    # sum of squares within cells
+    ss_run = 2 * Fraction((11 - 13) ** 2 + (15 - 13) ** 2 + 0 + 0)
+    ss_day = 4 * Fraction((13 - 17) ** 2 + (21 - 17) ** 2)
+    ms_e, ms_run, ms_day = ss_e / 4, ss_run / 2, ss_day / 1
+    # E[MS_e] = s_e^2, E[MS_run] = s_e^2 + 2 s_run^2, E[MS_day] = s_e^2 + 2 s_run^2 + 4 s_day^2
+    s2_e, s2_run, s2_day = ms_e, (ms_run - ms_e) / 2, (ms_day - ms_run) / 4
+    got = nested_variance_components(Y, [DAY, RUN], names=("day", "run"))
+    assert got.method == "ANOVA" and got.balanced
+    assert [row.mean_square for row in got.anova] == [pytest.approx(float(v), rel=1e-14)
+                                                      for v in (ms_day, ms_run, ms_e)]
+    assert [c.variance for c in got.components] == [pytest.approx(float(v), rel=1e-14)
+                                                     for v in (s2_day, s2_run, s2_e)]
+    ip = got.intermediate_precision
+    assert ip.variance == pytest.approx(float(s2_day + s2_run + s2_e), rel=1e-14)
+    # Satterthwaite df of MS_day/4 + MS_run (1/2 - 1/4) + MS_e (1 - 1/2), hand computation
+    terms = [(ms_day / 4, 1), (ms_run / 4, 2), (ms_e / 2, 4)]
+    g = sum(t for t, _ in terms)
+    nu = g * g / sum(t * t / d for t, d in terms)
+    assert ip.df == pytest.approx(float(nu), rel=1e-13)
+
+
+def test_repeatability_interval_is_chi_square():
+    got = nested_variance_components(Y, [DAY, RUN], names=("day", "run"), confidence=0.90)
+    rep = got.repeatability
+    # hand computation: df s^2 / chi2 quantiles, 4 df, MS_e = 3
+    assert rep.ci_mls.low == pytest.approx(math.sqrt(4 * 3 / stats.chi2.ppf(0.95, 4)), rel=1e-13)
+    assert rep.ci_mls.high == pytest.approx(math.sqrt(4 * 3 / stats.chi2.ppf(0.05, 4)), rel=1e-13)
+    assert rep.ci_satterthwaite == rep.ci_mls and rep.ci_mls.level == 0.90
+
+
+def test_mls_single_mean_square_reduces_to_chi_square_and_hand_formula():
+    g, nu, satt, mls = sum_of_mean_squares_interval([1.0], [2.0], [5], 0.95)
+    exact = (5 * 2 / stats.chi2.ppf(0.975, 5), 5 * 2 / stats.chi2.ppf(0.025, 5))
+    assert satt == pytest.approx(exact, rel=1e-13) and mls == pytest.approx(exact, rel=1e-13)
+    # two mean squares: Graybill-Wang formula written out (Burdick and Graybill 1992, section 3.2)
+    c, ms, n = np.array([0.25, 0.75]), np.array([8.0, 2.0]), np.array([4.0, 15.0])
+    G = 1 - n / stats.chi2.ppf(0.975, n)
+    H = n / stats.chi2.ppf(0.025, n) - 1
+    gam = float(c @ ms)
+    low = gam - math.sqrt(float(np.sum((G * c * ms) ** 2)))
+    high = gam + math.sqrt(float(np.sum((H * c * ms) ** 2)))
+    assert sum_of_mean_squares_interval(c, ms, n)[3] == pytest.approx((low, high), rel=1e-13)
+
+
+def _simulate_nested(rng, days, runs, reps, sd_day, sd_run, sd_rep):
+    day = np.repeat(np.arange(days), runs * reps)
+    run = np.tile(np.repeat(np.arange(runs), reps), days)
+    y = (rng.normal(0, sd_day, days)[day] + rng.normal(0, sd_run, days * runs)[day * runs + run]
+         + rng.normal(0, sd_rep, day.size))
+    return y, day, run
+
+
+def _mixedlm(y, day, run):
+    import pandas as pd
+    import statsmodels.formula.api as smf
+    frame = pd.DataFrame({"y": y, "day": day, "run": run})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fit = smf.mixedlm("y ~ 1", frame, groups="day", re_formula="1",
+                          vc_formula={"run": "0 + C(run)"}).fit(reml=True)
+    return float(fit.cov_re.iloc[0, 0]), float(fit.vcomp[0]), float(fit.scale)
+
+
+def test_balanced_anova_equals_statsmodels_reml():
+    rng = np.random.default_rng(20261202)
+    y, day, run = _simulate_nested(rng, 5, 2, 3, 0.5, 0.3, 0.2)
+    got = nested_variance_components(y, [day, run], names=("day", "run"))
+    assert not any(c.set_to_zero for c in got.components)
+    # cross-check: statsmodels MixedLM (REML); with all ANOVA estimates positive they coincide
+    expected = _mixedlm(y, day, run)
+    assert [c.variance for c in got.components] == pytest.approx(expected, rel=1e-4)
+
+
+def test_unbalanced_reml_against_statsmodels():
+    rng = np.random.default_rng(7)
+    y, day, run = _simulate_nested(rng, 6, 2, 3, 0.5, 0.3, 0.2)
+    keep = np.ones(y.size, bool)
+    keep[[0, 7, 8, 20, 33]] = False
+    got = nested_variance_components(y[keep], [day[keep], run[keep]], names=("day", "run"))
+    assert got.method == "REML" and not got.balanced
+    # cross-check: statsmodels MixedLM, REML, variance components for run within day
+    expected = _mixedlm(y[keep], day[keep], run[keep])
+    assert [c.variance for c in got.components] == pytest.approx(expected, rel=2e-4)
+    assert got.intermediate_precision.ci_mls is None and "unbalanced" in got.intermediate_precision.reason
+
+
+def _mpc441():
+    """MPC441.DAT: 12 daily averages and SDs (6 repetitions each) in 2 runs, data from line 26."""
+    data = np.loadtxt(reference_file("precision-nested", "MPC441.DAT"), skiprows=25)
+    return data[:, 0], data[:, 7], data[:, 8]
+
+
+def _results_with(means, sds, reps=6):
+    """Any 6 results with a given mean and SD give the same nested ANOVA; build such results."""
+    pattern = np.array([-1.5, -0.5, 0.5, 1.5, -1.0, 1.0])
+    pattern = (pattern - pattern.mean()) / pattern.std(ddof=1)
+    return np.concatenate([m + s * pattern for m, s in zip(means, sds)])
+
+
+def test_nist_gauge_study_level_two_sds():
+    run, means, sds = _mpc441()
+    y = _results_with(means, sds)
+    runs, days = np.repeat(run, 6), np.repeat(np.arange(12), 6)
+    both = nested_variance_components(y, [runs, days], names=("run", "day"))
+    day_row = both.anova[1]
+    assert day_row.df == 10                                        # NIST e-Handbook 2.6.1: pooled on 10 df
+    # level-2 SD = SD of the daily averages = sqrt(MS_day / 6)
+    assert math.sqrt(day_row.mean_square / 6) == pytest.approx(0.02742, abs=5e-6)   # NIST: pooled 0.02742
+    for k, published in ((1, 0.027280), (2, 0.027560)):          # NIST e-Handbook 2.6.1, run 1 and run 2
+        one = nested_variance_components(y[runs == k], [days[runs == k]], names=("day",))
+        # the daily averages are printed to 4 decimals, so agreement is to about 5e-6
+        assert math.sqrt(one.anova[0].mean_square / 6) == pytest.approx(published, abs=5e-6)
+    # level-3 SD (SD of the two run averages) 0.0289, NIST e-Handbook 2.6.1; we get 0.028850, which
+    # sits on the rounding edge (the daily averages are themselves printed to 4 decimals)
+    assert math.sqrt(both.anova[0].mean_square / 36) == pytest.approx(0.0289, abs=1e-4)
+    # here the day-within-run mean square is below the repeatability mean square: set to 0, flagged
+    assert both.components[1].set_to_zero and both.components[1].raw_estimate < 0
+    assert any("negative" in note for note in both.notes)
+
+
+def test_mls_coverage_by_simulation():
+    # seeded simulation, 1 500 draws of 4 days x 2 runs x 2 replicates: the MLS interval on the
+    # intermediate-precision variance should cover at about its nominal 90 % (SE about 0.008;
+    # MLS is known to be near nominal or slightly conservative, Burdick and Graybill 1992 ch. 3)
+    rng = np.random.default_rng(42)
+    draws, hit_mls, hit_satt = 1500, 0, 0
+    true_sd = math.sqrt(0.6 ** 2 + 0.4 ** 2 + 0.3 ** 2)
+    for _ in range(draws):
+        y, day, run = _simulate_nested(rng, 4, 2, 2, 0.6, 0.4, 0.3)
+        ip = nested_variance_components(y, [day, run], names=("day", "run"),
+                                        confidence=0.90).intermediate_precision
+        hit_mls += ip.ci_mls.contains(true_sd)
+        hit_satt += ip.ci_satterthwaite.contains(true_sd)
+    se = math.sqrt(0.9 * 0.1 / draws)
+    assert 0.90 - 3 * se < hit_mls / draws < 0.90 + 0.04, hit_mls / draws
+    assert hit_satt / draws < hit_mls / draws + 3 * se     # Satterthwaite is not more conservative here
+
+
+def test_claim_verification_hand_computation():
+    # hand computation: UVL factor sqrt(chi2_{0.95; 20} / 20), one level
+    v = verify_precision_claim(1.2, 1.0, 20)
+    assert v.factor == pytest.approx(math.sqrt(stats.chi2.ppf(0.95, 20) / 20), rel=1e-14)
+    assert v.verified and "at or below the upper verification limit" in v.basis
+    # from memory: the EP15-A3 factor for 20 df at one level is about 1.25
+    assert v.factor == pytest.approx(1.253, abs=1e-3)
+    assert not verify_precision_claim(1.3, 1.0, 20).verified
+    assert verify_precision_claim(0.9, 1.0, 20).basis == "observed SD at or below the claim"
+    # Bonferroni over 3 levels: chi2 quantile at 1 - 0.05/3
+    assert verify_precision_claim(1.2, 1.0, 20, levels=3).factor == pytest.approx(
+        math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 20) / 20), rel=1e-14)
+
+
+def test_degenerate_and_invalid():
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        flat = nested_variance_components([5.0] * 8, [DAY, RUN], names=("day", "run"))
+    assert flat.intermediate_precision.variance == 0.0
+    single = nested_variance_components([1.0, 2.0, 3.0], [[1, 1, 1]], names=("run",))
+    assert single.components == () and "no degrees of freedom" in single.reason
+    with pytest.raises(ValueError, match="method must be one of 'auto', 'anova', 'reml', got 'ml'"):
+        nested_variance_components(Y, [DAY, RUN], method="ml")
+    with pytest.raises(ValueError, match="needs a balanced design"):
+        nested_variance_components(Y[:-1], [DAY[:-1], RUN[:-1]], method="anova")
+    with pytest.raises(ValueError, match=r"confidence must be in the open interval \(0, 1\), got 95"):
+        nested_variance_components(Y, [DAY, RUN], confidence=95)
+    with pytest.raises(ValueError, match="observed_sd must be a finite number >= 0, got -1"):
+        verify_precision_claim(-1, 1.0, 10)
+
+
+def test_four_stage_unbalanced_reml_against_statsmodels():
+    # sites > days > runs > replicates, three results lost
+    rng = np.random.default_rng(3)
+    site = np.repeat(np.arange(3), 12)
+    day = np.tile(np.repeat(np.arange(3), 4), 3)
+    run = np.tile(np.repeat(np.arange(2), 2), 9)
+    y = (rng.normal(0, 1.0, 3)[site] + rng.normal(0, 0.7, 9)[site * 3 + day]
+         + rng.normal(0, 0.5, 18)[(site * 3 + day) * 2 + run] + rng.normal(0, 0.3, 36))
+    balanced = nested_variance_components(y, [site, day, run], names=("site", "day", "run"))
+    reml = nested_variance_components(y, [site, day, run], names=("site", "day", "run"), method="reml")
+    # all ANOVA estimates positive: REML (own optimiser) coincides with ANOVA
+    assert [c.variance for c in reml.components] == pytest.approx([c.variance for c in balanced.components],
+                                                                  rel=1e-4)
+    keep = np.ones(36, bool)
+    keep[[1, 10, 23]] = False
+    got = nested_variance_components(y[keep], [site[keep], day[keep], run[keep]], names=("site", "day", "run"))
+    import pandas as pd
+    import statsmodels.formula.api as smf
+    frame = pd.DataFrame({"y": y[keep], "site": site[keep], "day": day[keep], "run": run[keep]})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fit = smf.mixedlm("y ~ 1", frame, groups="site", re_formula="1",
+                          vc_formula={"day": "0 + C(day)", "run": "0 + C(day):C(run)"}).fit(reml=True)
+    # cross-check: statsmodels MixedLM, REML, nested variance components
+    expected = [float(fit.cov_re.iloc[0, 0]), *map(float, fit.vcomp), float(fit.scale)]
+    assert [c.variance for c in got.components] == pytest.approx(expected, rel=2e-4)
+
+
+def test_claims_from_a_study():
+    got = nested_variance_components(Y, [DAY, RUN], names=("day", "run"))
+    rep, wl, reason = verify_precision_claims(got, repeatability_sd=2.0, within_laboratory_sd=5.0)
+    assert reason == "" and rep.df == 4 and wl.df == pytest.approx(got.intermediate_precision.df)
+    assert rep.observed_sd == pytest.approx(math.sqrt(3.0), rel=1e-14)   # MS_e = 3, hand computation
+    unbalanced = nested_variance_components(Y[:-1], [DAY[:-1], RUN[:-1]], names=("day", "run"))
+    rep, wl, reason = verify_precision_claims(unbalanced, repeatability_sd=2.0, within_laboratory_sd=5.0)
+    assert rep is not None and wl is None and "unbalanced" in reason
+
+
+_cells = st.lists(st.floats(-1e3, 1e3, allow_nan=False, allow_infinity=False), min_size=12, max_size=12)
+
+
+@settings(max_examples=60, deadline=None)
+@given(_cells, st.floats(0.01, 100), st.floats(-1e3, 1e3), st.randoms(use_true_random=False))
+def test_properties_permutation_and_scale(values, scale, shift, random):
+    # 3 days x 2 runs x 2 replicates: permuting rows changes nothing; y -> a y + b scales variances by a^2
+    day = np.repeat([1, 2, 3], 4)
+    run = np.tile([1, 1, 2, 2], 3)
+    y = np.array(values)
+    base = nested_variance_components(y, [day, run])
+    order = list(range(12))
+    random.shuffle(order)
+    perm = nested_variance_components(y[order], [day[order], run[order]])
+    moved = nested_variance_components(scale * y + shift, [day, run])
+    for a, b, c in zip(base.components, perm.components, moved.components):
+        assert b.variance == pytest.approx(a.variance, rel=1e-9, abs=1e-9 * (1 + np.var(y)))
+        assert c.variance == pytest.approx(scale ** 2 * a.variance, rel=1e-7, abs=1e-7 * scale ** 2 * (1 + np.var(y)))
+    for cond in base.conditions:
+        if cond.ci_mls is not None and cond.df is not None and not any(x.set_to_zero for x in base.components):
+            assert cond.ci_mls.low <= cond.sd * (1 + 1e-12) and cond.sd <= cond.ci_mls.high * (1 + 1e-12)

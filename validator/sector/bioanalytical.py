@@ -1,0 +1,442 @@
+"""Bioanalytical validation per ICH M10: carry-over, selectivity, stability, dilution integrity,
+incurred-sample reanalysis.
+
+Every acceptance limit is a keyword parameter; its default and the section
+it comes from are stated beside it. Section numbers and limits are given from
+memory of the guideline (marked so), not read from its text in this session.
+
+References
+----------
+.. [M10] ICH M10, Bioanalytical method validation and study sample analysis,
+   final version (24 May 2022). Sec. 3 (chromatography): 3.2.1 selectivity,
+   3.2.6 carry-over, 3.2.7 dilution integrity, 3.2.8 stability; sec. 4 (ligand
+   binding assays); sec. 5 incurred sample reanalysis (from memory).
+.. [Fieller] Fieller, E. C. (1954). J. R. Stat. Soc. B 16, 175-185.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from fractions import Fraction
+
+import numpy as np
+
+from .._common import ConfidenceInterval, quiet_numpy
+from ._shared import (MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
+                      mean_sd_cv, t_quantile_two_sided)
+
+__all__ = ["CarryOver", "carry_over", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
+           "DilutionIntegrity", "dilution_integrity", "ReanalysedSample", "IncurredSampleReanalysis",
+           "incurred_sample_reanalysis", "reanalysis_sample_count"]
+
+
+def _labels(values, n: int, name: str) -> np.ndarray:
+    arr = np.asarray([str(v) for v in values], dtype=object)
+    if arr.size != n:
+        raise ValueError(f"{name}: expected {n} labels (one per result), got {arr.size}")
+    return arr
+
+
+def _check_count(value, name: str, minimum: int = 1) -> int:
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
+        raise ValueError(f"{name} must be an integer >= {minimum}, got {value!r}")
+    return int(value)
+
+
+def _at_least(count: int, total: int, fraction: float) -> bool:
+    """count / total >= fraction, exactly (the fraction read as the decimal number it prints as)."""
+    return Fraction(count, total) >= Fraction(repr(float(fraction)))
+
+
+def _reference_mean(values, name: str) -> float:
+    m = mean_sd_cv(as_float_array(values, name)).mean
+    if m is None or m < 1 / MAX_MAGNITUDE:
+        raise ValueError(f"{name}: expected responses with a positive mean of at least {1 / MAX_MAGNITUDE:g}, "
+                         f"got mean {m!r}")
+    return m
+
+
+# ----------------------------------------------------------------------------- carry-over
+@dataclass(frozen=True)
+class CarryOver:
+    """Blank responses after the highest calibrator, as % of the LLOQ (analyte) and IS responses.
+
+    ``internal_standard_percent`` is ``None`` when no IS responses were given
+    (the IS part is then not judged).
+    """
+
+    analyte_percent: tuple                # each blank injection, % of the mean LLOQ analyte response
+    internal_standard_percent: tuple | None
+    max_analyte_percent: float            # the largest of analyte_percent
+    max_internal_standard_percent: float | None
+    analyte_limit_percent: float
+    internal_standard_limit_percent: float
+    passed: bool
+
+
+def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=None,
+               internal_standard_response=None, analyte_limit_percent: float = 20.0,
+               internal_standard_limit_percent: float = 5.0) -> CarryOver:
+    """Carry-over (ICH M10 sec. 3.2.6, from memory: analyte <= 20 % of LLOQ, IS <= 5 %).
+
+    Parameters
+    ----------
+    blank_after_highest : sequence of float
+        Analyte responses of the blank injection(s) following the highest calibrator.
+    lloq_response : sequence of float
+        Analyte responses of the LLOQ sample(s); their mean is the reference.
+    blank_internal_standard, internal_standard_response : sequence of float, optional
+        IS responses in the same blanks and the reference IS responses; both or neither.
+
+    Notes
+    -----
+    % = 100 x blank response / mean reference response, per blank injection;
+    passed when every blank is at or below its limit.
+    """
+    a_lim = check_positive(analyte_limit_percent, "analyte_limit_percent")
+    i_lim = check_positive(internal_standard_limit_percent, "internal_standard_limit_percent")
+    blanks = as_float_array(blank_after_highest, "blank_after_highest")
+    if blanks.size == 0:
+        raise ValueError("blank_after_highest: at least one blank response is needed, got none")
+    ref = _reference_mean(lloq_response, "lloq_response")
+    a_pct = tuple(float(v) for v in 100.0 * blanks / ref)
+    if (blank_internal_standard is None) != (internal_standard_response is None):
+        raise ValueError("blank_internal_standard and internal_standard_response: give both or neither")
+    i_pct = None
+    if blank_internal_standard is not None:
+        ib = as_float_array(blank_internal_standard, "blank_internal_standard")
+        if ib.size == 0:
+            raise ValueError("blank_internal_standard: at least one IS response is needed, got none")
+        iref = _reference_mean(internal_standard_response, "internal_standard_response")
+        i_pct = tuple(float(v) for v in 100.0 * ib / iref)
+    max_i = None if not i_pct else max(i_pct)
+    passed = max(a_pct) <= a_lim and (max_i is None or max_i <= i_lim)
+    return CarryOver(a_pct, i_pct, max(a_pct), max_i, a_lim, i_lim, passed)
+
+
+# ----------------------------------------------------------------------------- selectivity
+@dataclass(frozen=True)
+class SelectivityLot:
+    lot: str
+    analyte_percent: float                # largest blank analyte response of the lot, % of LLOQ response
+    internal_standard_percent: float | None
+    passed: bool
+
+
+@dataclass(frozen=True)
+class Selectivity:
+    """Blank-matrix lots: interference as % of the LLOQ and IS responses, and the fraction of lots passing."""
+
+    lots: tuple
+    n_lots: int
+    n_lots_passed: int
+    fraction_passed: float
+    min_fraction: float
+    min_lots: int
+    passed: bool | None
+    reason: str = ""
+
+
+def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=None,
+                internal_standard_response=None, analyte_limit_percent: float = 20.0,
+                internal_standard_limit_percent: float = 5.0, min_lots: int = 6,
+                min_fraction: float = 1.0) -> Selectivity:
+    """Selectivity from individual blank-matrix lots (ICH M10 sec. 3.2.1).
+
+    Defaults (from memory: ICH M10 sec. 3.2.1, chromatography): at least 6
+    lots; in each lot the response at the analyte's retention is <= 20 % of
+    the LLOQ analyte response and at the IS's <= 5 % of the IS response, so
+    ``min_fraction`` = 1 (every lot). Ligand-binding assays (sec. 4) use other
+    designs (from memory: 10 lots, 80 % of lots); pass their values.
+
+    Notes
+    -----
+    Per lot the largest blank response is used (the worst injection), as
+    100 x response / mean reference response. passed = (n_lots >= min_lots)
+    and (lots passing / n_lots >= min_fraction); ``None`` with a reason when
+    there are too few lots.
+    """
+    a_lim = check_positive(analyte_limit_percent, "analyte_limit_percent")
+    i_lim = check_positive(internal_standard_limit_percent, "internal_standard_limit_percent")
+    min_lots = _check_count(min_lots, "min_lots")
+    frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
+    blanks = as_float_array(blank_response, "blank_response")
+    if blanks.size == 0:
+        raise ValueError("blank_response: at least one blank response is needed, got none")
+    lots = _labels(lot, blanks.size, "lot")
+    ref = _reference_mean(lloq_response, "lloq_response")
+    if (blank_internal_standard is None) != (internal_standard_response is None):
+        raise ValueError("blank_internal_standard and internal_standard_response: give both or neither")
+    ib = iref = None
+    if blank_internal_standard is not None:
+        ib = as_float_array(blank_internal_standard, "blank_internal_standard")
+        if ib.size != blanks.size:
+            raise ValueError(f"blank_internal_standard: expected {blanks.size} values, got {ib.size}")
+        iref = _reference_mean(internal_standard_response, "internal_standard_response")
+    rows = []
+    for name in dict.fromkeys(lots):
+        mask = lots == name
+        a_pct = float(100.0 * blanks[mask].max() / ref)
+        i_pct = None if ib is None else float(100.0 * ib[mask].max() / iref)
+        ok = a_pct <= a_lim and (i_pct is None or i_pct <= i_lim)
+        rows.append(SelectivityLot(str(name), a_pct, i_pct, ok))
+    n_pass = sum(r.passed for r in rows)
+    fraction = n_pass / len(rows)
+    if len(rows) < min_lots:
+        return Selectivity(tuple(rows), len(rows), n_pass, fraction, frac, min_lots, None,
+                           f"{len(rows)} blank-matrix lots, at least {min_lots} needed")
+    return Selectivity(tuple(rows), len(rows), n_pass, fraction, frac, min_lots,
+                       _at_least(n_pass, len(rows), frac))
+
+
+# ----------------------------------------------------------------------------- stability
+JUDGEMENTS = ("estimate", "interval")
+
+
+@dataclass(frozen=True)
+class Stability:
+    """One stability condition at one QC level: % deviation of the mean from its reference, with a CI.
+
+    ``reference`` is "nominal" or "fresh". ``interval`` is on the % deviation
+    scale: a t interval against a nominal value, Fieller's interval for the
+    ratio of means against freshly prepared samples. Fields are ``None``
+    exactly when ``reason`` says why.
+    """
+
+    condition: str
+    reference: str
+    n: int
+    mean: float | None
+    reference_mean: float | None
+    deviation_percent: float | None
+    interval: ConfidenceInterval | None
+    df: float | None
+    limit_percent: float
+    judged_on: str
+    passed: bool | None
+    reason: str = ""
+
+
+def stability(stored, *, nominal: float | None = None, fresh=None, condition: str = "",
+              limit_percent: float = 15.0, level: float = 0.95, judged_on: str = "estimate",
+              min_replicates: int = 3) -> Stability:
+    """Stability of one condition (bench-top, freeze-thaw, long-term, processed) at one QC level.
+
+    Parameters
+    ----------
+    stored : sequence of float
+        Concentrations measured after storage.
+    nominal : float, optional
+        Compare with the nominal concentration ...
+    fresh : sequence of float, optional
+        ... or with freshly prepared samples (exactly one of the two).
+    limit_percent : float
+        ICH M10 sec. 3.2.8 (from memory): the mean within +/-15 % of nominal.
+    judged_on : {"estimate", "interval"}
+        "estimate" (ICH M10 practice): |deviation| <= limit. "interval": the
+        whole confidence interval lies within +/-limit (stricter).
+    min_replicates : int
+        From memory: ICH M10 sec. 3.2.8 asks for at least 3 QCs per level.
+
+    Notes
+    -----
+    Against nominal: deviation = 100 (mean / nominal - 1), interval
+    100 ((mean +/- t(n-1) s / sqrt(n)) / nominal - 1).
+    Against fresh: deviation = 100 (R - 1), R = mean_stored / mean_fresh, with
+    Fieller's interval for R (variances s^2/n of each mean, covariance 0) and
+    the Welch-Satterthwaite df of mean_stored - R mean_fresh at the estimate
+    (approximate). Too few results give ``passed = None`` with a reason.
+    """
+    if (nominal is None) == (fresh is None):
+        raise ValueError("stability: give exactly one of nominal and fresh")
+    lim = check_positive(limit_percent, "limit_percent")
+    lv = check_level(level)
+    if judged_on not in JUDGEMENTS:
+        raise ValueError(f"judged_on must be one of {JUDGEMENTS!r}, got {judged_on!r}")
+    min_rep = _check_count(min_replicates, "min_replicates", 2)
+    x = as_float_array(stored, "stored")
+    nom = check_positive(nominal, "nominal") if nominal is not None else None
+    fresh_values = as_float_array(fresh, "fresh") if fresh is not None else None
+    s = mean_sd_cv(x)
+    reference = "nominal" if nominal is not None else "fresh"
+
+    def result(ref_mean, dev, ci, df, reason="", interval_reason=""):
+        passed = None
+        if dev is not None and not math.isfinite(dev):
+            dev, ci, reason = None, None, OUT_OF_RANGE
+        if ci is not None and not (math.isfinite(ci.low) and math.isfinite(ci.high)):
+            ci = None
+        if not reason:
+            if s.n < min_rep:
+                reason = f"{s.n} stored results, at least {min_rep} needed"
+            elif judged_on == "estimate":
+                passed = abs(dev) <= lim
+            elif ci is None:
+                reason = interval_reason or "no confidence interval to judge on"
+            else:
+                passed = -lim <= ci.low and ci.high <= lim
+        return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed,
+                         reason or interval_reason)
+
+    if s.n < 2:
+        return result(None, None, None, None, f"{s.n} stored result(s): a mean and its interval need two")
+    if s.mean is None or s.sd is None:
+        return result(None, None, None, None, OUT_OF_RANGE)
+    if nom is not None:
+        df = float(s.n - 1)
+        half = t_quantile_two_sided(lv, df) * s.sd / math.sqrt(s.n)
+        ci = ConfidenceInterval(100 * ((s.mean - half) / nom - 1), 100 * ((s.mean + half) / nom - 1), lv)
+        return result(nom, 100 * (s.mean / nom - 1), ci, df)
+    f = mean_sd_cv(fresh_values)
+    if f.n >= 2 and (f.mean is None or f.sd is None):
+        return result(None, None, None, None, OUT_OF_RANGE)
+    if f.n < 2:
+        return result(f.mean, None, None, None, f"{f.n} fresh result(s): at least two are needed")
+    if f.mean <= 0:
+        return result(f.mean, None, None, None, "the fresh samples' mean is not positive")
+    with quiet_numpy():
+        r = s.mean / f.mean
+        v1, v2 = np.square(s.sd) / s.n, np.square(f.sd) / f.n
+        den = np.square(v1) / (s.n - 1) + np.square(r * r * v2) / (f.n - 1)
+        df = float(np.square(v1 + r * r * v2) / den) if den > 0 else float(s.n + f.n - 2)
+    if not all(math.isfinite(v) for v in (r, v1, v2, df)):
+        return result(f.mean, None, None, None,
+                      "the data lie outside the floating-point range this computation can handle")
+    ci_r, why = fieller_ratio_interval(s.mean, f.mean, v1, v2, 0.0, t_quantile_two_sided(lv, df), lv)
+    ci = None if ci_r is None else ConfidenceInterval(100 * (ci_r.low - 1), 100 * (ci_r.high - 1), lv)
+    return result(f.mean, 100 * (r - 1), ci, df, interval_reason=why)
+
+
+# ----------------------------------------------------------------------------- dilution integrity
+@dataclass(frozen=True)
+class DilutionIntegrity:
+    """Diluted over-range QCs after multiplying by the dilution factor."""
+
+    dilution_factor: float
+    nominal: float
+    n: int
+    back_calculated: tuple               # measured x dilution factor
+    mean: float | None
+    accuracy_percent: float | None       # 100 mean / nominal
+    bias_percent: float | None
+    cv_percent: float | None
+    max_bias_percent: float
+    max_cv_percent: float
+    passed: bool | None
+    reason: str = ""
+
+
+def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: float, *,
+                       max_bias_percent: float = 15.0, max_cv_percent: float = 15.0,
+                       min_replicates: int = 5) -> DilutionIntegrity:
+    """Dilution integrity (ICH M10 sec. 3.2.7, from memory: >= 5 replicates per factor, mean accuracy
+    within +/-15 %, CV <= 15 %).
+
+    Parameters
+    ----------
+    measured_in_diluted : sequence of float
+        Concentrations measured in the diluted samples (before the factor).
+    dilution_factor : float
+        Factor >= 1 applied to the measured value.
+    nominal : float
+        Nominal concentration of the undiluted over-range QC.
+
+    Notes
+    -----
+    back-calculated = measured x factor; accuracy = 100 mean / nominal;
+    CV = 100 SD / mean.
+    """
+    factor = check_positive(dilution_factor, "dilution_factor")
+    if factor < 1:
+        raise ValueError(f"dilution_factor must be >= 1, got {dilution_factor!r}")
+    nom = check_positive(nominal, "nominal")
+    b_lim = check_positive(max_bias_percent, "max_bias_percent")
+    c_lim = check_positive(max_cv_percent, "max_cv_percent")
+    min_rep = _check_count(min_replicates, "min_replicates", 2)
+    with quiet_numpy():
+        back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
+    s = mean_sd_cv(back)
+    if s.n == 0:
+        return DilutionIntegrity(factor, nom, 0, (), None, None, None, None, b_lim, c_lim, None, "no results")
+    acc = None if s.mean is None else 100.0 * s.mean / nom
+    if acc is None or not math.isfinite(acc):
+        return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), None, None, None, None,
+                                 b_lim, c_lim, None, OUT_OF_RANGE)
+    reason, passed = "", None
+    if s.n < min_rep:
+        reason = f"{s.n} diluted QCs, at least {min_rep} needed"
+    elif s.cv_percent is None:
+        reason = "CV undefined (zero mean)"
+    else:
+        passed = abs(acc - 100) <= b_lim and s.cv_percent <= c_lim
+    return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), s.mean, acc, acc - 100,
+                             s.cv_percent, b_lim, c_lim, passed, reason)
+
+
+# ----------------------------------------------------------------------------- incurred-sample reanalysis
+@dataclass(frozen=True)
+class ReanalysedSample:
+    original: float
+    repeat: float
+    difference_percent: float | None     # 100 (repeat - original) / mean of the two
+    within: bool                         # False also when the difference is undefined
+
+
+@dataclass(frozen=True)
+class IncurredSampleReanalysis:
+    samples: tuple
+    n: int
+    n_within: int
+    n_undefined: int
+    fraction_within: float | None
+    limit_percent: float
+    min_fraction: float
+    passed: bool | None
+    reason: str = ""
+
+
+def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
+                               min_fraction: float = 2 / 3) -> IncurredSampleReanalysis:
+    """Incurred-sample reanalysis (ICH M10 sec. 5, from memory: within +/-20 % for chromatography,
+    +/-30 % for ligand-binding assays, in at least two-thirds of the repeats).
+
+    Notes
+    -----
+    Per sample: % difference = 100 (repeat - original) / ((repeat + original) / 2).
+    A pair whose mean is zero or negative (or so small that the difference
+    overflows) has no defined difference and counts as not within. passed = n_within / n >= min_fraction, compared exactly.
+    """
+    lim = check_positive(limit_percent, "limit_percent")
+    frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
+    o = as_float_array(original, "original")
+    r = as_float_array(repeat, "repeat")
+    if o.size != r.size:
+        raise ValueError(f"original and repeat must pair up, got {o.size} and {r.size} values")
+    rows = []
+    for a, b in zip(o.tolist(), r.tolist()):
+        mean = (a + b) / 2
+        d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
+        if math.isfinite(d):
+            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim))
+        else:
+            rows.append(ReanalysedSample(a, b, None, False))
+    n = len(rows)
+    n_within = sum(x.within for x in rows)
+    n_undef = sum(x.difference_percent is None for x in rows)
+    if n == 0:
+        return IncurredSampleReanalysis((), 0, 0, 0, None, lim, frac, None, "no reanalysed samples")
+    return IncurredSampleReanalysis(tuple(rows), n, n_within, n_undef, n_within / n, lim, frac,
+                                    _at_least(n_within, n, frac))
+
+
+def reanalysis_sample_count(n_study_samples: int) -> int:
+    """How many study samples to reanalyse (ICH M10 sec. 5, from memory).
+
+    Notes
+    -----
+    10 % of the first 1000 study samples plus 5 % of those beyond 1000,
+    rounded up to a whole sample (the rounding is this function's choice).
+    """
+    n = _check_count(n_study_samples, "n_study_samples", 0)
+    return int(math.ceil(Fraction(min(n, 1000), 10) + Fraction(max(n - 1000, 0), 20)))

@@ -1,0 +1,449 @@
+"""Detection capability the CLSI EP17-A2 way: limit of blank, limit of detection, limit of quantitation.
+
+What is implemented
+-------------------
+* Limit of blank (LoB), non-parametric (rank interpolation) or parametric
+  (mean + c_p SD), for each reagent lot; the reported LoB is the largest of the
+  lots' values. EP17-A2 reports the maximum across lots when two or three lots
+  are used; its option of combining the results of four or more lots into one
+  estimate is *not* implemented (from memory: EP17-A2 sec. 5.3).
+* Limit of detection (LoD) = LoB + c_p SD_L with SD_L pooled across the
+  low-level samples of a lot; per lot and the reported maximum.
+* Limit of quantitation (LoQ): the lowest tested level that meets an accuracy
+  goal (a precision goal as CV, or a total-error goal |bias| + 2 SD, or both)
+  *and above which every tested level meets it too*; never below the LoD.
+* The design minimums are checked and reported as notes, never as errors:
+  at least 60 blank and 60 low-level results per reagent lot to establish
+  the limits, at least 20 to verify a claim, and at least two reagent lots to
+  establish (from memory: EP17-A2 sec. 5.2 and 6).
+
+References
+----------
+.. [EP17] CLSI EP17-A2, Evaluation of Detection Capability for Clinical
+   Laboratory Measurement Procedures; Approved Guideline, 2nd ed. (2012).
+.. [Linnet] Linnet K., Kondratovich M. (2004). Partly nonparametric approach
+   for determining the limit of detection. Clin. Chem. 50, 732-740.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .._common import quiet_numpy
+from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
+
+__all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
+           "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
+           "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES"]
+
+LOB_METHODS = ("nonparametric", "parametric")
+PURPOSES = ("establishment", "verification")
+# from memory: CLSI EP17-A2 sec. 5 (establishment: >= 60 blank and >= 60 low-level results per
+# reagent lot, >= 2 lots) and sec. 6 (verification of a claim: >= 20 results)
+MINIMUM_RESULTS_PER_LOT = {"establishment": 60, "verification": 20}
+MINIMUM_LOTS = {"establishment": 2, "verification": 1}
+# CLSI EP17-A2 prints 1.645, the standard normal 95th percentile rounded to three decimals
+EP17_NORMAL_QUANTILE = 1.645
+
+
+@dataclass(frozen=True)
+class LotLimit:
+    """One reagent lot's LoB or LoD.
+
+    ``value`` is ``None`` exactly when ``reason`` says why. ``coverage_factor``
+    is c_p (``None`` for the non-parametric LoB, whose ``rank`` is given instead).
+    """
+
+    lot: str
+    value: float | None
+    n_results: int
+    n_samples: int
+    mean: float | None = None
+    sd: float | None = None
+    coverage_factor: float | None = None
+    rank: float | None = None
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class LimitOfBlank:
+    """The LoB of each lot and the reported value (the maximum over the lots)."""
+
+    method: str
+    value: float | None
+    lots: tuple
+    percentile: float
+    purpose: str
+    notes: tuple = ()
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class LimitOfDetection:
+    """The LoD of each lot and the reported value (the maximum over the lots)."""
+
+    value: float | None
+    limit_of_blank: float
+    lots: tuple
+    purpose: str
+    notes: tuple = ()
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class QuantitationLevel:
+    """Summary of one low-level sample for the LoQ."""
+
+    sample: str
+    nominal: float
+    n: int
+    mean: float | None
+    sd: float | None
+    cv_percent: float | None
+    bias: float | None                  # mean - nominal
+    total_error: float | None           # |bias| + 2 SD
+    meets_goal: bool | None             # None when a needed statistic is missing
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class LimitOfQuantitation:
+    """The LoQ: the lowest level meeting the goal(s), with every higher level meeting them too."""
+
+    value: float | None
+    levels: tuple
+    max_cv_percent: float | None
+    max_total_error: float | None
+    limit_of_detection: float | None
+    notes: tuple = ()
+    reason: str = ""
+
+
+def coverage_factor(n_results: int, n_samples: int, *, normal_quantile: float = EP17_NORMAL_QUANTILE) -> float:
+    """c_p = z / (1 - 1 / (4 (N - K))) of CLSI EP17-A2.
+
+    Parameters
+    ----------
+    n_results : int
+        N, all results (blank results B for the LoB, low-level results L for the LoD).
+    n_samples : int
+        K, the number of samples they come from (J for the LoD).
+    normal_quantile : float
+        z; EP17-A2 uses 1.645 (beta = 0.05). Pass ``scipy.stats.norm.isf(beta)``
+        for another error rate or the unrounded value.
+
+    Notes
+    -----
+    The factor corrects the 95th percentile of the normal distribution for the
+    bias of the SD estimated with N - K degrees of freedom.
+    """
+    if isinstance(n_results, bool) or not isinstance(n_results, (int, np.integer)) \
+            or isinstance(n_samples, bool) or not isinstance(n_samples, (int, np.integer)):
+        raise ValueError(f"coverage_factor: n_results and n_samples must be integers, "
+                         f"got {n_results!r} and {n_samples!r}")
+    if n_samples < 1 or n_results - n_samples < 1:
+        raise ValueError(f"coverage_factor: needs n_samples >= 1 and n_results - n_samples >= 1, "
+                         f"got n_results = {n_results!r}, n_samples = {n_samples!r}")
+    z = check_positive(normal_quantile, "normal_quantile")
+    return z / (1.0 - 1.0 / (4.0 * (n_results - n_samples)))
+
+
+def nonparametric_percentile(values, percentile: float = 0.95) -> tuple[float | None, float, str]:
+    """The EP17-A2 rank-interpolated percentile: ``(value, rank, reason)``.
+
+    Notes
+    -----
+    Sort the N results; rank = 0.5 + p N (1-based); the value is interpolated
+    linearly between the order statistics at floor(rank) and floor(rank) + 1.
+    For N = 60, p = 0.95 the rank is 57.5: the mean of the 57th and 58th values.
+    The value is ``None`` when the rank lies outside [1, N] (too few results).
+    """
+    p = check_fraction(percentile, "percentile")
+    arr = np.sort(as_float_array(values, "values"))
+    n = arr.size
+    rank = 0.5 + p * n
+    if n == 0 or rank < 1 or rank > n:
+        need = math.ceil(0.5 / (1 - p))
+        return None, rank, (f"rank 0.5 + {p:g} x {n} = {rank:g} lies outside 1..{n}: "
+                            f"the non-parametric percentile needs at least {need} results")
+    lower = int(math.floor(rank))
+    frac = rank - lower
+    if lower == n:
+        return float(arr[n - 1]), rank, ""
+    with quiet_numpy():
+        value = float(arr[lower - 1] + frac * (arr[lower] - arr[lower - 1]))
+    if not math.isfinite(value):
+        return None, rank, OUT_OF_RANGE
+    return value, rank, ""
+
+
+def _labels(values, n: int, name: str, default: str) -> np.ndarray:
+    if values is None:
+        return np.full(n, default, dtype=object)
+    arr = np.asarray([str(v) for v in values], dtype=object)
+    if arr.size != n:
+        raise ValueError(f"{name}: expected {n} labels (one per result), got {arr.size}")
+    return arr
+
+
+def _check_choice(value, name: str, allowed: tuple) -> str:
+    if value not in allowed:
+        raise ValueError(f"{name} must be one of {', '.join(map(repr, allowed))}, got {value!r}")
+    return value
+
+
+def _design_notes(kind: str, per_lot_counts: dict, purpose: str) -> list[str]:
+    notes = []
+    minimum = MINIMUM_RESULTS_PER_LOT[purpose]
+    for lot, count in per_lot_counts.items():
+        if count < minimum:
+            notes.append(f"lot {lot}: {count} {kind} results, fewer than the {minimum} per reagent lot "
+                         f"CLSI EP17-A2 asks for {purpose}")
+    if len(per_lot_counts) < MINIMUM_LOTS[purpose]:
+        notes.append(f"{len(per_lot_counts)} reagent lot(s), fewer than the {MINIMUM_LOTS[purpose]} "
+                     f"CLSI EP17-A2 asks for {purpose}")
+    return notes
+
+
+def _pooled_sd(values: np.ndarray, samples: np.ndarray) -> tuple[float | None, int]:
+    """Pooled within-sample SD and its degrees of freedom sum(n_i - 1)."""
+    ss, df = 0.0, 0
+    with quiet_numpy():
+        for s in dict.fromkeys(samples):
+            v = values[samples == s]
+            if v.size >= 2:
+                ss += float(np.sum((v - v.mean()) ** 2))
+                df += v.size - 1
+    return (math.sqrt(ss / df) if df > 0 else None), df
+
+
+def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None, lot=None,
+                   percentile: float = 0.95, normal_quantile: float = EP17_NORMAL_QUANTILE,
+                   purpose: str = "establishment") -> LimitOfBlank:
+    """Limit of blank per reagent lot and the reported maximum (CLSI EP17-A2).
+
+    Parameters
+    ----------
+    blank_results : sequence of float
+        Measured results of blank samples (concentration units).
+    method : {"nonparametric", "parametric"}
+    sample, lot : sequence of labels, optional
+        The blank sample and the reagent lot of each result (one sample, one lot if omitted).
+    percentile : float
+        1 - alpha for the non-parametric rank (0.95 in EP17-A2).
+    normal_quantile : float
+        z of the parametric c_p (1.645 in EP17-A2).
+    purpose : {"establishment", "verification"}
+        Only selects the design minimums that are checked.
+
+    Notes
+    -----
+    Non-parametric: rank = 0.5 + p B over the B sorted results of a lot,
+    interpolated between neighbouring order statistics (see
+    :func:`nonparametric_percentile`).
+    Parametric: LoB = M_B + c_p SD_B with M_B, SD_B the mean and SD of all B
+    blank results of the lot and c_p = z / (1 - 1/(4 (B - K))), K the number of
+    blank samples (from memory: EP17-A2 sec. 5.3.3.2).
+    The reported LoB is the largest lot LoB; it is ``None`` if any lot's is.
+    """
+    _check_choice(method, "method", LOB_METHODS)
+    _check_choice(purpose, "purpose", PURPOSES)
+    p = check_fraction(percentile, "percentile")
+    check_positive(normal_quantile, "normal_quantile")
+    values = as_float_array(blank_results, "blank_results")
+    samples = _labels(sample, values.size, "sample", "blank")
+    lots = _labels(lot, values.size, "lot", "1")
+    results, counts = [], {}
+    for name in dict.fromkeys(lots):
+        mask = lots == name
+        v, s = values[mask], samples[mask]
+        counts[name] = int(v.size)
+        k = len(set(s))
+        summary = mean_sd_cv(v)
+        if method == "nonparametric":
+            val, rank, why = nonparametric_percentile(v, p)
+            results.append(LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why))
+        elif v.size - k < 1 or summary.sd is None:
+            results.append(LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+                f"{v.size} blank results from {k} samples: the parametric LoB needs more results "
+                f"than samples")))
+        else:
+            cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
+            value = summary.mean + cp * summary.sd
+            results.append(LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
+                           if math.isfinite(value) else
+                           LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE))
+    notes = tuple(_design_notes("blank", counts, purpose))
+    missing = [r for r in results if r.value is None]
+    if not results:
+        return LimitOfBlank(method, None, (), p, purpose, notes, "no blank results")
+    if missing:
+        return LimitOfBlank(method, None, tuple(results), p, purpose, notes,
+                            f"no LoB for lot {missing[0].lot}: {missing[0].reason}")
+    return LimitOfBlank(method, max(r.value for r in results), tuple(results), p, purpose, notes)
+
+
+def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=None,
+                       normal_quantile: float = EP17_NORMAL_QUANTILE,
+                       purpose: str = "establishment") -> LimitOfDetection:
+    """Limit of detection per reagent lot and the reported maximum (CLSI EP17-A2, classical approach).
+
+    Parameters
+    ----------
+    low_level_results : sequence of float
+        Results of the low-level samples (concentration units).
+    sample : sequence of labels
+        The low-level sample of each result (J distinct samples).
+    limit_of_blank : float
+        The reported LoB (the same for every lot).
+    lot : sequence of labels, optional
+
+    Notes
+    -----
+    For each lot: SD_L = sqrt(sum_j (n_j - 1) s_j^2 / sum_j (n_j - 1)) pooled
+    over the J low-level samples, c_p = z / (1 - 1/(4 (L - J))) with L the
+    lot's number of low-level results, and LoD = LoB + c_p SD_L. The reported
+    LoD is the largest lot LoD. The homogeneity of the samples' SDs (which
+    pooling assumes) is not tested here.
+    """
+    _check_choice(purpose, "purpose", PURPOSES)
+    check_positive(normal_quantile, "normal_quantile")
+    lob = limit_of_blank
+    if isinstance(lob, bool) or not isinstance(lob, (int, float, np.integer, np.floating)) \
+            or not math.isfinite(lob):
+        raise ValueError(f"limit_of_blank must be a finite number, got {lob!r}")
+    values = as_float_array(low_level_results, "low_level_results")
+    if sample is None:
+        raise ValueError("sample: the low-level sample of each result is required")
+    samples = _labels(sample, values.size, "sample", "")
+    lots = _labels(lot, values.size, "lot", "1")
+    results, counts = [], {}
+    for name in dict.fromkeys(lots):
+        mask = lots == name
+        v, s = values[mask], samples[mask]
+        counts[name] = int(v.size)
+        j = len(set(s))
+        sd, df = _pooled_sd(v, s)
+        if sd is None or df < 1:
+            results.append(LotLimit(name, None, int(v.size), j, None, None, reason=(
+                f"{v.size} low-level results from {j} samples: no sample has two results, "
+                f"so SD_L cannot be pooled")))
+            continue
+        cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
+        value = float(lob) + cp * sd
+        results.append(LotLimit(name, value, int(v.size), j, None, sd, cp) if math.isfinite(value)
+                       else LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE))
+    notes = tuple(_design_notes("low-level", counts, purpose))
+    missing = [r for r in results if r.value is None]
+    if not results:
+        return LimitOfDetection(None, float(lob), (), purpose, notes, "no low-level results")
+    if missing:
+        return LimitOfDetection(None, float(lob), tuple(results), purpose, notes,
+                                f"no LoD for lot {missing[0].lot}: {missing[0].reason}")
+    return LimitOfDetection(max(r.value for r in results), float(lob), tuple(results), purpose, notes)
+
+
+def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | None = None,
+                          max_total_error: float | None = None,
+                          limit_of_detection: float | None = None) -> LimitOfQuantitation:
+    """Limit of quantitation from an accuracy goal (CLSI EP17-A2).
+
+    Parameters
+    ----------
+    results : sequence of float
+        Results of low-level samples (concentration units).
+    sample : sequence of labels
+        The sample of each result.
+    nominal : sequence of float
+        The assigned (reference) concentration of each result's sample; one
+        value per sample.
+    max_cv_percent : float, optional
+        Precision goal: a level meets it when CV = 100 SD / |mean| <= goal.
+    max_total_error : float, optional
+        Total-error goal in concentration units: |mean - nominal| + 2 SD <= goal.
+    limit_of_detection : float, optional
+        When given, the LoQ is never reported below it.
+
+    Notes
+    -----
+    At least one goal is required; with both, a level must meet both. The
+    LoQ is the nominal concentration of the lowest level that meets the goal
+    and above which every tested level meets it too (a level that fails above
+    a passing one is named in the notes). If that level lies below the LoD,
+    the LoQ is the LoD (EP17-A2: LoQ >= LoD). A level's CV needs at least two
+    results; a level without the needed statistic breaks the run of passing
+    levels.
+    """
+    if max_cv_percent is None and max_total_error is None:
+        raise ValueError("limit_of_quantitation: give max_cv_percent, max_total_error or both, got neither")
+    if max_cv_percent is not None:
+        check_positive(max_cv_percent, "max_cv_percent")
+    if max_total_error is not None:
+        check_positive(max_total_error, "max_total_error")
+    if limit_of_detection is not None and (isinstance(limit_of_detection, bool) or not isinstance(
+            limit_of_detection, (int, float, np.integer, np.floating)) or not math.isfinite(limit_of_detection)):
+        raise ValueError(f"limit_of_detection must be a finite number or None, got {limit_of_detection!r}")
+    values = as_float_array(results, "results")
+    nominals = as_float_array(nominal, "nominal")
+    if nominals.size != values.size:
+        raise ValueError(f"nominal: expected {values.size} values (one per result), got {nominals.size}")
+    samples = _labels(sample, values.size, "sample", "")
+    levels = []
+    for s in dict.fromkeys(samples):
+        mask = samples == s
+        noms = set(nominals[mask].tolist())
+        if len(noms) != 1:
+            raise ValueError(f"nominal: sample {s!r} has several nominal values {sorted(noms)!r}; "
+                             f"allowed: one per sample")
+        nom = noms.pop()
+        m = mean_sd_cv(values[mask])
+        if m.mean is None:
+            levels.append(QuantitationLevel(str(s), nom, m.n, None, None, None, None, None, None, OUT_OF_RANGE))
+            continue
+        bias = m.mean - nom
+        te = None if m.sd is None else abs(bias) + 2.0 * m.sd
+        if te is not None and not math.isfinite(te):
+            te = None
+        verdicts, why = [], []
+        if max_cv_percent is not None:
+            if m.cv_percent is None:
+                why.append("CV needs two results and a non-zero mean")
+                verdicts.append(None)
+            else:
+                verdicts.append(m.cv_percent <= max_cv_percent)
+        if max_total_error is not None:
+            if te is None:
+                why.append("total error needs two results")
+                verdicts.append(None)
+            else:
+                verdicts.append(te <= max_total_error)
+        meets = None if None in verdicts else all(verdicts)
+        levels.append(QuantitationLevel(str(s), nom, m.n, m.mean, m.sd, m.cv_percent, bias, te, meets,
+                                        "; ".join(why)))
+    levels.sort(key=lambda lv: lv.nominal)
+    notes = []
+    # walk down from the highest level while every level meets the goal
+    loq_level = None
+    for lv in reversed(levels):
+        if lv.meets_goal:
+            loq_level = lv
+        else:
+            break
+    for lv in levels:
+        if lv.meets_goal and (loq_level is None or lv.nominal < loq_level.nominal):
+            notes.append(f"sample {lv.sample} (nominal {lv.nominal:g}) meets the goal but a higher "
+                         f"level does not, so it does not set the LoQ")
+    if loq_level is None:
+        return LimitOfQuantitation(None, tuple(levels), max_cv_percent, max_total_error, limit_of_detection,
+                                   tuple(notes), "the highest tested level does not meet the accuracy goal"
+                                   if levels else "no results")
+    value = loq_level.nominal
+    if limit_of_detection is not None and value < limit_of_detection:
+        notes.append(f"the lowest passing level {value:g} lies below the LoD {limit_of_detection:g}; "
+                     f"the LoQ is set to the LoD")
+        value = float(limit_of_detection)
+    return LimitOfQuantitation(value, tuple(levels), max_cv_percent, max_total_error, limit_of_detection,
+                               tuple(notes))

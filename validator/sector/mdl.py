@@ -1,0 +1,173 @@
+"""Method detection limit, 40 CFR Part 136 Appendix B, Revision 2 (2017).
+
+The initial MDL is the higher of MDL_s (from spiked samples) and MDL_b (from
+method blanks). Section numbers below refer to Appendix B, Revision 2,
+"II. Procedure", step (2) "Determine the initial MDL". Sections I and II(1)
+were read in this session; the wording of the MDL_b rules in II(2) (none /
+some / all blanks numerical, the 100-blank threshold, rank round(0.99 n),
+"a negative mean is taken as zero") and the three-batch requirement are
+implemented from memory of the rule and should be checked against the
+Federal Register text before release.
+
+References
+----------
+.. [MDL] 40 CFR Part 136, Appendix B - Definition and Procedure for the
+   Determination of the Method Detection Limit - Revision 2. Federal Register
+   82 FR 40836 (28 August 2017); EPA 821-R-16-006 (December 2016).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+
+from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, mean_sd_cv
+
+__all__ = ["MethodDetectionLimit", "method_detection_limit", "MINIMUM_SPIKED", "BLANK_RANK_THRESHOLD"]
+
+# Appendix B Rev. 2, II(2): "a minimum of seven spiked samples and seven method blank samples"
+MINIMUM_SPIKED = 7
+MINIMUM_BLANKS = 7
+# from memory: Appendix B Rev. 2, II(2): spiked samples and blanks in at least three batches
+MINIMUM_BATCHES = 3
+# Appendix B Rev. 2, II(2) (MDL_b, some blanks numerical): the highest method blank, unless more
+# than 100 method blanks are available, then the blank at rank round(0.99 n)
+BLANK_RANK_THRESHOLD = 100
+
+
+@dataclass(frozen=True)
+class MethodDetectionLimit:
+    """MDL_s, MDL_b and the reported MDL (their maximum).
+
+    ``blank_rule`` says which MDL_b rule applied: "none numerical" (MDL_b does
+    not apply), "highest blank", "ranked blank" (more than 100 blanks) or
+    "mean + t s" (all blanks numerical). ``value`` is ``None`` exactly when
+    ``reason`` says why.
+    """
+
+    value: float | None
+    spiked: float | None               # MDL_s
+    blank: float | None                # MDL_b
+    blank_rule: str
+    n_spiked: int
+    n_blanks: int
+    n_blanks_numerical: int
+    spiked_sd: float | None            # S_s
+    spiked_t: float | None             # t(n_s - 1, 1 - alpha)
+    blank_mean: float | None           # X-bar of the blanks (before the "negative means zero" rule)
+    blank_sd: float | None             # S_b
+    blank_t: float | None
+    blank_rank: int | None             # the rank used by the "ranked blank" rule (1-based, ascending)
+    confidence: float
+    notes: tuple = ()
+    reason: str = ""
+
+
+def method_detection_limit(spiked_results, blank_results, *, confidence: float = 0.99,
+                           spiked_batches=None, blank_batches=None) -> MethodDetectionLimit:
+    """Initial MDL by 40 CFR Part 136 Appendix B, Revision 2.
+
+    Parameters
+    ----------
+    spiked_results : sequence of float
+        Results (concentration) of the spiked samples; each must be a number.
+    blank_results : sequence of float or NaN
+        Results of the method blanks; NaN marks a blank with no numerical
+        result (e.g. "not detected", no peak). Negative results and results
+        below the current MDL are numerical results and must be given as numbers.
+    confidence : float
+        1 - alpha of the one-sided t quantile; the rule fixes 0.99.
+    spiked_batches, blank_batches : sequence of labels, optional
+        The preparation batch of each result; when given, fewer than three
+        distinct batches is stated in ``notes`` (from memory: II(2) asks for
+        samples prepared and analysed in at least three batches on separate dates).
+
+    Notes
+    -----
+    * MDL_s = t(n_s - 1, 1 - alpha) S_s, S_s the SD of the n_s >= 7 spiked results.
+    * MDL_b:
+      - no blank gives a numerical result: MDL_b does not apply;
+      - some but not all do: MDL_b is the highest method blank result; with
+        more than 100 blanks, the blank of rank round(0.99 n) in ascending
+        order (rounded to the nearest whole number; blanks with no numerical
+        result ranked lowest and counted in n);
+      - all do: MDL_b = X_b + t(n_b - 1, 1 - alpha) S_b, with X_b taken as 0
+        when it is negative.
+    * MDL = max(MDL_s, MDL_b), or MDL_s when MDL_b does not apply.
+    Fewer than seven spiked samples give no MDL (value ``None``); fewer than
+    seven blanks, or a spiked result that is not above zero (the rule then asks
+    to repeat at a higher spike level), is stated in ``notes``.
+    """
+    conf = check_fraction(confidence, "confidence", low=0.5, high=1.0)
+    spiked = as_float_array(spiked_results, "spiked_results")
+    blanks = as_float_array(blank_results, "blank_results", allow_nan=True)
+    numerical = blanks[np.isfinite(blanks)]
+    n_s, n_b, n_num = int(spiked.size), int(blanks.size), int(numerical.size)
+    notes = []
+    if n_b < MINIMUM_BLANKS:
+        notes.append(f"{n_b} method blanks, fewer than the {MINIMUM_BLANKS} Appendix B requires")
+    for kind, labels, n in (("spiked", spiked_batches, n_s), ("blank", blank_batches, n_b)):
+        if labels is None:
+            continue
+        labels = [str(v) for v in labels]
+        if len(labels) != n:
+            raise ValueError(f"{kind}_batches: expected {n} labels (one per result), got {len(labels)}")
+        if len(set(labels)) < MINIMUM_BATCHES:
+            notes.append(f"{kind} samples from {len(set(labels))} batch(es), fewer than the "
+                         f"{MINIMUM_BATCHES} Appendix B asks for")
+    if n_s and np.any(spiked <= 0):
+        notes.append("a spiked result is not above zero: Appendix B asks to repeat the spiked samples "
+                     "at a higher concentration")
+
+    # MDL_s
+    s = mean_sd_cv(spiked)
+    mdl_s = t_s = None
+    reason_s = ""
+    if n_s < MINIMUM_SPIKED:
+        reason_s = f"{n_s} spiked samples, fewer than the {MINIMUM_SPIKED} Appendix B requires"
+    elif s.sd is None:
+        reason_s = OUT_OF_RANGE
+    elif s.sd == 0:
+        reason_s = "the spiked results have no spread (S_s = 0): MDL_s would be zero"
+    else:
+        t_s = float(stats.t.ppf(conf, n_s - 1))
+        mdl_s = t_s * s.sd
+
+    # MDL_b
+    mdl_b = t_b = rank = b_mean = b_sd = None
+    if n_num == 0:
+        rule = "none numerical"
+    elif n_num < n_b:
+        if n_b <= BLANK_RANK_THRESHOLD:
+            rule = "highest blank"
+            mdl_b = float(numerical.max())
+        else:
+            rule = "ranked blank"
+            rank = int(math.floor(0.99 * n_b + 0.5))
+            ordered = np.concatenate([np.full(n_b - n_num, -np.inf), np.sort(numerical)])
+            value = ordered[rank - 1]
+            if not np.isfinite(value):
+                notes.append(f"the blank of rank {rank} of {n_b} has no numerical result; MDL_b does not apply")
+            else:
+                mdl_b = float(value)
+    else:
+        rule = "mean + t s"
+        b = mean_sd_cv(numerical)
+        b_mean, b_sd = b.mean, b.sd
+        if n_b < 2:
+            notes.append("one method blank: S_b cannot be computed, MDL_b does not apply")
+        elif b.sd is None:
+            notes.append(f"MDL_b does not apply: {OUT_OF_RANGE}")
+        else:
+            t_b = float(stats.t.ppf(conf, n_b - 1))
+            mdl_b = max(b.mean, 0.0) + t_b * b.sd
+
+    if mdl_s is None:
+        value, reason = None, f"MDL_s not available: {reason_s}"
+    else:
+        value, reason = (mdl_s if mdl_b is None else max(mdl_s, mdl_b)), ""
+    return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
+                                rank, conf, tuple(notes), reason)
