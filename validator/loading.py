@@ -167,6 +167,13 @@ def _calibration(reader: _Reader):
     names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [cfg.study.id] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     order, groups = _group(names)
+    folded = {}
+    for name in order:          # "Nitrate" and "nitrate" are two analytes only by mistake
+        other = folded.setdefault(name.casefold(), name)
+        if other != name:
+            raise DataError(f'analyte "{show(name)}" differs only in upper/lower case from "{show(other)}" '
+                            f"(row {table.rows[groups[other][0]]}); use one spelling per analyte",
+                            file=table.path, row=table.rows[groups[name][0]], column="analyte", value=name)
     result = {}
     needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
     for name in order:
@@ -247,6 +254,16 @@ def _blanks(reader, analytes):
     return {name: y[idx] for name, idx in _analyte_rows(table, analytes, "blank").items() if idx}
 
 
+def _declared_levels_exist(reader, section: str, key: str, declared, present) -> None:
+    """A per-level limit in the study must match a level in the data, else it would silently judge nothing."""
+    present = sorted({float(v) for v in present})
+    for i, value in enumerate(declared):
+        if not any(abs(value - p) <= 1e-9 * max(abs(value), 1.0) for p in present):
+            raise StudyError(f"no {section} result has {key} = {value:g}, so this limit would judge nothing "
+                             f"(the data have {key} " + ", ".join(f"{p:g}" for p in present) + ")",
+                             file=reader.study.shown, key=f"{section}.levels[{i}].{key}", value=value)
+
+
 def _recovery(reader, analytes):
     cfg = reader.study.config
     if cfg.recovery is None:
@@ -257,6 +274,7 @@ def _recovery(reader, analytes):
     found = _numbers(table, "found", reader.decimal)
     native = _numbers(table, "native", reader.decimal) if table.has("native") else np.zeros_like(added)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
+    _declared_levels_exist(reader, "recovery", "added", [lv.added for lv in cfg.recovery.levels], added)
     return {name: RecoveryData(added[idx], found[idx], native[idx], tuple(series[i] for i in idx))
             for name, idx in _analyte_rows(table, analytes, "recovery result").items() if idx}
 
@@ -269,6 +287,7 @@ def _precision(reader, analytes):
     level = _numbers(table, "level", reader.decimal)
     series = table.texts("series")
     _numbers(table, "found", reader.decimal)
+    _declared_levels_exist(reader, "precision", "level", [lv.level for lv in cfg.precision.levels], level)
     out = {}
     for name, idx in _analyte_rows(table, analytes, "precision result").items():
         if not idx:
@@ -308,6 +327,13 @@ def _comparison(reader, analytes):
         if len(idx) < 3:
             raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
                             file=table.path, row=table.rows[idx[0]])
+        first = {}
+        for i in idx:       # one row per sample: a repeated id would count one sample twice
+            if ids[i] in first:
+                raise DataError(f'sample "{show(ids[i])}" appears again (first at row {first[ids[i]]}); the '
+                                "comparison takes one reference and one test result per sample",
+                                file=table.path, row=table.rows[i], column="sample", value=ids[i])
+            first[ids[i]] = table.rows[i]
         out[name] = (tuple(ids[i] for i in idx), ref[idx], test[idx])
     return out
 
