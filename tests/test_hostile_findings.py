@@ -11,7 +11,7 @@ import shutil
 
 import pytest
 
-from conftest import REPO, STUDY_HEAD
+from conftest import CALIBRATION, REPO, STUDY_HEAD
 from validator.cli import main
 
 MAINTENANCE = REPO / "example_studies" / "anions-after-maintenance"
@@ -194,3 +194,63 @@ def test_an_analyte_without_a_counterpart_leaves_the_revalidation_incomplete(tmp
     crit = next(c for c in a["nitrate"]["criteria"] if c["id"] == "slope-equivalence")
     assert crit["pass"] is None and "no analyte matching this one" in crit["note"]
     assert a["nitrate"]["verdict"] != "pass" and code == 1
+
+
+def test_a_declared_level_without_data_is_an_input_error(make_study, capsys):
+    # formerly PASS: a limit for added = 5 with data only at added = 2 judged nothing
+    rec = "added,found\n2,1.98\n2,2.01\n2,2.03\n"
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[recovery]\ndata = "recovery.csv"\n'
+                       'levels = [{added = 5, range_pct = [99, 101]}]\n',
+                       {"calibration.csv": CALIBRATION, "recovery.csv": rec})
+    code, _, err = _run(capsys, "check", study)
+    assert (code, err) == (2, f"validator: error: {study}, key recovery.levels[0].added: no recovery result has "
+                              "added = 5, so this limit would judge nothing (the data have added 2)\n")
+
+
+def test_a_repeated_comparison_sample_is_an_input_error(make_study, capsys):
+    comp = "sample,reference,test\nA,1,1.1\nB,2,2.1\nA,3,2.9\nC,4,4.2\n"
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[comparison]\ndata = "comparison.csv"\n',
+                       {"calibration.csv": CALIBRATION, "comparison.csv": comp})
+    code, _, err = _run(capsys, "check", study)
+    assert (code, err) == (2, 'validator: error: comparison.csv, row 4, column "sample": sample "A" appears again '
+                              "(first at row 2); the comparison takes one reference and one test result per "
+                              "sample\n")
+
+
+@pytest.mark.parametrize("names, message", [
+    (("Nitrate", "nitrate"), 'analyte "nitrate" differs only in upper/lower case from "Nitrate" (row 2); use one '
+                             "spelling per analyte"),
+    (("nitrate", "nitr\u200bate"), '"nitr\u200bate" contains an invisible character (U+200B, ZERO WIDTH SPACE); '
+                                   "retype the name"),
+])
+def test_names_that_only_look_alike_are_refused(make_study, capsys, names, message):
+    rows = "".join(f"{names[i % 2]},{x},{2 * x}\n" for i, x in enumerate([1, 1, 2, 2, 4, 4, 8, 8]))
+    study = make_study(files={"calibration.csv": "analyte,concentration,response\n" + rows})
+    code, _, err = _run(capsys, "check", study)
+    assert code == 2 and err.endswith(f"{message}\n") and err.count("\n") == 1
+
+
+def test_one_name_in_two_unicode_forms_is_one_analyte(make_study, outside, capsys):
+    # "café" typed as one character (U+00E9) in one file and as e + combining accent in the other
+    composed, decomposed = "caf\u00e9", "cafe\u0301"
+    cal = "analyte,concentration,response\n" + "".join(f"{composed},{x},{2 * x + 0.01 * (-1) ** i}\n"
+                                                       for i, x in enumerate([1, 1, 2, 2, 4, 4, 8, 8]))
+    samples = f"sample,analyte,response\nS1,{decomposed},5\n"
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[samples]\ndata = "samples.csv"\n',
+                       {"calibration.csv": cal, "samples.csv": samples})
+    code, _, err = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    assert code in (0, 1), err
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["name"] == composed and [s["id"] for s in a["samples"]] == ["S1"]
+
+
+def test_no_loq_on_the_reported_basis_leaves_the_working_range_unshown(make_study, outside, capsys):
+    # formerly PASS: blank-sd basis with one blank gives no LOQ; the range's low end was never checked
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[blanks]\ndata = "blanks.csv"\n'
+                       '[detection]\nreporting_basis = "blank-sd"\n',
+                       {"calibration.csv": CALIBRATION, "blanks.csv": "response\n0.01\n"})
+    code, out, _ = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    crit = next(c for c in a["criteria"] if c["id"] == "working-range")
+    assert crit["pass"] is None and "no LOQ on the reported basis (needs at least 2 blank readings)" in crit["note"]
+    assert code == 1 and out.startswith("validator: INCOMPLETE:")

@@ -42,9 +42,9 @@ CASES = [
      "with 0 < back_calculation_tolerance_pct <= 100; got inf"),
     ("max-data-file-mb-inf", CALIB, None, "max_data_file_mb = inf\n",
      "{dir}/study.toml, line 6, key study.max_data_file_mb: must be a finite number with "
-     "0 < max_data_file_mb <= 2048; got inf"),
+     "0.001 <= max_data_file_mb <= 2048; got inf"),
     ("max-data-file-mb-1e6", CALIB, None, "max_data_file_mb = 1e6\n",
-     "{dir}/study.toml, line 6, key study.max_data_file_mb: must be 0 < max_data_file_mb <= 2048; "
+     "{dir}/study.toml, line 6, key study.max_data_file_mb: must be 0.001 <= max_data_file_mb <= 2048; "
      "got 1000000.0"),
     ("crm-uncertainty-inf", CALIB + '[reference_material]\ndata = "crm.csv"\ncertified_value = 12.5\n'
      "standard_uncertainty = inf\n", None, "",

@@ -67,6 +67,7 @@ CAL = "concentration,response\n1,2.01\n1,1.98\n2,4.02\n2,3.99\n4,8.02\n4,7.99\n8
 
 def _previous(tmp_path, **changes):
     results = json.loads((REPO / "example_studies" / "anions-after-maintenance" / "previous-results.json").read_text())
+    results["study"]["response_unit"] = "area"      # the test studies' response unit (conftest.STUDY_HEAD)
     for key, value in changes.items():      # one level deep, so a changed unit keeps the rest of "study"
         results[key] = {**results[key], **value} if isinstance(value, dict) else value
     (tmp_path / "prev.json").write_text(json.dumps(results))

@@ -22,7 +22,7 @@ EXAMPLE_PREVIOUS = REPO / "example_studies" / "anions-after-maintenance" / "prev
 
 def _head(study_id):
     return (f'[study]\nid = "{study_id}"\ntitle = "Re-validation test"\nconcentration_unit = "mg/L"\n'
-            'response_unit = "area"\n')
+            'response_unit = "µS·min"\n')      # the unit of the example's previous results
 
 
 def _calibration_csv(x, y):

@@ -145,15 +145,21 @@ def calibration_criteria(cal, crit) -> tuple:
     return tuple(out)
 
 
-def working_range_criterion(wr) -> Criterion:
+def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
     """A working range must remain and hold at least one calibrator level that passes back-calculation.
 
     It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
-    to nothing: the method was then not shown to quantify anything.
+    to nothing: the method was then not shown to quantify anything. When the reported basis gives
+    no LOQ (``loq_missing`` says why), the low end of the range was not checked against one, so the
+    criterion is not applicable.
     # common practice, no published source: the rule that a range holds a passing calibrator
     """
-    return Criterion("working-range", "working range remains and holds at least 1 calibrator level that passes "
-                     "back-calculation", wr.passing_levels, 1, at_least(wr.passing_levels, 1),
+    description = "working range remains and holds at least 1 calibrator level that passes back-calculation"
+    if loq_missing:
+        return Criterion("working-range", description, None, 1, None,
+                         f"not applicable: there is no LOQ on the reported basis ({loq_missing}), so the low "
+                         "end of the working range was not checked against one")
+    return Criterion("working-range", description, wr.passing_levels, 1, at_least(wr.passing_levels, 1),
                      "" if wr.low is not None else wr.basis)
 
 

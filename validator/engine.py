@@ -201,7 +201,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         criteria.append(loq_criterion(loq_check))
     wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
                        concentration_unit)
-    criteria.append(working_range_criterion(wr))
+    criteria.append(working_range_criterion(wr, "" if reported.loq is not None else
+                                            (reported.reason or "it does not exist for these data")))
     comparison = reval = None
     if data.comparison is not None:
         cc = config.comparison

@@ -203,7 +203,8 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
     blanks = None if blanks is None else np.asarray(blanks, float)
     if blanks is None or blanks.size == 0:
         out.append(DetectionEstimate("blank-sd", "SD of blank responses", None, None, None,
-                                     reason="no blank data in the study"))
+                                     reason="no blank readings for this analyte (no [blanks] section, or its file "
+                                            "has none for this analyte)"))
     elif blanks.size < 2:
         out.append(DetectionEstimate("blank-sd", "SD of blank responses", None, None, None,
                                      reason="needs at least 2 blank readings"))

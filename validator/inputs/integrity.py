@@ -27,7 +27,7 @@ import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..errors import OutputError
+from ..errors import OutputError, show
 
 __all__ = ["write_manifest", "start_manifest", "read_manifest", "verify", "sha256_file",
            "Manifest", "WRITTEN_BY", "MANIFEST"]
@@ -195,22 +195,22 @@ def _check_outputs(folder: Path, manifest: Manifest) -> list:
     for e in manifest.entries:
         problem, digest = _hash_bounded(folder / e.file, e.bytes, follow=False)
         if problem == "is missing":
-            problems.append(f"output {e.file} is missing")
+            problems.append(f"output {show(e.file)} is missing")
         elif problem is not None:
-            problems.append(f"output {e.file} {problem}")
+            problems.append(f"output {show(e.file)} {problem}")
         elif digest != e.sha256:
-            problems.append(f"output {e.file} differs from the manifest")
+            problems.append(f"output {show(e.file)} differs from the manifest")
     with os.scandir(folder) as it:
         found = sorted(it, key=lambda d: d.name)
     for d in found:
         if d.name in (MANIFEST, SIGNATURE) or d.name in listed:
             continue
         if d.is_symlink():
-            problems.append(f"output {d.name} is a symbolic link not in the manifest")
+            problems.append(f"output {show(d.name)} is a symbolic link not in the manifest")
         elif d.is_dir(follow_symlinks=False):
-            problems.append(f"output folder {d.name}/ is not in the manifest")
+            problems.append(f"output folder {show(d.name)}/ is not in the manifest")
         else:
-            problems.append(f"output {d.name} is not in the manifest")
+            problems.append(f"output {show(d.name)} is not in the manifest")
     return problems
 
 
@@ -271,12 +271,12 @@ def _check_inputs(folder: Path, study: str) -> list:
             p, follow = study_path, True
         else:
             if e["path"] not in named:
-                problems.append(f"input {e['path']} is not named by {study}; not read")
+                problems.append(f"input {show(e['path'])} is not named by {show(str(study))}; not read")
                 continue
             q = Path(e["path"])              # the same rule as StudyFile.resolve
             p, follow = (q if q.is_absolute() else study_path.parent / q), True
         problem, digest = _hash_bounded(p, e["bytes"], follow=follow)
-        shown = study if i == 0 else e["path"]
+        shown = show(str(study) if i == 0 else e["path"])
         if problem == "is missing":
             problems.append(f"input {shown} is missing")
         elif problem is not None:

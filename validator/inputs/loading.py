@@ -171,6 +171,13 @@ def _calibration(reader: _Reader):
     names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [cfg.study.id] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     order, groups = _group(names)
+    folded = {}
+    for name in order:          # "Nitrate" and "nitrate" are two analytes only by mistake
+        other = folded.setdefault(name.casefold(), name)
+        if other != name:
+            raise DataError(f'analyte "{show(name)}" differs only in upper/lower case from "{show(other)}" '
+                            f"(row {table.rows[groups[other][0]]}); use one spelling per analyte",
+                            file=table.path, row=table.rows[groups[name][0]], column="analyte", value=name)
     result = {}
     needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
     for name in order:
@@ -259,6 +266,16 @@ def _per_analyte(reader, analytes, section: str, required: tuple, optional: tupl
             for name, idx in _analyte_rows(table, analytes, what).items() if idx}
 
 
+def _declared_levels_exist(reader, section: str, key: str, declared, present) -> None:
+    """A per-level limit in the study must match a level in the data, else it would silently judge nothing."""
+    present = sorted({float(v) for v in present})
+    for i, value in enumerate(declared):
+        if not any(abs(value - p) <= 1e-9 * max(abs(value), 1.0) for p in present):
+            raise StudyError(f"no {section} result has {key} = {value:g}, so this limit would judge nothing "
+                             f"(the data have {key} " + ", ".join(f"{p:g}" for p in present) + ")",
+                             file=reader.study.shown, key=f"{section}.levels[{i}].{key}", value=value)
+
+
 def _blanks(reader, analytes):
     return _per_analyte(reader, analytes, "blanks", ("response",), ("analyte",), "blank",
                         lambda table: _numbers(table, "response", reader.decimal),
@@ -272,6 +289,8 @@ def _recovery(reader, analytes):
         found = _numbers(table, "found", reader.decimal)
         native = _numbers(table, "native", reader.decimal) if table.has("native") else np.zeros_like(added)
         series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
+        _declared_levels_exist(reader, "recovery", "added", [lv.added for lv in reader.study.config.recovery.levels],
+                               added)
         return added, found, native, series
 
     def make(columns, idx, name):
@@ -287,6 +306,8 @@ def _precision(reader, analytes):
         level = _numbers(table, "level", reader.decimal)
         series = table.texts("series")
         _numbers(table, "found", reader.decimal)          # every cell checked before centring
+        _declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
+                               level)
         return table, level, series
 
     def make(columns, idx, name):
@@ -323,6 +344,13 @@ def _comparison(reader, analytes):
         if len(idx) < 3:
             raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
                             file=table.path, row=table.rows[idx[0]])
+        first = {}
+        for i in idx:       # one row per sample: a repeated id would count one sample twice
+            if ids[i] in first:
+                raise DataError(f'sample "{show(ids[i])}" appears again (first at row {first[ids[i]]}); the '
+                                "comparison takes one reference and one test result per sample",
+                                file=table.path, row=table.rows[i], column="sample", value=ids[i])
+            first[ids[i]] = table.rows[i]
         return ComparisonData(tuple(ids[i] for i in idx), ref[idx], test[idx])
 
     return _per_analyte(reader, analytes, "comparison", ("sample", "reference", "test"), ("analyte",),

@@ -98,7 +98,7 @@ class StudySection(_Section):
     notes: Text = _text("notes")
     decimal: Literal[".", ","] = "."
     delimiter: Literal[",", ";", "tab"] = ","
-    max_data_file_mb: float = Field(100.0, gt=0, le=MAX_DATA_FILE_MB)
+    max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up
 
     @model_validator(mode="after")
     def _dialect(self):

@@ -20,6 +20,7 @@ import math
 import os
 import re
 import stat
+import unicodedata
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -66,7 +67,9 @@ class Table:
         """Column ``name`` as stripped strings; empty cells are an error.
 
         With ``max_length`` (names: analytes, samples), a longer cell or one with
-        a control character is an error too.
+        a control character or an invisible format character (zero-width space,
+        ...) is an error too, and names are brought to Unicode NFC, so that "é"
+        typed as one character or as e + accent is one name.
         """
         out = []
         for v, r in zip(self.columns[name], self.rows):
@@ -79,6 +82,13 @@ class Table:
             if bad:
                 raise DataError(f'"{show(v)}" contains a control character ({bad}); names must not contain '
                                 "control characters", file=self.path, row=r, column=name, value=v)
+            if max_length is not None:
+                hidden = next((c for c in v if unicodedata.category(c) == "Cf"), None)
+                if hidden is not None:
+                    raise DataError(f'"{show(v)}" contains an invisible character (U+{ord(hidden):04X}, '
+                                    f"{unicodedata.name(hidden, 'format character')}); retype the name",
+                                    file=self.path, row=r, column=name, value=v)
+                v = unicodedata.normalize("NFC", v)
             out.append(v)
         return out
 

@@ -188,7 +188,9 @@ def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: fl
     g = float(terms.sum())
     if g == 0.0:
         return 0.0, None, None, (0.0, 0.0)
-    nu = g * g / float(np.sum(terms ** 2 / n))
+    spread = float(np.sum(terms ** 2 / n))
+    # the same nu from terms scaled by g when the squares underflow (mean squares near 1e-124)
+    nu = g * g / spread if spread > 0 else 1.0 / float(np.sum((terms / g) ** 2 / n))
     satt = (nu * g / stats.chi2.ppf(1 - a / 2, nu), nu * g / stats.chi2.ppf(a / 2, nu))
     G = 1.0 - n / stats.chi2.ppf(1 - a / 2, n)
     H = n / stats.chi2.ppf(a / 2, n) - 1.0
