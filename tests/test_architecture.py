@@ -65,3 +65,64 @@ def test_layers_point_one_way():
         if path.name not in ("cli.py",) and "report" in _imports(path):
             wrong.append(f"{path.relative_to(PACKAGE)} imports the report")
     assert wrong == []
+
+
+TOY_MODULE = '''
+"""A toy characteristic (test only): the residual SD of the calibration against a maximum."""
+from validator.criteria import Criterion, at_most
+from validator.engine import Assessment, Characteristic
+
+MAXIMUM = 1e9       # common practice, no published source: a limit any calibration meets
+
+
+def assess(ctx):
+    sd = ctx.calibration.fit.residual_sd
+    return Assessment(sd, (Criterion("toy-residual-sd", f"residual SD at most {MAXIMUM:g}", sd, MAXIMUM,
+                                     at_most(sd, MAXIMUM)),))
+
+
+ENTRY = Characteristic("toy", assess)
+'''
+
+
+def test_a_toy_characteristic_flows_through_the_registry(make_study, outside, tmp_path, monkeypatch):
+    """A characteristic in a module of its own, added by one registry line (the tuple patched
+    here), reaches the engine's context, results.json and the dossier without editing any file."""
+    import json
+    import sys
+
+    from bs4 import BeautifulSoup
+
+    import validator.engine as engine
+    from validator.cli import main
+
+    folder = tmp_path / "toy_pkg"
+    folder.mkdir()
+    (folder / "toy_characteristic.py").write_text(TOY_MODULE, encoding="utf-8")
+    monkeypatch.syspath_prepend(str(folder))
+    import toy_characteristic
+
+    monkeypatch.setattr(engine, "REGISTRY", engine.REGISTRY + (toy_characteristic.ENTRY,))
+    study = make_study()
+    out = outside / "out"
+    assert main(["run", str(study), "--out", str(out), "--format", "json,html"]) == 0
+    results = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    toy = [c for c in results["analytes"][0]["criteria"] if c["id"] == "toy-residual-sd"]
+    assert len(toy) == 1 and toy[0]["pass"] is True and toy[0]["limit"] == toy_characteristic.MAXIMUM
+    assert toy[0]["value"] == results["analytes"][0]["calibration"]["residual_sd"]     # the context's value
+    text = BeautifulSoup((out / "dossier.html").read_text(encoding="utf-8"), "html.parser").get_text(" ")
+    assert "residual SD at most 1e+09" in text
+    sys.modules.pop("toy_characteristic", None)
+
+
+def test_the_registry_is_an_ordered_tuple_and_each_step_reads_only_what_came_before():
+    from validator.engine import REGISTRY, AnalyteContext
+
+    names = [c.name for c in REGISTRY]
+    assert isinstance(REGISTRY, tuple) and len(set(names)) == len(names)
+    fields = [f.name for f in dataclasses.fields(AnalyteContext)]
+    assert all(n in fields for n in names)
+    # the working range and the LOQ verification use recovery and precision; re-validation uses all
+    assert names.index("working_range") > max(names.index("recovery"), names.index("precision"))
+    assert names.index("loq_check") > names.index("detection")
+    assert names[-1] == "revalidation"

@@ -7,7 +7,8 @@ that the rendering layer only draws and formats.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
+from typing import Callable, Generic, TypeVar
 
 import numpy as np
 from scipy import stats
@@ -25,8 +26,10 @@ from .criteria import Criterion
 from .characteristics.revalidation import RevalidationResult, RunSummary, assess_revalidation, run_summary
 from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .inputs.loading import AnalyteData, LoadedStudy
+from .inputs.study import StudyConfig
 
-__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "analyse_study", "curve_bands",
+__all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "AnalyteContext",
+           "Assessment", "Characteristic", "REGISTRY", "analyse_analyte", "analyse_study", "curve_bands",
            "residual_series"]
 
 
@@ -153,83 +156,192 @@ class StudyResult:
         return overall_verdict(self.criteria)
 
 
-def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
-    cal_cfg, crit, det = config.calibration, config.criteria, config.detection
-    alpha = crit.alpha
-    cal = analyse_calibration(
-        data.calibration.concentration, data.calibration.response,
-        model=cal_cfg.model, weighting=cal_cfg.weighting, through_origin=cal_cfg.through_origin,
-        alpha=alpha, tolerance_pct=crit.back_calculation_tolerance_pct,
-        lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
-    samples = tuple(quantify(cal.fit, s.id, s.responses) for s in data.samples)
-    criteria = list(calibration_criteria(cal, crit))
-    detection = assess_detection(cal, data.blanks, lod_factor=det.lod_factor, loq_factor=det.loq_factor,
-                                 readings_per_sample=det.readings_per_sample, beta=det.beta, alpha=alpha,
-                                 reporting_method=det.reporting_basis)
-    recovery = precision = rm = None
-    failing, assessed = [], []
-    if data.recovery is not None:
-        r = data.recovery
-        recovery = assess_recovery(r.added, r.found, r.native, alpha=alpha,
-                                   range_for=config.recovery.range_for)
-        criteria += recovery_criteria(recovery)
-        assessed += [lv.added for lv in recovery.levels]
-        failing += [(lv.added, "recovery") for lv in recovery.levels if not lv.passed]
-    if data.precision is not None:
-        p = data.precision
-        precision = tuple(
-            assess_precision_level(level, p.found[p.level == level],
-                                   [s for s, lv in zip(p.series, p.level) if lv == level],
-                                   alpha=alpha, unit=concentration_unit, offset=p.offset)
-            for level in np.unique(p.level))
-        for lv in precision:
-            crits = precision_level_criteria(lv, config.precision.limits_for(lv.level))
-            criteria += crits
-            assessed.append(lv.level)
-            if any(c.passed is False for c in crits):
-                failing.append((lv.level, "precision"))
-    if data.reference_material is not None:
-        rmc = config.reference_material
-        rm = assess_reference_material(data.reference_material, rmc.certified_value,
-                                       rmc.standard_uncertainty, k=rmc.coverage_factor,
-                                       measurement_uncertainty=rmc.measurement_standard_uncertainty)
-        criteria.append(reference_material_criterion(rm))
-    reported = detection.reported
-    loq_check = verify_loq(reported.loq, precision or (), recovery.levels if recovery else (),
-                           det.loq_rsd_max_pct)
-    if loq_check.levels:
-        criteria.append(loq_criterion(loq_check))
-    wr = working_range(cal.back_calculated, reported.loq, reported.method, failing, assessed,
-                       concentration_unit)
-    criteria.append(working_range_criterion(wr, "" if reported.loq is not None else
-                                            (reported.reason or "it does not exist for these data")))
-    comparison = reval = None
-    if data.comparison is not None:
-        cc = config.comparison
-        cd = data.comparison
-        comparison = assess_comparison(cd.samples, cd.reference, cd.test, error_ratio=cc.error_ratio, slope_limits=cc.slope_limits,
-                                       intercept_limits=cc.intercept_limits,
-                                       percentage=cc.percentage_differences, alpha=alpha)
-        criteria += comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits)
-    if data.previous is not None:
-        rc = config.revalidation
-        reval = assess_revalidation(RunSummary.from_results(data.previous),
-                                    run_summary(cal, detection, recovery, precision or ()),
+@dataclass(frozen=True)
+class AnalyteContext:
+    """One analyte's data and settings, and every result assessed so far (typed, never a dict).
+
+    A characteristic that uses another's results (working range, LOQ verification,
+    re-validation) reads them here; the registry's order guarantees they exist.
+    """
+
+    data: AnalyteData
+    config: StudyConfig
+    unit: str = ""
+    calibration: CalibrationResult | None = None
+    samples: tuple[SampleResult, ...] = ()
+    detection: DetectionResult | None = None
+    recovery: RecoveryResult | None = None
+    precision: tuple[PrecisionLevel, ...] = ()
+    reference_material: ReferenceMaterialResult | None = None
+    loq_check: LoqCheck | None = None
+    working_range: WorkingRange | None = None
+    comparison: ComparisonResult | None = None
+    revalidation: RevalidationResult | None = None
+    criteria: tuple[Criterion, ...] = ()
+    # characteristics without a field of their own here (added to the registry only), by name
+    others: tuple[tuple[str, Assessment], ...] = ()
+
+    @property
+    def alpha(self) -> float:
+        return self.config.criteria.alpha
+
+
+R = TypeVar("R")
+
+
+@dataclass(frozen=True)
+class Assessment(Generic[R]):
+    """What one characteristic adds: its result (stored in the context field of its name) and criteria."""
+
+    result: R
+    criteria: tuple[Criterion, ...] = ()
+
+
+@dataclass(frozen=True)
+class Characteristic:
+    """A registry entry: the context field it fills and the step that assesses it."""
+
+    name: str
+    assess: Callable[[AnalyteContext], Assessment | None]      # None: not assessed for this analyte
+
+
+def _calibration(ctx: AnalyteContext) -> Assessment:
+    cal_cfg, crit = ctx.config.calibration, ctx.config.criteria
+    d = ctx.data.calibration
+    cal = analyse_calibration(d.concentration, d.response, model=cal_cfg.model, weighting=cal_cfg.weighting,
+                              through_origin=cal_cfg.through_origin, alpha=ctx.alpha,
+                              tolerance_pct=crit.back_calculation_tolerance_pct,
+                              lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
+    return Assessment(cal, calibration_criteria(cal, crit))
+
+
+def _samples(ctx: AnalyteContext) -> Assessment:
+    return Assessment(tuple(quantify(ctx.calibration.fit, s.id, s.responses) for s in ctx.data.samples))
+
+
+def _detection(ctx: AnalyteContext) -> Assessment:
+    det = ctx.config.detection
+    return Assessment(assess_detection(ctx.calibration, ctx.data.blanks, lod_factor=det.lod_factor,
+                                       loq_factor=det.loq_factor, readings_per_sample=det.readings_per_sample,
+                                       beta=det.beta, alpha=ctx.alpha, reporting_method=det.reporting_basis))
+
+
+def _recovery(ctx: AnalyteContext) -> Assessment | None:
+    r = ctx.data.recovery
+    if r is None:
+        return None
+    recovery = assess_recovery(r.added, r.found, r.native, alpha=ctx.alpha, range_for=ctx.config.recovery.range_for)
+    return Assessment(recovery, recovery_criteria(recovery))
+
+
+def _precision(ctx: AnalyteContext) -> Assessment | None:
+    p = ctx.data.precision
+    if p is None:
+        return None
+    levels = tuple(assess_precision_level(level, p.found[p.level == level],
+                                          [s for s, lv in zip(p.series, p.level) if lv == level],
+                                          alpha=ctx.alpha, unit=ctx.unit, offset=p.offset)
+                   for level in np.unique(p.level))
+    return Assessment(levels, tuple(c for lv in levels for c in _precision_criteria(ctx, lv)))
+
+
+def _precision_criteria(ctx: AnalyteContext, lv: PrecisionLevel) -> tuple:
+    return precision_level_criteria(lv, ctx.config.precision.limits_for(lv.level))
+
+
+def _reference_material(ctx: AnalyteContext) -> Assessment | None:
+    if ctx.data.reference_material is None:
+        return None
+    rmc = ctx.config.reference_material
+    rm = assess_reference_material(ctx.data.reference_material, rmc.certified_value, rmc.standard_uncertainty,
+                                   k=rmc.coverage_factor, measurement_uncertainty=rmc.measurement_standard_uncertainty)
+    return Assessment(rm, (reference_material_criterion(rm),))
+
+
+def _loq_check(ctx: AnalyteContext) -> Assessment:
+    check = verify_loq(ctx.detection.reported.loq, ctx.precision,
+                       ctx.recovery.levels if ctx.recovery else (), ctx.config.detection.loq_rsd_max_pct)
+    return Assessment(check, (loq_criterion(check),) if check.levels else ())
+
+
+def _working_range(ctx: AnalyteContext) -> Assessment:
+    """The range narrowed by every recovery or precision level that fails its own criteria."""
+    reported = ctx.detection.reported
+    levels = ctx.recovery.levels if ctx.recovery else ()
+    assessed = [lv.added for lv in levels] + [lv.level for lv in ctx.precision]
+    failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
+               + [(lv.level, "precision") for lv in ctx.precision
+                  if any(c.passed is False for c in _precision_criteria(ctx, lv))])
+    wr = working_range(ctx.calibration.back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
+    return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
+                                                   (reported.reason or "it does not exist for these data")),))
+
+
+def _comparison(ctx: AnalyteContext) -> Assessment | None:
+    cd = ctx.data.comparison
+    if cd is None:
+        return None
+    cc = ctx.config.comparison
+    comparison = assess_comparison(cd.samples, cd.reference, cd.test, error_ratio=cc.error_ratio,
+                                   slope_limits=cc.slope_limits, intercept_limits=cc.intercept_limits,
+                                   percentage=cc.percentage_differences, alpha=ctx.alpha)
+    return Assessment(comparison, comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits))
+
+
+def _revalidation(ctx: AnalyteContext) -> Assessment | None:
+    rc = ctx.config.revalidation
+    if ctx.data.previous is not None:
+        reval = assess_revalidation(RunSummary.from_results(ctx.data.previous),
+                                    run_summary(ctx.calibration, ctx.detection, ctx.recovery, ctx.precision),
                                     slope_change_max_pct=rc.slope_change_max_pct,
-                                    residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=alpha)
-        criteria += _revalidation_criteria(reval, rc)
-    elif config.revalidation is not None:       # a re-validation in which this analyte has no counterpart
-        margin = config.revalidation.slope_change_max_pct
-        criteria.append(Criterion(
+                                    residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=ctx.alpha)
+        return Assessment(reval, tuple(_revalidation_criteria(reval, rc)))
+    if rc is not None:       # a re-validation in which this analyte has no counterpart
+        margin = rc.slope_change_max_pct
+        return Assessment(None, (Criterion(
             "slope-equivalence", f"slope change inside ±{margin:g} % of the previous validation", None,
             [-margin, margin], None, "not applicable: the previous results have no analyte matching this one "
-            "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared"))
-    return AnalyteResult(name=data.name, data=data, calibration=cal, samples=samples,
-                         criteria=tuple(criteria), bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit), detection=detection,
-                         working_range=wr, loq_check=loq_check, recovery=recovery,
-                         precision=precision or (), reference_material=rm, revalidation=reval,
-                         comparison=comparison)
+            "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared"),))
+    return None
+
+
+_CONTEXT_FIELDS = {f.name for f in fields(AnalyteContext)} - {"data", "config", "unit", "criteria", "others"}
+
+# The characteristics in the order they are assessed: a step may read only the context fields of
+# the steps above it. Its criteria appear in results.json in this order too.
+REGISTRY: tuple[Characteristic, ...] = (
+    Characteristic("calibration", _calibration),
+    Characteristic("samples", _samples),
+    Characteristic("detection", _detection),
+    Characteristic("recovery", _recovery),
+    Characteristic("precision", _precision),
+    Characteristic("reference_material", _reference_material),
+    Characteristic("loq_check", _loq_check),
+    Characteristic("working_range", _working_range),
+    Characteristic("comparison", _comparison),
+    Characteristic("revalidation", _revalidation),
+)
+
+
+def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
+    """Every characteristic of :data:`REGISTRY`, in order, for one analyte."""
+    ctx = AnalyteContext(data=data, config=config, unit=concentration_unit)
+    for step in REGISTRY:
+        done = step.assess(ctx)
+        if done is None:
+            continue
+        criteria = ctx.criteria + tuple(done.criteria)
+        if step.name in _CONTEXT_FIELDS:
+            ctx = replace(ctx, **{step.name: done.result}, criteria=criteria)
+        else:
+            ctx = replace(ctx, others=ctx.others + ((step.name, done),), criteria=criteria)
+    cal = ctx.calibration
+    return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
+                         criteria=ctx.criteria, bands=curve_bands(cal.fit),
+                         residual_views=residual_series(cal.fit), detection=ctx.detection,
+                         working_range=ctx.working_range, loq_check=ctx.loq_check, recovery=ctx.recovery,
+                         precision=ctx.precision, reference_material=ctx.reference_material,
+                         revalidation=ctx.revalidation, comparison=ctx.comparison)
 
 
 def _revalidation_criteria(reval, rc) -> list:
