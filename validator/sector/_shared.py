@@ -14,7 +14,7 @@ from scipy import stats
 
 from .._common import ConfidenceInterval, quiet_numpy
 
-__all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "as_float_array", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
+__all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "as_float_array", "labels", "check_count", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
            "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided"]
 
 
@@ -46,6 +46,21 @@ def as_float_array(values, name: str, *, allow_nan: bool = False) -> np.ndarray:
 
 def _is_number(value) -> bool:
     return isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool)
+
+
+def labels(values, n: int, name: str) -> np.ndarray:
+    """One text label per result (lot, sample, ...), as an object array of ``n`` strings."""
+    arr = np.asarray([str(v) for v in values], dtype=object)
+    if arr.size != n:
+        raise ValueError(f"{name}: expected {n} labels (one per result), got {arr.size}")
+    return arr
+
+
+def check_count(value, name: str, minimum: int = 1) -> int:
+    """A whole number of at least ``minimum`` (a count of lots, replicates, ...)."""
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
+        raise ValueError(f"{name} must be an integer >= {minimum}, got {value!r}")
+    return int(value)
 
 
 def check_fraction(value, name: str, *, low: float = 0.0, high: float = 1.0,

@@ -23,25 +23,12 @@ from fractions import Fraction
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
+from ._shared import (check_count, labels, MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
                       mean_sd_cv, t_quantile_two_sided)
 
 __all__ = ["CarryOver", "carry_over", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
            "DilutionIntegrity", "dilution_integrity", "ReanalysedSample", "IncurredSampleReanalysis",
            "incurred_sample_reanalysis", "reanalysis_sample_count"]
-
-
-def _labels(values, n: int, name: str) -> np.ndarray:
-    arr = np.asarray([str(v) for v in values], dtype=object)
-    if arr.size != n:
-        raise ValueError(f"{name}: expected {n} labels (one per result), got {arr.size}")
-    return arr
-
-
-def _check_count(value, name: str, minimum: int = 1) -> int:
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
-        raise ValueError(f"{name} must be an integer >= {minimum}, got {value!r}")
-    return int(value)
 
 
 def _at_least(count: int, total: int, fraction: float) -> bool:
@@ -159,12 +146,12 @@ def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=N
     """
     a_lim = check_positive(analyte_limit_percent, "analyte_limit_percent")
     i_lim = check_positive(internal_standard_limit_percent, "internal_standard_limit_percent")
-    min_lots = _check_count(min_lots, "min_lots")
+    min_lots = check_count(min_lots, "min_lots")
     frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
     blanks = as_float_array(blank_response, "blank_response")
     if blanks.size == 0:
         raise ValueError("blank_response: at least one blank response is needed, got none")
-    lots = _labels(lot, blanks.size, "lot")
+    lots = labels(lot, blanks.size, "lot")
     ref = _reference_mean(lloq_response, "lloq_response")
     if (blank_internal_standard is None) != (internal_standard_response is None):
         raise ValueError("blank_internal_standard and internal_standard_response: give both or neither")
@@ -254,7 +241,7 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
     lv = check_level(level)
     if judged_on not in JUDGEMENTS:
         raise ValueError(f"judged_on must be one of {JUDGEMENTS!r}, got {judged_on!r}")
-    min_rep = _check_count(min_replicates, "min_replicates", 2)
+    min_rep = check_count(min_replicates, "min_replicates", 2)
     x = as_float_array(stored, "stored")
     nom = check_positive(nominal, "nominal") if nominal is not None else None
     fresh_values = as_float_array(fresh, "fresh") if fresh is not None else None
@@ -353,7 +340,7 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     nom = check_positive(nominal, "nominal")
     b_lim = check_positive(max_bias_percent, "max_bias_percent")
     c_lim = check_positive(max_cv_percent, "max_cv_percent")
-    min_rep = _check_count(min_replicates, "min_replicates", 2)
+    min_rep = check_count(min_replicates, "min_replicates", 2)
     with quiet_numpy():
         back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
     s = mean_sd_cv(back)
@@ -438,5 +425,5 @@ def reanalysis_sample_count(n_study_samples: int) -> int:
     10 % of the first 1000 study samples plus 5 % of those beyond 1000,
     rounded up to a whole sample (the rounding is this function's choice).
     """
-    n = _check_count(n_study_samples, "n_study_samples", 0)
+    n = check_count(n_study_samples, "n_study_samples", 0)
     return int(math.ceil(Fraction(min(n, 1000), 10) + Fraction(max(n - 1000, 0), 20)))

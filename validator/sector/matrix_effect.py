@@ -23,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
+from ._shared import (check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
                       t_quantile_two_sided)
 
 __all__ = ["SlopeRatioMatrixEffect", "slope_ratio_matrix_effect", "LotAccuracy", "LotAccuracyAssessment",
@@ -194,19 +194,6 @@ class LotAccuracyAssessment:
     reason: str = ""
 
 
-def _labels(values, n: int, name: str) -> np.ndarray:
-    arr = np.asarray([str(v) for v in values], dtype=object)
-    if arr.size != n:
-        raise ValueError(f"{name}: expected {n} labels (one per result), got {arr.size}")
-    return arr
-
-
-def _check_count(value, name: str, minimum: int = 1) -> int:
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < minimum:
-        raise ValueError(f"{name} must be an integer >= {minimum}, got {value!r}")
-    return int(value)
-
-
 def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.0,
                  max_cv_percent: float = 15.0, min_lots: int = 6, min_replicates: int = 3) -> LotAccuracyAssessment:
     """ICH M10 matrix effect at one QC level: accuracy and precision in each matrix lot.
@@ -235,10 +222,10 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
     nom = check_positive(nominal, "nominal")
     check_positive(max_bias_percent, "max_bias_percent")
     check_positive(max_cv_percent, "max_cv_percent")
-    min_lots = _check_count(min_lots, "min_lots")
-    min_rep = _check_count(min_replicates, "min_replicates", 2)
+    min_lots = check_count(min_lots, "min_lots")
+    min_rep = check_count(min_replicates, "min_replicates", 2)
     values = as_float_array(measured, "measured")
-    lots = _labels(lot, values.size, "lot")
+    lots = labels(lot, values.size, "lot")
     out = []
     for name in dict.fromkeys(lots):
         m = mean_sd_cv(values[lots == name])
@@ -310,13 +297,13 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
     100 SD / mean of the lots' normalised factors (n - 1 SD).
     """
     check_positive(max_cv_percent, "max_cv_percent")
-    min_lots = _check_count(min_lots, "min_lots", 2)
+    min_lots = check_count(min_lots, "min_lots", 2)
     a = as_float_array(analyte_in_matrix, "analyte_in_matrix")
     s = as_float_array(internal_standard_in_matrix, "internal_standard_in_matrix")
     if a.size != s.size:
         raise ValueError(f"analyte_in_matrix and internal_standard_in_matrix must pair up, got {a.size} "
                          f"and {s.size} values")
-    lots = _labels(lot, a.size, "lot")
+    lots = labels(lot, a.size, "lot")
     a0 = mean_sd_cv(as_float_array(analyte_neat, "analyte_neat")).mean
     s0 = mean_sd_cv(as_float_array(internal_standard_neat, "internal_standard_neat")).mean
 
