@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy"]
+__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy", "level_label"]
 
 
 @dataclass(frozen=True)
@@ -21,6 +21,22 @@ class ConfidenceInterval:
 
     def contains(self, value: float) -> bool:
         return self.low <= value <= self.high
+
+    @property
+    def label(self) -> str:
+        """The level as text, e.g. "95 %": the one way a confidence level becomes a label."""
+        return level_label(self.level)
+
+
+def level_label(level: float | None) -> str:
+    """A confidence level as a label: 0.99 -> "99 %", 0.9 -> "90 %" ("" when there is none).
+
+    Every "NN % CI" that validator writes (criteria, sentences, the dossier) is made here
+    from the interval's own level, never written as text.
+    """
+    if level is None:
+        return ""
+    return f"{100 * level:.6g} %"
 
 
 @dataclass(frozen=True)

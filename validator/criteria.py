@@ -20,9 +20,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-__all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_criteria",
-           "precision_level_criteria", "reference_material_criterion", "loq_criterion", "comparison_criteria",
-           "overall_verdict", "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
+__all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_level_criteria",
+           "reference_material_criterion", "loq_criterion", "comparison_criteria", "overall_verdict",
+           "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
 
 
 def _finite(v) -> bool:
@@ -199,10 +199,6 @@ def precision_level_criteria(lv, limits: tuple) -> tuple:
                              "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
 
-
-def precision_criteria(levels, limits_for) -> tuple:
-    """:func:`precision_level_criteria` for every level, in order."""
-    return tuple(c for lv in levels for c in precision_level_criteria(lv, limits_for(lv.level)))
 
 
 def reference_material_criterion(rm) -> Criterion:

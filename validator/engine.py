@@ -350,7 +350,7 @@ def _revalidation_criteria(reval, rc) -> list:
     what = sl.quantity if sl.sensitivity_range is None else \
         f"{sl.quantity} over {sl.sensitivity_range[0]:g} to {sl.sensitivity_range[1]:g}"
     ci = sl.change_ci_pct
-    level = "" if ci is None else f"{100 * ci.level:g} % "
+    level = "" if ci is None else f"{ci.label} "
     value = None if ci is None else [ci.low, ci.high]
     margin = [-rc.slope_change_max_pct, rc.slope_change_max_pct]
     slope = Criterion("slope-equivalence",

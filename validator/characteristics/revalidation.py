@@ -46,10 +46,6 @@ __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair"
            "CalibrationPoints", "LevelRepeatability", "run_summary"]
 
 
-def _level_pct(level: float) -> str:
-    return f"{100 * level:g} %"
-
-
 @dataclass(frozen=True)
 class SlopeComparison:
     """Change of the sensitivity between two runs and its equivalence decision.
@@ -491,7 +487,7 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
         where = "" if slope.sensitivity_range is None else \
             f" over {slope.sensitivity_range[0]:g} to {slope.sensitivity_range[1]:g}"
         reasons.append(f"{slope.quantity}{where} change {slope.change_pct:+.2f} % with "
-                       f"{_level_pct(slope.change_ci_pct.level)} CI {slope.change_ci_pct.low:+.2f} to "
+                       f"{slope.change_ci_pct.label} CI {slope.change_ci_pct.low:+.2f} to "
                        f"{slope.change_ci_pct.high:+.2f} % against the margin ±{slope_change_max_pct:g} %: "
                        f"{slope.verdict}")
         verdict = slope.verdict

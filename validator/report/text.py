@@ -8,6 +8,8 @@ study's alpha and limits but estimates nothing.
 
 from __future__ import annotations
 
+from .._common import level_label
+
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences"]
 
 SIG = 5
@@ -34,17 +36,6 @@ def fmt(value, sig: int = SIG) -> str:
 
 def fmt_p(value) -> str:
     return fmt(value, SIG_P)
-
-
-def level_label(level) -> str:
-    """An interval's own confidence level as a label, e.g. 0.99 -> "99 %" ("" when it has none).
-
-    Every "NN % CI" of the dossier comes from here, from the level recorded with the interval
-    in results.json, never from text.
-    """
-    if level is None:
-        return ""
-    return f"{100 * level:.6g} %"
 
 
 # results.json verdict words -> met (True), not met (False), not applicable (None): the one
