@@ -203,3 +203,16 @@ def test_protocol_refuses_a_limit_at_an_unplanned_level(make_study, outside, cap
     assert err == (f"validator: error: {study}, key recovery.levels[0].added: a limit at added = 3, a level "
                    "the design does not plan, would judge nothing\n")
     assert not (outside / "p").exists()
+
+
+def test_a_protocol_folder_can_be_signed_and_verified(make_study, outside, capsys, tmp_path_factory):
+    _study, pj = _protocol(make_study, outside, capsys)
+    keys = tmp_path_factory.mktemp("keys")
+    assert main(["keygen", str(keys / "qa.key")]) == 0
+    code, out, err = run(capsys, "sign", pj.parent, "--key", keys / "qa.key")
+    assert (code, err) == (0, "")
+    code, out, _ = run(capsys, "verify", pj.parent, "--public-key", keys / "qa.key.pub")
+    assert code == 0 and ": valid;" in out
+    pj.write_text(pj.read_text().replace("A. Approver", "B. Other"))
+    code, out, _ = run(capsys, "verify", pj.parent)
+    assert code == 1 and "CHANGED" in out
