@@ -487,9 +487,19 @@ def _criteria_rows(study, dc: dict) -> list:
         if value is None and key.count(".") == 0:
             continue            # a characteristic not assessed
         source = ("validator default (common practice, not a regulatory limit): confirm or declare it"
-                  if key in defaults else "declared in the study file")
+                  if key in defaults else "not set: no criterion on it" if value is None
+                  else "declared in the study file")
         rows.append({"key": key, "value": _shown(value), "source": source})
     return rows
+
+
+_ASSESSED = (("calibration", "calibration function, lack of fit and back-calculated accuracy"),
+             ("detection", "detection and quantitation limits, working range"),
+             ("samples", "quantification of unknowns"), ("blanks", "blanks (blank-based limits)"),
+             ("recovery", "recovery (trueness)"), ("precision", "repeatability and intermediate precision"),
+             ("reference_material", "bias against a certified reference material"),
+             ("revalidation", "comparison with a previous validation"),
+             ("comparison", "method comparison on shared samples"))
 
 
 def document_data(protocol: dict, study, notes) -> dict:
@@ -500,6 +510,8 @@ def document_data(protocol: dict, study, notes) -> dict:
                                      "analyst": cfg.analyst, "reviewer": cfg.reviewer,
                                      "concentration_unit": cfg.concentration_unit,
                                      "response_unit": cfg.response_unit, "notes": cfg.notes},
+            "assessed": [label for key, label in _ASSESSED
+                         if protocol["design_and_criteria"].get(key) is not None],
             "design": _design_rows(study.config.design),
             "criteria": _criteria_rows(study, protocol["design_and_criteria"]),
             "notes": list(notes),
