@@ -216,3 +216,21 @@ def test_a_protocol_folder_can_be_signed_and_verified(make_study, outside, capsy
     pj.write_text(pj.read_text().replace("A. Approver", "B. Other"))
     code, out, _ = run(capsys, "verify", pj.parent)
     assert code == 1 and "CHANGED" in out
+
+
+def test_compare_lists_changed_added_and_removed_keys_and_the_study_id(make_study):
+    from validator.protocol import compare
+
+    study = read_study_file(make_study(BODY, files={}))
+    protocol = {"study_id": "T-0", "design_and_criteria": normalised(study.config)}
+    protocol["design_and_criteria"]["criteria"] = dict(protocol["design_and_criteria"]["criteria"],
+                                                       alpha=0.01, old_key=1.0)
+    del protocol["design_and_criteria"]["criteria"]["r_squared_min"]
+    protocol["design_and_criteria"]["recovery"] = {"range_pct": [90.0, 110.0], "levels": []}
+    texts = [d.text for d in compare(protocol, study)]
+    assert texts == [
+        "deviation: study.id: protocol T-0, run T-1",
+        "deviation: criteria.alpha: protocol 0.01, run 0.05",
+        "deviation: criteria.old_key: protocol 1.0, run not declared",
+        "deviation: criteria.r_squared_min: protocol not declared, run none",
+        'deviation: recovery: protocol {"levels": [], "range_pct": [90.0, 110.0]}, run none']

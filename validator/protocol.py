@@ -208,8 +208,8 @@ def design_checks(study) -> tuple:
                                              "section to assess it"))
     cal = design.calibration
     if cal is not None:
-        need = {"linear": 2 if not cfg.calibration.through_origin else 1, "quadratic": 3, "auto": 3}[
-            cfg.calibration.model] + 1
+        # the same minimum as the data check in validator.loading
+        need = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
         if len(cal.levels) < need:
             errors.append(("design.calibration.levels", f"plans {len(cal.levels)} level(s); the "
                            f"{cfg.calibration.model} model needs at least {need}"))
@@ -353,18 +353,23 @@ def _flat(value, prefix: str, out: dict) -> None:
         out[prefix] = value        # lists (levels, ranges) are compared whole
 
 
+def _differences(before, now, prefix: str, out: list) -> None:
+    """Key by key where both sides are tables; a whole value (a list, a section added or removed) otherwise."""
+    if isinstance(before, dict) and isinstance(now, dict):
+        for key in sorted(set(before) | set(now)):
+            _differences(before.get(key, _MISSING), now.get(key, _MISSING),
+                         f"{prefix}.{key}" if prefix else key, out)
+    elif before is _MISSING or now is _MISSING or canonical_text(before) != canonical_text(now):
+        out.append(Deviation(prefix, before, now))
+
+
 def compare(protocol: dict, study) -> list:
-    """Deviations of the study's design and criteria from the protocol's: changed, added and removed keys."""
+    """Deviations of the study's design and criteria from the protocol's: changed, added and removed keys
+    (a section added or removed is one deviation), and a different study id."""
     out = []
     if protocol["study_id"] != study.config.study.id:
         out.append(Deviation("study.id", protocol["study_id"], study.config.study.id))
-    before, now = {}, {}
-    _flat(protocol["design_and_criteria"], "", before)
-    _flat(normalised(study.config), "", now)
-    for key in sorted(set(before) | set(now)):
-        a, b = before.get(key, _MISSING), now.get(key, _MISSING)
-        if a is _MISSING or b is _MISSING or canonical_text(a) != canonical_text(b):
-            out.append(Deviation(key, a, b))
+    _differences(protocol["design_and_criteria"], normalised(study.config), "", out)
     return out
 
 
