@@ -234,3 +234,15 @@ def test_compare_lists_changed_added_and_removed_keys_and_the_study_id(make_stud
         "deviation: criteria.old_key: protocol 1.0, run not declared",
         "deviation: criteria.r_squared_min: protocol not declared, run none",
         'deviation: recovery: protocol {"levels": [], "range_pct": [90.0, 110.0]}, run none']
+
+
+def test_a_file_that_is_not_a_protocol_is_refused(make_study, outside, capsys):
+    study = make_study(BODY)
+    bad = outside / "bad.json"
+    bad.write_text("{}")
+    code, _, err = run(capsys, "run", study, "--out", outside / "r", "--protocol", bad)
+    assert code == 2 and err == (f'validator: error: {bad}, key protocol_version: is not a protocol.json written '
+                                 'by validator ("protocol_version" is missing or not text)\n')
+    code, _, err = run(capsys, "run", study, "--out", outside / "r", "--protocol", outside / "none.json")
+    assert code == 2 and "protocol file not found" in err
+    assert not (outside / "r").exists()
