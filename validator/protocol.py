@@ -301,7 +301,7 @@ def read_protocol(path: str) -> tuple:
         raise StudyError("is not a protocol.json written by validator (not a JSON object)", file=path)
     for key, kind in _REQUIRED.items():
         if not isinstance(doc.get(key), kind):
-            raise StudyError(f'is not a protocol.json written by validator ("{key}" is missing or not a '
+            raise StudyError(f'is not a protocol.json written by validator ("{key}" is missing or not '
                              f"{ {str: 'text', dict: 'an object'}[kind]})", file=path, key=key)
     if doc["protocol_version"] != PROTOCOL_VERSION:
         raise StudyError(f"protocol version {show(doc['protocol_version'])} is not supported (this validator "
