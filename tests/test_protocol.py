@@ -7,6 +7,8 @@ import json
 import re
 
 import jsonschema
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 import pytest
 
 from conftest import CALIBRATION
@@ -246,3 +248,17 @@ def test_a_file_that_is_not_a_protocol_is_refused(make_study, outside, capsys):
     code, _, err = run(capsys, "run", study, "--out", outside / "r", "--protocol", outside / "none.json")
     assert code == 2 and "protocol file not found" in err
     assert not (outside / "r").exists()
+
+
+CRITERIA_LINES = ["alpha = 0.05", "back_calculation_tolerance_pct = 15", "lowest_level_tolerance_pct = 20.0",
+                  "min_fraction_within_tolerance = 0.75", "r_squared_min = 0.99"]
+
+
+@given(order=st.permutations(range(len(CRITERIA_LINES))), explicit=st.lists(st.booleans(), min_size=4, max_size=4))
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+def test_digest_invariant_under_key_order_and_explicit_defaults(make_study, order, explicit):
+    """Property: any order of the [criteria] keys, any default written or left out: one digest."""
+    # the first four lines are validator's defaults; r_squared_min is always written
+    lines = [CRITERIA_LINES[i] for i in order if i == 4 or explicit[i]]
+    body = BODY + "[criteria]\n" + "\n".join(lines) + "\n"
+    assert _digest_of(make_study, body) == _digest_of(make_study, BODY + "[criteria]\nr_squared_min = 0.99\n")
