@@ -33,6 +33,7 @@ from typing import Annotated, Literal, Optional
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
 
 from .errors import StudyError, control_character, show
+from .protocol import DesignSection, ProtocolSection
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
@@ -255,6 +256,8 @@ class StudyConfig(_Section):
     reference_material: Optional[ReferenceMaterialSection] = None
     revalidation: Optional[RevalidationSection] = None
     comparison: Optional[ComparisonSection] = None
+    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
+    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
 
 
 @dataclass(frozen=True)
