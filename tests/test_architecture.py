@@ -62,7 +62,8 @@ def test_layers_point_one_way():
             if bad:
                 wrong.append(f"{path.relative_to(PACKAGE)} imports {sorted(bad)}")
     for path in list(PACKAGE.glob("*.py")) + list((PACKAGE / "inputs").glob("*.py")):
-        if path.name not in ("cli.py",) and "report" in _imports(path):
+        # commands that write a document of their own: the command line, the protocol document
+        if path.name not in ("cli.py", "protocol.py") and "report" in _imports(path):
             wrong.append(f"{path.relative_to(PACKAGE)} imports the report")
     assert wrong == []
 

@@ -33,9 +33,11 @@ CATALOGUE = [
      "{dir}/study.toml, key calibration: required section is missing"),
     ("template-override", CALIB + '[report]\ntemplate = "mine.html"\n', None, "",
      "{dir}/study.toml, line 8, key report: unknown section; allowed: study, calibration, samples, "
-     "criteria, blanks, detection, recovery, precision, reference_material, revalidation, comparison"),
+     "criteria, blanks, detection, recovery, precision, reference_material, revalidation, comparison, design, "
+     "protocol"),
     ("data-missing", '[calibration]\ndata = "nope.csv"\n', {}, "",
-     "nope.csv: data file not found (looked for {dir}/nope.csv)"),
+     "nope.csv: data file not found (looked for {dir}/nope.csv); `validator protocol` works without data, "
+     "`check` and `run` need it"),
     ("data-empty", CALIB, {"calibration.csv": ""}, "", "calibration.csv: is empty (no header row)"),
     ("data-directory", CALIB, {"calibration.csv": None}, "", "calibration.csv: is a directory, not a data file"),
     ("missing-column", CALIB, {"calibration.csv": "concentration\n1\n"}, "",

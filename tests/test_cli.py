@@ -89,7 +89,8 @@ CASES = [
      'calibration.csv, row 2, column "concentration": concentration 0 cannot be weighted by 1/x; '
      'use weighting = "none" or "1/y", or remove the zero calibrator'),
     ('[calibration]\ndata = "missing.csv"\n', {},
-     "missing.csv: data file not found (looked for {tmp}/missing.csv)"),
+     "missing.csv: data file not found (looked for {tmp}/missing.csv); `validator protocol` works without data, "
+     "`check` and `run` need it"),
 ]
 
 

@@ -20,7 +20,7 @@ from validator.results import load_schema
 REPO = Path(__file__).resolve().parents[1]
 SERIALISER = REPO / "validator" / "results.py"
 # other functions whose dictionaries results.py writes as they are: (file, function)
-WRITERS = [(REPO / "validator" / "signing.py", "operator_and_host")]
+WRITERS = [(REPO / "validator" / "signing.py", "operator_and_host"), (REPO / "validator" / "protocol.py", "protocol_entry")]
 DOCS = (REPO / "docs" / "results.md").read_text(encoding="utf-8")
 # maps keyed by data, not by field name: library names, coefficient names
 DATA_KEYED = {"libraries", "coefficients"}

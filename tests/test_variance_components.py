@@ -253,3 +253,18 @@ def test_properties_permutation_and_scale(values, scale, shift, random):
     for cond in base.conditions:
         if cond.ci_mls is not None and cond.df is not None and not any(x.set_to_zero for x in base.components):
             assert cond.ci_mls.low <= cond.sd * (1 + 1e-12) and cond.sd <= cond.ci_mls.high * (1 + 1e-12)
+
+
+def test_tiny_mean_squares_do_not_underflow():
+    # found by Hypothesis: eleven zeros and 3.75e-114 made (c*MS)^2 underflow to 0 in Satterthwaite's df
+    day = np.repeat([1, 2, 3], 4)
+    run = np.tile([1, 1, 2, 2], 3)
+    y = np.array([0.0] * 11 + [3.75e-114])
+    small = nested_variance_components(y, [day, run])
+    large = nested_variance_components(y * 1e114, [day, run])
+    for a, b in zip(small.components, large.components):     # scaling y by k scales variances by k^2
+        assert a.variance == pytest.approx(b.variance * 1e-228, rel=1e-9, abs=1e-9 * np.var(y))
+    for a, b in zip(small.conditions, large.conditions):
+        assert (a.df is None) == (b.df is None)
+        if a.df is not None:
+            assert a.df == pytest.approx(b.df, rel=1e-9)

@@ -1,4 +1,4 @@
-"""Command line: ``validator run``, ``check``, ``verify``, ``keygen``, ``sign``, ``qualify``.
+"""Command line: ``validator protocol``, ``run``, ``check``, ``verify``, ``keygen``, ``sign``, ``qualify``.
 
 Errors the user can fix (:class:`~validator.errors.ValidatorError`) are caught
 here and only here: one line on stderr, exit code 2, no traceback.
@@ -76,10 +76,18 @@ def _cmd_run(args) -> int:
     from .results import build_results, dumps
 
     loaded = load_study(args.study)
-    target = check_target(args.out, [args.study] + [f.resolved for f in loaded.inputs])
+    held = _held_to_protocol(args, loaded)
+    target = check_target(args.out, [args.study] + [f.resolved for f in loaded.inputs]
+                          + ([held[0]] if held else []))
     check_existing(target, args.out, args.force)          # early; repeated under the lock
     result = analyse_study(loaded)
+    if held:                                              # deviations join the criteria here, and only here
+        from .protocol import with_deviations
+        result = with_deviations(result, held[3])
     results = build_results(result, generated_at=generated_at)
+    if held:
+        from .protocol import protocol_entry
+        results["protocol"] = protocol_entry(*held)
 
     def write(folder: Path):
         if "json" in formats:
@@ -96,6 +104,44 @@ def _cmd_run(args) -> int:
           f"{judged.count(False)} criterion/criteria not met, {judged.count(None)} not applicable; "
           f"output in {args.out}")
     return 0 if results["verdict"] == "pass" else 1
+
+
+def _held_to_protocol(args, loaded):
+    """(path, sha256, protocol, deviations) of the protocol the run is held to, or None.
+
+    ``--protocol`` or ``[protocol] file`` (relative to the study file); both given must name one file.
+    """
+    from .protocol import compare, design_deviations, read_protocol
+
+    declared = loaded.config.protocol
+    path = args.protocol
+    if declared is not None:
+        in_study = str(loaded.study.resolve(declared.file))
+        if path is not None and Path(path).resolve() != Path(in_study).resolve():
+            raise ValidatorError(f'--protocol "{show(path)}" and file = "{show(declared.file)}" in the '
+                                 "study file's [protocol] section name different files; give one")
+        path = path or in_study
+    if path is None:
+        return None
+    protocol, sha256 = read_protocol(path)
+    deviations = compare(protocol, loaded.study) + design_deviations(loaded.config.design, loaded.analytes)
+    return path, sha256, protocol, deviations
+
+
+def _cmd_protocol(args) -> int:
+    generated_at = run_timestamp()
+    from .protocol import write_protocol_folder
+    from .inputs.study import read_study_file
+
+    study = read_study_file(args.study)
+    protocol = write_protocol_folder(study, args.out, force=args.force, generated_at=generated_at,
+                                     approved_on=args.approved_on, approved_by=args.approved_by,
+                                     paper=args.paper)
+    approval = (f"approved on {protocol['approved_on']} by {protocol['approved_by']}"
+                if protocol["approved_on"] else "not yet approved")
+    print(f"validator: protocol for {protocol['study_id']} written to {args.out} ({approval}); "
+          f"design and criteria digest {protocol['digest']}")
+    return 0
 
 
 def _cmd_check(args) -> int:
@@ -174,7 +220,19 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size")
     run.add_argument("--force", action="store_true",
                      help="replace a previous validator output at --out (nothing else)")
+    run.add_argument("--protocol", help="the approved protocol.json: deviations from it are listed and "
+                     "each is a criterion not met")
     run.set_defaults(func=_cmd_run)
+    proto = sub.add_parser("protocol", help="check the design and criteria before any data exist and write "
+                           "protocol.json and the protocol document")
+    proto.add_argument("study", help="the study file (TOML); its data files need not exist")
+    proto.add_argument("--out", required=True, help="output folder (the same rules as for run)")
+    proto.add_argument("--approved-on", help="approval date YYYY-MM-DD (with --approved-by)")
+    proto.add_argument("--approved-by", help="who approved the protocol (with --approved-on)")
+    proto.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size")
+    proto.add_argument("--force", action="store_true",
+                       help="replace a previous validator output at --out (nothing else)")
+    proto.set_defaults(func=_cmd_protocol)
     check = sub.add_parser("check", help="validate the study file and its data without analysing")
     check.add_argument("study")
     check.set_defaults(func=_cmd_check)

@@ -141,7 +141,8 @@ def _check_target(shown: str, input_files, cwd: Path | None) -> Path:
 
 # the only files validator itself writes into an output folder
 OUTPUT_NAMES = frozenset({"results.json", "dossier.html", "dossier.pdf", "qualification.json",
-                          "qualification.html", "qualification.pdf", MANIFEST})
+                          "qualification.html", "qualification.pdf", "protocol.json", "protocol.html",
+                          "protocol.pdf", MANIFEST})
 
 
 def _foreign_file(folder: Path, listed=OUTPUT_NAMES) -> str | None:

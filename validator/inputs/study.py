@@ -34,6 +34,7 @@ from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationErr
 
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
+from ..protocol import DesignSection, ProtocolSection
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
@@ -254,6 +255,8 @@ class StudyConfig(_Section):
     reference_material: Optional[ReferenceMaterialSection] = None
     revalidation: Optional[RevalidationSection] = None
     comparison: Optional[ComparisonSection] = None
+    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
+    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
 
 
 @dataclass(frozen=True)

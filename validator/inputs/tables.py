@@ -139,7 +139,8 @@ def _check_path(path: Path, shown: str, max_bytes: int) -> int:
     try:
         st = os.stat(path)
     except FileNotFoundError:
-        raise DataError(f"data file not found (looked for {path})", file=shown) from None
+        raise DataError(f"data file not found (looked for {path}); `validator protocol` works without "
+                        "data, `check` and `run` need it", file=shown) from None
     except OSError as exc:
         raise DataError(f"data file cannot be read ({exc.strerror})", file=shown) from None
     except ValueError:      # a NUL in the path; the study schema refuses it earlier

@@ -188,13 +188,14 @@ def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: fl
     g = float(terms.sum())
     if g == 0.0:
         return 0.0, None, None, (0.0, 0.0)
-    spread = float(np.sum(terms ** 2 / n))
-    # the same nu from terms scaled by g when the squares underflow (mean squares near 1e-124)
-    nu = g * g / spread if spread > 0 else 1.0 / float(np.sum((terms / g) ** 2 / n))
+    scale = float(terms.max())         # squares taken of terms / scale, so tiny mean squares do not underflow
+    unit = terms / scale
+    nu = (g / scale) ** 2 / float(np.sum(unit ** 2 / n))
     satt = (nu * g / stats.chi2.ppf(1 - a / 2, nu), nu * g / stats.chi2.ppf(a / 2, nu))
     G = 1.0 - n / stats.chi2.ppf(1 - a / 2, n)
     H = n / stats.chi2.ppf(a / 2, n) - 1.0
-    mls = (g - math.sqrt(float(np.sum(G ** 2 * terms ** 2))), g + math.sqrt(float(np.sum(H ** 2 * terms ** 2))))
+    mls = (g - scale * math.sqrt(float(np.sum(G ** 2 * unit ** 2))),
+           g + scale * math.sqrt(float(np.sum(H ** 2 * unit ** 2))))
     return g, float(nu), (float(satt[0]), float(satt[1])), (max(float(mls[0]), 0.0), float(mls[1]))
 
 
