@@ -15,7 +15,7 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from validator.results import load_schema
+from validator.results import SERIALISED, json_fields, load_schema
 
 REPO = Path(__file__).resolve().parents[1]
 SERIALISER = REPO / "validator" / "results.py"
@@ -48,8 +48,9 @@ def schema_properties() -> set:
 
 
 def written_keys() -> set:
-    """Every field name the serialiser writes: keys of its dict literals, and the interval
-    fields ``name``/``name_level`` written by ``_interval("name", ...)``."""
+    """Every field name the serialiser writes: keys of its dict literals, the interval
+    fields ``name``/``name_level`` written by ``_interval("name", ...)``, and the fields of
+    the result dataclasses written by its ``Serialiser`` (``results.SERIALISED``)."""
     tree = ast.parse(SERIALISER.read_text(encoding="utf-8"))
     keys = set()
     nodes = [n for top in tree.body if getattr(top, "name", "") not in DATA_KEYED_WRITERS for n in ast.walk(top)]
@@ -62,6 +63,8 @@ def written_keys() -> set:
         if (isinstance(node, ast.Subscript) and isinstance(node.ctx, ast.Store)
                 and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, str)):
             keys.add(node.slice.value)
+    for result_type in SERIALISED.values():
+        keys.update(json_fields(result_type))
     for path, name in WRITERS:
         tree = ast.parse(path.read_text(encoding="utf-8"))
         function = next(n for n in tree.body if getattr(n, "name", "") == name)

@@ -9,15 +9,18 @@ is documented in docs/results.md and by the JSON Schema shipped as
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import platform
+import typing
 from importlib import resources
 from importlib.metadata import PackageNotFoundError, version
 
 import numpy as np
 
-from ._common import finite_or_none as num
+from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__
+from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -53,6 +56,104 @@ def _interval(name: str, ci, missing=(None, None)) -> dict:
     if ci is None:
         return {name: None if missing is None else list(missing), f"{name}_level": None}
     return {name: _ci(ci), f"{name}_level": num(ci.level)}
+
+
+class Serialiser:
+    """Dataclass -> JSON value, in the manner of attrs' ``asdict``; collects ``not_applicable``.
+
+    - A dataclass becomes an object of its fields in declaration order; a field's
+      ``metadata`` renames it (``{"json": "p_value"}``) or leaves it out (``{"json": None}``).
+    - An interval field (``metadata={"interval": "pair"}`` or ``"null"``) is written as
+      ``name: [low, high]`` and ``name_level: level``; a missing one as ``[null, null]`` or
+      ``null`` (the field's historical form) with a ``null`` level.
+    - Floats go through :func:`finite_or_none` (NaN and infinity become ``null``); tuples
+      become lists; ints, bools, strings and ``None`` stay.
+    - Whenever a ``null`` is written inside an object that can say why (its ``null_reason``
+      property, else its ``reason`` field), ``{"item": <the object's path>, "reason": ...}`` is
+      added once to :attr:`not_applicable`.
+    """
+
+    def __init__(self):
+        self.not_applicable: list = []
+        self._listed: set = set()
+
+    def __call__(self, value, path: str):
+        return self._value(value, path, None)
+
+    def _null(self, owner):
+        if owner is not None and owner[0] not in self._listed:
+            self._listed.add(owner[0])
+            self.not_applicable.append({"item": owner[0], "reason": owner[1]})
+        return None
+
+    def _value(self, value, path, owner):
+        if value is None:
+            return self._null(owner)
+        if isinstance(value, (bool, str)):
+            return value
+        if isinstance(value, (int, np.integer)):
+            return int(value)
+        if isinstance(value, (float, np.floating)):
+            out = num(value)
+            return self._null(owner) if out is None else out
+        if dataclasses.is_dataclass(value):
+            return self._object(value, path, owner)
+        if isinstance(value, (tuple, list)):
+            return [self._value(v, f"{path}.{i}", owner) for i, v in enumerate(value)]
+        if isinstance(value, dict):
+            return {k: self._value(v, f"{path}.{k}", owner) for k, v in value.items()}
+        raise TypeError(f"results.json cannot hold {type(value).__name__} at {path}")
+
+    def _object(self, obj, path, owner):
+        reason = getattr(obj, "null_reason", None)
+        if reason is None:
+            reason = getattr(obj, "reason", None)
+        if isinstance(reason, str) and reason:
+            owner = (path, reason)
+        out = {}
+        for f in dataclasses.fields(obj):
+            name = f.metadata.get("json", f.name)
+            if name is None:
+                continue
+            value = getattr(obj, f.name)
+            if "interval" in f.metadata:
+                if value is None:
+                    out[name] = None if f.metadata["interval"] == "null" else [None, None]
+                    out[f"{name}_level"] = self._null(owner)
+                else:
+                    out[name] = [self._value(value.low, f"{path}.{name}.0", owner),
+                                 self._value(value.high, f"{path}.{name}.1", owner)]
+                    out[f"{name}_level"] = self._value(value.level, f"{path}.{name}_level", owner)
+            else:
+                out[name] = self._value(value, f"{path}.{name}", owner)
+        return out
+
+
+def json_fields(cls) -> set:
+    """Every results.json field name the :class:`Serialiser` can write for ``cls`` and the
+    dataclasses inside it (for the drift test against the schema and docs/results.md)."""
+    names: set = set()
+    seen: set = set()
+
+    def visit(tp):
+        if dataclasses.is_dataclass(tp) and isinstance(tp, type):
+            if tp in seen or tp is ConfidenceInterval:
+                return
+            seen.add(tp)
+            hints = typing.get_type_hints(tp)
+            for f in dataclasses.fields(tp):
+                name = f.metadata.get("json", f.name)
+                if name is None:
+                    continue
+                names.add(name)
+                if "interval" in f.metadata:
+                    names.add(f"{name}_level")
+                visit(hints[f.name])
+        for arg in typing.get_args(tp):
+            visit(arg)
+
+    visit(cls)
+    return names
 
 
 def _test(t, with_method=False):
@@ -117,6 +218,8 @@ def _calibration(a):
     }
 
 
+# analyte sections written by the Serialiser from their result types, not_applicable reasons and all
+SERIALISED = {"recovery": RecoveryResult, "reference_material": ReferenceMaterialResult}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -187,11 +290,6 @@ def _known_reasons(a) -> dict:
     wr = a.working_range
     if wr is not None:
         out["working_range"] = wr.basis or "no calibrator passed its back-calculation"
-    if a.recovery is not None:
-        for i, lv in enumerate(a.recovery.levels):
-            out[f"recovery.levels.{i}"] = (f"{lv.n} result(s) at added {lv.added:g}: the SD, CI and t test "
-                                           "need at least 2" if lv.n < 2 else
-                                           "the results are identical (zero SD): no t test")
     for i, lv in enumerate(a.precision or ()):
         an = lv.anova
         if lv.reason:
@@ -207,10 +305,6 @@ def _known_reasons(a) -> dict:
                 out[f"precision.levels.{i}.{name}"] = test.reason
         out[f"precision.levels.{i}.horrat"] = out[f"precision.levels.{i}.horwitz_prsd_pct"] = (
             lv.horwitz_note or "the Horwitz ratio needs a positive mean")
-    rm = a.reference_material
-    if rm is not None:
-        out["reference_material"] = (f"{rm.n} result(s): the SD and the uncertainty of the mean need at least 2"
-                                     if rm.n < 2 else "the value does not exist for these results")
     if a.revalidation is not None:
         out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
         out["revalidation"] = ("; ".join(a.revalidation.reasons) or
@@ -221,15 +315,20 @@ def _known_reasons(a) -> dict:
     return out
 
 
-def _not_applicable(a, entry: dict) -> list:
+def _not_applicable(a, entry: dict, collected: list = ()) -> list:
     """Every ``null`` test or estimate of the analyte entry, with its reason.
 
     The calibration tests keep their short item names (``lack_of_fit``, ...)
     and samples are named ``samples.<id>``; every other item is the dotted path,
     in the analyte entry, of the null value or of the object holding it. A
     section that was not assessed (``recovery``: null, ...) is not listed:
-    ``characteristics_assessed`` says so.
+    ``characteristics_assessed`` says so. ``collected`` holds the items the
+    :class:`Serialiser` recorded; they take the place, in document order, of the
+    walk over their sections.
     """
+    by_section: dict = {}
+    for item in collected:
+        by_section.setdefault(item["item"].split(".")[0], []).append(item)
     cal = a.calibration
     tests = {"lack_of_fit": cal.lack_of_fit, "mandel": cal.mandel, "normality": cal.normality,
              "heteroscedasticity": cal.heteroscedasticity, "levene": cal.levene,
@@ -244,6 +343,11 @@ def _not_applicable(a, entry: dict) -> list:
     listed = set()
     for path in null_paths({k: v for k, v in entry.items() if k not in SECTIONS or v is not None}):
         parts = path.split(".")
+        if parts[0] in by_section:
+            out.extend(by_section.pop(parts[0]))
+            continue
+        if parts[0] in SERIALISED:
+            continue
         prefixes = [".".join(parts[:cut]) for cut in range(len(parts), 0, -1)]
         if any(p in covered for p in prefixes):
             continue
@@ -273,17 +377,6 @@ def _detection(a):
                                  "reason": lc.reason,
                                  "levels": [{"source": r.source, "level": num(r.level), "rsd_pct": num(r.rsd_pct),
                                              "recovery_pct": num(r.recovery_pct)} for r in lc.levels]}}
-
-
-def _recovery(r):
-    if r is None:
-        return None
-    return {"n": r.n, "overall_mean_pct": num(r.overall_mean_pct), "levels": [
-        {"added": num(lv.added), "n": lv.n, "mean_pct": num(lv.mean_pct), "sd_pct": num(lv.sd_pct),
-         "rsd_pct": num(lv.rsd_pct), **_interval("ci_pct", lv.ci_pct),
-         "t_statistic": num(lv.t_statistic), "p_value": num(lv.pvalue), "range_pct": list(lv.range_pct),
-         "pass": lv.passed, "recoveries_pct": [num(v) for v in lv.recoveries_pct], "reason": lv.reason}
-        for lv in r.levels]}
 
 
 def _outlier(t):
@@ -323,16 +416,6 @@ def _precision(levels):
             "notes": lv.reason,
         })
     return {"levels": out}
-
-
-def _reference_material(rm):
-    if rm is None:
-        return None
-    return {"n": rm.n, "mean": num(rm.mean), "sd": num(rm.sd), "certified_value": num(rm.certified_value),
-            "certified_standard_uncertainty": num(rm.certified_uncertainty), "bias": num(rm.bias),
-            "bias_pct": num(rm.bias_pct), "u_mean": num(rm.u_mean),
-            "expanded_uncertainty": num(rm.expanded_uncertainty), "coverage_factor": rm.coverage_factor,
-            "significant": rm.significant, "u_mean_basis": rm.u_mean_basis, "reason": rm.reason}
 
 
 def _revalidation(r, previous, name):
@@ -410,6 +493,7 @@ def _limit(v):
 
 def _analyte(a, previous=None):
     wr = a.working_range
+    serialise = Serialiser()
     entry = {
         "name": a.name,
         "verdict": a.verdict,
@@ -422,16 +506,17 @@ def _analyte(a, previous=None):
         "detection": _detection(a),
         "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis,
                           "passing_levels": wr.passing_levels},
-        "recovery": _recovery(a.recovery),
+        "recovery": None if a.recovery is None else serialise(a.recovery, "recovery"),
         "precision": _precision(a.precision),
-        "reference_material": _reference_material(a.reference_material),
+        "reference_material": (None if a.reference_material is None
+                               else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": _comparison(a.comparison),
         "criteria": [{"id": c.id, "description": c.description, "value": _limit(c.value),
                       "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
         "diagnostics": list(a.calibration.diagnostics),
     }
-    entry["not_applicable"] = _not_applicable(a, entry)
+    entry["not_applicable"] = _not_applicable(a, entry, serialise.not_applicable)
     return entry
 
 

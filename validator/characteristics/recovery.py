@@ -11,7 +11,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
@@ -24,25 +24,35 @@ __all__ = ["RecoveryLevel", "RecoveryResult", "ReferenceMaterialResult", "assess
 
 @dataclass(frozen=True)
 class RecoveryLevel:
+    """One spiking level. Field order and ``metadata`` give its results.json form."""
+
     added: float
     n: int
-    recoveries_pct: tuple[float, ...]
     mean_pct: float
     sd_pct: float | None
     rsd_pct: float | None
-    ci_pct: ConfidenceInterval | None
+    ci_pct: ConfidenceInterval | None = field(metadata={"interval": "pair"})
     t_statistic: float | None
-    pvalue: float | None
+    pvalue: float | None = field(metadata={"json": "p_value"})
     range_pct: tuple[float, float]
-    passed: bool
+    passed: bool = field(metadata={"json": "pass"})
+    recoveries_pct: tuple[float, ...]
     reason: str = ""          # why sd/rsd/ci/t/p are missing, when they are
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value of this level is missing (results.json ``not_applicable``)."""
+        if self.reason:
+            return self.reason
+        return (f"{self.n} result(s) at added {self.added:g}: the SD, CI and t test need at least 2" if self.n < 2
+                else "the results are identical (zero SD): no t test")
 
 
 @dataclass(frozen=True)
 class RecoveryResult:
-    levels: tuple[RecoveryLevel, ...]
-    overall_mean_pct: float
     n: int
+    overall_mean_pct: float
+    levels: tuple[RecoveryLevel, ...]
 
 
 def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda added: (90.0, 110.0)):
@@ -80,9 +90,11 @@ def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda a
             sd = rsd = t = p = None
             ci = None
             reason = "one result at this level: SD, RSD, CI and t test need at least 2"
-        levels.append(RecoveryLevel(float(a), n, tuple(map(float, r)), mean, sd, rsd, ci, t, p, lo_hi,
-                                    bool(lo_hi[0] <= mean <= lo_hi[1]), reason))
-    return RecoveryResult(tuple(levels), float(rec.mean()), int(rec.size))
+        levels.append(RecoveryLevel(added=float(a), n=n, mean_pct=mean, sd_pct=sd, rsd_pct=rsd, ci_pct=ci,
+                                    t_statistic=t, pvalue=p, range_pct=lo_hi,
+                                    passed=bool(lo_hi[0] <= mean <= lo_hi[1]),
+                                    recoveries_pct=tuple(map(float, r)), reason=reason))
+    return RecoveryResult(n=int(rec.size), overall_mean_pct=float(rec.mean()), levels=tuple(levels))
 
 
 @dataclass(frozen=True)
@@ -91,7 +103,7 @@ class ReferenceMaterialResult:
     mean: float
     sd: float | None
     certified_value: float
-    certified_uncertainty: float
+    certified_uncertainty: float = field(metadata={"json": "certified_standard_uncertainty"})
     bias: float
     bias_pct: float
     u_mean: float | None                 # u_m, the standard uncertainty of the laboratory's result
@@ -100,6 +112,12 @@ class ReferenceMaterialResult:
     significant: bool | None
     u_mean_basis: str = ""               # which u_m: s/sqrt(n) or the laboratory's stated uncertainty
     reason: str = ""                     # why the test is not applicable, when significant is None
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value is missing (results.json ``not_applicable``)."""
+        return self.reason or (f"{self.n} result(s): the SD and the uncertainty of the mean need at least 2"
+                               if self.n < 2 else "the value does not exist for these results")
 
 
 def assess_reference_material(found, certified_value, standard_uncertainty, *, k=2.0,
@@ -148,5 +166,7 @@ def assess_reference_material(found, certified_value, standard_uncertainty, *, k
     else:
         U = k * float(np.sqrt(u_mean**2 + standard_uncertainty**2))
         significant = bool(abs(bias) > U)
-    return ReferenceMaterialResult(n, mean, sd, float(certified_value), float(standard_uncertainty), bias,
-                                   100 * bias / certified_value, u_mean, U, k, significant, basis, reason)
+    return ReferenceMaterialResult(n=n, mean=mean, sd=sd, certified_value=float(certified_value),
+                                   certified_uncertainty=float(standard_uncertainty), bias=bias,
+                                   bias_pct=100 * bias / certified_value, u_mean=u_mean, expanded_uncertainty=U,
+                                   coverage_factor=k, significant=significant, u_mean_basis=basis, reason=reason)
