@@ -21,6 +21,7 @@ import numpy as np
 from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__
 from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
+from .characteristics.working_range import WorkingRange
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -219,7 +220,7 @@ def _calibration(a):
 
 
 # analyte sections written by the Serialiser from their result types, not_applicable reasons and all
-SERIALISED = {"recovery": RecoveryResult, "reference_material": ReferenceMaterialResult}
+SERIALISED = {"working_range": WorkingRange, "recovery": RecoveryResult, "reference_material": ReferenceMaterialResult}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -287,9 +288,6 @@ def _known_reasons(a) -> dict:
                 "a precision level: recovery is not measured there")
         if row.rsd_pct is None:
             out[f"detection.loq_verification.levels.{i}.rsd_pct"] = "no RSD exists at this level (see its section)"
-    wr = a.working_range
-    if wr is not None:
-        out["working_range"] = wr.basis or "no calibrator passed its back-calculation"
     for i, lv in enumerate(a.precision or ()):
         an = lv.anova
         if lv.reason:
@@ -492,7 +490,6 @@ def _limit(v):
 
 
 def _analyte(a, previous=None):
-    wr = a.working_range
     serialise = Serialiser()
     entry = {
         "name": a.name,
@@ -504,8 +501,7 @@ def _analyte(a, previous=None):
              "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
         "detection": _detection(a),
-        "working_range": {"low": num(wr.low), "high": num(wr.high), "basis": wr.basis,
-                          "passing_levels": wr.passing_levels},
+        "working_range": serialise(a.working_range, "working_range"),
         "recovery": None if a.recovery is None else serialise(a.recovery, "recovery"),
         "precision": _precision(a.precision),
         "reference_material": (None if a.reference_material is None

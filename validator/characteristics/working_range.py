@@ -35,6 +35,11 @@ class WorkingRange:
     basis: str
     passing_levels: int = 0
 
+    @property
+    def null_reason(self) -> str:
+        """Why ``low``/``high`` are missing (results.json ``not_applicable``)."""
+        return self.basis or "no calibrator passed its back-calculation"
+
 
 def working_range(back_calculated, loq, loq_method, failing_levels, assessed_levels, unit="") -> WorkingRange:
     passing = sorted(b.nominal for b in back_calculated if b.passed)
