@@ -12,7 +12,7 @@ from validator.characteristics.precision import assess_precision_level
 from validator.maths.outliers import (MONTE_CARLO_DRAWS, cochran_c, cochran_critical_value, cochran_null_sample,
                                       grubbs_critical_value, grubbs_double, grubbs_double_null_sample,
                                       grubbs_within_series)
-from validator.results import _precision, load_schema
+from validator.results import Serialiser, load_schema
 
 
 def _series_with_variances(variances, sizes):
@@ -245,7 +245,7 @@ def test_outlier_tests_serialised_with_basis_and_reasons():
     y = [10.0, 10.05, 10.02, 10.01, 9.99, 10.0, 10.0, 10.02, 9.99, 10.01, 10.03, 9.98, 10.0, 10.02]
     g = ["d0"] * 2 + ["d1"] * 2 + ["d2"] * 2 + ["d3"] * 8
     lv = assess_precision_level(10.0, y, g, unit="mg/kg")
-    out = _precision((lv,))
+    out = {"levels": Serialiser()((lv,), "precision.levels")}
     schema = load_schema()
     jsonschema.validate(out, {"$defs": schema["$defs"], **schema["$defs"]["precision"]},
                         cls=jsonschema.Draft202012Validator)

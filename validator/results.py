@@ -20,6 +20,7 @@ import numpy as np
 
 from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__
+from .characteristics.precision import PrecisionLevel
 from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
 from .characteristics.working_range import WorkingRange
 from .signing import operator_and_host
@@ -63,7 +64,10 @@ class Serialiser:
     """Dataclass -> JSON value, in the manner of attrs' ``asdict``; collects ``not_applicable``.
 
     - A dataclass becomes an object of its fields in declaration order; a field's
-      ``metadata`` renames it (``{"json": "p_value"}``) or leaves it out (``{"json": None}``).
+      ``metadata`` renames it (``{"json": "p_value"}``), leaves it out (``{"json": None}``, or
+      ``{"omit_none": True}`` when it is ``None``), or writes the listed attributes of the
+      object it holds flat into this one (``{"flatten": ((json name, attribute or tuple of
+      attributes), ...)}``).
     - An interval field (``metadata={"interval": "pair"}`` or ``"null"``) is written as
       ``name: [low, high]`` and ``name_level: level``; a missing one as ``[null, null]`` or
       ``null`` (the field's historical form) with a ``null`` level.
@@ -71,7 +75,8 @@ class Serialiser:
       become lists; ints, bools, strings and ``None`` stay.
     - Whenever a ``null`` is written inside an object that can say why (its ``null_reason``
       property, else its ``reason`` field), ``{"item": <the object's path>, "reason": ...}`` is
-      added once to :attr:`not_applicable`.
+      added once to :attr:`not_applicable`. A field whose metadata names a ``null_reason``
+      attribute has a reason of its own, listed under the field's path.
     """
 
     def __init__(self):
@@ -117,6 +122,18 @@ class Serialiser:
             if name is None:
                 continue
             value = getattr(obj, f.name)
+            if value is None and f.metadata.get("omit_none"):
+                continue
+            if "flatten" in f.metadata:
+                for key, attrs in f.metadata["flatten"]:
+                    out[key] = (self._value(getattr(value, attrs), f"{path}.{key}", owner) if isinstance(attrs, str)
+                                else [self._value(getattr(value, a), f"{path}.{key}.{i}", owner)
+                                      for i, a in enumerate(attrs)])
+                continue
+            if "null_reason" in f.metadata:      # a reason of its own for this field's null
+                field_owner = (f"{path}.{name}", getattr(obj, f.metadata["null_reason"]))
+                out[name] = self._value(value, f"{path}.{name}", field_owner)
+                continue
             if "interval" in f.metadata:
                 if value is None:
                     out[name] = None if f.metadata["interval"] == "null" else [None, None]
@@ -145,6 +162,9 @@ def json_fields(cls) -> set:
             for f in dataclasses.fields(tp):
                 name = f.metadata.get("json", f.name)
                 if name is None:
+                    continue
+                if "flatten" in f.metadata:
+                    names.update(key for key, _ in f.metadata["flatten"])
                     continue
                 names.add(name)
                 if "interval" in f.metadata:
@@ -220,7 +240,8 @@ def _calibration(a):
 
 
 # analyte sections written by the Serialiser from their result types, not_applicable reasons and all
-SERIALISED = {"working_range": WorkingRange, "recovery": RecoveryResult, "reference_material": ReferenceMaterialResult}
+SERIALISED = {"working_range": WorkingRange, "recovery": RecoveryResult, "precision": PrecisionLevel,
+              "reference_material": ReferenceMaterialResult}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -288,21 +309,6 @@ def _known_reasons(a) -> dict:
                 "a precision level: recovery is not measured there")
         if row.rsd_pct is None:
             out[f"detection.loq_verification.levels.{i}.rsd_pct"] = "no RSD exists at this level (see its section)"
-    for i, lv in enumerate(a.precision or ()):
-        an = lv.anova
-        if lv.reason:
-            out[f"precision.levels.{i}"] = lv.reason
-        elif an.df_within > 0 and not an.ms_within > 0:
-            out[f"precision.levels.{i}"] = ("the results within every series are identical (zero repeatability "
-                                           "variance): the F test and the intervals built on it do not exist")
-        else:
-            out[f"precision.levels.{i}"] = "the value does not exist for these results (see the level's notes)"
-        for name in ("cochran", "grubbs"):
-            test = getattr(lv, name)
-            if not test.applicable:
-                out[f"precision.levels.{i}.{name}"] = test.reason
-        out[f"precision.levels.{i}.horrat"] = out[f"precision.levels.{i}.horwitz_prsd_pct"] = (
-            lv.horwitz_note or "the Horwitz ratio needs a positive mean")
     if a.revalidation is not None:
         out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
         out["revalidation"] = ("; ".join(a.revalidation.reasons) or
@@ -375,45 +381,6 @@ def _detection(a):
                                  "reason": lc.reason,
                                  "levels": [{"source": r.source, "level": num(r.level), "rsd_pct": num(r.rsd_pct),
                                              "recovery_pct": num(r.recovery_pct)} for r in lc.levels]}}
-
-
-def _outlier(t):
-    """An outlier test, applicable or not: a null statistic always comes with its reason."""
-    out = {"method": t.method, "statistic": num(t.statistic), "p_value": num(t.pvalue),
-           "p_value_basis": t.basis, "p_value_se": num(t.pvalue_se), "suspect": t.suspect, "reason": t.reason}
-    if t.df is not None:
-        out["df"] = list(t.df)
-    if t.sizes is not None:
-        out["series_sizes"] = list(t.sizes)
-    if t.series is not None:
-        out["series"] = t.series
-    return out
-
-
-def _precision(levels):
-    if not levels:
-        return None
-    out = []
-    for lv in levels:
-        an = lv.anova
-        out.append({
-            "level": num(lv.level), "series": lv.series, "n": lv.n, "mean": num(lv.mean),
-            "ms_between": num(an.ms_between), "ms_within": num(an.ms_within),
-            "df": [an.df_between, an.df_within], "n0": num(an.n0),
-            "f_statistic": num(an.statistic), "p_value": num(an.pvalue),
-            "repeatability_sd": num(lv.repeatability_sd), "repeatability_rsd_pct": num(lv.repeatability_rsd_pct),
-            "between_series_sd": num(lv.between_series_sd), "between_series_set_to_zero": lv.between_clamped,
-            "intermediate_sd": num(lv.intermediate_sd), "intermediate_rsd_pct": num(lv.intermediate_rsd_pct),
-            **_interval("repeatability_sd_ci", lv.repeatability_sd_ci),
-            **_interval("intermediate_sd_ci", lv.intermediate_sd_ci),
-            "intermediate_df": num(lv.intermediate_df),
-            "cochran": _outlier(lv.cochran), "grubbs": _outlier(lv.grubbs),
-            "grubbs_double": None if lv.grubbs_double is None else _outlier(lv.grubbs_double),
-            "grubbs_within_series": [_outlier(t) for t in lv.grubbs_within],
-            "horrat": num(lv.horrat), "horwitz_prsd_pct": num(lv.horwitz_prsd_pct), "horwitz_note": lv.horwitz_note,
-            "notes": lv.reason,
-        })
-    return {"levels": out}
 
 
 def _revalidation(r, previous, name):
@@ -503,7 +470,7 @@ def _analyte(a, previous=None):
         "detection": _detection(a),
         "working_range": serialise(a.working_range, "working_range"),
         "recovery": None if a.recovery is None else serialise(a.recovery, "recovery"),
-        "precision": _precision(a.precision),
+        "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "reference_material": (None if a.reference_material is None
                                else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),

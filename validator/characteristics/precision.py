@@ -18,7 +18,7 @@ References
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
@@ -84,30 +84,53 @@ def horwitz_band(mass_fraction: float) -> str:
     return "2 C^-0.1505 % (mass fraction 1.2e-7 to 0.138)"
 
 
+# the one-way ANOVA's values, written flat into the level's results.json object: (json name, attribute(s))
+_ANOVA_JSON = (("ms_between", "ms_between"), ("ms_within", "ms_within"), ("df", ("df_between", "df_within")),
+               ("n0", "n0"), ("f_statistic", "statistic"), ("p_value", "pvalue"))
+
+
 @dataclass(frozen=True)
 class PrecisionLevel:
+    """One concentration level. Field order and ``metadata`` give its results.json form."""
+
     level: float
     series: int
     n: int
-    anova: OneWayAnova
     mean: float
+    anova: OneWayAnova = field(metadata={"flatten": _ANOVA_JSON})
     repeatability_sd: float
     repeatability_rsd_pct: float | None
     between_series_sd: float
-    between_clamped: bool
+    between_clamped: bool = field(metadata={"json": "between_series_set_to_zero"})
     intermediate_sd: float
     intermediate_rsd_pct: float | None
-    repeatability_sd_ci: ConfidenceInterval | None
-    intermediate_sd_ci: ConfidenceInterval | None
+    repeatability_sd_ci: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    intermediate_sd_ci: ConfidenceInterval | None = field(metadata={"interval": "pair"})
     intermediate_df: float | None
     cochran: OutlierTest
     grubbs: OutlierTest
-    horrat: float | None
-    horwitz_prsd_pct: float | None
+    grubbs_double: OutlierTest | None
+    grubbs_within: tuple[OutlierTest, ...] = field(metadata={"json": "grubbs_within_series"})   # one per series
+    horrat: float | None = field(metadata={"null_reason": "horwitz_reason"})
+    horwitz_prsd_pct: float | None = field(metadata={"null_reason": "horwitz_reason"})
     horwitz_note: str
-    reason: str = ""          # why some estimates are missing (degenerate design)
-    grubbs_double: OutlierTest | None = None
-    grubbs_within: tuple[OutlierTest, ...] = ()   # one per series
+    reason: str = field(default="", metadata={"json": "notes"})   # why some estimates are missing
+
+    @property
+    def horwitz_reason(self) -> str:
+        """Why the Horwitz ratio is missing (results.json ``not_applicable``)."""
+        return self.horwitz_note or "the Horwitz ratio needs a positive mean"
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value of this level is missing (results.json ``not_applicable``)."""
+        an = self.anova
+        if self.reason:
+            return self.reason
+        if an.df_within > 0 and not an.ms_within > 0:
+            return ("the results within every series are identical (zero repeatability variance): the F test "
+                    "and the intervals built on it do not exist")
+        return "the value does not exist for these results (see the level's notes)"
 
 
 def _sd_ci(sd, df, alpha):
@@ -177,8 +200,12 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
                 f"PRSD_R from the Horwitz function with Thompson's (2000) modification, here {horwitz_band(fraction)}"
                 + (f"; {assumption}" if assumption else ""))
     return PrecisionLevel(
-        float(level), a.groups, a.n, a, mean, sr, rsd(sr), sl, clamped, si, rsd(si),
-        _sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
-        _sd_ci(si, df_i, alpha) if np.isfinite(si) else None, df_i,
-        cochran_c(values, series, alpha), grubbs_means(values, series, alpha), horrat, prsd, note,
-        "; ".join(notes), grubbs_double(values, series, alpha), grubbs_within_series(values, series, alpha, offset))
+        level=float(level), series=a.groups, n=a.n, mean=mean, anova=a, repeatability_sd=sr,
+        repeatability_rsd_pct=rsd(sr), between_series_sd=sl, between_clamped=clamped, intermediate_sd=si,
+        intermediate_rsd_pct=rsd(si),
+        repeatability_sd_ci=_sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
+        intermediate_sd_ci=_sd_ci(si, df_i, alpha) if np.isfinite(si) else None, intermediate_df=df_i,
+        cochran=cochran_c(values, series, alpha), grubbs=grubbs_means(values, series, alpha),
+        grubbs_double=grubbs_double(values, series, alpha),
+        grubbs_within=grubbs_within_series(values, series, alpha, offset), horrat=horrat, horwitz_prsd_pct=prsd,
+        horwitz_note=note, reason="; ".join(notes))

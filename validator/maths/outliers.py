@@ -9,7 +9,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
@@ -40,14 +40,14 @@ class OutlierTest:
 
     method: str
     statistic: float | None
-    pvalue: float | None
-    df: tuple[float, ...] | None = None
-    reason: str = ""
-    basis: str = ""
-    pvalue_se: float | None = None
+    pvalue: float | None = field(metadata={"json": "p_value"})
+    basis: str = field(default="", metadata={"json": "p_value_basis"})
+    pvalue_se: float | None = field(default=None, metadata={"json": "p_value_se"})
     suspect: str = ""
-    series: str | None = None
-    sizes: tuple[int, ...] | None = None
+    reason: str = ""
+    df: tuple[float, ...] | None = field(default=None, metadata={"omit_none": True})
+    sizes: tuple[int, ...] | None = field(default=None, metadata={"json": "series_sizes", "omit_none": True})
+    series: str | None = field(default=None, metadata={"omit_none": True})
 
     @property
     def applicable(self) -> bool:
@@ -171,7 +171,7 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
         basis = ("closed form from the F distribution, exact (equal series sizes, C >= 1/2)" if C >= 0.5 else
                  "closed form from the F distribution, Bonferroni upper bound (equal series sizes, C < 1/2; "
                  "conservative)")
-        return OutlierTest(method, C, p, (k, n), basis=basis, suspect=suspect, sizes=tuple(int(s) for s in sizes))
+        return OutlierTest(method, C, p, df=(k, n), basis=basis, suspect=suspect, sizes=tuple(int(s) for s in sizes))
     if k > MAX_SIMULATED_SERIES:
         return _outlier_na(method, f"unequal series sizes need a simulated p-value, done for at most "
                                    f"{MAX_SIMULATED_SERIES} series (this level has {k})")
@@ -179,7 +179,7 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
     p, se = _monte_carlo_pvalue(cochran_null_sample(key), C, upper=True)
     basis = (f"Monte Carlo under the normal null with the actual series sizes ({MONTE_CARLO_DRAWS} draws, "
              f"seed {MONTE_CARLO_SEED}; standard error of p {se:.2g}); unequal sizes, so no closed form")
-    return OutlierTest(method, C, p, None, basis=basis, pvalue_se=se, suspect=suspect,
+    return OutlierTest(method, C, p, basis=basis, pvalue_se=se, suspect=suspect,
                        sizes=tuple(int(s) for s in sizes))
 
 
@@ -273,7 +273,7 @@ def grubbs_means(values, groups, alpha=0.05) -> OutlierTest:
     if _at_grubbs_maximum(m):
         return _outlier_na(method, _TIES.replace("results", "series means"))
     G, p, idx, exact = _grubbs_single(m)
-    return OutlierTest(method, G, p, (k,), basis=_grubbs_basis(exact), suspect=f"series {labels[idx]}")
+    return OutlierTest(method, G, p, df=(k,), basis=_grubbs_basis(exact), suspect=f"series {labels[idx]}")
 
 
 def grubbs_within_series(values, groups, alpha=0.05, offset=0.0) -> tuple:
@@ -307,7 +307,7 @@ def grubbs_within_series(values, groups, alpha=0.05, offset=0.0) -> tuple:
             out.append(_outlier_na(method, _TIES, series=str(lab)))
         else:
             G, p, idx, exact = _grubbs_single(x)
-            out.append(OutlierTest(method, G, p, (int(x.size),), basis=_grubbs_basis(exact),
+            out.append(OutlierTest(method, G, p, df=(int(x.size),), basis=_grubbs_basis(exact),
                                    suspect=f"result {float(x[idx]) + offset:.12g}", series=str(lab)))
     return tuple(out)
 
@@ -366,5 +366,5 @@ def grubbs_double(values, groups, alpha=0.05) -> OutlierTest:
     p, se = _monte_carlo_pvalue(grubbs_double_null_sample(k), G, upper=False)
     basis = (f"Monte Carlo under the normal null ({MONTE_CARLO_DRAWS} draws, seed {MONTE_CARLO_SEED}; "
              f"standard error of p {se:.2g}); lower tail of min(G_high, G_low)")
-    return OutlierTest(method, G, p, (k,), basis=basis, pvalue_se=se,
+    return OutlierTest(method, G, p, df=(k,), basis=basis, pvalue_se=se,
                        suspect=f"{which}: series {labels[pair[0]]}, {labels[pair[1]]}")
