@@ -63,8 +63,8 @@ def written_keys() -> set:
         if (isinstance(node, ast.Subscript) and isinstance(node.ctx, ast.Store)
                 and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, str)):
             keys.add(node.slice.value)
-    for result_type in SERIALISED.values():
-        keys.update(json_fields(result_type))
+    for result_types in SERIALISED.values():
+        keys.update(json_fields(*result_types))
     for path, name in WRITERS:
         tree = ast.parse(path.read_text(encoding="utf-8"))
         function = next(n for n in tree.body if getattr(n, "name", "") == name)

@@ -22,7 +22,8 @@ from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__
 from .characteristics.precision import PrecisionLevel
 from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
-from .characteristics.working_range import WorkingRange
+from .characteristics.detection import DetectionResult
+from .characteristics.working_range import LoqCheck, WorkingRange
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -65,7 +66,8 @@ class Serialiser:
 
     - A dataclass becomes an object of its fields in declaration order; a field's
       ``metadata`` renames it (``{"json": "p_value"}``), leaves it out (``{"json": None}``, or
-      ``{"omit_none": True}`` when it is ``None``), or writes the listed attributes of the
+      ``{"omit_none": True}`` when it is ``None``, ``{"when": predicate}`` unless
+      ``predicate(obj)``), or writes the listed attributes of the
       object it holds flat into this one (``{"flatten": ((json name, attribute or tuple of
       attributes), ...)}``).
     - An interval field (``metadata={"interval": "pair"}`` or ``"null"``) is written as
@@ -76,7 +78,8 @@ class Serialiser:
     - Whenever a ``null`` is written inside an object that can say why (its ``null_reason``
       property, else its ``reason`` field), ``{"item": <the object's path>, "reason": ...}`` is
       added once to :attr:`not_applicable`. A field whose metadata names a ``null_reason``
-      attribute has a reason of its own, listed under the field's path.
+      attribute has a reason of its own (when that attribute is not empty), listed under the
+      field's path.
     """
 
     def __init__(self):
@@ -122,7 +125,7 @@ class Serialiser:
             if name is None:
                 continue
             value = getattr(obj, f.name)
-            if value is None and f.metadata.get("omit_none"):
+            if value is None and f.metadata.get("omit_none") or not f.metadata.get("when", bool)(obj):
                 continue
             if "flatten" in f.metadata:
                 for key, attrs in f.metadata["flatten"]:
@@ -131,8 +134,8 @@ class Serialiser:
                                       for i, a in enumerate(attrs)])
                 continue
             if "null_reason" in f.metadata:      # a reason of its own for this field's null
-                field_owner = (f"{path}.{name}", getattr(obj, f.metadata["null_reason"]))
-                out[name] = self._value(value, f"{path}.{name}", field_owner)
+                reason = getattr(obj, f.metadata["null_reason"])
+                out[name] = self._value(value, f"{path}.{name}", (f"{path}.{name}", reason) if reason else owner)
                 continue
             if "interval" in f.metadata:
                 if value is None:
@@ -147,9 +150,9 @@ class Serialiser:
         return out
 
 
-def json_fields(cls) -> set:
-    """Every results.json field name the :class:`Serialiser` can write for ``cls`` and the
-    dataclasses inside it (for the drift test against the schema and docs/results.md)."""
+def json_fields(*types) -> set:
+    """Every results.json field name the :class:`Serialiser` can write for ``types`` and the
+    dataclasses inside them (for the drift test against the schema and docs/results.md)."""
     names: set = set()
     seen: set = set()
 
@@ -173,7 +176,8 @@ def json_fields(cls) -> set:
         for arg in typing.get_args(tp):
             visit(arg)
 
-    visit(cls)
+    for tp in types:
+        visit(tp)
     return names
 
 
@@ -240,8 +244,10 @@ def _calibration(a):
 
 
 # analyte sections written by the Serialiser from their result types, not_applicable reasons and all
-SERIALISED = {"working_range": WorkingRange, "recovery": RecoveryResult, "precision": PrecisionLevel,
-              "reference_material": ReferenceMaterialResult}
+# analyte sections written by the Serialiser (from these result types), not_applicable reasons and all
+SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
+              "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
+              "reference_material": (ReferenceMaterialResult,)}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -300,15 +306,6 @@ def _known_reasons(a) -> dict:
         elif b.found is None or not np.isfinite(b.found):
             out[f"calibration.back_calculated.{i}"] = ("the response lies beyond the vertex of the quadratic; "
                                                        "no concentration corresponds to it")
-    for i, e in enumerate(a.detection.estimates if a.detection is not None else ()):
-        if e.loq is None and e.lod is not None:
-            out[f"detection.estimates.{i}.loq"] = e.reason or "no quantitation limit is defined on this basis"
-    for i, row in enumerate(a.loq_check.levels if a.loq_check is not None else ()):
-        if row.source == "precision":
-            out[f"detection.loq_verification.levels.{i}.recovery_pct"] = (
-                "a precision level: recovery is not measured there")
-        if row.rsd_pct is None:
-            out[f"detection.loq_verification.levels.{i}.rsd_pct"] = "no RSD exists at this level (see its section)"
     if a.revalidation is not None:
         out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
         out["revalidation"] = ("; ".join(a.revalidation.reasons) or
@@ -362,25 +359,6 @@ def _not_applicable(a, entry: dict, collected: list = ()) -> list:
             listed.add(found[0])
             out.append({"item": found[0], "reason": found[1]})
     return out
-
-
-def _detection(a):
-    d = a.detection
-    out = []
-    for e in d.estimates:
-        entry = {"method": e.method, "basis": e.basis, "lod": num(e.lod), "loq": num(e.loq),
-                 "sigma": num(e.sigma), "applicable": e.applicable, "reason": e.reason}
-        if e.method == "iso-11843-2":
-            entry["critical_value"] = num(e.critical_value)
-            entry["delta"] = num(e.delta)
-        out.append(entry)
-    lc = a.loq_check
-    return {"lod_factor": d.lod_factor, "loq_factor": d.loq_factor, "reported_basis": d.reporting_method,
-            "estimates": out,
-            "loq_verification": {"loq": num(lc.loq), "rsd_max_pct": lc.rsd_max_pct, "pass": lc.passed,
-                                 "reason": lc.reason,
-                                 "levels": [{"source": r.source, "level": num(r.level), "rsd_pct": num(r.rsd_pct),
-                                             "recovery_pct": num(r.recovery_pct)} for r in lc.levels]}}
 
 
 def _revalidation(r, previous, name):
@@ -467,7 +445,8 @@ def _analyte(a, previous=None):
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
              "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
-        "detection": _detection(a),
+        "detection": {**serialise(a.detection, "detection"),
+                      "loq_verification": serialise(a.loq_check, "detection.loq_verification")},
         "working_range": serialise(a.working_range, "working_range"),
         "recovery": None if a.recovery is None else serialise(a.recovery, "recovery"),
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,

@@ -14,7 +14,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import optimize, stats
@@ -24,28 +24,41 @@ __all__ = ["DetectionEstimate", "DetectionResult", "assess_detection", "noncentr
 METHODS = ("ich-residual-sd", "ich-intercept-sd", "blank-sd", "iso-11843-2")
 
 
+def _is_iso(estimate) -> bool:
+    return estimate.method == "iso-11843-2"
+
+
 @dataclass(frozen=True)
 class DetectionEstimate:
+    """One basis of LOD/LOQ. Field order and ``metadata`` give its results.json form."""
+
     method: str
     basis: str
     lod: float | None
-    loq: float | None
+    loq: float | None = field(metadata={"null_reason": "loq_reason"})
     sigma: float | None               # the SD the estimate uses (response units)
-    critical_value: float | None = None
-    delta: float | None = None
+    applicable: bool = field(init=False)      # an LOD exists
     reason: str = ""                  # why not applicable, when lod is None
+    critical_value: float | None = field(default=None, metadata={"when": _is_iso})
+    delta: float | None = field(default=None, metadata={"when": _is_iso})
+
+    def __post_init__(self):
+        object.__setattr__(self, "applicable", self.lod is not None)
 
     @property
-    def applicable(self) -> bool:
-        return self.lod is not None
+    def loq_reason(self) -> str:
+        """Why the LOQ alone is missing (results.json ``not_applicable``); "" when the LOD is missing too."""
+        if self.lod is None:
+            return ""
+        return self.reason or "no quantitation limit is defined on this basis"
 
 
 @dataclass(frozen=True)
 class DetectionResult:
-    estimates: tuple[DetectionEstimate, ...]
-    reporting_method: str
     lod_factor: float
     loq_factor: float
+    reporting_method: str = field(metadata={"json": "reported_basis"})
+    estimates: tuple[DetectionEstimate, ...]
 
     @property
     def reported(self) -> DetectionEstimate:
@@ -172,7 +185,8 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
         for m in METHODS[:3]:
             out.append(DetectionEstimate(m, "", None, None, None, reason=reason))
         out.append(DetectionEstimate("iso-11843-2", "", None, None, None, reason=reason))
-        return DetectionResult(tuple(out), reporting_method, lod_factor, loq_factor)
+        return DetectionResult(lod_factor=lod_factor, loq_factor=loq_factor, reporting_method=reporting_method,
+                           estimates=tuple(out))
     b = abs(b_signed)
     note = _slope_note(b_signed)
 
@@ -217,7 +231,8 @@ def assess_detection(cal, blanks, *, lod_factor=3.3, loq_factor=10.0, readings_p
             out.append(DetectionEstimate("blank-sd", f"{f_lod:g}·s(blank)/b and {f_loq:g}·s(blank)/b "
                                          f"({blanks.size} blanks){note}", *pair(sb), sb))
     out.append(_iso11843(cal, readings_per_sample, alpha, beta, f_loq))
-    return DetectionResult(tuple(out), reporting_method, lod_factor, loq_factor)
+    return DetectionResult(lod_factor=lod_factor, loq_factor=loq_factor, reporting_method=reporting_method,
+                           estimates=tuple(out))
 
 
 def _iso11843(cal, K, alpha, beta, f_loq) -> DetectionEstimate:

@@ -14,7 +14,7 @@ it. ICH Q2(R2) sec. 3.2 (range); Eurachem Guide (2014) sec. 6.3.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -76,17 +76,26 @@ class LoqLevel:
 
     source: str                      # "precision" or "recovery"
     level: float
-    rsd_pct: float | None
-    recovery_pct: float | None       # None for a precision level (recovery is not measured there)
+    rsd_pct: float | None = field(metadata={"null_reason": "rsd_reason"})
+    # None for a precision level (recovery is not measured there)
+    recovery_pct: float | None = field(metadata={"null_reason": "recovery_reason"})
+
+    rsd_reason = "no RSD exists at this level (see its section)"
+
+    @property
+    def recovery_reason(self) -> str:
+        return "a precision level: recovery is not measured there" if self.source == "precision" else ""
 
 
 @dataclass(frozen=True)
 class LoqCheck:
+    """The LOQ verification. Field order and ``metadata`` give its results.json form."""
+
     loq: float | None
-    levels: tuple[LoqLevel, ...]
     rsd_max_pct: float
-    passed: bool | None
-    reason: str = ""
+    passed: bool | None = field(metadata={"json": "pass"})
+    reason: str
+    levels: tuple[LoqLevel, ...]
 
 
 def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
@@ -96,7 +105,8 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
     and precision of results at or near it.
     """
     if loq is None:
-        return LoqCheck(None, (), rsd_max_pct, None, "no LOQ could be estimated")
+        return LoqCheck(loq=None, rsd_max_pct=rsd_max_pct, passed=None, reason="no LOQ could be estimated",
+                        levels=())
     rows = []
     for p in precision_levels:
         if p.level <= 2 * loq:
@@ -105,8 +115,9 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
         if r.added <= 2 * loq:
             rows.append(LoqLevel("recovery", r.added, r.rsd_pct, r.mean_pct))
     if not rows:
-        return LoqCheck(loq, (), rsd_max_pct, None, "no precision or recovery level at or below 2 × LOQ")
+        return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=None,
+                        reason="no precision or recovery level at or below 2 × LOQ", levels=())
     rsds = [r.rsd_pct for r in rows if r.rsd_pct is not None]
     passed = bool(rsds) and all(v <= rsd_max_pct for v in rsds)
-    return LoqCheck(loq, tuple(rows), rsd_max_pct, passed if rsds else None,
-                    "" if rsds else "no RSD available at those levels")
+    return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed if rsds else None,
+                    reason="" if rsds else "no RSD available at those levels", levels=tuple(rows))
