@@ -18,7 +18,7 @@ from common practice, not regulatory limits.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 __all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_level_criteria",
            "reference_material_criterion", "loq_criterion", "comparison_criteria", "overall_verdict",
@@ -64,10 +64,16 @@ class Criterion:
 
     id: str
     description: str
-    value: float | list | None
-    limit: float | list | None       # a maximum/minimum, or [low, high] for a range
-    passed: bool | None
+    value: float | list | None = field(metadata={"as_float": True})
+    # a maximum/minimum, or [low, high] for a range
+    limit: float | list | None = field(metadata={"as_float": True})
+    passed: bool | None = field(metadata={"json": "pass"})
     note: str = ""
+
+    @property
+    def null_reason(self) -> str:
+        """Why the value, limit or verdict is missing (results.json ``not_applicable``)."""
+        return self.note
 
     def __post_init__(self):
         if isinstance(self.value, tuple):

@@ -23,6 +23,7 @@ from . import __version__
 from .characteristics.precision import PrecisionLevel
 from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
 from .characteristics.detection import DetectionResult
+from .criteria import Criterion
 from .characteristics.working_range import LoqCheck, WorkingRange
 from .signing import operator_and_host
 
@@ -61,13 +62,17 @@ def _interval(name: str, ci, missing=(None, None)) -> dict:
     return {name: _ci(ci), f"{name}_level": num(ci.level)}
 
 
+def _as_float(value):
+    return None if value is None else float(value)
+
+
 class Serialiser:
     """Dataclass -> JSON value, in the manner of attrs' ``asdict``; collects ``not_applicable``.
 
     - A dataclass becomes an object of its fields in declaration order; a field's
       ``metadata`` renames it (``{"json": "p_value"}``), leaves it out (``{"json": None}``, or
       ``{"omit_none": True}`` when it is ``None``, ``{"when": predicate}`` unless
-      ``predicate(obj)``), or writes the listed attributes of the
+      ``predicate(obj)``), writes its numbers as floats (``{"as_float": True}``), or writes the listed attributes of the
       object it holds flat into this one (``{"flatten": ((json name, attribute or tuple of
       attributes), ...)}``).
     - An interval field (``metadata={"interval": "pair"}`` or ``"null"``) is written as
@@ -127,6 +132,8 @@ class Serialiser:
             value = getattr(obj, f.name)
             if value is None and f.metadata.get("omit_none") or not f.metadata.get("when", bool)(obj):
                 continue
+            if f.metadata.get("as_float"):      # numbers written as floats, ints included
+                value = [_as_float(v) for v in value] if isinstance(value, (list, tuple)) else _as_float(value)
             if "flatten" in f.metadata:
                 for key, attrs in f.metadata["flatten"]:
                     out[key] = (self._value(getattr(value, attrs), f"{path}.{key}", owner) if isinstance(attrs, str)
@@ -247,7 +254,7 @@ def _calibration(a):
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
               "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
-              "reference_material": (ReferenceMaterialResult,)}
+              "reference_material": (ReferenceMaterialResult,), "criteria": (Criterion,)}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -430,10 +437,6 @@ def _comparison(c):
     }
 
 
-def _limit(v):
-    return [num(x) for x in v] if isinstance(v, (list, tuple)) else num(v)
-
-
 def _analyte(a, previous=None):
     serialise = Serialiser()
     entry = {
@@ -454,8 +457,7 @@ def _analyte(a, previous=None):
                                else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": _comparison(a.comparison),
-        "criteria": [{"id": c.id, "description": c.description, "value": _limit(c.value),
-                      "limit": _limit(c.limit), "pass": c.passed, "note": c.note} for c in a.criteria],
+        "criteria": serialise(a.criteria, "criteria"),
         "diagnostics": list(a.calibration.diagnostics),
     }
     entry["not_applicable"] = _not_applicable(a, entry, serialise.not_applicable)
