@@ -5,6 +5,11 @@ NaN and infinity never appear: a value that does not exist is ``null`` and
 the reason is recorded in the analyte's ``not_applicable`` list. The layout
 is documented in docs/results.md and by the JSON Schema shipped as
 ``validator/schema/results.schema.json``.
+
+The sections in :data:`SERIALISED` are written by :class:`Serialiser` from their result
+dataclasses, whose field metadata declare names and omissions and whose reasons fill
+``not_applicable``; calibration, samples, revalidation and comparison are still written by
+the functions below, their reasons found by :func:`_not_applicable`'s walk.
 """
 
 from __future__ import annotations
