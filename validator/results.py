@@ -8,7 +8,7 @@ is documented in docs/results.md and by the JSON Schema shipped as
 
 The sections in :data:`SERIALISED` are written by :class:`Serialiser` from their result
 dataclasses, whose field metadata declare names and omissions and whose reasons fill
-``not_applicable``; calibration, samples, revalidation and comparison are still written by
+``not_applicable``; calibration, samples and revalidation are still written by
 the functions below, their reasons found by :func:`_not_applicable`'s walk.
 """
 
@@ -27,6 +27,7 @@ from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__
 from .characteristics.precision import PrecisionLevel
 from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
+from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
 from .criteria import Criterion
 from .characteristics.working_range import LoqCheck, WorkingRange
@@ -259,7 +260,8 @@ def _calibration(a):
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
               "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
-              "reference_material": (ReferenceMaterialResult,), "criteria": (Criterion,)}
+              "reference_material": (ReferenceMaterialResult,), "comparison": (ComparisonResult,),
+              "criteria": (Criterion,)}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -322,9 +324,6 @@ def _known_reasons(a) -> dict:
         out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
         out["revalidation"] = ("; ".join(a.revalidation.reasons) or
                                "the previous results.json has no value for it")
-    if a.comparison is not None:
-        out["comparison"] = (getattr(a.comparison, "reason", "") or
-                             "the value does not exist for these data (see the comparison basis)")
     return out
 
 
@@ -412,36 +411,6 @@ def _revalidation(r, previous, name):
     }
 
 
-def _comparison(c):
-    if c is None:
-        return None
-    pb, dm, ba = c.passing_bablok, c.deming, c.bland_altman
-    return {
-        "n": c.n,
-        "level": c.level,
-        "passing_bablok": {"slope": num(pb.slope), **_interval("slope_ci", pb.slope_ci, None),
-                           "intercept": num(pb.intercept), **_interval("intercept_ci", pb.intercept_ci, None),
-                           "cusum_p_value": num(pb.cusum_pvalue),
-                           "cusum_statistic": num(pb.cusum_statistic), "offset_k": pb.offset_k,
-                           "n_slopes": pb.n_slopes, "reason": pb.reason, "ci_reason": pb.ci_reason,
-                           "min_n_for_ci": pb.min_n_for_ci, "cusum_reason": pb.cusum_reason,
-                           "cusum_p_value_method": pb.cusum_pvalue_method},
-        "deming": {"slope": num(dm.slope), **_interval("slope_ci", dm.slope_ci, None), "intercept": num(dm.intercept),
-                   **_interval("intercept_ci", dm.intercept_ci, None), "error_ratio": num(dm.error_ratio),
-                   "slope_se": num(dm.slope_se), "intercept_se": num(dm.intercept_se), "reason": dm.reason},
-        "bland_altman": {"bias": num(ba.bias), **_interval("bias_ci", ba.bias_ci, None), "sd": num(ba.sd),
-                         "limits": None if ba.limits is None else [num(v) for v in ba.limits],
-                         **_interval("lower_limit_ci", ba.lower_limit_ci, None),
-                         **_interval("upper_limit_ci", ba.upper_limit_ci, None), "percentage": ba.percentage,
-                         "n": ba.n, "reason": ba.reason,
-                         "excluded_samples": [c.samples[i] for i in ba.excluded], "note": ba.note},
-        "verdict": {True: "pass", False: "fail", None: "not applicable"}[c.passed],
-        "basis": c.basis,
-        "reason": c.reason,
-        "data": [{"sample": s, "reference": num(x), "test": num(y)} for s, x, y in zip(c.samples, c.reference, c.test)],
-    }
-
-
 def _analyte(a, previous=None):
     serialise = Serialiser()
     entry = {
@@ -461,7 +430,7 @@ def _analyte(a, previous=None):
         "reference_material": (None if a.reference_material is None
                                else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
-        "comparison": _comparison(a.comparison),
+        "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
         "criteria": serialise(a.criteria, "criteria"),
         "diagnostics": list(a.calibration.diagnostics),
     }

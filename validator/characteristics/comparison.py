@@ -12,13 +12,13 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from ..maths.method_comparison import BlandAltman, Deming, PassingBablok, bland_altman, deming, passing_bablok
 
-__all__ = ["ComparisonResult", "assess_comparison"]
+__all__ = ["ComparisonPoint", "ComparisonResult", "assess_comparison"]
 
 
 def _rule(limits, ideal, name):
@@ -35,21 +35,46 @@ def _judge(ci, limits, ideal, name):
 
 
 @dataclass(frozen=True)
+class ComparisonPoint:
+    """One shared sample: its reference and test results."""
+
+    sample: str
+    reference: float
+    test: float
+
+
+_VERDICT = {True: "pass", False: "fail", None: "not applicable"}
+
+
+@dataclass(frozen=True)
 class ComparisonResult:
     """The three comparisons and the verdict; ``passed`` is ``None`` (with ``reason``) when
-    the Passing-Bablok intervals it is judged on do not exist."""
+    the Passing-Bablok intervals it is judged on do not exist. Field order and ``metadata``
+    give its results.json form."""
 
     n: int
-    samples: tuple[str, ...]
-    reference: tuple[float, ...]
-    test: tuple[float, ...]
+    level: float
     passing_bablok: PassingBablok
     deming: Deming
     bland_altman: BlandAltman
-    passed: bool | None
+    passed: bool | None = field(metadata={"json": None})
+    verdict: str = field(init=False)                      # "pass", "fail" or "not applicable"
     basis: str
-    reason: str = ""
-    level: float = 0.95
+    reason: str
+    data: tuple[ComparisonPoint, ...] = field(init=False)
+    samples: tuple[str, ...] = field(metadata={"json": None})
+    reference: tuple[float, ...] = field(metadata={"json": None})
+    test: tuple[float, ...] = field(metadata={"json": None})
+
+    def __post_init__(self):
+        object.__setattr__(self, "verdict", _VERDICT[self.passed])
+        object.__setattr__(self, "data", tuple(ComparisonPoint(s, x, y)
+                                               for s, x, y in zip(self.samples, self.reference, self.test)))
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value is missing (results.json ``not_applicable``)."""
+        return self.reason or "the value does not exist for these data (see the comparison basis)"
 
 
 def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits=None,
@@ -65,13 +90,14 @@ def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits
     y = np.asarray(test, float)
     pb = passing_bablok(x, y, alpha)
     dm = deming(x, y, error_ratio, alpha)
-    ba = bland_altman(x, y, alpha, percentage)
-    common = (x.size, tuple(samples), tuple(map(float, x)), tuple(map(float, y)), pb, dm, ba)
+    ba = bland_altman(x, y, alpha, percentage, samples=tuple(samples))
+    common = dict(n=x.size, level=1 - alpha, passing_bablok=pb, deming=dm, bland_altman=ba, samples=tuple(samples),
+                  reference=tuple(map(float, x)), test=tuple(map(float, y)))
     if pb.slope_ci is None or pb.intercept_ci is None:
         rule = (f"Passing-Bablok: {_rule(slope_limits, 1.0, 'slope')} and "
                 f"{_rule(intercept_limits, 0.0, 'intercept')}")
-        return ComparisonResult(*common, None, rule, f"Passing-Bablok: {pb.reason or pb.ci_reason}", 1 - alpha)
+        return ComparisonResult(**common, passed=None, basis=rule, reason=f"Passing-Bablok: {pb.reason or pb.ci_reason}")
     ok_slope, slope_basis = _judge(pb.slope_ci, slope_limits, 1.0, "slope")
     ok_icpt, icpt_basis = _judge(pb.intercept_ci, intercept_limits, 0.0, "intercept")
-    return ComparisonResult(*common, bool(ok_slope and ok_icpt), f"Passing-Bablok: {slope_basis} and {icpt_basis}",
-                            "", 1 - alpha)
+    return ComparisonResult(**common, passed=bool(ok_slope and ok_icpt),
+                            basis=f"Passing-Bablok: {slope_basis} and {icpt_basis}", reason="")

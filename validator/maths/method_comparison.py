@@ -19,7 +19,7 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
@@ -42,19 +42,19 @@ class PassingBablok:
     """
 
     slope: float | None
-    slope_ci: ConfidenceInterval | None
+    slope_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
     intercept: float | None
-    intercept_ci: ConfidenceInterval | None
-    n_slopes: int
-    offset_k: int
+    intercept_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
+    cusum_pvalue: float | None = field(metadata={"json": "cusum_p_value"})
     cusum_statistic: float | None
-    cusum_pvalue: float | None
+    offset_k: int
+    n_slopes: int
     reason: str = ""
     ci_reason: str = ""
-    cusum_reason: str = ""
-    cusum_pvalue_method: str = ""
-    level: float = 0.95
     min_n_for_ci: int = 0
+    cusum_reason: str = ""
+    cusum_pvalue_method: str = field(default="", metadata={"json": "cusum_p_value_method"})
+    level: float = field(default=0.95, metadata={"json": None})    # written as the comparison's level
 
 
 def _rank_half_width(n: int, alpha: float) -> float:
@@ -290,8 +290,9 @@ def passing_bablok(x, y, alpha: float = 0.05) -> PassingBablok:
     distinct = int(np.unique(x).size)
 
     def none(reason, n_slopes=0, k=0):
-        return PassingBablok(None, None, None, None, n_slopes, k, None, None, reason, reason, reason,
-                             "", level, min_n)
+        return PassingBablok(slope=None, slope_ci=None, intercept=None, intercept_ci=None, cusum_pvalue=None,
+                             cusum_statistic=None, offset_k=k, n_slopes=n_slopes, reason=reason, ci_reason=reason,
+                             min_n_for_ci=min_n, cusum_reason=reason, cusum_pvalue_method="", level=level)
 
     if distinct < 3:
         what = "the reference values have no spread" if distinct <= 1 else "only 2 distinct reference values"
@@ -333,8 +334,10 @@ def passing_bablok(x, y, alpha: float = 0.05) -> PassingBablok:
             slope_ci = ConfidenceInterval(float(b_lo), float(b_hi), level)
             intercept_ci = ConfidenceInterval(float(a_lo), float(a_hi), level)
     H, p, cusum_reason = _cusum(xf, yf, a, b)
-    return PassingBablok(float(b), slope_ci, float(a), intercept_ci, N, K, H, p, "", ci_reason,
-                         cusum_reason, CUSUM_PVALUE_METHOD if p is not None else "", level, min_n)
+    return PassingBablok(slope=float(b), slope_ci=slope_ci, intercept=float(a), intercept_ci=intercept_ci,
+                         cusum_pvalue=p, cusum_statistic=H, offset_k=K, n_slopes=N, reason="", ci_reason=ci_reason,
+                         min_n_for_ci=min_n, cusum_reason=cusum_reason,
+                         cusum_pvalue_method=CUSUM_PVALUE_METHOD if p is not None else "", level=level)
 
 
 @dataclass(frozen=True)
@@ -342,12 +345,12 @@ class Deming:
     """Deming regression; every estimate is ``None`` with ``reason`` when it does not exist."""
 
     slope: float | None
-    slope_se: float | None
-    slope_ci: ConfidenceInterval | None
+    slope_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
     intercept: float | None
-    intercept_se: float | None
-    intercept_ci: ConfidenceInterval | None
+    intercept_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
     error_ratio: float
+    slope_se: float | None
+    intercept_se: float | None
     reason: str = ""
 
 
@@ -384,7 +387,8 @@ def deming(x, y, error_ratio: float = 1.0, alpha: float = 0.05) -> Deming:
     lam = float(error_ratio)
 
     def none(reason):
-        return Deming(None, None, None, None, None, None, lam, reason)
+        return Deming(slope=None, slope_ci=None, intercept=None, intercept_ci=None, error_ratio=lam, slope_se=None,
+                      intercept_se=None, reason=reason)
 
     distinct = int(np.unique(x).size)
     if distinct < 3:
@@ -400,8 +404,9 @@ def deming(x, y, error_ratio: float = 1.0, alpha: float = 0.05) -> Deming:
     se = [float(v) for v in se]
     t = float(stats.t.ppf(1 - alpha / 2, n - 2))
     level = 1 - alpha
-    return Deming(float(b), se[0], ConfidenceInterval(b - t * se[0], b + t * se[0], level),
-                  float(a), se[1], ConfidenceInterval(a - t * se[1], a + t * se[1], level), lam)
+    return Deming(slope=float(b), slope_ci=ConfidenceInterval(b - t * se[0], b + t * se[0], level),
+                  intercept=float(a), intercept_ci=ConfidenceInterval(a - t * se[1], a + t * se[1], level),
+                  error_ratio=lam, slope_se=se[0], intercept_se=se[1])
 
 
 LIMITS_Z = 1.96          # limits of agreement: bias +/- 1.96 SD [BA1999]
@@ -416,19 +421,30 @@ class BlandAltman:
     ``differences`` holds every pair's difference (NaN where it does not exist).
     """
 
-    n: int
     bias: float | None
-    bias_ci: ConfidenceInterval | None
+    bias_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
     sd: float | None
     limits: tuple[float, float] | None
-    lower_limit_ci: ConfidenceInterval | None
-    upper_limit_ci: ConfidenceInterval | None
+    lower_limit_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
+    upper_limit_ci: ConfidenceInterval | None = field(metadata={"interval": "null"})
     percentage: bool
+    n: int
     reason: str = ""
-    excluded: tuple[int, ...] = ()
+    excluded: tuple[int, ...] = field(default=(), metadata={"json": None})
+    excluded_samples: tuple[str, ...] = field(init=False)    # the excluded pairs' sample names
     note: str = ""
     # every pair's difference in the order given (NaN for an excluded pair), for the plot
-    differences: tuple[float, ...] = ()
+    differences: tuple[float, ...] = field(default=(), metadata={"json": None})
+    samples: tuple[str, ...] = field(default=(), metadata={"json": None})    # the pairs' names, if given
+
+    def __post_init__(self):
+        object.__setattr__(self, "excluded_samples", tuple(self.samples[i] for i in self.excluded)
+                           if self.samples else ())
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value is missing (results.json ``not_applicable``): the reason and the note."""
+        return "; ".join(text for text in (self.reason, self.note) if text)
 
 
 def percentage_differences(x, y):
@@ -440,7 +456,7 @@ def percentage_differences(x, y):
         return np.where(mean != 0, 100 * (y - x) / np.where(mean != 0, mean, 1.0), np.nan)
 
 
-def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAltman:
+def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False, *, samples=()) -> BlandAltman:
     """Bias and limits of agreement (bias +/- 1.96 SD) of y - x, with approximate CIs.
 
     Notes
@@ -449,7 +465,8 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
     bias = mean d, CI bias +/- t(1 - alpha/2, n - 1) s/sqrt(n); limits bias +/- 1.96 s,
     each with SE = s sqrt(1/n + 1.96^2 / (2 (n - 1))) and CI +/- t(1 - alpha/2, n - 1) SE [BA1999].
     With ``percentage`` a pair with mean 0 is excluded (its percentage difference does not
-    exist). Fewer than 2 differences: not applicable.
+    exist). Fewer than 2 differences: not applicable. ``samples``, the pairs' names if
+    given, name the excluded pairs in ``excluded_samples``.
     """
     x = np.asarray(x, float)
     y = np.asarray(y, float)
@@ -467,8 +484,9 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
         every = tuple(map(float, d))
     n = int(d.size)
     if n < 2:
-        return BlandAltman(n, None, None, None, None, None, None, percentage,
-                           f"needs at least 2 differences, got {n}", excluded, note, every)
+        return BlandAltman(bias=None, bias_ci=None, sd=None, limits=None, lower_limit_ci=None, upper_limit_ci=None,
+                           percentage=percentage, n=n, reason=f"needs at least 2 differences, got {n}",
+                           excluded=excluded, note=note, differences=every, samples=samples)
     bias = float(d.mean())
     sd = float(np.std(d - bias, ddof=1))
     t = float(stats.t.ppf(1 - alpha / 2, n - 1))
@@ -477,7 +495,8 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False) -> BlandAl
     se_lim = float(sd * np.sqrt(1 / n + z**2 / (2 * (n - 1))))
     lo, hi = bias - z * sd, bias + z * sd
     level = 1 - alpha
-    return BlandAltman(n, bias, ConfidenceInterval(bias - t * se_bias, bias + t * se_bias, level), sd,
-                       (lo, hi), ConfidenceInterval(lo - t * se_lim, lo + t * se_lim, level),
-                       ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level), percentage, "",
-                       excluded, note, every)
+    return BlandAltman(bias=bias, bias_ci=ConfidenceInterval(bias - t * se_bias, bias + t * se_bias, level), sd=sd,
+                       limits=(lo, hi), lower_limit_ci=ConfidenceInterval(lo - t * se_lim, lo + t * se_lim, level),
+                       upper_limit_ci=ConfidenceInterval(hi - t * se_lim, hi + t * se_lim, level),
+                       percentage=percentage, n=n, reason="", excluded=excluded, note=note, differences=every,
+                       samples=samples)
