@@ -122,7 +122,9 @@ def test_run_identical_to_protocol(make_study, outside, capsys):
     assert not [c for a in results["analytes"] for c in a["criteria"] if c["id"] == "protocol-deviation"]
     html = (outside / "r" / "dossier.html").read_text()
     assert ("Design and acceptance criteria are identical to the approved protocol (digest "
-            f'<span class="hash">{p["digest"]}</span>, approved on 2026-12-01 by A. Approver)') in html
+            f'<span class="hash">{p["digest"]}</span>, approved on 2026-12-01 by A. Approver; the protocol folder is '
+            "not signed, so its approval is not protected against editing)") in html
+    assert p["signed_by_key"] is None
 
 
 def test_run_with_one_criterion_changed_lists_exactly_that_deviation(make_study, outside, capsys):
@@ -262,3 +264,40 @@ def test_digest_invariant_under_key_order_and_explicit_defaults(make_study, orde
     lines = [CRITERIA_LINES[i] for i in order if i == 4 or explicit[i]]
     body = BODY + "[criteria]\n" + "\n".join(lines) + "\n"
     assert _digest_of(make_study, body) == _digest_of(make_study, BODY + "[criteria]\nr_squared_min = 0.99\n")
+
+
+def test_a_forged_approval_is_refused_and_a_signed_protocol_is_named(make_study, outside, tmp_path, capsys):
+    # hostile-test finding: approved_on/approved_by edited in protocol.json (digest untouched, as it covers
+    # only design and criteria) was shown as the approval; the protocol folder must verify as a record
+    study, pj = _protocol(make_study, outside, capsys)
+    (study.parent / "calibration.csv").write_text(CALIBRATION)
+    original = pj.read_text()
+    doc = json.loads(original)
+    doc["approved_by"] = "Head of QA"
+    pj.write_text(json.dumps(doc))
+    code, _, err = run(capsys, "run", study, "--out", outside / "r1", "--protocol", pj)
+    assert code == 2 and "its folder changed since validator wrote it" in err and err.count("\n") == 1
+    pj.write_text(original)
+    # signed: the run names the key (the same fingerprint verify prints)
+    key = tmp_path / "keys" / "qa.key"
+    key.parent.mkdir()
+    assert main(["keygen", str(key)]) == 0
+    assert main(["sign", str(pj.parent), "--key", str(key)]) == 0
+    capsys.readouterr()
+    code, _, err = run(capsys, "run", study, "--out", outside / "r2", "--protocol", pj)
+    assert (code, err) == (0, "")
+    p = json.loads((outside / "r2" / "results.json").read_text())["protocol"]
+    signed = json.loads((pj.parent / "signature.json").read_text())["signed"]
+    assert p["signed_by_key"] == signed["key_fingerprint"]
+    assert p["signed_by_key"] and f"protocol folder signed by key {p['signed_by_key']}" in \
+        (outside / "r2" / "dossier.html").read_text()
+
+
+def test_an_approval_dated_after_the_protocol_is_refused(make_study, outside, capsys):
+    study, pj = _protocol(make_study, outside, capsys)
+    doc = json.loads(pj.read_text())
+    doc["approved_on"] = "2099-01-01"
+    from validator.protocol import read_protocol
+    pj.write_text(json.dumps(doc))
+    with pytest.raises(Exception, match="later than the day the protocol was written"):
+        read_protocol(str(pj))

@@ -107,11 +107,11 @@ def _cmd_run(args) -> int:
 
 
 def _held_to_protocol(args, loaded):
-    """(path, sha256, protocol, deviations) of the protocol the run is held to, or None.
+    """(path, sha256, protocol, deviations, signing key or None) of the protocol the run is held to, or None.
 
     ``--protocol`` or ``[protocol] file`` (relative to the study file); both given must name one file.
     """
-    from .protocol import compare, design_deviations, read_protocol
+    from .protocol import check_protocol_record, compare, design_deviations, read_protocol
 
     declared = loaded.config.protocol
     path = args.protocol
@@ -124,8 +124,9 @@ def _held_to_protocol(args, loaded):
     if path is None:
         return None
     protocol, sha256 = read_protocol(path)
+    signed_by_key = check_protocol_record(path)
     deviations = compare(protocol, loaded.study) + design_deviations(loaded.config.design, loaded.analytes)
-    return path, sha256, protocol, deviations
+    return path, sha256, protocol, deviations, signed_by_key
 
 
 def _cmd_protocol(args) -> int:

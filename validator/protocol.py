@@ -312,7 +312,40 @@ def read_protocol(path: str) -> tuple:
     for key in ("approved_on", "approved_by"):
         if doc.get(key) is not None and not isinstance(doc[key], str):
             raise StudyError(f'"{key}" must be text or null', file=path, key=key)
+    try:                                    # the same rules as --approved-on and --approved-by
+        _approval(doc.get("approved_on"), doc.get("approved_by"))
+    except ValidatorError as exc:
+        raise StudyError(f"its approval is not one validator wrote ({exc})", file=path, key="approved_on") from None
+    if doc.get("approved_on") and doc["approved_on"] > str(doc.get("generated_at", ""))[:10] > "":
+        raise StudyError(f'approved_on {doc["approved_on"]} is later than the day the protocol was written '
+                         f'({str(doc["generated_at"])[:10]})', file=path, key="approved_on")
     return doc, hashlib.sha256(data).hexdigest()
+
+
+def check_protocol_record(path: str) -> str | None:
+    """Check the protocol's folder as a record: its manifest, and its signature if it has one.
+
+    The digest only shows that design and criteria agree with each other; the manifest shows that
+    protocol.json (approval included) is the file validator wrote, and a signature who released it.
+    Returns the signing key's fingerprint, or ``None`` for an unsigned folder (the dossier says that
+    its approval is then not protected against editing).
+    """
+    from .inputs.integrity import verify
+    from .signing import check_signature
+
+    folder = Path(path).parent
+    try:
+        problems = verify(folder)
+    except ValidatorError as exc:
+        raise StudyError(f"its folder is not a protocol folder validator wrote ({exc})", file=path) from None
+    if problems:
+        raise StudyError("its folder changed since validator wrote it (" + "; ".join(problems[:3]) + "); "
+                         "use the approved protocol as written", file=path)
+    signature = check_signature(str(folder))
+    if signature.present and not signature.valid:
+        raise StudyError("its folder's signature is not valid (" + "; ".join(signature.problems[:3]) + ")",
+                         file=path)
+    return signature.key_fingerprint if signature.present else None
 
 
 # ---- deviations ----------------------------------------------------------------------------------
@@ -447,11 +480,12 @@ def with_deviations(result, deviations):
     return replace(result, analytes=analytes)
 
 
-def protocol_entry(path: str, sha256: str, protocol: dict, deviations) -> dict:
+def protocol_entry(path: str, sha256: str, protocol: dict, deviations, signed_by_key: str | None = None) -> dict:
     """The top-level ``protocol`` object of results.json."""
     return {"path": path, "sha256": sha256, "digest": protocol["digest"],
             "study_id": protocol["study_id"],
             "approved_on": protocol.get("approved_on"), "approved_by": protocol.get("approved_by"),
+            "signed_by_key": signed_by_key,
             "identical": not deviations,
             "deviations": [{"key": d.key, "protocol": None if d.protocol is _MISSING else d.protocol,
                             "run": None if d.run is _MISSING else d.run, "analyte": d.analyte,
