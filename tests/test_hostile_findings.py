@@ -254,3 +254,34 @@ def test_no_loq_on_the_reported_basis_leaves_the_working_range_unshown(make_stud
     crit = next(c for c in a["criteria"] if c["id"] == "working-range")
     assert crit["pass"] is None and "no LOQ on the reported basis (needs at least 2 blank readings)" in crit["note"]
     assert code == 1 and out.startswith("validator: INCOMPLETE:")
+
+
+def test_force_over_an_output_missing_a_listed_file_is_exit_2(make_study, outside, capsys):
+    # second hostile pass: a previous output with results.json deleted gave exit 3 (FileNotFoundError)
+    study = make_study()
+    out = outside / "o"
+    assert main(["run", str(study), "--out", str(out), "--format", "json"]) == 0
+    (out / "results.json").unlink()
+    code, _, err = _run(capsys, "run", study, "--out", out, "--format", "json", "--force")
+    assert (code, err) == (2, f'validator: error: {out}: its file "results.json" is missing; --force replaces only '
+                              "a previous validator output\n")
+
+
+def test_force_never_replaces_a_protocol(make_study, outside, capsys):
+    # second hostile pass: run --force replaced an approved protocol folder with run results
+    study = make_study()
+    assert main(["protocol", str(study), "--out", str(outside / "p")]) == 0
+    before = sorted(p.name for p in (outside / "p").iterdir())
+    capsys.readouterr()
+    code, _, err = _run(capsys, "run", study, "--out", outside / "p", "--format", "json", "--force")
+    assert (code, err) == (2, f"validator: error: {outside / 'p'}: holds a protocol (protocol.json); a protocol is "
+                              "never replaced, not even with --force; choose another --out\n")
+    assert sorted(p.name for p in (outside / "p").iterdir()) == before
+
+
+def test_a_deeply_nested_case_file_is_exit_2(tmp_path, outside, capsys):
+    # second hostile pass: 50,000 nested arrays gave exit 3 (RecursionError)
+    cases = tmp_path / "cases.toml"
+    cases.write_text("x = " + "[" * 50000 + "]" * 50000 + "\n")
+    code, _, err = _run(capsys, "qualify", "--out", outside / "q", "--cases", cases)
+    assert code == 2 and "nested too deeply" in err and err.count("\n") == 1

@@ -173,6 +173,8 @@ def _not_previous_output(folder: Path) -> str | None:
         return f'holds "{show(foreign)}", which validator did not write'
     for e in manifest.entries:
         p = folder / e.file
+        if not p.is_file():
+            return f'its file "{show(e.file)}" is missing'
         if p.stat().st_size != e.bytes or sha256_file(p) != e.sha256:
             return f'its file "{show(e.file)}" has changed since validator wrote it'
     return None
@@ -192,6 +194,9 @@ def check_existing(target: Path, shown: str, force: bool) -> None:
     if os.path.lexists(target / SIGNATURE):
         raise OutputError(f"{shown}: holds a signed output ({SIGNATURE}); a signed record is never replaced, "
                           "not even with --force; choose another --out", path=shown)
+    if os.path.lexists(target / "protocol.json"):
+        raise OutputError(f"{shown}: holds a protocol (protocol.json); a protocol is never replaced, not even "
+                          "with --force; choose another --out", path=shown)
     why = _not_previous_output(target)
     if why:
         raise OutputError(f"{shown}: {why}; --force replaces only a previous validator output",

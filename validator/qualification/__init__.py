@@ -139,6 +139,8 @@ def load_cases(path: str | Path | None = None) -> tuple:
         raise CaseFileError(f"{shown}: not found") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise CaseFileError(f"{shown}: cannot be read ({exc})") from None
+    except RecursionError:
+        raise CaseFileError(f"{shown}: is nested too deeply to be a case file") from None
     except tomllib.TOMLDecodeError as exc:
         raise CaseFileError(f"{shown}: is not valid TOML ({exc})") from None
     raw = doc.get("case")
