@@ -253,3 +253,21 @@ def test_run_force_does_not_replace_a_signed_output(signed, tmp_path, capsys):
         f"validator: error: {copy}: holds a signed output (signature.json); a signed record is never replaced, "
         "not even with --force; choose another --out\n")
     assert {p.name: p.read_bytes() for p in copy.iterdir()} == before
+
+
+@pytest.mark.parametrize("spoil", ["not json", "link", '{"signed": {}, "signature": "x"}'])
+def test_a_broken_signature_file_is_reported_as_a_changed_record(signed, tmp_path, capsys, spoil):
+    # second hostile pass: a signature.json that is not ours gave exit 2 and no report; it is a broken
+    # record: exit 1, named, with the rest of the report
+    copy = _copy(signed, tmp_path)
+    sig = copy / "signature.json"
+    sig.unlink()
+    if spoil == "link":
+        sig.symlink_to(copy / "results.json")
+    else:
+        sig.write_text(spoil)
+    code = main(["verify", str(copy)])
+    out = capsys.readouterr().out
+    assert code == 1
+    assert "validator: SIGNATURE: signature.json is not a readable validator signature" in out
+    assert "do not rely on this record" in out

@@ -157,16 +157,24 @@ def _cmd_check(args) -> int:
 
 
 def _cmd_verify(args) -> int:
-    from .inputs.integrity import verify
-    from .signing import check_signature, what_it_proves
+    from .errors import OutputError
+    from .inputs.integrity import SIGNATURE, verify
+    from .signing import SignatureCheck, check_signature, what_it_proves
 
     problems = verify(Path(args.folder), args.study)
-    signature = check_signature(args.folder, args.public_key)
+    try:
+        signature = check_signature(args.folder, args.public_key)
+    except OutputError as exc:
+        if Path(str(exc.path)).name != SIGNATURE:       # e.g. an unreadable --public-key file: a usage error
+            raise
+        # a signature.json that is not a readable validator signature: the record is broken, say so (exit 1)
+        signature = SignatureCheck(True, False, None if args.public_key is None else False, None, None, None,
+                                   None, (f"{SIGNATURE} is not a readable validator signature ({exc})",))
     for p in problems:
         print(f"validator: CHANGED: {p}")
     for p in signature.problems:
         print(f"validator: SIGNATURE: {p}")
-    if signature.present:
+    if signature.present and signature.key_fingerprint is not None:
         print(f"validator: signature by key {signature.key_fingerprint}: "
               f"{'valid' if signature.valid else 'NOT VALID'}; signed {signature.signed_at} "
               f"by {signature.operator} on {signature.host} (as recorded in the signature)")
