@@ -301,3 +301,10 @@ def test_an_approval_dated_after_the_protocol_is_refused(make_study, outside, ca
     pj.write_text(json.dumps(doc))
     with pytest.raises(Exception, match="later than the day the protocol was written"):
         read_protocol(str(pj))
+
+
+def test_an_approval_in_the_future_is_refused_when_writing(make_study, outside, capsys):
+    study = make_study(BODY, files={})
+    code, _, err = run(capsys, "protocol", study, "--out", outside / "p", "--approved-on", "2999-01-01",
+                       "--approved-by", "A. Approver")
+    assert code == 2 and "is later than today" in err and err.count("\n") == 1

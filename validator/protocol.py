@@ -267,6 +267,9 @@ def build_protocol(study, *, generated_at: str, approved_on=None, approved_by=No
     from . import __version__
 
     approved_on, approved_by = _approval(approved_on, approved_by)
+    if approved_on is not None and approved_on > generated_at[:10]:
+        raise ValidatorError(f"--approved-on: {approved_on} is later than today ({generated_at[:10]}); a protocol "
+                             "is approved on or before the day it is written")
     dc = normalised(study.config)
     return {
         "protocol_version": PROTOCOL_VERSION,
