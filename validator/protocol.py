@@ -31,7 +31,7 @@ import hashlib
 import json
 import re
 from dataclasses import dataclass, replace
-from datetime import date
+from datetime import date, timedelta
 from pathlib import Path
 from typing import Annotated, Optional
 
@@ -263,11 +263,20 @@ def _approval(approved_on: str | None, approved_by: str | None) -> tuple:
     return approved_on, approved_by
 
 
+def _latest_approval(generated_at: str) -> str:
+    """The latest approval date (YYYY-MM-DD) a protocol written at ``generated_at`` (UTC) may carry:
+    its own day, plus one for time zones ahead of UTC. "9999-12-31" when the time cannot be read."""
+    try:
+        return (date.fromisoformat(generated_at[:10]) + timedelta(days=1)).isoformat()
+    except (ValueError, OverflowError):
+        return "9999-12-31"
+
+
 def build_protocol(study, *, generated_at: str, approved_on=None, approved_by=None) -> dict:
     from . import __version__
 
     approved_on, approved_by = _approval(approved_on, approved_by)
-    if approved_on is not None and approved_on > generated_at[:10]:
+    if approved_on is not None and approved_on > _latest_approval(generated_at):
         raise ValidatorError(f"--approved-on: {approved_on} is later than today ({generated_at[:10]}); a protocol "
                              "is approved on or before the day it is written")
     dc = normalised(study.config)
@@ -319,7 +328,7 @@ def read_protocol(path: str) -> tuple:
         _approval(doc.get("approved_on"), doc.get("approved_by"))
     except ValidatorError as exc:
         raise StudyError(f"its approval is not one validator wrote ({exc})", file=path, key="approved_on") from None
-    if doc.get("approved_on") and doc["approved_on"] > str(doc.get("generated_at", ""))[:10] > "":
+    if doc.get("approved_on") and doc["approved_on"] > _latest_approval(str(doc.get("generated_at", ""))):
         raise StudyError(f'approved_on {doc["approved_on"]} is later than the day the protocol was written '
                          f'({str(doc["generated_at"])[:10]})', file=path, key="approved_on")
     return doc, hashlib.sha256(data).hexdigest()
