@@ -285,3 +285,15 @@ def test_a_deeply_nested_case_file_is_exit_2(tmp_path, outside, capsys):
     cases.write_text("x = " + "[" * 50000 + "]" * 50000 + "\n")
     code, _, err = _run(capsys, "qualify", "--out", outside / "q", "--cases", cases)
     assert code == 2 and "nested too deeply" in err and err.count("\n") == 1
+
+
+def test_breusch_pagan_without_information_is_not_applicable(make_study, outside, capsys):
+    # second hostile run: every residual of size 1.3 makes e^2 constant; the statistic was null beside p = 1.0
+    rows = [(10, 11.3), (10, 8.7), (11, 12.3), (11, 9.7), (12, 13.3), (12, 10.7), (13, 14.3), (13, 11.7),
+            (14, 15.3), (14, 12.7)]
+    study = make_study(files={"calibration.csv": "concentration,response\n" + "".join(f"{x},{y}\n" for x, y in rows)})
+    _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["calibration"]["heteroscedasticity"] is None
+    assert {"item": "heteroscedasticity", "reason": "the squared residuals do not vary (every residual has the same "
+            "size), so the test has no information"} in a["not_applicable"]

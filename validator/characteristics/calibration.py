@@ -280,6 +280,9 @@ def _breusch_pagan(x, y, model: str) -> TestResult:
     exog = np.column_stack([np.ones_like(u)] + [u**k for k in powers if k > 0])
     with quiet_numpy():
         lm, lm_p, _, _ = het_breuschpagan(resid, exog)
+    if not (np.isfinite(lm) and np.isfinite(lm_p)):     # e.g. every residual of the same size: e^2 constant
+        return not_applicable(method, "the squared residuals do not vary (every residual has the same size), "
+                                      "so the test has no information")
     return TestResult(method, float(lm), float(lm_p), (exog.shape[1] - 1,))
 
 
