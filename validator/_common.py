@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import math
 import warnings
 from contextlib import contextmanager
 from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy", "level_label"]
+__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy", "level_label",
+           "open_unit", "positive"]
 
 
 @dataclass(frozen=True)
@@ -80,3 +82,25 @@ def quiet_numpy():
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore")
         yield
+
+
+def open_unit(name: str, value, high: float = 1.0) -> float:
+    """``value`` as a float in the open interval (0, high) (a probability, alpha, a coverage), else ValueError."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be a number in the open interval (0, {high:g}), got {value!r}") from None
+    if not (0.0 < v < high):
+        raise ValueError(f"{name} must be in the open interval (0, {high:g}), got {value!r}")
+    return v
+
+
+def positive(name: str, value) -> float:
+    """``value`` as a finite float > 0 (a factor, a limit, degrees of freedom), else ValueError."""
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name} must be a finite number > 0, got {value!r}") from None
+    if not (math.isfinite(v) and v > 0):
+        raise ValueError(f"{name} must be a finite number > 0, got {value!r}")
+    return v

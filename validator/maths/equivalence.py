@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, open_unit, positive, quiet_numpy
 
 __all__ = ["EquivalenceTest", "RsdBound", "tost_mean", "tost_two_samples", "rsd_upper_bound"]
 
@@ -67,16 +67,6 @@ class RsdBound:
     limit_percent: float | None
     within_limit: bool | None
     reason: str = ""
-
-
-def _alpha(alpha) -> float:
-    try:
-        a = float(alpha)
-    except (TypeError, ValueError):
-        raise ValueError(f"alpha must be a number in (0, 0.5), got {alpha!r}") from None
-    if not (0.0 < a < 0.5):
-        raise ValueError(f"alpha must be in the open interval (0, 0.5), got {alpha!r}")
-    return a
 
 
 def _margins(low, high):
@@ -127,7 +117,7 @@ def tost_mean(values, low: float, high: float, *, alpha: float = 0.05) -> Equiva
     interval m +/- t_{1-alpha; df} SE lies inside [low, high] exactly when
     p <= alpha [USP1210].
     """
-    alpha = _alpha(alpha)
+    alpha = open_unit("alpha", alpha, 0.5)
     lo, hi = _margins(low, high)
     x = _sample("values", values)
     method = "TOST, one sample"
@@ -151,7 +141,7 @@ def tost_two_samples(x, y, low: float, high: float, *, alpha: float = 0.05,
     SE = sqrt(s_x^2/n_x + s_y^2/n_y), df by Welch-Satterthwaite. Then as
     :func:`tost_mean`.
     """
-    alpha = _alpha(alpha)
+    alpha = open_unit("alpha", alpha, 0.5)
     lo, hi = _margins(low, high)
     a, b = _sample("x", x), _sample("y", y)
     method = "TOST, two samples, " + ("pooled variance" if equal_variances else "Welch")
@@ -183,21 +173,8 @@ def rsd_upper_bound(values, *, confidence: float = 0.95, limit_percent: float | 
     uncertainty of the mean is neglected, which is adequate when the RSD is
     small). ``within_limit`` is True when the bound is at most ``limit_percent``.
     """
-    try:
-        conf = float(confidence)
-    except (TypeError, ValueError):
-        raise ValueError(f"confidence must be a number in (0, 1), got {confidence!r}") from None
-    if not (0.0 < conf < 1.0):
-        raise ValueError(f"confidence must be in the open interval (0, 1), got {confidence!r}")
-    if limit_percent is not None:
-        try:
-            limit = float(limit_percent)
-        except (TypeError, ValueError):
-            raise ValueError(f"limit_percent must be a number > 0, got {limit_percent!r}") from None
-        if not (math.isfinite(limit) and limit > 0):
-            raise ValueError(f"limit_percent must be a finite number > 0, got {limit_percent!r}")
-    else:
-        limit = None
+    conf = open_unit("confidence", confidence)
+    limit = None if limit_percent is None else positive("limit_percent", limit_percent)
     x = _sample("values", values)
     df = max(x.size - 1, 0)
     if x.size < 2:

@@ -51,7 +51,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import integrate, optimize, special, stats
 
-from .._common import quiet_numpy
+from .._common import open_unit, positive, quiet_numpy
 
 __all__ = ["ToleranceInterval", "BetaExpectationInterval", "ProfileLevel", "AccuracyProfile",
            "normal_tolerance_factor", "normal_tolerance_interval", "beta_expectation_interval",
@@ -63,16 +63,6 @@ ONE_SIDED_METHODS = ("exact", "natrella")
 
 
 # ---------------------------------------------------------------- parameter checks
-
-def _probability(name: str, value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name} must be a number in the open interval (0, 1), got {value!r}") from None
-    if not (0.0 < v < 1.0):
-        raise ValueError(f"{name} must be in the open interval (0, 1), got {value!r}")
-    return v
-
 
 def _choice(name: str, value, allowed: tuple) -> str:
     if value not in allowed:
@@ -99,7 +89,7 @@ def _finite_array(name: str, values) -> np.ndarray:
 
 # ---------------------------------------------------------------- beta-content factors
 
-def _two_sided_coverage_probability(k: float, n: int, df: float, content: float) -> float:
+def _two_sided_coverageopen_unit(k: float, n: int, df: float, content: float) -> float:
     """P(the interval mean +/- k s contains at least ``content``), by the integral of [Odeh-Owen].
 
     gamma(k) = 2 * int_0^inf phi(z) P(chi2_df > df r(z/sqrt n)^2 / k^2) dz, where
@@ -149,18 +139,13 @@ def normal_tolerance_factor(n: int, content: float, confidence: float, *, sides:
     (with n - 1, not ``df``).
     """
     n = _count("n", n, 2)
-    content = _probability("content", content)
-    confidence = _probability("confidence", confidence)
+    content = open_unit("content", content)
+    confidence = open_unit("confidence", confidence)
     _choice("sides", sides, SIDES)
     if df is None:
         df = n - 1
     else:
-        try:
-            df = float(df)
-        except (TypeError, ValueError):
-            raise ValueError(f"df must be a number > 0, got {df!r}") from None
-        if not (math.isfinite(df) and df > 0):
-            raise ValueError(f"df must be a finite number > 0, got {df!r}")
+        df = positive("df", df)
     if sides == "two":
         _choice("method", method, TWO_SIDED_METHODS)
         z = stats.norm.ppf((1.0 + content) / 2.0)
@@ -168,7 +153,7 @@ def normal_tolerance_factor(n: int, content: float, confidence: float, *, sides:
         if method == "howe":
             return float(howe)
         with quiet_numpy():
-            f = lambda k: _two_sided_coverage_probability(k, n, df, content) - confidence  # noqa: E731
+            f = lambda k: _two_sided_coverageopen_unit(k, n, df, content) - confidence  # noqa: E731
             lo, hi = 0.5 * howe, 1.5 * howe
             while f(lo) > 0:
                 lo *= 0.5
@@ -220,8 +205,8 @@ def normal_tolerance_interval(values, content: float, confidence: float, *, side
     interval (``reason`` says why).
     """
     x = _finite_array("values", values)
-    content = _probability("content", content)
-    confidence = _probability("confidence", confidence)
+    content = open_unit("content", content)
+    confidence = open_unit("confidence", confidence)
     _choice("sides", sides, SIDES)
     _choice("method", method, TWO_SIDED_METHODS if sides == "two" else ONE_SIDED_METHODS)
     n = x.size
@@ -314,7 +299,7 @@ def beta_expectation_interval(runs, beta: float) -> BetaExpectationInterval:
     Unbalanced runs use n0 and h as above; the t distribution is then a further
     approximation (mean squares are no longer scaled chi-squares).
     """
-    beta = _probability("beta", beta)
+    beta = open_unit("beta", beta)
     groups = [g for g in _groups_of(runs) if g.size > 0]
     p = len(groups)
     sizes = np.array([g.size for g in groups], dtype=float)
@@ -445,13 +430,8 @@ def accuracy_profile(levels, *, beta: float, acceptance_percent: float) -> Accur
     most lambda and the joined lower limit at least -lambda (solved exactly on
     each segment), merged across segments; it may be several pieces.
     """
-    beta = _probability("beta", beta)
-    try:
-        lam = float(acceptance_percent)
-    except (TypeError, ValueError):
-        raise ValueError(f"acceptance_percent must be a number > 0, got {acceptance_percent!r}") from None
-    if not (math.isfinite(lam) and lam > 0):
-        raise ValueError(f"acceptance_percent must be a finite number > 0, got {acceptance_percent!r}")
+    beta = open_unit("beta", beta)
+    lam = positive("acceptance_percent", acceptance_percent)
     rows = []
     for i, item in enumerate(levels):
         try:

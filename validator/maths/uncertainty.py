@@ -28,6 +28,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .._common import positive
+
 __all__ = ["UncertaintyComponent", "BiasUncertainty", "UncertaintyBudget", "reproducibility_component",
            "bias_uncertainty", "combined_uncertainty"]
 
@@ -180,12 +182,7 @@ def combined_uncertainty(components, *, coverage_factor: float = 2.0,
         raise ValueError("components must be all relative or all absolute, got "
                          + ", ".join(f"{c.name} ({'relative' if c.relative else 'absolute'})" for c in comps))
     relative = kinds.pop()
-    try:
-        k = float(coverage_factor)
-    except (TypeError, ValueError):
-        raise ValueError(f"coverage_factor must be a finite number > 0, got {coverage_factor!r}") from None
-    if not (math.isfinite(k) and k > 0):
-        raise ValueError(f"coverage_factor must be a finite number > 0, got {coverage_factor!r}")
+    k = positive("coverage_factor", coverage_factor)
     u_c = math.sqrt(sum(c.standard_uncertainty ** 2 for c in comps))
     expanded = k * u_c
     if value is None:

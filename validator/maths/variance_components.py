@@ -43,7 +43,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, optimize, stats
 
-from .._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, open_unit, quiet_numpy
 
 __all__ = ["MeanSquare", "VarianceComponent", "PrecisionCondition", "NestedVarianceComponents",
            "ClaimVerification", "nested_variance_components", "sum_of_mean_squares_interval",
@@ -145,16 +145,6 @@ class ClaimVerification:
 
 # ---------------------------------------------------------------- parameter checks
 
-def _confidence(value) -> float:
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"confidence must be a number in (0, 1), got {value!r}") from None
-    if not (0.0 < v < 1.0):
-        raise ValueError(f"confidence must be in the open interval (0, 1), got {value!r}")
-    return v
-
-
 # ---------------------------------------------------------------- intervals on sums of mean squares
 
 def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: float = 0.95):
@@ -173,7 +163,7 @@ def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: fl
     U = g + sqrt(sum H_q^2 c_q^2 MS_q^2). chi2_{q; n} is the q quantile.
     For one mean square both reduce to the exact chi-square interval.
     """
-    confidence = _confidence(confidence)
+    confidence = open_unit("confidence", confidence)
     c = np.asarray(coefficients, dtype=float)
     ms = np.asarray(mean_squares, dtype=float)
     n = np.asarray(dfs, dtype=float)
@@ -350,7 +340,7 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
     repeatability from the residual mean square (N - cells df); the sums get no
     interval (``reason`` says so).
     """
-    confidence = _confidence(confidence)
+    confidence = open_unit("confidence", confidence)
     if method not in METHODS:
         raise ValueError(f"method must be one of {', '.join(map(repr, METHODS))}, got {method!r}")
     y, names, codes = _codes(values, factors, names)
@@ -453,12 +443,7 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
             raise ValueError(f"{name} must be a number, got {v!r}") from None
         if not math.isfinite(fv) or fv < 0 or (name != "observed_sd" and fv == 0):
             raise ValueError(f"{name} must be a finite number {'>= 0' if name == 'observed_sd' else '> 0'}, got {v!r}")
-    try:
-        alpha_f = float(alpha)
-    except (TypeError, ValueError):
-        raise ValueError(f"alpha must be a number in (0, 0.5), got {alpha!r}") from None
-    if not (0.0 < alpha_f < 0.5):
-        raise ValueError(f"alpha must be in the open interval (0, 0.5), got {alpha!r}")
+    alpha_f = open_unit("alpha", alpha, 0.5)
     if isinstance(levels, bool) or not isinstance(levels, (int, np.integer)) or levels < 1:
         raise ValueError(f"levels must be an integer >= 1, got {levels!r}")
     df = float(df)
