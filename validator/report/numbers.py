@@ -1,0 +1,337 @@
+"""Reportable numbers: the one place the dossier rounds and labels a value.
+
+results.json keeps every value at full precision; the dossier shows each value
+rounded by the rule for its kind (:data:`RULES`, listed in the formulas page):
+
+* an uncertainty (standard error, standard deviation, a confidence interval's
+  half-width) to two significant figures, and the value it belongs to rounded
+  to the same decimal place (GUM, JCGM 100:2008, 7.2.6);
+* a p-value to two significant figures;
+* a recovery, deviation or bias in % to one decimal; an RSD to two significant figures;
+* a test statistic to three significant figures; R² and r to four decimals;
+* any other value to four significant figures (trailing zeros dropped).
+
+Very large or small numbers use a power of ten with a real superscript
+("2.2×10⁻³¹"). Every function takes a number (or None, shown as ``n/a``) and
+returns text; none estimates anything.
+
+Labels: :func:`basis_label`, :func:`characteristic_label`, :func:`weighting_label`
+and :func:`criterion_display` turn results.json identifiers into words.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+__all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule",
+           "rule_for_path", "superscript", "basis_label", "characteristic_label", "weighting_label",
+           "criterion_display", "CriterionDisplay"]
+
+MISSING = "n/a"
+UNCERTAINTY_SIG = 2
+P_SIG = 2
+STATISTIC_SIG = 3
+RSD_SIG = 2
+DEFAULT_SIG = 4
+PERCENT_DECIMALS = 1
+CORRELATION_DECIMALS = 4
+# outside 10^-4 <= |x| < 10^6 a number is written with a power of ten
+SCIENTIFIC_BELOW = -4
+SCIENTIFIC_FROM = 6
+
+_SUPERSCRIPT = str.maketrans("-0123456789", "⁻⁰¹²³⁴⁵⁶⁷⁸⁹")
+
+
+def superscript(exponent: int) -> str:
+    """An integer exponent in superscript digits: -31 -> '⁻³¹'."""
+    return str(int(exponent)).translate(_SUPERSCRIPT)
+
+
+def _missing(value) -> bool:
+    return value is None or (isinstance(value, float) and not math.isfinite(value))
+
+
+def _exponent(value: float) -> int:
+    """The decimal exponent of |value| (0 for 0)."""
+    return 0 if value == 0 else math.floor(math.log10(abs(value)))
+
+
+def _rounded_exponent(value: float, digits: int) -> int:
+    """The exponent of ``value`` after rounding to ``digits`` significant figures (0.0996 -> 0.10: -1)."""
+    if value == 0:
+        return 0
+    e = _exponent(value)
+    scaled = round(abs(value) / 10.0 ** (e - digits + 1))
+    return e + 1 if scaled >= 10 ** digits else e
+
+
+def _scientific(value: float, decimals_of_mantissa: int, exponent: int) -> str:
+    mantissa = value / 10.0 ** exponent
+    return f"{mantissa:.{max(decimals_of_mantissa, 0)}f}×10{superscript(exponent)}"
+
+
+def _plain_or_scientific(value: float, decimals: int, exponent: int) -> str:
+    """``value`` rounded at ``decimals`` decimal places (negative: tens, hundreds, ...); a power of
+    ten ``exponent`` when that is outside the plain range."""
+    if exponent < SCIENTIFIC_BELOW or exponent >= SCIENTIFIC_FROM:
+        return _unsign_zero(_scientific(value, decimals + exponent, exponent))
+    if decimals >= 0:
+        return _unsign_zero(f"{value:.{decimals}f}")
+    return _unsign_zero(f"{round(value, decimals):.0f}")
+
+
+def _unsign_zero(text: str) -> str:
+    """'-0.00' -> '0.00': a value that rounds to zero has no sign."""
+    return text[1:] if text.startswith("-") and float(text) == 0 else text
+
+
+def _special(value) -> str | None:
+    if _missing(value):
+        return MISSING
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, int):
+        return str(value)
+    return None
+
+
+def sig(value, digits: int = DEFAULT_SIG, *, keep_zeros: bool = True) -> str:
+    """``value`` to ``digits`` significant figures.
+
+    ``keep_zeros`` keeps trailing zeros that are significant (RSD 2.0 %); without it
+    they are dropped (a nominal 0.5 stays 0.5).
+    """
+    special = _special(value)
+    if special is not None:
+        return special
+    if value == 0:
+        return "0"
+    exponent = _rounded_exponent(value, digits)
+    decimals = digits - 1 - exponent
+    text = _plain_or_scientific(value, decimals, exponent)
+    if not keep_zeros:
+        text = _strip_zeros(text)
+    return text
+
+
+def _strip_zeros(text: str) -> str:
+    mantissa, times, power = text.partition("×")
+    if "." in mantissa:
+        mantissa = mantissa.rstrip("0").rstrip(".")
+    return mantissa + times + power
+
+
+def fixed(value, decimals: int) -> str:
+    """``value`` at a fixed number of decimal places (four significant figures with a power of ten
+    when it is very large)."""
+    special = _special(value)
+    if special is not None:
+        return special
+    if abs(value) >= 10.0 ** SCIENTIFIC_FROM:
+        return sig(value, DEFAULT_SIG)
+    return _unsign_zero(f"{value:.{decimals}f}")
+
+
+def _decimals_of_uncertainty(u: float, digits: int = UNCERTAINTY_SIG) -> int | None:
+    """Decimal places at which ``u`` rounded to ``digits`` significant figures ends (None: no usable u)."""
+    if _missing(u) or u == 0:
+        return None
+    return digits - 1 - _rounded_exponent(u, digits)
+
+
+def matched(value, uncertainty) -> str:
+    """``value`` rounded to the decimal place of its uncertainty at two significant figures (GUM 7.2.6).
+
+    Without a usable uncertainty (missing or zero) the value is shown to four significant figures.
+    Value and uncertainty share one power of ten when the larger of the two needs one.
+    """
+    special = None if isinstance(value, int) and not isinstance(value, bool) else _special(value)
+    if special is not None:
+        return special
+    value = float(value)
+    u = None if _missing(uncertainty) else abs(float(uncertainty))
+    decimals = _decimals_of_uncertainty(u)
+    if decimals is None:
+        return sig(value, DEFAULT_SIG, keep_zeros=False)
+    exponent = max(_exponent(value), _rounded_exponent(u, UNCERTAINTY_SIG))
+    return _plain_or_scientific(value, decimals, exponent)
+
+
+def uncertainty(u) -> str:
+    """An uncertainty (standard error, standard deviation) to two significant figures."""
+    return sig(_as_float(u), UNCERTAINTY_SIG)
+
+
+def interval(low, high) -> tuple[str, str]:
+    """Both ends of a confidence interval, rounded to the decimal place of its half-width at two
+    significant figures (the half-width plays the part of the uncertainty, GUM 7.2.6)."""
+    low, high = _as_float(low), _as_float(high)
+    if _missing(low) or _missing(high):
+        return sig(low, DEFAULT_SIG, keep_zeros=False), sig(high, DEFAULT_SIG, keep_zeros=False)
+    half = abs(high - low) / 2
+    return matched(low, half), matched(high, half)
+
+
+def p_value(p) -> str:
+    """A p-value to two significant figures."""
+    return sig(_as_float(p), P_SIG)
+
+
+@dataclass(frozen=True)
+class Rule:
+    """One rounding rule: its name, what it applies to, and how (shown in the formulas page)."""
+    name: str
+    applies_to: str
+    how: str
+
+
+RULES: tuple[Rule, ...] = (
+    Rule("uncertainty", "standard errors, standard deviations, s(y/x), LOD, LOQ, x_C, expanded uncertainties",
+         "2 significant figures"),
+    Rule("matched", "a value with its standard error (coefficients, sample concentrations)",
+         "to the decimal place of its standard error at 2 significant figures (GUM 7.2.6)"),
+    Rule("interval", "both ends of a confidence interval",
+         "to the decimal place of its half-width at 2 significant figures"),
+    Rule("p", "p-values", "2 significant figures"),
+    Rule("percent", "recovery, deviation, bias and change in %", "1 decimal"),
+    Rule("rsd", "RSD, SD in % and tolerances in %", "2 significant figures"),
+    Rule("statistic", "test statistics (F, t, W, LM, C, G), HorRat", "3 significant figures"),
+    Rule("correlation", "R² and r", "4 decimals"),
+    Rule("value", "any other value (concentrations, responses, means)", "4 significant figures"),
+)
+
+
+def _as_float(value):
+    """An int as a float, so that a rule's rounding applies to it (None, bool and floats unchanged)."""
+    return float(value) if isinstance(value, int) and not isinstance(value, bool) else value
+
+
+def by_rule(value, rule: str) -> str:
+    """``value`` formatted by the named rule of :data:`RULES` (``matched`` and ``interval`` need a partner)."""
+    if rule not in ("count", "value"):
+        value = _as_float(value)
+    if rule == "uncertainty":
+        return sig(value, UNCERTAINTY_SIG)
+    if rule == "p":
+        return p_value(value)
+    if rule == "percent":
+        return fixed(value, PERCENT_DECIMALS)
+    if rule == "rsd":
+        return sig(value, RSD_SIG)
+    if rule == "statistic":
+        return sig(value, STATISTIC_SIG)
+    if rule == "correlation":
+        return fixed(value, CORRELATION_DECIMALS)
+    if rule == "value":
+        return sig(value, DEFAULT_SIG, keep_zeros=False)
+    if rule == "count":
+        return _special(value) or (str(int(value)) if float(value).is_integer() else sig(value, DEFAULT_SIG))
+    raise ValueError(f"unknown rounding rule {rule!r}; expected one of {[r.name for r in RULES]}")
+
+
+# the last named part of a results.json path -> its rule (the first matching pattern wins)
+_PATH_RULES: tuple[tuple[str, str], ...] = (
+    (r"p_value$", "p"),
+    (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct)$", "rsd"),
+    (r"_pct$", "percent"),
+    (r"^(statistic|t_statistic|f_statistic|horrat|ratio)$", "statistic"),
+    (r"^(r_squared|r)$", "correlation"),
+    (r"(^|_)(sd|std_error|u_mean|expanded_uncertainty|standard_uncertainty|p_value_se|lod|loq|critical_value)$",
+     "uncertainty"),
+)
+
+
+def rule_for_path(path: str) -> str:
+    """The rounding rule for the value at a results.json path ('analytes.0.precision.levels.1.repeatability_sd')."""
+    names = [part for part in path.split(".") if not part.isdigit()]
+    key = names[-1] if names else ""
+    for pattern, rule in _PATH_RULES:
+        if re.search(pattern, key):
+            return rule
+    return "value"
+
+
+# --- labels: results.json identifiers in words -------------------------------------------------
+
+BASIS_LABELS = {
+    "ich-residual-sd": "ICH Q2, residual SD of the calibration",
+    "ich-intercept-sd": "ICH Q2, SD of the intercept",
+    "blank-sd": "ICH Q2, SD of the blanks",
+    "iso-11843-2": "ISO 11843-2 minimum detectable value",
+}
+
+CHARACTERISTIC_LABELS = {
+    "calibration": "calibration", "detection": "detection and quantitation limits",
+    "working_range": "working range", "samples": "quantified samples", "recovery": "recovery (trueness)",
+    "precision": "precision", "reference_material": "certified reference material",
+    "revalidation": "re-validation", "comparison": "method comparison",
+}
+
+
+def basis_label(method: str) -> str:
+    """A detection basis id ('ich-residual-sd') in words; an unknown id is returned unchanged."""
+    return BASIS_LABELS.get(method, method)
+
+
+def characteristic_label(name: str) -> str:
+    """A results.json section name ('working_range') in words."""
+    return CHARACTERISTIC_LABELS.get(name, name.replace("_", " "))
+
+
+def weighting_label(weighting: str) -> str:
+    """A weighting id ('1/x^2', 'none') in words with a real exponent."""
+    if weighting == "none":
+        return "unweighted"
+    return re.sub(r"\^(-?\d+)", lambda m: superscript(int(m.group(1))), weighting)
+
+
+@dataclass(frozen=True)
+class CriterionDisplay:
+    """How one criterion reads in the dossier: a label, the unit of its value and limit, the
+    comparison its limit makes, and the rounding rule of its value and limit."""
+    label: str
+    unit: str
+    comparison: str
+    rule: str
+
+
+def _level_text(text: str, unit: str) -> str:
+    return f"{text} {unit}".strip()
+
+
+def criterion_display(criterion_id: str, description: str, concentration_unit: str) -> CriterionDisplay:
+    """Label, unit, comparison and rounding of a criterion from its id (criteria.py and engine.py ids).
+
+    An id not listed here keeps its description as the label, with no unit.
+    """
+    cu = concentration_unit
+    fixed_ids = {
+        "lack-of-fit": CriterionDisplay("Lack of fit: F test p-value", "", "≥", "p"),
+        "back-calculation": CriterionDisplay("Calibrators back-calculated within tolerance (fraction)", "", "≥",
+                                             "correlation"),
+        "monotonic": CriterionDisplay("Monotonic calibration: end-slope ratio", "", ">", "statistic"),
+        "r-squared": CriterionDisplay("Coefficient of determination R²", "", "≥", "correlation"),
+        "working-range": CriterionDisplay("Working range: passing calibrator levels", "levels", "≥", "count"),
+        "reference-material-bias": CriterionDisplay("Reference material: |bias| within k·u", cu, "≤", "uncertainty"),
+        "loq-verification": CriterionDisplay("Largest RSD at levels up to 2 × LOQ", "%", "≤", "rsd"),
+        "method-comparison-slope": CriterionDisplay("Method comparison: Passing-Bablok slope CI", "", "within",
+                                                    "statistic"),
+        "method-comparison-intercept": CriterionDisplay("Method comparison: Passing-Bablok intercept CI", cu,
+                                                        "within", "value"),
+        "slope-equivalence": CriterionDisplay("Re-validation: CI of the sensitivity change", "%", "within",
+                                              "percent"),
+        "residual-sd-ratio": CriterionDisplay("Re-validation: s(y/x) ratio current/previous", "", "≤", "statistic"),
+        "protocol-deviation": CriterionDisplay(description, "", "", "count"),
+    }
+    if criterion_id in fixed_ids:
+        return fixed_ids[criterion_id]
+    m = re.fullmatch(r"recovery-(.+)", criterion_id)
+    if m:
+        return CriterionDisplay(f"Mean recovery at {_level_text(m.group(1), cu)} added", "%", "within", "percent")
+    m = re.fullmatch(r"(repeatability|intermediate)-rsd-(.+)", criterion_id)
+    if m:
+        what = "Repeatability RSD" if m.group(1) == "repeatability" else "Intermediate precision RSD"
+        return CriterionDisplay(f"{what} at {_level_text(m.group(2), cu)}", "%", "≤", "rsd")
+    return CriterionDisplay(description, "", "", "value")
