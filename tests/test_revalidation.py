@@ -7,9 +7,8 @@ import pytest
 from bs4 import BeautifulSoup
 
 from conftest import REPO
-from test_dossier import lookup, parse_shown
+from test_dossier import assert_correctly_rounded, lookup
 from validator.cli import main
-from validator.report.text import SIG, SIG_P
 from validator.results import load_schema
 
 EXAMPLE = REPO / "example_studies" / "anions-after-maintenance" / "study.toml"
@@ -46,12 +45,7 @@ def test_dossier_opens_with_what_changed(revalidation_out):
     soup = BeautifulSoup(html, "html.parser")
     results = json.loads((revalidation_out / "results.json").read_text())
     for span in soup.select("#changes span.n[data-src]"):
-        value = lookup(results, span["data-src"])
-        shown = parse_shown(span.get_text())
-        digits = SIG_P if span["data-src"].endswith("p_value") else SIG
-        assert (shown is None) == (value is None)
-        if value is not None:
-            assert abs(shown - value) <= 0.5 * 10 ** (1 - digits) * abs(value) * 1.0000001
+        assert_correctly_rounded(span, lookup(results, span["data-src"]))
     assert len(soup.select("#changes svg")) == 4      # two overlays, two comparison figures
 
 

@@ -147,7 +147,8 @@ CRITERIA_AND_DESIGN = {
 # every other key, and why it is left out (tests check the two lists cover the whole schema)
 NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
-              "decimal", "delimiter", "max_data_file_mb"),      # free text and how the files are read
+              "scope", "intended_use", "method_summary", "protocol_reference", "document_number",
+              "document_version", "decimal", "delimiter", "max_data_file_mb"),      # free text and how the files are read
     "calibration": ("data",), "samples": ("data",), "blanks": ("data",), "recovery": ("data",),
     "precision": ("data",), "reference_material": ("data",), "comparison": ("data",),
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names

@@ -47,7 +47,8 @@ MIN_PROBABILITY = 1e-6           # alpha and beta: 1 - p must differ from 1 with
 MAX_PATH_LENGTH = 4096           # characters of a data path (Linux PATH_MAX)
 TEXT_LIMITS = {"id": 100, "title": 300, "concentration_unit": 100, "response_unit": 100,
                "analyst": 200, "reviewer": 200, "instrument": 200, "method": 200, "notes": 5000,
-               "analyte": 100}
+               "analyte": 100, "scope": 2000, "intended_use": 2000, "method_summary": 5000,
+               "protocol_reference": 200, "document_number": 100, "document_version": 50}
 
 def _no_control(path: str) -> str:
     bad = control_character(path)
@@ -97,6 +98,13 @@ class StudySection(_Section):
     instrument: Text = _text("instrument")
     method: Text = _text("method")
     notes: Text = _text("notes")
+    # document control and summary shown on the dossier's cover (report layer only)
+    scope: Text = _text("scope")
+    intended_use: Text = _text("intended_use")
+    method_summary: Text = _text("method_summary")
+    protocol_reference: Text = _text("protocol_reference")
+    document_number: Text = _text("document_number")
+    document_version: Text = _text("document_version")
     decimal: Literal[".", ","] = "."
     delimiter: Literal[",", ";", "tab"] = ","
     max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up

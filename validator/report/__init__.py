@@ -15,6 +15,7 @@ from pathlib import Path
 
 import jinja2
 
+from . import numbers
 from .plots import PALETTE, figures_for_all
 from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
@@ -40,6 +41,13 @@ def _environment() -> jinja2.Environment:
     env.filters["fmt"] = fmt
     env.filters["fmt_p"] = fmt_p
     env.filters["level"] = level_label
+    env.filters["reportable"] = lambda v, src, rule=None: numbers.by_rule(v, rule or numbers.rule_for_path(src))
+    env.filters["matched"] = numbers.matched
+    env.filters["weighting"] = numbers.weighting_label
+    env.filters["basis"] = numbers.basis_label
+    env.filters["characteristic"] = numbers.characteristic_label
+    env.globals["interval"] = numbers.interval
+    env.globals["rounding_rules"] = numbers.RULES
     env.globals["verdict"] = verdict_label
     env.globals["met"] = met
     return env

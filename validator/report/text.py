@@ -1,7 +1,7 @@
 """Number formatting and the plain-language sentences of the dossier.
 
-Numbers are shown to :data:`SIG` significant figures and p-values to
-:data:`SIG_P`; results.json keeps full precision. Every sentence is built
+Numbers are rounded by the rules of :mod:`validator.report.numbers`;
+results.json keeps full precision. Every sentence is built
 from values already in results.json; this module compares them with the
 study's alpha and limits but estimates nothing.
 """
@@ -9,33 +9,23 @@ study's alpha and limits but estimates nothing.
 from __future__ import annotations
 
 from .._common import level_label
+from . import numbers as N
 
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences"]
 
-SIG = 5
-SIG_P = 3
-MISSING = "n/a"
+SIG = N.DEFAULT_SIG
+SIG_P = N.P_SIG
+MISSING = N.MISSING
 
 
 def fmt(value, sig: int = SIG) -> str:
-    """A number to ``sig`` significant figures (``n/a`` for null)."""
-    if value is None:
-        return MISSING
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, int):
-        return str(value)
-    if value == 0:
-        return "0"
-    text = f"{value:.{sig}g}"
-    if "e" in text:
-        mant, exp = text.split("e")
-        return f"{mant}×10^{int(exp)}"
-    return text
+    """A number to ``sig`` significant figures (``n/a`` for null), trailing zeros dropped;
+    see :mod:`validator.report.numbers` for the reporting rules."""
+    return N.sig(value, sig, keep_zeros=False)
 
 
 def fmt_p(value) -> str:
-    return fmt(value, SIG_P)
+    return N.p_value(value)
 
 
 # results.json verdict words -> met (True), not met (False), not applicable (None): the one
@@ -74,12 +64,17 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
     model = {"linear": "straight line", "quadratic": "second-order polynomial"}[cal["model"]]
     if cal["through_origin"]:
         model += " through the origin"
-    weighting = "unweighted" if cal["weighting"] == "none" else f"weighted {cal['weighting']}"
+    weighting = N.weighting_label(cal["weighting"])
+    weighting = weighting if weighting == "unweighted" else f"weighted {weighting}"
     slope = cal["coefficients"]["slope"]
+    low, high = N.interval(*slope["ci"])
+    # a quadratic's "slope" coefficient is its linear term, the slope at x = 0 only
+    slope_name = "linear coefficient b (the slope at zero concentration)" if cal["model"] == "quadratic" else "slope"
     out["fit"] = (f"A {model} ({weighting}) was fitted to n = {cal['n']} points at {cal['levels']} "
-                  f"concentration levels ({cal['model_choice']}). The slope is {fmt(slope['estimate'])} "
-                  f"({level_label(slope['ci_level'])} CI {fmt(slope['ci'][0])} to {fmt(slope['ci'][1])}); "
-                  f"the residual standard deviation s(y/x) is {fmt(cal['residual_sd'])} and R² = {fmt(cal['r_squared'], 6)}.")
+                  f"concentration levels ({cal['model_choice']}). The {slope_name} is "
+                  f"{N.matched(slope['estimate'], slope['std_error'])} ({level_label(slope['ci_level'])} CI {low} to {high}); "
+                  f"the residual standard deviation s(y/x) is {N.uncertainty(cal['residual_sd'])} and "
+                  f"R² = {N.by_rule(cal['r_squared'], 'correlation')}.")
     def test_sentence(key: str, name: str, reading) -> None:
         """``reading(test)`` for an applicable test, else the one not-applicable sentence with its reason."""
         test = cal[key]
@@ -87,31 +82,31 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
 
     def lack_of_fit(lof):
         evidence = "is" if _sig(lof["p_value"], alpha) else "is no"
-        return (f"The lack-of-fit test gives F = {fmt(lof['statistic'])} on ({lof['df'][0]}, {lof['df'][1]}) "
+        return (f"The lack-of-fit test gives F = {_stat(lof['statistic'])} on ({lof['df'][0]}, {lof['df'][1]}) "
                 f"degrees of freedom with p = {fmt_p(lof['p_value'])}, so there {evidence} evidence at "
                 f"alpha = {alpha:g} that the {model} misses systematic structure (such as curvature) "
                 "beyond the scatter of the replicates.")
 
     def mandel(m):
         better = "fits significantly better" if _sig(m["p_value"], alpha) else "does not fit significantly better"
-        under = "unweighted fits" if m["weighting"] == "none" else f"fits weighted {m['weighting']}"
-        return (f"Mandel's fitting test ({under}) gives F = {fmt(m['statistic'])} on (1, {m['df'][1]}) df, "
+        under = "unweighted fits" if m["weighting"] == "none" else f"fits weighted {N.weighting_label(m['weighting'])}"
+        return (f"Mandel's fitting test ({under}) gives F = {_stat(m['statistic'])} on (1, {m['df'][1]}) df, "
                 f"p = {fmt_p(m['p_value'])}: a second-order polynomial {better} than a straight line "
                 f"at alpha = {alpha:g}.")
 
     def normality(nt):
         ok = "are not" if _sig(nt["p_value"], alpha) else "are"
-        return (f"{nt['method']}: W = {fmt(nt['statistic'])}, p = {fmt_p(nt['p_value'])}; "
+        return (f"{nt['method']}: W = {_stat(nt['statistic'])}, p = {fmt_p(nt['p_value'])}; "
                 f"the residuals {ok} consistent with a normal distribution at alpha = {alpha:g}.")
 
     def heteroscedasticity(ht):
         if _sig(ht["p_value"], alpha):
             tail = ("the scatter of the response changes with concentration"
                     + ("; a weighted fit should be considered." if cal["weighting"] == "none"
-                       else f"; the fit uses {cal['weighting']} weighting."))
+                       else f"; the fit uses {N.weighting_label(cal['weighting'])} weighting."))
         else:
             tail = "there is no evidence that the scatter of the response changes with concentration."
-        return (f"{ht['method']} on the unweighted fit: LM = {fmt(ht['statistic'])}, "
+        return (f"{ht['method']} on the unweighted fit: LM = {_stat(ht['statistic'])}, "
                 f"p = {fmt_p(ht['p_value'])}; at alpha = {alpha:g} {tail}")
 
     test_sentence("lack_of_fit", "The lack-of-fit test", lack_of_fit)
@@ -122,19 +117,43 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
     if it is not None:
         differs = "differs" if _sig(it["p_value"], alpha) else "does not differ"
         out["intercept"] = (f"The intercept {differs} significantly from zero "
-                            f"(t = {fmt(it['statistic'])}, p = {fmt_p(it['p_value'])}).")
+                            f"(t = {_stat(it['statistic'])}, p = {fmt_p(it['p_value'])}).")
     flagged = cal["outliers"]["flagged"]
     if not flagged:
         out["outliers"] = "No calibrator is flagged by its studentised residual or Cook's distance."
     else:
-        pts = "; ".join(f"{fmt(o['concentration'])} {unit} ({', '.join(o['reasons'])})" for o in flagged)
+        pts = "; ".join(f"calibration point {_point_number(cal, o)} ({fmt(o['concentration'])} {unit}, response "
+                        f"{fmt(o['response'])}; {', '.join(o['reasons'])})" for o in flagged)
         out["outliers"] = (f"{len(flagged)} calibrator(s) flagged: {pts}. Flagged points stay in the fit; "
                            "a reviewer decides, with a documented reason, whether any is excluded.")
     judged = [b for b in cal["back_calculated"] if b["pass"] is not None]
     within = sum(1 for b in judged if b["pass"])
     out["back_calculated"] = (f"{within} of {len(judged)} calibrators back-calculate within their tolerance"
-                              + (f" (fraction {fmt(cal['fraction_within_tolerance'], 3)})." if judged else "."))
+                              + (f" (fraction {N.by_rule(cal['fraction_within_tolerance'], 'correlation')})." if judged else "."))
     return out
+
+
+def _stat(value) -> str:
+    return N.by_rule(value, "statistic")
+
+
+def _point_number(cal: dict, flagged: dict) -> str:
+    """The 1-based number of a flagged calibrator in the calibration data table (its row there)."""
+    for i, b in enumerate(cal["back_calculated"], start=1):
+        if b["nominal"] == flagged["concentration"] and b["response"] == flagged["response"]:
+            return str(i)
+    return "?"
+
+
+def lowest_calibrator(cal: dict) -> float | None:
+    """The lowest calibrator level above zero (None when there is none)."""
+    levels = [lv["concentration"] for lv in cal["level_table"] if lv["concentration"] > 0]
+    return min(levels) if levels else None
+
+
+# an LOD this many times below the lowest calibrator is remarked on
+# common practice, no published source: the limits should lie within, or near, the calibrated range
+LOD_BELOW_LOWEST_FACTOR = 3.0
 
 
 def _reason(a: dict, item: str) -> str:
@@ -151,17 +170,24 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
     det = a["detection"]
     rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
     if rep["lod"] is not None:
-        out["detection"] = (f"On the reported basis ({rep['method']}), the limit of detection is "
-                            f"{fmt(rep['lod'])} {unit} and the limit of quantitation {fmt(rep['loq'])} {unit}. "
-                            "Estimates on the other bases are listed for comparison; they differ because "
-                            "each uses a different estimate of the noise.")
+        out["detection"] = (f"On the reported basis ({N.basis_label(rep['method'])}), the limit of detection is "
+                            f"{N.uncertainty(rep['lod'])} {unit} and the limit of quantitation "
+                            f"{N.uncertainty(rep['loq'])} {unit}. Estimates on the other bases are listed for "
+                            "comparison; they differ because each uses a different estimate of the noise.")
+        lowest = lowest_calibrator(a["calibration"])
+        if lowest is not None and rep["lod"] > 0 and lowest / rep["lod"] >= LOD_BELOW_LOWEST_FACTOR:
+            loq_too = rep["loq"] is not None and rep["loq"] < lowest
+            out["detection"] += (f" Note: the LOD is {lowest / rep['lod']:.1f} times below the lowest calibrator "
+                                 f"({fmt(lowest)} {unit}){' and the LOQ is below it too' if loq_too else ''}: "
+                                 "both are extrapolated below the calibrated range and should be confirmed with "
+                                 "samples spiked near them before results there are reported.")
     else:
-        out["detection"] = f"No LOD/LOQ on the reported basis ({rep['method']}): {rep['reason']}."
+        out["detection"] = f"No LOD/LOQ on the reported basis ({N.basis_label(rep['method'])}): {rep['reason']}."
     iso = next(e for e in det["estimates"] if e["method"] == "iso-11843-2")
     if iso["lod"] is not None:
-        out["iso"] = (f"ISO 11843-2: critical value x_C = {fmt(iso['critical_value'])} {unit} (a result above it "
+        out["iso"] = (f"ISO 11843-2: critical value x_C = {N.uncertainty(iso['critical_value'])} {unit} (a result above it "
                       f"is distinguished from zero with error probability alpha = {alpha:g}) and minimum detectable "
-                      f"value x_D = {fmt(iso['lod'])} {unit}, with delta = {fmt(iso['delta'])} computed exactly "
+                      f"value x_D = {N.uncertainty(iso['lod'])} {unit}, with delta = {_stat(iso['delta'])} computed exactly "
                       "from the non-central t distribution (not the 2t approximation).")
     else:
         out["iso"] = f"ISO 11843-2 was not applicable: {iso['reason']}."
@@ -195,8 +221,8 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
         parts = []
         for lvl in prec["levels"]:
             clamp = " (between-series variance estimated negative, set to 0)" if lvl["between_series_set_to_zero"] else ""
-            parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {fmt(lvl['repeatability_rsd_pct'], 3)} %, "
-                         f"intermediate RSD {fmt(lvl['intermediate_rsd_pct'], 3)} %{clamp}")
+            parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {N.by_rule(lvl['repeatability_rsd_pct'], 'rsd')} %, "
+                         f"intermediate RSD {N.by_rule(lvl['intermediate_rsd_pct'], 'rsd')} %{clamp}")
         out["precision"] = "Precision " + "; ".join(parts) + "."
         flagged = [lvl for lvl in prec["levels"]
                    for t in (lvl["cochran"], lvl["grubbs"], lvl.get("grubbs_double"))
