@@ -94,3 +94,8 @@ def test_superscripts_and_labels():
     d = N.criterion_display("repeatability-rsd-0.5", "", "mg/L")
     assert (d.label, d.unit, d.comparison) == ("Repeatability RSD at 0.5 mg/L", "%", "≤")
     assert N.criterion_display("new-thing", "a new rule", "mg/L").label == "a new rule"
+
+
+def test_negative_scientific_and_negative_zero():
+    assert N.matched(-5.53e-5, 1.2e-6) == "-5.53×10⁻⁵"      # hand computation: u = 0.0000012 sets 7 decimals
+    assert N.by_rule(-0.0004, "percent") == "0.0"

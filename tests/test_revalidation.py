@@ -41,7 +41,8 @@ def test_example_verdicts(revalidation_out):
 
 def test_dossier_opens_with_what_changed(revalidation_out):
     html = (revalidation_out / "dossier.html").read_text()
-    assert html.index('id="changes"') < html.index('id="summary"')
+    # summary first (issue #14), then what changed, before any analyte's detail
+    assert html.index('id="summary"') < html.index('id="changes"') < html.index('id="analyte-0"')
     soup = BeautifulSoup(html, "html.parser")
     results = json.loads((revalidation_out / "results.json").read_text())
     for span in soup.select("#changes span.n[data-src]"):

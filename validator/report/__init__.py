@@ -15,7 +15,7 @@ from pathlib import Path
 
 import jinja2
 
-from . import numbers
+from . import numbers, summary
 from .plots import PALETTE, figures_for_all
 from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
@@ -44,6 +44,7 @@ def _environment() -> jinja2.Environment:
     env.filters["reportable"] = lambda v, src, rule=None: numbers.by_rule(v, rule or numbers.rule_for_path(src))
     env.filters["matched"] = numbers.matched
     env.filters["weighting"] = numbers.weighting_label
+    env.filters["sup"] = numbers.superscripts_in
     env.filters["basis"] = numbers.basis_label
     env.filters["characteristic"] = numbers.characteristic_label
     env.globals["interval"] = numbers.interval
@@ -118,17 +119,24 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     alpha = result.loaded.config.criteria.alpha
     figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i])}
                                for i, a in enumerate(result.analytes)])
+    unit = study["concentration_unit"]
     analytes = []
     for i, a in enumerate(results["analytes"]):
         analytes.append({"index": i, "data": a, "figures": figures[i],
-                         "text": {**calibration_sentences(a, alpha, study["concentration_unit"]),
-                                  **characteristic_sentences(a, alpha, study["concentration_unit"])}})
-    summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
-               for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
+                         "text": {**calibration_sentences(a, alpha, unit), **characteristic_sentences(a, alpha, unit)},
+                         "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a),
+                         "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"])})
+    criteria = summary.ordered_criteria(results)
+    flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point}
+               for a in analytes for point in a["flagged_points"]]
+    all_remarks = [{"index": a["index"], "analyte": a["data"]["name"], "text": text}
+                   for a in analytes for text in a["remarks"]]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, summary=summary, alpha=alpha,
+        r=results, study=study, analytes=analytes, summary=criteria, alpha=alpha,
+        matrix=summary.matrix(results), conclusion=summary.conclusion(results), remarks=all_remarks,
+        flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
         study_text=result.loaded.study.text,
         config=result.loaded.config)

@@ -26,7 +26,7 @@ import re
 from dataclasses import dataclass
 
 __all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule",
-           "rule_for_path", "superscript", "basis_label", "characteristic_label", "weighting_label",
+           "rule_for_path", "superscript", "superscripts_in", "basis_label", "characteristic_label", "weighting_label",
            "criterion_display", "CriterionDisplay"]
 
 MISSING = "n/a"
@@ -84,7 +84,8 @@ def _plain_or_scientific(value: float, decimals: int, exponent: int) -> str:
 
 def _unsign_zero(text: str) -> str:
     """'-0.00' -> '0.00': a value that rounds to zero has no sign."""
-    return text[1:] if text.startswith("-") and float(text) == 0 else text
+    mantissa = text.partition("×")[0]
+    return text[1:] if text.startswith("-") and not mantissa.strip("-0.") else text
 
 
 def _special(value) -> str | None:
@@ -234,6 +235,7 @@ def by_rule(value, rule: str) -> str:
 # the last named part of a results.json path -> its rule (the first matching pattern wins)
 _PATH_RULES: tuple[tuple[str, str], ...] = (
     (r"p_value$", "p"),
+    (r"^range_pct$", "value"),      # a declared acceptance range is shown as declared
     (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct)$", "rsd"),
     (r"_pct$", "percent"),
     (r"^(statistic|t_statistic|f_statistic|horrat|ratio)$", "statistic"),
@@ -280,21 +282,28 @@ def characteristic_label(name: str) -> str:
     return CHARACTERISTIC_LABELS.get(name, name.replace("_", " "))
 
 
+def superscripts_in(text: str) -> str:
+    """Free text with '^2'-style exponents written as superscripts ('1/x^2' -> '1/x²')."""
+    return re.sub(r"\^(-?\d+)", lambda m: superscript(int(m.group(1))), text)
+
+
 def weighting_label(weighting: str) -> str:
     """A weighting id ('1/x^2', 'none') in words with a real exponent."""
     if weighting == "none":
         return "unweighted"
-    return re.sub(r"\^(-?\d+)", lambda m: superscript(int(m.group(1))), weighting)
+    return superscripts_in(weighting)
 
 
 @dataclass(frozen=True)
 class CriterionDisplay:
     """How one criterion reads in the dossier: a label, the unit of its value and limit, the
-    comparison its limit makes, and the rounding rule of its value and limit."""
+    comparison its limit makes, and the rounding rule of its value (a limit is shown as declared,
+    by the "value" rule)."""
     label: str
     unit: str
     comparison: str
     rule: str
+    limit_rule: str = "value"
 
 
 def _level_text(text: str, unit: str) -> str:
@@ -310,11 +319,12 @@ def criterion_display(criterion_id: str, description: str, concentration_unit: s
     fixed_ids = {
         "lack-of-fit": CriterionDisplay("Lack of fit: F test p-value", "", "≥", "p"),
         "back-calculation": CriterionDisplay("Calibrators back-calculated within tolerance (fraction)", "", "≥",
-                                             "correlation"),
+                                             "statistic"),
         "monotonic": CriterionDisplay("Monotonic calibration: end-slope ratio", "", ">", "statistic"),
         "r-squared": CriterionDisplay("Coefficient of determination R²", "", "≥", "correlation"),
         "working-range": CriterionDisplay("Working range: passing calibrator levels", "levels", "≥", "count"),
-        "reference-material-bias": CriterionDisplay("Reference material: |bias| within k·u", cu, "≤", "uncertainty"),
+        "reference-material-bias": CriterionDisplay("Reference material: |bias| within k·u", cu, "≤", "uncertainty",
+                                                    "uncertainty"),
         "loq-verification": CriterionDisplay("Largest RSD at levels up to 2 × LOQ", "%", "≤", "rsd"),
         "method-comparison-slope": CriterionDisplay("Method comparison: Passing-Bablok slope CI", "", "within",
                                                     "statistic"),

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from .._common import level_label
 from . import numbers as N
+from .summary import LOD_BELOW_LOWEST_FACTOR, flagged_points, lowest_calibrator
 
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences"]
 
@@ -122,38 +123,19 @@ def calibration_sentences(a: dict, alpha: float, unit: str) -> dict:
     if not flagged:
         out["outliers"] = "No calibrator is flagged by its studentised residual or Cook's distance."
     else:
-        pts = "; ".join(f"calibration point {_point_number(cal, o)} ({fmt(o['concentration'])} {unit}, response "
-                        f"{fmt(o['response'])}; {', '.join(o['reasons'])})" for o in flagged)
+        pts = "; ".join(f"calibration point {point} ({fmt(o['concentration'])} {unit}, response "
+                        f"{fmt(o['response'])}; {', '.join(o['reasons'])})" for o, point in zip(flagged, flagged_points(cal)))
         out["outliers"] = (f"{len(flagged)} calibrator(s) flagged: {pts}. Flagged points stay in the fit; "
                            "a reviewer decides, with a documented reason, whether any is excluded.")
     judged = [b for b in cal["back_calculated"] if b["pass"] is not None]
     within = sum(1 for b in judged if b["pass"])
     out["back_calculated"] = (f"{within} of {len(judged)} calibrators back-calculate within their tolerance"
-                              + (f" (fraction {N.by_rule(cal['fraction_within_tolerance'], 'correlation')})." if judged else "."))
-    return out
+                              + (f" (fraction {N.by_rule(cal['fraction_within_tolerance'], 'statistic')})." if judged else "."))
+    return {key: N.superscripts_in(text) for key, text in out.items()}
 
 
 def _stat(value) -> str:
     return N.by_rule(value, "statistic")
-
-
-def _point_number(cal: dict, flagged: dict) -> str:
-    """The 1-based number of a flagged calibrator in the calibration data table (its row there)."""
-    for i, b in enumerate(cal["back_calculated"], start=1):
-        if b["nominal"] == flagged["concentration"] and b["response"] == flagged["response"]:
-            return str(i)
-    return "?"
-
-
-def lowest_calibrator(cal: dict) -> float | None:
-    """The lowest calibrator level above zero (None when there is none)."""
-    levels = [lv["concentration"] for lv in cal["level_table"] if lv["concentration"] > 0]
-    return min(levels) if levels else None
-
-
-# an LOD this many times below the lowest calibrator is remarked on
-# common practice, no published source: the limits should lie within, or near, the calibrated range
-LOD_BELOW_LOWEST_FACTOR = 3.0
 
 
 def _reason(a: dict, item: str) -> str:
@@ -176,11 +158,9 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
                             "comparison; they differ because each uses a different estimate of the noise.")
         lowest = lowest_calibrator(a["calibration"])
         if lowest is not None and rep["lod"] > 0 and lowest / rep["lod"] >= LOD_BELOW_LOWEST_FACTOR:
-            loq_too = rep["loq"] is not None and rep["loq"] < lowest
-            out["detection"] += (f" Note: the LOD is {lowest / rep['lod']:.1f} times below the lowest calibrator "
-                                 f"({fmt(lowest)} {unit}){' and the LOQ is below it too' if loq_too else ''}: "
-                                 "both are extrapolated below the calibrated range and should be confirmed with "
-                                 "samples spiked near them before results there are reported.")
+            out["detection"] += (f" The LOD is {lowest / rep['lod']:.1f} times below the lowest calibrator "
+                                 f"({fmt(lowest)} {unit}): it is extrapolated below the calibrated range (see the "
+                                 "remarks).")
     else:
         out["detection"] = f"No LOD/LOQ on the reported basis ({N.basis_label(rep['method'])}): {rep['reason']}."
     iso = next(e for e in det["estimates"] if e["method"] == "iso-11843-2")
@@ -252,4 +232,4 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
                 f"the certified {fmt(rm['certified_value'])} {unit}: bias {fmt(rm['bias'])} {unit} "
                 f"({fmt(rm['bias_pct'], 3)} %), which {word} significant, since |bias| "
                 f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}.")
-    return out
+    return {key: N.superscripts_in(text) for key, text in out.items()}

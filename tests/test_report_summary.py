@@ -1,0 +1,123 @@
+"""The dossier's first pages: cover keys, conclusion, matrix and criteria order agree with results.json."""
+
+import json
+import re
+import shutil
+
+import pytest
+from bs4 import BeautifulSoup
+
+from conftest import REPO
+from test_dossier import assert_correctly_rounded, lookup, parse_shown
+from validator.cli import main
+
+DEMO = REPO / "example_studies" / "anions-drinking-water"
+COVER = {"scope": "Nitrate and fluoride in treated drinking water, 0.05 to 40 mg/L",
+         "intended_use": "Release testing of drinking water",
+         "method_summary": "Suppressed-conductivity ion chromatography, external calibration",
+         "protocol_reference": "VP-IC-2026-07 rev. 1", "document_number": "VR-0042", "document_version": "2"}
+
+
+@pytest.fixture(scope="module")
+def failing_out(tmp_path_factory):
+    """The demo with a repeatability limit some levels miss and the cover keys set."""
+    folder = tmp_path_factory.mktemp("summary") / "study"
+    shutil.copytree(DEMO, folder)
+    study = folder / "study.toml"
+    text = study.read_text(encoding="utf-8")
+    text = text.replace("repeatability_rsd_max_pct = 5", "repeatability_rsd_max_pct = 2")
+    keys = "".join(f'{k} = "{v}"\n' for k, v in COVER.items())
+    text = text.replace('notes = "Calibration', keys + 'notes = "Calibration')
+    study.write_text(text, encoding="utf-8")
+    out = tmp_path_factory.mktemp("summary-out") / "out"
+    assert main(["run", str(study), "--out", str(out), "--format", "json,html"]) == 1
+    results = json.loads((out / "results.json").read_text())
+    soup = BeautifulSoup((out / "dossier.html").read_text(), "html.parser")
+    return results, soup
+
+
+def test_cover_shows_document_control_and_scope(failing_out):
+    _, soup = failing_out
+    cover = soup.select_one("#cover").get_text(" ")
+    for value in COVER.values():
+        assert value in cover
+    assert "one or more acceptance criteria NOT MET" in cover
+
+
+def test_matrix_agrees_with_results(failing_out):
+    results, soup = failing_out
+    rows = soup.select("#matrix tbody tr")
+    assert len(rows) == len(results["analytes"])
+    for row, a in zip(rows, results["analytes"]):
+        cells = row.find_all("td")
+        assert cells[0].get_text() == a["name"]
+        assert cells[0].a["href"] == f"#analyte-{row['data-analyte']}"
+        for span in row.select("span.n[data-src]"):
+            assert_correctly_rounded(span, lookup(results, span["data-src"]))
+
+        def shown(i):
+            return [parse_shown(s.get_text())[0] for s in cells[i].select("span.n")]
+
+        def close(got, want):
+            return got == pytest.approx(want, rel=0.06)      # the rounding of the shown figure
+        if a["working_range"]["low"] is None:
+            assert cells[1].get_text() == "none"
+        else:
+            assert close(shown(1), [a["working_range"]["low"], a["working_range"]["high"]])
+        det = a["detection"]
+        rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
+        assert close(shown(2), [rep["lod"]]) and close(shown(3), [rep["loq"]])
+        means = [lv["mean_pct"] for lv in a["recovery"]["levels"]]
+        assert close(shown(4), [min(means), max(means)])
+        assert close(shown(5), [max(lv["repeatability_rsd_pct"] for lv in a["precision"]["levels"])])
+        assert close(shown(6), [max(lv["intermediate_rsd_pct"] for lv in a["precision"]["levels"])])
+        not_met = sum(c["pass"] is False for c in a["criteria"])
+        not_applicable = sum(c["pass"] is None for c in a["criteria"])
+        assert cells[7].get_text() == f"{not_met}; {not_applicable}"
+        word = cells[8].get_text()
+        assert ("NOT MET" in word) == (a["verdict"] == "fail")
+
+
+def test_conclusion_agrees_with_results(failing_out):
+    results, soup = failing_out
+    text = soup.select_one("#conclusion").get_text(" ")
+    failed = [a["name"] for a in results["analytes"] if any(c["pass"] is False for c in a["criteria"])]
+    assert failed, "the fixture must fail a criterion"
+    n_failed = sum(c["pass"] is False for a in results["analytes"] for c in a["criteria"])
+    passed = len(results["analytes"]) - len(failed)
+    assert f"{passed} of {len(results['analytes'])} analyte(s) met every acceptance criterion" in text
+    assert re.search(rf"\b{n_failed} criterion/criteria were NOT MET, for {', '.join(failed)}", text)
+    for a in results["analytes"]:
+        wr = a["working_range"]
+        if wr["low"] is None:
+            assert re.search(rf"No working range could be stated for [^.]*\b{a['name']}\b", text)
+        else:
+            assert f"{a['name']} {wr['low']:g} to {wr['high']:g} mg/L" in text
+
+
+def test_failing_criteria_first(failing_out):
+    results, soup = failing_out
+    rows = soup.select("#summary tr[data-criterion]")
+    verdicts = [r.select_one(".verdict").get_text() for r in rows]
+    order = {"✗ NOT MET": 0, "– not applicable": 1, "✓ met": 2}
+    assert [order[v] for v in verdicts] == sorted(order[v] for v in verdicts)
+    assert verdicts[0] == "✗ NOT MET"
+    expected = sorted(((a["name"], c["id"]) for a in results["analytes"] for c in a["criteria"]),
+                      key=lambda pair: 0)
+    assert sorted((r.find("td").get_text(), r["data-criterion"]) for r in rows) == sorted(expected)
+    # every value and limit has its unit where it has one: RSD criteria in %
+    for r in rows:
+        if r["data-criterion"].startswith("repeatability-rsd-"):
+            cells = r.find_all("td")
+            assert cells[2].get_text().endswith(" %") and cells[3].get_text().endswith(" %")
+            assert "mg/L" in cells[1].get_text()
+
+
+def test_no_internal_ids_as_labels(failing_out):
+    _, soup = failing_out
+    body = soup.select_one("body")
+    for tag in body.select("#audit"):
+        tag.decompose()          # the study file as given is quoted there verbatim
+    text = body.get_text(" ")
+    for internal in ("ich-residual-sd", "ich-intercept-sd", "working_range", "10^", "x^2"):
+        assert internal not in text, internal
