@@ -129,12 +129,13 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     criteria = summary.ordered_criteria(results)
     flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point}
                for a in analytes for point in a["flagged_points"]]
-    all_remarks = [{"index": a["index"], "analyte": a["data"]["name"], "text": text}
-                   for a in analytes for text in a["remarks"]]
+    all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, summary=criteria, alpha=alpha,
+        r=results, study=study, analytes=analytes, alpha=alpha,
+        criteria_open=[c for c in criteria if c["pass"] is not True],
+        criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=summary.matrix(results), conclusion=summary.conclusion(results), remarks=all_remarks,
         flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,

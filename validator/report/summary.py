@@ -217,7 +217,7 @@ def lowest_calibrator(calibration: dict) -> float | None:
     return min(levels) if levels else None
 
 
-def _too_few(analyte: dict, unit: str) -> list[str]:
+def _too_few(analyte: dict, unit: str) -> list:
     """'needs at least ...' reasons of the analyte, one remark per test and reason."""
     grouped: dict[tuple[str, str], list[str]] = {}
     for entry in analyte.get("not_applicable", []):
@@ -237,11 +237,43 @@ def _too_few(analyte: dict, unit: str) -> list[str]:
     out = []
     for (test, reason), levels in grouped.items():
         at = f" at level(s) {', '.join(levels)} {unit}" if levels else ""
-        out.append(f"too few data for {test}{at}: {reason}.")
+        out.append(Remark("too-few-data", f"too few data for {test}{at}: {reason}."))
     return out
 
 
-def remarks(analyte: dict, unit: str) -> list[str]:
+@dataclass(frozen=True)
+class Remark:
+    """One plausibility remark: its kind (to group the same remark across analytes) and its text."""
+    kind: str
+    text: str
+
+
+REMARK_KINDS = {"limits-below-range": "LOD or LOQ below the lowest calibrator",
+                "sample-outside-range": "samples outside the calibrated range",
+                "function-changed": "calibration function other than the earlier validation's",
+                "too-few-data": "tests with too few data"}
+
+
+def grouped_remarks(per_analyte: list[tuple[int, str, list[Remark]]], single_limit: int = 3) -> list[dict]:
+    """The remarks of all analytes for the summary: each kind in full when it concerns at most
+    ``single_limit`` analytes, else once with the analytes it concerns (their sections have the text)."""
+    kinds: dict[str, list[tuple[int, str, Remark]]] = {}
+    for index, name, items in per_analyte:
+        for remark in items:
+            kinds.setdefault(remark.kind, []).append((index, name, remark))
+    out = []
+    for kind, items in kinds.items():
+        analytes = list(dict.fromkeys((index, name) for index, name, _ in items))
+        if len(analytes) <= single_limit:
+            out.extend({"kind": kind, "title": "", "analytes": [(index, name)], "text": r.text}
+                       for index, name, r in items)
+        else:
+            out.append({"kind": kind, "title": REMARK_KINDS.get(kind, kind), "analytes": analytes,
+                        "text": f"{len(analytes)} analytes; see each analyte's section"})
+    return out
+
+
+def remarks(analyte: dict, unit: str) -> list[Remark]:
     """Plain-language plausibility remarks on one analyte's results (empty when there is nothing to say):
     limits below the lowest calibrator, samples outside the calibrated range, a calibration function
     other than the earlier validation's, tests with too few data."""
@@ -251,13 +283,19 @@ def remarks(analyte: dict, unit: str) -> list[str]:
     det = analyte.get("detection")
     if det and lowest is not None:
         rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
-        if rep["lod"] is not None and rep["lod"] > 0 and lowest / rep["lod"] >= LOD_BELOW_LOWEST_FACTOR:
-            out.append(f"the LOD ({N.uncertainty(rep['lod'])} {unit}) is {lowest / rep['lod']:.1f} times below the "
-                       f"lowest calibrator ({N.by_rule(lowest, 'value')} {unit}): it is extrapolated below the "
-                       "calibrated range; confirm it with samples spiked near it.")
-        if rep["loq"] is not None and rep["loq"] < lowest:
-            out.append(f"the LOQ ({N.uncertainty(rep['loq'])} {unit}) lies below the lowest calibrator "
-                       f"({N.by_rule(lowest, 'value')} {unit}); results between them are outside the calibrated range.")
+        far = rep["lod"] is not None and rep["lod"] > 0 and lowest / rep["lod"] >= LOD_BELOW_LOWEST_FACTOR
+        loq_below = rep["loq"] is not None and rep["loq"] < lowest
+        lod_text = f"the LOD ({N.uncertainty(rep['lod'])} {unit})"
+        loq_text = f"the LOQ ({N.uncertainty(rep['loq'])} {unit})"
+        below = f"the lowest calibrator ({N.by_rule(lowest, 'value')} {unit})"
+        if far:
+            what = f"{lod_text} is {lowest / rep['lod']:.1f} times below {below}"
+            what += f" and {loq_text} lies below it too" if loq_below else ""
+        elif loq_below:
+            what = f"{loq_text} lies below {below}"
+        if far or loq_below:
+            out.append(Remark("limits-below-range", f"{what}: extrapolated below the calibrated range; confirm "
+                              "with samples spiked near the limits before reporting results there."))
     levels = [lv["concentration"] for lv in cal["level_table"]]
     if levels:
         top, bottom = max(levels), min(levels)
@@ -266,17 +304,18 @@ def remarks(analyte: dict, unit: str) -> list[str]:
             if x is None or s.get("within_range", True):
                 continue
             side = "above" if x > top else "below"
-            out.append(f"sample {s['id']} ({N.by_rule(x, 'value')} {unit}) is {side} the calibrated range "
+            out.append(Remark("sample-outside-range", f"sample {s['id']} ({N.by_rule(x, 'value')} {unit}) is {side} the calibrated range "
                        f"({N.by_rule(bottom, 'value')} to {N.by_rule(top, 'value')} {unit}): its result is "
-                       "extrapolated; dilute or re-calibrate before reporting it.")
+                       "extrapolated; dilute or re-calibrate before reporting it."))
     rv = analyte.get("revalidation")
     own = (rv or {}).get("current_own_choice")
     if own:
         before = (rv["refit_model"], rv["refit_weighting"], rv["refit_through_origin"])
         now = (own["model"], own["weighting"], own["through_origin"])
         if before != now:
-            out.append(f"this run's own calibration function ({_function(*now)}) differs from the earlier "
-                       f"validation's ({_function(*before)}); the comparison uses the earlier function.")
+            out.append(Remark("function-changed",
+                              f"this run's own calibration function ({_function(*now)}) differs from the earlier "
+                              f"validation's ({_function(*before)}); the comparison uses the earlier function."))
     out.extend(_too_few(analyte, unit))
     return out
 
