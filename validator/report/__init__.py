@@ -78,6 +78,15 @@ def _plot_data(index: int, a, study: dict) -> dict:
     }
 
 
+def _calibration_rows(engine_analyte, entry: dict) -> list[int] | None:
+    """The calibration file's row (line number) of each back-calculated calibrator, in results.json order
+    (None when the loaded data do not line up with results.json, so that no row is ever guessed)."""
+    rows = getattr(getattr(getattr(engine_analyte, "data", None), "calibration", None), "rows", None)
+    if rows is None or len(rows) != len(entry["calibration"]["back_calculated"]):
+        return None
+    return list(rows)
+
+
 def _series_pct(data, lv):
     """Precision results of one level as % of the level mean, grouped by series (for plotting)."""
     mask = data.level == lv.level
@@ -125,9 +134,11 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
         analytes.append({"index": i, "data": a, "figures": figures[i],
                          "text": {**calibration_sentences(a, alpha, unit), **characteristic_sentences(a, alpha, unit)},
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a),
-                         "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"])})
+                         "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"]),
+                         "file_rows": _calibration_rows(result.analytes[i], a)})
     criteria = summary.ordered_criteria(results)
-    flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point}
+    flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point,
+                "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None}
                for a in analytes for point in a["flagged_points"]]
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
@@ -138,6 +149,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=summary.matrix(results), conclusion=summary.conclusion(results), remarks=all_remarks,
         flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
+        calibration_file=result.loaded.config.calibration.data,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
         study_text=result.loaded.study.text,
         config=result.loaded.config)

@@ -69,24 +69,69 @@ def _svg(fig, name: str) -> str:
     return re.sub(r"\s+width=\"[^\"]+\"\s+height=\"[^\"]+\"", ' width="100%"', text, count=1)
 
 
-def _calibration_figure(d: dict) -> str:
-    fig, ax = plt.subplots(figsize=(6.4, 3.6))
-    ax.fill_between(d["grid"], d["pred_low"], d["pred_high"], color=PALETTE["band"], alpha=0.6,
-                    linewidth=0, label=f"{d['level']} prediction band")
-    ax.plot(d["grid"], d["pred_low"], ":", color=PALETTE["pred"], linewidth=1)
-    ax.plot(d["grid"], d["pred_high"], ":", color=PALETTE["pred"], linewidth=1)
-    ax.plot(d["grid"], d["conf_low"], "--", color=PALETTE["conf"], linewidth=1,
-            label=f"{d['level']} confidence band")
-    ax.plot(d["grid"], d["conf_high"], "--", color=PALETTE["conf"], linewidth=1)
-    ax.plot(d["grid"], d["fit"], "-", color=PALETTE["fit"], linewidth=1.4, label="fitted function")
-    _points(ax, d["x"], d["y"], "o", markersize=4, markeredgewidth=1.2, label="calibrators")
-    if d["outliers_x"]:
-        ax.plot(d["outliers_x"], d["outliers_y"], "x", markersize=8, color=PALETTE["bad"],
-                markeredgewidth=1.5, label="flagged point")
+def _log_x(ax, both: bool = False) -> None:
+    """Log scale with plain numeric tick labels (0.1, 1, 10: mathtext is switched off for user text)."""
+    from matplotlib.ticker import FuncFormatter, NullFormatter
+
+    for axis, scale in ((ax.xaxis, ax.set_xscale), (ax.yaxis, ax.set_yscale))[:2 if both else 1]:
+        scale("log")
+        axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+        axis.set_minor_formatter(NullFormatter())
+
+
+def _wide(values) -> bool:
+    """Whether positive values span more than a decade (a log axis then shows the low end)."""
+    positive = [v for v in values if v is not None and v > 0]
+    return bool(positive) and max(positive) > 10 * min(positive)
+
+
+def _positive(xs, *series):
+    """The points where x and every series are positive (for log axes)."""
+    keep = [i for i, x in enumerate(xs) if x > 0 and all(s[i] is not None and s[i] > 0 for s in series)]
+    return [xs[i] for i in keep], *[[s[i] for i in keep] for s in series]
+
+
+def _draw_calibration(ax, d: dict, labels: bool) -> None:
+    grid = d["grid"]
+    if ax.get_xscale() == "log":
+        grid, pred_low, pred_high, conf_low, conf_high, fit = _positive(
+            grid, d["pred_low"], d["pred_high"], d["conf_low"], d["conf_high"], d["fit"])
+        x, y = _positive(d["x"], d["y"])
+        out_x, out_y = _positive(d["outliers_x"], d["outliers_y"])
+    else:
+        pred_low, pred_high, conf_low, conf_high, fit = (d["pred_low"], d["pred_high"], d["conf_low"],
+                                                          d["conf_high"], d["fit"])
+        x, y, out_x, out_y = d["x"], d["y"], d["outliers_x"], d["outliers_y"]
+    label = (lambda text: text) if labels else (lambda text: None)
+    ax.fill_between(grid, pred_low, pred_high, color=PALETTE["band"], alpha=0.6, linewidth=0,
+                    label=label(f"{d['level']} prediction band (dotted edges)"))
+    ax.plot(grid, pred_low, ":", color=PALETTE["pred"], linewidth=1)
+    ax.plot(grid, pred_high, ":", color=PALETTE["pred"], linewidth=1)
+    ax.plot(grid, conf_low, "--", color=PALETTE["conf"], linewidth=1, label=label(f"{d['level']} confidence band"))
+    ax.plot(grid, conf_high, "--", color=PALETTE["conf"], linewidth=1)
+    ax.plot(grid, fit, "-", color=PALETTE["fit"], linewidth=1.4, label=label("fitted function"))
+    _points(ax, x, y, "o", markersize=4, markeredgewidth=1.2, label=label("calibrators"))
+    if out_x:
+        ax.plot(out_x, out_y, "x", markersize=8, color=PALETTE["bad"], markeredgewidth=1.5,
+                label=label("flagged calibrator"))
     ax.set_xlabel(f"concentration ({d['xunit']})")
     ax.set_ylabel(f"response ({d['yunit']})")
-    ax.legend(frameon=False, fontsize=7, loc="upper left")
-    fig.tight_layout()
+
+
+def _calibration_figure(d: dict) -> str:
+    """The fit over the whole range; beside it, for a range over a decade, the same on log axes so that
+    the low levels (where weighting matters) can be seen. The legend sits below the axes."""
+    low_view = _wide(d["x"])
+    fig, axes = plt.subplots(1, 2 if low_view else 1, figsize=(6.4, 3.2), squeeze=False)
+    _draw_calibration(axes[0, 0], d, labels=True)
+    axes[0, 0].set_title("whole range", fontsize=8, loc="left")
+    if low_view:
+        ax = axes[0, 1]
+        _log_x(ax, both=True)
+        _draw_calibration(ax, d, labels=False)
+        ax.set_title("log axes: the low levels", fontsize=8, loc="left")
+    fig.legend(frameon=False, fontsize=7, loc="lower center", ncol=3)
+    fig.tight_layout(rect=(0, 0.12, 1, 1))
     return _svg(fig, f"cal{d['key']}")
 
 
@@ -115,22 +160,27 @@ def _diagnostic_figure(d: dict) -> str:
     ax.set_ylabel("ordered residual")
     ax = axes[1, 1]
     xs, tols = d["bc_x"], d["bc_tol"]
+    if _wide(xs):
+        _log_x(ax)
     if xs:
-        ax.fill_between(range(len(xs)), [-t for t in tols], tols, step="mid", color=PALETTE["band"],
-                        linewidth=0, label="tolerance")
-    ok = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p]
-    bad = [(i, v) for i, (v, p) in enumerate(zip(d["bc_dev"], d["bc_pass"])) if p is False]
+        # the tolerance of each level as a band over its concentration (numeric axis, levels in order)
+        levels = sorted({(x, t) for x, t in zip(xs, tols)})
+        ax.fill_between([x for x, _ in levels], [-t for _, t in levels], [t for _, t in levels], step="mid",
+                        color=PALETTE["band"], linewidth=0, label="tolerance")
+    ok = [(x, v) for x, v, p in zip(xs, d["bc_dev"], d["bc_pass"]) if p]
+    bad = [(x, v) for x, v, p in zip(xs, d["bc_dev"], d["bc_pass"]) if p is False]
     if ok:
-        _points(ax, *zip(*ok), "o", label="within")
+        _points(ax, *zip(*ok), "o", label="within tolerance")
     if bad:
-        ax.plot(*zip(*bad), "x", markersize=6, color=PALETTE["bad"], markeredgewidth=1.4, label="outside")
+        ax.plot(*zip(*bad), "x", markersize=6, color=PALETTE["bad"], markeredgewidth=1.4, label="outside tolerance")
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
-    ax.set_xticks(range(len(xs)))
-    ax.set_xticklabels([f"{v:g}" for v in xs], rotation=90, fontsize=6)
-    ax.set_title("back-calculated deviation", fontsize=8, loc="left")
+    ax.set_title("back-calculated deviation (band: tolerance)", fontsize=8, loc="left")
     ax.set_xlabel(f"nominal ({d['xunit']})")
     ax.set_ylabel("% deviation")
-    ax.legend(frameon=False, fontsize=6)
+    if _wide(d["x"]):
+        for a in (axes[0, 0], axes[0, 1]):
+            if all(v > 0 for v in (d["x"] if a is axes[0, 0] else d["rel_x"])):
+                _log_x(a)
     fig.tight_layout()
     return _svg(fig, f"diag{d['key']}")
 
@@ -153,17 +203,24 @@ def _trueness_precision_figure(d: dict) -> str:
             ax.set_title("recovery per replicate, mean (bar), range (shaded)", fontsize=8, loc="left")
         else:
             markers = "osD^v<>p*h"
+            names = list(dict.fromkeys(series for lv in d["precision"] for series, _ in lv["series"]))
             for i, lv in enumerate(d["precision"]):
-                for j, (series, values) in enumerate(lv["series"]):
-                    xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
+                for series, values in lv["series"]:
+                    j = names.index(series)
+                    xs = [i + (j - (len(names) - 1) / 2) * 0.12] * len(values)
                     _points(ax, xs, values, markers[j % len(markers)],
-                            colour=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
+                            colour=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"],
+                            label=series if i == min(k for k, other in enumerate(d["precision"])
+                                                     if series in dict(other["series"])) else None)
             ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
             ax.set_xticks(range(len(d["precision"])))
             ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
             ax.set_xlabel(f"level ({d['xunit']})")
             ax.set_ylabel("% of level mean")
-            ax.set_title("precision results by series (marker = series)", fontsize=8, loc="left")
+            ax.set_title("precision results by series", fontsize=8, loc="left")
+            if len(names) <= 12:
+                ax.legend(frameon=False, fontsize=6, title="series", title_fontsize=6,
+                          loc="upper left", bbox_to_anchor=(1.0, 1.0))
     fig.tight_layout()
     return _svg(fig, f"tp{d['key']}")
 
