@@ -8,7 +8,7 @@ import pytest
 from bs4 import BeautifulSoup
 
 from conftest import REPO
-from test_dossier import assert_correctly_rounded, lookup, parse_shown
+from test_dossier import assert_correctly_rounded, demo_out, lookup, parse_shown  # noqa: F401 (fixture)
 from validator.cli import main
 
 DEMO = REPO / "example_studies" / "anions-drinking-water"
@@ -121,3 +121,21 @@ def test_no_internal_ids_as_labels(failing_out):
     text = body.get_text(" ")
     for internal in ("ich-residual-sd", "ich-intercept-sd", "working_range", "10^", "x^2"):
         assert internal not in text, internal
+
+
+def test_pdf_outline_has_an_entry_per_analyte(demo_out):
+    from pypdf import PdfReader
+
+    results = json.loads((demo_out / "results.json").read_text())
+    reader = PdfReader(str(demo_out / "dossier.pdf"))
+
+    def titles(items):
+        for item in items:
+            if isinstance(item, list):
+                yield from titles(item)
+            else:
+                yield item.title
+    outline = list(titles(reader.outline))
+    for a in results["analytes"]:
+        assert f"{a['name']}: calibration" in " ".join(outline)
+    assert any(t.startswith("Summary") for t in outline)

@@ -136,7 +136,7 @@ def _calibration_figure(d: dict) -> str:
 
 
 def _diagnostic_figure(d: dict) -> str:
-    fig, axes = plt.subplots(2, 2, figsize=(6.4, 4.8))
+    fig, axes = plt.subplots(2, 2, figsize=(6.4, 4.2))
     ax = axes[0, 0]
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
     _points(ax, d["x"], d["residuals"], "o")
