@@ -139,3 +139,22 @@ def test_pdf_outline_has_an_entry_per_analyte(demo_out):
     for a in results["analytes"]:
         assert f"{a['name']}: calibration" in " ".join(outline)
     assert any(t.startswith("Summary") for t in outline)
+
+
+def test_appendix_names_each_calibrator_by_its_file_row(demo_out):
+    results = json.loads((demo_out / "results.json").read_text())
+    soup = BeautifulSoup((demo_out / "dossier.html").read_text(), "html.parser")
+    lines = (DEMO / "calibration.csv").read_text(encoding="utf-8").splitlines()
+    for i, a in enumerate(results["analytes"]):
+        rows = soup.select(f"#calibration-data-{i} tbody tr")
+        back = a["calibration"]["back_calculated"]
+        assert len(rows) == len(back)
+        flagged = {(o["concentration"], o["response"]) for o in a["calibration"]["outliers"]["flagged"]}
+        for row, b in zip(rows, back):
+            file_row = int(row.find_all("td")[1].get_text())
+            # the file's own line (1 = header) holds this calibrator: hand check against the CSV text
+            name, conc, resp = lines[file_row - 1].split(",")[:3]
+            assert (name, float(conc), float(resp)) == (a["name"], b["nominal"], b["response"])
+            assert ("⚑" in row.get_text()) == ((b["nominal"], b["response"]) in flagged)
+    assert any((o["concentration"], o["response"]) for a in results["analytes"]
+               for o in a["calibration"]["outliers"]["flagged"])      # the demo has a flagged calibrator

@@ -187,13 +187,18 @@ def conclusion(results: dict) -> str:
     return " ".join(parts)
 
 
+def _lower_first(title: str) -> str:
+    """'Recovery (trueness)' -> 'recovery (trueness)'; an acronym ('LOQ verification') keeps its case."""
+    return title if title[:2].isupper() else title[:1].lower() + title[1:]
+
+
 def studied_heading(analyte: dict, names: tuple[str, ...] = ("detection", "working_range", "recovery",
                                                               "reference_material", "precision"),
                     titles: dict[str, str] | None = None) -> str:
     """A heading naming the characteristics of ``names`` this analyte actually has results for (each by
     its title in ``titles``, else by :func:`numbers.characteristic_label`)."""
     titles = titles or {}
-    present = [titles.get(n) or N.characteristic_label(n) for n in names if analyte.get(n)]
+    present = [_lower_first(titles.get(n) or N.characteristic_label(n)) for n in names if analyte.get(n)]
     if not present:
         return ""
     text = present[0] if len(present) == 1 else ", ".join(present[:-1]) + " and " + present[-1]
