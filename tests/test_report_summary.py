@@ -146,7 +146,7 @@ def test_appendix_names_each_calibrator_by_its_file_row(demo_out):
     soup = BeautifulSoup((demo_out / "dossier.html").read_text(), "html.parser")
     lines = (DEMO / "calibration.csv").read_text(encoding="utf-8").splitlines()
     for i, a in enumerate(results["analytes"]):
-        rows = soup.select(f"#calibration-data-{i} tbody tr")
+        rows = soup.select(f"#calibration-data-{i} table.calibration-data tbody tr")
         back = a["calibration"]["back_calculated"]
         assert len(rows) == len(back)
         flagged = {(o["concentration"], o["response"]) for o in a["calibration"]["outliers"]["flagged"]}
