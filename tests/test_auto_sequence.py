@@ -14,6 +14,7 @@ import statsmodels.api as sm
 from conftest import CALIBRATION
 from validator.characteristics.calibration import analyse_calibration, choose_weighting, mandel_test
 from validator.cli import main
+from validator.report.numbers import weighting_label
 from validator.maths.regression import WEIGHTINGS, raw_weights
 from validator.results import load_schema
 
@@ -100,7 +101,8 @@ def test_results_json_records_the_sequence(make_study, outside):
     assert c["mandel"]["statistic"] == pytest.approx(F, rel=1e-9)
     assert [s["step"] for s in c["choice_steps"]] == ["weighting", "mandel", "model", "weighting"]
     html = (out / "dossier.html").read_text()
-    assert f"Linear vs quadratic (Mandel, weighting {c['mandel']['weighting']})" in html
+    # the dossier writes the weighting with a real exponent (1/x²)
+    assert f"Linear vs quadratic (Mandel, weighting {weighting_label(c['mandel']['weighting'])})" in html
 
 
 def test_plain_study_has_a_single_mandel_step(make_study, outside):
