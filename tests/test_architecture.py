@@ -54,7 +54,7 @@ CHARACTERISTICS = PACKAGE / "characteristics"
 # what each kind of file of a characteristic's package may import (validator sub-packages/modules)
 PACKAGE_FILES = {
     "analysis.py": {"_common", "maths", "criteria", "characteristics"},
-    "settings.py": {"_common", "inputs", "errors", "characteristics"},
+    "settings.py": {"_common", "inputs", "errors", "maths", "characteristics"},
     "presentation.py": {"report"},
     "__init__.py": {"characteristics"},
 }
@@ -175,7 +175,7 @@ TOY_INIT = '''
 from pathlib import Path
 
 from validator.characteristics._entry import Assessment, Characteristic
-from validator.characteristics._legacy import CALIBRATION
+from validator.characteristics.calibration import ENTRY as CALIBRATION
 
 from . import settings
 from .analysis import ToyResult, toy_criteria

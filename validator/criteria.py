@@ -20,7 +20,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Criterion", "calibration_criteria", "precision_level_criteria", "loq_criterion", "comparison_criteria",
+__all__ = ["Criterion", "precision_level_criteria", "loq_criterion", "comparison_criteria",
            "overall_verdict", "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
 
 
@@ -113,41 +113,6 @@ def interval_within(interval, limits) -> bool | None:
     if isinstance(limits, (list, tuple)):
         return bool(limits[0] <= low and high <= limits[1])
     return bool(low <= limits <= high)
-
-
-def calibration_criteria(cal, crit) -> tuple:
-    """Criteria on one analyte's calibration (see docs/results.md for each id)."""
-    out = []
-    lof = cal.lack_of_fit
-    out.append(Criterion(
-        "lack-of-fit", f"lack-of-fit F test: p-value at least alpha = {crit.alpha:g}",
-        lof.pvalue, crit.alpha, at_least(lof.pvalue, crit.alpha),
-        "" if lof.applicable else f"not applicable: {lof.reason}"))
-    bad = [b for b in cal.back_calculated if b.passed is False]
-    frac = cal.fraction_within_tolerance
-    out.append(Criterion(
-        "back-calculation",
-        f"fraction of calibrators back-calculated within +/-{crit.back_calculation_tolerance_pct:g} % "
-        f"(+/-{crit.lowest_level_tolerance_pct:g} % at the lowest level) at least "
-        f"{crit.min_fraction_within_tolerance:g}",
-        frac, crit.min_fraction_within_tolerance, at_least(frac, crit.min_fraction_within_tolerance),
-        ("outside tolerance at nominal " + ", ".join(f"{b.nominal:g}" for b in bad)) if bad else
-        ("" if frac is not None else "not applicable: no calibrator with a non-zero nominal value")))
-    ratio = cal.sensitivity_ratio
-    out.append(Criterion(
-        "monotonic", "calibration function monotonic over the calibrated range: slope at its flatter end "
-        "over slope at its steeper end greater than 0", ratio, 0.0,
-        None if ratio is None else ratio > 0,
-        "not applicable: the slope is zero at both ends of the range" if ratio is None else
-        ("" if ratio > 0 else "the curve turns over inside the calibrated range: some responses "
-         "correspond to two concentrations")))
-    if crit.r_squared_min is not None:
-        r2 = cal.fit.r_squared
-        out.append(Criterion("r-squared", f"coefficient of determination R² at least {crit.r_squared_min:g}",
-                             r2, crit.r_squared_min, at_least(r2, crit.r_squared_min),
-                             "" if not missing(r2) else "not applicable: R² does not exist "
-                             "(the responses do not vary)"))
-    return tuple(out)
 
 
 def working_range_criterion(wr, loq_missing: str = "") -> Criterion:

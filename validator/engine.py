@@ -15,10 +15,10 @@ from scipy import stats
 
 from . import registry
 from ._common import quiet_numpy
+from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult, SampleResult
 from .characteristics.comparison import ComparisonResult
-from .characteristics.detection import DetectionResult
 from .characteristics.precision import PrecisionLevel
 from .characteristics.revalidation import RevalidationResult
 from .characteristics.working_range import LoqCheck, WorkingRange
@@ -34,8 +34,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("calibration", "samples", "detection", "precision", "loq_check", "working_range", "comparison",
-           "revalidation")
+_LEGACY = ("samples", "precision", "loq_check", "working_range", "comparison", "revalidation")
 
 
 def __getattr__(name):
@@ -117,12 +116,11 @@ def residual_series(fit) -> ResidualSeries:
 class AnalyteResult:
     name: str
     data: AnalyteData = field(repr=False)
-    calibration: CalibrationResult = field(repr=False)
+    calibration: CalibrationResult = field(repr=False)       # the result of the registry's first entry
     samples: tuple[SampleResult, ...]
     criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
-    detection: DetectionResult | None = None
     working_range: WorkingRange | None = None
     loq_check: LoqCheck | None = None
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
@@ -185,9 +183,7 @@ class AnalyteContext:
     data: AnalyteData
     config: StudyConfig
     unit: str = ""
-    calibration: CalibrationResult | None = None
     samples: tuple[SampleResult, ...] = ()
-    detection: DetectionResult | None = None
     precision: tuple[PrecisionLevel, ...] = ()
     loq_check: LoqCheck | None = None
     working_range: WorkingRange | None = None
@@ -228,11 +224,10 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         done = step.assess(ctx)
         if done is not None:
             ctx = ctx.with_result(step.name, done)
-    cal = ctx.calibration
+    cal = ctx.result_of(calibration.ENTRY)
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit), detection=ctx.detection,
-                         working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
+                         residual_views=residual_series(cal.fit), working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
                          revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
 
 

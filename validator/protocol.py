@@ -464,7 +464,7 @@ def design_deviations(design, analytes) -> list:
         if design.precision is not None and a.precision is not None:
             out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
         for name, planned, seen in (
-                ("blanks.count", design.blanks and design.blanks.count, a.blanks),
+                ("blanks.count", design.blanks and design.blanks.count, a.of("blanks")),
                 ("reference_material.replicates",
                  design.reference_material and design.reference_material.replicates, a.of("reference_material")),
                 ("comparison.samples", design.comparison and design.comparison.samples,

@@ -9,15 +9,16 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material
+from .characteristics import _legacy, calibration, detection, recovery, reference_material
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
-    _legacy.CALIBRATION,             # first: its data name the analytes
+    calibration.ENTRY,               # first: its data name the analytes
     _legacy.SAMPLES,
-    _legacy.DETECTION,
+    detection.BLANKS,
+    detection.ENTRY,
     recovery.ENTRY,
     _legacy.PRECISION,
     reference_material.ENTRY,

@@ -27,7 +27,6 @@ from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__, registry
 from .characteristics.precision import PrecisionLevel
 from .characteristics.comparison import ComparisonResult
-from .characteristics.detection import DetectionResult
 from .criteria import Criterion
 from .characteristics.working_range import LoqCheck, WorkingRange
 from .signing import operator_and_host
@@ -257,9 +256,9 @@ def _calibration(a):
 
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all:
 # those of the registry's entries with result_types, and these not yet in packages of their own
-SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
-              "precision": (PrecisionLevel,), "comparison": (ComparisonResult,), "criteria": (Criterion,),
-              **{e.name: e.result_types for e in registry.REGISTRY if e.result_types}}
+SERIALISED = {"working_range": (WorkingRange,), "precision": (PrecisionLevel,), "comparison": (ComparisonResult,),
+              "criteria": (Criterion,), **{e.name: e.result_types for e in registry.REGISTRY if e.result_types}}
+SERIALISED["detection"] += (LoqCheck,)          # the LOQ verification is written inside the detection section
 # the analyte entry's sections in the order results.json has always written them; a characteristic
 # not named here follows them in registry order
 _SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recovery", "precision",
@@ -422,8 +421,6 @@ def _analyte(a, previous=None):
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
              "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
-        "detection": {**serialise(a.detection, "detection"),
-                      "loq_verification": serialise(a.loq_check, "detection.loq_verification")},
         "working_range": serialise(a.working_range, "working_range"),
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "revalidation": _revalidation(a.revalidation, previous, a.name),
@@ -433,6 +430,7 @@ def _analyte(a, previous=None):
         if entry.result_types:
             result = a.result_of(entry)
             sections[entry.name] = None if result is None else serialise(result, entry.name)
+    sections["detection"]["loq_verification"] = serialise(a.loq_check, "detection.loq_verification")
     order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
     entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),
              **{name: sections[name] for name in order},

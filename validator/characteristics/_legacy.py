@@ -11,40 +11,22 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..criteria import (Criterion, at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
+from ..criteria import (Criterion, at_most, comparison_criteria, interval_within, loq_criterion,
                         precision_level_criteria, working_range_criterion)
-from . import recovery
+from . import calibration, detection, recovery
 from ._entry import Assessment, Characteristic
-from .calibration import analyse_calibration, quantify
+from .calibration import quantify
 from .comparison import assess_comparison
-from .detection import assess_detection
 from .precision import PrecisionLevel, assess_precision_level
 from .revalidation import RunSummary, assess_revalidation, run_summary
 from .working_range import verify_loq, working_range
 
-__all__ = ["CALIBRATION", "SAMPLES", "DETECTION", "PRECISION", "LOQ_CHECK", "WORKING_RANGE", "COMPARISON",
+__all__ = ["SAMPLES", "PRECISION", "LOQ_CHECK", "WORKING_RANGE", "COMPARISON",
            "REVALIDATION"]
 
 
-def _calibration(ctx) -> Assessment:
-    cal_cfg, crit = ctx.config.calibration, ctx.config.criteria
-    d = ctx.data.calibration
-    cal = analyse_calibration(d.concentration, d.response, model=cal_cfg.model, weighting=cal_cfg.weighting,
-                              through_origin=cal_cfg.through_origin, alpha=ctx.alpha,
-                              tolerance_pct=crit.back_calculation_tolerance_pct,
-                              lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
-    return Assessment(cal, calibration_criteria(cal, crit))
-
-
 def _samples(ctx) -> Assessment:
-    return Assessment(tuple(quantify(ctx.calibration.fit, s.id, s.responses) for s in ctx.data.samples))
-
-
-def _detection(ctx) -> Assessment:
-    det = ctx.config.detection
-    return Assessment(assess_detection(ctx.calibration, ctx.data.blanks, lod_factor=det.lod_factor,
-                                       loq_factor=det.loq_factor, readings_per_sample=det.readings_per_sample,
-                                       beta=det.beta, alpha=ctx.alpha, reporting_method=det.reporting_basis))
+    return Assessment(tuple(quantify(ctx.result_of(calibration.ENTRY).fit, s.id, s.responses) for s in ctx.data.samples))
 
 
 def _precision(ctx) -> Assessment | None:
@@ -68,20 +50,20 @@ def _recovery_levels(ctx) -> tuple:
 
 
 def _loq_check(ctx) -> Assessment:
-    check = verify_loq(ctx.detection.reported.loq, ctx.precision, _recovery_levels(ctx),
-                       ctx.config.detection.loq_rsd_max_pct)
+    check = verify_loq(ctx.result_of(detection.ENTRY).reported.loq, ctx.precision, _recovery_levels(ctx),
+                       ctx.settings_of(detection.ENTRY).loq_rsd_max_pct)
     return Assessment(check, (loq_criterion(check),) if check.levels else ())
 
 
 def _working_range(ctx) -> Assessment:
     """The range narrowed by every recovery or precision level that fails its own criteria."""
-    reported = ctx.detection.reported
+    reported = ctx.result_of(detection.ENTRY).reported
     levels = _recovery_levels(ctx)
     assessed = [lv.added for lv in levels] + [lv.level for lv in ctx.precision]
     failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
                + [(lv.level, "precision") for lv in ctx.precision
                   if any(c.passed is False for c in _precision_criteria(ctx, lv))])
-    wr = working_range(ctx.calibration.back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
+    wr = working_range(ctx.result_of(calibration.ENTRY).back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
     return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
                                                    (reported.reason or "it does not exist for these data")),))
 
@@ -101,7 +83,7 @@ def _revalidation(ctx) -> Assessment | None:
     rc = ctx.config.revalidation
     if ctx.data.previous is not None:
         reval = assess_revalidation(RunSummary.from_results(ctx.data.previous),
-                                    run_summary(ctx.calibration, ctx.detection, ctx.result_of(recovery.ENTRY),
+                                    run_summary(ctx.result_of(calibration.ENTRY), ctx.result_of(detection.ENTRY), ctx.result_of(recovery.ENTRY),
                                                 ctx.precision),
                                     slope_change_max_pct=rc.slope_change_max_pct,
                                     residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=ctx.alpha)
@@ -135,10 +117,7 @@ def _revalidation_criteria(reval, rc) -> list:
     return [slope, sd]
 
 
-CALIBRATION = Characteristic("calibration", "Calibration", _calibration, required=True)
 SAMPLES = Characteristic("samples", "Quantified samples", _samples)
-DETECTION = Characteristic("detection", "Detection capability", _detection,
-                           fragment="characteristics/detection.html.j2")
 PRECISION = Characteristic("precision", "Precision", _precision, fragment="characteristics/precision.html.j2")
 LOQ_CHECK = Characteristic("loq_check", "LOQ verification", _loq_check)
 WORKING_RANGE = Characteristic("working_range", "Working range", _working_range,
