@@ -20,8 +20,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Criterion", "precision_level_criteria", "loq_criterion", "comparison_criteria",
-           "overall_verdict", "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
+__all__ = ["Criterion", "precision_level_criteria", "comparison_criteria",
+           "overall_verdict", "at_least", "at_most", "interval_within", "missing"]
 
 
 def _finite(v) -> bool:
@@ -115,24 +115,6 @@ def interval_within(interval, limits) -> bool | None:
     return bool(low <= limits <= high)
 
 
-def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
-    """A working range must remain and hold at least one calibrator level that passes back-calculation.
-
-    It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
-    to nothing: the method was then not shown to quantify anything. When the reported basis gives
-    no LOQ (``loq_missing`` says why), the low end of the range was not checked against one, so the
-    criterion is not applicable.
-    # common practice, no published source: the rule that a range holds a passing calibrator
-    """
-    description = "working range remains and holds at least 1 calibrator level that passes back-calculation"
-    if loq_missing:
-        return Criterion("working-range", description, None, 1, None,
-                         f"not applicable: there is no LOQ on the reported basis ({loq_missing}), so the low "
-                         "end of the working range was not checked against one")
-    return Criterion("working-range", description, wr.passing_levels, 1, at_least(wr.passing_levels, 1),
-                     "" if wr.low is not None else wr.basis)
-
-
 def overall_verdict(criteria) -> str:
     """"pass" only when every criterion was evaluated and met.
 
@@ -161,14 +143,6 @@ def precision_level_criteria(lv, limits: tuple) -> tuple:
                              "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
 
-
-
-def loq_criterion(check) -> Criterion:
-    worst = max((r.rsd_pct for r in check.levels if r.rsd_pct is not None), default=None)
-    return Criterion("loq-verification",
-                     f"RSD at every precision/recovery level up to 2 × LOQ at most {check.rsd_max_pct:g} %",
-                     worst, check.rsd_max_pct, check.passed,
-                     "" if check.passed is not None else f"not applicable: {check.reason}")
 
 
 def _interval(ci):

@@ -21,7 +21,6 @@ from .characteristics.calibration import CalibrationResult, SampleResult
 from .characteristics.comparison import ComparisonResult
 from .characteristics.precision import PrecisionLevel
 from .characteristics.revalidation import RevalidationResult
-from .characteristics.working_range import LoqCheck, WorkingRange
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -34,7 +33,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("samples", "precision", "loq_check", "working_range", "comparison", "revalidation")
+_LEGACY = ("samples", "precision", "comparison", "revalidation")
 
 
 def __getattr__(name):
@@ -121,8 +120,6 @@ class AnalyteResult:
     criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
-    working_range: WorkingRange | None = None
-    loq_check: LoqCheck | None = None
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
     revalidation: RevalidationResult | None = None
     comparison: ComparisonResult | None = None
@@ -135,14 +132,16 @@ class AnalyteResult:
 
     @property
     def characteristics(self) -> tuple:
-        """The names of the characteristics assessed (results.json ``characteristics_assessed``)."""
+        """The names of the characteristics assessed (results.json ``characteristics_assessed``): those
+        results.json always listed, in its order, then the others in registry order."""
         out = ["calibration", "detection", "working_range"]
         if self.samples:
             out.append("samples")
         for name in ("recovery", "precision", "reference_material", "revalidation", "comparison"):
             if _result(self, name):
                 out.append(name)
-        return tuple(out) + tuple(name for name, _ in self.results if name not in out)
+        inside = {e.name for e in registry.REGISTRY if e.json_path}      # listed with the section holding it
+        return tuple(out) + tuple(name for name, _ in self.results if name not in out and name not in inside)
 
     @property
     def verdict(self) -> str:
@@ -185,8 +184,6 @@ class AnalyteContext:
     unit: str = ""
     samples: tuple[SampleResult, ...] = ()
     precision: tuple[PrecisionLevel, ...] = ()
-    loq_check: LoqCheck | None = None
-    working_range: WorkingRange | None = None
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
@@ -227,7 +224,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     cal = ctx.result_of(calibration.ENTRY)
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit), working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
+                         residual_views=residual_series(cal.fit), precision=ctx.precision,
                          revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
 
 

@@ -9,7 +9,7 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, calibration, detection, recovery, reference_material
+from .characteristics import _legacy, calibration, detection, recovery, reference_material, working_range
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -22,8 +22,8 @@ REGISTRY: tuple[Characteristic, ...] = (
     recovery.ENTRY,
     _legacy.PRECISION,
     reference_material.ENTRY,
-    _legacy.LOQ_CHECK,
-    _legacy.WORKING_RANGE,
+    working_range.LOQ_CHECK,
+    working_range.ENTRY,
     _legacy.COMPARISON,
     _legacy.REVALIDATION,
 )

@@ -28,7 +28,6 @@ from . import __version__, registry
 from .characteristics.precision import PrecisionLevel
 from .characteristics.comparison import ComparisonResult
 from .criteria import Criterion
-from .characteristics.working_range import LoqCheck, WorkingRange
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -256,9 +255,16 @@ def _calibration(a):
 
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all:
 # those of the registry's entries with result_types, and these not yet in packages of their own
-SERIALISED = {"working_range": (WorkingRange,), "precision": (PrecisionLevel,), "comparison": (ComparisonResult,),
-              "criteria": (Criterion,), **{e.name: e.result_types for e in registry.REGISTRY if e.result_types}}
-SERIALISED["detection"] += (LoqCheck,)          # the LOQ verification is written inside the detection section
+def _serialised(entries) -> dict:
+    out = {"precision": (PrecisionLevel,), "comparison": (ComparisonResult,), "criteria": (Criterion,)}
+    for entry in entries:        # one written inside another's section counts as that section's
+        if entry.result_types:
+            section = entry.written_at.split(".")[0]
+            out[section] = out.get(section, ()) + entry.result_types
+    return out
+
+
+SERIALISED = _serialised(registry.REGISTRY)
 # the analyte entry's sections in the order results.json has always written them; a characteristic
 # not named here follows them in registry order
 _SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recovery", "precision",
@@ -353,7 +359,7 @@ def _not_applicable(a, entry: dict, collected: list = ()) -> list:
             out.append({"item": f"samples.{s.id}", "reason": s.reason})
             covered.add(f"samples.{i}")
     known = _known_reasons(a)
-    serialised = set(SERIALISED) | {e.name for e in registry.REGISTRY if e.result_types}
+    serialised = set(_serialised(registry.REGISTRY))
     listed = set()
     for path in null_paths({k: v for k, v in entry.items() if k not in SECTIONS or v is not None}):
         parts = path.split(".")
@@ -421,7 +427,6 @@ def _analyte(a, previous=None):
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
              "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
              "within_range": s.within_range} for s in a.samples],
-        "working_range": serialise(a.working_range, "working_range"),
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
@@ -429,8 +434,11 @@ def _analyte(a, previous=None):
     for entry in registry.REGISTRY:
         if entry.result_types:
             result = a.result_of(entry)
-            sections[entry.name] = None if result is None else serialise(result, entry.name)
-    sections["detection"]["loq_verification"] = serialise(a.loq_check, "detection.loq_verification")
+            *parents, name = entry.written_at.split(".")
+            place = sections
+            for parent in parents:
+                place = place[parent]
+            place[name] = None if result is None else serialise(result, entry.written_at)
     order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
     entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),
              **{name: sections[name] for name in order},

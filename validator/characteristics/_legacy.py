@@ -11,17 +11,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..criteria import (Criterion, at_most, comparison_criteria, interval_within, loq_criterion,
-                        precision_level_criteria, working_range_criterion)
+from ..criteria import Criterion, at_most, comparison_criteria, interval_within, precision_level_criteria
 from . import calibration, detection, recovery
 from ._entry import Assessment, Characteristic
 from .calibration import quantify
 from .comparison import assess_comparison
 from .precision import PrecisionLevel, assess_precision_level
 from .revalidation import RunSummary, assess_revalidation, run_summary
-from .working_range import verify_loq, working_range
 
-__all__ = ["SAMPLES", "PRECISION", "LOQ_CHECK", "WORKING_RANGE", "COMPARISON",
+__all__ = ["SAMPLES", "PRECISION", "COMPARISON",
            "REVALIDATION"]
 
 
@@ -44,28 +42,9 @@ def _precision_criteria(ctx, lv: PrecisionLevel) -> tuple:
     return precision_level_criteria(lv, ctx.config.precision.limits_for(lv.level))
 
 
-def _recovery_levels(ctx) -> tuple:
-    found = ctx.result_of(recovery.ENTRY)
-    return found.levels if found is not None else ()
-
-
-def _loq_check(ctx) -> Assessment:
-    check = verify_loq(ctx.result_of(detection.ENTRY).reported.loq, ctx.precision, _recovery_levels(ctx),
-                       ctx.settings_of(detection.ENTRY).loq_rsd_max_pct)
-    return Assessment(check, (loq_criterion(check),) if check.levels else ())
-
-
-def _working_range(ctx) -> Assessment:
-    """The range narrowed by every recovery or precision level that fails its own criteria."""
-    reported = ctx.result_of(detection.ENTRY).reported
-    levels = _recovery_levels(ctx)
-    assessed = [lv.added for lv in levels] + [lv.level for lv in ctx.precision]
-    failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
-               + [(lv.level, "precision") for lv in ctx.precision
-                  if any(c.passed is False for c in _precision_criteria(ctx, lv))])
-    wr = working_range(ctx.result_of(calibration.ENTRY).back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
-    return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
-                                                   (reported.reason or "it does not exist for these data")),))
+def precision_level_failed(ctx, lv: PrecisionLevel) -> bool:
+    """Whether a precision level fails one of its own criteria (for the working range)."""
+    return any(c.passed is False for c in _precision_criteria(ctx, lv))
 
 
 def _comparison(ctx) -> Assessment | None:
@@ -119,8 +98,5 @@ def _revalidation_criteria(reval, rc) -> list:
 
 SAMPLES = Characteristic("samples", "Quantified samples", _samples)
 PRECISION = Characteristic("precision", "Precision", _precision, fragment="characteristics/precision.html.j2")
-LOQ_CHECK = Characteristic("loq_check", "LOQ verification", _loq_check)
-WORKING_RANGE = Characteristic("working_range", "Working range", _working_range,
-                               fragment="characteristics/working_range.html.j2")
 COMPARISON = Characteristic("comparison", "Method comparison", _comparison)
 REVALIDATION = Characteristic("revalidation", "Re-validation", _revalidation)

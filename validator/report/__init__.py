@@ -124,9 +124,17 @@ def _readings(results: dict, alpha: float) -> list:
     for i, a in enumerate(results["analytes"]):
         reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
                                    key=str(i))
-        out.append([(e.name, a[e.name], reading) for e in registry.REGISTRY
-                    if (e.sentences or e.figures) and a.get(e.name)])
+        out.append([(e.name, entry, reading) for e in registry.REGISTRY
+                    if (e.sentences or e.figures) and (entry := _written(a, e.written_at))])
     return out
+
+
+def _written(analyte: dict, path: str):
+    """The value at a dotted ``path`` of an analyte's results.json entry (``None`` when absent)."""
+    value = analyte
+    for part in path.split("."):
+        value = value.get(part) if isinstance(value, dict) else None
+    return value
 
 
 def _analyte_figures(d: dict) -> dict:

@@ -146,23 +146,9 @@ def _reason(a: dict, item: str) -> str:
 
 
 def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
-    """Plain-language reading of the LOQ verification, range and precision results (the characteristics in
+    """Plain-language reading of the precision results (the characteristics in
     packages of their own bring their sentences in their ``presentation`` module)."""
     out = {}
-    det = a["detection"]
-    lv = det["loq_verification"]
-    if lv["pass"] is None:
-        out["loq_verification"] = f"The LOQ could not be verified with data near it: {lv['reason']}."
-    else:
-        state = "supports" if lv["pass"] else "does NOT support"
-        out["loq_verification"] = (f"The precision at levels up to 2 × LOQ {state} the LOQ: every RSD there is "
-                                   f"{'at most' if lv['pass'] else 'not all within'} {fmt(lv['rsd_max_pct'])} %.")
-    wr = a["working_range"]
-    if wr["low"] is None:
-        out["working_range"] = f"No working range can be stated: {wr['basis']}."
-    else:
-        out["working_range"] = (f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {unit} "
-                                f"({wr['basis']}).")
     prec = a.get("precision")
     if prec:
         parts = []
