@@ -20,8 +20,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Criterion", "precision_level_criteria", "comparison_criteria",
-           "overall_verdict", "at_least", "at_most", "interval_within", "missing"]
+__all__ = ["Criterion", "precision_level_criteria", "overall_verdict", "at_least", "at_most", "interval_within",
+           "missing"]
 
 
 def _finite(v) -> bool:
@@ -141,34 +141,4 @@ def precision_level_criteria(lv, limits: tuple) -> tuple:
         out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
                              value, limit, at_most(value, limit),
                              "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
-    return tuple(out)
-
-
-
-def _interval(ci):
-    """[low, high] of a confidence interval, or None when it does not exist."""
-    if ci is None:
-        return None
-    pair = [getattr(ci, "low", None), getattr(ci, "high", None)]
-    return None if missing(pair) else pair
-
-
-def comparison_criteria(comparison, slope_limits=None, intercept_limits=None) -> tuple:
-    """Method comparison: the Passing-Bablok slope and intercept CIs, each judged on its own.
-
-    Each CI must lie inside its limits where the study gives them, else contain the ideal
-    value (slope 1, intercept 0); together they are the comparison's verdict [EP09].
-    A CI that does not exist gives a not-applicable criterion with the comparison's reason.
-    """
-    pb = comparison.passing_bablok
-    reason = getattr(comparison, "reason", "") or "the Passing-Bablok interval does not exist"
-    out = []
-    for name, ci, limits, ideal in (("slope", pb.slope_ci, slope_limits, 1.0),
-                                    ("intercept", pb.intercept_ci, intercept_limits, 0.0)):
-        value = _interval(ci)
-        limit = list(limits) if limits is not None else ideal
-        rule = f"inside [{limits[0]:g}, {limits[1]:g}]" if limits is not None else f"contains {ideal:g}"
-        out.append(Criterion(f"method-comparison-{name}", f"Passing-Bablok {name} CI {rule}", value, limit,
-                             interval_within(value, limit),
-                             "" if value is not None else f"not applicable: {reason}"))
     return tuple(out)

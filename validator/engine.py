@@ -18,7 +18,6 @@ from ._common import quiet_numpy
 from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult, SampleResult
-from .characteristics.comparison import ComparisonResult
 from .characteristics.precision import PrecisionLevel
 from .characteristics.revalidation import RevalidationResult
 from .criteria import Criterion, overall_verdict
@@ -33,7 +32,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("samples", "precision", "comparison", "revalidation")
+_LEGACY = ("samples", "precision", "revalidation")
 
 
 def __getattr__(name):
@@ -122,7 +121,6 @@ class AnalyteResult:
     residual_views: ResidualSeries = field(repr=False)
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
     revalidation: RevalidationResult | None = None
-    comparison: ComparisonResult | None = None
     # (name, result) of every assessed characteristic without a field above, in registry order
     results: tuple[tuple[str, Any], ...] = ()
 
@@ -184,7 +182,6 @@ class AnalyteContext:
     unit: str = ""
     samples: tuple[SampleResult, ...] = ()
     precision: tuple[PrecisionLevel, ...] = ()
-    comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
     # (name, result) of every assessed characteristic without a field above, in registry order
@@ -225,7 +222,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), precision=ctx.precision,
-                         revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
+                         revalidation=ctx.revalidation, results=ctx.results)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

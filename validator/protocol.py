@@ -468,7 +468,7 @@ def design_deviations(design, analytes) -> list:
                 ("reference_material.replicates",
                  design.reference_material and design.reference_material.replicates, a.of("reference_material")),
                 ("comparison.samples", design.comparison and design.comparison.samples,
-                 None if a.comparison is None else a.comparison[0])):
+                 None if a.of("comparison") is None else a.of("comparison").samples)):
             if planned and seen is not None and len(seen) != planned:
                 out.append(Deviation(f"design.{name}", planned, len(seen), a.name))
     return out

@@ -9,7 +9,7 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, calibration, detection, recovery, reference_material, working_range
+from .characteristics import _legacy, calibration, comparison, detection, recovery, reference_material, working_range
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -24,6 +24,6 @@ REGISTRY: tuple[Characteristic, ...] = (
     reference_material.ENTRY,
     working_range.LOQ_CHECK,
     working_range.ENTRY,
-    _legacy.COMPARISON,
+    comparison.ENTRY,
     _legacy.REVALIDATION,
 )

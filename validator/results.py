@@ -26,7 +26,6 @@ import numpy as np
 from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__, registry
 from .characteristics.precision import PrecisionLevel
-from .characteristics.comparison import ComparisonResult
 from .criteria import Criterion
 from .signing import operator_and_host
 
@@ -256,7 +255,7 @@ def _calibration(a):
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all:
 # those of the registry's entries with result_types, and these not yet in packages of their own
 def _serialised(entries) -> dict:
-    out = {"precision": (PrecisionLevel,), "comparison": (ComparisonResult,), "criteria": (Criterion,)}
+    out = {"precision": (PrecisionLevel,), "criteria": (Criterion,)}
     for entry in entries:        # one written inside another's section counts as that section's
         if entry.result_types:
             section = entry.written_at.split(".")[0]
@@ -429,7 +428,6 @@ def _analyte(a, previous=None):
              "within_range": s.within_range} for s in a.samples],
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "revalidation": _revalidation(a.revalidation, previous, a.name),
-        "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
     }
     for entry in registry.REGISTRY:
         if entry.result_types:

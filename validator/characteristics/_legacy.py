@@ -11,16 +11,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..criteria import Criterion, at_most, comparison_criteria, interval_within, precision_level_criteria
+from ..criteria import Criterion, at_most, interval_within, precision_level_criteria
 from . import calibration, detection, recovery
 from ._entry import Assessment, Characteristic
 from .calibration import quantify
-from .comparison import assess_comparison
 from .precision import PrecisionLevel, assess_precision_level
 from .revalidation import RunSummary, assess_revalidation, run_summary
 
-__all__ = ["SAMPLES", "PRECISION", "COMPARISON",
-           "REVALIDATION"]
+__all__ = ["SAMPLES", "PRECISION", "REVALIDATION", "precision_level_failed"]
 
 
 def _samples(ctx) -> Assessment:
@@ -45,17 +43,6 @@ def _precision_criteria(ctx, lv: PrecisionLevel) -> tuple:
 def precision_level_failed(ctx, lv: PrecisionLevel) -> bool:
     """Whether a precision level fails one of its own criteria (for the working range)."""
     return any(c.passed is False for c in _precision_criteria(ctx, lv))
-
-
-def _comparison(ctx) -> Assessment | None:
-    cd = ctx.data.comparison
-    if cd is None:
-        return None
-    cc = ctx.config.comparison
-    comparison = assess_comparison(cd.samples, cd.reference, cd.test, error_ratio=cc.error_ratio,
-                                   slope_limits=cc.slope_limits, intercept_limits=cc.intercept_limits,
-                                   percentage=cc.percentage_differences, alpha=ctx.alpha)
-    return Assessment(comparison, comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits))
 
 
 def _revalidation(ctx) -> Assessment | None:
@@ -98,5 +85,4 @@ def _revalidation_criteria(reval, rc) -> list:
 
 SAMPLES = Characteristic("samples", "Quantified samples", _samples)
 PRECISION = Characteristic("precision", "Precision", _precision, fragment="characteristics/precision.html.j2")
-COMPARISON = Characteristic("comparison", "Method comparison", _comparison)
 REVALIDATION = Characteristic("revalidation", "Re-validation", _revalidation)

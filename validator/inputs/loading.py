@@ -53,15 +53,6 @@ class PrecisionData:
 
 
 @dataclass(frozen=True)
-class ComparisonData:
-    """Shared samples measured by the reference and the test method."""
-
-    samples: tuple[str, ...]
-    reference: np.ndarray = field(repr=False)
-    test: np.ndarray = field(repr=False)
-
-
-@dataclass(frozen=True)
 class AnalyteData:
     """One analyte's data: its calibration, and what each characteristic's loader read for it."""
 
@@ -69,7 +60,6 @@ class AnalyteData:
     calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
     samples: tuple[SampleData, ...] = ()
     precision: PrecisionData | None = None
-    comparison: ComparisonData | None = field(default=None, repr=False)
     # the analyte's entry in the previous results.json, as read (checked against the schema)
     previous: dict[str, Any] | None = field(default=None, repr=False)
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
@@ -224,31 +214,8 @@ def _precision(reader, analytes):
                        ("analyte",), "precision result", prepare, make)
 
 
-def _comparison(reader, analytes):
-    def prepare(table):
-        return (table, table.texts("sample", MAX_NAME_LENGTH), numeric_column(table, "reference", reader.decimal),
-                numeric_column(table, "test", reader.decimal))
-
-    def make(columns, idx, name):
-        table, ids, ref, test = columns
-        if len(idx) < 3:
-            raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
-                            file=table.path, row=table.rows[idx[0]])
-        first = {}
-        for i in idx:       # one row per sample: a repeated id would count one sample twice
-            if ids[i] in first:
-                raise DataError(f'sample "{show(ids[i])}" appears again (first at row {first[ids[i]]}); the '
-                                "comparison takes one reference and one test result per sample",
-                                file=table.path, row=table.rows[i], column="sample", value=ids[i])
-            first[ids[i]] = table.rows[i]
-        return ComparisonData(tuple(ids[i] for i in idx), ref[idx], test[idx])
-
-    return per_analyte(reader, reader.study.config.comparison, analytes, "comparison",
-                       ("sample", "reference", "test"), ("analyte",), "comparison result", prepare, make)
-
-
 # characteristics whose data are still read here (not yet by their registry entry's ``load``)
-_LEGACY_LOADERS = {"samples": _samples, "precision": _precision, "comparison": _comparison}
+_LEGACY_LOADERS = {"samples": _samples, "precision": _precision}
 
 
 def load_study(path: str | Path) -> LoadedStudy:
@@ -274,7 +241,7 @@ def load_study(path: str | Path) -> LoadedStudy:
             previous, run = read_previous(reader, calibration)
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
     analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
-                                 legacy["precision"].get(name), legacy["comparison"].get(name), previous.get(name),
+                                 legacy["precision"].get(name), previous.get(name),
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

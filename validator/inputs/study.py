@@ -155,20 +155,6 @@ class RevalidationSection(_Section):
     analytes: dict[str, str] = Field(default_factory=dict)
 
 
-class ComparisonSection(_Section):
-    data: DataPath
-    error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
-    slope_limits: Optional[list[float]] = None
-    intercept_limits: Optional[list[float]] = None
-    percentage_differences: bool = False
-
-    @model_validator(mode="after")
-    def _limits(self):
-        for name in ("slope_limits", "intercept_limits"):
-            check_range(getattr(self, name), name)
-        return self
-
-
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -189,7 +175,6 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 _OTHER_TABLES = {"study": (StudySection, ...),
                  "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
                  "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
-                 "comparison": (Optional[ComparisonSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}
 _MODELS: dict = {}

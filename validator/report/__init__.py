@@ -101,7 +101,9 @@ def _change_data(a, entry: dict) -> dict:
             "previous_range": (min(levels), max(levels)),
             "current_coefficients": entry["calibration"]["coefficients"],
             "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
-    c = a.comparison
+    from ..characteristics import comparison
+
+    c = a.result_of(comparison.ENTRY)
     if c is not None:
         ba = c.bland_altman
         out["comparison"] = {
