@@ -17,7 +17,7 @@ from . import registry
 from ._common import quiet_numpy
 from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
-from .characteristics.calibration import CalibrationResult, SampleResult
+from .characteristics.calibration import CalibrationResult
 from .characteristics.precision import PrecisionLevel
 from .characteristics.revalidation import RevalidationResult
 from .criteria import Criterion, overall_verdict
@@ -32,7 +32,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("samples", "precision", "revalidation")
+_LEGACY = ("precision", "revalidation")
 
 
 def __getattr__(name):
@@ -115,7 +115,6 @@ class AnalyteResult:
     name: str
     data: AnalyteData = field(repr=False)
     calibration: CalibrationResult = field(repr=False)       # the result of the registry's first entry
-    samples: tuple[SampleResult, ...]
     criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
@@ -133,17 +132,19 @@ class AnalyteResult:
         """The names of the characteristics assessed (results.json ``characteristics_assessed``): those
         results.json always listed, in its order, then the others in registry order."""
         out = ["calibration", "detection", "working_range"]
-        if self.samples:
-            out.append("samples")
-        for name in ("recovery", "precision", "reference_material", "revalidation", "comparison"):
-            if _result(self, name):
-                out.append(name)
+        out += [name for name in _LISTED_WHEN_ASSESSED if _result(self, name)]
         inside = {e.name for e in registry.REGISTRY if e.json_path}      # listed with the section holding it
-        return tuple(out) + tuple(name for name, _ in self.results if name not in out and name not in inside)
+        return tuple(out) + tuple(name for name, _ in self.results
+                                  if name not in out and name not in _LISTED_WHEN_ASSESSED and name not in inside)
 
     @property
     def verdict(self) -> str:
         return overall_verdict(self.criteria)
+
+
+# results.json's characteristics_assessed: calibration, detection and working range always, then these
+# (in this order) when they have a result for the analyte, then any other characteristic in registry order
+_LISTED_WHEN_ASSESSED = ("samples", "recovery", "precision", "reference_material", "revalidation", "comparison")
 
 
 def _result(holder, name: str):
@@ -180,7 +181,6 @@ class AnalyteContext:
     data: AnalyteData
     config: StudyConfig
     unit: str = ""
-    samples: tuple[SampleResult, ...] = ()
     precision: tuple[PrecisionLevel, ...] = ()
     revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
@@ -219,7 +219,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         if done is not None:
             ctx = ctx.with_result(step.name, done)
     cal = ctx.result_of(calibration.ENTRY)
-    return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
+    return AnalyteResult(name=data.name, data=data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), precision=ctx.precision,
                          revalidation=ctx.revalidation, results=ctx.results)

@@ -9,14 +9,15 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, calibration, comparison, detection, recovery, reference_material, working_range
+from .characteristics import (_legacy, calibration, comparison, detection, recovery, reference_material, samples,
+                              working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
     calibration.ENTRY,               # first: its data name the analytes
-    _legacy.SAMPLES,
+    samples.ENTRY,
     detection.BLANKS,
     detection.ENTRY,
     recovery.ENTRY,

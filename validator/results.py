@@ -84,7 +84,8 @@ class Serialiser:
       become lists; ints, bools, strings and ``None`` stay.
     - Whenever a ``null`` is written inside an object that can say why (its ``null_reason``
       property, else its ``reason`` field), ``{"item": <the object's path>, "reason": ...}`` is
-      added once to :attr:`not_applicable`. A field whose metadata names a ``null_reason``
+      added once to :attr:`not_applicable` (the item is the object's ``null_item`` property
+      instead of its path, where it has one). A field whose metadata names a ``null_reason``
       attribute has a reason of its own (when that attribute is not empty), listed under the
       field's path.
     """
@@ -125,7 +126,7 @@ class Serialiser:
         if reason is None:
             reason = getattr(obj, "reason", None)
         if isinstance(reason, str) and reason:
-            owner = (path, reason)
+            owner = (getattr(obj, "null_item", None) or path, reason)
         out = {}
         for f in dataclasses.fields(obj):
             name = f.metadata.get("json", f.name)
@@ -353,10 +354,7 @@ def _not_applicable(a, entry: dict, collected: list = ()) -> list:
              "intercept_test": cal.intercept_test}
     out = [{"item": k, "reason": t.reason} for k, t in tests.items() if not t.applicable]
     covered = {f"calibration.{k}" for k, t in tests.items() if not t.applicable}
-    for i, s in enumerate(a.samples):
-        if s.reason:
-            out.append({"item": f"samples.{s.id}", "reason": s.reason})
-            covered.add(f"samples.{i}")
+    out.extend(by_section.pop("samples", []))          # unknowns follow the calibration tests
     known = _known_reasons(a)
     serialised = set(_serialised(registry.REGISTRY))
     listed = set()
@@ -422,10 +420,6 @@ def _analyte(a, previous=None):
     serialise = Serialiser()
     sections = {
         "calibration": _calibration(a),
-        "samples": [
-            {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
-             "concentration": num(s.concentration), "std_error": num(s.std_error), **_interval("ci", s.ci),
-             "within_range": s.within_range} for s in a.samples],
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "revalidation": _revalidation(a.revalidation, previous, a.name),
     }

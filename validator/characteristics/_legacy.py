@@ -14,15 +14,10 @@ import numpy as np
 from ..criteria import Criterion, at_most, interval_within, precision_level_criteria
 from . import calibration, detection, recovery
 from ._entry import Assessment, Characteristic
-from .calibration import quantify
 from .precision import PrecisionLevel, assess_precision_level
 from .revalidation import RunSummary, assess_revalidation, run_summary
 
-__all__ = ["SAMPLES", "PRECISION", "REVALIDATION", "precision_level_failed"]
-
-
-def _samples(ctx) -> Assessment:
-    return Assessment(tuple(quantify(ctx.result_of(calibration.ENTRY).fit, s.id, s.responses) for s in ctx.data.samples))
+__all__ = ["PRECISION", "REVALIDATION", "precision_level_failed"]
 
 
 def _precision(ctx) -> Assessment | None:
@@ -83,6 +78,5 @@ def _revalidation_criteria(reval, rc) -> list:
     return [slope, sd]
 
 
-SAMPLES = Characteristic("samples", "Quantified samples", _samples)
 PRECISION = Characteristic("precision", "Precision", _precision, fragment="characteristics/precision.html.j2")
 REVALIDATION = Characteristic("revalidation", "Re-validation", _revalidation)

@@ -38,13 +38,6 @@ class InputFile:
 
 
 @dataclass(frozen=True)
-class SampleData:
-    id: str
-    responses: tuple[float, ...]
-    rows: tuple[int, ...]
-
-
-@dataclass(frozen=True)
 class PrecisionData:
     level: np.ndarray = field(repr=False)
     series: tuple[str, ...] = field(repr=False)
@@ -58,7 +51,6 @@ class AnalyteData:
 
     name: str
     calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
-    samples: tuple[SampleData, ...] = ()
     precision: PrecisionData | None = None
     # the analyte's entry in the previous results.json, as read (checked against the schema)
     previous: dict[str, Any] | None = field(default=None, repr=False)
@@ -136,32 +128,6 @@ def analyte_rows(table, analytes: dict, what: str) -> dict:
     return out
 
 
-def _samples(reader: Reader, analytes: dict):
-    cfg = reader.study.config
-    if cfg.samples is None:
-        return {}
-    table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
-    ids = table.texts("sample", MAX_NAME_LENGTH)
-    responses = numeric_column(table, "response", reader.decimal).tolist()
-    seen = {}
-    for sid, row in zip(ids, table.rows):
-        key = " ".join(sid.split()).casefold()
-        if key in seen and seen[key][0] != sid:
-            raise DataError(f'sample id "{sid}" differs only in case or spacing from "{seen[key][0]}" '
-                            f"(row {seen[key][1]}); use one spelling per sample", file=table.path, row=row,
-                            column="sample", value=sid)
-        seen.setdefault(key, (sid, row))
-    out = {}
-    for name, idx in analyte_rows(table, analytes, "reading").items():
-        groups = {}
-        for i in idx:
-            groups.setdefault(ids[i], ([], []))
-            groups[ids[i]][0].append(responses[i])
-            groups[ids[i]][1].append(table.rows[i])
-        out[name] = tuple(SampleData(sid, tuple(r), tuple(rw)) for sid, (r, rw) in groups.items())
-    return out
-
-
 def check_positive(table, column, values, what="must be > 0"):
     for v, cell, row in zip(values, table.columns[column], table.rows):
         if not v > 0:
@@ -215,7 +181,7 @@ def _precision(reader, analytes):
 
 
 # characteristics whose data are still read here (not yet by their registry entry's ``load``)
-_LEGACY_LOADERS = {"samples": _samples, "precision": _precision}
+_LEGACY_LOADERS = {"precision": _precision}
 
 
 def load_study(path: str | Path) -> LoadedStudy:
@@ -240,8 +206,7 @@ def load_study(path: str | Path) -> LoadedStudy:
         elif entry.name == "revalidation":
             previous, run = read_previous(reader, calibration)
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
-    analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
-                                 legacy["precision"].get(name), previous.get(name),
+    analytes = tuple(AnalyteData(name, calibration[name], legacy["precision"].get(name), previous.get(name),
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

@@ -108,10 +108,6 @@ class StudySection(_Section):
         return self
 
 
-class SamplesSection(_Section):
-    data: DataPath
-
-
 class CriteriaSection(_Section):
     alpha: float = _probability(0.05)
     back_calculation_tolerance_pct: float = Field(15.0, gt=0, le=100)
@@ -173,7 +169,7 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 
 # tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
 _OTHER_TABLES = {"study": (StudySection, ...),
-                 "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
+                 "criteria": (CriteriaSection, CriteriaSection()),
                  "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}

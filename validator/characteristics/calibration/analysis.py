@@ -480,9 +480,14 @@ class SampleResult:
     mean_response: float
     concentration: float
     std_error: float
-    ci: ConfidenceInterval
+    ci: ConfidenceInterval = field(metadata={"interval": "pair"})
     within_range: bool
-    reason: str = ""
+    reason: str = field(default="", metadata={"json": None})
+
+    @property
+    def null_item(self) -> str:
+        """Its name in results.json ``not_applicable``: unknowns are listed by id."""
+        return f"samples.{self.id}"
 
 
 def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
