@@ -19,7 +19,6 @@ from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult
 from .characteristics.precision import PrecisionLevel
-from .characteristics.revalidation import RevalidationResult
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -32,7 +31,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("precision", "revalidation")
+_LEGACY = ("precision",)
 
 
 def __getattr__(name):
@@ -119,7 +118,6 @@ class AnalyteResult:
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
-    revalidation: RevalidationResult | None = None
     # (name, result) of every assessed characteristic without a field above, in registry order
     results: tuple[tuple[str, Any], ...] = ()
 
@@ -182,7 +180,6 @@ class AnalyteContext:
     config: StudyConfig
     unit: str = ""
     precision: tuple[PrecisionLevel, ...] = ()
-    revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
     # (name, result) of every assessed characteristic without a field above, in registry order
     results: tuple[tuple[str, Any], ...] = ()
@@ -222,7 +219,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     return AnalyteResult(name=data.name, data=data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), precision=ctx.precision,
-                         revalidation=ctx.revalidation, results=ctx.results)
+                         results=ctx.results)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

@@ -9,8 +9,8 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import (_legacy, calibration, comparison, detection, recovery, reference_material, samples,
-                              working_range)
+from .characteristics import (_legacy, calibration, comparison, detection, recovery, reference_material,
+                              revalidation, samples, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -26,5 +26,5 @@ REGISTRY: tuple[Characteristic, ...] = (
     working_range.LOQ_CHECK,
     working_range.ENTRY,
     comparison.ENTRY,
-    _legacy.REVALIDATION,
+    revalidation.ENTRY,
 )

@@ -78,8 +78,9 @@ class Serialiser:
       object it holds flat into this one (``{"flatten": ((json name, attribute or tuple of
       attributes), ...)}``).
     - An interval field (``metadata={"interval": "pair"}`` or ``"null"``) is written as
-      ``name: [low, high]`` and ``name_level: level``; a missing one as ``[null, null]`` or
-      ``null`` (the field's historical form) with a ``null`` level.
+      ``name: [low, high]`` and ``name_level: level`` (``{"level_json": "other_name"}`` names the
+      level field otherwise); a missing one as ``[null, null]`` or ``null`` (the field's
+      historical form) with a ``null`` level.
     - Floats go through :func:`finite_or_none` (NaN and infinity become ``null``); tuples
       become lists; ints, bools, strings and ``None`` stay.
     - Whenever a ``null`` is written inside an object that can say why (its ``null_reason``
@@ -148,13 +149,14 @@ class Serialiser:
                 out[name] = self._value(value, f"{path}.{name}", (f"{path}.{name}", reason) if reason else owner)
                 continue
             if "interval" in f.metadata:
+                level = f.metadata.get("level_json", f"{name}_level")
                 if value is None:
                     out[name] = None if f.metadata["interval"] == "null" else [None, None]
-                    out[f"{name}_level"] = self._null(owner)
+                    out[level] = self._null(owner)
                 else:
                     out[name] = [self._value(value.low, f"{path}.{name}.0", owner),
                                  self._value(value.high, f"{path}.{name}.1", owner)]
-                    out[f"{name}_level"] = self._value(value.level, f"{path}.{name}_level", owner)
+                    out[level] = self._value(value.level, f"{path}.{level}", owner)
             else:
                 out[name] = self._value(value, f"{path}.{name}", owner)
         return out
@@ -181,7 +183,7 @@ def json_fields(*types) -> set:
                     continue
                 names.add(name)
                 if "interval" in f.metadata:
-                    names.add(f"{name}_level")
+                    names.add(f.metadata.get("level_json", f"{name}_level"))
                 visit(hints[f.name])
         for arg in typing.get_args(tp):
             visit(arg)
@@ -327,10 +329,6 @@ def _known_reasons(a) -> dict:
         elif b.found is None or not np.isfinite(b.found):
             out[f"calibration.back_calculated.{i}"] = ("the response lies beyond the vertex of the quadratic; "
                                                        "no concentration corresponds to it")
-    if a.revalidation is not None:
-        out["revalidation.recovery"] = "recovery data are missing in this or the previous validation"
-        out["revalidation"] = ("; ".join(a.revalidation.reasons) or
-                               "the previous results.json has no value for it")
     return out
 
 
@@ -377,51 +375,11 @@ def _not_applicable(a, entry: dict, collected: list = ()) -> list:
     return out
 
 
-def _revalidation(r, previous, name):
-    if r is None:
-        return None
-    sl = r.slope
-    own = r.current_own_choice
-    return {
-        "previous": {"path": previous.path, "study_id": previous.study_id, "generated_at": previous.generated_at,
-                     "sha256": previous.sha256},
-        "previous_analyte": dict(previous.matched).get(name, name),
-        "basis": sl.basis,
-        "refit_model": r.refit_model,
-        "refit_weighting": r.refit_weighting,
-        "refit_through_origin": r.refit_through_origin,
-        "current_own_choice": {"model": own.model, "weighting": own.weighting, "through_origin": own.through_origin},
-        "slope": {"quantity": sl.quantity,
-                  "sensitivity_range": None if sl.sensitivity_range is None else [num(v) for v in sl.sensitivity_range],
-                  "previous": num(sl.previous), "current": num(sl.current), "change_pct": num(sl.change_pct),
-                  "change_ci_pct": [None, None] if sl.change_ci_pct is None else _ci(sl.change_ci_pct),
-                  "change_ci_level": None if sl.change_ci_pct is None else num(sl.change_ci_pct.level),
-                  "t_statistic": num(sl.t_statistic), "df": sl.df,
-                  "p_value": num(sl.pvalue), "margin_pct": num(sl.margin_pct), "equivalent": sl.verdict == "equivalent",
-                  "verdict": sl.verdict, "reason": sl.reason},
-        "intercept": {"previous": num(r.intercept_previous), "current": num(r.intercept_current)},
-        "residual_sd": {"previous": num(r.residual_sd_previous), "current": num(r.residual_sd_current),
-                        "df": list(r.residual_sd_df),
-                        "ratio": num(r.residual_sd_ratio), "f_statistic": num(r.residual_sd_f),
-                        "p_value": num(r.residual_sd_pvalue), "ratio_max": num(r.residual_sd_ratio_max)},
-        "lod": [num(r.lod.previous), num(r.lod.current)], "loq": [num(r.loq.previous), num(r.loq.current)],
-        "recovery": None if r.recovery is None else {"previous_mean_pct": num(r.recovery.previous_mean_pct),
-                                                     "current_mean_pct": num(r.recovery.current_mean_pct),
-                                                     "welch_p_value": num(r.recovery.welch_pvalue),
-                                                     "variance_f_p_value": num(r.recovery.variance_f_pvalue)},
-        "repeatability": [{"level": num(c.level), "previous_sd": num(c.previous_sd), "current_sd": num(c.current_sd),
-                           "f_p_value": num(c.f_pvalue)} for c in r.repeatability],
-        "verdict": r.verdict,
-        "reasons": list(r.reasons),
-    }
-
-
-def _analyte(a, previous=None):
+def _analyte(a):
     serialise = Serialiser()
     sections = {
         "calibration": _calibration(a),
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
-        "revalidation": _revalidation(a.revalidation, previous, a.name),
     }
     for entry in registry.REGISTRY:
         if entry.result_types:
@@ -458,7 +416,7 @@ def build_results(result, *, generated_at: str) -> dict:
         "inputs": [{"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size}
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
-        "analytes": [_analyte(a, loaded.previous) for a in result.analytes],
+        "analytes": [_analyte(a) for a in result.analytes],
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
                          "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},

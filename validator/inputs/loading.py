@@ -18,7 +18,7 @@ import numpy as np
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
 from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
-from .previous import PreviousRun, read_previous
+from .previous import PreviousRun
 from .study import StudyFile, read_study_file
 
 if TYPE_CHECKING:
@@ -52,8 +52,6 @@ class AnalyteData:
     name: str
     calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
     precision: PrecisionData | None = None
-    # the analyte's entry in the previous results.json, as read (checked against the schema)
-    previous: dict[str, Any] | None = field(default=None, repr=False)
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
     entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
 
@@ -194,7 +192,7 @@ def load_study(path: str | Path) -> LoadedStudy:
 
     study = read_study_file(path)
     reader = Reader(study)
-    calibration, loaded, previous, run = None, {}, {}, None
+    calibration, loaded = None, {}
     for entry in registry.REGISTRY:
         if entry.load is not None:
             settings = getattr(study.config, entry.name, None)
@@ -203,10 +201,10 @@ def load_study(path: str | Path) -> LoadedStudy:
                 calibration = loaded[entry.name] if calibration is None else calibration
         elif entry.name in _LEGACY_LOADERS:
             loaded[entry.name] = _LEGACY_LOADERS[entry.name](reader, calibration)
-        elif entry.name == "revalidation":
-            previous, run = read_previous(reader, calibration)
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
-    analytes = tuple(AnalyteData(name, calibration[name], legacy["precision"].get(name), previous.get(name),
+    analytes = tuple(AnalyteData(name, calibration[name], legacy["precision"].get(name),
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
+    # the earlier results.json of a re-validation (it matches at least one analyte, or is refused)
+    run = next((data.run for data in loaded.get("revalidation", {}).values()), None)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

@@ -143,14 +143,6 @@ class PrecisionSection(_Section):
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
 
 
-class RevalidationSection(_Section):
-    previous: DataPath
-    slope_change_max_pct: float = Field(5.0, gt=0, le=100)
-    residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
-    # this run's analyte name -> its name in the previous results.json, for renamed analytes
-    analytes: dict[str, str] = Field(default_factory=dict)
-
-
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -170,7 +162,7 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 # tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
 _OTHER_TABLES = {"study": (StudySection, ...),
                  "criteria": (CriteriaSection, CriteriaSection()),
-                 "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
+                 "precision": (Optional[PrecisionSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}
 _MODELS: dict = {}

@@ -93,7 +93,8 @@ def _series_pct(data, lv):
 
 def _change_data(a, entry: dict) -> dict:
     out = {}
-    prev = a.data.previous
+    prev = a.data.of("revalidation")
+    prev = None if prev is None else prev.entry
     if prev is not None:
         levels = [lv["concentration"] for lv in prev["calibration"]["level_table"]]
         out["revalidation"] = {
