@@ -51,7 +51,8 @@ class Characteristic(Generic[R]):
     ``figures(entry, reading)`` build the dossier's text and SVG figures from the written
     results.json entry alone; ``fragment`` is its template. ``json_path`` writes the result
     inside an earlier entry's section instead of under its own name (the LOQ verification is
-    ``"detection.loq_verification"``).
+    ``"detection.loq_verification"``). ``record(result)``, when given, makes the dataclass that
+    results.json writes for a result that holds more than it shows (the calibration's fit).
     """
 
     name: str
@@ -65,6 +66,7 @@ class Characteristic(Generic[R]):
     figures: Callable[[dict, Reading], Mapping[str, str]] | None = None
     fragment: str | None = None
     json_path: str | None = None
+    record: Callable[[R], Any] | None = None
 
     @property
     def written_at(self) -> str:

@@ -3,21 +3,21 @@ automatic choice of model and weighting; also the inverse prediction used by the
 
 The first registry entry: its data file names the analytes. Parts: :mod:`.settings` (table,
 loader), :mod:`.analysis` (pure, criteria). Its sentences, figures and dossier section are
-still in ``report/text.py``, ``report/plots.py`` and ``dossier.html.j2``, and its results.json
-section is still written by ``results.py``.
+still in ``report/text.py``, ``report/plots.py`` and ``dossier.html.j2``; results.json writes
+its :class:`~.analysis.CalibrationRecord`.
 """
 
 from __future__ import annotations
 
 from .._entry import Assessment, Characteristic
 from . import settings
-from .analysis import (BackCalculated, CalibrationResult, ChoiceStep, OutlierFlag, SampleResult, WeightingCandidate,
-                       analyse_calibration, back_calculate, calibration_criteria, choose_weighting, lack_of_fit,
-                       mandel_test, quantify)
+from .analysis import (BackCalculated, CalibrationRecord, CalibrationResult, ChoiceStep, OutlierFlag, SampleResult,
+                       WeightingCandidate, analyse_calibration, back_calculate, calibration_criteria,
+                       calibration_record, choose_weighting, lack_of_fit, mandel_test, quantify)
 
 __all__ = ["ENTRY", "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
            "SampleResult", "analyse_calibration", "quantify", "lack_of_fit", "mandel_test", "choose_weighting",
-           "back_calculate", "calibration_criteria"]
+           "back_calculate", "calibration_criteria", "CalibrationRecord", "calibration_record"]
 
 
 def assess(ctx) -> Assessment[CalibrationResult]:
@@ -31,4 +31,5 @@ def assess(ctx) -> Assessment[CalibrationResult]:
 
 
 ENTRY: Characteristic[CalibrationResult] = Characteristic(
-    "calibration", "Calibration", assess, settings=settings.CalibrationSection, required=True, load=settings.load)
+    "calibration", "Calibration", assess, settings=settings.CalibrationSection, required=True, load=settings.load,
+    result_types=(CalibrationRecord,), record=calibration_record)

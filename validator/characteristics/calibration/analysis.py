@@ -41,7 +41,7 @@ from ...maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polyn
 __all__ = [
     "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
     "SampleResult", "analyse_calibration", "quantify", "lack_of_fit", "mandel_test",
-    "choose_weighting", "back_calculate", "calibration_criteria",
+    "choose_weighting", "back_calculate", "calibration_criteria", "CalibrationRecord", "calibration_record",
 ]
 
 
@@ -52,12 +52,21 @@ class BackCalculated:
     found: float
     deviation_pct: float | None     # None for nominal 0
     tolerance_pct: float | None
-    passed: bool | None             # None: not judged (nominal 0)
+    passed: bool | None = field(metadata={"json": "pass"})    # None: not judged (nominal 0)
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value of this calibrator is missing (results.json ``not_applicable``)."""
+        if self.nominal == 0:
+            return "nominal 0: the % deviation is not defined and the calibrator is not judged"
+        if self.found is None or not np.isfinite(self.found):
+            return "the response lies beyond the vertex of the quadratic; no concentration corresponds to it"
+        return ""
 
 
 @dataclass(frozen=True)
 class OutlierFlag:
-    index: int
+    index: int = field(metadata={"json": None})
     concentration: float
     response: float
     studentised_residual: float
@@ -566,3 +575,141 @@ def calibration_criteria(cal, crit) -> tuple:
                              "" if not missing(r2) else "not applicable: R² does not exist "
                              "(the responses do not vary)"))
     return tuple(out)
+
+
+# --- the results.json form of a calibration ---------------------------------------------------
+
+
+@dataclass(frozen=True)
+class LevelCount:
+    concentration: float
+    replicates: int
+
+
+@dataclass(frozen=True)
+class CoefficientRecord:
+    """A coefficient as results.json writes it."""
+
+    estimate: float
+    std_error: float
+    ci: ConfidenceInterval = field(metadata={"interval": "pair"})
+    t_statistic: float | None
+    pvalue: float | None = field(metadata={"json": "p_value"})
+
+    @property
+    def null_reason(self) -> str:
+        return "the standard error is zero (exact fit): no t test" if self.t_statistic is None else ""
+
+
+@dataclass(frozen=True)
+class TestRecord:
+    """An applicable test as results.json writes it (``method`` only where several methods exist)."""
+
+    method: str | None = field(metadata={"omit_none": True})
+    statistic: float
+    pvalue: float | None = field(metadata={"json": "p_value"})
+    df: tuple[float, ...] | None = field(metadata={"omit_none": True})
+
+
+@dataclass(frozen=True)
+class MandelRecord(TestRecord):
+    weighting: str | None            # the weighting the test was computed under
+
+
+@dataclass(frozen=True)
+class OutlierRecord:
+    studentised_limit: float | None
+    cooks_limit: float | None
+    flagged: tuple[OutlierFlag, ...]
+    null_reason: str = field(metadata={"json": None})     # why the limits are missing, when they are
+
+
+def _record_test(t: TestResult, with_method: bool = False) -> TestRecord | None:
+    return None if not t.applicable else TestRecord(t.method if with_method else None, t.statistic, t.pvalue, t.df)
+
+
+def _test_field(name: str):
+    """A test's field: ``null`` when it is not applicable, listed under its own name with its reason."""
+    return field(metadata={"null_reason": f"{name}_reason", "null_item": name})
+
+
+@dataclass(frozen=True, kw_only=True)
+class CalibrationRecord:
+    """A calibration as results.json writes it (field order and ``metadata`` give the form); the
+    reason of each missing value is declared beside it."""
+
+    model: str
+    weighting: str
+    through_origin: bool
+    model_choice: str
+    n: int
+    levels: int
+    level_table: tuple[LevelCount, ...]
+    df_resid: int
+    confidence_level: float
+    t_quantile: float
+    coefficients: dict[str, CoefficientRecord]
+    residual_sd: float
+    r_squared: float | None = field(metadata={"null_reason": "r_squared_reason"})
+    r: float | None = field(metadata={"null_reason": "r_reason"})
+    lack_of_fit: TestRecord | None = _test_field("lack_of_fit")
+    mandel: MandelRecord | None = _test_field("mandel")
+    choice_steps: tuple[ChoiceStep, ...]
+    normality: TestRecord | None = _test_field("normality")
+    heteroscedasticity: TestRecord | None = _test_field("heteroscedasticity")
+    levene: TestRecord | None = _test_field("levene")
+    intercept_test: TestRecord | None = _test_field("intercept_test")
+    weighting_candidates: tuple[WeightingCandidate, ...]
+    outliers: OutlierRecord
+    back_calculated: tuple[BackCalculated, ...]
+    fraction_within_tolerance: float | None = field(metadata={"null_reason": "fraction_reason"})
+    sensitivity_ratio: float | None = field(metadata={"null_reason": "sensitivity_reason"})
+    residuals: tuple[float, ...]
+    r_reason: str = field(metadata={"json": None})
+    lack_of_fit_reason: str = field(default="", metadata={"json": None})
+    mandel_reason: str = field(default="", metadata={"json": None})
+    normality_reason: str = field(default="", metadata={"json": None})
+    heteroscedasticity_reason: str = field(default="", metadata={"json": None})
+    levene_reason: str = field(default="", metadata={"json": None})
+    intercept_test_reason: str = field(default="", metadata={"json": None})
+
+    r_squared_reason = "the responses do not vary about their mean: R² does not exist"
+    fraction_reason = "no calibrator with a non-zero nominal value"
+    sensitivity_reason = "the slope of the calibration function is zero at both ends of the range"
+
+
+def calibration_record(cal: CalibrationResult) -> CalibrationRecord:
+    """The results.json form of ``cal``: the fit's summary, the tests, the calibrators.
+
+    r = sign(slope) sqrt(R²), for a straight line only (R² >= 0).
+    """
+    fit = cal.fit
+    r = None
+    if fit.r_squared >= 0 and "slope" in fit.coefficients and fit.n_params <= 2:
+        r = (1 if fit.coefficients["slope"].estimate >= 0 else -1) * fit.r_squared ** 0.5
+    mandel = cal.mandel
+    tests = {"lack_of_fit": cal.lack_of_fit, "mandel": mandel, "normality": cal.normality,
+             "heteroscedasticity": cal.heteroscedasticity, "levene": cal.levene, "intercept_test": cal.intercept_test}
+    return CalibrationRecord(
+        model=cal.model, weighting=cal.weighting, through_origin=cal.through_origin, model_choice=cal.model_choice,
+        n=fit.n, levels=len(cal.levels),
+        level_table=tuple(LevelCount(c, k) for c, k in zip(cal.levels, cal.replicates)),
+        df_resid=fit.df_resid, confidence_level=1 - fit.alpha, t_quantile=fit.t_quantile,
+        coefficients={name: CoefficientRecord(c.estimate, c.std_error, c.ci, c.statistic, c.pvalue)
+                      for name, c in fit.coefficients.items()},
+        residual_sd=fit.residual_sd, r_squared=fit.r_squared, r=r,
+        lack_of_fit=_record_test(cal.lack_of_fit),
+        mandel=None if not mandel.applicable else MandelRecord(None, mandel.statistic, mandel.pvalue, mandel.df,
+                                                               cal.mandel_weighting),
+        choice_steps=cal.choice_steps, normality=_record_test(cal.normality, True),
+        heteroscedasticity=_record_test(cal.heteroscedasticity, True), levene=_record_test(cal.levene, True),
+        intercept_test=_record_test(cal.intercept_test), weighting_candidates=cal.weighting_candidates,
+        outliers=OutlierRecord(cal.studentised_limit, cal.cooks_limit, cal.outliers,
+                               "the fit is exact (zero residual SD): residuals cannot be studentised" if fit.exact
+                               else "needs at least one residual degree of freedom after leaving a point out "
+                               "(n - p - 1 >= 1)"),
+        back_calculated=cal.back_calculated, fraction_within_tolerance=cal.fraction_within_tolerance,
+        sensitivity_ratio=cal.sensitivity_ratio, residuals=tuple(fit.residuals),
+        r_reason=("r is reported for a straight line only; see r_squared" if fit.n_params > 2
+                  else "R² does not exist for these data"),
+        **{f"{name}_reason": t.reason for name, t in tests.items() if not t.applicable})
