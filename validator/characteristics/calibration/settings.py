@@ -89,7 +89,8 @@ def load(reader, settings: CalibrationSection, analytes=None) -> dict[str, Calib
         if xi < 0:
             raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
                             file=table.path, row=table.rows[i], column="concentration", value=xi)
-    names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [reader.study.config.study.id] * len(table)
+    default_name = reader.study.config.study.id          # one analyte, named by the study
+    names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [default_name] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     order, groups = _group(names)
     folded = {}

@@ -8,7 +8,8 @@ __all__ = ["sentences"]
 
 
 def sentences(det: dict, reading) -> dict[str, str]:
-    """``limits``: LOD and LOQ on the reported basis; ``iso``: the ISO 11843-2 critical and minimum detectable values."""
+    """``limits``: LOD and LOQ on the reported basis; ``iso``: ISO 11843-2's critical and minimum
+    detectable values."""
     unit = reading.unit
     out = {}
     rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])

@@ -555,7 +555,8 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
                        "summary statistics (slope, its standard error, residual SD and n)")
     return RevalidationResult(
         refit_model=model, refit_weighting=weighting, refit_through_origin=origin,
-        current_own_choice=CalibrationChoice(*own), slope=slope, intercept=RunPair(intercept_previous, intercept_current),
+        current_own_choice=CalibrationChoice(*own), slope=slope,
+        intercept=RunPair(intercept_previous, intercept_current),
         residual_sd=ResidualSdChange(s1, s2, tuple(sd_df), ratio, F, p, residual_sd_ratio_max),
         lod=RunPair(previous.lod, current.lod), loq=RunPair(previous.loq, current.loq), recovery=rec,
         repeatability=tuple(rep), verdict=verdict, reasons=tuple(reasons))

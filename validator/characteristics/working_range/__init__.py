@@ -12,7 +12,8 @@ from __future__ import annotations
 from .. import _legacy, calibration, detection, recovery
 from .._entry import Assessment, Characteristic
 from . import presentation
-from .analysis import LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range, working_range_criterion
+from .analysis import (LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range,
+                       working_range_criterion)
 
 __all__ = ["ENTRY", "LOQ_CHECK", "WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq",
            "working_range_criterion", "loq_criterion"]
