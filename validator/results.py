@@ -101,7 +101,14 @@ class Serialiser:
         if dataclasses.is_dataclass(value):
             return self._object(value, path, owner)
         if isinstance(value, (tuple, list)):
-            return [self._value(v, f"{path}.{i}", owner) for i, v in enumerate(value)]
+            out = []
+            for i, v in enumerate(value):
+                if type(v) is float:        # the common case (a million residuals) without a path
+                    v = num(v)
+                    out.append(self._null(owner) if v is None else v)
+                else:
+                    out.append(self._value(v, f"{path}.{i}", owner))
+            return out
         if isinstance(value, dict):
             return {k: self._value(v, f"{path}.{k}", owner) for k, v in value.items()}
         raise TypeError(f"results.json cannot hold {type(value).__name__} at {path}")

@@ -709,7 +709,7 @@ def calibration_record(cal: CalibrationResult) -> CalibrationRecord:
                                else "needs at least one residual degree of freedom after leaving a point out "
                                "(n - p - 1 >= 1)"),
         back_calculated=cal.back_calculated, fraction_within_tolerance=cal.fraction_within_tolerance,
-        sensitivity_ratio=cal.sensitivity_ratio, residuals=tuple(fit.residuals),
+        sensitivity_ratio=cal.sensitivity_ratio, residuals=tuple(fit.residuals.tolist()),
         r_reason=("r is reported for a straight line only; see r_squared" if fit.n_params > 2
                   else "R² does not exist for these data"),
         **{f"{name}_reason": t.reason for name, t in tests.items() if not t.applicable})
