@@ -465,11 +465,11 @@ def design_deviations(design, analytes) -> list:
         if design.precision is not None and a.precision is not None:
             out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
         for name, planned, seen in (
-                ("blanks.count", design.blanks and design.blanks.count, a.blanks),
+                ("blanks.count", design.blanks and design.blanks.count, a.of("blanks")),
                 ("reference_material.replicates",
                  design.reference_material and design.reference_material.replicates, a.of("reference_material")),
                 ("comparison.samples", design.comparison and design.comparison.samples,
-                 None if a.comparison is None else a.comparison[0])):
+                 None if a.of("comparison") is None else a.of("comparison").samples)):
             if planned and seen is not None and len(seen) != planned:
                 out.append(Deviation(f"design.{name}", planned, len(seen), a.name))
     return out

@@ -9,20 +9,22 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material
+from .characteristics import (_legacy, calibration, comparison, detection, recovery, reference_material,
+                              revalidation, samples, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
-    _legacy.CALIBRATION,             # first: its data name the analytes
-    _legacy.SAMPLES,
-    _legacy.DETECTION,
+    calibration.ENTRY,               # first: its data name the analytes
+    samples.ENTRY,
+    detection.BLANKS,
+    detection.ENTRY,
     recovery.ENTRY,
     _legacy.PRECISION,
     reference_material.ENTRY,
-    _legacy.LOQ_CHECK,
-    _legacy.WORKING_RANGE,
-    _legacy.COMPARISON,
-    _legacy.REVALIDATION,
+    working_range.LOQ_CHECK,
+    working_range.ENTRY,
+    comparison.ENTRY,
+    revalidation.ENTRY,
 )

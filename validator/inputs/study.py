@@ -36,8 +36,8 @@ from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
 from ..protocol import DesignSection, ProtocolSection
 
-__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
-           "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS",
+           "MAX_STUDY_BYTES", "MAX_NESTING", "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
 
 MAX_STUDY_BYTES = 1024 * 1024    # a study file is a few kB; 1 MiB leaves room for long notes
@@ -116,48 +116,12 @@ class StudySection(_Section):
         return self
 
 
-class CalibrationSection(_Section):
-    data: DataPath
-    model: Literal["linear", "quadratic", "auto"] = "linear"
-    weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
-    through_origin: bool = False
-
-    @model_validator(mode="after")
-    def _origin_linear(self):
-        if self.through_origin and self.model != "linear":
-            raise ValueError('through_origin = true is only allowed with model = "linear"')
-        return self
-
-
-class SamplesSection(_Section):
-    data: DataPath
-
-
 class CriteriaSection(_Section):
     alpha: float = _probability(0.05)
     back_calculation_tolerance_pct: float = Field(15.0, gt=0, le=100)
     lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
-
-
-class BlanksSection(_Section):
-    data: DataPath
-
-
-class DetectionSection(_Section):
-    lod_factor: float = Field(3.3, gt=0, le=100)
-    loq_factor: float = Field(10.0, gt=0, le=100)
-    readings_per_sample: int = Field(1, ge=1, le=1000)
-    beta: float = _probability(0.05)
-    reporting_basis: Literal["ich-residual-sd", "ich-intercept-sd", "blank-sd"] = "ich-residual-sd"
-    loq_rsd_max_pct: float = Field(20.0, gt=0, le=100)
-
-    @model_validator(mode="after")
-    def _order(self):
-        if self.loq_factor <= self.lod_factor:
-            raise ValueError("loq_factor must be larger than lod_factor")
-        return self
 
 
 def check_range(v, name: str = "range_pct"):
@@ -187,28 +151,6 @@ class PrecisionSection(_Section):
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
 
 
-class RevalidationSection(_Section):
-    previous: DataPath
-    slope_change_max_pct: float = Field(5.0, gt=0, le=100)
-    residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
-    # this run's analyte name -> its name in the previous results.json, for renamed analytes
-    analytes: dict[str, str] = Field(default_factory=dict)
-
-
-class ComparisonSection(_Section):
-    data: DataPath
-    error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
-    slope_limits: Optional[list[float]] = None
-    intercept_limits: Optional[list[float]] = None
-    percentage_differences: bool = False
-
-    @model_validator(mode="after")
-    def _limits(self):
-        for name in ("slope_limits", "intercept_limits"):
-            check_range(getattr(self, name), name)
-        return self
-
-
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -226,11 +168,9 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 
 
 # tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
-_OTHER_TABLES = {"study": (StudySection, ...), "calibration": (CalibrationSection, ...),
-                 "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
-                 "blanks": (Optional[BlanksSection], None), "detection": (DetectionSection, DetectionSection()),
-                 "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
-                 "comparison": (Optional[ComparisonSection], None),
+_OTHER_TABLES = {"study": (StudySection, ...),
+                 "criteria": (CriteriaSection, CriteriaSection()),
+                 "precision": (Optional[PrecisionSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}
 _MODELS: dict = {}
