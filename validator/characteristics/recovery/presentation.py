@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ...report.plots import PALETTE, figure, points, svg
+from ...report import numbers as N
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -11,14 +12,14 @@ __all__ = ["sentences", "figures"]
 def sentences(rec: dict, reading) -> dict[str, str]:
     """``mean``: the overall mean and the levels outside their range; ``t_test``: the bias test per level."""
     failed = [lvl for lvl in rec["levels"] if not lvl["pass"]]
-    mean = (f"Mean recovery over all {rec['n']} spiked results is {fmt(rec['overall_mean_pct'], 4)} %. "
+    mean = (f"Mean recovery over all {rec['n']} spiked results is {N.by_rule(rec['overall_mean_pct'], 'percent')} %. "
             + ("Every level's mean lies inside its acceptance range." if not failed else
                "The mean recovery is outside its acceptance range at added "
-               + ", ".join(fmt(lvl["added"]) for lvl in failed) + "."))
+               + ", ".join(fmt(lvl["added"]) for lvl in failed) + f" {reading.unit}."))
     alpha = reading.alpha
     sig = [lvl for lvl in rec["levels"] if lvl["p_value"] is not None and lvl["p_value"] < alpha]
     t_test = ("The t test against 100 % finds a significant bias at added "
-              + ", ".join(fmt(lvl["added"]) for lvl in sig)
+              + ", ".join(fmt(lvl["added"]) for lvl in sig) + f" {reading.unit}"
               + f" (alpha = {alpha:g}); judge whether its size matters against the range."
               if sig else f"The t test against 100 % finds no significant bias at any level (alpha = {alpha:g}).")
     return {"mean": mean, "t_test": t_test}
