@@ -17,7 +17,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
@@ -53,8 +53,8 @@ class CarryOver:
     (the IS part is then not judged).
     """
 
-    analyte_percent: tuple                # each blank injection, % of the mean LLOQ analyte response
-    internal_standard_percent: tuple | None
+    analyte_percent: tuple[float, ...]    # each blank injection, % of the mean LLOQ analyte response
+    internal_standard_percent: tuple[float, ...] | None
     max_analyte_percent: float            # the largest of analyte_percent
     max_internal_standard_percent: float | None
     analyte_limit_percent: float
@@ -115,7 +115,7 @@ class SelectivityLot:
 class Selectivity:
     """Blank-matrix lots: interference as % of the LLOQ and IS responses, and the fraction of lots passing."""
 
-    lots: tuple
+    lots: tuple[SelectivityLot, ...]
     n_lots: int
     n_lots_passed: int
     fraction_passed: float
@@ -197,7 +197,7 @@ class Stability:
     mean: float | None
     reference_mean: float | None
     deviation_percent: float | None
-    interval: ConfidenceInterval | None
+    interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
     df: float | None
     limit_percent: float
     judged_on: str
@@ -303,7 +303,7 @@ class DilutionIntegrity:
     dilution_factor: float
     nominal: float
     n: int
-    back_calculated: tuple               # measured x dilution factor
+    back_calculated: tuple[float, ...]   # measured x dilution factor
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None
@@ -372,7 +372,7 @@ class ReanalysedSample:
 
 @dataclass(frozen=True)
 class IncurredSampleReanalysis:
-    samples: tuple
+    samples: tuple[ReanalysedSample, ...]
     n: int
     n_within: int
     n_undefined: int
