@@ -26,6 +26,8 @@ from .criteria import Criterion
 from .characteristics.revalidation import RevalidationResult, RunSummary, assess_revalidation, run_summary
 from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
 from .inputs.loading import AnalyteData, LoadedStudy
+from .characteristics import sector_registry
+from .characteristics.limit_of_blank import DetectionCapability
 from .inputs.study import StudyConfig
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "AnalyteContext",
@@ -119,6 +121,8 @@ class AnalyteResult:
     reference_material: ReferenceMaterialResult | None = None
     revalidation: RevalidationResult | None = None
     comparison: ComparisonResult | None = None
+    # the sector characteristics (validator.characteristics.sector_registry)
+    limit_of_blank: DetectionCapability | None = None
 
     @property
     def characteristics(self) -> tuple:
@@ -135,6 +139,7 @@ class AnalyteResult:
             out.append("revalidation")
         if self.comparison is not None:
             out.append("comparison")
+        out.extend(name for name in sector_registry.NAMES if getattr(self, name) is not None)
         return tuple(out)
 
     @property
@@ -177,6 +182,7 @@ class AnalyteContext:
     working_range: WorkingRange | None = None
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
+    limit_of_blank: DetectionCapability | None = None
     criteria: tuple[Criterion, ...] = ()
     # characteristics without a field of their own here (added to the registry only), by name
     others: tuple[tuple[str, Assessment], ...] = ()
@@ -318,6 +324,7 @@ REGISTRY: tuple[Characteristic, ...] = (
     Characteristic("reference_material", _reference_material),
     Characteristic("loq_check", _loq_check),
     Characteristic("working_range", _working_range),
+    *(Characteristic(p.NAME, p.assess) for p in sector_registry.PACKAGES),
     Characteristic("comparison", _comparison),
     Characteristic("revalidation", _revalidation),
 )
@@ -341,7 +348,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                          residual_views=residual_series(cal.fit), detection=ctx.detection,
                          working_range=ctx.working_range, loq_check=ctx.loq_check, recovery=ctx.recovery,
                          precision=ctx.precision, reference_material=ctx.reference_material,
-                         revalidation=ctx.revalidation, comparison=ctx.comparison)
+                         revalidation=ctx.revalidation, comparison=ctx.comparison,
+                         **{name: getattr(ctx, name) for name in sector_registry.NAMES})
 
 
 def _revalidation_criteria(reval, rc) -> list:

@@ -31,6 +31,7 @@ from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
 from .criteria import Criterion
 from .characteristics.working_range import LoqCheck, WorkingRange
+from .characteristics import sector_registry
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -261,7 +262,8 @@ def _calibration(a):
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
               "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
               "reference_material": (ReferenceMaterialResult,), "comparison": (ComparisonResult,),
-              "criteria": (Criterion,)}
+              "criteria": (Criterion,),
+              **{p.NAME: p.RESULT_TYPES for p in sector_registry.PACKAGES}}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -431,6 +433,9 @@ def _analyte(a, previous=None):
                                else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
+        # the sector characteristics, each only when assessed (results.json unchanged without them)
+        **{name: serialise(getattr(a, name), name) for name in sector_registry.NAMES
+           if getattr(a, name) is not None},
         "criteria": serialise(a.criteria, "criteria"),
         "diagnostics": list(a.calibration.diagnostics),
     }
@@ -457,6 +462,8 @@ def build_results(result, *, generated_at: str) -> dict:
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
         "analytes": [_analyte(a, loaded.previous) for a in result.analytes],
+        **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
+           if loaded.config.study.guideline is not None else {}),
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
                          "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},
@@ -464,6 +471,15 @@ def build_results(result, *, generated_at: str) -> dict:
             "matched_analytes": [{"analyte": new, "previous_analyte": old} for new, old in loaded.previous.matched],
             "unmatched_analytes": list(loaded.previous.unmatched)},
     }
+
+
+def _guideline(name: str, uses) -> dict:
+    """``[study] guideline``: the preset, and each of its values used or overridden by the study."""
+    from .sector.presets import PRESETS
+
+    return {"name": name, "title": PRESETS[name].title,
+            "values": [{"key": u.key, "preset_value": u.preset_value, "study_value": u.study_value,
+                        "used": u.used, "source": u.source, "from_memory": u.from_memory} for u in uses]}
 
 
 _ITEM = json.JSONEncoder(ensure_ascii=False, allow_nan=False)

@@ -85,6 +85,8 @@ class AnalyteData:
     comparison: ComparisonData | None = field(default=None, repr=False)
     # the analyte's entry in the previous results.json, as read (checked against the schema)
     previous: dict[str, Any] | None = field(default=None, repr=False)
+    # the data of the sector characteristics (validator.characteristics.sector_registry), by name
+    characteristic_data: dict[str, Any] = field(default_factory=dict, repr=False)
 
 
 @dataclass(frozen=True)
@@ -357,6 +359,18 @@ def _comparison(reader, analytes):
                         "comparison result", prepare, make)
 
 
+def _sector(reader, analytes) -> dict:
+    """``{characteristic: {analyte: data}}`` for each sector characteristic the study declares."""
+    from ..characteristics.sector_registry import PACKAGES
+
+    out = {}
+    for package in PACKAGES:
+        settings = getattr(reader.study.config, package.NAME)
+        if settings is not None:
+            out[package.NAME] = package.load(reader, settings, analytes)
+    return out
+
+
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files."""
     study = read_study_file(path)
@@ -368,9 +382,11 @@ def load_study(path: str | Path) -> LoadedStudy:
     precision = _precision(reader, calibration)
     crm = _reference_material(reader, calibration)
     comparison = _comparison(reader, calibration)
+    sector = _sector(reader, calibration)
     previous, run = read_previous(reader, calibration)
     analytes = tuple(AnalyteData(name, calibration[name], samples.get(name, ()), blanks.get(name),
                                  recovery.get(name), precision.get(name), crm.get(name),
-                                 comparison.get(name), previous.get(name))
+                                 comparison.get(name), previous.get(name),
+                                 {entry: data[name] for entry, data in sector.items() if name in data})
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

@@ -10,12 +10,14 @@ compute.
 
 from __future__ import annotations
 
-from importlib import resources
+from importlib import import_module, resources
 from pathlib import Path
 
 import jinja2
 
+from ..characteristics.sector_registry import PACKAGES as SECTOR_PACKAGES
 from .plots import PALETTE, figures_for_all
+from .reading import Reading
 from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
 
@@ -111,17 +113,25 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i])}
                                for i, a in enumerate(result.analytes)])
     analytes = []
+    reading = Reading(alpha=alpha, unit=study["concentration_unit"])
     for i, a in enumerate(results["analytes"]):
-        analytes.append({"index": i, "data": a, "figures": figures[i],
-                         "text": {**calibration_sentences(a, alpha, study["concentration_unit"]),
-                                  **characteristic_sentences(a, alpha, study["concentration_unit"])}})
+        text = {**calibration_sentences(a, alpha, study["concentration_unit"]),
+                **characteristic_sentences(a, alpha, study["concentration_unit"])}
+        figs = dict(figures[i])
+        for package in SECTOR_PACKAGES:         # sentences and figures from their results.json entry only
+            if a.get(package.NAME) is not None:
+                presentation = import_module(package.PRESENTATION)
+                text[package.NAME] = dict(presentation.sentences(a[package.NAME], reading))
+                figs[package.NAME] = dict(presentation.figures(a[package.NAME], reading))
+        analytes.append({"index": i, "data": a, "figures": figs, "text": text})
+    sector = [{"name": p.NAME, "title": p.TITLE, "fragment": p.FRAGMENT} for p in SECTOR_PACKAGES]
     summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
         r=results, study=study, analytes=analytes, summary=summary, alpha=alpha,
-        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector=sector,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
 

@@ -1,0 +1,113 @@
+"""The sector characteristics (issue #15) wired end to end: study section, loader, criteria,
+results.json (validated against the schema), dossier sentences, guideline presets.
+
+Expected values are hand computations named beside them, or the pure functions of
+validator.sector (whose own tests check them against scipy, statsmodels and exact arithmetic).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import jsonschema
+import numpy as np
+import pytest
+from scipy import stats
+
+from validator.cli import main
+from validator.engine import analyse_study
+from validator.errors import DataError, StudyError
+from validator.inputs.loading import load_study
+from validator.results import build_results, dumps, load_schema
+
+
+def _run(study, outside, formats="json"):
+    out = outside / "out"
+    code = main(["run", str(study), "--out", str(out), "--format", formats])
+    results = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
+    return code, results, out
+
+
+def _criteria(results, prefix):
+    return [c for c in results["analytes"][0]["criteria"] if c["id"].startswith(prefix)]
+
+
+# ------------------------------------------------------------------ limit of blank (CLSI EP17-A2)
+BLANKS = [0.01 * i for i in range(60)]          # 0.00, 0.01, ..., 0.59: rank 57.5 -> (0.56 + 0.57)/2
+LOW = {"L1": [0.9, 1.1, 1.0, 0.95, 1.05, 1.0], "L2": [2.1, 1.9, 2.0, 2.05, 1.95, 2.0]}
+
+
+def _lob_files():
+    blanks = "found\n" + "".join(f"{v:.2f}\n" for v in BLANKS)
+    low = "sample,found,nominal\n" + "".join(f"{s},{v},{1.0 if s == 'L1' else 2.0}\n"
+                                             for s, vs in LOW.items() for v in vs)
+    from conftest import CALIBRATION
+    return {"calibration.csv": CALIBRATION, "blanks.csv": blanks, "low.csv": low}
+
+
+LOB_BODY = """\
+[calibration]
+data = "calibration.csv"
+[limit_of_blank]
+blanks = "blanks.csv"
+low_samples = "low.csv"
+loq_max_cv_pct = 10
+lob_max = 0.6
+lod_max = 0.6
+"""
+
+
+def test_limit_of_blank_end_to_end(make_study, outside):
+    code, results, out = _run(make_study(LOB_BODY, _lob_files()), outside, "json,html")
+    entry = results["analytes"][0]["limit_of_blank"]
+    # hand computation: rank 0.5 + 0.95 x 60 = 57.5, the mean of the 57th and 58th sorted blanks
+    assert entry["lob"]["lots"][0]["rank"] == pytest.approx(57.5)
+    assert entry["lob"]["value"] == pytest.approx((0.56 + 0.57) / 2, abs=1e-12)
+    # hand computation: SD_L pooled over the two samples (5 df each), c_p = 1.645 / (1 - 1/(4 (12 - 2)))
+    pooled = math.sqrt((np.var(LOW["L1"], ddof=1) + np.var(LOW["L2"], ddof=1)) / 2)
+    cp = 1.645 / (1 - 1 / (4 * (12 - 2)))
+    assert entry["lod"]["lots"][0]["coverage_factor"] == pytest.approx(cp, rel=1e-12)
+    assert entry["lod"]["value"] == pytest.approx(0.565 + cp * pooled, rel=1e-12)
+    # LoQ: both levels meet CV <= 10 %, so the lowest (nominal 1), which lies above the LoD
+    assert entry["loq"]["value"] == 1.0
+    by_id = {c["id"]: c for c in _criteria(results, "limit-of")}
+    assert by_id["limit-of-blank"]["pass"] is True           # 0.565 <= 0.6
+    assert by_id["limit-of-detection"]["pass"] is False       # LoD above 0.6
+    assert "limit-of-quantitation" not in by_id               # no loq_max declared: no criterion
+    assert "limit_of_blank" in results["analytes"][0]["characteristics_assessed"]
+    assert results["analytes"][0]["verdict"] == "fail"
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "Limit of blank 0.565 mg/L" in html
+    assert 'data-src="analytes.0.limit_of_blank.lob.value"' in html
+
+
+def test_limit_of_blank_without_low_samples_is_not_shown_so_not_passed(make_study, outside):
+    files = _lob_files()
+    body = LOB_BODY.replace('low_samples = "low.csv"\n', "").replace("loq_max_cv_pct = 10\n", "")
+    _, results, _ = _run(make_study(body, files), outside)
+    entry = results["analytes"][0]["limit_of_blank"]
+    assert entry["lod"] is None and entry["loq"] is None
+    lod = {c["id"]: c for c in _criteria(results, "limit-of")}["limit-of-detection"]
+    assert lod["pass"] is None and "no low-level results" in lod["note"]
+    items = {e["item"]: e["reason"] for e in results["analytes"][0]["not_applicable"]}
+    assert "no low-level results" in items["limit_of_blank.lod"]
+    assert results["analytes"][0]["verdict"] == "incomplete"
+
+
+def test_limit_of_blank_loader_errors_name_file_row_column_value(make_study):
+    files = _lob_files()
+    files["blanks.csv"] = "found\n0.1\n0.2x\n"
+    with pytest.raises(DataError) as err:
+        load_study(make_study(LOB_BODY, files))
+    assert "blanks.csv" in str(err.value) and "row 3" in str(err.value) and '"found"' in str(err.value)
+    files = _lob_files()
+    files["low.csv"] = "sample,found,nominal\nL1,1.0,1.0\nL1,1.1,1.5\n"
+    with pytest.raises(DataError, match=r'low.csv, row 3, column "nominal".*one nominal per sample'):
+        load_study(make_study(LOB_BODY, files))
+
+
+def test_limit_of_blank_unknown_key_is_refused(make_study):
+    with pytest.raises(StudyError, match="lod_maximum"):
+        load_study(make_study(LOB_BODY + "lod_maximum = 1\n", _lob_files()))
