@@ -65,6 +65,7 @@ def written_keys() -> set:
             keys.add(node.slice.value)
     for result_types in SERIALISED.values():
         keys.update(json_fields(*result_types))
+    keys.update(SERIALISED)         # the section names the Serialiser writes under (sector ones by name)
     for path, name in WRITERS:
         tree = ast.parse(path.read_text(encoding="utf-8"))
         function = next(n for n in tree.body if getattr(n, "name", "") == name)

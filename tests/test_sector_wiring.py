@@ -22,8 +22,8 @@ from validator.inputs.loading import load_study
 from validator.results import build_results, dumps, load_schema
 
 
-def _run(study, outside, formats="json"):
-    out = outside / "out"
+def _run(study, outside, formats="json", name="out"):
+    out = outside / name
     code = main(["run", str(study), "--out", str(out), "--format", formats])
     results = json.loads((out / "results.json").read_text(encoding="utf-8"))
     jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
@@ -111,3 +111,101 @@ def test_limit_of_blank_loader_errors_name_file_row_column_value(make_study):
 def test_limit_of_blank_unknown_key_is_refused(make_study):
     with pytest.raises(StudyError, match="lod_maximum"):
         load_study(make_study(LOB_BODY + "lod_maximum = 1\n", _lob_files()))
+
+
+# ------------------------------------------------------------------ incurred-sample reanalysis
+ISR = [("S1", 100, 110), ("S2", 50, 45), ("S3", 20, 30), ("S4", 80, 80), ("S5", 10, 14), ("S6", 200, 190)]
+ISR_BODY = """\
+[calibration]
+data = "calibration.csv"
+[reanalysis]
+data = "isr.csv"
+"""
+
+
+def _isr_files(rows=ISR):
+    from conftest import CALIBRATION
+    return {"calibration.csv": CALIBRATION,
+            "isr.csv": "sample,original,repeat\n" + "".join(f"{s},{o},{r}\n" for s, o, r in rows)}
+
+
+def test_reanalysis_by_hand_and_exact_two_thirds(make_study, outside):
+    code, results, out = _run(make_study(ISR_BODY, _isr_files()), outside, "json,html")
+    entry = results["analytes"][0]["reanalysis"]
+    # hand computation: 100 (r - o) / ((r + o)/2): S1 10/105, S2 -5/47.5, S3 10/25, S4 0, S5 4/12, S6 -10/195
+    expected = [1000 / 105, -500 / 47.5, 1000 / 25, 0.0, 400 / 12, -1000 / 195]
+    assert [s["difference_percent"] for s in entry["samples"]] == pytest.approx(expected, rel=1e-12)
+    assert [s["sample"] for s in entry["samples"]] == ["S1", "S2", "S3", "S4", "S5", "S6"]
+    # S3 (40 %) and S5 (33.3 %) lie outside +/-20 %: 4 of 6 within, exactly two-thirds (the default) -> met
+    assert (entry["n_within"], entry["n"]) == (4, 6)
+    crit = _criteria(results, "incurred-sample-reanalysis")[0]
+    assert crit["pass"] is True and crit["value"] == pytest.approx(4 / 6)
+    defaults = {d["key"] for d in results["defaults_applied"]}
+    assert {"reanalysis.limit_pct", "reanalysis.min_fraction"} <= defaults
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "4 of 6 repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    # 0.67 is not two-thirds: 4/6 = 0.6667 < 0.67 fails (compared exactly)
+    _, results, _ = _run(make_study(ISR_BODY + "min_fraction = 0.67\n", _isr_files()), outside, name="b")
+    assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is False
+
+
+def test_reanalysis_repeated_sample_is_an_error_at_its_row(make_study):
+    rows = ISR + [("S2", 1, 1)]
+    with pytest.raises(DataError, match=r'isr.csv, row 8, column "sample".*"S2" appears again \(first at row 3\)'):
+        load_study(make_study(ISR_BODY, _isr_files(rows)))
+
+
+# ------------------------------------------------------------------ guideline presets
+def test_guideline_preset_supplies_defaults_and_the_study_overrides(make_study, outside):
+    head_m10 = __import__("conftest").STUDY_HEAD + 'guideline = "ich-m10"\n'
+    _, results, out = _run(make_study(ISR_BODY + "limit_pct = 30\n", _isr_files(), head=head_m10), outside, "json,html")
+    g = results["guideline"]
+    assert g["name"] == "ich-m10"
+    values = {v["key"]: v for v in g["values"]}
+    # only the sections the study declares: no selectivity, stability, ... values
+    assert set(values) == {"reanalysis.limit_pct", "reanalysis.min_fraction"}
+    assert values["reanalysis.limit_pct"]["used"] is False and values["reanalysis.limit_pct"]["study_value"] == 30
+    assert values["reanalysis.min_fraction"]["used"] is True and values["reanalysis.min_fraction"]["study_value"] is None
+    assert all(v["source"].startswith("ICH M10") and v["from_memory"] for v in g["values"])
+    defaults = {d["key"] for d in results["defaults_applied"]}
+    assert "reanalysis.min_fraction" not in defaults and "reanalysis.limit_pct" not in defaults
+    entry = results["analytes"][0]["reanalysis"]
+    assert entry["limit_percent"] == 30 and entry["min_fraction"] == pytest.approx(2 / 3)
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "Guideline preset" in html and "the study's own value overrides the preset" in html
+    assert "preset-supplied" in html and "must confirm every preset value" in html
+
+
+def test_every_preset_key_is_a_key_of_its_section():
+    from validator.inputs.study import StudyConfig
+    from validator.sector.presets import PRESETS
+
+    for preset in PRESETS.values():
+        for value in preset.values:
+            section, key = value.key.split(".", 1)
+            model = StudyConfig.model_fields[section].annotation.__args__[0]
+            assert key in model.model_fields, value.key
+            model.model_validate({**{k: "x" for k in ()}, **_required(model), key: value.value})
+            assert value.source and (value.from_memory or "sec." in value.source)
+
+
+def _required(model) -> dict:
+    """Values for a section's required keys (paths), so one preset value can be validated alone."""
+    return {name: "data.csv" for name, f in model.model_fields.items() if f.is_required()}
+
+
+def test_unknown_guideline_is_refused(make_study):
+    head = __import__("conftest").STUDY_HEAD + 'guideline = "ich-m99"\n'
+    with pytest.raises(StudyError, match="guideline"):
+        load_study(make_study(ISR_BODY, _isr_files(), head=head))
+
+
+def test_studies_without_sector_sections_are_unchanged(make_study):
+    """No key of the sector characteristics appears without their sections (results.json byte-identical)."""
+    from validator.characteristics.sector_registry import NAMES
+
+    loaded = load_study(make_study())
+    results = build_results(analyse_study(loaded), generated_at="2026-01-01T00:00:00Z")
+    assert "guideline" not in results
+    assert not set(NAMES) & set(results["analytes"][0])
+    assert not set(NAMES) & set(results["analytes"][0]["characteristics_assessed"])

@@ -28,6 +28,7 @@ from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, w
 from .inputs.loading import AnalyteData, LoadedStudy
 from .characteristics import sector_registry
 from .characteristics.limit_of_blank import DetectionCapability
+from .characteristics.reanalysis import IncurredSampleReanalysis
 from .inputs.study import StudyConfig
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "AnalyteContext",
@@ -123,6 +124,7 @@ class AnalyteResult:
     comparison: ComparisonResult | None = None
     # the sector characteristics (validator.characteristics.sector_registry)
     limit_of_blank: DetectionCapability | None = None
+    reanalysis: IncurredSampleReanalysis | None = None
 
     @property
     def characteristics(self) -> tuple:
@@ -183,6 +185,7 @@ class AnalyteContext:
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     limit_of_blank: DetectionCapability | None = None
+    reanalysis: IncurredSampleReanalysis | None = None
     criteria: tuple[Criterion, ...] = ()
     # characteristics without a field of their own here (added to the registry only), by name
     others: tuple[tuple[str, Assessment], ...] = ()

@@ -9,9 +9,9 @@ take them from :data:`PACKAGES`.
 
 from __future__ import annotations
 
-from . import limit_of_blank
+from . import limit_of_blank, reanalysis
 
 __all__ = ["PACKAGES", "NAMES"]
 
-PACKAGES = (limit_of_blank,)
+PACKAGES = (limit_of_blank, reanalysis)
 NAMES = tuple(p.NAME for p in PACKAGES)

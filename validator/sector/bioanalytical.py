@@ -368,6 +368,7 @@ class ReanalysedSample:
     repeat: float
     difference_percent: float | None     # 100 (repeat - original) / mean of the two
     within: bool                         # False also when the difference is undefined
+    sample: str = ""                     # the study sample's label, when given
 
 
 @dataclass(frozen=True)
@@ -384,7 +385,7 @@ class IncurredSampleReanalysis:
 
 
 def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
-                               min_fraction: float = 2 / 3) -> IncurredSampleReanalysis:
+                               min_fraction: float = 2 / 3, sample=None) -> IncurredSampleReanalysis:
     """Incurred-sample reanalysis (ICH M10 sec. 5, from memory: within +/-20 % for chromatography,
     +/-30 % for ligand-binding assays, in at least two-thirds of the repeats).
 
@@ -400,14 +401,15 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     r = as_float_array(repeat, "repeat")
     if o.size != r.size:
         raise ValueError(f"original and repeat must pair up, got {o.size} and {r.size} values")
+    names = [""] * o.size if sample is None else list(labels(sample, o.size, "sample"))
     rows = []
-    for a, b in zip(o.tolist(), r.tolist()):
+    for a, b, name in zip(o.tolist(), r.tolist(), names):
         mean = (a + b) / 2
         d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
         if math.isfinite(d):
-            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim))
+            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim, name))
         else:
-            rows.append(ReanalysedSample(a, b, None, False))
+            rows.append(ReanalysedSample(a, b, None, False, name))
     n = len(rows)
     n_within = sum(x.within for x in rows)
     n_undef = sum(x.difference_percent is None for x in rows)

@@ -1,0 +1,54 @@
+"""Sentences and the figure of differences for incurred-sample reanalysis, from its results.json entry."""
+
+from __future__ import annotations
+
+import hashlib
+
+from ...report.reading import Reading
+from ...report.text import fmt
+
+__all__ = ["sentences", "figures"]
+
+
+def sentences(entry: dict, reading: Reading) -> dict:
+    if entry["n"] == 0:
+        return {"summary": f"No reanalysed samples: {entry['reason']}."}
+    word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[entry["passed"]]
+    out = {"summary": (f"{entry['n_within']} of {entry['n']} repeats ({fmt(100 * entry['fraction_within'], 3)} %) lie "
+                       f"within ±{fmt(entry['limit_percent'])} % of the mean of original and repeat; the study "
+                       f"{word} its requirement of at least {fmt(100 * entry['min_fraction'], 3)} %.")}
+    if entry["n_undefined"]:
+        out["undefined"] = (f"{entry['n_undefined']} pair(s) have a mean of zero or below, so no % difference: "
+                            "they count as not within the limit.")
+    return out
+
+
+def figures(entry: dict, reading: Reading) -> dict:
+    rows = [s for s in entry["samples"] if s["difference_percent"] is not None]
+    if not rows:
+        return {}
+    from ...report.plots import PALETTE, _RC, _points, _svg
+    import matplotlib.pyplot as plt
+
+    with plt.rc_context(_RC):
+        fig, ax = plt.subplots(figsize=(6.4, 2.8))
+        means = [(s["original"] + s["repeat"]) / 2 for s in rows]
+        inside = [s["within"] for s in rows]
+        _points(ax, [m for m, ok in zip(means, inside) if ok], [s["difference_percent"] for s, ok in zip(rows, inside) if ok],
+                label="within the limit")
+        _points(ax, [m for m, ok in zip(means, inside) if not ok],
+                [s["difference_percent"] for s, ok in zip(rows, inside) if not ok], marker="s",
+                colour=PALETTE["bad"], label="outside the limit")
+        lim = entry["limit_percent"]
+        for y in (-lim, lim):
+            ax.axhline(y, color=PALETTE["pred"], linestyle="--", linewidth=0.8)
+        ax.axhline(0, color=PALETTE["ink"], linewidth=0.6)
+        ax.set_xscale("log" if min(means) > 0 and max(means) / min(means) > 20 else "linear")
+        ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
+        ax.set_ylabel("(repeat − original) / mean, %")
+        ax.legend(loc="best", frameon=False)
+        fig.tight_layout()
+        # ids unique per figure: several analytes' figures share one HTML page
+        digest = hashlib.sha256(repr([(s["original"], s["repeat"]) for s in rows]).encode()).hexdigest()[:10]
+        svg = _svg(fig, f"isr {digest}")
+    return {"differences": svg}
