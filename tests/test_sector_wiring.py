@@ -209,3 +209,98 @@ def test_studies_without_sector_sections_are_unchanged(make_study):
     assert "guideline" not in results
     assert not set(NAMES) & set(results["analytes"][0])
     assert not set(NAMES) & set(results["analytes"][0]["characteristics_assessed"])
+
+
+# ------------------------------------------------------------------ matrix effect
+SOLVENT = [(1, 2.05), (1, 1.98), (2, 4.10), (2, 3.96), (4, 8.05), (4, 7.90), (8, 16.2), (8, 15.9), (16, 32.3), (16, 31.8)]
+ME_BODY = """\
+[calibration]
+data = "calibration.csv"
+[matrix_effect]
+solvent_data = "solvent.csv"
+judge_slope_ratio = true
+limit_pct = 5
+"""
+
+
+def _me_files(**extra):
+    from conftest import CALIBRATION
+    return {"calibration.csv": CALIBRATION,
+            "solvent.csv": "concentration,response\n" + "".join(f"{x},{y}\n" for x, y in SOLVENT), **extra}
+
+
+def test_matrix_effect_slope_ratio_interval_against_joint_statsmodels_fit(make_study, outside):
+    import statsmodels.api as sm
+    from conftest import CALIBRATION
+
+    _, results, _ = _run(make_study(ME_BODY, _me_files()), outside)
+    sr = results["analytes"][0]["matrix_effect"]["slope_ratio"]
+    matrix = np.array([[float(v) for v in line.split(",")] for line in CALIBRATION.splitlines()[1:]])
+    solvent = np.array(SOLVENT, dtype=float)
+    x = np.concatenate([solvent[:, 0], matrix[:, 0]])
+    y = np.concatenate([solvent[:, 1], matrix[:, 1]])
+    m = np.r_[np.zeros(len(solvent)), np.ones(len(matrix))]
+    # cross-check: statsmodels OLS, joint fit y = a + b x + c M + d M x (interaction term), pooled variance
+    fit = sm.OLS(y, np.column_stack([np.ones_like(x), x, m, m * x])).fit()
+    b_s, b_m = fit.params[1], fit.params[1] + fit.params[3]
+    cov = fit.cov_params()
+    var_s, var_m = cov[1, 1], cov[1, 1] + cov[3, 3] + 2 * cov[1, 3]
+    ratio = b_m / b_s
+    assert sr["slope_ratio"] == pytest.approx(ratio, rel=1e-10)
+    assert sr["statistic"] == pytest.approx(100 * (ratio - 1), rel=1e-9)
+    assert sr["df"] == fit.df_resid
+    # delta method by hand on statsmodels' slope variances (the two slopes are uncorrelated: cov(b_s, b_m) = 0)
+    assert cov[1, 1] + cov[1, 3] == pytest.approx(0, abs=1e-12 * var_s)
+    se = abs(ratio) * math.sqrt(var_m / b_m ** 2 + var_s / b_s ** 2)
+    t = stats.t.ppf(0.975, fit.df_resid)
+    assert sr["se_ratio_delta"] == pytest.approx(se, rel=1e-9)
+    assert sr["delta_interval"] == pytest.approx([100 * (ratio - t * se - 1), 100 * (ratio + t * se - 1)], rel=1e-9)
+    assert sr["interval_level"] == pytest.approx(0.95)
+    # Fieller's limits: where statsmodels' t test of b_m - R b_s = 0 (i.e. (1 - R) b + d = 0) reaches t
+    for limit in sr["interval"]:
+        r = 1 + limit / 100
+        test = fit.t_test(np.array([[0, 1 - r, 0, 1]]))
+        assert abs(float(np.ravel(test.tvalue)[0])) == pytest.approx(t, rel=1e-8)
+    crit = _criteria(results, "matrix-effect-slope-ratio")[0]
+    assert crit["value"] == sr["statistic"] and crit["limit"] == [-5.0, 5.0]
+    assert crit["pass"] is (abs(sr["statistic"]) <= 5)
+
+
+def test_matrix_lots_and_normalised_factor_by_hand(make_study, outside):
+    lots = "lot,nominal,found\n" + "".join(f"P{k},3,{3 * (1 + 0.02 * k) + d}\n" for k in range(1, 7)
+                                           for d in (-0.03, 0.0, 0.03))
+    lots += "".join(f"P{k},80,{80 + d}\n" for k in range(1, 6) for d in (-1, 0, 1))      # 5 lots at high QC
+    factor = ("lot,analyte_response,internal_standard_response\nneat,100,50\nneat,102,51\n"
+              + "".join(f"P{k},{90 + k},{45 + k / 2}\n" for k in range(1, 7)))
+    body = ME_BODY.replace('solvent_data = "solvent.csv"\njudge_slope_ratio = true\nlimit_pct = 5\n',
+                           'lots_data = "lots.csv"\nfactor_data = "factor.csv"\n')
+    _, results, out = _run(make_study(body, _me_files(**{"lots.csv": lots, "factor.csv": factor})), outside, "json,html")
+    entry = results["analytes"][0]["matrix_effect"]
+    assert entry["slope_ratio"] is None and "no solvent calibration" in entry["slope_ratio_reason"]
+    low, high = entry["lots"]
+    # hand computation: lot P6 mean 3 x 1.12 = 3.36, accuracy 112 %, CV = 100 x 0.03 / 3.36
+    p6 = low["lots"][5]
+    assert p6["accuracy_percent"] == pytest.approx(112.0, rel=1e-12)
+    assert p6["cv_percent"] == pytest.approx(100 * 0.03 / 3.36, rel=1e-9)
+    assert low["passed"] is True and low["n_lots_passed"] == 6
+    assert high["passed"] is None and "5 matrix lots, at least 6 needed" in high["reason"]
+    by_id = {c["id"]: c for c in results["analytes"][0]["criteria"]}
+    assert by_id["matrix-lots-3"]["pass"] is True and by_id["matrix-lots-80"]["pass"] is None
+    # hand computation: neat means 101 and 50.5; lot k: (90 + k)/101 over (45 + k/2)/50.5 = (90 + k)/(90 + k) = 1
+    mf = entry["normalised_factor"]
+    assert [lot["normalised_factor"] for lot in mf["lots"]] == pytest.approx([1.0] * 6, rel=1e-12)
+    assert mf["cv_percent"] == pytest.approx(0, abs=1e-9) and by_id["matrix-factor-cv"]["pass"] is True
+    assert results["analytes"][0]["verdict"] == "incomplete"
+    assert "<svg" in (out / "dossier.html").read_text(encoding="utf-8").split("<h3>Matrix effect</h3>")[1]
+
+
+def test_matrix_effect_loader_errors(make_study):
+    with pytest.raises(StudyError, match="at least one of solvent_data, lots_data and factor_data"):
+        load_study(make_study(ME_BODY.split("[matrix_effect]")[0] + "[matrix_effect]\nlimit_pct = 20\n", _me_files()))
+    files = _me_files(**{"factor.csv": "lot,analyte_response,internal_standard_response\nP1,90,45\n"})
+    with pytest.raises(DataError, match=r'factor.csv, row 2, column "lot".*no neat-solution rows'):
+        load_study(make_study(ME_BODY + 'factor_data = "factor.csv"\n', files))
+    files = _me_files()
+    files["solvent.csv"] = "concentration,response\n1,2\n-2,4\n"
+    with pytest.raises(DataError, match=r'solvent.csv, row 3, column "concentration".*negative'):
+        load_study(make_study(ME_BODY, files))

@@ -28,6 +28,7 @@ from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, w
 from .inputs.loading import AnalyteData, LoadedStudy
 from .characteristics import sector_registry
 from .characteristics.limit_of_blank import DetectionCapability
+from .characteristics.matrix_effect import MatrixEffect
 from .characteristics.reanalysis import IncurredSampleReanalysis
 from .inputs.study import StudyConfig
 
@@ -124,6 +125,7 @@ class AnalyteResult:
     comparison: ComparisonResult | None = None
     # the sector characteristics (validator.characteristics.sector_registry)
     limit_of_blank: DetectionCapability | None = None
+    matrix_effect: MatrixEffect | None = None
     reanalysis: IncurredSampleReanalysis | None = None
 
     @property
@@ -185,6 +187,7 @@ class AnalyteContext:
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     limit_of_blank: DetectionCapability | None = None
+    matrix_effect: MatrixEffect | None = None
     reanalysis: IncurredSampleReanalysis | None = None
     criteria: tuple[Criterion, ...] = ()
     # characteristics without a field of their own here (added to the registry only), by name
