@@ -304,3 +304,49 @@ def test_matrix_effect_loader_errors(make_study):
     files["solvent.csv"] = "concentration,response\n1,2\n-2,4\n"
     with pytest.raises(DataError, match=r'solvent.csv, row 3, column "concentration".*negative'):
         load_study(make_study(ME_BODY, files))
+
+
+# ------------------------------------------------------------------ method detection limit
+MDL_SPIKED = [1.52, 1.38, 1.61, 1.45, 1.57, 1.41, 1.49]
+MDL_BODY = """\
+[calibration]
+data = "calibration.csv"
+[method_detection_limit]
+spiked = "spiked.csv"
+blanks = "mdl-blanks.csv"
+mdl_max = 0.5
+"""
+
+
+def _mdl_files(blanks):
+    from conftest import CALIBRATION
+    return {"calibration.csv": CALIBRATION,
+            "spiked.csv": "found,batch\n" + "".join(f"{v},B{i % 3}\n" for i, v in enumerate(MDL_SPIKED)),
+            "mdl-blanks.csv": "found\n" + "".join(f"{v}\n" for v in blanks)}
+
+
+def test_mdl_by_hand_with_scipy_t_quantile(make_study, outside):
+    blanks = ["ND", "0.12", "", "0.31", "not detected", "0.05", "0.2"]
+    _, results, out = _run(make_study(MDL_BODY, _mdl_files(blanks)), outside, "json,html")
+    e = results["analytes"][0]["method_detection_limit"]
+    # hand computation: MDL_s = t(0.99; 6) x SD of the seven spiked results (scipy's t quantile)
+    t = stats.t.ppf(0.99, 6)
+    assert e["spiked_t"] == pytest.approx(t, rel=1e-12)
+    assert e["spiked"] == pytest.approx(t * np.std(MDL_SPIKED, ddof=1), rel=1e-12)
+    # some but not all of the 7 blanks are numerical: MDL_b is the highest blank, 0.31
+    assert e["blank_rule"] == "highest blank" and e["blank"] == 0.31 and e["n_blanks_numerical"] == 4
+    assert e["value"] == pytest.approx(max(e["spiked"], 0.31), rel=1e-15)
+    crit = _criteria(results, "method-detection-limit")[0]
+    assert crit["pass"] is (e["value"] <= 0.5)
+    assert "Method detection limit" in (out / "dossier.html").read_text(encoding="utf-8")
+
+
+def test_mdl_all_blanks_numerical_and_bad_cell(make_study, outside):
+    blanks = [0.02, -0.01, 0.03, 0.0, 0.01, 0.04, -0.02]
+    _, results, _ = _run(make_study(MDL_BODY, _mdl_files(blanks)), outside)
+    e = results["analytes"][0]["method_detection_limit"]
+    # hand computation: MDL_b = mean + t(0.99; 6) s (the mean is positive here)
+    expected = np.mean(blanks) + stats.t.ppf(0.99, 6) * np.std(blanks, ddof=1)
+    assert e["blank_rule"] == "mean + t s" and e["blank"] == pytest.approx(expected, rel=1e-12)
+    with pytest.raises(DataError, match=r'mdl-blanks.csv, row 3, column "found"'):
+        load_study(make_study(MDL_BODY, _mdl_files(["0.1", "n/a"])))

@@ -29,6 +29,7 @@ from .inputs.loading import AnalyteData, LoadedStudy
 from .characteristics import sector_registry
 from .characteristics.limit_of_blank import DetectionCapability
 from .characteristics.matrix_effect import MatrixEffect
+from .characteristics.method_detection_limit import MethodDetectionLimit
 from .characteristics.reanalysis import IncurredSampleReanalysis
 from .inputs.study import StudyConfig
 
@@ -125,6 +126,7 @@ class AnalyteResult:
     comparison: ComparisonResult | None = None
     # the sector characteristics (validator.characteristics.sector_registry)
     limit_of_blank: DetectionCapability | None = None
+    method_detection_limit: MethodDetectionLimit | None = None
     matrix_effect: MatrixEffect | None = None
     reanalysis: IncurredSampleReanalysis | None = None
 
@@ -187,6 +189,7 @@ class AnalyteContext:
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     limit_of_blank: DetectionCapability | None = None
+    method_detection_limit: MethodDetectionLimit | None = None
     matrix_effect: MatrixEffect | None = None
     reanalysis: IncurredSampleReanalysis | None = None
     criteria: tuple[Criterion, ...] = ()

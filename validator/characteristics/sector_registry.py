@@ -9,9 +9,9 @@ take them from :data:`PACKAGES`.
 
 from __future__ import annotations
 
-from . import limit_of_blank, matrix_effect, reanalysis
+from . import limit_of_blank, matrix_effect, method_detection_limit, reanalysis
 
 __all__ = ["PACKAGES", "NAMES"]
 
-PACKAGES = (limit_of_blank, matrix_effect, reanalysis)
+PACKAGES = (limit_of_blank, method_detection_limit, matrix_effect, reanalysis)
 NAMES = tuple(p.NAME for p in PACKAGES)

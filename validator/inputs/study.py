@@ -247,6 +247,7 @@ class ComparisonSection(_Section):
 # the sections of the sector characteristics (issue #15); their models extend _Section above
 from ..characteristics.limit_of_blank.settings import LimitOfBlankSection  # noqa: E402
 from ..characteristics.reanalysis.settings import ReanalysisSection  # noqa: E402
+from ..characteristics.method_detection_limit.settings import MethodDetectionLimitSection  # noqa: E402
 from ..characteristics.matrix_effect.settings import MatrixEffectSection  # noqa: E402
 
 
@@ -265,6 +266,7 @@ class StudyConfig(_Section):
     revalidation: Optional[RevalidationSection] = None
     comparison: Optional[ComparisonSection] = None
     limit_of_blank: Optional[LimitOfBlankSection] = None
+    method_detection_limit: Optional[MethodDetectionLimitSection] = None
     matrix_effect: Optional[MatrixEffectSection] = None
     reanalysis: Optional[ReanalysisSection] = None
     design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
