@@ -185,13 +185,16 @@ def test_every_preset_key_is_a_key_of_its_section():
             section, key = value.key.split(".", 1)
             model = StudyConfig.model_fields[section].annotation.__args__[0]
             assert key in model.model_fields, value.key
-            model.model_validate({**{k: "x" for k in ()}, **_required(model), key: value.value})
+            model.model_validate({**_required(model), key: value.value})
             assert value.source and (value.from_memory or "sec." in value.source)
 
 
 def _required(model) -> dict:
     """Values for a section's required keys (paths), so one preset value can be validated alone."""
-    return {name: "data.csv" for name, f in model.model_fields.items() if f.is_required()}
+    out = {name: "data.csv" for name, f in model.model_fields.items() if f.is_required()}
+    if "solvent_data" in model.model_fields:        # [matrix_effect] needs one of its data files
+        out["solvent_data"] = "solvent.csv"
+    return out
 
 
 def test_unknown_guideline_is_refused(make_study):
@@ -350,3 +353,97 @@ def test_mdl_all_blanks_numerical_and_bad_cell(make_study, outside):
     assert e["blank_rule"] == "mean + t s" and e["blank"] == pytest.approx(expected, rel=1e-12)
     with pytest.raises(DataError, match=r'mdl-blanks.csv, row 3, column "found"'):
         load_study(make_study(MDL_BODY, _mdl_files(["0.1", "n/a"])))
+
+
+# ------------------------------------------------------------------ carry-over, selectivity, stability, dilution
+BIO_BODY = """\
+[calibration]
+data = "calibration.csv"
+[carry_over]
+data = "carry.csv"
+[selectivity]
+data = "selectivity.csv"
+[stability]
+data = "stability.csv"
+[dilution_integrity]
+data = "dilution.csv"
+"""
+
+
+def _bio_files(**over):
+    from conftest import CALIBRATION
+    files = {
+        "calibration.csv": CALIBRATION,
+        "carry.csv": ("kind,response,internal_standard_response\nlloq,100,5000\nlloq,110,5100\nlloq,90,4900\n"
+                      "blank,12,100\nblank,25,300\n"),
+        "selectivity.csv": ("lot,kind,response\n,lloq,200\n,lloq,200\n"
+                            + "".join(f"L{k},blank,{v}\n" for k, v in enumerate([10, 20, 30, 39, 40, 41], 1))),
+        "stability.csv": ("condition,nominal,found\n"
+                          + "".join(f"bench-top 24 h,3,{v}\n" for v in (2.9, 3.1, 3.0))
+                          + "".join(f"freeze-thaw x3,3,{v}\n" for v in (2.5, 2.6, 2.4))
+                          + "".join(f"freeze-thaw x3,80,{v}\n" for v in (78, 82))),
+        "dilution.csv": "factor,nominal,found\n" + "".join(f"10,500,{v}\n" for v in (49, 51, 50, 52, 48)),
+    }
+    files.update(over)
+    return files
+
+
+def test_bioanalytical_characteristics_by_hand(make_study, outside):
+    _, results, out = _run(make_study(BIO_BODY, _bio_files()), outside, "json,html")
+    a = results["analytes"][0]
+    by_id = {c["id"]: c for c in a["criteria"]}
+    # carry-over, hand computation: mean LLOQ response 100, mean IS 5000: blanks 12 %, 25 %; IS 2 %, 6 %
+    co = a["carry_over"]
+    assert co["analyte_percent"] == pytest.approx([12.0, 25.0]) and co["internal_standard_percent"] == pytest.approx([2.0, 6.0])
+    assert by_id["carry-over"]["value"] == pytest.approx(25.0) and by_id["carry-over"]["pass"] is False
+    assert by_id["carry-over-internal-standard"]["pass"] is False
+    # selectivity, hand computation: mean LLOQ 200; lots 5 %, 10 %, 15 %, 19.5 %, 20 %, 20.5 % -> 5 of 6 pass
+    sel = a["selectivity"]
+    assert [lot["analyte_percent"] for lot in sel["lots"]] == pytest.approx([5, 10, 15, 19.5, 20, 20.5])
+    assert sel["n_lots_passed"] == 5 and by_id["selectivity"]["value"] == pytest.approx(5 / 6)
+    assert by_id["selectivity"]["pass"] is False          # min_fraction 1 (every lot) by default
+    # stability against nominal, hand computation: bench-top mean 3.0 -> 0 %; freeze-thaw 2.5 -> -16.67 %
+    conds = {(c["condition"], c["nominal"]): c["result"] for c in a["stability"]["conditions"]}
+    bench = conds[("bench-top 24 h", 3.0)]
+    half = stats.t.ppf(0.975, 2) * 0.1 / math.sqrt(3)     # t(0.975; 2) s / sqrt(n), s = 0.1
+    assert bench["deviation_percent"] == pytest.approx(0, abs=1e-12)
+    assert bench["interval"] == pytest.approx([100 * (-half / 3), 100 * (half / 3)], rel=1e-9)
+    assert conds[("freeze-thaw x3", 3.0)]["deviation_percent"] == pytest.approx(100 * (2.5 / 3 - 1), rel=1e-12)
+    assert by_id["stability-bench-top-24-h-3"]["pass"] is True
+    assert by_id["stability-freeze-thaw-x3-3"]["pass"] is False
+    two = by_id["stability-freeze-thaw-x3-80"]              # 2 results, 3 needed: not shown, so not passed
+    assert two["pass"] is None and "2 stored results, at least 3 needed" in two["note"]
+    # dilution, hand computation: 10 x (49, 51, 50, 52, 48) -> mean 500, accuracy 100 %, CV 100 x 15.81/500
+    dil = a["dilution_integrity"]["levels"][0]
+    assert dil["accuracy_percent"] == pytest.approx(100.0) and dil["cv_percent"] == pytest.approx(
+        100 * np.std([490, 510, 500, 520, 480], ddof=1) / 500, rel=1e-12)
+    assert by_id["dilution-accuracy-10x-500"]["pass"] is True and by_id["dilution-cv-10x-500"]["pass"] is True
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    for heading in ("<h3>Carry-over</h3>", "<h3>Selectivity</h3>", "<h3>Stability</h3>", "<h3>Dilution integrity</h3>"):
+        assert heading in html
+
+
+def test_stability_against_fresh_samples(make_study, outside):
+    stab = ("condition,nominal,found\n" + "".join(f"fresh,3,{v}\n" for v in (3.0, 3.1, 2.9))
+            + "".join(f"long-term 6 months,3,{v}\n" for v in (2.8, 2.9, 2.7)))
+    body = "[calibration]\ndata = \"calibration.csv\"\n[stability]\ndata = \"stability.csv\"\nreference = \"fresh\"\n"
+    _, results, _ = _run(make_study(body, _bio_files(**{"stability.csv": stab})), outside)
+    (cond,) = results["analytes"][0]["stability"]["conditions"]
+    # hand computation: 100 (2.8 / 3.0 - 1)
+    assert cond["result"]["reference"] == "fresh"
+    assert cond["result"]["deviation_percent"] == pytest.approx(100 * (2.8 / 3.0 - 1), rel=1e-12)
+    bad = "condition,nominal,found\nlong-term,3,2.8\nlong-term,3,2.9\n"
+    with pytest.raises(DataError, match=r'stability.csv, row 2, column "nominal".*no "fresh" rows'):
+        load_study(make_study(body, _bio_files(**{"stability.csv": bad})))
+
+
+@pytest.mark.parametrize("name, content, match", [
+    ("carry.csv", "kind,response\nlloq,100\nafter-high,3\n", r'carry.csv, row 3, column "kind": kind "after-high"'),
+    ("carry.csv", "kind,response\nblank,3\n", r'carry.csv, row 2, column "kind".*no "lloq" rows'),
+    ("carry.csv", "kind,response\nlloq,0\nblank,3\n", r'carry.csv, row 2, column "response".*must be > 0'),
+    ("selectivity.csv", "lot,kind,response\n,lloq,200\n,blank,3\n", r'selectivity.csv, row 3, column "lot"'),
+    ("dilution.csv", "factor,nominal,found\n0.5,500,49\n", r'dilution.csv, row 2, column "factor".*at least 1'),
+])
+def test_bioanalytical_loader_errors(make_study, name, content, match):
+    with pytest.raises(DataError, match=match):
+        load_study(make_study(BIO_BODY, _bio_files(**{name: content})))

@@ -31,6 +31,10 @@ from .characteristics.limit_of_blank import DetectionCapability
 from .characteristics.matrix_effect import MatrixEffect
 from .characteristics.method_detection_limit import MethodDetectionLimit
 from .characteristics.reanalysis import IncurredSampleReanalysis
+from .characteristics.carry_over import CarryOver
+from .characteristics.selectivity import Selectivity
+from .characteristics.stability import StabilityResult
+from .characteristics.dilution_integrity import DilutionResult
 from .inputs.study import StudyConfig
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "AnalyteContext",
@@ -128,6 +132,10 @@ class AnalyteResult:
     limit_of_blank: DetectionCapability | None = None
     method_detection_limit: MethodDetectionLimit | None = None
     matrix_effect: MatrixEffect | None = None
+    carry_over: CarryOver | None = None
+    selectivity: Selectivity | None = None
+    stability: StabilityResult | None = None
+    dilution_integrity: DilutionResult | None = None
     reanalysis: IncurredSampleReanalysis | None = None
 
     @property
@@ -191,6 +199,10 @@ class AnalyteContext:
     limit_of_blank: DetectionCapability | None = None
     method_detection_limit: MethodDetectionLimit | None = None
     matrix_effect: MatrixEffect | None = None
+    carry_over: CarryOver | None = None
+    selectivity: Selectivity | None = None
+    stability: StabilityResult | None = None
+    dilution_integrity: DilutionResult | None = None
     reanalysis: IncurredSampleReanalysis | None = None
     criteria: tuple[Criterion, ...] = ()
     # characteristics without a field of their own here (added to the registry only), by name

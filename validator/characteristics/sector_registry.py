@@ -9,9 +9,11 @@ take them from :data:`PACKAGES`.
 
 from __future__ import annotations
 
-from . import limit_of_blank, matrix_effect, method_detection_limit, reanalysis
+from . import (carry_over, dilution_integrity, limit_of_blank, matrix_effect, method_detection_limit, reanalysis,
+               selectivity, stability)
 
 __all__ = ["PACKAGES", "NAMES"]
 
-PACKAGES = (limit_of_blank, method_detection_limit, matrix_effect, reanalysis)
+PACKAGES = (limit_of_blank, method_detection_limit, matrix_effect, carry_over, selectivity, stability, dilution_integrity,
+            reanalysis)
 NAMES = tuple(p.NAME for p in PACKAGES)

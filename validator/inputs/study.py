@@ -248,6 +248,10 @@ class ComparisonSection(_Section):
 from ..characteristics.limit_of_blank.settings import LimitOfBlankSection  # noqa: E402
 from ..characteristics.reanalysis.settings import ReanalysisSection  # noqa: E402
 from ..characteristics.method_detection_limit.settings import MethodDetectionLimitSection  # noqa: E402
+from ..characteristics.carry_over.settings import CarryOverSection  # noqa: E402
+from ..characteristics.selectivity.settings import SelectivitySection  # noqa: E402
+from ..characteristics.stability.settings import StabilitySection  # noqa: E402
+from ..characteristics.dilution_integrity.settings import DilutionIntegritySection  # noqa: E402
 from ..characteristics.matrix_effect.settings import MatrixEffectSection  # noqa: E402
 
 
@@ -268,6 +272,10 @@ class StudyConfig(_Section):
     limit_of_blank: Optional[LimitOfBlankSection] = None
     method_detection_limit: Optional[MethodDetectionLimitSection] = None
     matrix_effect: Optional[MatrixEffectSection] = None
+    carry_over: Optional[CarryOverSection] = None
+    selectivity: Optional[SelectivitySection] = None
+    stability: Optional[StabilitySection] = None
+    dilution_integrity: Optional[DilutionIntegritySection] = None
     reanalysis: Optional[ReanalysisSection] = None
     design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
     protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
