@@ -125,13 +125,14 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                 figs[package.NAME] = dict(presentation.figures(a[package.NAME], reading))
         analytes.append({"index": i, "data": a, "figures": figs, "text": text})
     sector = [{"name": p.NAME, "title": p.TITLE, "fragment": p.FRAGMENT} for p in SECTOR_PACKAGES]
+    sector_used = sorted({p.NAME for p in SECTOR_PACKAGES for a in results["analytes"] if a.get(p.NAME) is not None})
     summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
         r=results, study=study, analytes=analytes, summary=summary, alpha=alpha,
-        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector=sector,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector=sector, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
 
