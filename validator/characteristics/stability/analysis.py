@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -51,7 +52,8 @@ def assess_stability(data, *, reference: str, limit_pct: float, judged_on: str, 
 
 
 def stability_criteria(result: StabilityResult) -> tuple[Criterion, ...]:
-    """``stability-<condition>-<nominal>``: the deviation (or its whole CI, when judged on the interval)
+    """``stability-<condition>-<nominal>`` (the condition in lower-case letters and digits joined by
+    hyphens): the deviation (or its whole CI, when judged on the interval)
     within ±limit."""
     out = []
     for c in result.conditions:
@@ -61,7 +63,7 @@ def stability_criteria(result: StabilityResult) -> tuple[Criterion, ...]:
             else s.deviation_percent
         what = f"{s.interval.label} CI of the deviation" if on_interval and s.interval is not None else \
             ("CI of the deviation" if on_interval else "deviation")
-        slug = "-".join(c.condition.casefold().split())
+        slug = re.sub(r"[^a-z0-9]+", "-", c.condition.casefold()).strip("-")
         out.append(Criterion(f"stability-{slug}-{c.nominal:g}",
                              f"stability, {c.condition} at nominal {c.nominal:g}: {what} of the mean from "
                              f"{s.reference} within ±{s.limit_percent:g} %", value, [-s.limit_percent, s.limit_percent],
