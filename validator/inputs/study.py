@@ -269,6 +269,9 @@ class StudyConfig(_Section):
     reference_material: Optional[ReferenceMaterialSection] = None
     revalidation: Optional[RevalidationSection] = None
     comparison: Optional[ComparisonSection] = None
+    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
+    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
+    # the sector characteristics (validator.characteristics.sector_registry), each optional
     limit_of_blank: Optional[LimitOfBlankSection] = None
     method_detection_limit: Optional[MethodDetectionLimitSection] = None
     matrix_effect: Optional[MatrixEffectSection] = None
@@ -277,8 +280,6 @@ class StudyConfig(_Section):
     stability: Optional[StabilitySection] = None
     dilution_integrity: Optional[DilutionIntegritySection] = None
     reanalysis: Optional[ReanalysisSection] = None
-    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
-    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
 
 
 @dataclass(frozen=True)

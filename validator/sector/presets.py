@@ -87,8 +87,8 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
         PresetValue("limit_of_blank.percentile", 0.95, f"{_EP17} sec. 5.3", True),
     )),
     Preset("40-cfr-136-appendix-b", _MDL, (
-        # Appendix B Rev. 2, "Definition": reported "with 99% confidence that the measured concentration is
-        # distinguishable from method blank results" (read in the rule's text, eCFR)
+        # Appendix B Rev. 2, "Definition": the MDL is reported with confidence 0.99 that the measured
+        # concentration is distinguishable from method blank results (read in the rule's text, eCFR)
         PresetValue("method_detection_limit.confidence", 0.99, f"{_MDL}, Definition", False),
     )),
 )}

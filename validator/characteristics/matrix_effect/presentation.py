@@ -62,7 +62,7 @@ def figures(entry: dict, reading: Reading) -> dict:
             _points(ax, xs, ys, marker=markers[k % len(markers)], label=f"nominal {fmt(lv['nominal'])} {reading.unit}")
         lim = max(lv["max_bias_percent"] for lv in entry["lots"])
         for y in (-lim, lim):
-            ax.axhline(y, color=PALETTE["pred"], linestyle="--", linewidth=0.8)
+            ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
         ax.axhline(0, color=PALETTE["ink"], linewidth=0.6)
         ax.set_xticks(range(len(names)), names, rotation=30, ha="right")
         ax.set_xlabel("matrix lot")

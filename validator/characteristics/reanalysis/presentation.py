@@ -41,7 +41,7 @@ def figures(entry: dict, reading: Reading) -> dict:
                 colour=PALETTE["bad"], label="outside the limit")
         lim = entry["limit_percent"]
         for y in (-lim, lim):
-            ax.axhline(y, color=PALETTE["pred"], linestyle="--", linewidth=0.8)
+            ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
         ax.axhline(0, color=PALETTE["ink"], linewidth=0.6)
         ax.set_xscale("log" if min(means) > 0 and max(means) / min(means) > 20 else "linear")
         ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
