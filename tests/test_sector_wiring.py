@@ -447,3 +447,14 @@ def test_stability_against_fresh_samples(make_study, outside):
 def test_bioanalytical_loader_errors(make_study, name, content, match):
     with pytest.raises(DataError, match=match):
         load_study(make_study(BIO_BODY, _bio_files(**{name: content})))
+
+
+def test_protocol_digest_covers_sector_criteria_and_is_unchanged_without_them(make_study):
+    from validator.protocol import digest, normalised
+
+    plain = normalised(load_study(make_study()).config)
+    assert "reanalysis" not in plain and "guideline" not in plain["study"]       # older digests unchanged
+    with_isr = normalised(load_study(make_study(ISR_BODY, _isr_files())).config)
+    assert with_isr["reanalysis"] == {"limit_pct": 20.0, "min_fraction": 2 / 3}
+    stricter = normalised(load_study(make_study(ISR_BODY + "limit_pct = 15\n", _isr_files())).config)
+    assert digest(stricter) != digest(with_isr)
