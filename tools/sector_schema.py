@@ -1,6 +1,6 @@
 """Write the results.json schema definitions of the sector characteristics (issue #15).
 
-The result dataclasses of each package in ``validator.characteristics.sector_registry`` declare
+The result dataclasses of each sector characteristic's registry entry (``SECTOR`` below) declare
 their results.json form (field metadata read by ``validator.results.Serialiser``); this script
 turns them into ``$defs`` entries named ``sector_<dataclass in snake case>`` and one property per
 characteristic in the analyte object of ``validator/schema/results.schema.json``, replacing what
@@ -19,7 +19,11 @@ import typing
 from pathlib import Path
 
 from validator._common import ConfidenceInterval
-from validator.characteristics.sector_registry import PACKAGES
+from validator.characteristics import (carry_over, dilution_integrity, limit_of_blank, matrix_effect,
+                                       method_detection_limit, reanalysis, selectivity, stability)
+
+SECTOR = tuple(p.ENTRY for p in (limit_of_blank, method_detection_limit, matrix_effect, carry_over, selectivity,
+                                 stability, dilution_integrity, reanalysis))
 
 SCHEMA = Path(__file__).resolve().parents[1] / "validator" / "schema" / "results.schema.json"
 
@@ -92,21 +96,21 @@ def _text(defs: dict, indent: str) -> str:
 
 def main() -> None:
     defs: dict = {}
-    for package in PACKAGES:
-        for tp in package.RESULT_TYPES:
+    for entry in SECTOR:
+        for tp in entry.result_types:
             _define(tp, defs)
     text = SCHEMA.read_text(encoding="utf-8")
     # drop what an earlier run wrote
     text = re.sub(r',\n    "sector_[a-z_]+": \{\n.*?\n    \}(?=,\n    "sector_|\n  \},\n  "properties")', "", text,
                   flags=re.S)
     text = re.sub(r'\n {10}"(%s)": \{"oneOf": \[\{"type": "null"\}, \{"\$ref": "#/\$defs/sector_[a-z_]+"\}\]\},'
-                  % "|".join(p.NAME for p in PACKAGES), "", text)
+                  % "|".join(e.name for e in SECTOR), "", text)
     end_of_defs = text.index('\n  },\n  "properties": {')
     text = text[:end_of_defs] + ",\n" + _text(defs, "    ") + text[end_of_defs:]
     anchor = '\n          "diagnostics": {"type": "array", "items": {"type": "string"}},'
     assert text.count(anchor) == 1
-    props = "".join(f'\n          "{p.NAME}": {{"oneOf": [{{"type": "null"}}, {{"$ref": "#/$defs/sector_'
-                    f'{_snake(p.RESULT_TYPES[0].__name__)}"}}]}},' for p in PACKAGES)
+    props = "".join(f'\n          "{e.name}": {{"oneOf": [{{"type": "null"}}, {{"$ref": "#/$defs/sector_'
+                    f'{_snake(e.result_types[0].__name__)}"}}]}},' for e in SECTOR)
     text = text.replace(anchor, props + anchor)
     json.loads(text)
     SCHEMA.write_text(text, encoding="utf-8")

@@ -3,7 +3,8 @@
 Each sector characteristic's ``settings.py`` reads its own data file through these, so that
 every error names the file, the row, the column and the value like the other loaders do.
 Built on :mod:`validator.inputs.tables` (through the study reader) and the per-analyte split
-of :mod:`validator.inputs.loading`.
+of :mod:`validator.inputs.loading` (``analyte_rows``, ``numeric_column``), for tables that
+``loading.per_analyte`` does not cover: several files per section, or a file key other than ``data``.
 """
 
 from __future__ import annotations
@@ -11,21 +12,21 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import DataError, show
-from .loading import _analyte_rows, _numbers
+from .loading import analyte_rows, numeric_column
 from .tables import MAX_NAME_LENGTH, parse_number
 
-__all__ = ["read_rows", "numbers", "numbers_or_missing", "labels", "positive", "one_value_per_group"]
+__all__ = ["read_rows", "numbers", "numbers_or_missing", "labels", "positive", "one_value_per_group", "kinds"]
 
 
 def read_rows(reader, role: str, path: str, required: tuple, optional: tuple, analytes: dict, what: str):
     """The table of ``path`` and the row indices of each analyte that has rows in it."""
     table = reader.table(role, path, required, optional + ("analyte",))
-    return table, {name: idx for name, idx in _analyte_rows(table, analytes, what).items() if idx}
+    return table, {name: idx for name, idx in analyte_rows(table, analytes, what).items() if idx}
 
 
 def numbers(reader, table, column: str) -> np.ndarray:
     """A numeric column, every cell required (the magnitude checks of the other loaders)."""
-    return _numbers(table, column, reader.decimal)
+    return numeric_column(table, column, reader.decimal)
 
 
 def numbers_or_missing(reader, table, column: str, missing_words=("", "nd", "n.d.", "not detected")) -> np.ndarray:
@@ -67,3 +68,15 @@ def one_value_per_group(table, group_column: str, groups, value_column: str, val
                             file=table.path, row=table.rows[i], column=value_column, value=values[i])
         seen.setdefault(g, (values[i], table.rows[i]))
     return {g: v for g, (v, _) in seen.items()}
+
+
+def kinds(table, allowed=("blank", "lloq")) -> list:
+    """The ``kind`` column in lower case; a value outside ``allowed`` is an error at its row."""
+    out = []
+    for cell, row in zip(table.columns["kind"], table.rows):
+        kind = cell.strip().casefold()
+        if kind not in allowed:
+            raise DataError(f'kind "{show(cell)}" is not one of ' + ", ".join(f'"{a}"' for a in allowed),
+                            file=table.path, row=row, column="kind", value=cell)
+        out.append(kind)
+    return out

@@ -2,7 +2,7 @@
 
 The engine uses them through the characteristic packages of :mod:`validator.characteristics`
 (``limit_of_blank``, ``method_detection_limit``, ``matrix_effect``, ``carry_over``, ``selectivity``,
-``stability``, ``dilution_integrity``, ``reanalysis``; listed in ``sector_registry``), and
+``stability``, ``dilution_integrity``, ``reanalysis``; each an entry of ``validator.registry``), and
 :mod:`.presets` holds the guideline presets of default criteria.
 
 * :mod:`.ep17` - CLSI EP17-A2 limit of blank, limit of detection, limit of quantitation.

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     n = len(entry["analyte_percent"])
     word = "within" if entry["max_analyte_percent"] <= entry["analyte_limit_percent"] else "ABOVE"
     out = {"analyte": (f"The largest of {n} blank response(s) after the highest calibrator is "
@@ -22,5 +21,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}

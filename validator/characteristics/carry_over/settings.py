@@ -16,7 +16,7 @@ from pydantic import Field
 
 from ...inputs.study import DataPath, _Section
 
-__all__ = ["CarryOverSection", "CarryOverData", "load", "kinds"]
+__all__ = ["CarryOverSection", "CarryOverData", "load"]
 
 
 class CarryOverSection(_Section):
@@ -33,24 +33,11 @@ class CarryOverData:
     lloq_internal_standard: np.ndarray | None = field(default=None, repr=False)
 
 
-def kinds(table, allowed=("blank", "lloq")) -> list:
-    """The ``kind`` column in lower case; a value outside ``allowed`` is an error at its row."""
-    from ...errors import DataError, show
-
-    out = []
-    for cell, row in zip(table.columns["kind"], table.rows):
-        kind = cell.strip().casefold()
-        if kind not in allowed:
-            raise DataError(f'kind "{show(cell)}" is not one of ' + ", ".join(f'"{a}"' for a in allowed),
-                            file=table.path, row=row, column="kind", value=cell)
-        out.append(kind)
-    return out
-
 
 def load(reader, settings: CarryOverSection, analytes: dict) -> dict:
     """``{analyte: CarryOverData}``; each analyte needs blank and LLOQ rows, LLOQ responses above zero."""
     from ...errors import DataError
-    from ...inputs.sector_tables import numbers, positive, read_rows
+    from ...inputs.sector_tables import kinds, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "carry_over", settings.data, ("kind", "response"), ("internal_standard_response",),
                             analytes, "carry-over injection")

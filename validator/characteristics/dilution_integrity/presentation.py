@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     out = {}
     for i, lv in enumerate(entry["levels"]):
         head = f"Diluted ×{fmt(lv['dilution_factor'])} from {fmt(lv['nominal'])} {reading.unit}"
@@ -22,5 +21,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}

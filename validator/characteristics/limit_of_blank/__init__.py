@@ -2,27 +2,18 @@
 
 from __future__ import annotations
 
-# the study schema before the settings that extend it (it imports them in turn)
-from ...inputs import study as _study  # noqa: F401
+from .._entry import Assessment, Characteristic
+from . import presentation, settings
 from .analysis import DetectionCapability, detection_capability, detection_capability_criteria
 from .settings import LimitOfBlankData, LimitOfBlankSection, load
 
-__all__ = ["NAME", "TITLE", "SETTINGS", "RESULT_TYPES", "FRAGMENT", "load", "assess"]
-
-NAME = "limit_of_blank"
-TITLE = "Limit of blank, detection and quantitation (CLSI EP17-A2)"
-SETTINGS = LimitOfBlankSection
-RESULT_TYPES = (DetectionCapability,)
-FRAGMENT = f"characteristics/{NAME}.html.j2"
-PRESENTATION = f"{__name__}.presentation"      # sentences and figures (imported by the report only)
+__all__ = ["ENTRY", "DetectionCapability"]
 
 
-def assess(ctx):
+def assess(ctx) -> Assessment[DetectionCapability] | None:
     """The analyte's LoB/LoD/LoQ and their criteria; ``None`` when it has no blank results."""
-    from ...engine import Assessment
-
-    data: LimitOfBlankData | None = ctx.data.characteristic_data.get(NAME)
-    s: LimitOfBlankSection | None = getattr(ctx.config, NAME)
+    data: LimitOfBlankData | None = ctx.data_of(ENTRY)
+    s: LimitOfBlankSection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
     result = detection_capability(data.blanks, data.blank_samples, data.blank_lots, data.low, data.low_samples,
@@ -31,3 +22,8 @@ def assess(ctx):
                                   loq_max_total_error=s.loq_max_total_error)
     return Assessment(result, detection_capability_criteria(result, lob_max=s.lob_max, lod_max=s.lod_max,
                                                             loq_max=s.loq_max))
+
+
+ENTRY: Characteristic[DetectionCapability] = Characteristic(
+    "limit_of_blank", "Limit of blank, detection and quantitation (CLSI EP17-A2)", assess, settings=settings.LimitOfBlankSection, load=settings.load, result_types=(DetectionCapability,),
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/limit_of_blank.html.j2")

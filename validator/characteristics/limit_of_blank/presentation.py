@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -13,7 +12,7 @@ def _lots(part: dict) -> str:
     return "" if len(lots) < 2 else f", the largest of {len(lots)} reagent lots"
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     unit = reading.unit
     out = {}
     lob = entry["lob"]
@@ -48,5 +47,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}

@@ -3,28 +3,19 @@ the ``[matrix_effect]`` section."""
 
 from __future__ import annotations
 
-# the study schema before the settings that extend it (it imports them in turn)
-from ...inputs import study as _study  # noqa: F401
+from .._entry import Assessment, Characteristic
+from . import presentation, settings
 from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
 from .settings import MatrixEffectData, MatrixEffectSection, load
 
-__all__ = ["NAME", "TITLE", "SETTINGS", "RESULT_TYPES", "FRAGMENT", "PRESENTATION", "load", "assess"]
-
-NAME = "matrix_effect"
-TITLE = "Matrix effect"
-SETTINGS = MatrixEffectSection
-RESULT_TYPES = (MatrixEffect,)
-FRAGMENT = f"characteristics/{NAME}.html.j2"
-PRESENTATION = f"{__name__}.presentation"      # sentences and figures (imported by the report only)
+__all__ = ["ENTRY", "MatrixEffect"]
 
 
-def assess(ctx):
+def assess(ctx) -> Assessment[MatrixEffect] | None:
     """The analyte's matrix effect and its criteria; ``None`` when it has no matrix-effect data.
     The matrix-matched calibration is the analyte's ``[calibration]`` data."""
-    from ...engine import Assessment
-
-    data: MatrixEffectData | None = ctx.data.characteristic_data.get(NAME)
-    s: MatrixEffectSection | None = getattr(ctx.config, NAME)
+    data: MatrixEffectData | None = ctx.data_of(ENTRY)
+    s: MatrixEffectSection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
     cal = ctx.data.calibration
@@ -32,3 +23,8 @@ def assess(ctx):
                            limit_pct=s.limit_pct, lot_max_bias_pct=s.lot_max_bias_pct, lot_max_cv_pct=s.lot_max_cv_pct,
                            min_lots=s.min_lots, min_replicates=s.min_replicates, factor_max_cv_pct=s.factor_max_cv_pct)
     return Assessment(result, matrix_effect_criteria(result, judge_slope_ratio=s.judge_slope_ratio, limit_pct=s.limit_pct))
+
+
+ENTRY: Characteristic[MatrixEffect] = Characteristic(
+    "matrix_effect", "Matrix effect", assess, settings=settings.MatrixEffectSection, load=settings.load, result_types=(MatrixEffect,),
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/matrix_effect.html.j2")

@@ -2,15 +2,13 @@
 
 from __future__ import annotations
 
-import hashlib
-
-from ...report.reading import Reading
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt, level_label
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     out = {}
     sr = entry["slope_ratio"]
     if sr is None:
@@ -46,29 +44,25 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
+    """``lots``: the bias of each matrix lot's mean, per QC level, with ± the accuracy limit."""
     if not entry["lots"]:
         return {}
-    from ...report.plots import PALETTE, _RC, _points, _svg
-    import matplotlib.pyplot as plt
-
     names = list(dict.fromkeys(lot["lot"] for lv in entry["lots"] for lot in lv["lots"]))
     markers = "os^Dv<>p"
-    with plt.rc_context(_RC):
-        fig, ax = plt.subplots(figsize=(6.4, 2.8))
-        for k, lv in enumerate(entry["lots"]):
-            xs = [names.index(lot["lot"]) for lot in lv["lots"] if lot["bias_percent"] is not None]
-            ys = [lot["bias_percent"] for lot in lv["lots"] if lot["bias_percent"] is not None]
-            _points(ax, xs, ys, marker=markers[k % len(markers)], label=f"nominal {fmt(lv['nominal'])} {reading.unit}")
-        lim = max(lv["max_bias_percent"] for lv in entry["lots"])
-        for y in (-lim, lim):
-            ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
-        ax.axhline(0, color=PALETTE["ink"], linewidth=0.6)
-        ax.set_xticks(range(len(names)), names, rotation=30, ha="right")
-        ax.set_xlabel("matrix lot")
-        ax.set_ylabel("bias of the lot mean, %")
-        ax.legend(loc="best", frameon=False)
-        fig.tight_layout()
-        digest = hashlib.sha256(repr(entry["lots"]).encode()).hexdigest()[:10]
-        svg = _svg(fig, f"matrix lots {digest}")
-    return {"lots": svg}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    for k, lv in enumerate(entry["lots"]):
+        judged = [lot for lot in lv["lots"] if lot["bias_percent"] is not None]
+        points(ax, [names.index(lot["lot"]) for lot in judged], [lot["bias_percent"] for lot in judged],
+               markers[k % len(markers)], label=f"nominal {fmt(lv['nominal'])} {reading.unit}")
+    lim = max(lv["max_bias_percent"] for lv in entry["lots"])
+    for y in (-lim, lim):
+        ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
+    ax.axhline(0, color=PALETTE["ink"], lw=0.6)
+    ax.set_xticks(range(len(names)))
+    ax.set_xticklabels(names, rotation=30, ha="right")
+    ax.set_xlabel("matrix lot")
+    ax.set_ylabel("bias of the lot mean, %")
+    ax.legend(loc="best", frameon=False)
+    fig.tight_layout()
+    return {"lots": svg(fig, f"melots{reading.key}")}

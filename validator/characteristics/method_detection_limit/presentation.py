@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -14,7 +13,7 @@ _RULES = {"none numerical": "no method blank gave a numerical result, so MDL_b d
           "mean + t s": "every method blank gave a numerical result: MDL_b = mean (0 if negative) + t·s"}
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     unit = reading.unit
     if entry["value"] is None:
         out = {"summary": f"No MDL: {entry['reason']}."}
@@ -31,5 +30,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}

@@ -2,15 +2,13 @@
 
 from __future__ import annotations
 
-import hashlib
-
-from ...report.reading import Reading
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     if entry["n"] == 0:
         return {"summary": f"No reanalysed samples: {entry['reason']}."}
     word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[entry["passed"]]
@@ -23,32 +21,27 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
+    """``differences``: each sample's % difference against the mean of its two results, with ± the limit."""
     rows = [s for s in entry["samples"] if s["difference_percent"] is not None]
     if not rows:
         return {}
-    from ...report.plots import PALETTE, _RC, _points, _svg
-    import matplotlib.pyplot as plt
-
-    with plt.rc_context(_RC):
-        fig, ax = plt.subplots(figsize=(6.4, 2.8))
-        means = [(s["original"] + s["repeat"]) / 2 for s in rows]
-        inside = [s["within"] for s in rows]
-        _points(ax, [m for m, ok in zip(means, inside) if ok], [s["difference_percent"] for s, ok in zip(rows, inside) if ok],
-                label="within the limit")
-        _points(ax, [m for m, ok in zip(means, inside) if not ok],
-                [s["difference_percent"] for s, ok in zip(rows, inside) if not ok], marker="s",
-                colour=PALETTE["bad"], label="outside the limit")
-        lim = entry["limit_percent"]
-        for y in (-lim, lim):
-            ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
-        ax.axhline(0, color=PALETTE["ink"], linewidth=0.6)
-        ax.set_xscale("log" if min(means) > 0 and max(means) / min(means) > 20 else "linear")
-        ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
-        ax.set_ylabel("(repeat − original) / mean, %")
-        ax.legend(loc="best", frameon=False)
-        fig.tight_layout()
-        # ids unique per figure: several analytes' figures share one HTML page
-        digest = hashlib.sha256(repr([(s["original"], s["repeat"]) for s in rows]).encode()).hexdigest()[:10]
-        svg = _svg(fig, f"isr {digest}")
-    return {"differences": svg}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    means = [(s["original"] + s["repeat"]) / 2 for s in rows]
+    inside = [s["within"] for s in rows]
+    points(ax, [m for m, ok in zip(means, inside) if ok],
+           [s["difference_percent"] for s, ok in zip(rows, inside) if ok], "o", label="within the limit")
+    points(ax, [m for m, ok in zip(means, inside) if not ok],
+           [s["difference_percent"] for s, ok in zip(rows, inside) if not ok], "s", colour=PALETTE["bad"],
+           label="outside the limit")
+    lim = entry["limit_percent"]
+    for y in (-lim, lim):
+        ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
+    ax.axhline(0, color=PALETTE["ink"], lw=0.6)
+    if min(means) > 0 and max(means) / min(means) > 20:
+        ax.set_xscale("log")
+    ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
+    ax.set_ylabel("(repeat − original) / mean, %")
+    ax.legend(loc="best", frameon=False)
+    fig.tight_layout()
+    return {"differences": svg(fig, f"isr{reading.key}")}

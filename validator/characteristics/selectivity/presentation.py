@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     failing = [lot["lot"] for lot in entry["lots"] if not lot["passed"]]
     out = {"summary": (f"{entry['n_lots_passed']} of {entry['n_lots']} blank-matrix lots show no interference above the "
                        "limits" + (f"; interference in lot(s) {', '.join(failing)}." if failing else "."))}
@@ -20,5 +19,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}

@@ -39,8 +39,7 @@ class SelectivityData:
 def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
     """``{analyte: SelectivityData}``; blank rows need a lot, each analyte needs blank and LLOQ rows."""
     from ...errors import DataError
-    from ...inputs.sector_tables import numbers, positive, read_rows
-    from ..carry_over.settings import kinds
+    from ...inputs.sector_tables import kinds, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "selectivity", settings.data, ("lot", "kind", "response"),
                             ("internal_standard_response",), analytes, "selectivity injection")

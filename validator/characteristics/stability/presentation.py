@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-from ...report.reading import Reading
 from ...report.text import fmt, level_label
 
 __all__ = ["sentences", "figures"]
 
 
-def sentences(entry: dict, reading: Reading) -> dict:
+def sentences(entry: dict, reading) -> dict:
     out = {}
     for i, c in enumerate(entry["conditions"]):
         s = c["result"]
@@ -25,5 +24,5 @@ def sentences(entry: dict, reading: Reading) -> dict:
     return out
 
 
-def figures(entry: dict, reading: Reading) -> dict:
+def figures(entry: dict, reading) -> dict:
     return {}
