@@ -19,7 +19,7 @@ from validator.cli import main
 from validator.engine import analyse_study
 from validator.errors import DataError, StudyError
 from validator.inputs.loading import load_study
-from validator.results import build_results, dumps, load_schema
+from validator.results import build_results, load_schema
 
 
 def _run(study, outside, formats="json", name="out"):

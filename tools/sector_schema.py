@@ -18,7 +18,6 @@ import types
 import typing
 from pathlib import Path
 
-from validator._common import ConfidenceInterval
 from validator.characteristics import (carry_over, dilution_integrity, limit_of_blank, matrix_effect,
                                        method_detection_limit, reanalysis, selectivity, stability)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import CarryOver, assess_carry_over, carry_over_criteria
-from .settings import CarryOverData, CarryOverSection, load
+from .settings import CarryOverData, CarryOverSection
 
 __all__ = ["ENTRY", "CarryOver"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import DilutionResult, assess_dilution, dilution_criteria
-from .settings import DilutionData, DilutionIntegritySection, load
+from .settings import DilutionData, DilutionIntegritySection
 
 __all__ = ["ENTRY", "DilutionResult"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import DetectionCapability, detection_capability, detection_capability_criteria
-from .settings import LimitOfBlankData, LimitOfBlankSection, load
+from .settings import LimitOfBlankData, LimitOfBlankSection
 
 __all__ = ["ENTRY", "DetectionCapability"]
 

@@ -6,7 +6,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
-from .settings import MatrixEffectData, MatrixEffectSection, load
+from .settings import MatrixEffectData, MatrixEffectSection
 
 __all__ = ["ENTRY", "MatrixEffect"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import MethodDetectionLimit, mdl, mdl_criteria
-from .settings import MethodDetectionLimitData, MethodDetectionLimitSection, load
+from .settings import MethodDetectionLimitData, MethodDetectionLimitSection
 
 __all__ = ["ENTRY", "MethodDetectionLimit"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import IncurredSampleReanalysis, reanalysis, reanalysis_criteria
-from .settings import ReanalysisData, ReanalysisSection, load
+from .settings import ReanalysisData, ReanalysisSection
 
 __all__ = ["ENTRY", "IncurredSampleReanalysis"]
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import Selectivity, assess_selectivity, selectivity_criteria
-from .settings import SelectivityData, SelectivitySection, load
+from .settings import SelectivityData, SelectivitySection
 
 __all__ = ["ENTRY", "Selectivity"]
 

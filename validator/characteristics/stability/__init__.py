@@ -5,7 +5,7 @@ from __future__ import annotations
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import StabilityResult, assess_stability, stability_criteria
-from .settings import StabilityData, StabilitySection, load
+from .settings import StabilityData, StabilitySection
 
 __all__ = ["ENTRY", "StabilityResult"]
 
