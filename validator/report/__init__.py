@@ -178,11 +178,13 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     # the characteristics shown in each analyte's section, in registry order (those with a fragment)
     sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
+    # characteristics assessed for any analyte (the formulas page shows the sector ones only then)
+    sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
         r=results, study=study, analytes=analytes, summary=summary, alpha=alpha, sections=sections,
-        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
 
