@@ -68,6 +68,7 @@ def written_keys() -> set:
         keys.add(section)
         keys.update(json_fields(*result_types))
     keys.update(e.written_at.rsplit(".", 1)[-1] for e in REGISTRY if e.result_types)   # e.g. loq_verification
+    keys.update(SERIALISED)         # the section names the Serialiser writes under (sector ones by name)
     for path, name in WRITERS:
         tree = ast.parse(path.read_text(encoding="utf-8"))
         function = next(n for n in tree.body if getattr(n, "name", "") == name)

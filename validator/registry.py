@@ -9,8 +9,9 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import (_legacy, calibration, comparison, detection, recovery, reference_material,
-                              revalidation, samples, working_range)
+from .characteristics import (_legacy, calibration, carry_over, comparison, detection, dilution_integrity,
+                              limit_of_blank, matrix_effect, method_detection_limit, reanalysis, recovery,
+                              reference_material, revalidation, samples, selectivity, stability, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -25,6 +26,15 @@ REGISTRY: tuple[Characteristic, ...] = (
     reference_material.ENTRY,
     working_range.LOQ_CHECK,
     working_range.ENTRY,
+    # the sector characteristics (issue #15)
+    limit_of_blank.ENTRY,
+    method_detection_limit.ENTRY,
+    matrix_effect.ENTRY,
+    carry_over.ENTRY,
+    selectivity.ENTRY,
+    stability.ENTRY,
+    dilution_integrity.ENTRY,
+    reanalysis.ENTRY,
     comparison.ENTRY,
     revalidation.ENTRY,
 )

@@ -207,6 +207,8 @@ def _analyte(a):
     for entry in registry.REGISTRY:
         if entry.result_types:
             result = a.result_of(entry)
+            if result is None and entry.name not in _SECTION_ORDER:
+                continue                 # a newer characteristic is written only when assessed
             if result is not None and entry.record is not None:
                 result = entry.record(result)
             *parents, name = entry.written_at.split(".")
@@ -255,6 +257,8 @@ def build_results(result, *, generated_at: str) -> dict:
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
         "analytes": [_analyte(a) for a in result.analytes],
+        **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
+           if loaded.config.study.guideline is not None else {}),
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
                          "generated_at": loaded.previous.generated_at, "sha256": loaded.previous.sha256},
@@ -262,6 +266,15 @@ def build_results(result, *, generated_at: str) -> dict:
             "matched_analytes": [{"analyte": new, "previous_analyte": old} for new, old in loaded.previous.matched],
             "unmatched_analytes": list(loaded.previous.unmatched)},
     }
+
+
+def _guideline(name: str, uses) -> dict:
+    """``[study] guideline``: the preset, and each of its values used or overridden by the study."""
+    from .sector.presets import PRESETS
+
+    return {"name": name, "title": PRESETS[name].title,
+            "values": [{"key": u.key, "preset_value": u.preset_value, "study_value": u.study_value,
+                        "used": u.used, "source": u.source, "from_memory": u.from_memory} for u in uses]}
 
 
 _ITEM = json.JSONEncoder(ensure_ascii=False, allow_nan=False)

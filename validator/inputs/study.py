@@ -35,6 +35,7 @@ from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationErr
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
 from ..protocol import DesignSection, ProtocolSection
+from ..sector.presets import PRESET_NAMES, PresetUse, resolve as resolve_preset
 
 __all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS",
            "MAX_STUDY_BYTES", "MAX_NESTING", "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
@@ -108,6 +109,8 @@ class StudySection(_Section):
     decimal: Literal[".", ","] = "."
     delimiter: Literal[",", ";", "tab"] = ","
     max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up
+    # default acceptance criteria of a named guideline (validator.sector.presets)
+    guideline: Optional[Literal[PRESET_NAMES]] = None
 
     @model_validator(mode="after")
     def _dialect(self):
@@ -159,11 +162,15 @@ _TABLES_AFTER = ("design", "protocol")
 
 
 def _table_field(model: type[BaseModel], required: bool) -> tuple:
-    """A table's field of StudyConfig: required; always present when every key has a default; else optional."""
+    """A table's field of StudyConfig: required; always present when the table without keys is valid; else
+    optional."""
     if required:
         return (model, ...)
     if all(not f.is_required() for f in model.model_fields.values()):
-        return (model, model())
+        try:
+            return (model, model())
+        except ValidationError:      # every key has a default, yet an empty table is not valid (it
+            pass                     # needs one of several keys): optional, like a table with a required key
     return (Optional[model], None)
 
 
@@ -211,6 +218,7 @@ class StudyFile:
     sha256: str
     config: Any                # the StudyConfig (study_config_model()) instance
     defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
+    guideline: tuple[PresetUse, ...] = ()             # what [study] guideline supplied or the study overrode
 
     def resolve(self, data_path: str) -> Path:
         """A data path from the study file, relative to the study file's folder."""
@@ -422,5 +430,25 @@ def read_study_file(path: str | Path) -> StudyFile:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',
                          file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
+    config, uses = _apply_guideline(config)
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
-                     config=config, defaults_applied=tuple(_defaults(config)))
+                     config=config, defaults_applied=tuple(_defaults(config)), guideline=uses)
+
+
+def _apply_guideline(config: StudyConfig) -> tuple[StudyConfig, tuple[PresetUse, ...]]:
+    """The study with ``[study] guideline``'s defaults filled into the sections it declares.
+
+    A key the study sets keeps the study's value (listed as overridden); a key the preset fills
+    counts as set, so it is listed among the preset's values and not among the defaults applied.
+    """
+    if config.study.guideline is None:
+        return config, ()
+    declared = {name: {key: getattr(section, key) for key in section.model_fields_set}
+                for name in config.model_fields_set
+                if isinstance(section := getattr(config, name), BaseModel)}
+    updates, uses = resolve_preset(config.study.guideline, declared)
+    for name, values in updates.items():
+        section = getattr(config, name)
+        own = {key: getattr(section, key) for key in section.model_fields_set}
+        config = config.model_copy(update={name: type(section).model_validate({**own, **values})})
+    return config, uses

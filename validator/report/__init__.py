@@ -204,6 +204,8 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
     # the characteristics shown in each analyte's section, in registry order (those with a fragment)
     sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
+    # characteristics assessed for any analyte (the formulas page shows the sector ones only then)
+    sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
@@ -213,7 +215,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
         matrix=summary.matrix(results), conclusion=summary.conclusion(results), remarks=all_remarks,
         flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
         calibration_file=result.loaded.config.calibration.data,
-        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
 
