@@ -99,3 +99,13 @@ def test_superscripts_and_labels():
 def test_negative_scientific_and_negative_zero():
     assert N.matched(-5.53e-5, 1.2e-6) == "-5.53×10⁻⁵"      # hand computation: u = 0.0000012 sets 7 decimals
     assert N.by_rule(-0.0004, "percent") == "0.0"
+
+
+@pytest.mark.parametrize("criterion_id, characteristic", [    # ids from criteria.py and the characteristic packages
+    ("lack-of-fit", "calibration"), ("recovery-0.5", "recovery"), ("repeatability-rsd-10", "precision"),
+    ("loq-verification", "detection"), ("working-range", "working_range"), ("carry-over", "carry_over"),
+    ("dilution-cv-10x", "dilution_integrity"), ("matrix-lots-5", "matrix_effect"), ("unknown-thing", "other"),
+])
+def test_criterion_characteristic(criterion_id, characteristic):
+    from validator.report.summary import criterion_characteristic
+    assert criterion_characteristic(criterion_id) == characteristic

@@ -52,6 +52,11 @@ _CRITERION_CHARACTERISTIC = (
     ("reference-material-", "reference_material"), ("slope-equivalence", "revalidation"),
     ("residual-sd-ratio", "revalidation"), ("method-comparison-", "comparison"),
     ("protocol-deviation", "protocol"),
+    # the sector characteristics (issue #15)
+    ("carry-over", "carry_over"), ("carry-over-", "carry_over"), ("incurred-sample-reanalysis", "reanalysis"),
+    ("matrix-effect-", "matrix_effect"), ("matrix-factor-", "matrix_effect"), ("matrix-lots-", "matrix_effect"),
+    ("method-detection-limit", "method_detection_limit"), ("selectivity", "selectivity"),
+    ("dilution-", "dilution_integrity"), ("stability-", "stability"),
 )
 
 

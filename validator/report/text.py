@@ -10,9 +10,12 @@ from __future__ import annotations
 
 from .._common import level_label
 from . import numbers as N
+# the reporting rules, re-exported for the characteristics' presentation modules (which import report.text)
+from .numbers import basis_label, by_rule, matched, superscripts_in, uncertainty  # noqa: F401
 from .summary import LOD_BELOW_LOWEST_FACTOR, flagged_points, lowest_calibrator
 
-__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences"]
+__all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label", "calibration_sentences",
+           "basis_label", "by_rule", "matched", "superscripts_in", "uncertainty"]
 
 SIG = N.DEFAULT_SIG
 SIG_P = N.P_SIG

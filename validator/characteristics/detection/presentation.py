@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report import numbers as N
+from ...report.text import basis_label, by_rule, superscripts_in, uncertainty
 
 __all__ = ["sentences"]
 
@@ -14,18 +14,18 @@ def sentences(det: dict, reading) -> dict[str, str]:
     out = {}
     rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
     if rep["lod"] is not None:
-        out["limits"] = (f"On the reported basis ({N.basis_label(rep['method'])}), the limit of detection is "
-                         f"{N.uncertainty(rep['lod'])} {unit} and the limit of quantitation {N.uncertainty(rep['loq'])} {unit}. "
+        out["limits"] = (f"On the reported basis ({basis_label(rep['method'])}), the limit of detection is "
+                         f"{uncertainty(rep['lod'])} {unit} and the limit of quantitation {uncertainty(rep['loq'])} {unit}. "
                          "Estimates on the other bases are listed for comparison; they differ because "
                          "each uses a different estimate of the noise.")
     else:
-        out["limits"] = f"No LOD/LOQ on the reported basis ({N.basis_label(rep['method'])}): {rep['reason']}."
+        out["limits"] = f"No LOD/LOQ on the reported basis ({basis_label(rep['method'])}): {rep['reason']}."
     iso = next(e for e in det["estimates"] if e["method"] == "iso-11843-2")
     if iso["lod"] is not None:
-        out["iso"] = (f"ISO 11843-2: critical value x_C = {N.uncertainty(iso['critical_value'])} {unit} (a result above it "
+        out["iso"] = (f"ISO 11843-2: critical value x_C = {uncertainty(iso['critical_value'])} {unit} (a result above it "
                       f"is distinguished from zero with error probability alpha = {reading.alpha:g}) and minimum "
-                      f"detectable value x_D = {N.uncertainty(iso['lod'])} {unit}, with delta = {N.by_rule(iso['delta'], 'statistic')} computed "
+                      f"detectable value x_D = {uncertainty(iso['lod'])} {unit}, with delta = {by_rule(iso['delta'], 'statistic')} computed "
                       "exactly from the non-central t distribution (not the 2t approximation).")
     else:
         out["iso"] = f"ISO 11843-2 was not applicable: {iso['reason']}."
-    return {key: N.superscripts_in(text) for key, text in out.items()}
+    return {key: superscripts_in(text) for key, text in out.items()}

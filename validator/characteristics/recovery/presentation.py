@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from ...report.plots import PALETTE, figure, points, svg
-from ...report import numbers as N
+from ...report.text import by_rule
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -12,7 +12,7 @@ __all__ = ["sentences", "figures"]
 def sentences(rec: dict, reading) -> dict[str, str]:
     """``mean``: the overall mean and the levels outside their range; ``t_test``: the bias test per level."""
     failed = [lvl for lvl in rec["levels"] if not lvl["pass"]]
-    mean = (f"Mean recovery over all {rec['n']} spiked results is {N.by_rule(rec['overall_mean_pct'], 'percent')} %. "
+    mean = (f"Mean recovery over all {rec['n']} spiked results is {by_rule(rec['overall_mean_pct'], 'percent')} %. "
             + ("Every level's mean lies inside its acceptance range." if not failed else
                "The mean recovery is outside its acceptance range at added "
                + ", ".join(fmt(lvl["added"]) for lvl in failed) + f" {reading.unit}."))

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report import numbers as N
+from ...report.text import by_rule, matched, uncertainty
 from ...report.text import fmt
 
 __all__ = ["sentences"]
@@ -16,7 +16,7 @@ def sentences(rm: dict, reading) -> dict[str, str]:
         return {"bias": f"The reference material bias was not tested: {why}."}
     word = "is" if rm["significant"] else "is not"
     return {"bias": (
-        f"The mean of {rm['n']} results on the reference material is {N.matched(rm['mean'], rm['u_mean'])} {unit} against "
-        f"the certified {fmt(rm['certified_value'])} {unit}: bias {N.matched(rm['bias'], rm['expanded_uncertainty'])} {unit} "
-        f"({N.by_rule(rm['bias_pct'], 'percent')} %), which {word} significant, since |bias| "
-        f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {N.uncertainty(rm['expanded_uncertainty'])} {unit}.")}
+        f"The mean of {rm['n']} results on the reference material is {matched(rm['mean'], rm['u_mean'])} {unit} against "
+        f"the certified {fmt(rm['certified_value'])} {unit}: bias {matched(rm['bias'], rm['expanded_uncertainty'])} {unit} "
+        f"({by_rule(rm['bias_pct'], 'percent')} %), which {word} significant, since |bias| "
+        f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {uncertainty(rm['expanded_uncertainty'])} {unit}.")}
