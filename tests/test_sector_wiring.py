@@ -143,7 +143,8 @@ def test_reanalysis_by_hand_and_exact_two_thirds(make_study, outside):
     defaults = {d["key"] for d in results["defaults_applied"]}
     assert {"reanalysis.limit_pct", "reanalysis.min_fraction"} <= defaults
     html = (out / "dossier.html").read_text(encoding="utf-8")
-    assert "4 of 6 repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    # the section's own heading (the title also appears in the analyte's line of verdicts)
+    assert "4 of 6 repeats" in html and "<svg" in html.split("<h3>Incurred-sample reanalysis")[1]
     # 0.67 is not two-thirds: 4/6 = 0.6667 < 0.67 fails (compared exactly)
     _, results, _ = _run(make_study(ISR_BODY + "min_fraction = 0.67\n", _isr_files()), outside, name="b")
     assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is False
