@@ -17,10 +17,28 @@ import os
 import re
 from concurrent.futures import ProcessPoolExecutor
 
-import matplotlib
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
+
+def _pyplot():
+    """matplotlib's pyplot on the Agg backend, imported on first use: a run that draws no figure
+    (``--format json``) does not pay the import (about 0.5 s), although the characteristics'
+    presentation modules import this module."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    return plt
+
+
+class _LazyPyplot:
+    """``plt.x`` resolves ``matplotlib.pyplot.x`` at the call, importing pyplot then."""
+
+    def __getattr__(self, name):
+        return getattr(_pyplot(), name)
+
+
+plt = _LazyPyplot()
 
 __all__ = ["PALETTE", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg"]
 
@@ -57,6 +75,8 @@ def _points(ax, x, y, marker="o", colour=None, **kw):
 
 def style():
     """The house style (a matplotlib rc context) in which every dossier figure is drawn."""
+    import matplotlib
+
     return matplotlib.rc_context(_RC)
 
 
@@ -286,7 +306,7 @@ def _comparison_figure(d: dict) -> str:
 
 
 def analyte_figures(d: dict) -> dict:
-    with matplotlib.rc_context(_RC):
+    with style():
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
         if d.get("precision"):
             figs["precision"] = _precision_figure(d)
@@ -322,6 +342,7 @@ def figures_for_all(plot_data: list, draw=analyte_figures) -> list:
 
     ``draw`` must be a module-level function (it is sent to the worker processes by name).
     """
+    _pyplot()       # imported once here, before the workers are forked, not once in each
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
         with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
