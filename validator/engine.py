@@ -15,10 +15,10 @@ from scipy import stats
 from ._common import quiet_numpy
 from .characteristics.calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
 from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
-                       overall_verdict, precision_level_criteria, recovery_criteria, reference_material_criterion,
+                       overall_verdict, recovery_criteria, reference_material_criterion,
                        working_range_criterion)
 from .characteristics.detection import DetectionResult, assess_detection
-from .characteristics.precision import PrecisionLevel, assess_precision_level
+from .characteristics.precision import PrecisionLevel, assess_precision_level, precision_criteria
 from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
                                        assess_reference_material)
 from .characteristics.comparison import ComparisonResult, assess_comparison
@@ -238,15 +238,21 @@ def _precision(ctx: AnalyteContext) -> Assessment | None:
     p = ctx.data.precision
     if p is None:
         return None
-    levels = tuple(assess_precision_level(level, p.found[p.level == level],
-                                          [s for s, lv in zip(p.series, p.level) if lv == level],
-                                          alpha=ctx.alpha, unit=ctx.unit, offset=p.offset)
-                   for level in np.unique(p.level))
+    pc = ctx.config.precision
+    levels = []
+    for level in np.unique(p.level):
+        mask = p.level == level
+        levels.append(assess_precision_level(
+            level, p.found[mask], [s for s, lv in zip(p.series, p.level) if lv == level], alpha=ctx.alpha,
+            unit=ctx.unit, offset=p.offset, design=pc.design, factors=tuple(np.asarray(f)[mask] for f in p.factors),
+            claims=pc.claims_for(float(level)), bounds=ctx.config.criteria.on_intervals))
+    levels = tuple(levels)
     return Assessment(levels, tuple(c for lv in levels for c in _precision_criteria(ctx, lv)))
 
 
 def _precision_criteria(ctx: AnalyteContext, lv: PrecisionLevel) -> tuple:
-    return precision_level_criteria(lv, ctx.config.precision.limits_for(lv.level))
+    return precision_criteria(lv, ctx.config.precision.limits_for(lv.level),
+                              on_intervals=ctx.config.criteria.on_intervals, alpha=ctx.alpha)
 
 
 def _reference_material(ctx: AnalyteContext) -> Assessment | None:

@@ -62,6 +62,8 @@ class PrecisionData:
     series: tuple[str, ...] = field(repr=False)
     found: np.ndarray = field(repr=False)       # found - offset, the subtraction done exactly
     offset: float = 0.0
+    # the labels of each factor of [precision] design, outermost first (empty: the one-way design)
+    factors: tuple[tuple[str, ...], ...] = field(default=(), repr=False)
 
 
 @dataclass(frozen=True)
@@ -302,21 +304,29 @@ def _recovery(reader, analytes):
 
 
 def _precision(reader, analytes):
+    design = tuple(reader.study.config.precision.design or ())
+
     def prepare(table):
         level = _numbers(table, "level", reader.decimal)
-        series = table.texts("series")
+        labels = [table.texts(name) for name in design]
+        if table.has("series") or not design:
+            series = table.texts("series")
+        else:        # the one-way analysis (outlier tests) groups by the innermost unit of the design
+            series = [" / ".join(path) for path in zip(*labels)]
         _numbers(table, "found", reader.decimal)          # every cell checked before centring
         _declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
                                level)
-        return table, level, series
+        return table, level, series, labels
 
     def make(columns, idx, name):
-        table, level, series = columns
+        table, level, series, labels = columns
         offset, centred = exact_centre([table.columns["found"][i] for i in idx], reader.decimal)
-        return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
+        return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset,
+                             tuple(tuple(column[i] for i in idx) for column in labels))
 
-    return _per_analyte(reader, analytes, "precision", ("level", "series", "found"), ("analyte",),
-                        "precision result", prepare, make)
+    required = ("level", "found") + (design if design else ("series",))
+    optional = ("analyte",) + (("series",) if design and "series" not in design else ())
+    return _per_analyte(reader, analytes, "precision", required, optional, "precision result", prepare, make)
 
 
 def _reference_material(reader, analytes):

@@ -131,6 +131,15 @@ class CriteriaSection(_Section):
     lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
+    # what decides recovery and precision RSD criteria: the point estimate, or its interval
+    # (recovery by two one-sided tests, RSDs by their upper confidence bound). Not set means
+    # "estimate"; it is left unset rather than defaulted so that the defaults recorded for
+    # studies written before this key existed stay as they were
+    judge_on: Optional[Literal["estimate", "interval"]] = None
+
+    @property
+    def on_intervals(self) -> bool:
+        return self.judge_on == "interval"
 
 
 class BlanksSection(_Section):
@@ -194,6 +203,13 @@ class PrecisionLevelLimit(_Section):
     level: float = Field(ge=0)
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
+    claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
+    claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
+
+
+# a column of the precision data naming a factor of the nested design (day, run, analyst, ...)
+FactorColumn = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Za-z_][A-Za-z0-9_]*$")]
+RESERVED_PRECISION_COLUMNS = ("analyte", "level", "found")
 
 
 class PrecisionSection(_Section):
@@ -201,13 +217,43 @@ class PrecisionSection(_Section):
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     levels: list[PrecisionLevelLimit] = []
+    # the nesting of the precision experiment, outermost factor first (e.g. ["day", "run"]); the
+    # replicate is the innermost; None: the one-way design on the series column
+    design: Optional[list[FactorColumn]] = Field(None, min_length=1, max_length=4)
+    # a manufacturer's or earlier claim, verified by the upper verification limit (CLSI EP15)
+    claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
+    claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
 
-    def limits_for(self, level: float) -> tuple:
+    @model_validator(mode="after")
+    def _design(self):
+        if self.design is not None:
+            if len(set(self.design)) != len(self.design):
+                raise ValueError(f"design must name distinct columns, got {show(list(self.design))}")
+            bad = [c for c in self.design if c in RESERVED_PRECISION_COLUMNS]
+            if bad:
+                raise ValueError(f"design names the column {show(bad[0])}, which holds "
+                                 f"{'the results' if bad[0] == 'found' else 'no factor'}; name factor columns "
+                                 "such as \"day\", \"run\", \"analyst\"")
+        return self
+
+    def _level(self, level: float):
         for lv in self.levels:
             if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
-                return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
-                        lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
+                return lv
+        return None
+
+    def limits_for(self, level: float) -> tuple:
+        lv = self._level(level)
+        if lv is not None:
+            return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
+                    lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
+
+    def claims_for(self, level: float) -> tuple:
+        """(claimed repeatability RSD %, claimed within-laboratory RSD %) at ``level``, None where not claimed."""
+        lv = self._level(level)
+        own = (None, None) if lv is None else (lv.claimed_repeatability_rsd_pct, lv.claimed_within_laboratory_rsd_pct)
+        return (own[0] or self.claimed_repeatability_rsd_pct, own[1] or self.claimed_within_laboratory_rsd_pct)
 
 
 class ReferenceMaterialSection(_Section):
