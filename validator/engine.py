@@ -22,6 +22,11 @@ from .characteristics.precision import PrecisionLevel, assess_precision_level, p
 from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
                                        assess_reference_material)
 from .characteristics.comparison import ComparisonResult, assess_comparison
+from .characteristics.interval_judgement import recovery_interval_criteria
+from .characteristics.accuracy_profile.analysis import (AccuracyProfileResult, accuracy_profile_criteria,
+                                                        assess_accuracy_profile)
+from .characteristics.uncertainty.analysis import (BiasEvidence, PrecisionInput, UncertaintyResult,
+                                                   assess_uncertainty, uncertainty_criteria)
 from .criteria import Criterion
 from .characteristics.revalidation import RevalidationResult, RunSummary, assess_revalidation, run_summary
 from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
@@ -119,6 +124,8 @@ class AnalyteResult:
     reference_material: ReferenceMaterialResult | None = None
     revalidation: RevalidationResult | None = None
     comparison: ComparisonResult | None = None
+    accuracy_profile: AccuracyProfileResult | None = None
+    uncertainty: UncertaintyResult | None = None
 
     @property
     def characteristics(self) -> tuple:
@@ -135,6 +142,10 @@ class AnalyteResult:
             out.append("revalidation")
         if self.comparison is not None:
             out.append("comparison")
+        if self.accuracy_profile is not None:
+            out.append("accuracy_profile")
+        if self.uncertainty is not None:
+            out.append("uncertainty")
         return tuple(out)
 
     @property
@@ -177,6 +188,8 @@ class AnalyteContext:
     working_range: WorkingRange | None = None
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
+    accuracy_profile: AccuracyProfileResult | None = None
+    uncertainty: UncertaintyResult | None = None
     criteria: tuple[Criterion, ...] = ()
     # characteristics without a field of their own here (added to the registry only), by name
     others: tuple[tuple[str, Assessment], ...] = ()
@@ -231,6 +244,8 @@ def _recovery(ctx: AnalyteContext) -> Assessment | None:
     if r is None:
         return None
     recovery = assess_recovery(r.added, r.found, r.native, alpha=ctx.alpha, range_for=ctx.config.recovery.range_for)
+    if ctx.config.criteria.on_intervals:
+        return Assessment(recovery, recovery_interval_criteria(recovery, ctx.alpha))
     return Assessment(recovery, recovery_criteria(recovery))
 
 
@@ -262,6 +277,63 @@ def _reference_material(ctx: AnalyteContext) -> Assessment | None:
     rm = assess_reference_material(ctx.data.reference_material, rmc.certified_value, rmc.standard_uncertainty,
                                    k=rmc.coverage_factor, measurement_uncertainty=rmc.measurement_standard_uncertainty)
     return Assessment(rm, (reference_material_criterion(rm),))
+
+
+def _runs(p) -> tuple[tuple[str, ...], str]:
+    """The run of each precision result: the innermost unit of the declared design, else the series."""
+    if p.factors:
+        return tuple(" / ".join(path) for path in zip(*p.factors)), "innermost factor of the design"
+    return p.series, "series"
+
+
+def _accuracy_profile(ctx: AnalyteContext) -> Assessment | None:
+    ac, p = ctx.config.accuracy_profile, ctx.data.precision
+    if ac is None or p is None:
+        return None
+    runs, by = _runs(p)
+    if p.factors:
+        by = f"units of the innermost design factor ({ctx.config.precision.design[-1]})"
+    profile = assess_accuracy_profile(p.level, p.found + p.offset, runs, beta=ac.beta,
+                                      acceptance_for=ac.acceptance_for, runs_by=by, content=ac.content,
+                                      confidence=ac.confidence)
+    return Assessment(profile, accuracy_profile_criteria(profile))
+
+
+def _uncertainty(ctx: AnalyteContext) -> Assessment | None:
+    uc = ctx.config.uncertainty
+    if uc is None or not ctx.precision:
+        return None
+    design = ctx.config.precision.design
+    source = ("intermediate precision RSD, all components of the design " + "/".join(design) if design else
+              "intermediate precision RSD, one-way ANOVA on series")
+    prec = tuple(PrecisionInput(lv.level, lv.decisive[2], source, lv.decisive[4]) for lv in ctx.precision)
+    bias = []
+    rm = ctx.reference_material
+    if "reference_material" in uc.bias_from and rm is not None:
+        u_mean = (rm.sd / np.sqrt(rm.n)) if rm.sd is not None else 0.0
+        bias.append(BiasEvidence(
+            "reference material", rm.bias_pct, 100.0 * float(np.hypot(rm.certified_uncertainty, u_mean))
+            / rm.certified_value,
+            # from memory: Nordtest TR 537 ed. 4 (one CRM) adds the standard error of the mean of its
+            # replicates, s/sqrt(n), to u(Cref) in quadrature
+            "bias of the mean against the certified value; u(Cref) = certified standard uncertainty combined "
+            f"with the standard error of the mean of the {rm.n} result(s)"))
+    if "recovery" in uc.bias_from and ctx.recovery is not None:
+        for lv in ctx.recovery.levels:
+            bias.append(BiasEvidence(
+                f"recovery at added {lv.added:g}", lv.mean_pct - 100.0, uc.spike_standard_uncertainty_pct,
+                f"mean recovery - 100 %; u(Cref) = the declared standard uncertainty of the spike "
+                f"({uc.spike_standard_uncertainty_pct:g} %)"))
+    reported = ctx.detection.reported if ctx.detection is not None else None
+    loq = None if reported is None else reported.loq
+    profile = ctx.accuracy_profile
+    profile_sd = {} if profile is None else {lv.nominal: lv.prediction_sd_pct for lv in profile.levels
+                                             if lv.prediction_sd_pct is not None}
+    result = assess_uncertainty(prec, tuple(bias), coverage_factor=uc.coverage_factor, loq=loq,
+                                loq_reason="" if loq is not None else
+                                (getattr(reported, "reason", "") or "no LOQ is reported"),
+                                profile_sd_pct=profile_sd)
+    return Assessment(result, uncertainty_criteria(result, uc.expanded_max_pct))
 
 
 def _loq_check(ctx: AnalyteContext) -> Assessment:
@@ -321,7 +393,9 @@ REGISTRY: tuple[Characteristic, ...] = (
     Characteristic("detection", _detection),
     Characteristic("recovery", _recovery),
     Characteristic("precision", _precision),
+    Characteristic("accuracy_profile", _accuracy_profile),
     Characteristic("reference_material", _reference_material),
+    Characteristic("uncertainty", _uncertainty),
     Characteristic("loq_check", _loq_check),
     Characteristic("working_range", _working_range),
     Characteristic("comparison", _comparison),
@@ -347,7 +421,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                          residual_views=residual_series(cal.fit), detection=ctx.detection,
                          working_range=ctx.working_range, loq_check=ctx.loq_check, recovery=ctx.recovery,
                          precision=ctx.precision, reference_material=ctx.reference_material,
-                         revalidation=ctx.revalidation, comparison=ctx.comparison)
+                         revalidation=ctx.revalidation, comparison=ctx.comparison,
+                         accuracy_profile=ctx.accuracy_profile, uncertainty=ctx.uncertainty)
 
 
 def _revalidation_criteria(reval, rc) -> list:

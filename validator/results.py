@@ -31,6 +31,8 @@ from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
 from .criteria import Criterion
 from .characteristics.working_range import LoqCheck, WorkingRange
+from .characteristics.accuracy_profile.analysis import AccuracyProfileResult
+from .characteristics.uncertainty.analysis import UncertaintyResult
 from .signing import operator_and_host
 
 __all__ = ["SCHEMA_VERSION", "build_results", "dumps", "load_schema", "library_versions"]
@@ -261,6 +263,7 @@ def _calibration(a):
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
               "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
               "reference_material": (ReferenceMaterialResult,), "comparison": (ComparisonResult,),
+              "accuracy_profile": (AccuracyProfileResult,), "uncertainty": (UncertaintyResult,),
               "criteria": (Criterion,)}
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
@@ -431,6 +434,13 @@ def _analyte(a, previous=None):
                                else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
+    }
+    # issue #13's sections appear only when the study declares them (earlier results unchanged)
+    if a.accuracy_profile is not None:
+        entry["accuracy_profile"] = serialise(a.accuracy_profile, "accuracy_profile")
+    if a.uncertainty is not None:
+        entry["uncertainty"] = serialise(a.uncertainty, "uncertainty")
+    entry |= {
         "criteria": serialise(a.criteria, "criteria"),
         "diagnostics": list(a.calibration.diagnostics),
     }

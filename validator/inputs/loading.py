@@ -316,6 +316,9 @@ def _precision(reader, analytes):
         _numbers(table, "found", reader.decimal)          # every cell checked before centring
         _declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
                                level)
+        if reader.study.config.accuracy_profile is not None:
+            _declared_levels_exist(reader, "accuracy_profile", "level",
+                                   [lv.level for lv in reader.study.config.accuracy_profile.levels], level)
         return table, level, series, labels
 
     def make(columns, idx, name):

@@ -287,6 +287,48 @@ class ComparisonSection(_Section):
         return self
 
 
+# [accuracy_profile] and [uncertainty] (issue #13); re-exported by their characteristic packages
+class AcceptanceLevel(_Section):
+    level: float = Field(gt=0)
+    acceptance_pct: float = Field(gt=0, le=100)
+
+
+class AccuracyProfileSection(_Section):
+    # expected proportion of future results inside the beta-expectation interval
+    beta: float = Field(0.80, ge=0.5, le=0.999)
+    # acceptance limits +/- lambda % of the nominal value; per-level values in levels
+    acceptance_pct: float = Field(gt=0, le=100)
+    levels: list[AcceptanceLevel] = []
+    # optional beta-content, gamma-confidence interval beside the beta-expectation one
+    content: Optional[float] = Field(None, ge=0.5, le=0.999)
+    confidence: Optional[float] = Field(None, ge=0.5, le=0.999)
+
+    @model_validator(mode="after")
+    def _pair(self):
+        if (self.content is None) != (self.confidence is None):
+            raise ValueError("content and confidence go together: give both for a beta-content interval, "
+                             "or neither")
+        return self
+
+    def acceptance_for(self, level: float) -> float:
+        for lv in self.levels:
+            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
+                return lv.acceptance_pct
+        return self.acceptance_pct
+
+
+class UncertaintySection(_Section):
+    # k of U = k u_c
+    coverage_factor: float = Field(2.0, gt=0, le=10)
+    # where u(bias) comes from (each used only when the study has it)
+    bias_from: list[Literal["reference_material", "recovery"]] = Field(
+        ["reference_material", "recovery"], min_length=1, max_length=2)
+    # the relative standard uncertainty of the added amount of a spike, u(Cref) of a recovery level
+    spike_standard_uncertainty_pct: float = Field(0.0, ge=0, le=100)
+    # a target: the relative expanded uncertainty at each precision level at most this
+    expanded_max_pct: Optional[float] = Field(None, gt=0, le=1000)
+
+
 class StudyConfig(_Section):
     """The whole study file as validated data (no data files read yet)."""
 
@@ -298,6 +340,8 @@ class StudyConfig(_Section):
     detection: DetectionSection = DetectionSection()
     recovery: Optional[RecoverySection] = None
     precision: Optional[PrecisionSection] = None
+    accuracy_profile: Optional[AccuracyProfileSection] = None
+    uncertainty: Optional[UncertaintySection] = None
     reference_material: Optional[ReferenceMaterialSection] = None
     revalidation: Optional[RevalidationSection] = None
     comparison: Optional[ComparisonSection] = None
@@ -526,5 +570,9 @@ def read_study_file(path: str | Path) -> StudyFile:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',
                          file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
+    for section in ("accuracy_profile", "uncertainty"):
+        if getattr(config, section) is not None and config.precision is None:
+            raise StudyError(f"[{section}] is built from the precision results, so it needs a [precision] "
+                             "section naming their data", file=shown, line=_key_line(text, (section,)), key=section)
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
                      config=config, defaults_applied=tuple(_defaults(config)))
