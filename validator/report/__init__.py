@@ -104,6 +104,28 @@ def _change_data(a, entry: dict) -> dict:
     return out
 
 
+def _issue13_sentences(a: dict, study: dict) -> dict:
+    """Sentences of nested precision, accuracy profile and uncertainty (from their results.json entries)."""
+    from ..characteristics import precision_presentation
+    from ..characteristics.accuracy_profile import presentation as profile
+    from ..characteristics.uncertainty import presentation as uncertainty
+    unit, out = study["concentration_unit"], {}
+    if a.get("precision"):
+        out.update(precision_presentation.sentences(a["precision"], unit))
+    if "accuracy_profile" in a:
+        out.update(profile.sentences(a["accuracy_profile"], unit))
+    if "uncertainty" in a:
+        out.update(uncertainty.sentences(a["uncertainty"], unit))
+    return out
+
+
+def _issue13_figures(a: dict, study: dict, index: int) -> dict:
+    from ..characteristics.accuracy_profile import presentation as profile
+    if "accuracy_profile" not in a:
+        return {}
+    return profile.figures(a["accuracy_profile"], study["concentration_unit"], str(index))
+
+
 def render_html(result, results: dict, *, paper: str = "a4") -> str:
     """The dossier as one self-contained HTML document."""
     study = results["study"]
@@ -112,9 +134,10 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                                for i, a in enumerate(result.analytes)])
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        analytes.append({"index": i, "data": a, "figures": figures[i],
+        analytes.append({"index": i, "data": a, "figures": {**figures[i], **_issue13_figures(a, study, i)},
                          "text": {**calibration_sentences(a, alpha, study["concentration_unit"]),
-                                  **characteristic_sentences(a, alpha, study["concentration_unit"])}})
+                                  **characteristic_sentences(a, alpha, study["concentration_unit"]),
+                                  **_issue13_sentences(a, study)}})
     summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")

@@ -42,7 +42,7 @@ def sentences(entry: dict, unit: str) -> dict:
     return {"accuracy_profile": text}
 
 
-def figures(entry: dict, unit: str) -> dict:
+def figures(entry: dict, unit: str, key: str = "") -> dict:
     """{"accuracy_profile": SVG}: relative bias and tolerance limits against concentration, with the
     acceptance limits."""
     levels = [lv for lv in entry["levels"] if lv["tolerance_low_pct"] is not None]
@@ -69,4 +69,4 @@ def figures(entry: dict, unit: str) -> dict:
                      fontsize=8, loc="left")
         ax.legend(fontsize=7, frameon=False, loc="best")
         fig.tight_layout()
-        return {"accuracy_profile": _svg(fig, "accprofile")}
+        return {"accuracy_profile": _svg(fig, f"ap{key}")}
