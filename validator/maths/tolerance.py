@@ -41,6 +41,8 @@ References
    procedures: a SFSTP proposal - part I. J. Pharm. Biomed. Anal. 36, 579-586;
    part II (2007) 45, 70-81; part III (2007) 45, 82-96.
 .. [Satterthwaite] Satterthwaite, F. E. (1946). Biometrics Bulletin 2, 110-114.
+.. [Graybill-Wang] Graybill, F. A. and Wang, C.-M. (1980). J. Am. Stat. Assoc. 75,
+   869-873 (modified large-sample bounds on sums of variance components).
 """
 
 from __future__ import annotations
@@ -353,16 +355,17 @@ class RunsContentInterval:
     """Beta-content, gamma-confidence interval for runs x replicates (one-way random model).
 
     ``effective_n`` is s_IP^2 / v_m (the number of results the centre is worth),
-    ``df`` the Satterthwaite df of s_IP^2, ``k`` multiplies ``sd_intermediate``.
+    ``sd_upper`` the square root of the one-sided MLS upper confidence bound on
+    s_IP^2, ``k`` the factor on ``sd_intermediate`` that gives the half-width.
     """
 
     low: float | None
     high: float | None
     mean: float | None
     k: float | None
-    df: float | None
     effective_n: float | None
     sd_intermediate: float | None
+    sd_upper: float | None
     content: float
     confidence: float
     reason: str = ""
@@ -380,33 +383,51 @@ def runs_content_interval(runs, content: float, confidence: float) -> RunsConten
 
     Notes
     -----
-    From the quantities of :func:`beta_expectation_interval` (centre m, s_IP^2,
-    the variance v_m of the centre, Satterthwaite df nu), Howe's factor
-    ([Howe], [NIST-7.2.6.3]) with the effective sample size n_e = s_IP^2 / v_m
-    in place of n and nu in place of n - 1::
+    From the quantities of :func:`beta_expectation_interval` (centre m, s_IP^2 =
+    MS_B / n0 + (1 - 1/n0) MS_W, the variance v_m of the centre) and the one-sided
+    upper ``confidence`` bound U on sigma_IP^2 by the modified large-sample method
+    ([Graybill-Wang]; :func:`validator.maths.variance_components.sum_of_mean_squares_interval`
+    at two-sided level 2 confidence - 1)::
 
-        k = z_{(1+content)/2} sqrt(nu (1 + 1/n_e) / chi2_{1-confidence; nu})
+        m +/- z_{(1+content)/2} sqrt(1 + 1/n_e) sqrt(U),   n_e = s_IP^2 / v_m
 
-    and the interval m +/- k s_IP. With one result per run, or no between-run
-    variance and one run, it is Howe's interval for a simple sample. The
-    mean squares of an unbalanced or between-run-dominated design are not a
-    scaled chi-square, so the confidence is approximate; the tests measure it
-    by simulation.
+    For a simple sample (no between-run variance, U = df s^2 / chi2_{1-confidence; df})
+    this is Howe's interval ([Howe]). The confidence is approximate; the tests
+    measure it by seeded simulation: above the stated confidence for most designs,
+    about 0.945 at a stated 0.95 for 4 runs x 4 with between-run SD twice the
+    repeatability (the least favourable case measured).
     """
+    from .variance_components import sum_of_mean_squares_interval
+
     content = open_unit("content", content)
     confidence = open_unit("confidence", confidence)
     base = beta_expectation_interval(runs, 0.5)
     if base.low is None:
-        return RunsContentInterval(None, None, base.mean, None, None, None, base.sd_intermediate, content,
+        return RunsContentInterval(None, None, base.mean, None, None, base.sd_intermediate, None, content,
                                    confidence, base.reason)
+    groups = [g for g in _groups_of(runs) if g.size > 0]
+    p = len(groups)
+    sizes = np.array([g.size for g in groups], dtype=float)
+    total = float(sizes.sum())
+    means = np.array([g.mean() for g in groups])
+    grand = float(np.concatenate(groups).mean())
+    ms_w = float(sum(np.sum((g - m) ** 2) for g, m in zip(groups, means))) / (total - p)
+    ms_b = float(np.sum(sizes * (means - grand) ** 2)) / (p - 1)
+    n0 = (total - float(np.sum(sizes ** 2)) / total) / (p - 1)
+    coefficients, mean_squares, dfs = [1.0 / n0], [ms_b], [p - 1]
+    if n0 > 1.0:
+        coefficients.append(1.0 - 1.0 / n0)
+        mean_squares.append(ms_w)
+        dfs.append(total - p)
+    with quiet_numpy():
+        _, _, _, mls = sum_of_mean_squares_interval(coefficients, mean_squares, dfs, 2.0 * confidence - 1.0)
     var_ip = base.sd_intermediate ** 2
     n_e = var_ip / base.centre_variance
-    nu = base.df
+    sd_upper = math.sqrt(max(mls[1], var_ip))
     z = float(stats.norm.ppf((1.0 + content) / 2.0))
-    k = z * math.sqrt(nu * (1.0 + 1.0 / n_e) / float(stats.chi2.ppf(1.0 - confidence, nu)))
-    half = k * base.sd_intermediate
-    return RunsContentInterval(base.mean - half, base.mean + half, base.mean, k, nu, n_e, base.sd_intermediate,
-                               content, confidence)
+    half = z * math.sqrt(1.0 + 1.0 / n_e) * sd_upper
+    return RunsContentInterval(base.mean - half, base.mean + half, base.mean, half / base.sd_intermediate, n_e,
+                               base.sd_intermediate, sd_upper, content, confidence)
 
 
 # ---------------------------------------------------------------- accuracy profile

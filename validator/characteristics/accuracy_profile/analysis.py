@@ -36,8 +36,8 @@ class ContentInterval:
     low_pct: float | None
     high_pct: float | None
     k: float | None
-    df: float | None
     effective_n: float | None
+    sd_upper: float | None
     reason: str = ""
 
 
@@ -157,8 +157,8 @@ def assess_accuracy_profile(level, found, runs, *, beta: float, acceptance_for, 
         if content is not None and confidence is not None:
             ti = runs_content_interval(grouped, content, confidence)
             ci = ContentInterval(content, confidence, None if ti.low is None else 100.0 * (ti.low - c) / c,
-                                 None if ti.high is None else 100.0 * (ti.high - c) / c, ti.k, ti.df,
-                                 ti.effective_n, ti.reason)
+                                 None if ti.high is None else 100.0 * (ti.high - c) / c, ti.k,
+                                 ti.effective_n, ti.sd_upper, ti.reason)
         out.append(ProfileLevelResult(
             nominal=c, runs=iv.runs, results=iv.results, balanced=iv.balanced, mean_found=pl.mean_found,
             relative_bias_pct=pl.relative_bias_percent, recovery_pct=pl.recovery_percent,
