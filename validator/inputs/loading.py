@@ -304,7 +304,8 @@ def _recovery(reader, analytes):
 
 
 def _precision(reader, analytes):
-    design = tuple(reader.study.config.precision.design or ())
+    cfg = reader.study.config.precision
+    design = tuple(cfg.design or ()) if cfg is not None else ()
 
     def prepare(table):
         level = _numbers(table, "level", reader.decimal)
