@@ -44,6 +44,8 @@ BASE = {
                            "standard_uncertainty": "0.15"},
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
+    "accuracy_profile": {"acceptance_pct": "15"},
+    "uncertainty": {"coverage_factor": "2"},
 }
 DATA = {"anions-drinking-water": ["calibration.csv", "samples.csv", "blanks.csv", "recovery.csv",
                                   "precision.csv", "crm.csv"],

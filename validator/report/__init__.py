@@ -106,7 +106,7 @@ def _change_data(a, entry: dict) -> dict:
 
 def _issue13_sentences(a: dict, study: dict) -> dict:
     """Sentences of nested precision, accuracy profile and uncertainty (from their results.json entries)."""
-    from ..characteristics import precision_presentation
+    from . import precision_nested as precision_presentation
     from ..characteristics.accuracy_profile import presentation as profile
     from ..characteristics.uncertainty import presentation as uncertainty
     unit, out = study["concentration_unit"], {}

@@ -3,7 +3,7 @@ precision entry of results.json (a dict)."""
 
 from __future__ import annotations
 
-from ..report.text import fmt
+from .text import fmt
 
 __all__ = ["sentences"]
 
