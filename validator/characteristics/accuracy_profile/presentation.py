@@ -49,7 +49,7 @@ def figures(entry: dict, unit: str, key: str = "") -> dict:
     if not levels:
         return {}
     with matplotlib.rc_context(_RC):
-        fig, ax = plt.subplots(figsize=(6.4, 3.0))
+        fig, ax = plt.subplots(figsize=(6.4, 3.2))
         x = [lv["nominal"] for lv in levels]
         ax.fill_between(x, [lv["tolerance_low_pct"] for lv in levels], [lv["tolerance_high_pct"] for lv in levels],
                         color=PALETTE["band"], linewidth=0, label="beta-expectation tolerance interval")
@@ -65,8 +65,6 @@ def figures(entry: dict, unit: str, key: str = "") -> dict:
         ax.axhline(0, color=PALETTE["ink"], linewidth=0.6, ls=":")
         ax.set_xlabel(f"nominal concentration ({unit})")
         ax.set_ylabel("relative error (%)")
-        ax.set_title(f"accuracy profile, beta = {fmt(entry['beta'])} (validated range shaded grey)",
-                     fontsize=8, loc="left")
-        ax.legend(fontsize=7, frameon=False, loc="best")
+        ax.legend(fontsize=7, frameon=False, ncol=3, loc="lower left", bbox_to_anchor=(0.0, 1.01))
         fig.tight_layout()
         return {"accuracy_profile": _svg(fig, f"ap{key}")}

@@ -82,9 +82,9 @@ class UncertaintyResult:
     reason: str = ""
 
 
-BASIS = ("u_c = sqrt(u(Rw)^2 + u(bias)^2), U = k u_c (Nordtest TR 537 ed. 4); u(Rw) = the intermediate "
-         "precision RSD at the level; u(bias) = sqrt(RMS_bias^2 + u(Cref)^2) over every bias estimate, "
-         "u(Cref) the mean of their reference uncertainties; absolute values = relative x concentration")
+BASIS = ("u_c = √(u(Rw)² + u(bias)²), U = k·u_c (Nordtest TR 537 ed. 4); u(Rw) = the intermediate "
+         "precision RSD at the level; u(bias) = √(RMS_bias² + u(Cref)²) over every bias estimate, "
+         "u(Cref) the mean of their reference uncertainties; absolute values = relative × concentration")
 
 
 def _line(concentration, basis, prec: PrecisionInput | None, u_bias, k, profile_sd) -> BudgetLevel:
