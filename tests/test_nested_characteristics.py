@@ -388,3 +388,17 @@ def test_demo_declares_all_three_and_other_studies_get_none(outside):
     other = json.loads((out2 / "results.json").read_text(encoding="utf-8"))
     for a in other["analytes"]:
         assert "accuracy_profile" not in a and "uncertainty" not in a
+
+
+def test_sample_uncertainty_interpolated_or_nearest():
+    from validator.characteristics.uncertainty.analysis import sample_uncertainty
+    prec = (PrecisionInput(1.0, 4.0, "IP"), PrecisionInput(10.0, 2.0, "IP"))
+    budget = assess_uncertainty(prec, (BiasEvidence("CRM", 0.0, 0.0, ""),), coverage_factor=2.0)
+    # hand computation: U = 2 u(Rw) here (no bias), 8 % at 1 and 4 % at 10; at 5.5 halfway: 6 %
+    middle = sample_uncertainty("S1", 5.5, budget.levels)
+    assert middle.expanded_pct == pytest.approx(6.0, rel=1e-14)
+    assert middle.expanded == pytest.approx(6.0 * 5.5 / 100, rel=1e-14)
+    assert "interpolated" in middle.basis
+    above = sample_uncertainty("S2", 20.0, budget.levels)
+    assert above.expanded_pct == pytest.approx(4.0, rel=1e-14) and "nearest" in above.basis
+    assert sample_uncertainty("S3", float("nan"), budget.levels).reason

@@ -332,7 +332,8 @@ def _uncertainty(ctx: AnalyteContext) -> Assessment | None:
     result = assess_uncertainty(prec, tuple(bias), coverage_factor=uc.coverage_factor, loq=loq,
                                 loq_reason="" if loq is not None else
                                 (getattr(reported, "reason", "") or "no LOQ is reported"),
-                                profile_sd_pct=profile_sd)
+                                profile_sd_pct=profile_sd,
+                                samples=tuple((sr.id, sr.concentration) for sr in ctx.samples))
     return Assessment(result, uncertainty_criteria(result, uc.expanded_max_pct))
 
 

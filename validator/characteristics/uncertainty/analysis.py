@@ -20,13 +20,14 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 from ...criteria import Criterion, at_most
 from ...maths.uncertainty import UncertaintyComponent, bias_uncertainty, combined_uncertainty
 
-__all__ = ["BiasEvidence", "PrecisionInput", "BudgetLevel", "UncertaintyResult", "assess_uncertainty",
-           "uncertainty_criteria"]
+__all__ = ["BiasEvidence", "PrecisionInput", "BudgetLevel", "SampleUncertainty", "UncertaintyResult",
+           "assess_uncertainty", "sample_uncertainty", "uncertainty_criteria"]
 
 
 @dataclass(frozen=True)
@@ -69,6 +70,18 @@ class BudgetLevel:
 
 
 @dataclass(frozen=True)
+class SampleUncertainty:
+    """A sample result reported as x ± U, U relative from the budget levels (``basis`` says how)."""
+
+    id: str
+    concentration: float | None
+    expanded_pct: float | None
+    expanded: float | None
+    basis: str
+    reason: str = ""
+
+
+@dataclass(frozen=True)
 class UncertaintyResult:
     coverage_factor: float
     bias_evidence: tuple[BiasEvidence, ...]
@@ -78,8 +91,31 @@ class UncertaintyResult:
     levels: tuple[BudgetLevel, ...]
     at_loq: BudgetLevel | None = field(metadata={"null_reason": "loq_reason"})
     basis: str
+    samples: tuple[SampleUncertainty, ...] = ()
     loq_reason: str = field(default="", metadata={"json": None})
     reason: str = ""
+
+
+def sample_uncertainty(sample_id: str, concentration, levels: tuple[BudgetLevel, ...]) -> SampleUncertainty:
+    """U of one sample result: the relative U joined linearly between the two budget levels around it,
+    or the nearest level's outside them (no extrapolation); absolute U = relative U × concentration."""
+    usable = sorted((lv.concentration, lv.expanded_pct) for lv in levels if lv.expanded_pct is not None
+                    and lv.concentration > 0)
+    if concentration is None or not math.isfinite(concentration):
+        return SampleUncertainty(sample_id, None, None, None, "", "the sample has no concentration")
+    if not usable:
+        return SampleUncertainty(sample_id, float(concentration), None, None, "",
+                                 "no budget level has an expanded uncertainty")
+    xs = [c for c, _ in usable]
+    if concentration <= xs[0] or concentration >= xs[-1] or len(usable) == 1:
+        c, u = min(usable, key=lambda item: (abs(item[0] - concentration), item[0]))
+        basis = f"relative U of the nearest level ({c:g})"
+    else:
+        j = next(i for i in range(1, len(xs)) if concentration <= xs[i])
+        (c0, u0), (c1, u1) = usable[j - 1], usable[j]
+        u = u0 + (u1 - u0) * (concentration - c0) / (c1 - c0)
+        basis = f"relative U interpolated linearly between the levels {c0:g} and {c1:g}"
+    return SampleUncertainty(sample_id, float(concentration), u, u * abs(concentration) / 100.0, basis)
 
 
 BASIS = ("u_c = √(u(Rw)² + u(bias)²), U = k·u_c (Nordtest TR 537 ed. 4); u(Rw) = the intermediate "
@@ -113,7 +149,7 @@ def _line(concentration, basis, prec: PrecisionInput | None, u_bias, k, profile_
 
 def assess_uncertainty(precision: tuple[PrecisionInput, ...], bias: tuple[BiasEvidence, ...], *,
                        coverage_factor: float, loq: float | None = None, loq_reason: str = "",
-                       profile_sd_pct: dict | None = None) -> UncertaintyResult:
+                       profile_sd_pct: dict | None = None, samples: tuple = ()) -> UncertaintyResult:
     """Top-down budget per precision level and at the LOQ ([Nordtest]).
 
     Parameters
@@ -129,6 +165,8 @@ def assess_uncertainty(precision: tuple[PrecisionInput, ...], bias: tuple[BiasEv
     profile_sd_pct : dict, optional
         nominal -> the accuracy profile's standard deviation of the tolerance interval (%),
         sqrt(s_IP^2 + v_m) ([Feinberg]), shown beside the budget with k times it.
+    samples : sequence of (id, concentration), optional
+        Sample results to report as x ± U (:func:`sample_uncertainty`).
 
     Notes
     -----
@@ -151,7 +189,8 @@ def assess_uncertainty(precision: tuple[PrecisionInput, ...], bias: tuple[BiasEv
         loq_reason = loq_reason or "no LOQ is reported"
     else:
         loq_reason = "no precision level to take u(Rw) from"
-    return UncertaintyResult(k, tuple(bias), rms, u_ref, u_bias, levels, at_loq, BASIS, loq_reason,
+    per_sample = tuple(sample_uncertainty(i, c, levels) for i, c in samples)
+    return UncertaintyResult(k, tuple(bias), rms, u_ref, u_bias, levels, at_loq, BASIS, per_sample, loq_reason,
                              "" if bias else "no reference material or recovery result: u(bias) and the "
                                              "combined uncertainty cannot be estimated")
 
