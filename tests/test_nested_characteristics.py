@@ -402,3 +402,70 @@ def test_sample_uncertainty_interpolated_or_nearest():
     above = sample_uncertainty("S2", 20.0, budget.levels)
     assert above.expanded_pct == pytest.approx(4.0, rel=1e-14) and "nearest" in above.basis
     assert sample_uncertainty("S3", float("nan"), budget.levels).reason
+
+
+@pytest.mark.parametrize("alpha", [0.01, 0.05])
+def test_demo_judged_on_intervals(tmp_path, outside, alpha):
+    """The demo with judge_on = "interval" (and without the nested design, so the one-way bounds are
+    written): every judged value is the interval basis, and its level follows alpha."""
+    import json
+    import shutil
+    from pathlib import Path
+
+    import jsonschema
+
+    from validator.cli import main
+    from validator.results import load_schema
+    repo = Path(__file__).resolve().parents[1]
+    folder = tmp_path / "demo"
+    shutil.copytree(repo / "example_studies" / "anions-drinking-water", folder)
+    text = (folder / "study.toml").read_text(encoding="utf-8")
+    text = text.replace('judge_on = "estimate"', 'judge_on = "interval"').replace("alpha = 0.05", f"alpha = {alpha}")
+    text = text.replace('design = ["day", "run"]', "").replace('data = "precision-runs.csv"', 'data = "precision.csv"')
+    (folder / "study.toml").write_text(text, encoding="utf-8")
+    out = outside / "interval"
+    assert main(["run", str(folder / "study.toml"), "--out", str(out), "--format", "json"]) in (0, 1)
+    results = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    jsonschema.validate(results, load_schema(), cls=jsonschema.Draft202012Validator)
+    a = results["analytes"][0]
+    for lv in a["precision"]["levels"]:
+        assert "nested" not in lv
+        assert lv["rsd_upper_bounds"]["confidence"] == pytest.approx(1 - alpha)
+        assert lv["rsd_upper_bounds"]["repeatability_rsd_upper_pct"] > lv["repeatability_rsd_pct"]
+    by_id = {c["id"]: c for c in a["criteria"]}
+    rec = by_id["recovery-10"]
+    assert isinstance(rec["value"], list) and "two one-sided tests" in rec["description"]
+    assert f"{100 * (1 - 2 * alpha):g} %" in rec["description"]
+    rsd = by_id["repeatability-rsd-10"]
+    assert rsd["value"] == pytest.approx(a["precision"]["levels"][1]["rsd_upper_bounds"]["repeatability_rsd_upper_pct"])
+    assert "point estimate" in rsd["note"]
+
+
+def test_invariances_permutation_and_scale():
+    # property (no reference value): permuting the rows changes nothing; scaling the results by 7
+    # scales every SD by 7 and leaves every RSD and the profile's relative limits unchanged
+    rng = np.random.default_rng(8)
+    y, day, run = _nested_data(rng)
+    base = _level(y, day, run)
+    order = rng.permutation(y.size)
+    shuffled = _level(y[order], [day[i] for i in order], [run[i] for i in order])
+    scaled = assess_precision_level(70.0, 7 * y, [f"{d}/{r}" for d, r in zip(day, run)], design=("day", "run"),
+                                    factors=(tuple(day), tuple(run)))
+    for a, b, c in zip(base.nested.conditions, shuffled.nested.conditions, scaled.nested.conditions):
+        assert b.sd == pytest.approx(a.sd, rel=1e-10) and b.sd_ci.high == pytest.approx(a.sd_ci.high, rel=1e-10)
+        assert c.sd == pytest.approx(7 * a.sd, rel=1e-10) and c.rsd_pct == pytest.approx(a.rsd_pct, rel=1e-10)
+    labels = [f"{d}/{r}" for d, r in zip(day, run)]
+    one = assess_accuracy_profile([10.0] * y.size, y, labels, beta=0.8, acceptance_for=lambda c: 15.0, runs_by="run")
+    seven = assess_accuracy_profile([70.0] * y.size, 7 * y, labels, beta=0.8, acceptance_for=lambda c: 15.0,
+                                    runs_by="run")
+    assert seven.levels[0].tolerance_low_pct == pytest.approx(one.levels[0].tolerance_low_pct, rel=1e-9)
+    assert seven.levels[0].tolerance_high_pct == pytest.approx(one.levels[0].tolerance_high_pct, rel=1e-9)
+
+
+def test_profile_level_zero_is_left_out_with_a_note():
+    level = [0.0, 0.0, 0.0, 0.0, 5.0, 5.0, 5.0, 5.0]
+    found = [0.01, 0.02, 0.0, 0.01, 5.1, 4.9, 5.0, 5.2]
+    runs = ["a", "a", "b", "b"] * 2
+    got = assess_accuracy_profile(level, found, runs, beta=0.8, acceptance_for=lambda c: 15.0, runs_by="series")
+    assert [lv.nominal for lv in got.levels] == [5.0]
+    assert any("level 0" in n for n in got.notes)
