@@ -279,20 +279,17 @@ def _reference_material(ctx: AnalyteContext) -> Assessment | None:
     return Assessment(rm, (reference_material_criterion(rm),))
 
 
-def _runs(p) -> tuple[tuple[str, ...], str]:
+def _runs(p) -> tuple[str, ...]:
     """The run of each precision result: the innermost unit of the declared design, else the series."""
-    if p.factors:
-        return tuple(" / ".join(path) for path in zip(*p.factors)), "innermost factor of the design"
-    return p.series, "series"
+    return tuple(" / ".join(path) for path in zip(*p.factors)) if p.factors else p.series
 
 
 def _accuracy_profile(ctx: AnalyteContext) -> Assessment | None:
     ac, p = ctx.config.accuracy_profile, ctx.data.precision
     if ac is None or p is None:
         return None
-    runs, by = _runs(p)
-    if p.factors:
-        by = f"units of the innermost design factor ({ctx.config.precision.design[-1]})"
+    runs = _runs(p)
+    by = f"units of the innermost design factor ({ctx.config.precision.design[-1]})" if p.factors else "series"
     profile = assess_accuracy_profile(p.level, p.found + p.offset, runs, beta=ac.beta,
                                       acceptance_for=ac.acceptance_for, runs_by=by, content=ac.content,
                                       confidence=ac.confidence)

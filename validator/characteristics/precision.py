@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, level_label, quiet_numpy
 from ..criteria import Criterion, at_most
 from ..maths.anova import OneWayAnova, one_way_anova
 from ..maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
@@ -213,9 +213,8 @@ def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
                   for c in res.components)
     conds = []
     for c in res.conditions:
-        name = c.name if c.name in ("repeatability", "intermediate precision") else c.name
         conds.append(PrecisionConditionEstimate(
-            name, c.sources, c.sd, rel(c.sd), c.df, c.ci_mls, c.ci_satterthwaite,
+            c.name, c.sources, c.sd, rel(c.sd), c.df, c.ci_mls, c.ci_satterthwaite,
             _upper_rsd(c.sd, c.df, mean, alpha), c.reason))
     return NestedPrecision(tuple(design), res.method, res.balanced, comps, tuple(conds), res.notes)
 
@@ -414,7 +413,7 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
     r_rsd, r_up, i_rsd, i_up, why = lv.decisive
     out = []
     r_max, i_max = limits
-    conf = f"{100 * (1 - alpha):.6g} %"
+    conf = level_label(1 - alpha)
     shown_both = on_intervals or lv.nested is not None
     for kind, label, value, bound, limit in (
             ("repeatability", "repeatability RSD", r_rsd, r_up, r_max),
