@@ -469,3 +469,14 @@ def test_profile_level_zero_is_left_out_with_a_note():
     got = assess_accuracy_profile(level, found, runs, beta=0.8, acceptance_for=lambda c: 15.0, runs_by="series")
     assert [lv.nominal for lv in got.levels] == [5.0]
     assert any("level 0" in n for n in got.notes)
+
+
+def test_unbalanced_interval_basis_names_the_missing_bound():
+    rng = np.random.default_rng(3)
+    y, day, run = _nested_data(rng)
+    keep = np.ones(y.size, bool)
+    keep[[0, 10]] = False
+    lv = _level(y[keep], list(np.array(day)[keep]), list(np.array(run)[keep]))
+    r, i = precision_criteria(lv, (5.0, 5.0), on_intervals=True)
+    assert r.passed is not None                      # chi-square bound on the residual mean square exists
+    assert i.passed is None and "unbalanced" in i.note and "point estimate" in i.note

@@ -303,7 +303,7 @@ def _uncertainty(ctx: AnalyteContext) -> Assessment | None:
     design = ctx.config.precision.design
     source = ("intermediate precision RSD, all components of the design " + "/".join(design) if design else
               "intermediate precision RSD, one-way ANOVA on series")
-    prec = tuple(PrecisionInput(lv.level, lv.decisive[2], source, lv.decisive[4]) for lv in ctx.precision)
+    prec = tuple(PrecisionInput(lv.level, lv.decisive[1][0], source, lv.decisive[1][2]) for lv in ctx.precision)
     bias = []
     rm = ctx.reference_material
     if "reference_material" in uc.bias_from and rm is not None:

@@ -271,15 +271,15 @@ class PrecisionLevel:
 
     @property
     def decisive(self) -> tuple:
-        """(repeatability RSD, its upper bound, intermediate RSD, its upper bound, reason): from the
-        nested design when declared, else from the one-way analysis."""
+        """((RSD, its upper bound, why missing) for repeatability, the same for intermediate precision):
+        from the nested design when declared, else from the one-way analysis."""
         if self.nested is not None:
             r, i = self.nested.repeatability, self.nested.intermediate
-            return (r.rsd_pct, r.rsd_upper_pct, i.rsd_pct, i.rsd_upper_pct,
-                    self.nested.reason or r.reason or i.reason or self.reason)
+            return ((r.rsd_pct, r.rsd_upper_pct, self.nested.reason or r.reason),
+                    (i.rsd_pct, i.rsd_upper_pct, self.nested.reason or i.reason))
         b = self.rsd_upper_bounds
-        return (self.repeatability_rsd_pct, None if b is None else b.repeatability_rsd_upper_pct,
-                self.intermediate_rsd_pct, None if b is None else b.intermediate_rsd_upper_pct, self.reason)
+        return ((self.repeatability_rsd_pct, None if b is None else b.repeatability_rsd_upper_pct, self.reason),
+                (self.intermediate_rsd_pct, None if b is None else b.intermediate_rsd_upper_pct, self.reason))
 
     @property
     def horwitz_reason(self) -> str:
@@ -410,14 +410,14 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
     declared nested design the RSDs are the design's repeatability and intermediate
     precision (all components).
     """
-    r_rsd, r_up, i_rsd, i_up, why = lv.decisive
+    (r_rsd, r_up, r_why), (i_rsd, i_up, i_why) = lv.decisive
     out = []
     r_max, i_max = limits
     conf = level_label(1 - alpha)
     shown_both = on_intervals or lv.nested is not None
-    for kind, label, value, bound, limit in (
-            ("repeatability", "repeatability RSD", r_rsd, r_up, r_max),
-            ("intermediate", "intermediate precision RSD", i_rsd, i_up, i_max)):
+    for kind, label, value, bound, why, limit in (
+            ("repeatability", "repeatability RSD", r_rsd, r_up, r_why, r_max),
+            ("intermediate", "intermediate precision RSD", i_rsd, i_up, i_why, i_max)):
         if limit is None:
             continue
         if not shown_both:     # the criterion as written before interval judging existed
