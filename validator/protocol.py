@@ -135,7 +135,10 @@ CRITERIA_AND_DESIGN = {
     "criteria": ALL,
     "detection": ALL,
     "recovery": ("range_pct", "levels"),
-    "precision": ("repeatability_rsd_max_pct", "intermediate_rsd_max_pct", "levels"),
+    "precision": ("repeatability_rsd_max_pct", "intermediate_rsd_max_pct", "levels", "design",
+                  "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
+    "accuracy_profile": ALL,
+    "uncertainty": ALL,
     "reference_material": ("analyte", "certified_value", "standard_uncertainty", "coverage_factor",
                            "measurement_standard_uncertainty"),
     "revalidation": ("slope_change_max_pct", "residual_sd_ratio_max"),
@@ -155,12 +158,28 @@ NOT_CRITERIA = {
 }
 
 
+# keys and sections added after protocol version 1.0 (issue #13): written only when the study sets them,
+# so that a protocol approved before they existed compares with its study without deviations
+ADDED_LATER = {"accuracy_profile": ALL, "uncertainty": ALL, "criteria": ("judge_on",),
+               "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct")}
+
+
 def normalised(config) -> dict:
     """The design and criteria of a validated study configuration, as a plain JSON dict."""
     dumped = config.model_dump(mode="json")
+    for section, keys in ADDED_LATER.items():
+        if dumped.get(section) is None:
+            if keys == ALL:
+                dumped.pop(section, None)
+            continue
+        for key in keys:
+            if dumped[section].get(key) is None:
+                dumped[section].pop(key, None)
     out = {}
     for section, keys in CRITERIA_AND_DESIGN.items():
         value = dumped.get(section)
+        if value is None and section in ADDED_LATER and ADDED_LATER[section] == ALL:
+            continue
         if value is None:
             out[section] = None
         elif keys == ALL:
