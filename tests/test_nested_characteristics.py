@@ -480,3 +480,20 @@ def test_unbalanced_interval_basis_names_the_missing_bound():
     r, i = precision_criteria(lv, (5.0, 5.0), on_intervals=True)
     assert r.passed is not None                      # chi-square bound on the residual mean square exists
     assert i.passed is None and "unbalanced" in i.note and "point estimate" in i.note
+
+
+def test_protocols_written_before_issue_13_keys_see_no_deviation(tmp_path):
+    # common practice, no published source: an earlier protocol knows none of the new keys; a study that
+    # sets none of them normalises to the same design and criteria, and setting one is a deviation
+    from validator.inputs.study import read_study_file
+    from validator.protocol import compare, normalised
+    plain = read_study_file(_study(tmp_path, "", "repeatability_rsd_max_pct = 5"))
+    before = normalised(plain.config)
+    assert "accuracy_profile" not in before and "design" not in before["precision"]
+    assert "judge_on" not in before["criteria"]
+    protocol = {"study_id": "t", "design_and_criteria": before}
+    assert compare(protocol, plain) == []
+    nested = read_study_file(_study(tmp_path, "[accuracy_profile]\nacceptance_pct = 15\n",
+                                    'repeatability_rsd_max_pct = 5\ndesign = ["day", "run"]'))
+    keys = sorted(d.key for d in compare(protocol, nested))
+    assert keys == ["accuracy_profile", "precision.design"]
