@@ -106,7 +106,7 @@ def test_html_is_self_contained(demo_out):
         assert tag["href"].startswith("#")
     for tag in soup.find_all(src=True):
         assert tag["src"].startswith("data:")
-    # three figures per analyte, and the accuracy profile the demo declares; inline
+    # per analyte, inline: calibration, diagnostics, recovery, precision
     assert len(soup.select("svg")) == 4 * 2
 
 

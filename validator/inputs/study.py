@@ -30,13 +30,13 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Annotated, Any, Literal, Optional
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, create_model, model_validator
 
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
 from ..protocol import DesignSection, ProtocolSection
 
-__all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
 
@@ -131,15 +131,6 @@ class CriteriaSection(_Section):
     lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
-    # what decides recovery and precision RSD criteria: the point estimate, or its interval
-    # (recovery by two one-sided tests, RSDs by their upper confidence bound). Not set means
-    # "estimate"; it is left unset rather than defaulted so that the defaults recorded for
-    # studies written before this key existed stay as they were
-    judge_on: Optional[Literal["estimate", "interval"]] = None
-
-    @property
-    def on_intervals(self) -> bool:
-        return self.judge_on == "interval"
 
 
 class BlanksSection(_Section):
@@ -161,55 +152,17 @@ class DetectionSection(_Section):
         return self
 
 
-def _range(v, name: str = "range_pct"):
+def check_range(v, name: str = "range_pct"):
     """The one check of a [low, high] pair in the study file."""
     if v is not None and (len(v) != 2 or not v[0] < v[1]):
         raise ValueError(f"{name} must be [low, high] with low < high, got {show(list(v))}")
     return v
 
 
-# a recovery in per cent, as a bound of an acceptance range
-RecoveryPct = Annotated[float, Field(ge=0, le=1000)]
-
-
-class RecoveryLevelLimit(_Section):
-    added: float = Field(gt=0)
-    range_pct: list[RecoveryPct]
-
-    @model_validator(mode="after")
-    def _check(self):
-        _range(self.range_pct)
-        return self
-
-
-class RecoverySection(_Section):
-    data: DataPath
-    range_pct: list[RecoveryPct] = [90.0, 110.0]
-    levels: list[RecoveryLevelLimit] = []
-
-    @model_validator(mode="after")
-    def _check(self):
-        _range(self.range_pct)
-        return self
-
-    def range_for(self, added: float) -> tuple:
-        for lv in self.levels:
-            if abs(lv.added - added) <= 1e-9 * max(abs(added), 1.0):
-                return tuple(lv.range_pct)
-        return tuple(self.range_pct)
-
-
 class PrecisionLevelLimit(_Section):
     level: float = Field(ge=0)
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
-    claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
-    claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
-
-
-# a column of the precision data naming a factor of the nested design (day, run, analyst, ...)
-FactorColumn = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Za-z_][A-Za-z0-9_]*$")]
-RESERVED_PRECISION_COLUMNS = ("analyte", "level", "found")
 
 
 class PrecisionSection(_Section):
@@ -217,52 +170,13 @@ class PrecisionSection(_Section):
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     levels: list[PrecisionLevelLimit] = []
-    # the nesting of the precision experiment, outermost factor first (e.g. ["day", "run"]); the
-    # replicate is the innermost; None: the one-way design on the series column
-    design: Optional[list[FactorColumn]] = Field(None, min_length=1, max_length=4)
-    # a manufacturer's or earlier claim, verified by the upper verification limit (CLSI EP15)
-    claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
-    claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
-
-    @model_validator(mode="after")
-    def _design(self):
-        if self.design is not None:
-            if len(set(self.design)) != len(self.design):
-                raise ValueError(f"design must name distinct columns, got {show(list(self.design))}")
-            bad = [c for c in self.design if c in RESERVED_PRECISION_COLUMNS]
-            if bad:
-                raise ValueError(f"design names the column {show(bad[0])}, which holds "
-                                 f"{'the results' if bad[0] == 'found' else 'no factor'}; name factor columns "
-                                 "such as \"day\", \"run\", \"analyst\"")
-        return self
-
-    def _level(self, level: float):
-        for lv in self.levels:
-            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
-                return lv
-        return None
 
     def limits_for(self, level: float) -> tuple:
-        lv = self._level(level)
-        if lv is not None:
-            return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
-                    lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
+        for lv in self.levels:
+            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
+                return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
+                        lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
-
-    def claims_for(self, level: float) -> tuple:
-        """(claimed repeatability RSD %, claimed within-laboratory RSD %) at ``level``, None where not claimed."""
-        lv = self._level(level)
-        own = (None, None) if lv is None else (lv.claimed_repeatability_rsd_pct, lv.claimed_within_laboratory_rsd_pct)
-        return (own[0] or self.claimed_repeatability_rsd_pct, own[1] or self.claimed_within_laboratory_rsd_pct)
-
-
-class ReferenceMaterialSection(_Section):
-    data: DataPath
-    certified_value: float = Field(gt=0)
-    standard_uncertainty: float = Field(ge=0)
-    analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
-    coverage_factor: float = Field(2.0, gt=0, le=10)
-    measurement_standard_uncertainty: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
 
 
 class RevalidationSection(_Section):
@@ -283,70 +197,60 @@ class ComparisonSection(_Section):
     @model_validator(mode="after")
     def _limits(self):
         for name in ("slope_limits", "intercept_limits"):
-            _range(getattr(self, name), name)
+            check_range(getattr(self, name), name)
         return self
 
 
-# [accuracy_profile] and [uncertainty] (issue #13); re-exported by their characteristic packages
-class AcceptanceLevel(_Section):
-    level: float = Field(gt=0)
-    acceptance_pct: float = Field(gt=0, le=100)
+# The tables of the study file in the order of its schema (messages list them so, defaults_applied
+# follows it): the tables of the characteristics in the registry, and those below.
+_TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
+                "reference_material", "revalidation", "comparison")
+_TABLES_AFTER = ("design", "protocol")
 
 
-class AccuracyProfileSection(_Section):
-    # expected proportion of future results inside the beta-expectation interval
-    beta: float = Field(0.80, ge=0.5, le=0.999)
-    # acceptance limits +/- lambda % of the nominal value; per-level values in levels
-    acceptance_pct: float = Field(gt=0, le=100)
-    levels: list[AcceptanceLevel] = []
-    # optional beta-content, gamma-confidence interval beside the beta-expectation one
-    content: Optional[float] = Field(None, ge=0.5, le=0.999)
-    confidence: Optional[float] = Field(None, ge=0.5, le=0.999)
-
-    @model_validator(mode="after")
-    def _pair(self):
-        if (self.content is None) != (self.confidence is None):
-            raise ValueError("content and confidence go together: give both for a beta-content interval, "
-                             "or neither")
-        return self
-
-    def acceptance_for(self, level: float) -> float:
-        for lv in self.levels:
-            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
-                return lv.acceptance_pct
-        return self.acceptance_pct
+def _table_field(model: type[BaseModel], required: bool) -> tuple:
+    """A table's field of StudyConfig: required; always present when every key has a default; else optional."""
+    if required:
+        return (model, ...)
+    if all(not f.is_required() for f in model.model_fields.values()):
+        return (model, model())
+    return (Optional[model], None)
 
 
-class UncertaintySection(_Section):
-    # k of U = k u_c
-    coverage_factor: float = Field(2.0, gt=0, le=10)
-    # where u(bias) comes from (each used only when the study has it)
-    bias_from: list[Literal["reference_material", "recovery"]] = Field(
-        ["reference_material", "recovery"], min_length=1, max_length=2)
-    # the relative standard uncertainty of the added amount of a spike, u(Cref) of a recovery level
-    spike_standard_uncertainty_pct: float = Field(0.0, ge=0, le=100)
-    # a target: the relative expanded uncertainty at each precision level at most this
-    expanded_max_pct: Optional[float] = Field(None, gt=0, le=1000)
+# tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
+_OTHER_TABLES = {"study": (StudySection, ...), "calibration": (CalibrationSection, ...),
+                 "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
+                 "blanks": (Optional[BlanksSection], None), "detection": (DetectionSection, DetectionSection()),
+                 "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
+                 "comparison": (Optional[ComparisonSection], None),
+                 # the planned experiment and the approved protocol a run is held to (validator.protocol)
+                 "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}
+_MODELS: dict = {}
 
 
-class StudyConfig(_Section):
-    """The whole study file as validated data (no data files read yet)."""
+def study_config_model() -> type[BaseModel]:
+    """The model of the whole study file: a table per registry entry with ``settings``, and the others.
 
-    study: StudySection
-    calibration: CalibrationSection
-    samples: Optional[SamplesSection] = None
-    criteria: CriteriaSection = CriteriaSection()
-    blanks: Optional[BlanksSection] = None
-    detection: DetectionSection = DetectionSection()
-    recovery: Optional[RecoverySection] = None
-    precision: Optional[PrecisionSection] = None
-    accuracy_profile: Optional[AccuracyProfileSection] = None
-    uncertainty: Optional[UncertaintySection] = None
-    reference_material: Optional[ReferenceMaterialSection] = None
-    revalidation: Optional[RevalidationSection] = None
-    comparison: Optional[ComparisonSection] = None
-    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
-    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
+    Assembled from :data:`validator.registry.REGISTRY` as it is when called (once per registry).
+    """
+    from .. import registry
+
+    key = tuple((e.name, e.settings, e.required) for e in registry.REGISTRY if e.settings is not None)
+    if key not in _MODELS:
+        tables = dict(_OTHER_TABLES)
+        tables.update({name: _table_field(settings, required) for name, settings, required in key})
+        order = [n for n in _TABLE_ORDER if n in tables] + [n for n, _, _ in key if n not in _TABLE_ORDER]
+        order += [n for n in tables if n not in order and n not in _TABLES_AFTER] + list(_TABLES_AFTER)
+        _MODELS[key] = create_model("StudyConfig", __base__=_Section, __module__=__name__,
+                                    __doc__="The whole study file as validated data (no data files read yet).",
+                                    **{name: tables[name] for name in order})
+    return _MODELS[key]
+
+
+def __getattr__(name):
+    if name == "StudyConfig":        # assembled from the registry, so built on first use
+        return study_config_model()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -357,7 +261,7 @@ class StudyFile:
     shown: str                 # the path as the user gave it
     text: str                  # the study file as given
     sha256: str
-    config: StudyConfig
+    config: Any                # the StudyConfig (study_config_model()) instance
     defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
 
     def resolve(self, data_path: str) -> Path:
@@ -402,7 +306,7 @@ def _line_of(text: str, loc: tuple) -> int | None:
 
 def _model_at(loc: tuple):
     """The pydantic model holding the key at ``loc`` (``None`` if there is none)."""
-    model = StudyConfig
+    model = study_config_model()
     for part in loc[:-1]:
         if part.isdigit():
             continue
@@ -563,16 +467,12 @@ def read_study_file(path: str | Path) -> StudyFile:
     text = decode_text(raw, shown)
     data = _parse_toml(text, shown)
     try:
-        config = StudyConfig.model_validate(data)
+        config = study_config_model().model_validate(data)
     except ValidationError as exc:
         raise _translate(exc, shown, text) from None
     if config.study.purpose == "revalidation" and config.revalidation is None:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',
                          file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
-    for section in ("accuracy_profile", "uncertainty"):
-        if getattr(config, section) is not None and config.precision is None:
-            raise StudyError(f"[{section}] is built from the precision results, so it needs a [precision] "
-                             "section naming their data", file=shown, line=_key_line(text, (section,)), key=section)
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
                      config=config, defaults_applied=tuple(_defaults(config)))
