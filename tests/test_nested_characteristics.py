@@ -336,8 +336,7 @@ def _study(tmp_path, extra, precision_keys="", data="level,day,run,found\n10,d1,
 @pytest.mark.parametrize("precision_keys, extra, message", [
     ('design = ["day", "found"]', "", "found"),
     ('design = ["day", "day"]', "", "distinct"),
-    (None, "[accuracy_profile]\nacceptance_pct = 15\n", r"needs a \[precision\] section"),
-    (None, "[uncertainty]\n", r"needs a \[precision\] section"),
+    (None, "[uncertainty]\n", "bias_from"),
     ('design = ["day", "run"]', "[accuracy_profile]\nacceptance_pct = 15\ncontent = 0.9\n", "go together"),
     ('design = ["day", "run"]', "[accuracy_profile]\nbeta = 1.5\nacceptance_pct = 15\n", "beta"),
 ])
@@ -345,6 +344,14 @@ def test_study_file_errors_name_the_key(tmp_path, precision_keys, extra, message
     from validator.inputs.study import read_study_file
     with pytest.raises(StudyError, match=message):
         read_study_file(_study(tmp_path, extra, precision_keys))
+
+
+@pytest.mark.parametrize("extra", ["[accuracy_profile]\nacceptance_pct = 15\n",
+                                   '[uncertainty]\nbias_from = ["recovery"]\n'])
+def test_profile_and_budget_need_the_precision_table(tmp_path, extra):
+    from validator.inputs.loading import load_study
+    with pytest.raises(StudyError, match=r"needs a \[precision\] section"):
+        load_study(_study(tmp_path, extra, None))
 
 
 def test_acceptance_limit_for_a_level_without_data_is_refused(tmp_path):

@@ -19,7 +19,7 @@ from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult, SampleResult
 from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
-from .characteristics.precision import PrecisionLevel
+from .characteristics.precision import PrecisionLevel, PrecisionResult
 from .characteristics.revalidation import RevalidationResult
 from .characteristics.working_range import LoqCheck, WorkingRange
 from .criteria import Criterion, overall_verdict
@@ -34,8 +34,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("calibration", "samples", "detection", "precision", "loq_check", "working_range", "comparison",
-           "revalidation")
+_LEGACY = ("calibration", "samples", "detection", "loq_check", "working_range", "comparison", "revalidation")
 
 
 def __getattr__(name):
@@ -125,7 +124,6 @@ class AnalyteResult:
     detection: DetectionResult | None = None
     working_range: WorkingRange | None = None
     loq_check: LoqCheck | None = None
-    precision: tuple[PrecisionLevel, ...] = ()           # one per level
     revalidation: RevalidationResult | None = None
     comparison: ComparisonResult | None = None
     # (name, result) of every assessed characteristic without a field above, in registry order
@@ -134,6 +132,11 @@ class AnalyteResult:
     def result_of(self, entry: Characteristic[R]) -> R | None:
         """The result of ``entry`` for this analyte, or ``None`` when it was not assessed."""
         return _result(self, entry.name)
+
+    @property
+    def precision(self) -> tuple[PrecisionLevel, ...]:
+        """The precision levels (empty when precision was not assessed), for the steps not yet in packages."""
+        return _precision_levels(self)
 
     @property
     def characteristics(self) -> tuple:
@@ -149,6 +152,11 @@ class AnalyteResult:
     @property
     def verdict(self) -> str:
         return overall_verdict(self.criteria)
+
+
+def _precision_levels(holder) -> tuple[PrecisionLevel, ...]:
+    found: PrecisionResult | None = _result(holder, "precision")
+    return () if found is None else found.levels
 
 
 def _result(holder, name: str):
@@ -188,7 +196,6 @@ class AnalyteContext:
     calibration: CalibrationResult | None = None
     samples: tuple[SampleResult, ...] = ()
     detection: DetectionResult | None = None
-    precision: tuple[PrecisionLevel, ...] = ()
     loq_check: LoqCheck | None = None
     working_range: WorkingRange | None = None
     comparison: ComparisonResult | None = None
@@ -200,6 +207,11 @@ class AnalyteContext:
     @property
     def alpha(self) -> float:
         return self.config.criteria.alpha
+
+    @property
+    def precision(self) -> tuple[PrecisionLevel, ...]:
+        """The precision levels assessed so far (empty before precision or without it)."""
+        return _precision_levels(self)
 
     def result_of(self, entry: Characteristic[R]) -> R | None:
         """The result of ``entry`` (assessed above this step), or ``None`` when it was not assessed."""
@@ -232,7 +244,7 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=ctx.detection,
-                         working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
+                         working_range=ctx.working_range, loq_check=ctx.loq_check,
                          revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
 
 

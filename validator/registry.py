@@ -9,7 +9,7 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material
+from .characteristics import _legacy, accuracy_profile, precision, recovery, reference_material, uncertainty
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -19,8 +19,10 @@ REGISTRY: tuple[Characteristic, ...] = (
     _legacy.SAMPLES,
     _legacy.DETECTION,
     recovery.ENTRY,
-    _legacy.PRECISION,
+    precision.ENTRY,
+    accuracy_profile.ENTRY,          # reads the precision data
     reference_material.ENTRY,
+    uncertainty.ENTRY,               # reads precision, accuracy profile, recovery, reference material, LOQ
     _legacy.LOQ_CHECK,
     _legacy.WORKING_RANGE,
     _legacy.COMPARISON,

@@ -25,7 +25,6 @@ import numpy as np
 
 from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__, registry
-from .characteristics.precision import PrecisionLevel
 from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
 from .criteria import Criterion
@@ -258,7 +257,7 @@ def _calibration(a):
 # analyte sections written by the Serialiser (from these result types), not_applicable reasons and all:
 # those of the registry's entries with result_types, and these not yet in packages of their own
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
-              "precision": (PrecisionLevel,), "comparison": (ComparisonResult,), "criteria": (Criterion,),
+              "comparison": (ComparisonResult,), "criteria": (Criterion,),
               **{e.name: e.result_types for e in registry.REGISTRY if e.result_types}}
 # the analyte entry's sections in the order results.json has always written them; a characteristic
 # not named here follows them in registry order
@@ -425,13 +424,14 @@ def _analyte(a, previous=None):
         "detection": {**serialise(a.detection, "detection"),
                       "loq_verification": serialise(a.loq_check, "detection.loq_verification")},
         "working_range": serialise(a.working_range, "working_range"),
-        "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
     }
     for entry in registry.REGISTRY:
         if entry.result_types:
             result = a.result_of(entry)
+            if result is None and entry.name not in SECTIONS:
+                continue        # a section newer than schema 1.0 is left out when not assessed (not null)
             sections[entry.name] = None if result is None else serialise(result, entry.name)
     order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
     entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),

@@ -9,21 +9,17 @@ characteristic") and deleting its step here.
 
 from __future__ import annotations
 
-import numpy as np
-
 from ..criteria import (Criterion, at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
-                        precision_level_criteria, working_range_criterion)
-from . import recovery
+                        working_range_criterion)
+from . import precision, recovery
 from ._entry import Assessment, Characteristic
 from .calibration import analyse_calibration, quantify
 from .comparison import assess_comparison
 from .detection import assess_detection
-from .precision import PrecisionLevel, assess_precision_level
 from .revalidation import RunSummary, assess_revalidation, run_summary
 from .working_range import verify_loq, working_range
 
-__all__ = ["CALIBRATION", "SAMPLES", "DETECTION", "PRECISION", "LOQ_CHECK", "WORKING_RANGE", "COMPARISON",
-           "REVALIDATION"]
+__all__ = ["CALIBRATION", "SAMPLES", "DETECTION", "LOQ_CHECK", "WORKING_RANGE", "COMPARISON", "REVALIDATION"]
 
 
 def _calibration(ctx) -> Assessment:
@@ -47,21 +43,6 @@ def _detection(ctx) -> Assessment:
                                        beta=det.beta, alpha=ctx.alpha, reporting_method=det.reporting_basis))
 
 
-def _precision(ctx) -> Assessment | None:
-    p = ctx.data.precision
-    if p is None:
-        return None
-    levels = tuple(assess_precision_level(level, p.found[p.level == level],
-                                          [s for s, lv in zip(p.series, p.level) if lv == level],
-                                          alpha=ctx.alpha, unit=ctx.unit, offset=p.offset)
-                   for level in np.unique(p.level))
-    return Assessment(levels, tuple(c for lv in levels for c in _precision_criteria(ctx, lv)))
-
-
-def _precision_criteria(ctx, lv: PrecisionLevel) -> tuple:
-    return precision_level_criteria(lv, ctx.config.precision.limits_for(lv.level))
-
-
 def _recovery_levels(ctx) -> tuple:
     found = ctx.result_of(recovery.ENTRY)
     return found.levels if found is not None else ()
@@ -80,7 +61,7 @@ def _working_range(ctx) -> Assessment:
     assessed = [lv.added for lv in levels] + [lv.level for lv in ctx.precision]
     failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
                + [(lv.level, "precision") for lv in ctx.precision
-                  if any(c.passed is False for c in _precision_criteria(ctx, lv))])
+                  if any(c.passed is False for c in precision.level_criteria(ctx, lv))])
     wr = working_range(ctx.calibration.back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
     return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
                                                    (reported.reason or "it does not exist for these data")),))
@@ -139,7 +120,6 @@ CALIBRATION = Characteristic("calibration", "Calibration", _calibration, require
 SAMPLES = Characteristic("samples", "Quantified samples", _samples)
 DETECTION = Characteristic("detection", "Detection capability", _detection,
                            fragment="characteristics/detection.html.j2")
-PRECISION = Characteristic("precision", "Precision", _precision, fragment="characteristics/precision.html.j2")
 LOQ_CHECK = Characteristic("loq_check", "LOQ verification", _loq_check)
 WORKING_RANGE = Characteristic("working_range", "Working range", _working_range,
                                fragment="characteristics/working_range.html.j2")

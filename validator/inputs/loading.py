@@ -50,14 +50,6 @@ class SampleData:
 
 
 @dataclass(frozen=True)
-class PrecisionData:
-    level: np.ndarray = field(repr=False)
-    series: tuple[str, ...] = field(repr=False)
-    found: np.ndarray = field(repr=False)       # found - offset, the subtraction done exactly
-    offset: float = 0.0
-
-
-@dataclass(frozen=True)
 class ComparisonData:
     """Shared samples measured by the reference and the test method."""
 
@@ -74,7 +66,6 @@ class AnalyteData:
     calibration: CalibrationData
     samples: tuple[SampleData, ...] = ()
     blanks: np.ndarray | None = field(default=None, repr=False)
-    precision: PrecisionData | None = None
     comparison: ComparisonData | None = field(default=None, repr=False)
     # the analyte's entry in the previous results.json, as read (checked against the schema)
     previous: dict[str, Any] | None = field(default=None, repr=False)
@@ -284,24 +275,6 @@ def _blanks(reader, analytes):
                        lambda y, idx, name: y[idx])
 
 
-def _precision(reader, analytes):
-    def prepare(table):
-        level = numeric_column(table, "level", reader.decimal)
-        series = table.texts("series")
-        numeric_column(table, "found", reader.decimal)          # every cell checked before centring
-        declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
-                              level)
-        return table, level, series
-
-    def make(columns, idx, name):
-        table, level, series = columns
-        offset, centred = exact_centre([table.columns["found"][i] for i in idx], reader.decimal)
-        return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
-
-    return per_analyte(reader, reader.study.config.precision, analytes, "precision", ("level", "series", "found"),
-                       ("analyte",), "precision result", prepare, make)
-
-
 def _comparison(reader, analytes):
     def prepare(table):
         return (table, table.texts("sample", MAX_NAME_LENGTH), numeric_column(table, "reference", reader.decimal),
@@ -326,7 +299,7 @@ def _comparison(reader, analytes):
 
 
 # characteristics whose data are still read here (not yet by their registry entry's ``load``)
-_LEGACY_LOADERS = {"samples": _samples, "detection": _blanks, "precision": _precision, "comparison": _comparison}
+_LEGACY_LOADERS = {"samples": _samples, "detection": _blanks, "comparison": _comparison}
 
 
 def load_study(path: str | Path) -> LoadedStudy:
@@ -352,8 +325,7 @@ def load_study(path: str | Path) -> LoadedStudy:
             previous, run = read_previous(reader, calibration)
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
     analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
-                                 legacy["detection"].get(name), legacy["precision"].get(name),
-                                 legacy["comparison"].get(name), previous.get(name),
+                                 legacy["detection"].get(name), legacy["comparison"].get(name), previous.get(name),
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)

@@ -75,7 +75,7 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "qq_line": None if rv.qq_line is None else (rv.qq_line.intercept, rv.qq_line.slope),
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
-        "precision": [{"level": lv.level, "series": _series_pct(a.data.precision, lv)} for lv in a.precision],
+        "precision": [{"level": lv.level, "series": _series_pct(a.data.of("precision"), lv)} for lv in a.precision],
     }
 
 

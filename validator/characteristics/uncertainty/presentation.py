@@ -7,11 +7,12 @@ from ...report.text import fmt
 __all__ = ["sentences"]
 
 
-def sentences(entry: dict, unit: str) -> dict:
-    """{"uncertainty": one paragraph}: the expanded uncertainty per level and at the LOQ."""
+def sentences(entry: dict, reading) -> dict[str, str]:
+    """``summary``: the expanded uncertainty per level, at the LOQ and beside the accuracy profile's."""
+    unit = reading.unit
     k = fmt(entry["coverage_factor"])
     if entry["u_bias_pct"] is None:
-        return {"uncertainty": f"No combined uncertainty: {entry['reason']}."}
+        return {"summary": f"No combined uncertainty: {entry['reason']}."}
     parts = []
     for lv in entry["levels"]:
         if lv["expanded_pct"] is None:
@@ -31,4 +32,4 @@ def sentences(entry: dict, unit: str) -> dict:
         text += (" From the accuracy profile's intervals, k times their standard deviation is "
                  + "; ".join(f"{fmt(lv['profile_expanded_pct'], 3)} % at {fmt(lv['concentration'])} {unit}"
                              for lv in profile) + " (bias and u(Cref) not included).")
-    return {"uncertainty": text}
+    return {"summary": text}

@@ -1,4 +1,4 @@
-"""Precision: repeatability and intermediate precision by one-way ANOVA per level.
+"""Precision: repeatability and intermediate precision per level (one-way ANOVA, or the nested design).
 
 References
 ----------
@@ -28,14 +28,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, level_label, quiet_numpy
-from ..criteria import Criterion, at_most
-from ..maths.anova import OneWayAnova, one_way_anova
-from ..maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
-from ..maths.variance_components import nested_variance_components, verify_precision_claim
+from ..._common import ConfidenceInterval, level_label, quiet_numpy
+from ...criteria import Criterion, at_most
+from ...maths.anova import OneWayAnova, one_way_anova
+from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
+from ...maths.variance_components import nested_variance_components, verify_precision_claim
 
-__all__ = ["PrecisionLevel", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate", "ClaimCheck",
-           "RsdUpperBounds", "assess_precision_level", "precision_criteria", "mass_fraction_factor",
+__all__ = ["PrecisionResult", "PrecisionLevel", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate",
+           "ClaimCheck", "RsdUpperBounds", "assess_precision_level", "precision_criteria", "mass_fraction_factor",
            "horwitz_prsd"]
 
 
@@ -296,6 +296,13 @@ class PrecisionLevel:
             return ("the results within every series are identical (zero repeatability variance): the F test "
                     "and the intervals built on it do not exist")
         return "the value does not exist for these results (see the level's notes)"
+
+
+@dataclass(frozen=True)
+class PrecisionResult:
+    """The precision of one analyte: one entry per level, in increasing order (results.json ``precision``)."""
+
+    levels: tuple[PrecisionLevel, ...]
 
 
 def _sd_ci(sd, df, alpha):
