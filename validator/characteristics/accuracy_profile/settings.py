@@ -11,8 +11,8 @@ from typing import Optional
 
 from pydantic import Field, model_validator
 
+from ...errors import StudyError
 from ...inputs.study import _Section
-from ..precision.settings import require_precision
 
 __all__ = ["AccuracyProfileSection", "AcceptanceLevel", "load"]
 
@@ -48,5 +48,7 @@ class AccuracyProfileSection(_Section):
 
 def load(reader, settings: AccuracyProfileSection, analytes) -> dict:
     """No data file of its own: only checks that the study has the [precision] data it is built from."""
-    require_precision(reader, "accuracy_profile")
+    if getattr(reader.study.config, "precision", None) is None:
+        raise StudyError("[accuracy_profile] is built from the precision results, so it needs a [precision] section "
+                         "naming their data", file=reader.study.shown, key="accuracy_profile")
     return {}

@@ -13,7 +13,7 @@ from typing import Annotated, Optional
 import numpy as np
 from pydantic import Field, model_validator
 
-from ...errors import StudyError, show
+from ...errors import show
 from ...inputs.loading import declared_levels_exist, numeric_column, per_analyte
 from ...inputs.study import DataPath, _Section
 from ...inputs.tables import exact_centre
@@ -123,10 +123,3 @@ def load(reader, settings: PrecisionSection, analytes) -> dict[str, PrecisionDat
     optional = ("analyte",) + (("series",) if design and "series" not in design else ())
     return per_analyte(reader, settings, analytes, "precision", required, optional, "precision result", prepare,
                        make)
-
-
-def require_precision(reader, section: str) -> None:
-    """[accuracy_profile] and [uncertainty] are built from the precision results: refuse them without it."""
-    if getattr(reader.study.config, "precision", None) is None:
-        raise StudyError(f"[{section}] is built from the precision results, so it needs a [precision] section "
-                         "naming their data", file=reader.study.shown, key=section)

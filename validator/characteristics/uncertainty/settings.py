@@ -9,8 +9,8 @@ from typing import Literal, Optional
 
 from pydantic import Field
 
+from ...errors import StudyError
 from ...inputs.study import _Section
-from ..precision.settings import require_precision
 
 __all__ = ["UncertaintySection", "load"]
 
@@ -29,5 +29,7 @@ class UncertaintySection(_Section):
 
 def load(reader, settings: UncertaintySection, analytes) -> dict:
     """No data file of its own: only checks that the study has the [precision] data u(Rw) comes from."""
-    require_precision(reader, "uncertainty")
+    if getattr(reader.study.config, "precision", None) is None:
+        raise StudyError("[uncertainty] is built from the precision results, so it needs a [precision] section "
+                         "naming their data", file=reader.study.shown, key="uncertainty")
     return {}
