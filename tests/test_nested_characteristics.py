@@ -115,7 +115,10 @@ def test_unbalanced_design_uses_reml_and_states_the_missing_intervals():
     keep[[0, 10]] = False
     lv = _level(y[keep], list(np.array(day)[keep]), list(np.array(run)[keep]))
     assert lv.nested.method == "REML" and not lv.nested.balanced
-    assert lv.nested.intermediate.sd_ci is None and "unbalanced" in lv.nested.intermediate.reason
+    ip = lv.nested.intermediate
+    # the Satterthwaite interval with the REML-information df (chi-square quantiles from scipy)
+    assert ip.sd_ci == ip.sd_ci_satterthwaite and "REML" in ip.reason
+    assert ip.sd_ci.high == pytest.approx(ip.sd * math.sqrt(ip.df / stats.chi2.ppf(0.025, ip.df)), rel=1e-12)
 
 
 def test_claim_verification_upper_verification_limit():
@@ -478,15 +481,15 @@ def test_profile_level_zero_is_left_out_with_a_note():
     assert any("level 0" in n for n in got.notes)
 
 
-def test_unbalanced_interval_basis_names_the_missing_bound():
-    rng = np.random.default_rng(3)
-    y, day, run = _nested_data(rng)
-    keep = np.ones(y.size, bool)
-    keep[[0, 10]] = False
-    lv = _level(y[keep], list(np.array(day)[keep]), list(np.array(run)[keep]))
-    r, i = precision_criteria(lv, (5.0, 5.0), on_intervals=True)
-    assert r.passed is not None                      # chi-square bound on the residual mean square exists
-    assert i.passed is None and "unbalanced" in i.note and "point estimate" in i.note
+def test_interval_basis_names_a_missing_bound():
+    # two runs of one result each on one day: no repeatability df, so no upper bound
+    y = [10.0, 10.2, 9.9, 10.1]
+    day = ["a", "a", "b", "b"]
+    run = ["1", "2", "1", "2"]
+    lv = assess_precision_level(10.0, y, [f"{d}{r}" for d, r in zip(day, run)], design=("day", "run"),
+                                factors=(tuple(day), tuple(run)))
+    r, _ = precision_criteria(lv, (5.0, 5.0), on_intervals=True)
+    assert r.passed is None and r.note.startswith("not applicable") and "point estimate" in r.note
 
 
 def test_protocols_written_before_issue_13_keys_see_no_deviation(tmp_path):

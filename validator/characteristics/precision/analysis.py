@@ -142,7 +142,9 @@ class PrecisionConditionEstimate:
     """A precision condition: the components from the replicate out to a factor, as an SD.
 
     ``sd_ci`` is the two-sided interval (chi-square for repeatability, the modified
-    large-sample method for sums [BG]); ``sd_ci_satterthwaite`` the Satterthwaite interval;
+    large-sample method for sums [BG]; in an unbalanced design, where REML is used, the
+    Satterthwaite interval with df from the REML information); ``sd_ci_satterthwaite`` the
+    Satterthwaite interval;
     ``rsd_upper_pct`` the one-sided upper bound at the same confidence, chi-square with the
     (Satterthwaite) df.
     """
@@ -214,7 +216,7 @@ def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
     conds = []
     for c in res.conditions:
         conds.append(PrecisionConditionEstimate(
-            c.name, c.sources, c.sd, rel(c.sd), c.df, c.ci_mls, c.ci_satterthwaite,
+            c.name, c.sources, c.sd, rel(c.sd), c.df, c.ci_mls or c.ci_satterthwaite, c.ci_satterthwaite,
             _upper_rsd(c.sd, c.df, mean, alpha), c.reason))
     return NestedPrecision(tuple(design), res.method, res.balanced, comps, tuple(conds), res.notes)
 
