@@ -480,8 +480,9 @@ def design_deviations(design, analytes) -> list:
         recovery = a.of("recovery")
         if design.recovery is not None and recovery is not None:
             out += _level_deviations("recovery", design.recovery, recovery.added, recovery.series, a.name)
-        if design.precision is not None and a.precision is not None:
-            out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
+        precision = a.of("precision")
+        if design.precision is not None and precision is not None:
+            out += _level_deviations("precision", design.precision, precision.level, precision.series, a.name)
         for name, planned, seen in (
                 ("blanks.count", design.blanks and design.blanks.count, a.blanks),
                 ("reference_material.replicates",
