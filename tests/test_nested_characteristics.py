@@ -507,3 +507,16 @@ def test_protocols_written_before_issue_13_keys_see_no_deviation(tmp_path):
                                     'repeatability_rsd_max_pct = 5\ndesign = ["day", "run"]'))
     keys = sorted(d.key for d in compare(protocol, nested))
     assert keys == ["accuracy_profile", "precision.design"]
+
+
+def test_planned_precision_design_is_compared_with_the_nested_data(tmp_path):
+    # common practice, no published source: 1 level, 2 results per run, runs counted as the innermost
+    # units of the design (day/run paths), here 2 where 3 were planned
+    from validator.inputs.loading import load_study
+    from validator.protocol import design_deviations
+    data = "level,day,run,found\n10,d1,r1,9.9\n10,d1,r1,10.1\n10,d1,r2,10.0\n10,d1,r2,10.2\n"
+    path = _study(tmp_path, "[design.precision]\nlevels = [10]\nreplicates = 2\nruns = 3\n", 'design = ["day", "run"]',
+                  data)
+    loaded = load_study(path)
+    found = design_deviations(loaded.config.design, loaded.analytes)
+    assert [(d.key, d.protocol, d.run) for d in found] == [("design.precision.runs", 3, 2)]
