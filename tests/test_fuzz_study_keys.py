@@ -45,7 +45,7 @@ BASE = {
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
     "accuracy_profile": {"acceptance_pct": "15"},
-    "uncertainty": {"coverage_factor": "2"},
+    "uncertainty": {"coverage_factor": "2", "bias_from": "[\"recovery\", \"reference_material\"]"},
 }
 DATA = {"anions-drinking-water": ["calibration.csv", "samples.csv", "blanks.csv", "recovery.csv",
                                   "precision.csv", "crm.csv"],
