@@ -17,7 +17,7 @@ import jinja2
 
 from . import numbers, summary
 from .plots import PALETTE, analyte_figures, figures_for_all, style
-from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
+from .text import (SIG, SIG_P, calibration_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
@@ -84,7 +84,7 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "qq_line": None if rv.qq_line is None else (rv.qq_line.intercept, rv.qq_line.slope),
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
-        "precision": [{"level": lv.level, "series": _series_pct(a.data.precision, lv)} for lv in a.precision],
+        "precision": [{"level": lv.level, "series": _series_pct(a.data.of("precision"), lv)} for lv in a.precision],
     }
 
 
@@ -190,7 +190,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     titles = {e.name: e.title for e in registry.REGISTRY}
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        text = {**calibration_sentences(a, alpha, unit), **characteristic_sentences(a, alpha, unit)}
+        text = calibration_sentences(a, alpha, unit)
         text.update({name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
                      if name in sentences})
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text,
