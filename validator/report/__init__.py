@@ -198,6 +198,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                          "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"]),
                          "file_rows": _calibration_rows(result.analytes[i], a)})
     criteria = summary.ordered_criteria(results)
+    matrix = summary.matrix(results)
     flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point,
                 "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None}
                for a in analytes for point in a["flagged_points"]]
@@ -212,7 +213,8 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
         r=results, study=study, analytes=analytes, alpha=alpha, sections=sections,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
-        matrix=summary.matrix(results), conclusion=summary.conclusion(results), remarks=all_remarks,
+        matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
+        conclusion=summary.conclusion(results), remarks=all_remarks,
         flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
         calibration_file=result.loaded.config.calibration.data,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,

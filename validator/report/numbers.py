@@ -237,6 +237,7 @@ _PATH_RULES: tuple[tuple[str, str], ...] = (
     (r"p_value$", "p"),
     (r"^range_pct$", "value"),      # a declared acceptance range is shown as declared
     (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct)$", "rsd"),
+    (r"^(expanded_pct|combined_pct|u_rw_pct|u_bias_pct)$", "uncertainty"),    # relative uncertainties, 2 s.f.
     (r"_pct$", "percent"),
     (r"^(statistic|t_statistic|f_statistic|horrat|ratio)$", "statistic"),
     (r"^(r_squared|r)$", "correlation"),

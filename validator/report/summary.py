@@ -40,6 +40,7 @@ class MatrixRow:
     recovery_high: Cell | None
     repeatability_max: Cell | None
     intermediate_max: Cell | None
+    uncertainty_max: Cell | None
     not_met: int
     not_applicable: int
 
@@ -95,7 +96,8 @@ def _extreme(analyte_index: int, section: str, levels, key: str, pick) -> Cell |
 
 def matrix(results: dict) -> list[MatrixRow]:
     """One row per analyte: validated range, LOD/LOQ on the reported basis, range of the level mean
-    recoveries, largest repeatability and intermediate RSD, verdict and counts of criteria."""
+    recoveries, largest repeatability and intermediate RSD, largest relative expanded uncertainty
+    (where assessed), verdict and counts of criteria."""
     rows = []
     for i, a in enumerate(results["analytes"]):
         base = f"analytes.{i}"
@@ -119,6 +121,7 @@ def matrix(results: dict) -> list[MatrixRow]:
         rec = a.get("recovery")
         rec_levels = rec["levels"] if rec else []
         prec_levels = (a.get("precision") or {}).get("levels", [])
+        unc_levels = (a.get("uncertainty") or {}).get("levels", [])
         rows.append(MatrixRow(
             index=i, name=a["name"], verdict=a["verdict"], range_low=low, range_high=high, range_note=range_note,
             lod=lod, loq=loq, detection_note=det_note,
@@ -126,6 +129,7 @@ def matrix(results: dict) -> list[MatrixRow]:
             recovery_high=_extreme(i, "recovery", rec_levels, "mean_pct", max),
             repeatability_max=_extreme(i, "precision", prec_levels, "repeatability_rsd_pct", max),
             intermediate_max=_extreme(i, "precision", prec_levels, "intermediate_rsd_pct", max),
+            uncertainty_max=_extreme(i, "uncertainty", unc_levels, "expanded_pct", max),
             not_met=sum(1 for c in a["criteria"] if c["pass"] is False),
             not_applicable=sum(1 for c in a["criteria"] if c["pass"] is None)))
     return rows
