@@ -249,7 +249,7 @@ def _too_few(analyte: dict, unit: str) -> list:
             level = analyte["precision"]["levels"][int(parts[2])]["level"]
             where = N.by_rule(level, "value")
         grouped.setdefault((test, reason), [])
-        if where:
+        if where and where not in grouped[(test, reason)]:     # several series at one level: named once
             grouped[(test, reason)].append(where)
     out = []
     for (test, reason), levels in grouped.items():
