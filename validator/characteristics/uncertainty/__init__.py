@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._entry import Assessment, Characteristic
-from .. import accuracy_profile, precision, recovery, reference_material
+from .. import accuracy_profile, detection, precision, recovery, reference_material, samples
 from . import presentation, settings
 from .analysis import (BiasEvidence, BudgetLevel, PrecisionInput, SampleUncertainty, UncertaintyResult,
                        assess_uncertainty, sample_uncertainty, uncertainty_criteria)
@@ -51,7 +51,8 @@ def assess(ctx) -> Assessment[UncertaintyResult] | None:
     source = ("intermediate precision RSD, all components of the design " + "/".join(design) if design else
               "intermediate precision RSD, one-way ANOVA on series")
     inputs = tuple(PrecisionInput(lv.level, lv.decisive[1][0], source, lv.decisive[1][2]) for lv in prec.levels)
-    reported = ctx.detection.reported if ctx.detection is not None else None
+    found = ctx.result_of(detection.ENTRY)
+    reported = found.reported if found is not None else None
     loq = None if reported is None else reported.loq
     profile = ctx.result_of(accuracy_profile.ENTRY)
     profile_sd = {} if profile is None else {lv.nominal: lv.prediction_sd_pct for lv in profile.levels
@@ -60,7 +61,7 @@ def assess(ctx) -> Assessment[UncertaintyResult] | None:
                                 loq_reason="" if loq is not None else
                                 (getattr(reported, "reason", "") or "no LOQ is reported"),
                                 profile_sd_pct=profile_sd,
-                                samples=tuple((s.id, s.concentration) for s in ctx.samples))
+                                samples=tuple((s.id, s.concentration) for s in ctx.result_of(samples.ENTRY) or ()))
     return Assessment(result, uncertainty_criteria(result, uc.expanded_max_pct))
 
 
