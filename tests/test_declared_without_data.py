@@ -38,3 +38,23 @@ def test_an_analyte_missing_from_a_declared_table_is_incomplete(tmp_path, outsid
     assert gap[0]["note"].startswith(f'not applicable: the study declares [{name}], but its data have no rows for '
                                      'analyte "B"')
     assert by_name["B"]["verdict"] == "incomplete"
+
+
+def test_precision_of_identical_results_is_not_shown(tmp_path, outside, capsys):
+    """Five identical results per series give RSD 0: no spread is visible at the reported resolution,
+    so the RSD and claim criteria are not applicable (not met-by-default).
+    # common practice, no published source: a zero SD from rounded results shows no precision
+    """
+    (tmp_path / "calibration.csv").write_text(CALIBRATION)
+    (tmp_path / "precision.csv").write_text("analyte,level,series,found\n" + "".join(
+        f"{a},5,{s},5.00\n" for a in "AB" for s in ("d1", "d2", "d3") for _ in range(3)))
+    (tmp_path / "study.toml").write_text(STUDY + '[precision]\ndata = "precision.csv"\n'
+                                         "repeatability_rsd_max_pct = 2\nintermediate_rsd_max_pct = 3\n"
+                                         "claimed_repeatability_rsd_pct = 1.5\n")
+    assert main(["run", str(tmp_path / "study.toml"), "--out", str(outside / "p"), "--format", "json"]) == 1
+    capsys.readouterr()
+    results = json.loads((outside / "p" / "results.json").read_text())
+    judged = [c for a in results["analytes"] for c in a["criteria"]
+              if c["id"].startswith(("repeatability", "intermediate"))]
+    assert {c["id"] for c in judged} == {"repeatability-rsd-5", "intermediate-rsd-5", "repeatability-claim-5"}
+    assert all(c["pass"] is None and "no spread at all" in c["note"] for c in judged)

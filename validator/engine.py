@@ -221,6 +221,8 @@ def _declared_without_data(step: Characteristic, ctx: AnalyteContext) -> Criteri
     settings = ctx.settings_of(step)
     if not step.judges or step.load is None or settings is None or ctx.data_of(step) is not None:
         return None
+    if getattr(settings, "analyte", None) not in (None, ctx.data.name):
+        return None             # the table is for another analyte (a reference material certified for one)
     return Criterion(f"{step.name}-data", f"{step.title}: data for this analyte", None, None, None,
                      f"not applicable: the study declares [{step.name}], but its data have no rows for "
                      f'analyte "{ctx.data.name}", so it was not assessed for this analyte')
