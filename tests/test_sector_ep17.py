@@ -192,10 +192,28 @@ def test_lob_refuses_non_finite_results():
         limit_of_blank([0.0, float("nan"), 1.0])
 
 
-def test_constant_blanks_do_not_warn():
+def test_constant_blanks_give_no_parametric_lob_and_do_not_warn():
     res = limit_of_blank([0.0] * 20, method="parametric", purpose="verification")
-    assert res.value == 0.0                                  # hand: mean 0, SD 0
+    # hand: mean 0, SD 0: identical (censored) blanks estimate no percentile by mean + c_p SD; not applicable
+    assert res.value is None and "SD 0" in res.reason and "non-parametric" in res.reason
+    assert res.lots[0].sd == 0.0
+    # the non-parametric LoB of the same data exists: the 95th percentile of twenty zeros is 0 (hand)
+    assert limit_of_blank([0.0] * 20, purpose="verification").value == 0.0
     assert ep17.MINIMUM_RESULTS_PER_LOT == {"establishment": 60, "verification": 20}
+
+
+@pytest.mark.parametrize("samples, lots, expected", [
+    (["a"] * 2, ["1"] * 2, "lot 1: 2 blank results from 1 sample(s)"),        # hand count: 2 < 20
+    (["a"] * 20, ["1"] * 20, "lot 1: 20 blank results from 1 sample(s)"),     # hand count: 1 < 2 samples
+    (["a", "b"] * 10, ["1"] * 20, ""),                                         # 20 results, 2 samples: met
+    (["a", "b"] * 15, ["1"] * 20 + ["2"] * 10, "lot 2: 10 blank results"),     # 2 lots: each lot counts
+    (["a", "b"] * 20, ["1", "2", "3", "4"] * 10, ""),                          # 4 lots: all 40 together
+])
+def test_verification_shortfall(samples, lots, expected):
+    # from memory: CLSI EP17-A2 sec. 6, at least 20 results from 2 samples; counts by hand
+    got = ep17.verification_shortfall(samples, lots, "blank")
+    assert (got == "") if expected == "" else got.startswith(expected)
+    assert (ep17.VERIFICATION_MINIMUM_RESULTS, ep17.VERIFICATION_MINIMUM_SAMPLES) == (20, 2)
 
 
 def test_four_or_more_lots_combine_all_results_for_lob_and_lod():

@@ -36,11 +36,14 @@ def _criteria(results, prefix):
 
 # ------------------------------------------------------------------ limit of blank (CLSI EP17-A2)
 BLANKS = [0.01 * i for i in range(60)]          # 0.00, 0.01, ..., 0.59: rank 57.5 -> (0.56 + 0.57)/2
-LOW = {"L1": [0.9, 1.1, 1.0, 0.95, 1.05, 1.0], "L2": [2.1, 1.9, 2.0, 2.05, 1.95, 2.0]}
+LOW = {"L1": [0.9, 1.1, 1.0, 0.95, 1.05, 1.0, 0.92, 1.08, 0.97, 1.03],
+       "L2": [2.1, 1.9, 2.0, 2.05, 1.95, 2.0, 2.08, 1.92, 2.03, 1.97]}
 
 
 def _lob_files():
-    blanks = "found\n" + "".join(f"{v:.2f}\n" for v in BLANKS)
+    # two blank samples (b1, b2 alternating) and 2 x 10 low-level results: the EP17-A2 verification
+    # minimum of 20 results from 2 samples (from memory: EP17-A2 sec. 6) is met
+    blanks = "sample,found\n" + "".join(f"b{1 + i % 2},{v:.2f}\n" for i, v in enumerate(BLANKS))
     low = "sample,found,nominal\n" + "".join(f"{s},{v},{1.0 if s == 'L1' else 2.0}\n"
                                              for s, vs in LOW.items() for v in vs)
     from conftest import CALIBRATION
@@ -65,9 +68,9 @@ def test_limit_of_blank_end_to_end(make_study, outside):
     # hand computation: rank 0.5 + 0.95 x 60 = 57.5, the mean of the 57th and 58th sorted blanks
     assert entry["lob"]["lots"][0]["rank"] == pytest.approx(57.5)
     assert entry["lob"]["value"] == pytest.approx((0.56 + 0.57) / 2, abs=1e-12)
-    # hand computation: SD_L pooled over the two samples (5 df each), c_p = 1.645 / (1 - 1/(4 (12 - 2)))
+    # hand computation: SD_L pooled over the two samples (9 df each), c_p = 1.645 / (1 - 1/(4 (20 - 2)))
     pooled = math.sqrt((np.var(LOW["L1"], ddof=1) + np.var(LOW["L2"], ddof=1)) / 2)
-    cp = 1.645 / (1 - 1 / (4 * (12 - 2)))
+    cp = 1.645 / (1 - 1 / (4 * (20 - 2)))
     assert entry["lod"]["lots"][0]["coverage_factor"] == pytest.approx(cp, rel=1e-12)
     assert entry["lod"]["value"] == pytest.approx(0.565 + cp * pooled, rel=1e-12)
     # LoQ: both levels meet CV <= 10 %, so the lowest (nominal 1), which lies above the LoD
@@ -94,6 +97,42 @@ def test_limit_of_blank_without_low_samples_is_not_shown_so_not_passed(make_stud
     items = {e["item"]: e["reason"] for e in results["analytes"][0]["not_applicable"]}
     assert "no low-level results" in items["limit_of_blank.lod"]
     assert results["analytes"][0]["verdict"] == "incomplete"
+
+
+def _criteria_of(make_study, outside, body, files, name):
+    _, results, _ = _run(make_study(body, files), outside, name=name)
+    return {c["id"]: c for c in _criteria(results, "limit-of")}, results
+
+
+def test_limit_of_blank_degenerate_designs_are_not_passed(make_study, outside):
+    from conftest import CALIBRATION
+    body = LOB_BODY.replace("loq_max_cv_pct = 10\n", "loq_max_cv_pct = 50\nloq_max = 5\n")
+    # 2 blank results from 1 sample, 2 low-level results from 1 sample: below the EP17-A2 verification
+    # minimum of 20 results from 2 samples (from memory: EP17-A2 sec. 6), so no verdict (counts by hand)
+    tiny = {"calibration.csv": CALIBRATION, "blanks.csv": "sample,found\nb,0.01\nb,0.02\n",
+            "low.csv": "sample,found,nominal\nL1,1.0,1.0\nL1,1.1,1.0\n"}
+    parametric = body.replace("[limit_of_blank]", '[limit_of_blank]\nmethod = "parametric"')
+    by_id, results = _criteria_of(make_study, outside, parametric.replace("lob_max = 0.6", "lob_max = 5")
+                                  .replace("lod_max = 0.6", "lod_max = 5"), tiny, "tiny")
+    lob = results["analytes"][0]["limit_of_blank"]["lob"]
+    # hand computation: c_p = 1.645 / (1 - 1/(4 (2 - 1))) = 2.1933..., computed and shown, not judged
+    assert lob["lots"][0]["coverage_factor"] == pytest.approx(1.645 / 0.75, rel=1e-12)
+    for cid in ("limit-of-blank", "limit-of-detection", "limit-of-quantitation"):
+        assert by_id[cid]["pass"] is None, cid
+        assert "verification minimum of 20 results from 2 samples" in by_id[cid]["note"], cid
+    # 20 identical blanks, parametric: SD 0 gives no LoB, so no verdict (hand: mean 0, SD 0)
+    files = _lob_files()
+    files["blanks.csv"] = "sample,found\n" + "b1,0.0\nb2,0.0\n" * 10
+    by_id, _ = _criteria_of(make_study, outside, parametric, files, "zero")
+    assert by_id["limit-of-blank"]["pass"] is None and "SD 0" in by_id["limit-of-blank"]["note"]
+    assert by_id["limit-of-detection"]["pass"] is None
+    # one reagent lot of 60 blanks (establishment asks for 2 lots and 60 low-level results per lot): the
+    # verdict stands, the shortfall is stated beside it in the criterion's note (hand: 0.565 <= 0.6)
+    by_id, _ = _criteria_of(make_study, outside, LOB_BODY, _lob_files(), "onelot")
+    assert by_id["limit-of-blank"]["pass"] is True
+    assert by_id["limit-of-blank"]["note"] == ("design: 1 reagent lot(s), fewer than the 2 CLSI EP17-A2 asks "
+                                               "for establishment")
+    assert "20 low-level results, fewer than the 60" in by_id["limit-of-detection"]["note"]
 
 
 def test_limit_of_blank_loader_errors_name_file_row_column_value(make_study):

@@ -15,7 +15,9 @@ What is implemented
 * The design minimums are checked and reported as notes, never as errors:
   at least 60 blank and 60 low-level results per reagent lot to establish
   the limits, at least 20 to verify a claim, and at least two reagent lots to
-  establish (from memory: EP17-A2 sec. 5.2 and 6).
+  establish (from memory: EP17-A2 sec. 5.2 and 6). Below the verification
+  minimum (20 results from 2 samples, :func:`verification_shortfall`) the
+  limits are still computed but cannot be judged against a claim.
 
 References
 ----------
@@ -38,7 +40,8 @@ from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positiv
 __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
            "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES",
-           "COMBINE_LOTS_FROM", "lot_rule"]
+           "COMBINE_LOTS_FROM", "lot_rule", "verification_shortfall", "VERIFICATION_MINIMUM_RESULTS",
+           "VERIFICATION_MINIMUM_SAMPLES"]
 
 LOB_METHODS = ("nonparametric", "parametric")
 PURPOSES = ("establishment", "verification")
@@ -46,6 +49,10 @@ PURPOSES = ("establishment", "verification")
 # reagent lot, >= 2 lots) and sec. 6 (verification of a claim: >= 20 results)
 MINIMUM_RESULTS_PER_LOT = {"establishment": 60, "verification": 20}
 MINIMUM_LOTS = {"establishment": 2, "verification": 1}
+# from memory: CLSI EP17-A2 sec. 6 (verification of a LoB or LoD claim): at least 20 results from
+# at least 2 samples. Below this no LoB/LoD/LoQ claim can be judged (criteria not applicable).
+VERIFICATION_MINIMUM_RESULTS = 20
+VERIFICATION_MINIMUM_SAMPLES = 2
 # from memory: EP17-A2 5.3.3.1 (and the LoD likewise): with 2 or 3 reagent lots the limit is
 # computed per lot and the largest reported; with 4 or more the lots' results are combined into
 # one estimate. (The standard's text was not available to check; a secondary summary of the
@@ -261,6 +268,42 @@ def lot_rule(n_lots: int) -> str:
     return "one lot" if n <= 1 else ("largest lot" if n < COMBINE_LOTS_FROM else "lots combined")
 
 
+def verification_shortfall(sample, lot, kind: str) -> str:
+    """Why a design is below the EP17-A2 verification minimum, or "" when it is not.
+
+    Parameters
+    ----------
+    sample, lot : sequence of labels
+        The sample and reagent lot of each result.
+    kind : str
+        "blank" or "low-level", for the message.
+
+    Notes
+    -----
+    Each estimate the reported limit is built on must rest on at least
+    ``VERIFICATION_MINIMUM_RESULTS`` (20) results from at least
+    ``VERIFICATION_MINIMUM_SAMPLES`` (2) samples (from memory: CLSI EP17-A2
+    sec. 6): each lot with 1 to 3 lots, all lots together with 4 or more
+    (:func:`lot_rule`).
+    """
+    samples = np.asarray([str(v) for v in sample], dtype=object)
+    lots = np.asarray([str(v) for v in lot], dtype=object)
+    if samples.size != lots.size:
+        raise ValueError(f"sample and lot must pair up, got {samples.size} and {lots.size} labels")
+    names = list(dict.fromkeys(lots))
+    groups = ([(COMBINED, np.ones(lots.size, dtype=bool))] if lot_rule(len(names)) == "lots combined"
+              else [(f"lot {n}", lots == n) for n in names])
+    if not groups:
+        return f"no {kind} results"
+    for name, mask in groups:
+        n, k = int(mask.sum()), len(set(samples[mask]))
+        if n < VERIFICATION_MINIMUM_RESULTS or k < VERIFICATION_MINIMUM_SAMPLES:
+            return (f"{name}: {n} {kind} results from {k} sample(s), below the CLSI EP17-A2 verification minimum "
+                    f"of {VERIFICATION_MINIMUM_RESULTS} results from {VERIFICATION_MINIMUM_SAMPLES} samples "
+                    "(from memory: EP17-A2 sec. 6)")
+    return ""
+
+
 def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, normal_quantile: float) -> LotLimit:
     """The LoB of one set of blank results (one lot, or all lots combined)."""
     k = len(set(s))
@@ -271,6 +314,11 @@ def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, norm
     if v.size - k < 1 or summary.sd is None:
         return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
             f"{v.size} blank results from {k} samples: the parametric LoB needs more results than samples"))
+    if summary.sd == 0:
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+            f"the {v.size} blank results are all {summary.mean:g} (SD 0): such data are censored or identical, "
+            "so mean + c_p SD estimates no percentile; the non-parametric LoB is the CLSI EP17-A2 route "
+            "(method = \"nonparametric\")"))
     cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
     value = summary.mean + cp * summary.sd
     if not math.isfinite(value):
@@ -315,7 +363,9 @@ def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None,
     :func:`nonparametric_percentile`).
     Parametric: LoB = M_B + c_p SD_B with M_B, SD_B the mean and SD of all B
     blank results of the lot and c_p = z / (1 - 1/(4 (B - K))), K the number of
-    blank samples (from memory: EP17-A2 sec. 5.3.3.2).
+    blank samples (from memory: EP17-A2 sec. 5.3.3.2). Blank results with SD 0
+    (all equal, e.g. censored at zero) give no parametric LoB (value ``None``
+    with the reason): the non-parametric LoB is the route for such data.
     The reported LoB (see :func:`lot_rule`): with 2 or 3 lots the largest lot
     LoB (``None`` if any lot's is); with 4 or more lots the LoB of all lots'
     results combined (``combined``; K then counts the distinct sample labels
