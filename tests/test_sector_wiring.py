@@ -381,7 +381,11 @@ def test_mdl_by_hand_with_scipy_t_quantile(make_study, outside):
     assert e["value"] == pytest.approx(max(e["spiked"], 0.31), rel=1e-15)
     crit = _criteria(results, "method-detection-limit")[0]
     assert crit["pass"] is (e["value"] <= 0.5)
-    assert "Method detection limit" in (out / "dossier.html").read_text(encoding="utf-8")
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "Method detection limit" in html
+    # the reading of the 100-blank threshold is stated in results.json and the dossier
+    assert e["blank_rule_reading"].startswith("40 CFR 136 Appendix B Rev. 2, II(2)")
+    assert "Rule applied: 40 CFR 136 Appendix B Rev. 2, II(2)" in html
 
 
 def test_mdl_all_blanks_numerical_and_bad_cell(make_study, outside):
