@@ -184,3 +184,25 @@ def test_normalised_matrix_factor_by_hand():
     assert [r.normalised_factor for r in res.lots] == pytest.approx([float(e) for e in expected], rel=1e-14)
     assert res.cv_percent == pytest.approx(100 * sd / float(mean), rel=1e-12)
     assert res.passed is (res.cv_percent <= 15)
+
+
+def test_judged_slope_ratio_without_a_bounded_interval_is_not_applicable():
+    from validator.characteristics.matrix_effect.analysis import MatrixEffect, matrix_effect_criteria
+    flat = np.array([5.0, -3.0, 4.0, -2.0, 6.0, 1.0])            # a solvent "calibration" with no slope
+    for variance in ("pooled", "separate"):
+        sr = slope_ratio_matrix_effect(X, flat, X, Y_MATRIX, variance=variance)
+        # cross-check: statsmodels OLS of the solvent line; Fieller's set is unbounded exactly when
+        # |b_s / SE(b_s)| <= t (g = t^2 var(b_s) / b_s^2 >= 1), SE from the variance model used
+        fit = sm.OLS(flat, sm.add_constant(X)).fit()
+        t_slope = abs(fit.params[1]) / sr.se_slope_solvent
+        assert t_slope <= stats.t.isf(0.025, sr.df)
+        if variance == "separate":
+            assert sr.se_slope_solvent == pytest.approx(fit.bse[1], rel=1e-9)
+        assert sr.statistic is not None and abs(sr.statistic) > 20 and sr.interval is None
+        (crit,) = matrix_effect_criteria(MatrixEffect(sr, (), None), judge_slope_ratio=True, limit_pct=20.0)
+        # not shown is not passed: an estimate without a bounded interval is not judged (it was FAIL)
+        assert crit.passed is None and crit.value is None
+        assert "no bounded interval" in crit.note and "unbounded" in crit.note
+    exact = slope_ratio_matrix_effect(X, 2 * X, X, 3 * X)
+    (crit,) = matrix_effect_criteria(MatrixEffect(exact, (), None), judge_slope_ratio=True, limit_pct=60.0)
+    assert crit.passed is True and crit.value == pytest.approx(50.0)   # hand: (3/2 - 1) x 100 within +/-60

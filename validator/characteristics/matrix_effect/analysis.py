@@ -82,6 +82,11 @@ def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, lim
         sr = result.slope_ratio
         value = None if sr is None else sr.statistic
         why = result.slope_ratio_reason or (sr.reason if sr is not None else "")
+        if value is not None and sr.interval is None:
+            # a ratio whose interval is unbounded (solvent slope not different from zero) is not an estimate
+            # to judge: any ME % is compatible with the data
+            value, why = None, (f"the slope ratio has no bounded interval ({why or 'no interval'}); "
+                                f"its estimate, {sr.statistic:.4g} %, is not judged")
         limit = [-limit_pct, limit_pct]
         out.append(Criterion("matrix-effect-slope-ratio",
                              f"matrix effect ME % = 100 (slope in matrix / slope in solvent − 1) within ±{limit_pct:g} %",
