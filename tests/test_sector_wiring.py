@@ -261,6 +261,7 @@ ME_BODY = """\
 data = "calibration.csv"
 [matrix_effect]
 solvent_data = "solvent.csv"
+variance = "pooled"
 judge_slope_ratio = true
 limit_pct = 5
 """
@@ -309,13 +310,43 @@ def test_matrix_effect_slope_ratio_interval_against_joint_statsmodels_fit(make_s
     assert crit["pass"] is (abs(sr["statistic"]) <= 5)
 
 
+def test_matrix_effect_uses_the_calibration_weighting_and_separate_variances_by_default(make_study, outside):
+    import statsmodels.api as sm
+    from conftest import CALIBRATION
+
+    body = ME_BODY.replace('variance = "pooled"\n', "").replace('data = "calibration.csv"\n',
+                                                                 'data = "calibration.csv"\nweighting = "1/x^2"\n')
+    _, results, out = _run(make_study(body, _me_files()), outside, "json,html")
+    sr = results["analytes"][0]["matrix_effect"]["slope_ratio"]
+    assert sr["weighting"] == "1/x^2" and sr["variance"] == "separate"
+    matrix = np.array([[float(v) for v in line.split(",")] for line in CALIBRATION.splitlines()[1:]])
+    solvent = np.array(SOLVENT, dtype=float)
+    # cross-check: statsmodels WLS (weights 1/x^2), one fit per calibration
+    fits = [sm.WLS(d[:, 1], sm.add_constant(d[:, 0]), weights=1 / d[:, 0] ** 2).fit() for d in (solvent, matrix)]
+    (b_s, v_s), (b_m, v_m) = ((f.params[1], f.bse[1] ** 2) for f in fits)
+    r = b_m / b_s
+    assert sr["statistic"] == pytest.approx(100 * (r - 1), rel=1e-9)
+    # hand computation: Welch-Satterthwaite df of b_m - R b_s
+    df = (v_m + r * r * v_s) ** 2 / (v_m ** 2 / (len(matrix) - 2) + r ** 4 * v_s ** 2 / (len(solvent) - 2))
+    assert sr["df"] == pytest.approx(df, rel=1e-9)
+    assert "weighted 1/x^2" in (out / "dossier.html").read_text(encoding="utf-8")
+    # a solvent blank at concentration 0 cannot be weighted 1/x^2: no slope ratio, with the reason
+    files = _me_files()
+    files["solvent.csv"] += "0,0.01\n"
+    _, results, _ = _run(make_study(body, files), outside, name="zero")
+    entry = results["analytes"][0]["matrix_effect"]
+    assert entry["slope_ratio"] is None and "needs every solvent-calibration concentration > 0" in \
+        entry["slope_ratio_reason"]
+    assert _criteria(results, "matrix-effect-slope-ratio")[0]["pass"] is None
+
+
 def test_matrix_lots_and_normalised_factor_by_hand(make_study, outside):
     lots = "lot,nominal,found\n" + "".join(f"P{k},3,{3 * (1 + 0.02 * k) + d}\n" for k in range(1, 7)
                                            for d in (-0.03, 0.0, 0.03))
     lots += "".join(f"P{k},80,{80 + d}\n" for k in range(1, 6) for d in (-1, 0, 1))      # 5 lots at high QC
     factor = ("lot,analyte_response,internal_standard_response\nneat,100,50\nneat,102,51\n"
               + "".join(f"P{k},{90 + k},{45 + k / 2}\n" for k in range(1, 7)))
-    body = ME_BODY.replace('solvent_data = "solvent.csv"\njudge_slope_ratio = true\nlimit_pct = 5\n',
+    body = ME_BODY.replace('solvent_data = "solvent.csv"\nvariance = "pooled"\njudge_slope_ratio = true\nlimit_pct = 5\n',
                            'lots_data = "lots.csv"\nfactor_data = "factor.csv"\n')
     _, results, out = _run(make_study(body, _me_files(**{"lots.csv": lots, "factor.csv": factor})), outside, "json,html")
     entry = results["analytes"][0]["matrix_effect"]
