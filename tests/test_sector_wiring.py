@@ -182,7 +182,21 @@ def test_reanalysis_by_hand_and_exact_two_thirds(make_study, outside):
     defaults = {d["key"] for d in results["defaults_applied"]}
     assert {"reanalysis.limit_pct", "reanalysis.min_fraction"} <= defaults
     html = (out / "dossier.html").read_text(encoding="utf-8")
-    assert "4 of 6 repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    assert "4 of 6 judged repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    assert "rests on 6 reanalysed sample(s)" in crit["note"]           # few samples: stated beside the verdict
+
+
+def test_reanalysis_pair_of_zeros_is_not_judged(make_study, outside):
+    _, results, out = _run(make_study(ISR_BODY, _isr_files(ISR + [("S7", 0, 0)])), outside, "json,html")
+    entry = results["analytes"][0]["reanalysis"]
+    s7 = entry["samples"][6]
+    # hand computation: S7 has mean 0, % difference undefined, left out: still 4 of 6 judged within
+    assert s7["difference_percent"] is None and s7["within"] is None and "both 0" in s7["reason"]
+    assert (entry["n"], entry["n_judged"], entry["n_within"]) == (7, 6, 4)
+    items = {e["item"]: e["reason"] for e in results["analytes"][0]["not_applicable"]}
+    assert any("both 0" in reason for item, reason in items.items() if "samples.6" in item)
+    assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is True
+    assert "not judged" in (out / "dossier.html").read_text(encoding="utf-8")
     # 0.67 is not two-thirds: 4/6 = 0.6667 < 0.67 fails (compared exactly)
     _, results, _ = _run(make_study(ISR_BODY + "min_fraction = 0.67\n", _isr_files()), outside, name="b")
     assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is False
