@@ -135,6 +135,21 @@ def test_limit_of_blank_degenerate_designs_are_not_passed(make_study, outside):
     assert "20 low-level results, fewer than the 60" in by_id["limit-of-detection"]["note"]
 
 
+def test_limit_of_blank_four_lots_are_combined_end_to_end(make_study, outside):
+    files = _lob_files()
+    # the 60 blanks of _lob_files spread over 4 reagent lots of 15 (A, B, C, D in turn)
+    files["blanks.csv"] = "sample,lot,found\n" + "".join(f"b{1 + i % 2},{'ABCD'[i % 4]},{v:.2f}\n"
+                                                         for i, v in enumerate(BLANKS))
+    _, results, out = _run(make_study(LOB_BODY, files), outside, "json,html")
+    lob = results["analytes"][0]["limit_of_blank"]["lob"]
+    # hand computation: all 60 results together, rank 57.5 -> (0.56 + 0.57) / 2 (from memory: EP17-A2
+    # 5.3.3.1, 4 or more lots combined); each lot alone would give its own 95th percentile
+    assert lob["lot_rule"] == "lots combined" and lob["combined"]["n_results"] == 60
+    assert lob["value"] == pytest.approx(0.565, abs=1e-12) and len(lob["lots"]) == 4
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert 'data-src="analytes.0.limit_of_blank.lob.combined.value"' in html and "all lots combined" in html
+
+
 def test_limit_of_blank_loader_errors_name_file_row_column_value(make_study):
     files = _lob_files()
     files["blanks.csv"] = "found\n0.1\n0.2x\n"
