@@ -37,6 +37,10 @@ CASES = [
     ("csv-minus-1e999", CALIB, {"calibration.csv": CAL + "-1e999,3\n"}, "",
      'calibration.csv, row 10, column "concentration": "-1e999" is too large for a number '
      "(the largest magnitude is about 1.8e308)"),
+    # IEEE 754 double: the smallest subnormal is about 4.9e-324; below it a non-zero text reads as 0
+    ("csv-1e-400", CALIB, {"calibration.csv": CAL + "9,1e-400\n"}, "",
+     'calibration.csv, row 10, column "response": "1e-400" is too small for a number and would be read '
+     "as 0 (the smallest magnitude is about 2.2e-308)"),
     ("toml-1e999", CALIB + "[criteria]\nback_calculation_tolerance_pct = 1e999\n", None, "",
      "{dir}/study.toml, line 9, key criteria.back_calculation_tolerance_pct: must be a finite number "
      "with 0 < back_calculation_tolerance_pct <= 100; got inf"),

@@ -215,6 +215,19 @@ class AnalyteContext:
         return replace(self, results=self.results + ((name, done.result),), criteria=criteria)
 
 
+def _declared_without_data(step: Characteristic, ctx: AnalyteContext) -> Criterion | None:
+    """A not-applicable criterion when the study declares ``step``'s table but this analyte has
+    no data for it: the analyte's validation is then incomplete, never silently shorter."""
+    settings = ctx.settings_of(step)
+    if not step.judges or step.load is None or settings is None or ctx.data_of(step) is not None:
+        return None
+    if getattr(settings, "analyte", None) not in (None, ctx.data.name):
+        return None             # the table is for another analyte (a reference material certified for one)
+    return Criterion(f"{step.name}-data", f"{step.title}: data for this analyte", None, None, None,
+                     f"not applicable: the study declares [{step.name}], but its data have no rows for "
+                     f'analyte "{ctx.data.name}", so it was not assessed for this analyte')
+
+
 def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
     """Every characteristic of :data:`validator.registry.REGISTRY`, in order, for one analyte."""
     ctx = AnalyteContext(data=data, config=config, unit=concentration_unit)
@@ -222,6 +235,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         done = step.assess(ctx)
         if done is not None:
             ctx = ctx.with_result(step.name, done)
+        elif (gap := _declared_without_data(step, ctx)) is not None:
+            ctx = replace(ctx, criteria=ctx.criteria + (gap,))
     cal = ctx.result_of(calibration.ENTRY)
     return AnalyteResult(name=data.name, data=data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),

@@ -119,6 +119,9 @@ def parse_number(text: str, *, decimal: str, file: str, row: int, column: str) -
             if not math.isfinite(value):
                 raise DataError(f'"{show(s)}" is too large for a number (the largest magnitude is '
                                 "about 1.8e308)", **where)
+            if value == 0 and re.search(r"[1-9]", re.split(r"[eE]", candidate)[0]):
+                raise DataError(f'"{show(s)}" is too small for a number and would be read as 0 (the smallest '
+                                "magnitude is about 2.2e-308)", **where)
             return value
     if _THOUSANDS.fullmatch(s) and (s.count(",") + s.count(".") + s.count("'") + s.count(" ")) > 1:
         raise DataError(f'"{show(s)}" has thousands separators; write the number without them', **where)

@@ -410,6 +410,10 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
         horwitz_note=note, reason="; ".join(notes), rsd_upper_bounds=upper, nested=nested, claims=checks)
 
 
+NO_SPREAD = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
+             "reported values, so precision is not shown; report the results with more digits")
+
+
 def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool = False, alpha: float = 0.05) -> tuple:
     """Repeatability and intermediate RSD of one level against their maxima, and claim verifications.
 
@@ -420,6 +424,12 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
     precision (all components).
     """
     (r_rsd, r_up, r_why), (i_rsd, i_up, i_why) = lv.decisive
+    # an RSD of exactly 0 shows no precision: the spread is below the resolution of the reported
+    # results (rounded or censored values), so it is not judged (not shown is not passed)
+    if r_rsd == 0:
+        r_rsd, r_up, r_why = None, None, NO_SPREAD
+    if i_rsd == 0:
+        i_rsd, i_up, i_why = None, None, NO_SPREAD
     out = []
     r_max, i_max = limits
     conf = level_label(1 - alpha)
@@ -446,6 +456,13 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
                        if on_intervals else f"{label} at level {lv.level:g} at most {limit:g} %")
         out.append(Criterion(f"{kind}-rsd-{lv.level:g}", description, judged, limit, at_most(judged, limit), note))
     for c in lv.claims or ():
+        if c.observed_sd == 0:
+            out.append(Criterion(
+                f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
+                f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
+                f"{c.claimed_rsd_pct:g} % RSD (CLSI EP15)", None, c.upper_verification_limit, None,
+                f"not applicable: {NO_SPREAD}"))
+            continue
         out.append(Criterion(
             f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
             f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "

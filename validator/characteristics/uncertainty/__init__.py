@@ -51,8 +51,8 @@ def assess(ctx) -> Assessment[UncertaintyResult] | None:
     source = ("intermediate precision RSD, all components of the design " + "/".join(design) if design else
               "intermediate precision RSD, one-way ANOVA on series")
     inputs = tuple(PrecisionInput(lv.level, lv.decisive[1][0], source, lv.decisive[1][2]) for lv in prec.levels)
-    detected = ctx.result_of(detection.ENTRY)
-    reported = detected.reported if detected is not None else None
+    found = ctx.result_of(detection.ENTRY)
+    reported = found.reported if found is not None else None
     loq = None if reported is None else reported.loq
     profile = ctx.result_of(accuracy_profile.ENTRY)
     profile_sd = {} if profile is None else {lv.nominal: lv.prediction_sd_pct for lv in profile.levels
