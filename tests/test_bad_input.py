@@ -26,7 +26,7 @@ CATALOGUE = [
     ("unknown-section", CALIB + '[blank]\ndata = "b.csv"\n', None, "",
      '{dir}/study.toml, line 8, key blank: unknown section; did you mean "blanks"?'),
     ("wrong-type", "[calibration]\ndata = 5\n", None, "",
-     "{dir}/study.toml, line 7, key calibration.data: Input should be a valid string; got 5"),
+     "{dir}/study.toml, line 7, key calibration.data: must be text in quotes (\"...\"); got 5"),
     ("missing-key", '[calibration]\nmodel = "linear"\n', None, "",
      "{dir}/study.toml, key calibration.data: required key is missing"),
     ("missing-section", "", None, "",
@@ -46,7 +46,9 @@ CATALOGUE = [
      'calibration.csv, row 1: the header names column "response" twice'),
     ("non-numeric", CALIB, {"calibration.csv": "concentration,response\n1,1\n2,abc\n"}, "",
      'calibration.csv, row 3, column "response": "abc" is not a number'),
-    ("decimal-comma", CALIB, {"calibration.csv": "concentration;response\n1;2,5\n"}, 'delimiter = ";"\n',
+    # the study states decimal = "." (when it states nothing, the decimal comma is detected)
+    ("decimal-comma", CALIB, {"calibration.csv": "concentration;response\n1;2,5\n"},
+     'delimiter = ";"\ndecimal = "."\n',
      'calibration.csv, row 2, column "response": "2,5" uses a decimal comma but the study declares '
      'decimal = "."; set decimal = "," in [study]'),
     ("decimal-point", CALIB, {"calibration.csv": "concentration;response\n1;2.5\n"},

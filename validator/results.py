@@ -453,7 +453,10 @@ def build_results(result, *, generated_at: str) -> dict:
                   "concentration_unit": cfg.concentration_unit, "response_unit": cfg.response_unit,
                   "analyst": cfg.analyst, "reviewer": cfg.reviewer, "instrument": cfg.instrument,
                   "method": cfg.method, "notes": cfg.notes},
-        "inputs": [{"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size}
+        # how each data file was read (sheet, or CSV delimiter/decimal) only where it applies
+        "inputs": [{k: v for k, v in {"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size,
+                                      "sheet": f.sheet, "delimiter": f.delimiter, "decimal": f.decimal,
+                                      "dialect": f.dialect}.items() if v is not None}
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
         "analytes": [_analyte(a, loaded.previous) for a in result.analytes],

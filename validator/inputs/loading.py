@@ -31,6 +31,10 @@ class InputFile:
     resolved: str
     sha256: str
     size: int
+    sheet: str | None = None          # the sheet read, for an .xlsx workbook
+    delimiter: str | None = None      # how a CSV file was read: ",", ";" or "tab"
+    decimal: str | None = None        # "." or ","
+    dialect: str | None = None        # "stated", "detected" or "stated and detected"
 
 
 @dataclass(frozen=True)
@@ -113,24 +117,39 @@ class _Reader:
     def __init__(self, study: StudyFile):
         self.study = study
         cfg = study.config.study
-        self.decimal = cfg.decimal
+        self.decimal = cfg.decimal          # None: detected per file (each table knows its own)
         self.delimiter = cfg.delimiter
         self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
 
-    def record(self, role: str, path: str, resolved: Path, data: bytes) -> None:
-        """Enter an input file read in full into the audit trail (path as given, SHA-256, size)."""
-        self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data)))
+    def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:
+        """Enter an input file read in full into the audit trail (path as given, SHA-256, size).
 
-    def table(self, role: str, path: str, required: tuple, optional: tuple = ()):
+        With ``table``, also how it was read: the sheet of a workbook, or the
+        delimiter and decimal mark of a CSV file and whether they were stated or detected.
+        """
+        how = {}
+        if table is not None:
+            sheet = getattr(table, "sheet", None)
+            how = ({"sheet": sheet} if sheet else
+                   {"delimiter": table.delimiter, "decimal": table.decimal, "dialect": table.dialect})
+        self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data),
+                                     **how))
+
+    def table(self, role: str, source, required: tuple, optional: tuple = ()):
+        """The table of ``source`` (a [section] naming data, sheet and header_row, or a path)."""
+        path = source if isinstance(source, str) else source.data
         resolved = self.study.resolve(path)
         data = read_bytes(resolved, path, self.max_bytes)
-        self.record(role, path, resolved, data)
-        return read_table(data, path, delimiter=self.delimiter, required=required, optional=optional)
+        table = read_table(data, path, delimiter=self.delimiter, decimal=self.decimal, required=required,
+                           optional=optional, sheet=getattr(source, "sheet", None),
+                           header_row=getattr(source, "header_row", None))
+        self.record(role, path, resolved, data, table)
+        return table
 
 
-def _numbers(table, column: str, decimal: str) -> np.ndarray:
+def _numbers(table, column: str, decimal: str | None = None) -> np.ndarray:
     """A numeric column, refused when a value's magnitude is beyond what the statistics can square."""
     values = np.array(table.numbers(column, decimal))
     i = first_out_of_range(values)
@@ -160,10 +179,10 @@ def _check_weighting(weighting: str, table, idx, x, y):
 
 def _calibration(reader: _Reader):
     cfg = reader.study.config
-    table = reader.table("calibration", cfg.calibration.data, ("concentration", "response"),
+    table = reader.table("calibration", cfg.calibration, ("concentration", "response"),
                          ("analyte", "series"))
-    x = _numbers(table, "concentration", reader.decimal)
-    y = _numbers(table, "response", reader.decimal)
+    x = _numbers(table, "concentration")
+    y = _numbers(table, "response")
     for i, xi in enumerate(x):
         if xi < 0:
             raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
@@ -221,9 +240,9 @@ def _samples(reader: _Reader, analytes: dict):
     cfg = reader.study.config
     if cfg.samples is None:
         return {}
-    table = reader.table("samples", cfg.samples.data, ("sample", "response"), ("analyte",))
+    table = reader.table("samples", cfg.samples, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
-    responses = _numbers(table, "response", reader.decimal).tolist()
+    responses = _numbers(table, "response").tolist()
     seen = {}
     for sid, row in zip(ids, table.rows):
         key = " ".join(sid.split()).casefold()
@@ -260,7 +279,7 @@ def _per_analyte(reader, analytes, section: str, required: tuple, optional: tupl
     cfg = getattr(reader.study.config, section)
     if cfg is None:
         return {}
-    table = reader.table(section, cfg.data, required, optional)
+    table = reader.table(section, cfg, required, optional)
     columns = prepare(table)
     return {name: make(columns, idx, name)
             for name, idx in _analyte_rows(table, analytes, what).items() if idx}
@@ -278,16 +297,16 @@ def _declared_levels_exist(reader, section: str, key: str, declared, present) ->
 
 def _blanks(reader, analytes):
     return _per_analyte(reader, analytes, "blanks", ("response",), ("analyte",), "blank",
-                        lambda table: _numbers(table, "response", reader.decimal),
+                        lambda table: _numbers(table, "response"),
                         lambda y, idx, name: y[idx])
 
 
 def _recovery(reader, analytes):
     def prepare(table):
-        added = _numbers(table, "added", reader.decimal)
+        added = _numbers(table, "added")
         _positive(table, "added", added)
-        found = _numbers(table, "found", reader.decimal)
-        native = _numbers(table, "native", reader.decimal) if table.has("native") else np.zeros_like(added)
+        found = _numbers(table, "found")
+        native = _numbers(table, "native") if table.has("native") else np.zeros_like(added)
         series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
         _declared_levels_exist(reader, "recovery", "added", [lv.added for lv in reader.study.config.recovery.levels],
                                added)
@@ -303,16 +322,16 @@ def _recovery(reader, analytes):
 
 def _precision(reader, analytes):
     def prepare(table):
-        level = _numbers(table, "level", reader.decimal)
+        level = _numbers(table, "level")
         series = table.texts("series")
-        _numbers(table, "found", reader.decimal)          # every cell checked before centring
+        _numbers(table, "found")          # every cell checked before centring
         _declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
                                level)
         return table, level, series
 
     def make(columns, idx, name):
         table, level, series = columns
-        offset, centred = exact_centre([table.columns["found"][i] for i in idx], reader.decimal)
+        offset, centred = exact_centre([table.columns["found"][i] for i in idx], table.decimal)
         return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
 
     return _per_analyte(reader, analytes, "precision", ("level", "series", "found"), ("analyte",),
@@ -330,14 +349,14 @@ def _reference_material(reader, analytes):
     if name not in analytes:
         raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
                          key="reference_material.analyte", value=name)
-    table = reader.table("reference_material", cfg.data, ("found",), ())
-    return {name: _numbers(table, "found", reader.decimal)}
+    table = reader.table("reference_material", cfg, ("found",), ())
+    return {name: _numbers(table, "found")}
 
 
 def _comparison(reader, analytes):
     def prepare(table):
-        return (table, table.texts("sample", MAX_NAME_LENGTH), _numbers(table, "reference", reader.decimal),
-                _numbers(table, "test", reader.decimal))
+        return (table, table.texts("sample", MAX_NAME_LENGTH), _numbers(table, "reference"),
+                _numbers(table, "test"))
 
     def make(columns, idx, name):
         table, ids, ref, test = columns

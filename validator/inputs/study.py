@@ -28,6 +28,8 @@ import sys
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
+import types
+import typing
 from typing import Annotated, Any, Literal, Optional
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
@@ -81,9 +83,60 @@ def _probability(default: float):
     return Field(default, ge=MIN_PROBABILITY, lt=0.5)
 
 
+def _choices(annotation) -> tuple | None:
+    """The allowed strings of a ``Literal[...]`` (also inside Optional/Annotated), else None."""
+    origin = typing.get_origin(annotation)
+    if origin is Literal:
+        values = typing.get_args(annotation)
+        return values if all(isinstance(v, str) for v in values) else None
+    if origin is Annotated:
+        return _choices(typing.get_args(annotation)[0])
+    if origin in (typing.Union, types.UnionType):
+        for arg in typing.get_args(annotation):
+            found = _choices(arg)
+            if found is not None:
+                return found
+    return None
+
+
 class _Section(BaseModel):
+    """The base of every study-file table: unknown keys refused, numbers finite, values frozen.
+
+    Enumerated values (``model = "Linear"``) are matched without regard to
+    upper/lower case and surrounding spaces, as column headers are: the value
+    is replaced by the allowed spelling before validation, so results and the
+    audit trail show one spelling.
+    """
+
     # allow_inf_nan=False: inf, -inf and nan (and 1e999, which TOML reads as inf) are refused
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _enumerations_ignore_case(cls, data):
+        if not isinstance(data, dict):
+            return data
+        out = None
+        for name, field in cls.model_fields.items():
+            value = data.get(name)
+            if not isinstance(value, str):
+                continue
+            choices = _choices(field.annotation)
+            if choices is None or value in choices:
+                continue
+            same = [c for c in choices if c.casefold() == value.strip().casefold()]
+            if len(same) == 1:
+                out = dict(data) if out is None else out
+                out[name] = same[0]
+        return data if out is None else out
+
+
+class DataSource(_Section):
+    """A table that names one data file: CSV text or one sheet of an .xlsx workbook."""
+
+    data: DataPath
+    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
+    header_row: Optional[int] = Field(None, ge=1, le=1_000_000)
 
 
 class StudySection(_Section):
@@ -97,8 +150,9 @@ class StudySection(_Section):
     instrument: Text = _text("instrument")
     method: Text = _text("method")
     notes: Text = _text("notes")
-    decimal: Literal[".", ","] = "."
-    delimiter: Literal[",", ";", "tab"] = ","
+    # None: told from each CSV file (validator.inputs.dialect); the value used is in results.json inputs
+    decimal: Optional[Literal[".", ","]] = None
+    delimiter: Optional[Literal[",", ";", "tab"]] = None
     max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up
 
     @model_validator(mode="after")
@@ -108,8 +162,7 @@ class StudySection(_Section):
         return self
 
 
-class CalibrationSection(_Section):
-    data: DataPath
+class CalibrationSection(DataSource):
     model: Literal["linear", "quadratic", "auto"] = "linear"
     weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
     through_origin: bool = False
@@ -121,8 +174,8 @@ class CalibrationSection(_Section):
         return self
 
 
-class SamplesSection(_Section):
-    data: DataPath
+class SamplesSection(DataSource):
+    """[samples]: the unknown samples' responses."""
 
 
 class CriteriaSection(_Section):
@@ -133,8 +186,8 @@ class CriteriaSection(_Section):
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
 
 
-class BlanksSection(_Section):
-    data: DataPath
+class BlanksSection(DataSource):
+    """[blanks]: blank responses."""
 
 
 class DetectionSection(_Section):
@@ -173,8 +226,7 @@ class RecoveryLevelLimit(_Section):
         return self
 
 
-class RecoverySection(_Section):
-    data: DataPath
+class RecoverySection(DataSource):
     range_pct: list[RecoveryPct] = [90.0, 110.0]
     levels: list[RecoveryLevelLimit] = []
 
@@ -196,8 +248,7 @@ class PrecisionLevelLimit(_Section):
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
 
 
-class PrecisionSection(_Section):
-    data: DataPath
+class PrecisionSection(DataSource):
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     levels: list[PrecisionLevelLimit] = []
@@ -210,8 +261,7 @@ class PrecisionSection(_Section):
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
 
 
-class ReferenceMaterialSection(_Section):
-    data: DataPath
+class ReferenceMaterialSection(DataSource):
     certified_value: float = Field(gt=0)
     standard_uncertainty: float = Field(ge=0)
     analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
@@ -227,8 +277,7 @@ class RevalidationSection(_Section):
     analytes: dict[str, str] = Field(default_factory=dict)
 
 
-class ComparisonSection(_Section):
-    data: DataPath
+class ComparisonSection(DataSource):
     error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
     slope_limits: Optional[list[float]] = None
     intercept_limits: Optional[list[float]] = None
@@ -357,6 +406,65 @@ def _got(value) -> str:
 
 _BOUNDS = ("greater_than", "greater_than_equal", "less_than", "less_than_equal")
 
+# the validation library's error kinds, said in the study file's own terms
+_PLAIN = {
+    "float_type": "must be a number (without quotes)",
+    "float_parsing": "must be a number (without quotes)",
+    "int_type": "must be a whole number (without quotes)",
+    "int_parsing": "must be a whole number (without quotes)",
+    "int_from_float": "must be a whole number (without quotes)",
+    "bool_type": "must be true or false (without quotes)",
+    "bool_parsing": "must be true or false (without quotes)",
+    "string_type": 'must be text in quotes ("...")',
+    "dict_type": "must be a table ([name] or { key = value, ... })",
+    "model_type": "must be a table ([name] or { key = value, ... })",
+    "model_attributes_type": "must be a table ([name] or { key = value, ... })",
+    "list_type": "must be a list in square brackets",
+    "finite_number": "must be a finite number",
+    "too_short": "has too few items",
+    "too_long": "has too many items",
+    "string_too_short": "must not be empty",
+    "string_too_long": "is too long",
+    "string_pattern_mismatch": "must not be blank",
+}
+
+
+def _example(loc: tuple) -> str | None:
+    """An example of the right form for the list-valued key at ``loc`` (its default, else a generic one)."""
+    model = _model_at(loc)
+    field = None if model is None else model.model_fields.get(loc[-1])
+    if field is None:
+        return None
+    default = field.default if isinstance(field.default, list) and field.default else None
+    if default is not None and all(isinstance(v, (int, float)) for v in default):
+        return f"{loc[-1]} = [{', '.join(f'{v:g}' for v in default)}]"
+    if typing.get_origin(field.annotation) in (typing.Union, types.UnionType) or "limits" in loc[-1] \
+            or "range" in loc[-1]:
+        return f"{loc[-1]} = [low, high], for example {loc[-1]} = [0.95, 1.05]"
+    item = next(iter(typing.get_args(field.annotation)), None)
+    if isinstance(item, type) and issubclass(item, BaseModel):
+        keys = ", ".join(f"{n} = ..." for n, f in item.model_fields.items() if f.is_required())
+        return f"{loc[-1]} = [{{ {keys} }}, ...]"
+    return f"{loc[-1]} = [...]"
+
+
+def _plain(kind: str, loc: tuple, ctx: dict) -> str:
+    """The message for a value of the wrong kind, with an example where one helps."""
+    if kind == "literal_error":
+        allowed = ctx.get("expected", "")
+        return f"must be one of {allowed} (upper or lower case)"
+    message = _PLAIN[kind]
+    if kind in ("string_too_long", "string_too_short") and "max_length" in ctx and kind == "string_too_long":
+        message = f"is too long (at most {ctx['max_length']} characters)"
+    if kind in ("too_short", "too_long") and ("min_length" in ctx or "max_length" in ctx):
+        message = f"{message} (got {ctx.get('actual_length', '?')})"
+    if kind in ("list_type", "too_short", "too_long") and loc and not loc[-1].isdigit():
+        example = _example(loc)
+        if example:
+            message += f", for example {example}" if not example.startswith(loc[-1] + " = [low") \
+                else f": {example}"
+    return message
+
 
 def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
     errors = exc.errors(include_url=False)
@@ -378,9 +486,11 @@ def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
         what = "section" if len(loc) == 1 else "key"
         return StudyError(f"required {what} is missing", file=shown, key=dotted)
     message = err["msg"].removeprefix("Value error, ")
-    if kind == "value_error" or not loc or kind.startswith("model"):
+    if kind == "value_error" or not loc or (kind.startswith("model") and kind not in _PLAIN):
         return StudyError(message, file=shown, line=line, key=dotted or None)
     valid = _valid_range(loc) if kind in _BOUNDS or kind == "finite_number" else None
+    if kind in _PLAIN or kind == "literal_error":
+        message = _plain(kind, loc, err.get("ctx") or {})
     if kind == "float_type" and isinstance(value, int) and not isinstance(value, bool):
         message = "is too large for a number (the largest magnitude is about 1.8e308)"
     elif valid and kind == "finite_number":
