@@ -148,8 +148,9 @@ CRITERIA_AND_DESIGN = {
 NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
               "decimal", "delimiter", "max_data_file_mb"),      # free text and how the files are read
-    "calibration": ("data",), "samples": ("data",), "blanks": ("data",), "recovery": ("data",),
-    "precision": ("data",), "reference_material": ("data",), "comparison": ("data",),
+    # where a data file is and how it is read (inputs.study.DataSource)
+    **{section: ("data", "sheet", "header_row") for section in
+       ("calibration", "samples", "blanks", "recovery", "precision", "reference_material", "comparison")},
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
 }
