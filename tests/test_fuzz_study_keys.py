@@ -70,6 +70,8 @@ def _numeric_keys() -> list:
 
     out = []
     for section, field in StudyConfig.model_fields.items():
+        if typing.get_origin(field.annotation) is list:     # [[exclusions]]: arrays of tables, not in BASE
+            continue
         model = next(a for a in (typing.get_args(field.annotation) or (field.annotation,))
                      if isinstance(a, type) and issubclass(a, BaseModel))
         for key, sub in model.model_fields.items():

@@ -153,6 +153,7 @@ NOT_CRITERIA = {
        ("calibration", "samples", "blanks", "recovery", "precision", "reference_material", "comparison")},
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
+    "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
 }
 
 

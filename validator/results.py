@@ -459,6 +459,10 @@ def build_results(result, *, generated_at: str) -> dict:
                                       "dialect": f.dialect}.items() if v is not None}
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
+        # data rows left out by [[exclusions]]: kept here with their reason, never dropped silently
+        "exclusions": [{"file": e.file, "sheet": e.sheet, "row": e.row, "role": e.role, "reason": e.reason,
+                        "who": e.who, "cells": [{"column": c, "value": v} for c, v in e.cells]}
+                       for e in loaded.excluded],
         "analytes": [_analyte(a, loaded.previous) for a in result.analytes],
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,

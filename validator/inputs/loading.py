@@ -15,6 +15,7 @@ from typing import Any
 
 import numpy as np
 
+from .exclusions import Excluded, Exclusions
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
 from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, first_out_of_range
@@ -97,6 +98,7 @@ class LoadedStudy:
     inputs: tuple[InputFile, ...]            # the study file first
     analytes: tuple[AnalyteData, ...]        # in order of first appearance
     previous: PreviousRun | None = None
+    excluded: tuple[Excluded, ...] = ()      # data rows left out by [[exclusions]], with their reasons
 
     @property
     def config(self):
@@ -122,6 +124,7 @@ class _Reader:
         self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
+        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
 
     def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:
         """Enter an input file read in full into the audit trail (path as given, SHA-256, size).
@@ -146,7 +149,7 @@ class _Reader:
                            optional=optional, sheet=getattr(source, "sheet", None),
                            header_row=getattr(source, "header_row", None))
         self.record(role, path, resolved, data, table)
-        return table
+        return self.exclusions.apply(role, path, resolved, table)
 
 
 def _numbers(table, column: str, decimal: str | None = None) -> np.ndarray:
@@ -388,8 +391,10 @@ def load_study(path: str | Path) -> LoadedStudy:
     crm = _reference_material(reader, calibration)
     comparison = _comparison(reader, calibration)
     previous, run = read_previous(reader, calibration)
+    excluded = reader.exclusions.check()
     analytes = tuple(AnalyteData(name, calibration[name], samples.get(name, ()), blanks.get(name),
                                  recovery.get(name), precision.get(name), crm.get(name),
                                  comparison.get(name), previous.get(name))
                      for name in calibration)
-    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)
+    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
+                       excluded=excluded)

@@ -290,6 +290,16 @@ class ComparisonSection(DataSource):
         return self
 
 
+class ExclusionEntry(_Section):
+    """One ``[[exclusions]]`` table: a data row left out of the statistics, with its reason."""
+
+    file: DataPath
+    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
+    row: int = Field(ge=2, le=10_000_000)        # a data row: the header is row 1 at the earliest
+    reason: Text = Field(min_length=1, max_length=TEXT_LIMITS["notes"], pattern=r"\S")
+    who: Text = _text("analyst")
+
+
 class StudyConfig(_Section):
     """The whole study file as validated data (no data files read yet)."""
 
@@ -306,6 +316,7 @@ class StudyConfig(_Section):
     comparison: Optional[ComparisonSection] = None
     design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
     protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
+    exclusions: list[ExclusionEntry] = []           # data rows left out, each with its reason
 
 
 @dataclass(frozen=True)
