@@ -151,6 +151,7 @@ NOT_CRITERIA = {
     # where a data file is and how it is read (inputs.study.DataSource)
     **{section: ("data", "sheet", "header_row") for section in
        ("calibration", "samples", "blanks", "recovery", "precision", "reference_material", "comparison")},
+    "samples": ("data", "sheet", "header_row", "expected", "expected_readings"),   # plus the ids to check
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
     "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design

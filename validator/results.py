@@ -463,6 +463,9 @@ def build_results(result, *, generated_at: str) -> dict:
         "exclusions": [{"file": e.file, "sheet": e.sheet, "row": e.row, "role": e.role, "reason": e.reason,
                         "who": e.who, "cells": [{"column": c, "value": v} for c, v in e.cells]}
                        for e in loaded.excluded],
+        # sample ids one character apart with one reading each: a flagged warning, never silence
+        "sample_id_warnings": [{"analyte": w.analyte, "file": w.file, "ids": list(w.ids), "rows": list(w.rows),
+                                "text": w.text} for w in loaded.near_duplicate_ids],
         "analytes": [_analyte(a, loaded.previous) for a in result.analytes],
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,

@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 
 from .exclusions import Excluded, Exclusions
+from .sample_ids import NearDuplicateIds, check_expected, near_duplicates
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
 from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, first_out_of_range
@@ -99,6 +100,7 @@ class LoadedStudy:
     analytes: tuple[AnalyteData, ...]        # in order of first appearance
     previous: PreviousRun | None = None
     excluded: tuple[Excluded, ...] = ()      # data rows left out by [[exclusions]], with their reasons
+    near_duplicate_ids: tuple[NearDuplicateIds, ...] = ()   # sample ids one edit apart (no expected list)
 
     @property
     def config(self):
@@ -125,6 +127,7 @@ class _Reader:
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
         self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
+        self.near_duplicate_ids: list = []
 
     def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:
         """Enter an input file read in full into the audit trail (path as given, SHA-256, size).
@@ -256,6 +259,14 @@ def _samples(reader: _Reader, analytes: dict):
         seen.setdefault(key, (sid, row))
     out = {}
     for name, idx in _analyte_rows(table, analytes, "reading").items():
+        own_ids, own_rows = [ids[i] for i in idx], [table.rows[i] for i in idx]
+        if cfg.samples.expected:
+            check_expected(analyte=name, ids=own_ids, rows=own_rows, file=table.path,
+                           expected=tuple(cfg.samples.expected), expected_readings=cfg.samples.expected_readings,
+                           study=reader.study.shown)
+        else:
+            reader.near_duplicate_ids.extend(near_duplicates(analyte=name, ids=own_ids, rows=own_rows,
+                                                             file=table.path))
         groups = {}
         for i in idx:
             groups.setdefault(ids[i], ([], []))
@@ -397,4 +408,4 @@ def load_study(path: str | Path) -> LoadedStudy:
                                  comparison.get(name), previous.get(name))
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
-                       excluded=excluded)
+                       excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids))

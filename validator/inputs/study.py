@@ -174,8 +174,25 @@ class CalibrationSection(DataSource):
         return self
 
 
+SampleId = Annotated[str, Field(min_length=1, max_length=100, pattern=r"\S"), AfterValidator(_no_control)]
+
+
 class SamplesSection(DataSource):
-    """[samples]: the unknown samples' responses."""
+    """[samples]: the unknown samples' responses, and optionally the ids expected in them."""
+
+    expected: list[SampleId] = []
+    expected_readings: Optional[int] = Field(None, ge=1, le=1000)
+
+    @model_validator(mode="after")
+    def _expected(self):
+        seen = set()
+        for sid in self.expected:
+            if sid in seen:
+                raise ValueError(f'expected lists sample "{show(sid)}" twice')
+            seen.add(sid)
+        if self.expected_readings is not None and not self.expected:
+            raise ValueError("expected_readings needs the list of expected sample ids (expected = [...])")
+        return self
 
 
 class CriteriaSection(_Section):
