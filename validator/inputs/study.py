@@ -307,6 +307,82 @@ class ComparisonSection(DataSource):
         return self
 
 
+# --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
+
+INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample")
+# a run or day label, or a header name of an export
+Label = Annotated[str, Field(min_length=1, max_length=200, pattern=r"\S"), AfterValidator(_no_control)]
+
+
+class RunSource(DataSource):
+    """One ``[[runs]]`` table: an analytical run's export (CSV or one .xlsx sheet).
+
+    ``run`` and ``day`` label the run when the export has no run or day column
+    (default: "run N", N its position in [[runs]]; the day defaults to the run).
+    """
+
+    run: Optional[Label] = None
+    day: Optional[Label] = None
+
+
+class ColumnsSection(_Section):
+    """``[columns]``: the export's header for each field the tool reads (matched ignoring case)."""
+
+    sample: Label = "sample"
+    type: Label = "type"
+    level: Label = "level"
+    response: Label = "response"
+    internal_standard: Optional[Label] = None
+    analyte: Optional[Label] = None
+    run: Optional[Label] = None
+    day: Optional[Label] = None
+
+    @model_validator(mode="after")
+    def _distinct(self):
+        seen = {}
+        for name in type(self).model_fields:
+            header = getattr(self, name)
+            if header is None:
+                continue
+            key = header.strip().casefold()
+            if key in seen:
+                raise ValueError(f'{seen[key]} and {name} both read the column "{show(header)}"')
+            seen[key] = name
+        return self
+
+
+Words = list[Label]
+
+
+class TypesSection(_Section):
+    """``[types]``: the export's words for each injection type (matched ignoring case)."""
+
+    calibrator: Words = ["calibrator"]
+    blank: Words = ["blank"]
+    qc: Words = ["qc"]
+    spiked: Words = ["spiked"]
+    unspiked: Words = ["unspiked"]
+    reference: Words = ["reference"]
+    sample: Words = ["sample"]
+
+    @model_validator(mode="after")
+    def _distinct(self):
+        seen = {}
+        for name in INJECTION_TYPES:
+            for word in getattr(self, name):
+                key = word.strip().casefold()
+                if key in seen and seen[key] != name:
+                    raise ValueError(f'"{show(word)}" is listed for both {seen[key]} and {name}')
+                seen[key] = name
+        return self
+
+    def type_of(self, word: str) -> str | None:
+        """The injection type an export's word stands for (None: not listed)."""
+        key = word.strip().casefold()
+        return next((name for name in INJECTION_TYPES
+                     if any(w.strip().casefold() == key for w in getattr(self, name))), None)
+
+
 class ExclusionEntry(_Section):
     """One ``[[exclusions]]`` table: a data row left out of the statistics, with its reason."""
 

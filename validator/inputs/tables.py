@@ -218,7 +218,8 @@ def decode_text(data: bytes, shown: str) -> str:
 
 def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal: str | None = None,
                required: tuple, optional: tuple = (), sheet: str | None = None,
-               header_row: int | None = None, max_rows: int = DEFAULT_MAX_ROWS) -> Table:
+               header_row: int | None = None, max_rows: int = DEFAULT_MAX_ROWS,
+               other_columns: str = "refuse") -> Table:
     """Parse a data file's bytes (CSV text or an .xlsx workbook) into a :class:`Table`.
 
     Header names are matched case-insensitively with surrounding spaces
@@ -231,14 +232,18 @@ def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal
     For CSV text, ``header_row`` is the file row of the header (rows above it
     are ignored), ``sheet`` is refused, and ``delimiter`` and ``decimal`` are
     the study's declarations (None: detect it from the file, see
-    :func:`validator.inputs.dialect.detect_dialect`).
+    :func:`validator.inputs.dialect.detect_dialect`). ``other_columns="ignore"``
+    leaves columns that are neither required nor optional unread (an instrument
+    export used as it is); by default they are refused (a misspelt header).
     """
+    if other_columns not in ("refuse", "ignore"):
+        raise ValueError(f"other_columns must be 'refuse' or 'ignore'; got {other_columns!r}")
     from .dialect import DialectError, detect_dialect
     from .workbook import read_workbook, sniff_workbook
 
     if sniff_workbook(data) == "xlsx":
         return read_workbook(data, shown, required=required, optional=optional, sheet=sheet,
-                             header_row=header_row, max_rows=max_rows)
+                             header_row=header_row, max_rows=max_rows, other_columns=other_columns)
     text = decode_text(data, shown)     # other workbook kinds are refused here, with what to do
     if sheet is not None:
         raise DataError(f'is CSV text, not an .xlsx workbook, so sheet = "{show(sheet)}" cannot apply; '
@@ -254,7 +259,7 @@ def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal
         # so that one message names every key to change
         try:
             return _read_csv(text, shown, delimiter=delimiter, decimal=decimal, required=required,
-                             optional=optional, max_rows=max_rows)
+                             optional=optional, max_rows=max_rows, other_columns=other_columns)
         except DataError as failure:
             try:
                 found = detect_dialect(text, shown)
@@ -275,15 +280,15 @@ def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal
         # no reading is consistent: the message from reading it as stated (or with the usual
         # "," and ".") names the row that breaks it
         _read_csv(text, shown, delimiter=delimiter or ",", decimal=decimal or ".", required=required,
-                  optional=optional, max_rows=max_rows)
+                  optional=optional, max_rows=max_rows, other_columns=other_columns)
         raise
     how = "detected" if delimiter is None and decimal is None else "stated and detected"
     return _read_csv(text, shown, delimiter=dialect.delimiter, decimal=dialect.decimal, required=required,
-                     optional=optional, max_rows=max_rows, dialect=how, evidence=dialect.evidence)
+                     optional=optional, max_rows=max_rows, other_columns=other_columns, dialect=how, evidence=dialect.evidence)
 
 
 def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: tuple, optional: tuple,
-              max_rows: int, dialect: str = "stated", evidence: tuple = ()) -> Table:
+              max_rows: int, other_columns: str = "refuse", dialect: str = "stated", evidence: tuple = ()) -> Table:
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=_DELIMITERS[delimiter], strict=True)
     header = None
     header_row = 0
@@ -306,15 +311,18 @@ def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: 
     if header is None:
         raise DataError("is empty (no header row)", file=shown)
     seen = set()
+    allowed = set(required) | set(optional)
+    ignored = other_columns == "ignore"
     for name in header:
-        if name == "":
+        if name == "" and not ignored:
             raise DataError("the header has an empty column name", file=shown, row=header_row)
+        if ignored and name not in allowed:
+            continue            # an export's other columns: unread, whatever their names
         if name in seen:
             raise DataError(f'the header names column "{show(name)}" twice', file=shown, row=header_row)
         seen.add(name)
-    allowed = set(required) | set(optional)
     for name in header:
-        if name not in allowed:
+        if name not in allowed and other_columns == "refuse":
             expected = ", ".join(f'"{c}"' for c in (*required, *optional))
             hint = ""
             if delimiter != "," and "," in name or delimiter == "," and ";" in name:
@@ -327,7 +335,7 @@ def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: 
             raise DataError(f'the header has no column "{name}" (found: {found})', file=shown, row=header_row)
     if not records:
         raise DataError("has a header but no data rows", file=shown)
-    columns = {name: [] for name in header}
+    columns = {name: [] for name in header if name in allowed or not ignored}
     for record, line in zip(records, rows):
         if len(record) != len(header):
             hint = ""
@@ -337,6 +345,7 @@ def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: 
             raise DataError(f"has {len(record)} cells but the header has {len(header)}{hint}",
                             file=shown, row=line)
         for name, cell in zip(header, record):
-            columns[name].append(cell)
+            if name in columns:
+                columns[name].append(cell)
     return Table(path=shown, columns=columns, rows=tuple(rows), decimal=decimal, delimiter=delimiter,
                  dialect=dialect, dialect_evidence=tuple(evidence))
