@@ -143,14 +143,18 @@ class _Reader:
         self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data),
                                      **how))
 
-    def table(self, role: str, source, required: tuple, optional: tuple = ()):
-        """The table of ``source`` (a [section] naming data, sheet and header_row, or a path)."""
+    def table(self, role: str, source, required: tuple, optional: tuple = (), *, other_columns: str = "refuse"):
+        """The table of ``source`` (a [section] naming data, sheet and header_row, or a path).
+
+        Rows the study excludes ([[exclusions]]) are left out; ``other_columns="ignore"``
+        leaves the columns outside ``required`` and ``optional`` unread (an instrument export).
+        """
         path = source if isinstance(source, str) else source.data
         resolved = self.study.resolve(path)
         data = read_bytes(resolved, path, self.max_bytes)
         table = read_table(data, path, delimiter=self.delimiter, decimal=self.decimal, required=required,
                            optional=optional, sheet=getattr(source, "sheet", None),
-                           header_row=getattr(source, "header_row", None))
+                           header_row=getattr(source, "header_row", None), other_columns=other_columns)
         self.record(role, path, resolved, data, table)
         return self.exclusions.apply(role, path, resolved, table)
 
