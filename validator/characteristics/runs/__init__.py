@@ -1,0 +1,1 @@
+"""Analytical runs: each run's calibration, and every other injection quantified through it."""
