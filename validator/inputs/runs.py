@@ -26,7 +26,7 @@ from ..errors import DataError, StudyError, show
 from .study import INJECTION_TYPES
 from .tables import MAX_NAME_LENGTH
 
-__all__ = ["Injection", "read_runs", "NEEDS_LEVEL"]
+__all__ = ["Injection", "read_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
 
 # the types whose level (nominal concentration, or added amount) must be given
 NEEDS_LEVEL = ("calibrator", "qc", "spiked")
@@ -203,3 +203,38 @@ def _check_labels(injections, study: str) -> None:
         if d[0] != inj.day:
             raise DataError(f'run "{show(inj.run)}" has day "{show(inj.day)}" here but "{show(d[0])}" at row {d[1]}; '
                             "a run is measured on one day", file=inj.file, row=inj.row, value=inj.day)
+
+
+def by_analyte(injections) -> dict:
+    """``{analyte: tuple of its injections}``, analytes in order of first appearance."""
+    out: dict = {}
+    for inj in injections:
+        out.setdefault(inj.analyte, []).append(inj)
+    return {name: tuple(v) for name, v in out.items()}
+
+
+def check_run_calibrations(injections, *, needed: int, pooled: bool) -> None:
+    """Every run whose injections are quantified has a calibration of ``needed`` levels or more.
+
+    With ``pooled``, the calibrators of all runs together must have them.
+    """
+    levels: dict = {}
+    first: dict = {}
+    for inj in injections:
+        first.setdefault(inj.run, inj)
+        if inj.type == "calibrator":
+            levels.setdefault("" if pooled else inj.run, set()).add(inj.level)
+    if pooled:
+        have = len(levels.get("", ()))
+        if have < needed:
+            inj = injections[0]
+            raise DataError(f'analyte "{show(inj.analyte)}" has {have} calibrator level(s) over all runs; at least '
+                            f"{needed} are needed for this model", file=inj.file)
+        return
+    for run, inj in first.items():
+        have = len(levels.get(run, ()))
+        if have < needed:
+            raise DataError(f'run "{show(run)}" has {have} calibrator level(s) for analyte "{show(inj.analyte)}"; '
+                            f"at least {needed} are needed for this model to quantify the run's injections "
+                            '(or quantify with a pooled calibration: [calibration] quantify_with = "pooled")',
+                            file=inj.file, row=inj.row)
