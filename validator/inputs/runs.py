@@ -66,6 +66,7 @@ class Injection:
     file: str
     sheet: str | None
     row: int
+    matrix: str = ""             # spiked: the unspiked injections' sample id giving the native level ("": none)
 
 
 def _subset(table, idx: list):
@@ -114,6 +115,38 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
         table = reader.table("runs", source, required, optional, other_columns="ignore")
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
+    return _match_matrices(out)
+
+
+def _match_matrices(injections) -> tuple:
+    """Each spiked injection with the unspiked matrix of its run whose found level is its native level.
+
+    The unspiked injections of the same run with the same sample id; else, when the run has
+    unspiked injections of one sample id only, those; else, when it has none, no native level
+    (0). Unspiked injections of several ids and none with the spiked one's id are ambiguous.
+    """
+    unspiked: dict = {}
+    for inj in injections:
+        if inj.type == "unspiked":
+            unspiked.setdefault((inj.analyte, inj.run), set()).add(inj.sample)
+    out = []
+    for inj in injections:
+        if inj.type == "spiked":
+            ids = unspiked.get((inj.analyte, inj.run), set())
+            if inj.sample in ids:
+                matrix = inj.sample
+            elif len(ids) == 1:
+                matrix = next(iter(ids))
+            elif not ids:
+                matrix = ""
+            else:
+                raise DataError(f'spiked injection "{show(inj.sample)}" has no unspiked injection of the same '
+                                f'sample id in run "{show(inj.run)}", which has unspiked injections of '
+                                + ", ".join(f'"{show(i)}"' for i in sorted(ids))
+                                + "; give the spiked and the unspiked injection of one matrix the same sample id",
+                                file=inj.file, row=inj.row, value=inj.sample)
+            inj = dataclasses.replace(inj, matrix=matrix)
+        out.append(inj)
     return tuple(out)
 
 

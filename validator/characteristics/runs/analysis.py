@@ -18,6 +18,7 @@ import numpy as np
 
 from ..._common import quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
+from ..calibration import SampleResult, quantify
 
 __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs"]
 
@@ -68,6 +69,7 @@ class QuantifiedInjection:
     found: float | None
     within_range: bool
     reason: str = ""
+    matrix: str = field(default="", metadata={"json": None})   # spiked: its unspiked matrix's sample id
 
 
 @dataclass(frozen=True)
@@ -162,6 +164,88 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
                                        response=inj.response, analyte_response=inj.analyte_response,
                                        internal_standard_response=inj.internal_standard_response, file=inj.file,
                                        sheet=inj.sheet, row=inj.row, calibration=c.run, found=found,
-                                       within_range=within, reason=reason))
+                                       within_range=within, reason=reason, matrix=getattr(inj, "matrix", "")))
     return RunsResult(quantified_with=POOLED if pooled else "run", model=model, weighting=weighting,
                       calibrations=calibrations, injections=tuple(out))
+
+
+# --- what the runs give the characteristics downstream ------------------------------------------
+
+@dataclass(frozen=True)
+class SpikedFound:
+    """Spiked injections as recovery reads them (one entry per spiked injection, run order)."""
+
+    added: np.ndarray = field(repr=False)
+    found: np.ndarray = field(repr=False)
+    native: np.ndarray = field(repr=False)
+    series: tuple[str, ...] = field(repr=False)
+
+
+@dataclass(frozen=True)
+class QcFound:
+    """QC injections as precision reads them: nominal level, run as series, found."""
+
+    level: np.ndarray = field(repr=False)
+    series: tuple[str, ...] = field(repr=False)
+    found: np.ndarray = field(repr=False)
+
+
+def _usable(result: RunsResult, kind: str) -> tuple[QuantifiedInjection, ...]:
+    """Injections of ``kind`` with a found value (one without is listed with its reason in the result)."""
+    return tuple(i for i in result.of_type(kind) if i.found is not None)
+
+
+def spiked_found(result: RunsResult) -> SpikedFound | None:
+    """Recovery's data: added = the spiked injection's level, found, native = the mean found of its
+    run's unspiked injections of the same matrix (0 without one), series = the run.
+
+    ``injections`` must carry ``matrix`` (see :func:`validator.inputs.runs.read_runs`).
+    """
+    spiked = _usable(result, "spiked")
+    if not spiked:
+        return None
+    unspiked = _usable(result, "unspiked")
+    native = []
+    for inj in spiked:
+        matrix = getattr(inj, "matrix", "")
+        values = [u.found for u in unspiked if u.run == inj.run and u.sample == matrix]
+        native.append(float(np.mean(values)) if values else 0.0)
+    return SpikedFound(added=np.array([i.level for i in spiked], float), found=np.array([i.found for i in spiked]),
+                       native=np.array(native), series=tuple(i.run for i in spiked))
+
+
+def qc_found(result: RunsResult) -> QcFound | None:
+    """Precision's data: one result per QC injection, the run as its series."""
+    qc = _usable(result, "qc")
+    if not qc:
+        return None
+    return QcFound(level=np.array([i.level for i in qc], float), series=tuple(i.run for i in qc),
+                   found=np.array([i.found for i in qc]))
+
+
+def reference_found(result: RunsResult) -> np.ndarray | None:
+    """Reference material's data: the found value of each reference-material injection."""
+    ref = _usable(result, "reference")
+    return np.array([i.found for i in ref]) if ref else None
+
+
+def sample_results(result: RunsResult) -> tuple[SampleResult, ...]:
+    """Each sample's readings quantified through its run's calibration, with s(x0) and its interval.
+
+    A sample's readings in one run are one result (the mean response read back, as for the
+    samples file); a sample measured in several runs gives one result per run, labelled
+    "id (run)".
+    """
+    used = {c.run: c for c in result.calibrations}
+    groups: dict = {}
+    for inj in result.of_type("sample"):
+        groups.setdefault((inj.sample, inj.run), []).append(inj)
+    runs_of: dict = {}
+    for sample, run in groups:
+        runs_of.setdefault(sample, []).append(run)
+    out = []
+    for (sample, run), injections in groups.items():
+        c = used[injections[0].calibration]
+        label = sample if len(runs_of[sample]) == 1 else f"{sample} ({run})"
+        out.append(quantify(c.fit, label, [i.response for i in injections]))
+    return tuple(out)
