@@ -37,9 +37,9 @@ class RunCalibration:
     run: str                     # the run's label, or "pooled"
     calibrators: int
     levels: int
-    intercept: float | None
+    intercept: float | None = field(metadata={"omit_none": True})
     slope: float
-    quadratic: float | None
+    quadratic: float | None = field(metadata={"omit_none": True})
     residual_sd: float
     low: float
     high: float
@@ -58,12 +58,12 @@ class QuantifiedInjection:
     day: str
     sample: str
     type: str
-    level: float | None
+    level: float | None = field(metadata={"omit_none": True})
     response: float
     analyte_response: float
-    internal_standard_response: float | None
+    internal_standard_response: float | None = field(metadata={"omit_none": True})
     file: str
-    sheet: str | None
+    sheet: str | None = field(metadata={"omit_none": True})
     row: int
     calibration: str             # the run whose calibration was used, or "pooled"
     found: float | None
