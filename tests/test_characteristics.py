@@ -14,7 +14,8 @@ from validator.characteristics.detection import assess_detection, noncentrality_
 from validator.characteristics.precision import assess_precision_level, horwitz_prsd, mass_fraction_factor
 from validator.maths.outliers import cochran_c, grubbs_means
 from validator.maths.anova import one_way_anova
-from validator.characteristics.recovery import assess_recovery, assess_reference_material
+from validator.characteristics.recovery import assess_recovery
+from validator.characteristics.reference_material import assess_reference_material
 from validator.characteristics.working_range import verify_loq, working_range
 
 

@@ -12,7 +12,8 @@ from scipy import stats
 from validator.characteristics.calibration import analyse_calibration
 from validator.characteristics.detection import assess_detection, noncentrality_delta
 from validator.characteristics.precision import assess_precision_level, horwitz_prsd
-from validator.characteristics.recovery import assess_recovery, assess_reference_material
+from validator.characteristics.recovery import assess_recovery
+from validator.characteristics.reference_material import assess_reference_material
 
 X = np.repeat([1.0, 2.0, 4.0, 8.0, 16.0], 3)
 NOISE = np.array([0.012, -0.008, 0.003, -0.02, 0.025, 0.004, 0.03, -0.045, 0.01,

@@ -106,7 +106,8 @@ def test_html_is_self_contained(demo_out):
         assert tag["href"].startswith("#")
     for tag in soup.find_all(src=True):
         assert tag["src"].startswith("data:")
-    assert len(soup.select("svg")) == 3 * 2     # three figures per analyte, inline
+    # per analyte, inline: calibration, diagnostics, recovery, precision
+    assert len(soup.select("svg")) == 4 * 2
 
 
 def test_pdf_text_pages_and_previews(demo_out, artefacts):

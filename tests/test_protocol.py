@@ -308,3 +308,21 @@ def test_an_approval_in_the_future_is_refused_when_writing(make_study, outside, 
     code, _, err = run(capsys, "protocol", study, "--out", outside / "p", "--approved-on", "2999-01-01",
                        "--approved-by", "A. Approver")
     assert code == 2 and "is later than today" in err and err.count("\n") == 1
+
+
+def test_verify_with_the_study_hashes_the_protocol_again(make_study, outside, capsys):
+    """verify --study re-reads every recorded input, the approved protocol.json included.
+    # expected values: the documented behaviour of verify (README, "Verifying an output folder")
+    """
+    study, pj = _protocol(make_study, outside, capsys)
+    (study.parent / "calibration.csv").write_text(CALIBRATION)
+    code, _, err = run(capsys, "run", study, "--out", outside / "r", "--protocol", pj)
+    assert (code, err) == (0, "")
+    code, out, _ = run(capsys, "verify", outside / "r", "--study", study)
+    assert code == 0, out
+    pj.write_bytes(pj.read_bytes() + b"\n")                     # the approved record changed afterwards
+    code, out, _ = run(capsys, "verify", outside / "r", "--study", study)
+    assert code == 1 and f"protocol {pj} differs from the SHA-256 recorded in results.json" in out
+    pj.unlink()
+    code, out, _ = run(capsys, "verify", outside / "r", "--study", study)
+    assert code == 1 and f"protocol {pj} is missing" in out

@@ -158,3 +158,24 @@ def test_qualify_refuses_out_inside_the_case_file_folder(tmp_path, capsys):
     assert main(["qualify", "--out", str(tmp_path / "report"), "--cases", str(cases)]) == 2
     assert capsys.readouterr().err.startswith("validator: error: ")
     assert not (tmp_path / "report").exists()
+
+
+@pytest.mark.parametrize("text", ["Norris \U0001F9EA straight line", 'a "quoted" \\ back', "bell \x07 tab \t",
+                                  "µS·cm⁻¹", "line\u2028separator", "\U0010FFFF"])
+def test_case_text_is_written_as_valid_toml(text):
+    """Titles reach the generated study file as TOML basic strings; TOML 1.0 allows \\uXXXX and
+    \\UXXXXXXXX escapes of Unicode scalar values only (no surrogate pairs)."""
+    import tomllib
+
+    from validator.qualification import _toml_value
+
+    assert tomllib.loads(f"k = {_toml_value(text)}")["k"] == text
+
+
+def test_own_cases_file_says_the_shipped_kit_was_not_run(tmp_path_factory, capsys):
+    inputs = tmp_path_factory.mktemp("cases")
+    cases = _perturbed(inputs, 'title = "Straight line, NIST StRD Norris (36 points)"',
+                       'title = "Norris \U0001F9EA straight line"')
+    out = tmp_path_factory.mktemp("own") / "report"
+    assert main(["qualify", "--out", str(out), "--cases", str(cases), "--format", "json"]) == 0
+    assert f"(the cases of {cases} only; the shipped kit was not run)" in capsys.readouterr().out

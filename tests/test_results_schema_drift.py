@@ -63,7 +63,8 @@ def written_keys() -> set:
         if (isinstance(node, ast.Subscript) and isinstance(node.ctx, ast.Store)
                 and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, str)):
             keys.add(node.slice.value)
-    for result_types in SERIALISED.values():
+    for section, result_types in SERIALISED.items():      # each section is written under its own name
+        keys.add(section)
         keys.update(json_fields(*result_types))
     for path, name in WRITERS:
         tree = ast.parse(path.read_text(encoding="utf-8"))

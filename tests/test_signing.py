@@ -271,3 +271,19 @@ def test_a_broken_signature_file_is_reported_as_a_changed_record(signed, tmp_pat
     assert code == 1
     assert "validator: SIGNATURE: signature.json is not a readable validator signature" in out
     assert "do not rely on this record" in out
+
+
+@pytest.mark.parametrize("mode", [0o640, 0o604, 0o660])
+def test_a_private_key_others_can_read_is_refused(signed, keys, tmp_path, capsys, mode):
+    """A signature means "the holder of this key"; a key others can read means nothing.
+    # common practice, no published source: OpenSSH refuses private keys with group/other access
+    """
+    copy = _copy(signed, tmp_path)
+    (copy / "signature.json").unlink()
+    key = tmp_path / "loose.key"
+    shutil.copyfile(keys / "lab.key", key)
+    key.chmod(mode)
+    assert main(["sign", str(copy), "--key", str(key)]) == 2
+    err = capsys.readouterr().err
+    assert f"mode {mode:04o}" in err and "chmod 600" in err
+    assert not (copy / "signature.json").exists()

@@ -312,12 +312,37 @@ def _say(text: str) -> None:
     print(one_line(text), file=sys.stderr)
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM (a job scheduler, `kill`, a container stopping): unwound like Ctrl-C, so the partial
+    output folder is removed and the lock released before the process ends."""
+
+
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+def _catch_sigterm():
+    import signal
+    import threading
+
+    if threading.current_thread() is threading.main_thread():
+        try:
+            return signal.signal(signal.SIGTERM, _on_sigterm)
+        except (ValueError, OSError):      # an embedding that does not allow it
+            return None
+    return None
+
+
 def main(argv=None) -> int:
+    previous = _catch_sigterm()
     try:
         return _quietly(argv)
     except ValidatorError as exc:
         _say(f"validator: error: {exc}")
         return exc.exit_code
+    except Terminated:
+        _say("validator: terminated (SIGTERM); the partial output was removed and nothing was written")
+        return 143
     except KeyboardInterrupt:
         _say("validator: interrupted; nothing was written")
         return 130
@@ -327,3 +352,8 @@ def main(argv=None) -> int:
         _say(f"validator: internal error: {type(exc).__name__}: {show(str(exc), 500)} (nothing was written; "
              "please report it, with VALIDATOR_DEBUG=1 for the traceback)")
         return 3
+    finally:
+        if previous is not None:
+            import signal
+
+            signal.signal(signal.SIGTERM, previous)

@@ -20,9 +20,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Criterion", "calibration_criteria", "recovery_criteria", "precision_level_criteria",
-           "reference_material_criterion", "loq_criterion", "comparison_criteria", "overall_verdict",
-           "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
+__all__ = ["Criterion", "calibration_criteria", "precision_level_criteria", "loq_criterion", "comparison_criteria",
+           "overall_verdict", "at_least", "at_most", "interval_within", "missing", "working_range_criterion"]
 
 
 def _finite(v) -> bool:
@@ -183,14 +182,6 @@ def overall_verdict(criteria) -> str:
     return "pass"
 
 
-def recovery_criteria(recovery) -> tuple:
-    """One criterion per spiking level: mean recovery inside its range."""
-    return tuple(Criterion(
-        f"recovery-{lv.added:g}",
-        f"mean recovery at added {lv.added:g} within {lv.range_pct[0]:g} to {lv.range_pct[1]:g} %",
-        lv.mean_pct, list(lv.range_pct), lv.passed) for lv in recovery.levels)
-
-
 def precision_level_criteria(lv, limits: tuple) -> tuple:
     """Repeatability and intermediate RSD of one level against their maxima ``limits`` (where set)."""
     out = []
@@ -205,14 +196,6 @@ def precision_level_criteria(lv, limits: tuple) -> tuple:
                              "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
     return tuple(out)
 
-
-
-def reference_material_criterion(rm) -> Criterion:
-    return Criterion("reference-material-bias",
-                     f"|bias| against the certified value at most k·sqrt(u_mean² + u_CRM²), k = {rm.coverage_factor:g}",
-                     None if rm.bias is None else abs(rm.bias), rm.expanded_uncertainty,
-                     None if rm.significant is None else not rm.significant,
-                     "" if rm.significant is not None else "not applicable: needs at least 2 results")
 
 
 def loq_criterion(check) -> Criterion:

@@ -7,30 +7,41 @@ that the rendering layer only draws and formats.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, fields, replace
-from typing import Callable, Generic, TypeVar
+from dataclasses import dataclass, field, replace
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
 from scipy import stats
+
+from . import registry
 from ._common import quiet_numpy
-from .characteristics.calibration import CalibrationResult, SampleResult, analyse_calibration, quantify
-from .criteria import (at_most, calibration_criteria, comparison_criteria, interval_within, loq_criterion,
-                       overall_verdict, precision_level_criteria, recovery_criteria, reference_material_criterion,
-                       working_range_criterion)
-from .characteristics.detection import DetectionResult, assess_detection
-from .characteristics.precision import PrecisionLevel, assess_precision_level
-from .characteristics.recovery import (RecoveryResult, ReferenceMaterialResult, assess_recovery,
-                                       assess_reference_material)
-from .characteristics.comparison import ComparisonResult, assess_comparison
-from .criteria import Criterion
-from .characteristics.revalidation import RevalidationResult, RunSummary, assess_revalidation, run_summary
-from .characteristics.working_range import LoqCheck, WorkingRange, verify_loq, working_range
+from .characteristics._entry import Assessment, Characteristic
+from .characteristics.calibration import CalibrationResult, SampleResult
+from .characteristics.comparison import ComparisonResult
+from .characteristics.detection import DetectionResult
+from .characteristics.precision import PrecisionLevel
+from .characteristics.revalidation import RevalidationResult
+from .characteristics.working_range import LoqCheck, WorkingRange
+from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
-from .inputs.study import StudyConfig
+
+if TYPE_CHECKING:
+    from .inputs.study import StudyConfig
 
 __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "StraightLine", "AnalyteContext",
-           "Assessment", "Characteristic", "REGISTRY", "analyse_analyte", "analyse_study", "curve_bands",
-           "residual_series"]
+           "Assessment", "Characteristic", "analyse_analyte", "analyse_study", "curve_bands", "residual_series"]
+
+R = TypeVar("R")
+
+# the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
+_LEGACY = ("calibration", "samples", "detection", "precision", "loq_check", "working_range", "comparison",
+           "revalidation")
+
+
+def __getattr__(name):
+    if name == "REGISTRY":       # the registry lives in validator.registry
+        return registry.REGISTRY
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -114,32 +125,37 @@ class AnalyteResult:
     detection: DetectionResult | None = None
     working_range: WorkingRange | None = None
     loq_check: LoqCheck | None = None
-    recovery: RecoveryResult | None = None
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
-    reference_material: ReferenceMaterialResult | None = None
     revalidation: RevalidationResult | None = None
     comparison: ComparisonResult | None = None
+    # (name, result) of every assessed characteristic without a field above, in registry order
+    results: tuple[tuple[str, Any], ...] = ()
+
+    def result_of(self, entry: Characteristic[R]) -> R | None:
+        """The result of ``entry`` for this analyte, or ``None`` when it was not assessed."""
+        return _result(self, entry.name)
 
     @property
     def characteristics(self) -> tuple:
+        """The names of the characteristics assessed (results.json ``characteristics_assessed``)."""
         out = ["calibration", "detection", "working_range"]
         if self.samples:
             out.append("samples")
-        if self.recovery is not None:
-            out.append("recovery")
-        if self.precision:
-            out.append("precision")
-        if self.reference_material is not None:
-            out.append("reference_material")
-        if self.revalidation is not None:
-            out.append("revalidation")
-        if self.comparison is not None:
-            out.append("comparison")
-        return tuple(out)
+        for name in ("recovery", "precision", "reference_material", "revalidation", "comparison"):
+            if _result(self, name):
+                out.append(name)
+        return tuple(out) + tuple(name for name, _ in self.results if name not in out)
 
     @property
     def verdict(self) -> str:
         return overall_verdict(self.criteria)
+
+
+def _result(holder, name: str):
+    for entry, result in holder.results:
+        if entry == name:
+            return result
+    return getattr(holder, name) if name in _LEGACY else None
 
 
 @dataclass(frozen=True)
@@ -160,8 +176,10 @@ class StudyResult:
 class AnalyteContext:
     """One analyte's data and settings, and every result assessed so far (typed, never a dict).
 
-    A characteristic that uses another's results (working range, LOQ verification,
-    re-validation) reads them here; the registry's order guarantees they exist.
+    A characteristic reads its own data with ``ctx.data_of(ENTRY)``, its own study-file
+    table with ``ctx.settings_of(ENTRY)`` and the result of one above it in the registry with
+    ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed). The fields named
+    after a characteristic hold the results of those not yet in packages of their own.
     """
 
     data: AnalyteData
@@ -170,198 +188,52 @@ class AnalyteContext:
     calibration: CalibrationResult | None = None
     samples: tuple[SampleResult, ...] = ()
     detection: DetectionResult | None = None
-    recovery: RecoveryResult | None = None
     precision: tuple[PrecisionLevel, ...] = ()
-    reference_material: ReferenceMaterialResult | None = None
     loq_check: LoqCheck | None = None
     working_range: WorkingRange | None = None
     comparison: ComparisonResult | None = None
     revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
-    # characteristics without a field of their own here (added to the registry only), by name
-    others: tuple[tuple[str, Assessment], ...] = ()
+    # (name, result) of every assessed characteristic without a field above, in registry order
+    results: tuple[tuple[str, Any], ...] = ()
 
     @property
     def alpha(self) -> float:
         return self.config.criteria.alpha
 
+    def result_of(self, entry: Characteristic[R]) -> R | None:
+        """The result of ``entry`` (assessed above this step), or ``None`` when it was not assessed."""
+        return _result(self, entry.name)
 
-R = TypeVar("R")
+    def data_of(self, entry: Characteristic) -> Any:
+        """This analyte's data as ``entry.load`` read them (``None``: the analyte has none)."""
+        return self.data.of(entry.name)
 
+    def settings_of(self, entry: Characteristic) -> Any:
+        """``entry``'s table of the study file (``None`` when the study has none)."""
+        return getattr(self.config, entry.name, None)
 
-@dataclass(frozen=True)
-class Assessment(Generic[R]):
-    """What one characteristic adds: its result (stored in the context field of its name) and criteria."""
-
-    result: R
-    criteria: tuple[Criterion, ...] = ()
-
-
-@dataclass(frozen=True)
-class Characteristic:
-    """A registry entry: the context field it fills and the step that assesses it."""
-
-    name: str
-    assess: Callable[[AnalyteContext], Assessment | None]      # None: not assessed for this analyte
-
-
-def _calibration(ctx: AnalyteContext) -> Assessment:
-    cal_cfg, crit = ctx.config.calibration, ctx.config.criteria
-    d = ctx.data.calibration
-    cal = analyse_calibration(d.concentration, d.response, model=cal_cfg.model, weighting=cal_cfg.weighting,
-                              through_origin=cal_cfg.through_origin, alpha=ctx.alpha,
-                              tolerance_pct=crit.back_calculation_tolerance_pct,
-                              lowest_tolerance_pct=crit.lowest_level_tolerance_pct)
-    return Assessment(cal, calibration_criteria(cal, crit))
-
-
-def _samples(ctx: AnalyteContext) -> Assessment:
-    return Assessment(tuple(quantify(ctx.calibration.fit, s.id, s.responses) for s in ctx.data.samples))
-
-
-def _detection(ctx: AnalyteContext) -> Assessment:
-    det = ctx.config.detection
-    return Assessment(assess_detection(ctx.calibration, ctx.data.blanks, lod_factor=det.lod_factor,
-                                       loq_factor=det.loq_factor, readings_per_sample=det.readings_per_sample,
-                                       beta=det.beta, alpha=ctx.alpha, reporting_method=det.reporting_basis))
-
-
-def _recovery(ctx: AnalyteContext) -> Assessment | None:
-    r = ctx.data.recovery
-    if r is None:
-        return None
-    recovery = assess_recovery(r.added, r.found, r.native, alpha=ctx.alpha, range_for=ctx.config.recovery.range_for)
-    return Assessment(recovery, recovery_criteria(recovery))
-
-
-def _precision(ctx: AnalyteContext) -> Assessment | None:
-    p = ctx.data.precision
-    if p is None:
-        return None
-    levels = tuple(assess_precision_level(level, p.found[p.level == level],
-                                          [s for s, lv in zip(p.series, p.level) if lv == level],
-                                          alpha=ctx.alpha, unit=ctx.unit, offset=p.offset)
-                   for level in np.unique(p.level))
-    return Assessment(levels, tuple(c for lv in levels for c in _precision_criteria(ctx, lv)))
-
-
-def _precision_criteria(ctx: AnalyteContext, lv: PrecisionLevel) -> tuple:
-    return precision_level_criteria(lv, ctx.config.precision.limits_for(lv.level))
-
-
-def _reference_material(ctx: AnalyteContext) -> Assessment | None:
-    if ctx.data.reference_material is None:
-        return None
-    rmc = ctx.config.reference_material
-    rm = assess_reference_material(ctx.data.reference_material, rmc.certified_value, rmc.standard_uncertainty,
-                                   k=rmc.coverage_factor, measurement_uncertainty=rmc.measurement_standard_uncertainty)
-    return Assessment(rm, (reference_material_criterion(rm),))
-
-
-def _loq_check(ctx: AnalyteContext) -> Assessment:
-    check = verify_loq(ctx.detection.reported.loq, ctx.precision,
-                       ctx.recovery.levels if ctx.recovery else (), ctx.config.detection.loq_rsd_max_pct)
-    return Assessment(check, (loq_criterion(check),) if check.levels else ())
-
-
-def _working_range(ctx: AnalyteContext) -> Assessment:
-    """The range narrowed by every recovery or precision level that fails its own criteria."""
-    reported = ctx.detection.reported
-    levels = ctx.recovery.levels if ctx.recovery else ()
-    assessed = [lv.added for lv in levels] + [lv.level for lv in ctx.precision]
-    failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
-               + [(lv.level, "precision") for lv in ctx.precision
-                  if any(c.passed is False for c in _precision_criteria(ctx, lv))])
-    wr = working_range(ctx.calibration.back_calculated, reported.loq, reported.method, failing, assessed, ctx.unit)
-    return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
-                                                   (reported.reason or "it does not exist for these data")),))
-
-
-def _comparison(ctx: AnalyteContext) -> Assessment | None:
-    cd = ctx.data.comparison
-    if cd is None:
-        return None
-    cc = ctx.config.comparison
-    comparison = assess_comparison(cd.samples, cd.reference, cd.test, error_ratio=cc.error_ratio,
-                                   slope_limits=cc.slope_limits, intercept_limits=cc.intercept_limits,
-                                   percentage=cc.percentage_differences, alpha=ctx.alpha)
-    return Assessment(comparison, comparison_criteria(comparison, cc.slope_limits, cc.intercept_limits))
-
-
-def _revalidation(ctx: AnalyteContext) -> Assessment | None:
-    rc = ctx.config.revalidation
-    if ctx.data.previous is not None:
-        reval = assess_revalidation(RunSummary.from_results(ctx.data.previous),
-                                    run_summary(ctx.calibration, ctx.detection, ctx.recovery, ctx.precision),
-                                    slope_change_max_pct=rc.slope_change_max_pct,
-                                    residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=ctx.alpha)
-        return Assessment(reval, tuple(_revalidation_criteria(reval, rc)))
-    if rc is not None:       # a re-validation in which this analyte has no counterpart
-        margin = rc.slope_change_max_pct
-        return Assessment(None, (Criterion(
-            "slope-equivalence", f"slope change inside ±{margin:g} % of the previous validation", None,
-            [-margin, margin], None, "not applicable: the previous results have no analyte matching this one "
-            "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared"),))
-    return None
-
-
-_CONTEXT_FIELDS = {f.name for f in fields(AnalyteContext)} - {"data", "config", "unit", "criteria", "others"}
-
-# The characteristics in the order they are assessed: a step may read only the context fields of
-# the steps above it. Its criteria appear in results.json in this order too.
-REGISTRY: tuple[Characteristic, ...] = (
-    Characteristic("calibration", _calibration),
-    Characteristic("samples", _samples),
-    Characteristic("detection", _detection),
-    Characteristic("recovery", _recovery),
-    Characteristic("precision", _precision),
-    Characteristic("reference_material", _reference_material),
-    Characteristic("loq_check", _loq_check),
-    Characteristic("working_range", _working_range),
-    Characteristic("comparison", _comparison),
-    Characteristic("revalidation", _revalidation),
-)
+    def with_result(self, name: str, done: Assessment) -> "AnalyteContext":
+        """This context with ``done``'s result held under ``name`` and its criteria added."""
+        criteria = self.criteria + tuple(done.criteria)
+        if name in _LEGACY:
+            return replace(self, **{name: done.result}, criteria=criteria)
+        return replace(self, results=self.results + ((name, done.result),), criteria=criteria)
 
 
 def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
-    """Every characteristic of :data:`REGISTRY`, in order, for one analyte."""
+    """Every characteristic of :data:`validator.registry.REGISTRY`, in order, for one analyte."""
     ctx = AnalyteContext(data=data, config=config, unit=concentration_unit)
-    for step in REGISTRY:
+    for step in registry.REGISTRY:
         done = step.assess(ctx)
-        if done is None:
-            continue
-        criteria = ctx.criteria + tuple(done.criteria)
-        if step.name in _CONTEXT_FIELDS:
-            ctx = replace(ctx, **{step.name: done.result}, criteria=criteria)
-        else:
-            ctx = replace(ctx, others=ctx.others + ((step.name, done),), criteria=criteria)
+        if done is not None:
+            ctx = ctx.with_result(step.name, done)
     cal = ctx.calibration
     return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=ctx.detection,
-                         working_range=ctx.working_range, loq_check=ctx.loq_check, recovery=ctx.recovery,
-                         precision=ctx.precision, reference_material=ctx.reference_material,
-                         revalidation=ctx.revalidation, comparison=ctx.comparison)
-
-
-def _revalidation_criteria(reval, rc) -> list:
-    """Slope (sensitivity) equivalence and residual SD ratio; "not applicable" when no value exists."""
-    sl = reval.slope
-    what = sl.quantity if sl.sensitivity_range is None else \
-        f"{sl.quantity} over {sl.sensitivity_range[0]:g} to {sl.sensitivity_range[1]:g}"
-    ci = sl.change_ci_pct
-    level = "" if ci is None else f"{ci.label} "
-    value = None if ci is None else [ci.low, ci.high]
-    margin = [-rc.slope_change_max_pct, rc.slope_change_max_pct]
-    slope = Criterion("slope-equivalence",
-                      f"{level}CI of the {what} change inside ±{rc.slope_change_max_pct:g} % of the previous "
-                      "validation", value, margin, interval_within(value, margin),
-                      f"not applicable: {sl.reason}" if ci is None else sl.verdict)
-    ratio = reval.residual_sd_ratio
-    sd = Criterion("residual-sd-ratio", f"s(y/x) ratio current/previous at most {rc.residual_sd_ratio_max:g}",
-                   ratio, rc.residual_sd_ratio_max, at_most(ratio, rc.residual_sd_ratio_max),
-                   "not applicable: the previous residual SD is zero, so no ratio exists" if ratio is None else "")
-    return [slope, sd]
+                         working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
+                         revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

@@ -461,14 +461,15 @@ def design_deviations(design, analytes) -> list:
         if design.calibration is not None:
             out += _level_deviations("calibration", design.calibration, a.calibration.concentration,
                                      a.calibration.series, a.name)
-        if design.recovery is not None and a.recovery is not None:
-            out += _level_deviations("recovery", design.recovery, a.recovery.added, a.recovery.series, a.name)
+        recovery = a.of("recovery")
+        if design.recovery is not None and recovery is not None:
+            out += _level_deviations("recovery", design.recovery, recovery.added, recovery.series, a.name)
         if design.precision is not None and a.precision is not None:
             out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
         for name, planned, seen in (
                 ("blanks.count", design.blanks and design.blanks.count, a.blanks),
                 ("reference_material.replicates",
-                 design.reference_material and design.reference_material.replicates, a.reference_material),
+                 design.reference_material and design.reference_material.replicates, a.of("reference_material")),
                 ("comparison.samples", design.comparison and design.comparison.samples,
                  None if a.comparison is None else a.comparison[0])):
             if planned and seen is not None and len(seen) != planned:

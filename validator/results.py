@@ -24,9 +24,8 @@ from importlib.metadata import PackageNotFoundError, version
 import numpy as np
 
 from ._common import ConfidenceInterval, finite_or_none as num
-from . import __version__
+from . import __version__, registry
 from .characteristics.precision import PrecisionLevel
-from .characteristics.recovery import RecoveryResult, ReferenceMaterialResult
 from .characteristics.comparison import ComparisonResult
 from .characteristics.detection import DetectionResult
 from .criteria import Criterion
@@ -256,12 +255,15 @@ def _calibration(a):
     }
 
 
-# analyte sections written by the Serialiser from their result types, not_applicable reasons and all
-# analyte sections written by the Serialiser (from these result types), not_applicable reasons and all
+# analyte sections written by the Serialiser (from these result types), not_applicable reasons and all:
+# those of the registry's entries with result_types, and these not yet in packages of their own
 SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (WorkingRange,),
-              "recovery": (RecoveryResult,), "precision": (PrecisionLevel,),
-              "reference_material": (ReferenceMaterialResult,), "comparison": (ComparisonResult,),
-              "criteria": (Criterion,)}
+              "precision": (PrecisionLevel,), "comparison": (ComparisonResult,), "criteria": (Criterion,),
+              **{e.name: e.result_types for e in registry.REGISTRY if e.result_types}}
+# the analyte entry's sections in the order results.json has always written them; a characteristic
+# not named here follows them in registry order
+_SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recovery", "precision",
+                  "reference_material", "revalidation", "comparison")
 SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
 _REASON_FIELDS = ("reason", "note", "notes")
 
@@ -352,13 +354,14 @@ def _not_applicable(a, entry: dict, collected: list = ()) -> list:
             out.append({"item": f"samples.{s.id}", "reason": s.reason})
             covered.add(f"samples.{i}")
     known = _known_reasons(a)
+    serialised = set(SERIALISED) | {e.name for e in registry.REGISTRY if e.result_types}
     listed = set()
     for path in null_paths({k: v for k, v in entry.items() if k not in SECTIONS or v is not None}):
         parts = path.split(".")
         if parts[0] in by_section:
             out.extend(by_section.pop(parts[0]))
             continue
-        if parts[0] in SERIALISED:
+        if parts[0] in serialised:
             continue
         prefixes = [".".join(parts[:cut]) for cut in range(len(parts), 0, -1)]
         if any(p in covered for p in prefixes):
@@ -413,10 +416,7 @@ def _revalidation(r, previous, name):
 
 def _analyte(a, previous=None):
     serialise = Serialiser()
-    entry = {
-        "name": a.name,
-        "verdict": a.verdict,
-        "characteristics_assessed": list(a.characteristics),
+    sections = {
         "calibration": _calibration(a),
         "samples": [
             {"id": s.id, "replicates": s.replicates, "mean_response": num(s.mean_response),
@@ -425,15 +425,19 @@ def _analyte(a, previous=None):
         "detection": {**serialise(a.detection, "detection"),
                       "loq_verification": serialise(a.loq_check, "detection.loq_verification")},
         "working_range": serialise(a.working_range, "working_range"),
-        "recovery": None if a.recovery is None else serialise(a.recovery, "recovery"),
         "precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None,
-        "reference_material": (None if a.reference_material is None
-                               else serialise(a.reference_material, "reference_material")),
         "revalidation": _revalidation(a.revalidation, previous, a.name),
         "comparison": None if a.comparison is None else serialise(a.comparison, "comparison"),
-        "criteria": serialise(a.criteria, "criteria"),
-        "diagnostics": list(a.calibration.diagnostics),
     }
+    for entry in registry.REGISTRY:
+        if entry.result_types:
+            result = a.result_of(entry)
+            sections[entry.name] = None if result is None else serialise(result, entry.name)
+    order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
+    entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),
+             **{name: sections[name] for name in order},
+             "criteria": serialise(a.criteria, "criteria"),
+             "diagnostics": list(a.calibration.diagnostics)}
     entry["not_applicable"] = _not_applicable(a, entry, serialise.not_applicable)
     return entry
 

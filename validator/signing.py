@@ -37,6 +37,7 @@ import json
 import os
 import secrets
 import socket
+import stat
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -137,6 +138,11 @@ def load_private_key(path: str):
     from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
     data = _read_key_file(path, "private key")
+    mode = os.stat(path).st_mode
+    if mode & 0o077:
+        raise OutputError(f"{path}: the private key can be read or changed by other users (mode "
+                          f"{stat.S_IMODE(mode):04o}); restrict it with `chmod 600 {path}` and, if others may have "
+                          "copied it, make a new key pair", path=path)
     try:
         key = serialization.load_pem_private_key(data, password=None)
     except (ValueError, TypeError) as exc:

@@ -1,3 +1,5 @@
-"""The validation characteristics, one module each: calibration, detection capability,
-recovery (with the reference material), precision, working range (with the LOQ
-verification), method comparison and re-validation against an earlier run."""
+"""The validation characteristics. Each new one is a package (``recovery/``,
+``reference_material/``) holding its study-file table and loader, its pure analysis and
+criteria, its sentences and figures, and its registry entry; the others (calibration,
+detection, precision, working range with the LOQ verification, method comparison,
+re-validation) are still modules whose registry steps are in ``_legacy``."""

@@ -215,7 +215,8 @@ def _check_outputs(folder: Path, manifest: Manifest) -> list:
 
 
 def _named_paths(study_text: str) -> set:
-    """Every path the study file names (the values of its "data" and "previous" keys)."""
+    """Every text value of the study file: the paths it names are among them (whatever the key:
+    data, previous, blanks, solvent_data, a run's data, a protocol file ...)."""
     try:
         doc = tomllib.loads(study_text)
     except (tomllib.TOMLDecodeError, RecursionError):
@@ -225,7 +226,7 @@ def _named_paths(study_text: str) -> set:
         node = stack.pop()
         if isinstance(node, dict):
             for key, value in node.items():
-                if key in ("data", "previous") and isinstance(value, str):
+                if isinstance(value, str):
                     names.add(value)
                 else:
                     stack.append(value)
@@ -283,7 +284,31 @@ def _check_inputs(folder: Path, study: str) -> list:
             problems.append(f"input {shown} {problem}")
         elif digest != e["sha256"]:
             problems.append(f"input {shown} differs from the SHA-256 recorded in results.json")
-    return problems
+    return problems + _check_protocol(folder, study_path)
+
+
+def _check_protocol(folder: Path, study_path: Path) -> list:
+    """The approved protocol.json a run was held to, hashed again (results.json ``protocol``).
+
+    Its recorded path is the one the run used (as given to --protocol, or resolved from the study's
+    [protocol] file), so it is read as recorded: absolute, or relative to the current folder.
+    """
+    doc = _load_json(folder / "results.json", str(folder / "results.json"))
+    entry = doc.get("protocol") if isinstance(doc, dict) else None
+    if not isinstance(entry, dict):
+        return []
+    path, recorded = entry.get("path"), entry.get("sha256")
+    if not isinstance(path, str) or "\0" in path or not isinstance(recorded, str) or not _SHA256.fullmatch(recorded):
+        return ['results.json "protocol" has no valid path and sha256 to check the protocol against']
+    shown = show(path)
+    p = Path(path)
+    try:
+        data = _read_small(p, MAX_JSON_BYTES, shown)
+    except OutputError as exc:
+        return [f"protocol {exc}".replace(f"protocol {shown}: not found", f"protocol {shown} is missing")]
+    if hashlib.sha256(data).hexdigest() != recorded:
+        return [f"protocol {shown} differs from the SHA-256 recorded in results.json"]
+    return []
 
 
 def _study_text(path: Path) -> str:

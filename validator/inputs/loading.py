@@ -23,7 +23,8 @@ from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, first_out_of_range
 from .previous import PreviousRun, read_previous
 from .study import StudyFile, read_study_file
 
-__all__ = ["InputFile", "AnalyteData", "LoadedStudy", "load_study"]
+__all__ = ["InputFile", "AnalyteData", "LoadedStudy", "Reader", "load_study", "per_analyte", "analyte_rows",
+           "numeric_column", "check_positive", "declared_levels_exist"]
 
 
 @dataclass(frozen=True)
@@ -55,14 +56,6 @@ class SampleData:
 
 
 @dataclass(frozen=True)
-class RecoveryData:
-    added: np.ndarray = field(repr=False)
-    found: np.ndarray = field(repr=False)
-    native: np.ndarray = field(repr=False)
-    series: tuple[str, ...] = field(repr=False)
-
-
-@dataclass(frozen=True)
 class PrecisionData:
     level: np.ndarray = field(repr=False)
     series: tuple[str, ...] = field(repr=False)
@@ -81,16 +74,22 @@ class ComparisonData:
 
 @dataclass(frozen=True)
 class AnalyteData:
+    """One analyte's data: its calibration, and what each characteristic's loader read for it."""
+
     name: str
     calibration: CalibrationData
     samples: tuple[SampleData, ...] = ()
     blanks: np.ndarray | None = field(default=None, repr=False)
-    recovery: RecoveryData | None = None
     precision: PrecisionData | None = None
-    reference_material: np.ndarray | None = field(default=None, repr=False)
     comparison: ComparisonData | None = field(default=None, repr=False)
     # the analyte's entry in the previous results.json, as read (checked against the schema)
     previous: dict[str, Any] | None = field(default=None, repr=False)
+    # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
+    entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
+
+    def of(self, name: str) -> Any:
+        """The data the characteristic ``name`` read for this analyte (``None``: none)."""
+        return next((data for entry, data in self.entries if entry == name), None)
 
 
 @dataclass(frozen=True)
@@ -117,7 +116,9 @@ def _group(names):
     return order, groups
 
 
-class _Reader:
+class Reader:
+    """Reads a study's data files: the study's dialect and size limit, and the audit trail of inputs."""
+
     def __init__(self, study: StudyFile):
         self.study = study
         cfg = study.config.study
@@ -159,8 +160,11 @@ class _Reader:
         return self.exclusions.apply(role, path, resolved, table)
 
 
-def _numbers(table, column: str, decimal: str | None = None) -> np.ndarray:
-    """A numeric column, refused when a value's magnitude is beyond what the statistics can square."""
+def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray:
+    """A numeric column, refused when a value's magnitude is beyond what the statistics can square.
+
+    ``decimal`` None: the decimal mark the table was read with (stated or detected).
+    """
     values = np.array(table.numbers(column, decimal))
     i = first_out_of_range(values)
     if i is not None:
@@ -187,12 +191,12 @@ def _check_weighting(weighting: str, table, idx, x, y):
                                 column="response", value=y[i])
 
 
-def _calibration(reader: _Reader):
+def _calibration(reader: Reader):
     cfg = reader.study.config
     table = reader.table("calibration", cfg.calibration, ("concentration", "response"),
                          ("analyte", "series"))
-    x = _numbers(table, "concentration")
-    y = _numbers(table, "response")
+    x = numeric_column(table, "concentration", reader.decimal)
+    y = numeric_column(table, "response", reader.decimal)
     for i, xi in enumerate(x):
         if xi < 0:
             raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
@@ -227,7 +231,7 @@ def _calibration(reader: _Reader):
     return result
 
 
-def _analyte_rows(table, analytes: dict, what: str) -> dict:
+def analyte_rows(table, analytes: dict, what: str) -> dict:
     """Row indices of ``table`` per analyte (all rows if there is one analyte and no column)."""
     if table.has("analyte"):
         names = table.texts("analyte", MAX_NAME_LENGTH)
@@ -246,13 +250,13 @@ def _analyte_rows(table, analytes: dict, what: str) -> dict:
     return out
 
 
-def _samples(reader: _Reader, analytes: dict):
+def _samples(reader: Reader, analytes: dict):
     cfg = reader.study.config
     if cfg.samples is None:
         return {}
     table = reader.table("samples", cfg.samples, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
-    responses = _numbers(table, "response").tolist()
+    responses = numeric_column(table, "response", reader.decimal).tolist()
     seen = {}
     for sid, row in zip(ids, table.rows):
         key = " ".join(sid.split()).casefold()
@@ -262,7 +266,7 @@ def _samples(reader: _Reader, analytes: dict):
                             column="sample", value=sid)
         seen.setdefault(key, (sid, row))
     out = {}
-    for name, idx in _analyte_rows(table, analytes, "reading").items():
+    for name, idx in analyte_rows(table, analytes, "reading").items():
         own_ids, own_rows = [ids[i] for i in idx], [table.rows[i] for i in idx]
         if cfg.samples.expected:
             check_expected(analyte=name, ids=own_ids, rows=own_rows, file=table.path,
@@ -280,30 +284,31 @@ def _samples(reader: _Reader, analytes: dict):
     return out
 
 
-def _positive(table, column, values, what="must be > 0"):
+def check_positive(table, column, values, what="must be > 0"):
     for v, cell, row in zip(values, table.columns[column], table.rows):
         if not v > 0:
             raise DataError(f"{column} {show(cell)} {what}", file=table.path, row=row, column=column, value=v)
 
 
-def _per_analyte(reader, analytes, section: str, required: tuple, optional: tuple, what: str, prepare, make):
-    """The skeleton every per-analyte data section shares.
+def per_analyte(reader, settings, analytes, role: str, required: tuple, optional: tuple, what: str, prepare,
+                make):
+    """The skeleton every per-analyte data table shares.
 
-    Nothing when the study has no such section; else its table is read (the columns
-    ``required``, and ``optional`` ones such as "analyte"), ``prepare(table)`` parses and checks
-    whole columns (so errors come in row order), the rows are split by analyte, and
-    ``make(columns, idx, name)`` builds the data of each analyte that has rows.
+    The table named by ``settings.data`` is read (the columns ``required``, and ``optional``
+    ones such as "analyte") and entered in the audit trail as ``role``; ``prepare(table)``
+    parses and checks whole columns (so errors come in row order), the rows are split by
+    analyte, and ``make(columns, idx, name)`` builds the data of each analyte that has rows.
+    Nothing when ``settings`` is ``None`` (the study has no such table).
     """
-    cfg = getattr(reader.study.config, section)
-    if cfg is None:
+    if settings is None:
         return {}
-    table = reader.table(section, cfg, required, optional)
+    table = reader.table(role, settings, required, optional)
     columns = prepare(table)
     return {name: make(columns, idx, name)
-            for name, idx in _analyte_rows(table, analytes, what).items() if idx}
+            for name, idx in analyte_rows(table, analytes, what).items() if idx}
 
 
-def _declared_levels_exist(reader, section: str, key: str, declared, present) -> None:
+def declared_levels_exist(reader, section: str, key: str, declared, present) -> None:
     """A per-level limit in the study must match a level in the data, else it would silently judge nothing."""
     present = sorted({float(v) for v in present})
     for i, value in enumerate(declared):
@@ -314,37 +319,18 @@ def _declared_levels_exist(reader, section: str, key: str, declared, present) ->
 
 
 def _blanks(reader, analytes):
-    return _per_analyte(reader, analytes, "blanks", ("response",), ("analyte",), "blank",
-                        lambda table: _numbers(table, "response"),
-                        lambda y, idx, name: y[idx])
-
-
-def _recovery(reader, analytes):
-    def prepare(table):
-        added = _numbers(table, "added")
-        _positive(table, "added", added)
-        found = _numbers(table, "found")
-        native = _numbers(table, "native") if table.has("native") else np.zeros_like(added)
-        series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
-        _declared_levels_exist(reader, "recovery", "added", [lv.added for lv in reader.study.config.recovery.levels],
-                               added)
-        return added, found, native, series
-
-    def make(columns, idx, name):
-        added, found, native, series = columns
-        return RecoveryData(added[idx], found[idx], native[idx], tuple(series[i] for i in idx))
-
-    return _per_analyte(reader, analytes, "recovery", ("added", "found"), ("native", "analyte", "series"),
-                        "recovery result", prepare, make)
+    return per_analyte(reader, reader.study.config.blanks, analytes, "blanks", ("response",), ("analyte",), "blank",
+                       lambda table: numeric_column(table, "response", reader.decimal),
+                       lambda y, idx, name: y[idx])
 
 
 def _precision(reader, analytes):
     def prepare(table):
-        level = _numbers(table, "level")
+        level = numeric_column(table, "level", reader.decimal)
         series = table.texts("series")
-        _numbers(table, "found")          # every cell checked before centring
-        _declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
-                               level)
+        numeric_column(table, "found", reader.decimal)          # every cell checked before centring
+        declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
+                              level)
         return table, level, series
 
     def make(columns, idx, name):
@@ -352,29 +338,14 @@ def _precision(reader, analytes):
         offset, centred = exact_centre([table.columns["found"][i] for i in idx], table.decimal)
         return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
 
-    return _per_analyte(reader, analytes, "precision", ("level", "series", "found"), ("analyte",),
-                        "precision result", prepare, make)
-
-
-def _reference_material(reader, analytes):
-    cfg = reader.study.config.reference_material
-    if cfg is None:
-        return {}
-    if cfg.analyte is None and len(analytes) > 1:
-        raise StudyError("the study covers several analytes; say which one the reference material "
-                         "certifies (analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
-    name = cfg.analyte or next(iter(analytes))
-    if name not in analytes:
-        raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
-                         key="reference_material.analyte", value=name)
-    table = reader.table("reference_material", cfg, ("found",), ())
-    return {name: _numbers(table, "found")}
+    return per_analyte(reader, reader.study.config.precision, analytes, "precision", ("level", "series", "found"),
+                       ("analyte",), "precision result", prepare, make)
 
 
 def _comparison(reader, analytes):
     def prepare(table):
-        return (table, table.texts("sample", MAX_NAME_LENGTH), _numbers(table, "reference"),
-                _numbers(table, "test"))
+        return (table, table.texts("sample", MAX_NAME_LENGTH), numeric_column(table, "reference", reader.decimal),
+                numeric_column(table, "test", reader.decimal))
 
     def make(columns, idx, name):
         table, ids, ref, test = columns
@@ -390,26 +361,41 @@ def _comparison(reader, analytes):
             first[ids[i]] = table.rows[i]
         return ComparisonData(tuple(ids[i] for i in idx), ref[idx], test[idx])
 
-    return _per_analyte(reader, analytes, "comparison", ("sample", "reference", "test"), ("analyte",),
-                        "comparison result", prepare, make)
+    return per_analyte(reader, reader.study.config.comparison, analytes, "comparison",
+                       ("sample", "reference", "test"), ("analyte",), "comparison result", prepare, make)
+
+
+# characteristics whose data are still read here (not yet by their registry entry's ``load``)
+_LEGACY_LOADERS = {"samples": _samples, "detection": _blanks, "precision": _precision, "comparison": _comparison}
 
 
 def load_study(path: str | Path) -> LoadedStudy:
-    """Read and check a study file and all its data files."""
+    """Read and check a study file and all its data files.
+
+    The calibration names the analytes; then each characteristic of the registry that reads a
+    data file (``entry.load``) reads it, in registry order, when the study has its table.
+    """
+    from .. import registry
+
     study = read_study_file(path)
-    reader = _Reader(study)
+    reader = Reader(study)
     calibration = _calibration(reader)
-    samples = _samples(reader, calibration)
-    blanks = _blanks(reader, calibration)
-    recovery = _recovery(reader, calibration)
-    precision = _precision(reader, calibration)
-    crm = _reference_material(reader, calibration)
-    comparison = _comparison(reader, calibration)
-    previous, run = read_previous(reader, calibration)
+    loaded, previous, run = {}, {}, None
+    for entry in registry.REGISTRY:
+        if entry.load is not None:
+            settings = getattr(study.config, entry.name, None)
+            if settings is not None:
+                loaded[entry.name] = entry.load(reader, settings, calibration)
+        elif entry.name in _LEGACY_LOADERS:
+            loaded[entry.name] = _LEGACY_LOADERS[entry.name](reader, calibration)
+        elif entry.name == "revalidation":
+            previous, run = read_previous(reader, calibration)
     excluded = reader.exclusions.check()
-    analytes = tuple(AnalyteData(name, calibration[name], samples.get(name, ()), blanks.get(name),
-                                 recovery.get(name), precision.get(name), crm.get(name),
-                                 comparison.get(name), previous.get(name))
+    legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
+    analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
+                                 legacy["detection"].get(name), legacy["precision"].get(name),
+                                 legacy["comparison"].get(name), previous.get(name),
+                                 entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
                        excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids))

@@ -32,13 +32,13 @@ import types
 import typing
 from typing import Annotated, Any, Literal, Optional
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, create_model, model_validator
 
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
 from ..protocol import DesignSection, ProtocolSection
 
-__all__ = ["StudyConfig", "StudyFile", "read_study_file", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
            "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
 
@@ -222,41 +222,11 @@ class DetectionSection(_Section):
         return self
 
 
-def _range(v, name: str = "range_pct"):
+def check_range(v, name: str = "range_pct"):
     """The one check of a [low, high] pair in the study file."""
     if v is not None and (len(v) != 2 or not v[0] < v[1]):
         raise ValueError(f"{name} must be [low, high] with low < high, got {show(list(v))}")
     return v
-
-
-# a recovery in per cent, as a bound of an acceptance range
-RecoveryPct = Annotated[float, Field(ge=0, le=1000)]
-
-
-class RecoveryLevelLimit(_Section):
-    added: float = Field(gt=0)
-    range_pct: list[RecoveryPct]
-
-    @model_validator(mode="after")
-    def _check(self):
-        _range(self.range_pct)
-        return self
-
-
-class RecoverySection(DataSource):
-    range_pct: list[RecoveryPct] = [90.0, 110.0]
-    levels: list[RecoveryLevelLimit] = []
-
-    @model_validator(mode="after")
-    def _check(self):
-        _range(self.range_pct)
-        return self
-
-    def range_for(self, added: float) -> tuple:
-        for lv in self.levels:
-            if abs(lv.added - added) <= 1e-9 * max(abs(added), 1.0):
-                return tuple(lv.range_pct)
-        return tuple(self.range_pct)
 
 
 class PrecisionLevelLimit(_Section):
@@ -278,14 +248,6 @@ class PrecisionSection(DataSource):
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
 
 
-class ReferenceMaterialSection(DataSource):
-    certified_value: float = Field(gt=0)
-    standard_uncertainty: float = Field(ge=0)
-    analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
-    coverage_factor: float = Field(2.0, gt=0, le=10)
-    measurement_standard_uncertainty: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
-
-
 class RevalidationSection(_Section):
     previous: DataPath
     slope_change_max_pct: float = Field(5.0, gt=0, le=100)
@@ -303,7 +265,7 @@ class ComparisonSection(DataSource):
     @model_validator(mode="after")
     def _limits(self):
         for name in ("slope_limits", "intercept_limits"):
-            _range(getattr(self, name), name)
+            check_range(getattr(self, name), name)
         return self
 
 
@@ -393,23 +355,58 @@ class ExclusionEntry(_Section):
     who: Text = _text("analyst")
 
 
-class StudyConfig(_Section):
-    """The whole study file as validated data (no data files read yet)."""
+# The tables of the study file in the order of its schema (messages list them so, defaults_applied
+# follows it): the tables of the characteristics in the registry, and those below.
+_TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
+                "reference_material", "revalidation", "comparison")
+_TABLES_AFTER = ("design", "protocol")
 
-    study: StudySection
-    calibration: CalibrationSection
-    samples: Optional[SamplesSection] = None
-    criteria: CriteriaSection = CriteriaSection()
-    blanks: Optional[BlanksSection] = None
-    detection: DetectionSection = DetectionSection()
-    recovery: Optional[RecoverySection] = None
-    precision: Optional[PrecisionSection] = None
-    reference_material: Optional[ReferenceMaterialSection] = None
-    revalidation: Optional[RevalidationSection] = None
-    comparison: Optional[ComparisonSection] = None
-    design: Optional[DesignSection] = None          # the planned experiment (validator.protocol)
-    protocol: Optional[ProtocolSection] = None      # the approved protocol.json a run is held to
-    exclusions: list[ExclusionEntry] = []           # data rows left out, each with its reason
+
+def _table_field(model: type[BaseModel], required: bool) -> tuple:
+    """A table's field of StudyConfig: required; always present when every key has a default; else optional."""
+    if required:
+        return (model, ...)
+    if all(not f.is_required() for f in model.model_fields.values()):
+        return (model, model())
+    return (Optional[model], None)
+
+
+# tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
+_OTHER_TABLES = {"study": (StudySection, ...), "calibration": (CalibrationSection, ...),
+                 "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
+                 "blanks": (Optional[BlanksSection], None), "detection": (DetectionSection, DetectionSection()),
+                 "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
+                 "comparison": (Optional[ComparisonSection], None),
+                 # the planned experiment and the approved protocol a run is held to (validator.protocol)
+                 "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None),
+                 # data rows left out, each with its reason (validator.inputs.exclusions)
+                 "exclusions": (list[ExclusionEntry], [])}
+_MODELS: dict = {}
+
+
+def study_config_model() -> type[BaseModel]:
+    """The model of the whole study file: a table per registry entry with ``settings``, and the others.
+
+    Assembled from :data:`validator.registry.REGISTRY` as it is when called (once per registry).
+    """
+    from .. import registry
+
+    key = tuple((e.name, e.settings, e.required) for e in registry.REGISTRY if e.settings is not None)
+    if key not in _MODELS:
+        tables = dict(_OTHER_TABLES)
+        tables.update({name: _table_field(settings, required) for name, settings, required in key})
+        order = [n for n in _TABLE_ORDER if n in tables] + [n for n, _, _ in key if n not in _TABLE_ORDER]
+        order += [n for n in tables if n not in order and n not in _TABLES_AFTER] + list(_TABLES_AFTER)
+        _MODELS[key] = create_model("StudyConfig", __base__=_Section, __module__=__name__,
+                                    __doc__="The whole study file as validated data (no data files read yet).",
+                                    **{name: tables[name] for name in order})
+    return _MODELS[key]
+
+
+def __getattr__(name):
+    if name == "StudyConfig":        # assembled from the registry, so built on first use
+        return study_config_model()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 @dataclass(frozen=True)
@@ -420,7 +417,7 @@ class StudyFile:
     shown: str                 # the path as the user gave it
     text: str                  # the study file as given
     sha256: str
-    config: StudyConfig
+    config: Any                # the StudyConfig (study_config_model()) instance
     defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
 
     def resolve(self, data_path: str) -> Path:
@@ -465,7 +462,7 @@ def _line_of(text: str, loc: tuple) -> int | None:
 
 def _model_at(loc: tuple):
     """The pydantic model holding the key at ``loc`` (``None`` if there is none)."""
-    model = StudyConfig
+    model = study_config_model()
     for part in loc[:-1]:
         if part.isdigit():
             continue
@@ -687,7 +684,7 @@ def read_study_file(path: str | Path) -> StudyFile:
     text = decode_text(raw, shown)
     data = _parse_toml(text, shown)
     try:
-        config = StudyConfig.model_validate(data)
+        config = study_config_model().model_validate(data)
     except ValidationError as exc:
         raise _translate(exc, shown, text) from None
     if config.study.purpose == "revalidation" and config.revalidation is None:

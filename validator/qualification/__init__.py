@@ -238,8 +238,9 @@ def _toml_value(v) -> str:
         return "true" if v else "false"
     if isinstance(v, (int, float)):
         return repr(v)
-    if isinstance(v, str):
-        return json.dumps(v)
+    if isinstance(v, str):          # a TOML basic string; no surrogate pairs (TOML has \UXXXXXXXX)
+        return '"' + "".join(c if c.isprintable() and c not in '"\\' else
+                             (f"\\u{ord(c):04X}" if ord(c) < 0x10000 else f"\\U{ord(c):08X}") for c in v) + '"'
     if isinstance(v, list):
         return "[" + ", ".join(_toml_value(x) for x in v) + "]"
     if isinstance(v, dict) and all(isinstance(k, str) and _KEY.fullmatch(k) for k in v):
@@ -270,8 +271,8 @@ def write_case_study(case: Case, folder: Path) -> Path:
         cols["sample"] = [f"s{i + 1}" for i in range(len(cols["test"]))]
         csv("comparison.csv", ["sample", "reference", "test"], cols)
         tables["comparison"] = {"data": "comparison.csv", **tables["comparison"]}
-    lines = ["# written by validator qualify for reference case " + json.dumps(case.id), "[study]",
-             f"id = {json.dumps('QUAL-' + case.id)}", f"title = {json.dumps(case.title)}",
+    lines = ["# written by validator qualify for reference case " + case.id, "[study]",
+             f"id = {_toml_value('QUAL-' + case.id)}", f"title = {_toml_value(case.title)}",
              'concentration_unit = "unit"', 'response_unit = "unit"']
     for t in _TABLES:
         if tables[t]:
@@ -466,7 +467,8 @@ def qualify(out: str, *, cases: str | None, force: bool, generated_at: str,
                                        for c in r.checks if not c.passed)
             print(f"validator: qualification case {r.case.id} FAILED: {why}")
     n_failed = len(report["failed_cases"])
+    whose = "" if cases is None else f" (the cases of {cases_file} only; the shipped kit was not run)"
     print(f"validator: qualification {report['verdict'].upper()}: {len(results) - n_failed} of "
-          f"{len(results)} case(s) passed; package digest {report['package_digest']['sha256']}; "
+          f"{len(results)} case(s) passed{whose}; package digest {report['package_digest']['sha256']}; "
           f"report in {out}")
     return 0 if not n_failed else 1

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import jinja2
 
-from .plots import PALETTE, figures_for_all
+from .plots import PALETTE, analyte_figures, figures_for_all, style
 from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
 
@@ -33,8 +33,20 @@ def templates_dir() -> Path:
     return Path(__file__).resolve().parents[2] / "report_templates"
 
 
+def _fragments() -> dict:
+    """Template fragments given by absolute path (a characteristic outside the package), by path."""
+    from .. import registry
+
+    return {e.fragment: Path(e.fragment).read_text(encoding="utf-8") for e in registry.REGISTRY
+            if e.fragment and Path(e.fragment).is_absolute()}
+
+
 def _environment() -> jinja2.Environment:
-    env = jinja2.Environment(loader=jinja2.FileSystemLoader(str(templates_dir())),
+    fragments = _fragments()
+    loader = jinja2.FileSystemLoader(str(templates_dir()))
+    if fragments:
+        loader = jinja2.ChoiceLoader([loader, jinja2.FunctionLoader(fragments.get)])
+    env = jinja2.Environment(loader=loader,
                              autoescape=True, undefined=jinja2.StrictUndefined,
                              trim_blocks=True, lstrip_blocks=True)
     env.filters["fmt"] = fmt
@@ -63,8 +75,6 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "qq_line": None if rv.qq_line is None else (rv.qq_line.intercept, rv.qq_line.slope),
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
-        "recovery": [{"added": lv.added, "values": list(lv.recoveries_pct), "mean": lv.mean_pct,
-                      "range": list(lv.range_pct)} for lv in (a.recovery.levels if a.recovery else ())],
         "precision": [{"level": lv.level, "series": _series_pct(a.data.precision, lv)} for lv in a.precision],
     }
 
@@ -104,27 +114,66 @@ def _change_data(a, entry: dict) -> dict:
     return out
 
 
+def _readings(results: dict, alpha: float) -> list:
+    """Per analyte: (name, its results.json entry, Reading) of every registry entry with sentences or
+    figures that the analyte has."""
+    from .. import registry
+
+    study = results["study"]
+    out = []
+    for i, a in enumerate(results["analytes"]):
+        reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
+                                   key=str(i))
+        out.append([(e.name, a[e.name], reading) for e in registry.REGISTRY
+                    if (e.sentences or e.figures) and a.get(e.name)])
+    return out
+
+
+def _analyte_figures(d: dict) -> dict:
+    """One analyte's figures: the calibration's and those the characteristics draw from their entries.
+
+    Run in the worker processes (so a module-level function; a characteristic is found by name).
+    """
+    from .. import registry
+
+    drawers = {e.name: e.figures for e in registry.REGISTRY if e.figures}
+    figures = analyte_figures(d)
+    with style():
+        for name, entry, reading in d["characteristics"]:
+            if name in drawers:
+                figures[name] = dict(drawers[name](entry, reading))
+    return figures
+
+
 def render_html(result, results: dict, *, paper: str = "a4") -> str:
     """The dossier as one self-contained HTML document."""
+    from .. import registry
+
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
-    figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i])}
-                               for i, a in enumerate(result.analytes)])
+    readings = _readings(results, alpha)
+    figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i]),
+                                "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
+                              _analyte_figures)
+    sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        analytes.append({"index": i, "data": a, "figures": figures[i],
-                         "text": {**calibration_sentences(a, alpha, study["concentration_unit"]),
-                                  **characteristic_sentences(a, alpha, study["concentration_unit"])}})
+        text = {**calibration_sentences(a, alpha, study["concentration_unit"]),
+                **characteristic_sentences(a, alpha, study["concentration_unit"])}
+        text.update({name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
+                     if name in sentences})
+        analytes.append({"index": i, "data": a, "figures": figures[i], "text": text})
     summary = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j)
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
+    # the characteristics shown in each analyte's section, in registry order (those with a fragment)
+    sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, summary=summary, alpha=alpha,
+        r=results, study=study, analytes=analytes, summary=summary, alpha=alpha, sections=sections,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
-
 
 
 def _url_fetcher():

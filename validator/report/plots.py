@@ -22,7 +22,7 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 
-__all__ = ["PALETTE", "analyte_figures", "figures_for_all"]
+__all__ = ["PALETTE", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg"]
 
 # our own palette: blue / amber / plum / slate, distinguishable with common colour-vision deficiencies
 PALETTE = {"ink": "#1d2430", "data": "#1f5a8c", "fit": "#1d2430", "conf": "#1f5a8c",
@@ -53,6 +53,26 @@ def _points(ax, x, y, marker="o", colour=None, **kw):
     """Open markers: the house style for data points (legible in greyscale)."""
     ax.plot(x, y, marker, markersize=kw.pop("markersize", 3.5), markerfacecolor="white",
             markeredgecolor=colour or PALETTE["data"], **kw)
+
+
+def style():
+    """The house style (a matplotlib rc context) in which every dossier figure is drawn."""
+    return matplotlib.rc_context(_RC)
+
+
+def figure(nrows: int = 1, ncols: int = 1, **kw):
+    """A new figure and its axes (``plt.subplots``), for a characteristic's presentation module."""
+    return plt.subplots(nrows, ncols, **kw)
+
+
+def points(ax, x, y, marker="o", colour=None, **kw):
+    """Data points in the house style (open markers)."""
+    _points(ax, x, y, marker, colour, **kw)
+
+
+def svg(fig, name: str) -> str:
+    """The figure as inline SVG text (closed afterwards); ``name`` makes its element ids unique."""
+    return _svg(fig, name)
 
 
 def _svg(fig, name: str) -> str:
@@ -135,35 +155,20 @@ def _diagnostic_figure(d: dict) -> str:
     return _svg(fig, f"diag{d['key']}")
 
 
-def _trueness_precision_figure(d: dict) -> str:
-    panels = [k for k in ("recovery", "precision") if d.get(k)]
-    fig, axes = plt.subplots(1, len(panels), figsize=(6.4, 2.8), squeeze=False)
-    for ax, kind in zip(axes[0], panels):
-        if kind == "recovery":
-            for i, lv in enumerate(d["recovery"]):
-                lo, hi = lv["range"]
-                ax.fill_between([i - 0.35, i + 0.35], lo, hi, color=PALETTE["band"], linewidth=0)
-                _points(ax, [i] * len(lv["values"]), lv["values"], "o")
-                ax.plot([i - 0.25, i + 0.25], [lv["mean"]] * 2, "-", color=PALETTE["ink"], linewidth=1.4)
-            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
-            ax.set_xticks(range(len(d["recovery"])))
-            ax.set_xticklabels([f"{lv['added']:g}" for lv in d["recovery"]])
-            ax.set_xlabel(f"added ({d['xunit']})")
-            ax.set_ylabel("recovery (%)")
-            ax.set_title("recovery per replicate, mean (bar), range (shaded)", fontsize=8, loc="left")
-        else:
-            markers = "osD^v<>p*h"
-            for i, lv in enumerate(d["precision"]):
-                for j, (series, values) in enumerate(lv["series"]):
-                    xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
-                    _points(ax, xs, values, markers[j % len(markers)],
-                            colour=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
-            ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
-            ax.set_xticks(range(len(d["precision"])))
-            ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
-            ax.set_xlabel(f"level ({d['xunit']})")
-            ax.set_ylabel("% of level mean")
-            ax.set_title("precision results by series (marker = series)", fontsize=8, loc="left")
+def _precision_figure(d: dict) -> str:
+    fig, ax = plt.subplots(figsize=(3.6, 2.8))
+    markers = "osD^v<>p*h"
+    for i, lv in enumerate(d["precision"]):
+        for j, (series, values) in enumerate(lv["series"]):
+            xs = [i + (j - (len(lv["series"]) - 1) / 2) * 0.12] * len(values)
+            _points(ax, xs, values, markers[j % len(markers)],
+                    colour=PALETTE["data"] if j % 2 == 0 else PALETTE["pred"])
+    ax.axhline(100, color=PALETTE["ink"], linewidth=0.6, ls=":")
+    ax.set_xticks(range(len(d["precision"])))
+    ax.set_xticklabels([f"{lv['level']:g}" for lv in d["precision"]])
+    ax.set_xlabel(f"level ({d['xunit']})")
+    ax.set_ylabel("% of level mean")
+    ax.set_title("precision results by series (marker = series)", fontsize=8, loc="left")
     fig.tight_layout()
     return _svg(fig, f"tp{d['key']}")
 
@@ -225,8 +230,8 @@ def _comparison_figure(d: dict) -> str:
 def analyte_figures(d: dict) -> dict:
     with matplotlib.rc_context(_RC):
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
-        if d.get("recovery") or d.get("precision"):
-            figs["trueness_precision"] = _trueness_precision_figure(d)
+        if d.get("precision"):
+            figs["precision"] = _precision_figure(d)
         if d.get("revalidation"):
             figs["revalidation"] = _revalidation_figure(d)
         if d.get("comparison"):
@@ -254,11 +259,14 @@ def _die_with_parent(parent: int) -> None:
         os._exit(1)
 
 
-def figures_for_all(plot_data: list) -> list:
-    """Figures for every analyte; two processes when there are several analytes."""
+def figures_for_all(plot_data: list, draw=analyte_figures) -> list:
+    """``draw(d)`` (the figures of one analyte) for every analyte; two processes when there are several.
+
+    ``draw`` must be a module-level function (it is sent to the worker processes by name).
+    """
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
         with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
                                  initializer=_die_with_parent, initargs=(os.getpid(),)) as pool:
-            return list(pool.map(analyte_figures, plot_data))
-    return [analyte_figures(d) for d in plot_data]
+            return list(pool.map(draw, plot_data))
+    return [draw(d) for d in plot_data]

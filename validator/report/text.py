@@ -146,7 +146,8 @@ def _reason(a: dict, item: str) -> str:
 
 
 def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
-    """Plain-language reading of detection, range, recovery, precision and CRM results."""
+    """Plain-language reading of detection, range and precision results (the characteristics in
+    packages of their own bring their sentences in their ``presentation`` module)."""
     out = {}
     det = a["detection"]
     rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
@@ -178,18 +179,6 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
     else:
         out["working_range"] = (f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {unit} "
                                 f"({wr['basis']}).")
-    rec = a.get("recovery")
-    if rec:
-        failed = [lvl for lvl in rec["levels"] if not lvl["pass"]]
-        out["recovery"] = (f"Mean recovery over all {rec['n']} spiked results is {fmt(rec['overall_mean_pct'], 4)} %. "
-                           + ("Every level's mean lies inside its acceptance range." if not failed else
-                              "The mean recovery is outside its acceptance range at added "
-                              + ", ".join(fmt(lvl["added"]) for lvl in failed) + "."))
-        sig = [lvl for lvl in rec["levels"] if lvl["p_value"] is not None and lvl["p_value"] < alpha]
-        out["recovery_t"] = ("The t test against 100 % finds a significant bias at added "
-                             + ", ".join(fmt(lvl["added"]) for lvl in sig)
-                             + f" (alpha = {alpha:g}); judge whether its size matters against the range."
-                             if sig else f"The t test against 100 % finds no significant bias at any level (alpha = {alpha:g}).")
     prec = a.get("precision")
     if prec:
         parts = []
@@ -215,15 +204,4 @@ def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
                                           + "; these results stay in the estimate and need a reviewer's judgement.")
         else:
             out["precision_outliers"] += " Grubbs' test within a series flags no single result where it applies."
-    rm = a.get("reference_material")
-    if rm:
-        if rm["significant"] is None:
-            out["reference_material"] = f"The reference material bias was not tested: {rm.get('reason') or 'needs at least 2 results'}."
-        else:
-            word = "is" if rm["significant"] else "is not"
-            out["reference_material"] = (
-                f"The mean of {rm['n']} results on the reference material is {fmt(rm['mean'])} {unit} against "
-                f"the certified {fmt(rm['certified_value'])} {unit}: bias {fmt(rm['bias'])} {unit} "
-                f"({fmt(rm['bias_pct'], 3)} %), which {word} significant, since |bias| "
-                f"{'>' if rm['significant'] else '≤'} {fmt(rm['coverage_factor'])}·u = {fmt(rm['expanded_uncertainty'])} {unit}.")
     return out

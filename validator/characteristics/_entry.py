@@ -1,0 +1,64 @@
+"""The shape of a validation characteristic: its registry entry, its step's output, its context.
+
+A characteristic is a sub-package of :mod:`validator.characteristics` whose ``__init__`` holds
+``ENTRY = Characteristic(...)``; :data:`validator.registry.REGISTRY` lists the entries in the
+order they are assessed. Nothing here imports the input, results or report layers: the types
+they hand over (the study configuration, an analyte's data, the reading of the results) are
+only named in annotations.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable, Generic, Mapping, TypeVar
+
+from ..criteria import Criterion
+
+__all__ = ["Characteristic", "Assessment", "Reading"]
+
+R = TypeVar("R")
+
+
+@dataclass(frozen=True)
+class Reading:
+    """What a characteristic's sentences and figures may know besides its results.json entry."""
+
+    alpha: float                 # the study's alpha, to read p-values against
+    unit: str                    # the concentration unit
+    response_unit: str = ""
+    key: str = ""                # unique per analyte in the dossier (prefix of a figure's element ids)
+
+
+@dataclass(frozen=True)
+class Assessment(Generic[R]):
+    """What one characteristic adds: its result (kept in the context under its name) and criteria."""
+
+    result: R
+    criteria: tuple[Criterion, ...] = ()
+
+
+@dataclass(frozen=True)
+class Characteristic(Generic[R]):
+    """A registry entry: everything the pipeline needs to know about one characteristic.
+
+    ``name`` is at once its study-file table, its results.json key, its context key and its
+    template fragment's name. ``assess(ctx)`` returns ``None`` when the characteristic is not
+    assessed for the analyte. ``settings`` is the pydantic model of its ``[name]`` table
+    (``None``: no table); a table whose keys all have defaults is always present, one with a
+    required key is optional unless ``required``. ``load(reader, settings, analytes)`` reads
+    its data file and returns ``{analyte: data}``. ``result_types`` are the dataclasses the
+    ``results.Serialiser`` writes under ``name``. ``sentences(entry, reading)`` and
+    ``figures(entry, reading)`` build the dossier's text and SVG figures from the written
+    results.json entry alone; ``fragment`` is its template.
+    """
+
+    name: str
+    title: str
+    assess: Callable[["AnalyteContext"], Assessment[R] | None]     # validator.engine.AnalyteContext
+    settings: type | None = None
+    required: bool = False
+    load: Callable[..., Mapping[str, Any]] | None = None
+    result_types: tuple[type, ...] = ()
+    sentences: Callable[[dict, Reading], Mapping[str, str]] | None = None
+    figures: Callable[[dict, Reading], Mapping[str, str]] | None = None
+    fragment: str | None = None
