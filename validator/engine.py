@@ -228,8 +228,10 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         done = step.assess(ctx)
         if done is not None:
             ctx = ctx.with_result(step.name, done)
+            if done.provides:
+                ctx = replace(ctx, data=ctx.data.with_entries(done.provides))
     cal = ctx.calibration
-    return AnalyteResult(name=data.name, data=data, calibration=cal, samples=ctx.samples,
+    return AnalyteResult(name=data.name, data=ctx.data, calibration=cal, samples=ctx.samples,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), detection=ctx.detection,
                          working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,

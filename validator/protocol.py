@@ -155,7 +155,10 @@ NOT_CRITERIA = {
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
     "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
+    # the run exports, how their columns and type words map, and which calibration quantifies them
+    "runs": ALL, "columns": ALL, "types": ALL,
 }
+NOT_CRITERIA["calibration"] = NOT_CRITERIA["calibration"] + ("quantify_with",)
 
 
 def normalised(config) -> dict:

@@ -9,13 +9,14 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material
+from .characteristics import _legacy, recovery, reference_material, runs
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
     _legacy.CALIBRATION,             # first: its data name the analytes
+    runs.ENTRY,                      # run exports: each run's calibration gives the found values below
     _legacy.SAMPLES,
     _legacy.DETECTION,
     recovery.ENTRY,

@@ -37,7 +37,9 @@ def _calibration(ctx) -> Assessment:
 
 
 def _samples(ctx) -> Assessment:
-    return Assessment(tuple(quantify(ctx.calibration.fit, s.id, s.responses) for s in ctx.data.samples))
+    # a sample from [[runs]] goes through its run's calibration (SampleData.calibration)
+    return Assessment(tuple(quantify(s.calibration or ctx.calibration.fit, s.id, s.responses)
+                            for s in ctx.data.samples))
 
 
 def _detection(ctx) -> Assessment:

@@ -8,6 +8,7 @@ the pure analysis layer.
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -53,6 +54,8 @@ class SampleData:
     id: str
     responses: tuple[float, ...]
     rows: tuple[int, ...]
+    # the calibration function that quantifies it, when not the analyte's (a run's own; see [[runs]])
+    calibration: Any = field(default=None, repr=False, compare=False)
 
 
 @dataclass(frozen=True)
@@ -86,6 +89,14 @@ class AnalyteData:
     previous: dict[str, Any] | None = field(default=None, repr=False)
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
     entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
+
+    def with_entries(self, provided) -> "AnalyteData":
+        """These data with ``provided`` (name, data) pairs set: a field of that name, else an entry."""
+        fields = {f.name for f in dataclasses.fields(self)}
+        own = {name: value for name, value in provided if name in fields}
+        entries = dict(self.entries)
+        entries.update({name: value for name, value in provided if name not in fields})
+        return dataclasses.replace(self, **own, entries=tuple(entries.items()))
 
     def of(self, name: str) -> Any:
         """The data the characteristic ``name`` read for this analyte (``None``: none)."""
@@ -252,7 +263,7 @@ def analyte_rows(table, analytes: dict, what: str) -> dict:
 
 def _samples(reader: Reader, analytes: dict):
     cfg = reader.study.config
-    if cfg.samples is None:
+    if cfg.samples is None or cfg.samples.data is None:
         return {}
     table = reader.table("samples", cfg.samples, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
@@ -300,7 +311,7 @@ def per_analyte(reader, settings, analytes, role: str, required: tuple, optional
     analyte, and ``make(columns, idx, name)`` builds the data of each analyte that has rows.
     Nothing when ``settings`` is ``None`` (the study has no such table).
     """
-    if settings is None:
+    if settings is None or settings.data is None:      # no table, or its data come from [[runs]]
         return {}
     table = reader.table(role, settings, required, optional)
     columns = prepare(table)
@@ -379,7 +390,13 @@ def load_study(path: str | Path) -> LoadedStudy:
 
     study = read_study_file(path)
     reader = Reader(study)
-    calibration = _calibration(reader)
+    runs = None
+    if study.config.runs:           # the run exports give the calibration, blanks and injections
+        from .runs import load_runs
+        runs = load_runs(reader)
+        calibration = runs.calibration
+    else:
+        calibration = _calibration(reader)
     loaded, previous, run = {}, {}, None
     for entry in registry.REGISTRY:
         if entry.load is not None:
@@ -392,6 +409,9 @@ def load_study(path: str | Path) -> LoadedStudy:
             previous, run = read_previous(reader, calibration)
     excluded = reader.exclusions.check()
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
+    if runs is not None:
+        legacy["detection"] = runs.blanks
+        loaded["runs"] = runs.injections
     analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
                                  legacy["detection"].get(name), legacy["precision"].get(name),
                                  legacy["comparison"].get(name), previous.get(name),

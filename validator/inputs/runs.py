@@ -26,7 +26,7 @@ from ..errors import DataError, StudyError, show
 from .study import INJECTION_TYPES
 from .tables import MAX_NAME_LENGTH
 
-__all__ = ["Injection", "read_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
+__all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
 
 # the types whose level (nominal concentration, or added amount) must be given
 NEEDS_LEVEL = ("calibrator", "qc", "spiked")
@@ -271,3 +271,78 @@ def check_run_calibrations(injections, *, needed: int, pooled: bool) -> None:
                             f"at least {needed} are needed for this model to quantify the run's injections "
                             '(or quantify with a pooled calibration: [calibration] quantify_with = "pooled")',
                             file=inj.file, row=inj.row)
+
+
+@dataclass(frozen=True)
+class RunsData:
+    """What the run exports give each analyte before any fit: its pooled calibrators, its blanks'
+    responses and its injections (``{analyte: ...}``, analytes in order of first appearance)."""
+
+    calibration: dict
+    blanks: dict
+    injections: dict
+
+
+def load_runs(reader) -> RunsData:
+    """Read every ``[[runs]]`` export of the study and check what the fits will need.
+
+    The calibration of each analyte is its calibrator injections of all runs (level,
+    response, the run as series), as a calibration file with a series column would give it.
+    """
+    import numpy as np
+
+    from ..maths.regression import WEIGHTED_BY
+    from .loading import CalibrationData
+    from .sample_ids import check_expected, near_duplicates
+    from .study import ColumnsSection, TypesSection
+
+    cfg = reader.study.config
+    injections = read_runs(reader, cfg.runs, cfg.columns or ColumnsSection(), cfg.types or TypesSection(),
+                           cfg.study.id)
+    pooled = cfg.calibration.quantify_with == "pooled"
+    needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
+    calibration, blanks, grouped = {}, {}, by_analyte(injections)
+    for name, own in grouped.items():
+        cal = [i for i in own if i.type == "calibrator"]
+        if not cal:
+            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run', file=own[0].file,
+                            row=own[0].row)
+        check_run_calibrations(own, needed=needed, pooled=pooled)
+        x = np.array([i.level for i in cal], float)
+        y = np.array([i.response for i in cal], float)
+        if np.unique(x).size < needed:
+            raise DataError(f'analyte "{show(name)}" has {np.unique(x).size} calibrator level(s); at least '
+                            f"{needed} are needed for this model", file=cal[0].file, row=cal[0].row)
+        if np.ptp(y) == 0:
+            raise DataError(f'every calibrator response of analyte "{show(name)}" is {y[0]:g}: the instrument '
+                            "does not respond to concentration", file=cal[0].file, row=cal[0].row)
+        by = WEIGHTED_BY.get(cfg.calibration.weighting)
+        for i in cal:
+            if (by == "concentration" and not i.level > 0) or (by == "response" and not i.response > 0):
+                raise DataError(f"calibrator {show(i.sample)} cannot be weighted by {cfg.calibration.weighting} "
+                                f"(its {by} is {i.level if by == 'concentration' else i.response:g}); use another "
+                                "weighting or leave the injection out ([[exclusions]])", file=i.file, row=i.row)
+        calibration[name] = CalibrationData(x, y, tuple(i.run for i in cal), tuple(i.row for i in cal))
+        blank = [i.response for i in own if i.type == "blank"]
+        if blank:
+            blanks[name] = np.array(blank, float)
+        samples = [i for i in own if i.type == "sample"]
+        if samples and cfg.samples is not None and cfg.samples.expected:
+            check_expected(analyte=name, ids=[i.sample for i in samples], rows=[i.row for i in samples],
+                           file=samples[0].file, expected=tuple(cfg.samples.expected),
+                           expected_readings=cfg.samples.expected_readings, study=reader.study.shown)
+        elif samples:
+            for file in dict.fromkeys(i.file for i in samples):      # rows are named per export
+                own_file = [i for i in samples if i.file == file]
+                reader.near_duplicate_ids.extend(near_duplicates(analyte=name, ids=[i.sample for i in own_file],
+                                                                 rows=[i.row for i in own_file], file=file))
+    for kind, table, what in (("spiked", "recovery", "its acceptance range"), ("qc", "precision", "its limits"),
+                              ("reference", "reference_material", "the certified value")):
+        first = next((i for i in injections if i.type == kind), None)
+        if first is not None and getattr(cfg, table) is None:
+            raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
+                            f"[{table}] table; add it with {what}", file=first.file, row=first.row)
+    if cfg.reference_material is not None and len(grouped) > 1 and cfg.reference_material.analyte is None:
+        raise StudyError("the study covers several analytes; say which one the reference material certifies "
+                         "(analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
+    return RunsData(calibration=calibration, blanks=blanks, injections=grouped)

@@ -132,9 +132,14 @@ class _Section(BaseModel):
 
 
 class DataSource(_Section):
-    """A table that names one data file: CSV text or one sheet of an .xlsx workbook."""
+    """A table that names one data file: CSV text or one sheet of an .xlsx workbook.
 
-    data: DataPath
+    ``data`` is required unless the study gives its data as analytical runs ([[runs]]), whose
+    injections feed the calibration, blanks, samples, recovery, precision and reference
+    material (checked after validation, in :func:`read_study_file`).
+    """
+
+    data: Optional[DataPath] = None
     sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
     header_row: Optional[int] = Field(None, ge=1, le=1_000_000)
 
@@ -166,6 +171,9 @@ class CalibrationSection(DataSource):
     model: Literal["linear", "quadratic", "auto"] = "linear"
     weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
     through_origin: bool = False
+    # with [[runs]]: each run's injections through its own calibration ("run", the default) or one
+    # calibration over every run's calibrators ("pooled")
+    quantify_with: Optional[Literal["run", "pooled"]] = None
 
     @model_validator(mode="after")
     def _origin_linear(self):
@@ -366,6 +374,8 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
     """A table's field of StudyConfig: required; always present when every key has a default; else optional."""
     if required:
         return (model, ...)
+    if issubclass(model, DataSource):     # a data table is there when written, even if only data = ...
+        return (Optional[model], None)
     if all(not f.is_required() for f in model.model_fields.values()):
         return (model, model())
     return (Optional[model], None)
@@ -380,7 +390,10 @@ _OTHER_TABLES = {"study": (StudySection, ...), "calibration": (CalibrationSectio
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None),
                  # data rows left out, each with its reason (validator.inputs.exclusions)
-                 "exclusions": (list[ExclusionEntry], [])}
+                 "exclusions": (list[ExclusionEntry], []),
+                 # analytical runs: the exports, their column mapping and their injection-type words
+                 "runs": (list[RunSource], []), "columns": (Optional[ColumnsSection], None),
+                 "types": (Optional[TypesSection], None)}
 _MODELS: dict = {}
 
 
@@ -670,6 +683,37 @@ def _parse_toml(text: str, shown: str) -> dict:
     return data
 
 
+# tables whose data the injections of [[runs]] give instead of a data file of their own
+RUN_FED = ("calibration", "samples", "blanks", "recovery", "precision", "reference_material")
+
+
+def _check_data_sources(config, shown: str, text: str) -> None:
+    """``data`` is given where a table needs a file, and left out where [[runs]] give the data."""
+    runs = bool(config.runs)
+    for name in type(config).model_fields:
+        table = getattr(config, name)
+        if not isinstance(table, DataSource):
+            continue
+        fed = runs and name in RUN_FED
+        if table.data is None and not fed:
+            raise StudyError("required key is missing", file=shown, key=f"{name}.data")
+        if table.data is not None and fed:
+            raise StudyError(f"the study gives its data as [[runs]], whose injections feed [{name}]; remove "
+                             f"data = ... here (or give every table its own file and no [[runs]])", file=shown,
+                             line=_key_line(text, (name, "data")), key=f"{name}.data", value=table.data)
+        if table.data is None and (table.sheet is not None or table.header_row is not None):
+            raise StudyError("sheet and header_row belong to a data file; this table has none ([[runs]] name "
+                             "theirs)", file=shown, key=f"{name}.sheet" if table.sheet else f"{name}.header_row")
+    if not runs:
+        for name in ("columns", "types"):
+            if getattr(config, name) is not None:
+                raise StudyError(f"[{name}] maps the exports of [[runs]], but the study has no [[runs]]",
+                                 file=shown, line=_key_line(text, (name,)), key=name)
+        if config.calibration.quantify_with is not None:
+            raise StudyError("quantify_with applies to [[runs]], but the study has no [[runs]]", file=shown,
+                             line=_key_line(text, ("calibration", "quantify_with")), key="calibration.quantify_with")
+
+
 def read_study_file(path: str | Path) -> StudyFile:
     """Read and validate a study file (the data files are not opened here)."""
     from .tables import decode_text  # the same UTF-8 rules as data files
@@ -687,6 +731,7 @@ def read_study_file(path: str | Path) -> StudyFile:
         config = study_config_model().model_validate(data)
     except ValidationError as exc:
         raise _translate(exc, shown, text) from None
+    _check_data_sources(config, shown, text)
     if config.study.purpose == "revalidation" and config.revalidation is None:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',

@@ -28,7 +28,9 @@ class ReferenceMaterialSection(DataSource):        # data, and sheet/header_row 
 
 
 def load(reader, settings: ReferenceMaterialSection, analytes) -> dict[str, np.ndarray]:
-    """``{analyte: results}`` for the one analyte the material certifies."""
+    """``{analyte: results}`` for the one analyte the material certifies (none when [[runs]] give them)."""
+    if settings.data is None:
+        return {}
     if settings.analyte is None and len(analytes) > 1:
         raise StudyError("the study covers several analytes; say which one the reference material "
                          "certifies (analyte = ...)", file=reader.study.shown, key="reference_material.analyte")

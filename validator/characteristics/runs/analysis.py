@@ -18,7 +18,6 @@ import numpy as np
 
 from ..._common import quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
-from ..calibration import SampleResult, quantify
 
 __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs"]
 
@@ -183,11 +182,26 @@ class SpikedFound:
 
 @dataclass(frozen=True)
 class QcFound:
-    """QC injections as precision reads them: nominal level, run as series, found."""
+    """QC injections as precision reads them: nominal level, run as series, found - offset.
+
+    ``found`` is centred on the first result, the subtraction done in decimal arithmetic on the
+    shortest text of each float, as for a precision file (``inputs.tables.exact_centre``).
+    """
 
     level: np.ndarray = field(repr=False)
     series: tuple[str, ...] = field(repr=False)
     found: np.ndarray = field(repr=False)
+    offset: float = 0.0
+
+
+@dataclass(frozen=True)
+class RunSample:
+    """A sample's readings in one run, with the run's calibration function that quantifies them."""
+
+    id: str
+    responses: tuple[float, ...]
+    rows: tuple[int, ...]
+    calibration: PolynomialFit = field(repr=False, compare=False)
 
 
 def _usable(result: RunsResult, kind: str) -> tuple[QuantifiedInjection, ...]:
@@ -219,8 +233,11 @@ def qc_found(result: RunsResult) -> QcFound | None:
     qc = _usable(result, "qc")
     if not qc:
         return None
+    from decimal import Decimal
+
+    values = [Decimal(repr(i.found)) for i in qc]
     return QcFound(level=np.array([i.level for i in qc], float), series=tuple(i.run for i in qc),
-                   found=np.array([i.found for i in qc]))
+                   found=np.array([float(v - values[0]) for v in values]), offset=float(values[0]))
 
 
 def reference_found(result: RunsResult) -> np.ndarray | None:
@@ -229,11 +246,11 @@ def reference_found(result: RunsResult) -> np.ndarray | None:
     return np.array([i.found for i in ref]) if ref else None
 
 
-def sample_results(result: RunsResult) -> tuple[SampleResult, ...]:
-    """Each sample's readings quantified through its run's calibration, with s(x0) and its interval.
+def run_samples(result: RunsResult) -> tuple[RunSample, ...]:
+    """Each sample's readings in a run, to be quantified through that run's calibration.
 
-    A sample's readings in one run are one result (the mean response read back, as for the
-    samples file); a sample measured in several runs gives one result per run, labelled
+    A sample's readings in one run are one result (their mean response read back, with s(x0), as
+    for the samples file); a sample measured in several runs gives one result per run, labelled
     "id (run)".
     """
     used = {c.run: c for c in result.calibrations}
@@ -245,7 +262,7 @@ def sample_results(result: RunsResult) -> tuple[SampleResult, ...]:
         runs_of.setdefault(sample, []).append(run)
     out = []
     for (sample, run), injections in groups.items():
-        c = used[injections[0].calibration]
         label = sample if len(runs_of[sample]) == 1 else f"{sample} ({run})"
-        out.append(quantify(c.fit, label, [i.response for i in injections]))
+        out.append(RunSample(label, tuple(i.response for i in injections), tuple(i.row for i in injections),
+                             used[injections[0].calibration].fit))
     return tuple(out)
