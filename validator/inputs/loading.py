@@ -20,7 +20,7 @@ from .exclusions import Excluded, Exclusions
 from .sample_ids import NearDuplicateIds, check_expected, near_duplicates
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
-from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, first_out_of_range
+from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, PolynomialFit, first_out_of_range
 from .previous import PreviousRun, read_previous
 from .study import StudyFile, read_study_file
 
@@ -55,7 +55,7 @@ class SampleData:
     responses: tuple[float, ...]
     rows: tuple[int, ...]
     # the calibration function that quantifies it, when not the analyte's (a run's own; see [[runs]])
-    calibration: Any = field(default=None, repr=False, compare=False)
+    calibration: PolynomialFit | None = field(default=None, repr=False, compare=False)
 
 
 @dataclass(frozen=True)
