@@ -34,7 +34,7 @@ CATALOGUE = [
     ("template-override", CALIB + '[report]\ntemplate = "mine.html"\n', None, "",
      "{dir}/study.toml, line 8, key report: unknown section; allowed: study, calibration, samples, "
      "criteria, blanks, detection, recovery, precision, reference_material, revalidation, comparison, exclusions, "
-     "design, protocol"),
+     "runs, columns, types, design, protocol"),
     ("data-missing", '[calibration]\ndata = "nope.csv"\n', {}, "",
      "nope.csv: data file not found (looked for {dir}/nope.csv); `validator protocol` works without data, "
      "`check` and `run` need it"),
