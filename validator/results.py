@@ -264,7 +264,9 @@ SERIALISED = {"detection": (DetectionResult, LoqCheck), "working_range": (Workin
 # not named here follows them in registry order
 _SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recovery", "precision",
                   "reference_material", "revalidation", "comparison")
-SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison")
+SECTIONS = ("recovery", "precision", "reference_material", "revalidation", "comparison") + tuple(
+    e.name for e in registry.REGISTRY      # a registry entry not assessed is null, said by characteristics_assessed
+    if e.result_types and e.name not in ("recovery", "precision", "reference_material", "revalidation", "comparison"))
 _REASON_FIELDS = ("reason", "note", "notes")
 
 
