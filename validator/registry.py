@@ -9,7 +9,7 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material, runs
+from .characteristics import _legacy, recovery, reference_material, reporting, runs
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -18,6 +18,7 @@ REGISTRY: tuple[Characteristic, ...] = (
     _legacy.CALIBRATION,             # first: its data name the analytes
     runs.ENTRY,                      # run exports: each run's calibration gives the found values below
     _legacy.SAMPLES,
+    reporting.ENTRY,                 # the samples in the reporting unit (preparation factors)
     _legacy.DETECTION,
     recovery.ENTRY,
     _legacy.PRECISION,

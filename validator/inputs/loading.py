@@ -380,6 +380,20 @@ def _comparison(reader, analytes):
 _LEGACY_LOADERS = {"samples": _samples, "detection": _blanks, "precision": _precision, "comparison": _comparison}
 
 
+def _check_preparations(study, samples: dict, runs) -> None:
+    """Every per-sample preparation in [reporting] names a sample of the data (else it would apply to nothing)."""
+    reporting = getattr(study.config, "reporting", None)
+    if reporting is None or not reporting.samples:
+        return
+    ids = {s.id for group in samples.values() for s in group}
+    if runs is not None:
+        ids |= {i.sample for group in runs.injections.values() for i in group if i.type == "sample"}
+    for sid in reporting.samples:
+        if sid not in ids:
+            raise StudyError(f'no sample has the id "{show(sid)}", so this preparation would apply to nothing',
+                             file=study.shown, key=f"reporting.samples.{sid}", value=sid)
+
+
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files.
 
@@ -412,6 +426,7 @@ def load_study(path: str | Path) -> LoadedStudy:
     if runs is not None:
         legacy["detection"] = runs.blanks
         loaded["runs"] = runs.injections
+    _check_preparations(study, legacy["samples"], runs)
     analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
                                  legacy["detection"].get(name), legacy["precision"].get(name),
                                  legacy["comparison"].get(name), previous.get(name),

@@ -1,0 +1,29 @@
+"""Sample preparation and reporting units: each sample's result in the reporting unit.
+
+The study's ``[reporting]`` table (:mod:`.settings`) gives the reporting unit and each sample's
+dilution factor, aliquot and final volume; :mod:`.analysis` multiplies the sample's x0, s(x0) and
+interval by the factor; the chain is kept for the audit trail; ``report_templates/
+characteristics/reporting.html.j2`` shows it.
+"""
+
+from __future__ import annotations
+
+from .._entry import Assessment, Characteristic
+from . import presentation, settings
+from .analysis import ReportedSample, ReportingResult, report_samples
+
+__all__ = ["ENTRY", "ReportingResult", "ReportedSample", "report_samples"]
+
+
+def assess(ctx) -> Assessment[ReportingResult] | None:
+    cfg = ctx.settings_of(ENTRY)
+    if cfg is None or not ctx.samples:
+        return None
+    return Assessment(report_samples(ctx.samples, unit=cfg.unit, measured_unit=ctx.unit,
+                                     preparation_of=cfg.preparation_of))
+
+
+ENTRY: Characteristic[ReportingResult] = Characteristic(
+    "reporting", "Results in the reporting unit", assess, settings=settings.ReportingSection,
+    result_types=(ReportingResult, ReportedSample), sentences=presentation.sentences,
+    fragment="characteristics/reporting.html.j2")
