@@ -44,6 +44,7 @@ BASE = {
                            "standard_uncertainty": "0.15"},
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
+    "reporting": {"unit": '"mg/kg"', "aliquot": "2.0", "final_volume": "10.0"},
 }
 DATA = {"anions-drinking-water": ["calibration.csv", "samples.csv", "blanks.csv", "recovery.csv",
                                   "precision.csv", "crm.csv"],

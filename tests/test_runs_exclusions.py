@@ -78,3 +78,37 @@ def test_an_exclusion_needs_a_reason(make_study, capsys):
                        {"calibration.csv": CALIBRATION, "samples.csv": SAMPLES})
     assert main(["check", str(study)]) == 2
     assert "key exclusions.0.reason: must not be blank" in capsys.readouterr().err
+
+
+def test_an_injection_excluded_by_run_and_name_equals_the_same_row_excluded_by_file(tmp_path, outside):
+    # the LC-MS/MS example excludes run-2.csv row 11 ("QC 1.5-2"); by run and injection name it is the same point
+    import shutil
+
+    from conftest import REPO
+
+    example = REPO / "example_studies" / "marbofloxacin-milk-runs"
+    for name in ("run-1.xlsx", "run-2.csv", "run-3.csv", "study.toml"):
+        shutil.copy(example / name, tmp_path / name)
+    text = (tmp_path / "study.toml").read_text(encoding="utf-8")
+    assert 'file = "run-2.csv"\nrow = 11\n' in text
+    (tmp_path / "study.toml").write_text(text.replace('file = "run-2.csv"\nrow = 11\n',
+                                                      'run = "run-2"\ninjection = "QC 1.5-2"\n'), encoding="utf-8")
+    by_name = run(tmp_path / "study.toml", outside / "name")
+    by_row = run(example / "study.toml", outside / "row")
+    assert by_name["analytes"] == by_row["analytes"]
+    assert by_name["exclusions"][0]["row"] == 11 and by_name["exclusions"][0]["file"] == "run-2.csv"
+
+
+def test_an_injection_name_matching_two_injections_is_refused(tmp_path, capsys):
+    import shutil
+
+    from conftest import REPO
+
+    example = REPO / "example_studies" / "marbofloxacin-milk-runs"
+    for name in ("run-1.xlsx", "run-2.csv", "run-3.csv", "study.toml"):
+        shutil.copy(example / name, tmp_path / name)
+    text = (tmp_path / "study.toml").read_text(encoding="utf-8")
+    (tmp_path / "study.toml").write_text(text.replace('file = "run-2.csv"\nrow = 11\n',
+                                                      'run = "run-2"\ninjection = "Milk A"\n'), encoding="utf-8")
+    assert main(["check", str(tmp_path / "study.toml")]) == 2
+    assert 'run "run-2" has 2 injections named "Milk A"' in capsys.readouterr().err

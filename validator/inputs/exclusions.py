@@ -84,6 +84,8 @@ class Exclusions:
         sheet = getattr(table, "sheet", None) or None
         drop = {}
         for i, e in enumerate(self.entries):
+            if e.file is None:              # by run and injection: see apply_injections
+                continue
             if not _same_file(self.resolve(e.file), resolved):
                 continue
             if e.sheet is not None and e.sheet != sheet:
@@ -114,10 +116,40 @@ class Exclusions:
             changes["kinds"] = {n: tuple(v[k] for k in keep) for n, v in table.kinds.items()}
         return dataclasses.replace(table, **changes)
 
+    def apply_injections(self, injections) -> tuple:
+        """``injections`` without those the study excludes by run and injection name (one each)."""
+        keep = list(injections)
+        for i, e in enumerate(self.entries):
+            if e.run is None:
+                continue
+            hits = [inj for inj in keep if inj.run == e.run and inj.sample == e.injection]
+            if len(hits) > 1:
+                rows = ", ".join(f"{show(h.file)} row {h.row}" for h in hits[:5])
+                raise StudyError(f'run "{show(e.run)}" has {len(hits)} injections named "{show(e.injection)}" '
+                                 f"({rows}); exclude one by file and row instead", file=self.study,
+                                 key=f"exclusions[{i}]", value=e.injection)
+            if not hits:
+                continue
+            inj = hits[0]
+            keep.remove(inj)
+            self._sheets.setdefault(i, set()).add(inj.sheet)
+            cells = (("run", inj.run), ("injection", inj.sample), ("type", inj.type),
+                     ("level", "" if inj.level is None else repr(inj.level)),
+                     ("response", repr(inj.analyte_response)))
+            if inj.internal_standard_response is not None:
+                cells += (("internal standard", repr(inj.internal_standard_response)),)
+            self.applied.append(Excluded(index=i, file=inj.file, sheet=inj.sheet, row=inj.row, role="runs",
+                                         reason=e.reason, who=e.who, cells=cells))
+        return tuple(keep)
+
     def check(self) -> tuple[Excluded, ...]:
         """Every exclusion matched exactly one row; the rows left out, in the study's order."""
         for i, e in enumerate(self.entries):
             sheets = self._sheets.get(i)
+            if not sheets and e.run is not None:
+                raise StudyError(f'run "{show(e.run)}" has no injection "{show(e.injection)}", so this exclusion '
+                                 "would leave nothing out", file=self.study, key=f"exclusions[{i}]",
+                                 value=e.injection)
             if not sheets:
                 where = f", sheet {show(e.sheet)}" if e.sheet is not None else ""
                 raise StudyError(f"{show(e.file)}{where} has no data row {e.row} read by this study, so this "

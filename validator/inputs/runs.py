@@ -115,7 +115,7 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
         table = reader.table("runs", source, required, optional, other_columns="ignore")
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
-    return _match_matrices(out)
+    return _match_matrices(reader.exclusions.apply_injections(out))
 
 
 def _match_matrices(injections) -> tuple:

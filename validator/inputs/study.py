@@ -354,13 +354,32 @@ class TypesSection(_Section):
 
 
 class ExclusionEntry(_Section):
-    """One ``[[exclusions]]`` table: a data row left out of the statistics, with its reason."""
+    """One ``[[exclusions]]`` table: a data row left out of the statistics, with its reason.
 
-    file: DataPath
+    Either ``file`` (and ``sheet`` for a workbook) and ``row``, or ``run`` and ``injection`` (the
+    injection's name in that run's export, when the study gives its data as [[runs]]).
+    """
+
+    file: Optional[DataPath] = None
     sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
-    row: int = Field(ge=2, le=10_000_000)        # a data row: the header is row 1 at the earliest
+    row: Optional[int] = Field(None, ge=2, le=10_000_000)     # a data row: the header is row 1 at the earliest
+    run: Optional[Label] = None
+    injection: Optional[Label] = None
     reason: Text = Field(min_length=1, max_length=TEXT_LIMITS["notes"], pattern=r"\S")
     who: Text = _text("analyst")
+
+    @model_validator(mode="after")
+    def _one_way(self):
+        by_file = self.file is not None or self.row is not None or self.sheet is not None
+        by_run = self.run is not None or self.injection is not None
+        if by_file == by_run:
+            raise ValueError("name the excluded point either by file and row (file = ..., row = ...) or by run "
+                             "and injection (run = ..., injection = ...)")
+        if by_file and (self.file is None or self.row is None):
+            raise ValueError("an exclusion by file needs both file = ... and row = ...")
+        if by_run and (self.run is None or self.injection is None):
+            raise ValueError("an exclusion by run needs both run = ... and injection = ...")
+        return self
 
 
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
