@@ -45,6 +45,35 @@ BASE = {
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
     "reporting": {"unit": '"mg/kg"', "aliquot": "2.0", "final_volume": "10.0"},
+    # the sector characteristics (issue #15), on small files written by the data_folder fixture
+    "limit_of_blank": {"blanks": '"lob-blanks.csv"', "low_samples": '"lob-low.csv"', "loq_max_cv_pct": "20",
+                       "lob_max": "0.5"},
+    "method_detection_limit": {"spiked": '"mdl-spiked.csv"', "blanks": '"mdl-blanks.csv"', "mdl_max": "1"},
+    "matrix_effect": {"solvent_data": '"me-solvent.csv"', "lots_data": '"me-lots.csv"', "factor_data": '"me-factor.csv"'},
+    "carry_over": {"data": '"carry.csv"'},
+    "selectivity": {"data": '"selectivity.csv"'},
+    "stability": {"data": '"stability.csv"'},
+    "dilution_integrity": {"data": '"dilution.csv"'},
+    "reanalysis": {"data": '"isr.csv"'},
+}
+SECTOR_FILES = {     # invented demo data for the nitrate analyte of the anions example
+    "lob-blanks.csv": "analyte,found\n" + "".join(f"nitrate,{0.01 * i}\n" for i in range(12)),
+    "lob-low.csv": "analyte,sample,found,nominal\n" + "".join(f"nitrate,L{k},{k + 0.01 * i},{k}\n"
+                                                              for k in (1, 2) for i in range(-2, 3)),
+    "mdl-spiked.csv": "analyte,found\n" + "".join(f"nitrate,{v}\n" for v in (0.52, 0.48, 0.55, 0.47, 0.5, 0.53, 0.49)),
+    "mdl-blanks.csv": "analyte,found\n" + "".join(f"nitrate,{v}\n" for v in ("ND", "0.02", "", "0.05", "ND", "0.01", "ND")),
+    "me-solvent.csv": "analyte,concentration,response\n" + "".join(f"nitrate,{x},{0.2 * x + 0.001 * i}\n"
+                                                                   for x in (1, 5, 10, 20, 40) for i in (0, 1)),
+    "me-lots.csv": "analyte,lot,nominal,found\n" + "".join(f"nitrate,P{k},3,{3 + 0.05 * i}\n"
+                                                           for k in range(1, 7) for i in (-1, 0, 1)),
+    "me-factor.csv": "analyte,lot,analyte_response,internal_standard_response\nnitrate,neat,100,50\n"
+                     + "".join(f"nitrate,P{k},{90 + k},{46 + k}\n" for k in range(1, 7)),
+    "carry.csv": "analyte,kind,response\nnitrate,lloq,100\nnitrate,lloq,104\nnitrate,blank,3\n",
+    "selectivity.csv": "analyte,lot,kind,response\nnitrate,,lloq,100\n" + "".join(f"nitrate,B{k},blank,{k}\n"
+                                                                               for k in range(1, 7)),
+    "stability.csv": "analyte,condition,nominal,found\n" + "".join(f"nitrate,bench-top,3,{v}\n" for v in (2.9, 3, 3.1)),
+    "dilution.csv": "analyte,factor,nominal,found\n" + "".join(f"nitrate,10,100,{v}\n" for v in (9.8, 10, 10.2, 9.9, 10.1)),
+    "isr.csv": "analyte,sample,original,repeat\n" + "".join(f"nitrate,S{i},{10 + i},{10.5 + i}\n" for i in range(6)),
 }
 DATA = {"anions-drinking-water": ["calibration.csv", "samples.csv", "blanks.csv", "recovery.csv",
                                   "precision.csv", "crm.csv"],
@@ -147,6 +176,8 @@ def data_folder(tmp_path_factory):
     for example, names in DATA.items():
         for name in names:
             shutil.copy(REPO / "example_studies" / example / name, folder / name)
+    for name, text in SECTOR_FILES.items():
+        (folder / name).write_text(text, encoding="utf-8")
     return folder
 
 

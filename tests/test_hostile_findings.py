@@ -116,7 +116,7 @@ def test_an_loq_above_every_calibrator_fails_the_working_range(make_study, outsi
 def test_working_range_criterion_counts_passing_levels_inside():
     # hand computation: passing calibrators 1, 2, 5, 10 with LOQ 1.5 leave 2, 5, 10 inside [1.5, 10]
     from validator.characteristics.calibration import BackCalculated
-    from validator.criteria import working_range_criterion
+    from validator.characteristics.working_range import working_range_criterion
     from validator.characteristics.working_range import working_range
     back = [BackCalculated(c, 0.0, c, 0.0, 15.0, True) for c in (1.0, 2.0, 5.0, 10.0)]
     wr = working_range(back, 1.5, "ich-residual-sd", [], [])

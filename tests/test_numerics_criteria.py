@@ -10,10 +10,9 @@ import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from validator.characteristics.comparison import assess_comparison
-from validator.characteristics.working_range import LoqLevel
-from validator.criteria import (Criterion, at_least, at_most, comparison_criteria, interval_within, loq_criterion,
-                                overall_verdict)
+from validator.characteristics.comparison import assess_comparison, comparison_criteria
+from validator.characteristics.working_range import LoqLevel, loq_criterion
+from validator.criteria import Criterion, at_least, at_most, interval_within, overall_verdict
 from validator.engine import analyse_study
 from validator.inputs.loading import load_study
 

@@ -65,7 +65,7 @@ def test_package_digest_rule(qualified):
     digest = json.loads((out / "qualification.json").read_text())["package_digest"]
     names = [f["file"] for f in digest["files"]]
     assert names == sorted(names)
-    assert any(n.endswith("validator/characteristics/calibration.py") for n in names)
+    assert any(n.endswith("validator/characteristics/calibration/analysis.py") for n in names)
     assert any(n.endswith("qualification.html.j2") for n in names)
     assert any(n.startswith("validator/reference_data/nist-strd/") for n in names)
     text = "".join(f"{f['sha256']}  {f['file']}\n" for f in digest["files"])

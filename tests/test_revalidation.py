@@ -109,6 +109,6 @@ def test_a_run_compared_with_itself_is_equivalent():
         run = RunSummary.from_results(a)
         r = assess_revalidation(run, run, slope_change_max_pct=5, residual_sd_ratio_max=2)
         assert r.slope.change_pct == 0 and r.slope.verdict == "equivalent"
-        assert r.residual_sd_ratio == 1 and r.residual_sd_pvalue == pytest.approx(1)
+        assert r.residual_sd.ratio == 1 and r.residual_sd.pvalue == pytest.approx(1)
         assert r.recovery.welch_pvalue == pytest.approx(1) and r.recovery.variance_f_pvalue == pytest.approx(1)
         assert all(c.f_pvalue == pytest.approx(1) for c in r.repeatability) and r.repeatability

@@ -15,13 +15,10 @@ from scipy import stats
 
 from . import registry
 from ._common import quiet_numpy
+from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
-from .characteristics.calibration import CalibrationResult, SampleResult
-from .characteristics.comparison import ComparisonResult
-from .characteristics.detection import DetectionResult
+from .characteristics.calibration import CalibrationResult
 from .characteristics.precision import PrecisionLevel
-from .characteristics.revalidation import RevalidationResult
-from .characteristics.working_range import LoqCheck, WorkingRange
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -34,8 +31,7 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
 R = TypeVar("R")
 
 # the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("calibration", "samples", "detection", "precision", "loq_check", "working_range", "comparison",
-           "revalidation")
+_LEGACY = ("precision",)
 
 
 def __getattr__(name):
@@ -117,17 +113,11 @@ def residual_series(fit) -> ResidualSeries:
 class AnalyteResult:
     name: str
     data: AnalyteData = field(repr=False)
-    calibration: CalibrationResult = field(repr=False)
-    samples: tuple[SampleResult, ...]
+    calibration: CalibrationResult = field(repr=False)       # the result of the registry's first entry
     criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
-    detection: DetectionResult | None = None
-    working_range: WorkingRange | None = None
-    loq_check: LoqCheck | None = None
     precision: tuple[PrecisionLevel, ...] = ()           # one per level
-    revalidation: RevalidationResult | None = None
-    comparison: ComparisonResult | None = None
     # (name, result) of every assessed characteristic without a field above, in registry order
     results: tuple[tuple[str, Any], ...] = ()
 
@@ -137,18 +127,22 @@ class AnalyteResult:
 
     @property
     def characteristics(self) -> tuple:
-        """The names of the characteristics assessed (results.json ``characteristics_assessed``)."""
+        """The names of the characteristics assessed (results.json ``characteristics_assessed``): those
+        results.json always listed, in its order, then the others in registry order."""
         out = ["calibration", "detection", "working_range"]
-        if self.samples:
-            out.append("samples")
-        for name in ("recovery", "precision", "reference_material", "revalidation", "comparison"):
-            if _result(self, name):
-                out.append(name)
-        return tuple(out) + tuple(name for name, _ in self.results if name not in out)
+        out += [name for name in _LISTED_WHEN_ASSESSED if _result(self, name)]
+        inside = {e.name for e in registry.REGISTRY if e.json_path}      # listed with the section holding it
+        return tuple(out) + tuple(name for name, _ in self.results
+                                  if name not in out and name not in _LISTED_WHEN_ASSESSED and name not in inside)
 
     @property
     def verdict(self) -> str:
         return overall_verdict(self.criteria)
+
+
+# results.json's characteristics_assessed: calibration, detection and working range always, then these
+# (in this order) when they have a result for the analyte, then any other characteristic in registry order
+_LISTED_WHEN_ASSESSED = ("samples", "recovery", "precision", "reference_material", "revalidation", "comparison")
 
 
 def _result(holder, name: str):
@@ -185,14 +179,7 @@ class AnalyteContext:
     data: AnalyteData
     config: StudyConfig
     unit: str = ""
-    calibration: CalibrationResult | None = None
-    samples: tuple[SampleResult, ...] = ()
-    detection: DetectionResult | None = None
     precision: tuple[PrecisionLevel, ...] = ()
-    loq_check: LoqCheck | None = None
-    working_range: WorkingRange | None = None
-    comparison: ComparisonResult | None = None
-    revalidation: RevalidationResult | None = None
     criteria: tuple[Criterion, ...] = ()
     # (name, result) of every assessed characteristic without a field above, in registry order
     results: tuple[tuple[str, Any], ...] = ()
@@ -230,12 +217,11 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
             ctx = ctx.with_result(step.name, done)
             if done.provides:
                 ctx = replace(ctx, data=ctx.data.with_entries(done.provides))
-    cal = ctx.calibration
-    return AnalyteResult(name=data.name, data=ctx.data, calibration=cal, samples=ctx.samples,
+    cal = ctx.result_of(calibration.ENTRY)
+    return AnalyteResult(name=data.name, data=ctx.data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit), detection=ctx.detection,
-                         working_range=ctx.working_range, loq_check=ctx.loq_check, precision=ctx.precision,
-                         revalidation=ctx.revalidation, comparison=ctx.comparison, results=ctx.results)
+                         residual_views=residual_series(cal.fit), precision=ctx.precision,
+                         results=ctx.results)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

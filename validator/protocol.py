@@ -130,7 +130,7 @@ ALL = "*"
 # section -> the keys of that section that are design or acceptance criteria ("*": every key).
 # A section absent from the study normalises to null, so adding or removing one is a deviation.
 CRITERIA_AND_DESIGN = {
-    "study": ("purpose", "concentration_unit"),     # the unit gives every level and limit its meaning
+    "study": ("purpose", "concentration_unit", "guideline"),     # the unit gives every level and limit its meaning
     "calibration": ("model", "weighting", "through_origin"),
     "criteria": ALL,
     "detection": ALL,
@@ -143,7 +143,23 @@ CRITERIA_AND_DESIGN = {
     "samples": (),                                   # present or not: which characteristics are assessed
     "blanks": (),
     "design": ALL,
+    # the sector characteristics (issue #15): every key but where the data are
+    "limit_of_blank": ("method", "purpose", "percentile", "loq_max_cv_pct", "loq_max_total_error", "lob_max",
+                       "lod_max", "loq_max"),
+    "method_detection_limit": ("confidence", "mdl_max"),
+    "matrix_effect": ("variance", "limit_pct", "judge_slope_ratio", "lot_max_bias_pct", "lot_max_cv_pct", "min_lots",
+                      "min_replicates", "factor_max_cv_pct"),
+    "carry_over": ("analyte_limit_pct", "internal_standard_limit_pct"),
+    "selectivity": ("analyte_limit_pct", "internal_standard_limit_pct", "min_lots", "min_fraction"),
+    "stability": ("reference", "limit_pct", "judged_on", "min_replicates"),
+    "dilution_integrity": ("max_bias_pct", "max_cv_pct", "min_replicates"),
+    "reanalysis": ("limit_pct", "min_fraction"),
 }
+# added after protocols were first written: absent (or, for a key, null) they are left out of the
+# normalised dict, so that the digest of a study that does not use them is unchanged
+LATER_ADDITIONS = {"study": ("guideline",), "limit_of_blank": ALL, "method_detection_limit": ALL,
+                   "matrix_effect": ALL, "carry_over": ALL, "selectivity": ALL, "stability": ALL,
+                   "dilution_integrity": ALL, "reanalysis": ALL}
 # every other key, and why it is left out (tests check the two lists cover the whole schema)
 NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
@@ -154,6 +170,9 @@ NOT_CRITERIA = {
     "samples": ("data", "sheet", "header_row", "expected", "expected_readings"),   # plus the ids to check
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
+    "limit_of_blank": ("blanks", "low_samples"), "method_detection_limit": ("spiked", "blanks"),
+    "matrix_effect": ("solvent_data", "lots_data", "factor_data"), "carry_over": ("data",),
+    "selectivity": ("data",), "stability": ("data",), "dilution_integrity": ("data",), "reanalysis": ("data",),
     "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
     # the run exports, how their columns and type words map, and which calibration quantifies them
     "runs": ALL, "columns": ALL, "types": ALL,
@@ -168,6 +187,8 @@ def normalised(config) -> dict:
     out = {}
     for section, keys in CRITERIA_AND_DESIGN.items():
         value = dumped.get(section)
+        if value is None and LATER_ADDITIONS.get(section) == ALL:
+            continue
         if value is None:
             out[section] = None
         elif keys == ALL:
@@ -175,7 +196,8 @@ def normalised(config) -> dict:
         elif not keys:
             out[section] = "assessed"       # only whether the characteristic is assessed counts
         else:
-            out[section] = {k: value[k] for k in keys if k in value}
+            out[section] = {k: value[k] for k in keys if k in value
+                            and not (value[k] is None and k in LATER_ADDITIONS.get(section, ()))}
     return out
 
 
@@ -471,11 +493,11 @@ def design_deviations(design, analytes) -> list:
         if design.precision is not None and a.precision is not None:
             out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
         for name, planned, seen in (
-                ("blanks.count", design.blanks and design.blanks.count, a.blanks),
+                ("blanks.count", design.blanks and design.blanks.count, a.of("blanks")),
                 ("reference_material.replicates",
                  design.reference_material and design.reference_material.replicates, a.of("reference_material")),
                 ("comparison.samples", design.comparison and design.comparison.samples,
-                 None if a.comparison is None else a.comparison[0])):
+                 None if a.of("comparison") is None else a.of("comparison").samples)):
             if planned and seen is not None and len(seen) != planned:
                 out.append(Deviation(f"design.{name}", planned, len(seen), a.name))
     return out

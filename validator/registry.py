@@ -9,22 +9,35 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import _legacy, recovery, reference_material, reporting, runs
+from .characteristics import (_legacy, calibration, carry_over, comparison, detection, dilution_integrity,
+                              limit_of_blank, matrix_effect, method_detection_limit, reanalysis, recovery,
+                              reference_material, reporting, revalidation, runs, samples, selectivity, stability,
+                              working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
-    _legacy.CALIBRATION,             # first: its data name the analytes
+    calibration.ENTRY,               # first: its data name the analytes
     runs.ENTRY,                      # run exports: each run's calibration gives the found values below
-    _legacy.SAMPLES,
+    samples.ENTRY,
     reporting.ENTRY,                 # the samples in the reporting unit (preparation factors)
-    _legacy.DETECTION,
+    detection.BLANKS,
+    detection.ENTRY,
     recovery.ENTRY,
     _legacy.PRECISION,
     reference_material.ENTRY,
-    _legacy.LOQ_CHECK,
-    _legacy.WORKING_RANGE,
-    _legacy.COMPARISON,
-    _legacy.REVALIDATION,
+    working_range.LOQ_CHECK,
+    working_range.ENTRY,
+    # the sector characteristics (issue #15)
+    limit_of_blank.ENTRY,
+    method_detection_limit.ENTRY,
+    matrix_effect.ENTRY,
+    carry_over.ENTRY,
+    selectivity.ENTRY,
+    stability.ENTRY,
+    dilution_integrity.ENTRY,
+    reanalysis.ENTRY,
+    comparison.ENTRY,
+    revalidation.ENTRY,
 )

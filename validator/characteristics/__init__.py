@@ -1,5 +1,5 @@
-"""The validation characteristics. Each new one is a package (``recovery/``,
-``reference_material/``) holding its study-file table and loader, its pure analysis and
-criteria, its sentences and figures, and its registry entry; the others (calibration,
-detection, precision, working range with the LOQ verification, method comparison,
-re-validation) are still modules whose registry steps are in ``_legacy``."""
+"""The validation characteristics, one package each (calibration, samples, detection with the
+blanks, recovery, reference material, working range with the LOQ verification, method
+comparison, re-validation), each holding its study-file table and loader, its pure analysis
+and criteria, its sentences and figures, and its registry entry (see validator.registry).
+Precision is still a module (``precision.py``) whose registry step is in ``_legacy``."""

@@ -52,7 +52,10 @@ class Characteristic(Generic[R]):
     its data file and returns ``{analyte: data}``. ``result_types`` are the dataclasses the
     ``results.Serialiser`` writes under ``name``. ``sentences(entry, reading)`` and
     ``figures(entry, reading)`` build the dossier's text and SVG figures from the written
-    results.json entry alone; ``fragment`` is its template.
+    results.json entry alone; ``fragment`` is its template. ``json_path`` writes the result
+    inside an earlier entry's section instead of under its own name (the LOQ verification is
+    ``"detection.loq_verification"``). ``record(result)``, when given, makes the dataclass that
+    results.json writes for a result that holds more than it shows (the calibration's fit).
     """
 
     name: str
@@ -65,3 +68,10 @@ class Characteristic(Generic[R]):
     sentences: Callable[[dict, Reading], Mapping[str, str]] | None = None
     figures: Callable[[dict, Reading], Mapping[str, str]] | None = None
     fragment: str | None = None
+    json_path: str | None = None
+    record: Callable[[R], Any] | None = None
+
+    @property
+    def written_at(self) -> str:
+        """Its path in an analyte's results.json entry."""
+        return self.json_path or self.name

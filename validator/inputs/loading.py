@@ -8,21 +8,25 @@ the pure analysis layer.
 
 from __future__ import annotations
 
-import dataclasses
 import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+import dataclasses
 
 import numpy as np
 
 from .exclusions import Excluded, Exclusions
-from .sample_ids import NearDuplicateIds, check_expected, near_duplicates
+from .sample_ids import NearDuplicateIds
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
-from ..maths.regression import MAGNITUDE_LIMIT, WEIGHTED_BY, PolynomialFit, first_out_of_range
-from .previous import PreviousRun, read_previous
+from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
+from .previous import PreviousRun
 from .study import StudyFile, read_study_file
+
+if TYPE_CHECKING:
+    from ..characteristics.calibration.settings import CalibrationData
 
 __all__ = ["InputFile", "AnalyteData", "LoadedStudy", "Reader", "load_study", "per_analyte", "analyte_rows",
            "numeric_column", "check_positive", "declared_levels_exist"]
@@ -42,23 +46,6 @@ class InputFile:
 
 
 @dataclass(frozen=True)
-class CalibrationData:
-    concentration: np.ndarray = field(repr=False)
-    response: np.ndarray = field(repr=False)
-    series: tuple[str, ...] = field(repr=False)
-    rows: tuple[int, ...] = field(repr=False)
-
-
-@dataclass(frozen=True)
-class SampleData:
-    id: str
-    responses: tuple[float, ...]
-    rows: tuple[int, ...]
-    # the calibration function that quantifies it, when not the analyte's (a run's own; see [[runs]])
-    calibration: PolynomialFit | None = field(default=None, repr=False, compare=False)
-
-
-@dataclass(frozen=True)
 class PrecisionData:
     level: np.ndarray = field(repr=False)
     series: tuple[str, ...] = field(repr=False)
@@ -67,26 +54,12 @@ class PrecisionData:
 
 
 @dataclass(frozen=True)
-class ComparisonData:
-    """Shared samples measured by the reference and the test method."""
-
-    samples: tuple[str, ...]
-    reference: np.ndarray = field(repr=False)
-    test: np.ndarray = field(repr=False)
-
-
-@dataclass(frozen=True)
 class AnalyteData:
     """One analyte's data: its calibration, and what each characteristic's loader read for it."""
 
     name: str
-    calibration: CalibrationData
-    samples: tuple[SampleData, ...] = ()
-    blanks: np.ndarray | None = field(default=None, repr=False)
+    calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
     precision: PrecisionData | None = None
-    comparison: ComparisonData | None = field(default=None, repr=False)
-    # the analyte's entry in the previous results.json, as read (checked against the schema)
-    previous: dict[str, Any] | None = field(default=None, repr=False)
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
     entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
 
@@ -115,16 +88,6 @@ class LoadedStudy:
     @property
     def config(self):
         return self.study.config
-
-
-def _group(names):
-    order, groups = [], {}
-    for i, name in enumerate(names):
-        if name not in groups:
-            groups[name] = []
-            order.append(name)
-        groups[name].append(i)
-    return order, groups
 
 
 class Reader:
@@ -186,62 +149,6 @@ def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray
     return values
 
 
-def _check_weighting(weighting: str, table, idx, x, y):
-    if WEIGHTED_BY.get(weighting) == "concentration":
-        for i in idx:
-            if x[i] <= 0:
-                raise DataError(f"concentration {x[i]:g} cannot be weighted by {weighting}; "
-                                f'use weighting = "none" or "1/y", or remove the zero calibrator',
-                                file=table.path, row=table.rows[i], column="concentration",
-                                value=x[i])
-    if WEIGHTED_BY.get(weighting) == "response":
-        for i in idx:
-            if y[i] <= 0:
-                raise DataError(f"response {y[i]:g} cannot be weighted by {weighting} "
-                                "(needs responses > 0)", file=table.path, row=table.rows[i],
-                                column="response", value=y[i])
-
-
-def _calibration(reader: Reader):
-    cfg = reader.study.config
-    table = reader.table("calibration", cfg.calibration, ("concentration", "response"),
-                         ("analyte", "series"))
-    x = numeric_column(table, "concentration", reader.decimal)
-    y = numeric_column(table, "response", reader.decimal)
-    for i, xi in enumerate(x):
-        if xi < 0:
-            raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
-                            file=table.path, row=table.rows[i], column="concentration", value=xi)
-    names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [cfg.study.id] * len(table)
-    series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
-    order, groups = _group(names)
-    folded = {}
-    for name in order:          # "Nitrate" and "nitrate" are two analytes only by mistake
-        other = folded.setdefault(name.casefold(), name)
-        if other != name:
-            raise DataError(f'analyte "{show(name)}" differs only in upper/lower case from "{show(other)}" '
-                            f"(row {table.rows[groups[other][0]]}); use one spelling per analyte",
-                            file=table.path, row=table.rows[groups[name][0]], column="analyte", value=name)
-    result = {}
-    needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
-    for name in order:
-        idx = groups[name]
-        levels = np.unique(x[idx])
-        if levels.size < needed:
-            what = f'analyte "{name}" has' if table.has("analyte") else "the calibration has"
-            raise DataError(f"{what} {levels.size} distinct concentration(s); "
-                            f"at least {needed} are needed for this model",
-                            file=table.path, row=table.rows[idx[0]], column="concentration")
-        if np.ptp(y[idx]) == 0:
-            raise DataError(f'every response of analyte "{name}" is {y[idx][0]:g}: the instrument '
-                            "does not respond to concentration", file=table.path,
-                            row=table.rows[idx[0]], column="response")
-        _check_weighting(cfg.calibration.weighting, table, idx, x, y)
-        result[name] = CalibrationData(x[idx], y[idx], tuple(series[i] for i in idx),
-                                       tuple(table.rows[i] for i in idx))
-    return result
-
-
 def analyte_rows(table, analytes: dict, what: str) -> dict:
     """Row indices of ``table`` per analyte (all rows if there is one analyte and no column)."""
     if table.has("analyte"):
@@ -261,40 +168,6 @@ def analyte_rows(table, analytes: dict, what: str) -> dict:
     return out
 
 
-def _samples(reader: Reader, analytes: dict):
-    cfg = reader.study.config
-    if cfg.samples is None or cfg.samples.data is None:
-        return {}
-    table = reader.table("samples", cfg.samples, ("sample", "response"), ("analyte",))
-    ids = table.texts("sample", MAX_NAME_LENGTH)
-    responses = numeric_column(table, "response", reader.decimal).tolist()
-    seen = {}
-    for sid, row in zip(ids, table.rows):
-        key = " ".join(sid.split()).casefold()
-        if key in seen and seen[key][0] != sid:
-            raise DataError(f'sample id "{sid}" differs only in case or spacing from "{seen[key][0]}" '
-                            f"(row {seen[key][1]}); use one spelling per sample", file=table.path, row=row,
-                            column="sample", value=sid)
-        seen.setdefault(key, (sid, row))
-    out = {}
-    for name, idx in analyte_rows(table, analytes, "reading").items():
-        own_ids, own_rows = [ids[i] for i in idx], [table.rows[i] for i in idx]
-        if cfg.samples.expected:
-            check_expected(analyte=name, ids=own_ids, rows=own_rows, file=table.path,
-                           expected=tuple(cfg.samples.expected), expected_readings=cfg.samples.expected_readings,
-                           study=reader.study.shown)
-        else:
-            reader.near_duplicate_ids.extend(near_duplicates(analyte=name, ids=own_ids, rows=own_rows,
-                                                             file=table.path))
-        groups = {}
-        for i in idx:
-            groups.setdefault(ids[i], ([], []))
-            groups[ids[i]][0].append(responses[i])
-            groups[ids[i]][1].append(table.rows[i])
-        out[name] = tuple(SampleData(sid, tuple(r), tuple(rw)) for sid, (r, rw) in groups.items())
-    return out
-
-
 def check_positive(table, column, values, what="must be > 0"):
     for v, cell, row in zip(values, table.columns[column], table.rows):
         if not v > 0:
@@ -311,7 +184,7 @@ def per_analyte(reader, settings, analytes, role: str, required: tuple, optional
     analyte, and ``make(columns, idx, name)`` builds the data of each analyte that has rows.
     Nothing when ``settings`` is ``None`` (the study has no such table).
     """
-    if settings is None or settings.data is None:      # no table, or its data come from [[runs]]
+    if settings is None or getattr(settings, "data", "") is None:   # no table, or its data come from [[runs]]
         return {}
     table = reader.table(role, settings, required, optional)
     columns = prepare(table)
@@ -327,12 +200,6 @@ def declared_levels_exist(reader, section: str, key: str, declared, present) -> 
             raise StudyError(f"no {section} result has {key} = {value:g}, so this limit would judge nothing "
                              f"(the data have {key} " + ", ".join(f"{p:g}" for p in present) + ")",
                              file=reader.study.shown, key=f"{section}.levels[{i}].{key}", value=value)
-
-
-def _blanks(reader, analytes):
-    return per_analyte(reader, reader.study.config.blanks, analytes, "blanks", ("response",), ("analyte",), "blank",
-                       lambda table: numeric_column(table, "response", reader.decimal),
-                       lambda y, idx, name: y[idx])
 
 
 def _precision(reader, analytes):
@@ -353,31 +220,8 @@ def _precision(reader, analytes):
                        ("analyte",), "precision result", prepare, make)
 
 
-def _comparison(reader, analytes):
-    def prepare(table):
-        return (table, table.texts("sample", MAX_NAME_LENGTH), numeric_column(table, "reference", reader.decimal),
-                numeric_column(table, "test", reader.decimal))
-
-    def make(columns, idx, name):
-        table, ids, ref, test = columns
-        if len(idx) < 3:
-            raise DataError(f'analyte "{name}" has {len(idx)} comparison sample(s); at least 3 are needed',
-                            file=table.path, row=table.rows[idx[0]])
-        first = {}
-        for i in idx:       # one row per sample: a repeated id would count one sample twice
-            if ids[i] in first:
-                raise DataError(f'sample "{show(ids[i])}" appears again (first at row {first[ids[i]]}); the '
-                                "comparison takes one reference and one test result per sample",
-                                file=table.path, row=table.rows[i], column="sample", value=ids[i])
-            first[ids[i]] = table.rows[i]
-        return ComparisonData(tuple(ids[i] for i in idx), ref[idx], test[idx])
-
-    return per_analyte(reader, reader.study.config.comparison, analytes, "comparison",
-                       ("sample", "reference", "test"), ("analyte",), "comparison result", prepare, make)
-
-
 # characteristics whose data are still read here (not yet by their registry entry's ``load``)
-_LEGACY_LOADERS = {"samples": _samples, "detection": _blanks, "precision": _precision, "comparison": _comparison}
+_LEGACY_LOADERS = {"precision": _precision}
 
 
 def _check_preparations(study, samples: dict, runs) -> None:
@@ -397,40 +241,37 @@ def _check_preparations(study, samples: dict, runs) -> None:
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files.
 
-    The calibration names the analytes; then each characteristic of the registry that reads a
-    data file (``entry.load``) reads it, in registry order, when the study has its table.
+    Each characteristic of the registry that reads a data file (``entry.load``) reads it, in
+    registry order, when the study has its table; the first, the calibration, names the analytes.
     """
     from .. import registry
 
     study = read_study_file(path)
     reader = Reader(study)
+    calibration, loaded = None, {}
     runs = None
     if study.config.runs:           # the run exports give the calibration, blanks and injections
         from .runs import load_runs
         runs = load_runs(reader)
         calibration = runs.calibration
-    else:
-        calibration = _calibration(reader)
-    loaded, previous, run = {}, {}, None
+        loaded.update({"calibration": runs.calibration, "blanks": runs.blanks, "runs": runs.injections})
     for entry in registry.REGISTRY:
+        if entry.name in loaded:
+            continue
         if entry.load is not None:
             settings = getattr(study.config, entry.name, None)
             if settings is not None:
                 loaded[entry.name] = entry.load(reader, settings, calibration)
+                calibration = loaded[entry.name] if calibration is None else calibration
         elif entry.name in _LEGACY_LOADERS:
             loaded[entry.name] = _LEGACY_LOADERS[entry.name](reader, calibration)
-        elif entry.name == "revalidation":
-            previous, run = read_previous(reader, calibration)
     excluded = reader.exclusions.check()
+    _check_preparations(study, loaded.get("samples", {}), runs)
     legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
-    if runs is not None:
-        legacy["detection"] = runs.blanks
-        loaded["runs"] = runs.injections
-    _check_preparations(study, legacy["samples"], runs)
-    analytes = tuple(AnalyteData(name, calibration[name], legacy["samples"].get(name, ()),
-                                 legacy["detection"].get(name), legacy["precision"].get(name),
-                                 legacy["comparison"].get(name), previous.get(name),
+    analytes = tuple(AnalyteData(name, calibration[name], legacy["precision"].get(name),
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
+    # the earlier results.json of a re-validation (it matches at least one analyte, or is refused)
+    run = next((data.run for data in loaded.get("revalidation", {}).values()), None)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
                        excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids))

@@ -19,7 +19,7 @@ from ..maths.regression import WEIGHTED_BY
 from .tables import read_bytes
 
 if TYPE_CHECKING:
-    from .loading import CalibrationData
+    from ..characteristics.calibration.settings import CalibrationData
 
 __all__ = ["PreviousRun", "read_previous", "MAX_PREVIOUS_BYTES", "MAX_PREVIOUS_DEPTH"]
 

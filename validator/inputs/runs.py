@@ -292,7 +292,7 @@ def load_runs(reader) -> RunsData:
     import numpy as np
 
     from ..maths.regression import WEIGHTED_BY
-    from .loading import CalibrationData
+    from ..characteristics.calibration.settings import CalibrationData
     from .sample_ids import check_expected, near_duplicates
     from .study import ColumnsSection, TypesSection
 

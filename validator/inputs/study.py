@@ -37,9 +37,10 @@ from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationErr
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
 from ..protocol import DesignSection, ProtocolSection
+from ..sector.presets import PRESET_NAMES, PresetUse, resolve as resolve_preset
 
-__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS", "MAX_STUDY_BYTES", "MAX_NESTING",
-           "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
+__all__ = ["StudyConfig", "StudyFile", "read_study_file", "study_config_model", "check_range", "WEIGHTINGS",
+           "MAX_STUDY_BYTES", "MAX_NESTING", "MAX_DATA_FILE_MB", "MIN_PROBABILITY", "TEXT_LIMITS", "MAX_PATH_LENGTH"]
 
 
 MAX_STUDY_BYTES = 1024 * 1024    # a study file is a few kB; 1 MiB leaves room for long notes
@@ -159,47 +160,13 @@ class StudySection(_Section):
     decimal: Optional[Literal[".", ","]] = None
     delimiter: Optional[Literal[",", ";", "tab"]] = None
     max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up
+    # default acceptance criteria of a named guideline (validator.sector.presets)
+    guideline: Optional[Literal[PRESET_NAMES]] = None
 
     @model_validator(mode="after")
     def _dialect(self):
         if self.decimal == "," and self.delimiter == ",":
             raise ValueError('decimal = "," needs delimiter = ";" or "tab" (a comma cannot be both)')
-        return self
-
-
-class CalibrationSection(DataSource):
-    model: Literal["linear", "quadratic", "auto"] = "linear"
-    weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
-    through_origin: bool = False
-    # with [[runs]]: each run's injections through its own calibration ("run", the default) or one
-    # calibration over every run's calibrators ("pooled")
-    quantify_with: Optional[Literal["run", "pooled"]] = None
-
-    @model_validator(mode="after")
-    def _origin_linear(self):
-        if self.through_origin and self.model != "linear":
-            raise ValueError('through_origin = true is only allowed with model = "linear"')
-        return self
-
-
-SampleId = Annotated[str, Field(min_length=1, max_length=100, pattern=r"\S"), AfterValidator(_no_control)]
-
-
-class SamplesSection(DataSource):
-    """[samples]: the unknown samples' responses, and optionally the ids expected in them."""
-
-    expected: list[SampleId] = []
-    expected_readings: Optional[int] = Field(None, ge=1, le=1000)
-
-    @model_validator(mode="after")
-    def _expected(self):
-        seen = set()
-        for sid in self.expected:
-            if sid in seen:
-                raise ValueError(f'expected lists sample "{show(sid)}" twice')
-            seen.add(sid)
-        if self.expected_readings is not None and not self.expected:
-            raise ValueError("expected_readings needs the list of expected sample ids (expected = [...])")
         return self
 
 
@@ -209,25 +176,6 @@ class CriteriaSection(_Section):
     lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
-
-
-class BlanksSection(DataSource):
-    """[blanks]: blank responses."""
-
-
-class DetectionSection(_Section):
-    lod_factor: float = Field(3.3, gt=0, le=100)
-    loq_factor: float = Field(10.0, gt=0, le=100)
-    readings_per_sample: int = Field(1, ge=1, le=1000)
-    beta: float = _probability(0.05)
-    reporting_basis: Literal["ich-residual-sd", "ich-intercept-sd", "blank-sd"] = "ich-residual-sd"
-    loq_rsd_max_pct: float = Field(20.0, gt=0, le=100)
-
-    @model_validator(mode="after")
-    def _order(self):
-        if self.loq_factor <= self.lod_factor:
-            raise ValueError("loq_factor must be larger than lod_factor")
-        return self
 
 
 def check_range(v, name: str = "range_pct"):
@@ -254,27 +202,6 @@ class PrecisionSection(DataSource):
                 return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
                         lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
         return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
-
-
-class RevalidationSection(_Section):
-    previous: DataPath
-    slope_change_max_pct: float = Field(5.0, gt=0, le=100)
-    residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
-    # this run's analyte name -> its name in the previous results.json, for renamed analytes
-    analytes: dict[str, str] = Field(default_factory=dict)
-
-
-class ComparisonSection(DataSource):
-    error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
-    slope_limits: Optional[list[float]] = None
-    intercept_limits: Optional[list[float]] = None
-    percentage_differences: bool = False
-
-    @model_validator(mode="after")
-    def _limits(self):
-        for name in ("slope_limits", "intercept_limits"):
-            check_range(getattr(self, name), name)
-        return self
 
 
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
@@ -390,22 +317,24 @@ _TABLES_AFTER = ("design", "protocol")
 
 
 def _table_field(model: type[BaseModel], required: bool) -> tuple:
-    """A table's field of StudyConfig: required; always present when every key has a default; else optional."""
+    """A table's field of StudyConfig: required; always present when the table without keys is valid; else
+    optional."""
     if required:
         return (model, ...)
     if issubclass(model, DataSource):     # a data table is there when written, even if only data = ...
         return (Optional[model], None)
     if all(not f.is_required() for f in model.model_fields.values()):
-        return (model, model())
+        try:
+            return (model, model())
+        except ValidationError:      # every key has a default, yet an empty table is not valid (it
+            pass                     # needs one of several keys): optional, like a table with a required key
     return (Optional[model], None)
 
 
 # tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
-_OTHER_TABLES = {"study": (StudySection, ...), "calibration": (CalibrationSection, ...),
-                 "samples": (Optional[SamplesSection], None), "criteria": (CriteriaSection, CriteriaSection()),
-                 "blanks": (Optional[BlanksSection], None), "detection": (DetectionSection, DetectionSection()),
-                 "precision": (Optional[PrecisionSection], None), "revalidation": (Optional[RevalidationSection], None),
-                 "comparison": (Optional[ComparisonSection], None),
+_OTHER_TABLES = {"study": (StudySection, ...),
+                 "criteria": (CriteriaSection, CriteriaSection()),
+                 "precision": (Optional[PrecisionSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None),
                  # data rows left out, each with its reason (validator.inputs.exclusions)
@@ -451,6 +380,7 @@ class StudyFile:
     sha256: str
     config: Any                # the StudyConfig (study_config_model()) instance
     defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
+    guideline: tuple[PresetUse, ...] = ()             # what [study] guideline supplied or the study overrode
 
     def resolve(self, data_path: str) -> Path:
         """A data path from the study file, relative to the study file's folder."""
@@ -755,5 +685,25 @@ def read_study_file(path: str | Path) -> StudyFile:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',
                          file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
+    config, uses = _apply_guideline(config)
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
-                     config=config, defaults_applied=tuple(_defaults(config)))
+                     config=config, defaults_applied=tuple(_defaults(config)), guideline=uses)
+
+
+def _apply_guideline(config: StudyConfig) -> tuple[StudyConfig, tuple[PresetUse, ...]]:
+    """The study with ``[study] guideline``'s defaults filled into the sections it declares.
+
+    A key the study sets keeps the study's value (listed as overridden); a key the preset fills
+    counts as set, so it is listed among the preset's values and not among the defaults applied.
+    """
+    if config.study.guideline is None:
+        return config, ()
+    declared = {name: {key: getattr(section, key) for key in section.model_fields_set}
+                for name in config.model_fields_set
+                if isinstance(section := getattr(config, name), BaseModel)}
+    updates, uses = resolve_preset(config.study.guideline, declared)
+    for name, values in updates.items():
+        section = getattr(config, name)
+        own = {key: getattr(section, key) for key in section.model_fields_set}
+        config = config.model_copy(update={name: type(section).model_validate({**own, **values})})
+    return config, uses

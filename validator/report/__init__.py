@@ -93,7 +93,8 @@ def _series_pct(data, lv):
 
 def _change_data(a, entry: dict) -> dict:
     out = {}
-    prev = a.data.previous
+    prev = a.data.of("revalidation")
+    prev = None if prev is None else prev.entry
     if prev is not None:
         levels = [lv["concentration"] for lv in prev["calibration"]["level_table"]]
         out["revalidation"] = {
@@ -101,7 +102,9 @@ def _change_data(a, entry: dict) -> dict:
             "previous_range": (min(levels), max(levels)),
             "current_coefficients": entry["calibration"]["coefficients"],
             "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
-    c = a.comparison
+    from ..characteristics import comparison
+
+    c = a.result_of(comparison.ENTRY)
     if c is not None:
         ba = c.bland_altman
         out["comparison"] = {
@@ -124,9 +127,17 @@ def _readings(results: dict, alpha: float) -> list:
     for i, a in enumerate(results["analytes"]):
         reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
                                    key=str(i))
-        out.append([(e.name, a[e.name], reading) for e in registry.REGISTRY
-                    if (e.sentences or e.figures) and a.get(e.name)])
+        out.append([(e.name, entry, reading) for e in registry.REGISTRY
+                    if (e.sentences or e.figures) and (entry := _written(a, e.written_at))])
     return out
+
+
+def _written(analyte: dict, path: str):
+    """The value at a dotted ``path`` of an analyte's results.json entry (``None`` when absent)."""
+    value = analyte
+    for part in path.split("."):
+        value = value.get(part) if isinstance(value, dict) else None
+    return value
 
 
 def _analyte_figures(d: dict) -> dict:
@@ -167,11 +178,13 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     # the characteristics shown in each analyte's section, in registry order (those with a fragment)
     sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
+    # characteristics assessed for any analyte (the formulas page shows the sector ones only then)
+    sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
         r=results, study=study, analytes=analytes, summary=summary, alpha=alpha, sections=sections,
-        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P,
+        css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
 

@@ -146,39 +146,9 @@ def _reason(a: dict, item: str) -> str:
 
 
 def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
-    """Plain-language reading of detection, range and precision results (the characteristics in
+    """Plain-language reading of the precision results (the characteristics in
     packages of their own bring their sentences in their ``presentation`` module)."""
     out = {}
-    det = a["detection"]
-    rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
-    if rep["lod"] is not None:
-        out["detection"] = (f"On the reported basis ({rep['method']}), the limit of detection is "
-                            f"{fmt(rep['lod'])} {unit} and the limit of quantitation {fmt(rep['loq'])} {unit}. "
-                            "Estimates on the other bases are listed for comparison; they differ because "
-                            "each uses a different estimate of the noise.")
-    else:
-        out["detection"] = f"No LOD/LOQ on the reported basis ({rep['method']}): {rep['reason']}."
-    iso = next(e for e in det["estimates"] if e["method"] == "iso-11843-2")
-    if iso["lod"] is not None:
-        out["iso"] = (f"ISO 11843-2: critical value x_C = {fmt(iso['critical_value'])} {unit} (a result above it "
-                      f"is distinguished from zero with error probability alpha = {alpha:g}) and minimum detectable "
-                      f"value x_D = {fmt(iso['lod'])} {unit}, with delta = {fmt(iso['delta'])} computed exactly "
-                      "from the non-central t distribution (not the 2t approximation).")
-    else:
-        out["iso"] = f"ISO 11843-2 was not applicable: {iso['reason']}."
-    lv = det["loq_verification"]
-    if lv["pass"] is None:
-        out["loq_verification"] = f"The LOQ could not be verified with data near it: {lv['reason']}."
-    else:
-        state = "supports" if lv["pass"] else "does NOT support"
-        out["loq_verification"] = (f"The precision at levels up to 2 × LOQ {state} the LOQ: every RSD there is "
-                                   f"{'at most' if lv['pass'] else 'not all within'} {fmt(lv['rsd_max_pct'])} %.")
-    wr = a["working_range"]
-    if wr["low"] is None:
-        out["working_range"] = f"No working range can be stated: {wr['basis']}."
-    else:
-        out["working_range"] = (f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {unit} "
-                                f"({wr['basis']}).")
     prec = a.get("precision")
     if prec:
         parts = []

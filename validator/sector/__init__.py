@@ -1,4 +1,9 @@
-"""Sector-specific validation statistics (issue #15), as pure functions not yet wired into the engine.
+"""Sector-specific validation statistics (issue #15), as pure functions.
+
+The engine uses them through the characteristic packages of :mod:`validator.characteristics`
+(``limit_of_blank``, ``method_detection_limit``, ``matrix_effect``, ``carry_over``, ``selectivity``,
+``stability``, ``dilution_integrity``, ``reanalysis``; each an entry of ``validator.registry``), and
+:mod:`.presets` holds the guideline presets of default criteria.
 
 * :mod:`.ep17` - CLSI EP17-A2 limit of blank, limit of detection, limit of quantitation.
 * :mod:`.mdl` - method detection limit, 40 CFR Part 136 Appendix B, Revision 2 (2017).

@@ -17,7 +17,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
@@ -53,8 +53,8 @@ class CarryOver:
     (the IS part is then not judged).
     """
 
-    analyte_percent: tuple                # each blank injection, % of the mean LLOQ analyte response
-    internal_standard_percent: tuple | None
+    analyte_percent: tuple[float, ...]    # each blank injection, % of the mean LLOQ analyte response
+    internal_standard_percent: tuple[float, ...] | None
     max_analyte_percent: float            # the largest of analyte_percent
     max_internal_standard_percent: float | None
     analyte_limit_percent: float
@@ -115,7 +115,7 @@ class SelectivityLot:
 class Selectivity:
     """Blank-matrix lots: interference as % of the LLOQ and IS responses, and the fraction of lots passing."""
 
-    lots: tuple
+    lots: tuple[SelectivityLot, ...]
     n_lots: int
     n_lots_passed: int
     fraction_passed: float
@@ -197,7 +197,7 @@ class Stability:
     mean: float | None
     reference_mean: float | None
     deviation_percent: float | None
-    interval: ConfidenceInterval | None
+    interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
     df: float | None
     limit_percent: float
     judged_on: str
@@ -303,7 +303,7 @@ class DilutionIntegrity:
     dilution_factor: float
     nominal: float
     n: int
-    back_calculated: tuple               # measured x dilution factor
+    back_calculated: tuple[float, ...]   # measured x dilution factor
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None
@@ -368,11 +368,12 @@ class ReanalysedSample:
     repeat: float
     difference_percent: float | None     # 100 (repeat - original) / mean of the two
     within: bool                         # False also when the difference is undefined
+    sample: str = ""                     # the study sample's label, when given
 
 
 @dataclass(frozen=True)
 class IncurredSampleReanalysis:
-    samples: tuple
+    samples: tuple[ReanalysedSample, ...]
     n: int
     n_within: int
     n_undefined: int
@@ -384,7 +385,7 @@ class IncurredSampleReanalysis:
 
 
 def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
-                               min_fraction: float = 2 / 3) -> IncurredSampleReanalysis:
+                               min_fraction: float = 2 / 3, sample=None) -> IncurredSampleReanalysis:
     """Incurred-sample reanalysis (ICH M10 sec. 5, from memory: within +/-20 % for chromatography,
     +/-30 % for ligand-binding assays, in at least two-thirds of the repeats).
 
@@ -400,14 +401,15 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     r = as_float_array(repeat, "repeat")
     if o.size != r.size:
         raise ValueError(f"original and repeat must pair up, got {o.size} and {r.size} values")
+    names = [""] * o.size if sample is None else list(labels(sample, o.size, "sample"))
     rows = []
-    for a, b in zip(o.tolist(), r.tolist()):
+    for a, b, name in zip(o.tolist(), r.tolist(), names):
         mean = (a + b) / 2
         d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
         if math.isfinite(d):
-            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim))
+            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim, name))
         else:
-            rows.append(ReanalysedSample(a, b, None, False))
+            rows.append(ReanalysedSample(a, b, None, False, name))
     n = len(rows)
     n_within = sum(x.within for x in rows)
     n_undef = sum(x.difference_percent is None for x in rows)

@@ -74,10 +74,10 @@ class LimitOfBlank:
 
     method: str
     value: float | None
-    lots: tuple
+    lots: tuple[LotLimit, ...]
     percentile: float
     purpose: str
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
     reason: str = ""
 
 
@@ -87,9 +87,9 @@ class LimitOfDetection:
 
     value: float | None
     limit_of_blank: float
-    lots: tuple
+    lots: tuple[LotLimit, ...]
     purpose: str
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
     reason: str = ""
 
 
@@ -114,11 +114,11 @@ class LimitOfQuantitation:
     """The LoQ: the lowest level meeting the goal(s), with every higher level meeting them too."""
 
     value: float | None
-    levels: tuple
+    levels: tuple[QuantitationLevel, ...]
     max_cv_percent: float | None
     max_total_error: float | None
     limit_of_detection: float | None
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
     reason: str = ""
 
 

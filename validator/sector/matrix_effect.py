@@ -18,7 +18,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -53,9 +53,9 @@ class SlopeRatioMatrixEffect:
     se_ratio_delta: float | None         # delta-method SE of the slope ratio
     df: float | None
     variance: str
-    interval: ConfidenceInterval | None
-    fieller_interval: ConfidenceInterval | None
-    delta_interval: ConfidenceInterval | None
+    interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
+    fieller_interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
+    delta_interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
     limit_percent: float = 20.0
     beyond_limit: bool | None = None     # |ME %| > limit_percent: matrix-matched calibration indicated
     reason: str = ""
@@ -184,7 +184,7 @@ class LotAccuracyAssessment:
     """Every lot at one QC level; ``passed`` is ``None`` with a reason when it cannot be judged."""
 
     nominal: float
-    lots: tuple
+    lots: tuple[LotAccuracy, ...]
     n_lots: int
     n_lots_passed: int
     max_bias_percent: float
@@ -266,7 +266,7 @@ class MatrixFactorLot:
 class NormalisedMatrixFactor:
     """IS-normalised matrix factor per lot and its CV across lots."""
 
-    lots: tuple
+    lots: tuple[MatrixFactorLot, ...]
     mean: float | None
     cv_percent: float | None
     max_cv_percent: float

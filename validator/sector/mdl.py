@@ -62,7 +62,7 @@ class MethodDetectionLimit:
     blank_t: float | None
     blank_rank: int | None             # the rank used by the "ranked blank" rule (1-based, ascending)
     confidence: float
-    notes: tuple = ()
+    notes: tuple[str, ...] = ()
     reason: str = ""
 
 

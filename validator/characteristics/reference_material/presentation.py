@@ -11,7 +11,8 @@ def sentences(rm: dict, reading) -> dict[str, str]:
     """``bias``: the bias against the certified value and whether it is significant."""
     unit = reading.unit
     if rm["significant"] is None:
-        return {"bias": f"The reference material bias was not tested: {rm.get('reason') or 'needs at least 2 results'}."}
+        why = rm.get("reason") or "needs at least 2 results"
+        return {"bias": f"The reference material bias was not tested: {why}."}
     word = "is" if rm["significant"] else "is not"
     return {"bias": (
         f"The mean of {rm['n']} results on the reference material is {fmt(rm['mean'])} {unit} against "

@@ -8,6 +8,7 @@ characteristics/reporting.html.j2`` shows it.
 
 from __future__ import annotations
 
+from .. import samples as samples_entry
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import ReportedSample, ReportingResult, report_samples
@@ -17,9 +18,10 @@ __all__ = ["ENTRY", "ReportingResult", "ReportedSample", "report_samples"]
 
 def assess(ctx) -> Assessment[ReportingResult] | None:
     cfg = ctx.settings_of(ENTRY)
-    if cfg is None or not ctx.samples:
+    samples = ctx.result_of(samples_entry.ENTRY)
+    if cfg is None or not samples:
         return None
-    return Assessment(report_samples(ctx.samples, unit=cfg.unit, measured_unit=ctx.unit,
+    return Assessment(report_samples(samples, unit=cfg.unit, measured_unit=ctx.unit,
                                      preparation_of=cfg.preparation_of))
 
 

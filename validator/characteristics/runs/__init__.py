@@ -12,6 +12,7 @@ chain response -> calibration -> found for every injection.
 
 from __future__ import annotations
 
+from .. import calibration
 from .._entry import Assessment, Characteristic
 from . import presentation
 from .analysis import (QuantifiedInjection, RunCalibration, RunsResult, qc_found, quantify_runs, reference_found,
@@ -24,7 +25,7 @@ def assess(ctx) -> Assessment[RunsResult] | None:
     injections = ctx.data_of(ENTRY)
     if injections is None:
         return None
-    fit = ctx.calibration.fit
+    fit = ctx.result_of(calibration.ENTRY).fit
     result = quantify_runs(injections, model=fit.model, weighting=fit.weighting, alpha=ctx.alpha,
                            pooled=ctx.config.calibration.quantify_with == "pooled")
     provides = [("samples", run_samples(result))]

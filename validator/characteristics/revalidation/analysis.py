@@ -36,17 +36,19 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, quiet_numpy
-from ..maths.distributions import f_test_two_sided
-from ..maths.regression import PolynomialFit, fit_polynomial
+from ..._common import ConfidenceInterval, quiet_numpy
+from ...criteria import Criterion, at_most, interval_within
+from ...maths.distributions import f_test_two_sided
+from ...maths.regression import PolynomialFit, fit_polynomial
 
-__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair", "RecoveryChange",
+__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair", "RecoveryChange", "ResidualSdChange",
+           "PreviousResults", "revalidation_criteria", "unmatched_criterion",
            "RepeatabilityChange", "CalibrationChoice", "compare_slopes", "residual_sd_ratio",
            "refit_like", "joint_comparison", "assess_revalidation", "calibration_points", "RunSummary",
            "CalibrationPoints", "LevelRepeatability", "run_summary"]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class SlopeComparison:
     """Change of the sensitivity between two runs and its equivalence decision.
 
@@ -56,19 +58,23 @@ class SlopeComparison:
     comparison cannot be made.
     """
 
+    quantity: str = "slope"
+    sensitivity_range: tuple[float, float] | None = None
     previous: float | None
     current: float | None
     change_pct: float | None
-    change_ci_pct: ConfidenceInterval | None
+    change_ci_pct: ConfidenceInterval | None = field(metadata={"interval": "pair", "level_json": "change_ci_level"})
     t_statistic: float | None
     df: int
-    pvalue: float | None
+    pvalue: float | None = field(metadata={"json": "p_value"})
     margin_pct: float
+    equivalent: bool = field(init=False)
     verdict: str                 # "equivalent" | "not shown equivalent" | "different" | "not applicable"
-    quantity: str = "slope"
-    sensitivity_range: tuple[float, float] | None = None
-    basis: str = "summary statistics"
     reason: str = ""
+    basis: str = field(default="summary statistics", metadata={"json": None})   # written with the result
+
+    def __post_init__(self):
+        object.__setattr__(self, "equivalent", self.verdict == "equivalent")
 
 
 def _decide(b1, b2, diff_se, df, margin_pct, alpha):
@@ -115,11 +121,13 @@ def compare_slopes(previous, current, margin_pct: float, alpha: float = 0.05, *,
     if not (df > 0 and np.isfinite(unscaled) and b1 != 0):
         reason = ("the previous slope is zero" if b1 == 0 else
                   "a residual SD or slope standard error is zero or missing, so no pooled variance exists")
-        return SlopeComparison(b1, b2, None, None, None, max(df, 0), None, margin_pct, "not applicable",
+        return SlopeComparison(previous=b1, current=b2, change_pct=None, change_ci_pct=None, t_statistic=None,
+                               df=max(df, 0), pvalue=None, margin_pct=margin_pct, verdict="not applicable",
                                reason=reason)
     se = float(np.sqrt(pooled * unscaled))
     change, ci, t, pv, verdict = _decide(b1, b2, se, df, margin_pct, alpha)
-    return SlopeComparison(b1, b2, change, ci, t, df, pv, margin_pct, verdict)
+    return SlopeComparison(previous=b1, current=b2, change_pct=change, change_ci_pct=ci, t_statistic=t, df=df,
+                           pvalue=pv, margin_pct=margin_pct, verdict=verdict)
 
 
 def residual_sd_ratio(previous_sd, previous_df, current_sd, current_df):
@@ -205,9 +213,11 @@ def joint_comparison(previous: PolynomialFit, current: PolynomialFit, margin_pct
     low = max(float(previous.x.min()), float(current.x.min()))
     high = min(float(previous.x.max()), float(current.x.max()))
     if not high > low:      # a straight line's slope, too, is only compared over a range both runs calibrated
-        slope = SlopeComparison(None, None, None, None, None, df, None, margin_pct, "not applicable",
-                                "mean sensitivity" if quadratic else "slope", None, "joint fit",
-                                "the two calibrated ranges do not overlap, so no common range exists "
+        slope = SlopeComparison(previous=None, current=None, change_pct=None, change_ci_pct=None, t_statistic=None,
+                                df=df, pvalue=None, margin_pct=margin_pct, verdict="not applicable",
+                                quantity="mean sensitivity" if quadratic else "slope", sensitivity_range=None,
+                                basis="joint fit",
+                                reason="the two calibrated ranges do not overlap, so no common range exists "
                                 "over which to compare the two calibration functions like with like")
         return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
     if not quadratic:
@@ -221,12 +231,16 @@ def joint_comparison(previous: PolynomialFit, current: PolynomialFit, margin_pct
     b1, b2 = values
     quantity, rng = ("mean sensitivity", (low, high)) if quadratic else ("slope", None)
     if b1 == 0:
-        slope = SlopeComparison(b1, b2, None, None, None, df, None, margin_pct, "not applicable", quantity, rng,
-                                "joint fit", f"the previous {quantity} is zero, so no relative change exists")
+        slope = SlopeComparison(previous=b1, current=b2, change_pct=None, change_ci_pct=None, t_statistic=None,
+                                df=df, pvalue=None, margin_pct=margin_pct, verdict="not applicable",
+                                quantity=quantity, sensitivity_range=rng, basis="joint fit",
+                                reason=f"the previous {quantity} is zero, so no relative change exists")
     else:
         se = float(np.sqrt(s2_pooled * (unscaled[0] + unscaled[1])))
         change, ci, t, pv, verdict = _decide(b1, b2, se, df, margin_pct, alpha)
-        slope = SlopeComparison(b1, b2, change, ci, t, df, pv, margin_pct, verdict, quantity, rng, "joint fit")
+        slope = SlopeComparison(previous=b1, current=b2, change_pct=change, change_ci_pct=ci, t_statistic=t, df=df,
+                                pvalue=pv, margin_pct=margin_pct, verdict=verdict, quantity=quantity,
+                                sensitivity_range=rng, basis="joint fit")
     return JointComparison(slope, run_s[0], run_s[1], (n1 - p, n2 - p), float(np.sqrt(s2_pooled)), p)
 
 
@@ -244,8 +258,8 @@ class RecoveryChange:
 
     previous_mean_pct: float | None
     current_mean_pct: float | None
-    welch_pvalue: float | None
-    variance_f_pvalue: float | None
+    welch_pvalue: float | None = field(metadata={"json": "welch_p_value"})
+    variance_f_pvalue: float | None = field(metadata={"json": "variance_f_p_value"})
 
 
 @dataclass(frozen=True)
@@ -255,7 +269,7 @@ class RepeatabilityChange:
     level: float
     previous_sd: float
     current_sd: float
-    f_pvalue: float
+    f_pvalue: float = field(metadata={"json": "f_p_value"})
 
 
 @dataclass(frozen=True)
@@ -268,27 +282,63 @@ class CalibrationChoice:
 
 
 @dataclass(frozen=True)
+class ResidualSdChange:
+    """Residual SD before and now (on the joint fit's common weight scale), their ratio and the
+    two-sided F test of F = ratio^2 on ``df`` = (previous, current) degrees of freedom."""
+
+    previous: float
+    current: float
+    df: tuple[int, int]
+    ratio: float | None
+    f_statistic: float | None
+    pvalue: float | None = field(metadata={"json": "p_value"})
+    ratio_max: float
+
+
+@dataclass(frozen=True)
+class PreviousResults:
+    """The earlier results.json compared with, as identified in the audit trail."""
+
+    path: str
+    study_id: str
+    generated_at: str
+    sha256: str
+
+
+_LIST = ("previous", "current")         # a RunPair written as [previous, current]
+
+
+@dataclass(frozen=True, kw_only=True)
 class RevalidationResult:
-    slope: SlopeComparison
-    intercept_previous: float | None
-    intercept_current: float | None
-    residual_sd_previous: float
-    residual_sd_current: float
-    residual_sd_ratio: float | None
-    residual_sd_f: float | None
-    residual_sd_pvalue: float | None
-    residual_sd_ratio_max: float
-    lod: RunPair                  # on the reported basis
-    loq: RunPair
-    recovery: RecoveryChange | None
-    repeatability: tuple[RepeatabilityChange, ...]       # levels in both runs
-    verdict: str
-    reasons: tuple[str, ...]
+    """One analyte compared with its previous validation. Field order and ``metadata`` give its
+    results.json form; ``previous`` and ``previous_analyte`` name the earlier file and analyte."""
+
+    previous: PreviousResults | None = None
+    previous_analyte: str = ""
+    basis: str = field(init=False)                        # the slope comparison's basis
     refit_model: str = "linear"           # the previous run's model, used for both runs
     refit_weighting: str = "none"
     refit_through_origin: bool = False
     current_own_choice: CalibrationChoice | None = None  # the function this run chose for itself
-    residual_sd_df: tuple[int, int] = (0, 0)             # (previous, current)
+    slope: SlopeComparison
+    intercept: RunPair                    # refitted
+    residual_sd: ResidualSdChange
+    lod: RunPair = field(metadata={"flatten": (("lod", _LIST),)})       # on the reported basis
+    loq: RunPair = field(metadata={"flatten": (("loq", _LIST),)})
+    recovery: RecoveryChange | None = field(metadata={"null_reason": "recovery_reason"})
+    repeatability: tuple[RepeatabilityChange, ...]       # levels in both runs
+    verdict: str
+    reasons: tuple[str, ...]
+
+    def __post_init__(self):
+        object.__setattr__(self, "basis", self.slope.basis)
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value is missing (results.json ``not_applicable``)."""
+        return "; ".join(self.reasons) or "the previous results.json has no value for it"
+
+    recovery_reason = "recovery data are missing in this or the previous validation"
 
 
 @dataclass(frozen=True)
@@ -399,10 +449,11 @@ def _describe(spec: tuple) -> str:
 def _fallback(previous: RunSummary, current_fit: PolynomialFit, margin_pct, alpha):
     p = current_fit.n_params
     if 2 in current_fit.powers:
-        slope = SlopeComparison(None, None, None, None, None, 0, None, margin_pct, "not applicable",
-                                "mean sensitivity", None, "summary statistics",
-                                "the previous results.json lacks the raw calibration points that the comparison "
-                                "of curves needs")
+        slope = SlopeComparison(previous=None, current=None, change_pct=None, change_ci_pct=None, t_statistic=None,
+                                df=0, pvalue=None, margin_pct=margin_pct, verdict="not applicable",
+                                quantity="mean sensitivity", sensitivity_range=None, basis="summary statistics",
+                                reason="the previous results.json lacks the raw calibration points that the "
+                                "comparison of curves needs")
     else:
         se = previous.slope_se
         prev = (previous.slope, float("nan") if se is None else se, previous.residual_sd, previous.n)
@@ -502,8 +553,40 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
     if slope.basis == "summary statistics":
         reasons.append("the previous results.json lacks the raw calibration points, so the comparison used its "
                        "summary statistics (slope, its standard error, residual SD and n)")
-    return RevalidationResult(slope, intercept_previous, intercept_current, s1, s2, ratio, F, p,
-                              residual_sd_ratio_max, RunPair(previous.lod, current.lod),
-                              RunPair(previous.loq, current.loq), rec, tuple(rep),
-                              verdict, tuple(reasons), model, weighting, origin, CalibrationChoice(*own),
-                              tuple(sd_df))
+    return RevalidationResult(
+        refit_model=model, refit_weighting=weighting, refit_through_origin=origin,
+        current_own_choice=CalibrationChoice(*own), slope=slope,
+        intercept=RunPair(intercept_previous, intercept_current),
+        residual_sd=ResidualSdChange(s1, s2, tuple(sd_df), ratio, F, p, residual_sd_ratio_max),
+        lod=RunPair(previous.lod, current.lod), loq=RunPair(previous.loq, current.loq), recovery=rec,
+        repeatability=tuple(rep), verdict=verdict, reasons=tuple(reasons))
+
+
+def revalidation_criteria(reval: RevalidationResult, slope_change_max_pct: float,
+                          residual_sd_ratio_max: float) -> tuple[Criterion, ...]:
+    """Slope (sensitivity) equivalence and residual SD ratio; "not applicable" when no value exists."""
+    sl = reval.slope
+    what = sl.quantity if sl.sensitivity_range is None else \
+        f"{sl.quantity} over {sl.sensitivity_range[0]:g} to {sl.sensitivity_range[1]:g}"
+    ci = sl.change_ci_pct
+    level = "" if ci is None else f"{ci.label} "
+    value = None if ci is None else [ci.low, ci.high]
+    margin = [-slope_change_max_pct, slope_change_max_pct]
+    slope = Criterion("slope-equivalence",
+                      f"{level}CI of the {what} change inside ±{slope_change_max_pct:g} % of the previous "
+                      "validation", value, margin, interval_within(value, margin),
+                      f"not applicable: {sl.reason}" if ci is None else sl.verdict)
+    ratio = reval.residual_sd.ratio
+    sd = Criterion("residual-sd-ratio", f"s(y/x) ratio current/previous at most {residual_sd_ratio_max:g}",
+                   ratio, residual_sd_ratio_max, at_most(ratio, residual_sd_ratio_max),
+                   "not applicable: the previous residual SD is zero, so no ratio exists" if ratio is None else "")
+    return slope, sd
+
+
+def unmatched_criterion(slope_change_max_pct: float) -> Criterion:
+    """The slope criterion of an analyte with no counterpart in the previous results: not applicable."""
+    margin = slope_change_max_pct
+    return Criterion(
+        "slope-equivalence", f"slope change inside ±{margin:g} % of the previous validation", None,
+        [-margin, margin], None, "not applicable: the previous results have no analyte matching this one "
+        "(map renamed analytes with [revalidation] analytes = {new = \"old\"}), so nothing was compared")

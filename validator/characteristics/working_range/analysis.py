@@ -18,7 +18,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq"]
+from ...criteria import Criterion, at_least
+
+__all__ = ["WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq", "working_range_criterion",
+           "loq_criterion"]
 
 
 @dataclass(frozen=True)
@@ -121,3 +124,29 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
     passed = bool(rsds) and all(v <= rsd_max_pct for v in rsds)
     return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed if rsds else None,
                     reason="" if rsds else "no RSD available at those levels", levels=tuple(rows))
+
+
+def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
+    """A working range must remain and hold at least one calibrator level that passes back-calculation.
+
+    It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
+    to nothing: the method was then not shown to quantify anything. When the reported basis gives
+    no LOQ (``loq_missing`` says why), the low end of the range was not checked against one, so the
+    criterion is not applicable.
+    # common practice, no published source: the rule that a range holds a passing calibrator
+    """
+    description = "working range remains and holds at least 1 calibrator level that passes back-calculation"
+    if loq_missing:
+        return Criterion("working-range", description, None, 1, None,
+                         f"not applicable: there is no LOQ on the reported basis ({loq_missing}), so the low "
+                         "end of the working range was not checked against one")
+    return Criterion("working-range", description, wr.passing_levels, 1, at_least(wr.passing_levels, 1),
+                     "" if wr.low is not None else wr.basis)
+
+
+def loq_criterion(check) -> Criterion:
+    worst = max((r.rsd_pct for r in check.levels if r.rsd_pct is not None), default=None)
+    return Criterion("loq-verification",
+                     f"RSD at every precision/recovery level up to 2 × LOQ at most {check.rsd_max_pct:g} %",
+                     worst, check.rsd_max_pct, check.passed,
+                     "" if check.passed is not None else f"not applicable: {check.reason}")

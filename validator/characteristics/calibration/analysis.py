@@ -34,13 +34,14 @@ import numpy as np
 from scipy import stats
 from statsmodels.stats.diagnostic import het_breuschpagan
 
-from .._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
-from ..maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
+from ..._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
+from ...criteria import Criterion, at_least, missing
+from ...maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
     "CalibrationResult", "BackCalculated", "OutlierFlag", "WeightingCandidate", "ChoiceStep",
     "SampleResult", "analyse_calibration", "quantify", "lack_of_fit", "mandel_test",
-    "choose_weighting", "back_calculate",
+    "choose_weighting", "back_calculate", "calibration_criteria", "CalibrationRecord", "calibration_record",
 ]
 
 
@@ -51,12 +52,21 @@ class BackCalculated:
     found: float
     deviation_pct: float | None     # None for nominal 0
     tolerance_pct: float | None
-    passed: bool | None             # None: not judged (nominal 0)
+    passed: bool | None = field(metadata={"json": "pass"})    # None: not judged (nominal 0)
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value of this calibrator is missing (results.json ``not_applicable``)."""
+        if self.nominal == 0:
+            return "nominal 0: the % deviation is not defined and the calibrator is not judged"
+        if self.found is None or not np.isfinite(self.found):
+            return "the response lies beyond the vertex of the quadratic; no concentration corresponds to it"
+        return ""
 
 
 @dataclass(frozen=True)
 class OutlierFlag:
-    index: int
+    index: int = field(metadata={"json": None})
     concentration: float
     response: float
     studentised_residual: float
@@ -479,9 +489,14 @@ class SampleResult:
     mean_response: float
     concentration: float
     std_error: float
-    ci: ConfidenceInterval
+    ci: ConfidenceInterval = field(metadata={"interval": "pair"})
     within_range: bool
-    reason: str = ""
+    reason: str = field(default="", metadata={"json": None})
+
+    @property
+    def null_item(self) -> str:
+        """Its name in results.json ``not_applicable``: unknowns are listed by id."""
+        return f"samples.{self.id}"
 
 
 def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
@@ -525,3 +540,176 @@ def quantify(fit: PolynomialFit, sample_id: str, responses) -> SampleResult:
     within = bool(inside and lo <= x0 <= hi)
     return SampleResult(sample_id, m, y0, x0, se, ConfidenceInterval(x0 - tq * se, x0 + tq * se, level),
                         within, reason)
+
+
+def calibration_criteria(cal, crit) -> tuple:
+    """Criteria on one analyte's calibration (see docs/results.md for each id)."""
+    out = []
+    lof = cal.lack_of_fit
+    out.append(Criterion(
+        "lack-of-fit", f"lack-of-fit F test: p-value at least alpha = {crit.alpha:g}",
+        lof.pvalue, crit.alpha, at_least(lof.pvalue, crit.alpha),
+        "" if lof.applicable else f"not applicable: {lof.reason}"))
+    bad = [b for b in cal.back_calculated if b.passed is False]
+    frac = cal.fraction_within_tolerance
+    out.append(Criterion(
+        "back-calculation",
+        f"fraction of calibrators back-calculated within +/-{crit.back_calculation_tolerance_pct:g} % "
+        f"(+/-{crit.lowest_level_tolerance_pct:g} % at the lowest level) at least "
+        f"{crit.min_fraction_within_tolerance:g}",
+        frac, crit.min_fraction_within_tolerance, at_least(frac, crit.min_fraction_within_tolerance),
+        ("outside tolerance at nominal " + ", ".join(f"{b.nominal:g}" for b in bad)) if bad else
+        ("" if frac is not None else "not applicable: no calibrator with a non-zero nominal value")))
+    ratio = cal.sensitivity_ratio
+    out.append(Criterion(
+        "monotonic", "calibration function monotonic over the calibrated range: slope at its flatter end "
+        "over slope at its steeper end greater than 0", ratio, 0.0,
+        None if ratio is None else ratio > 0,
+        "not applicable: the slope is zero at both ends of the range" if ratio is None else
+        ("" if ratio > 0 else "the curve turns over inside the calibrated range: some responses "
+         "correspond to two concentrations")))
+    if crit.r_squared_min is not None:
+        r2 = cal.fit.r_squared
+        out.append(Criterion("r-squared", f"coefficient of determination R² at least {crit.r_squared_min:g}",
+                             r2, crit.r_squared_min, at_least(r2, crit.r_squared_min),
+                             "" if not missing(r2) else "not applicable: R² does not exist "
+                             "(the responses do not vary)"))
+    return tuple(out)
+
+
+# --- the results.json form of a calibration ---------------------------------------------------
+
+
+@dataclass(frozen=True)
+class LevelCount:
+    concentration: float
+    replicates: int
+
+
+@dataclass(frozen=True)
+class CoefficientRecord:
+    """A coefficient as results.json writes it."""
+
+    estimate: float
+    std_error: float
+    ci: ConfidenceInterval = field(metadata={"interval": "pair"})
+    t_statistic: float | None
+    pvalue: float | None = field(metadata={"json": "p_value"})
+
+    @property
+    def null_reason(self) -> str:
+        return "the standard error is zero (exact fit): no t test" if self.t_statistic is None else ""
+
+
+@dataclass(frozen=True)
+class TestRecord:
+    """An applicable test as results.json writes it (``method`` only where several methods exist)."""
+
+    method: str | None = field(metadata={"omit_none": True})
+    statistic: float
+    pvalue: float | None = field(metadata={"json": "p_value"})
+    df: tuple[float, ...] | None = field(metadata={"omit_none": True})
+
+
+@dataclass(frozen=True)
+class MandelRecord(TestRecord):
+    weighting: str | None            # the weighting the test was computed under
+
+
+@dataclass(frozen=True)
+class OutlierRecord:
+    studentised_limit: float | None
+    cooks_limit: float | None
+    flagged: tuple[OutlierFlag, ...]
+    null_reason: str = field(metadata={"json": None})     # why the limits are missing, when they are
+
+
+def _record_test(t: TestResult, with_method: bool = False) -> TestRecord | None:
+    return None if not t.applicable else TestRecord(t.method if with_method else None, t.statistic, t.pvalue, t.df)
+
+
+def _test_field(name: str):
+    """A test's field: ``null`` when it is not applicable, listed under its own name with its reason."""
+    return field(metadata={"null_reason": f"{name}_reason", "null_item": name})
+
+
+@dataclass(frozen=True, kw_only=True)
+class CalibrationRecord:
+    """A calibration as results.json writes it (field order and ``metadata`` give the form); the
+    reason of each missing value is declared beside it."""
+
+    model: str
+    weighting: str
+    through_origin: bool
+    model_choice: str
+    n: int
+    levels: int
+    level_table: tuple[LevelCount, ...]
+    df_resid: int
+    confidence_level: float
+    t_quantile: float
+    coefficients: dict[str, CoefficientRecord]
+    residual_sd: float
+    r_squared: float | None = field(metadata={"null_reason": "r_squared_reason"})
+    r: float | None = field(metadata={"null_reason": "r_reason"})
+    lack_of_fit: TestRecord | None = _test_field("lack_of_fit")
+    mandel: MandelRecord | None = _test_field("mandel")
+    choice_steps: tuple[ChoiceStep, ...]
+    normality: TestRecord | None = _test_field("normality")
+    heteroscedasticity: TestRecord | None = _test_field("heteroscedasticity")
+    levene: TestRecord | None = _test_field("levene")
+    intercept_test: TestRecord | None = _test_field("intercept_test")
+    weighting_candidates: tuple[WeightingCandidate, ...]
+    outliers: OutlierRecord
+    back_calculated: tuple[BackCalculated, ...]
+    fraction_within_tolerance: float | None = field(metadata={"null_reason": "fraction_reason"})
+    sensitivity_ratio: float | None = field(metadata={"null_reason": "sensitivity_reason"})
+    residuals: tuple[float, ...]
+    r_reason: str = field(metadata={"json": None})
+    lack_of_fit_reason: str = field(default="", metadata={"json": None})
+    mandel_reason: str = field(default="", metadata={"json": None})
+    normality_reason: str = field(default="", metadata={"json": None})
+    heteroscedasticity_reason: str = field(default="", metadata={"json": None})
+    levene_reason: str = field(default="", metadata={"json": None})
+    intercept_test_reason: str = field(default="", metadata={"json": None})
+
+    r_squared_reason = "the responses do not vary about their mean: R² does not exist"
+    fraction_reason = "no calibrator with a non-zero nominal value"
+    sensitivity_reason = "the slope of the calibration function is zero at both ends of the range"
+
+
+def calibration_record(cal: CalibrationResult) -> CalibrationRecord:
+    """The results.json form of ``cal``: the fit's summary, the tests, the calibrators.
+
+    r = sign(slope) sqrt(R²), for a straight line only (R² >= 0).
+    """
+    fit = cal.fit
+    r = None
+    if fit.r_squared >= 0 and "slope" in fit.coefficients and fit.n_params <= 2:
+        r = (1 if fit.coefficients["slope"].estimate >= 0 else -1) * fit.r_squared ** 0.5
+    mandel = cal.mandel
+    tests = {"lack_of_fit": cal.lack_of_fit, "mandel": mandel, "normality": cal.normality,
+             "heteroscedasticity": cal.heteroscedasticity, "levene": cal.levene, "intercept_test": cal.intercept_test}
+    return CalibrationRecord(
+        model=cal.model, weighting=cal.weighting, through_origin=cal.through_origin, model_choice=cal.model_choice,
+        n=fit.n, levels=len(cal.levels),
+        level_table=tuple(LevelCount(c, k) for c, k in zip(cal.levels, cal.replicates)),
+        df_resid=fit.df_resid, confidence_level=1 - fit.alpha, t_quantile=fit.t_quantile,
+        coefficients={name: CoefficientRecord(c.estimate, c.std_error, c.ci, c.statistic, c.pvalue)
+                      for name, c in fit.coefficients.items()},
+        residual_sd=fit.residual_sd, r_squared=fit.r_squared, r=r,
+        lack_of_fit=_record_test(cal.lack_of_fit),
+        mandel=None if not mandel.applicable else MandelRecord(None, mandel.statistic, mandel.pvalue, mandel.df,
+                                                               cal.mandel_weighting),
+        choice_steps=cal.choice_steps, normality=_record_test(cal.normality, True),
+        heteroscedasticity=_record_test(cal.heteroscedasticity, True), levene=_record_test(cal.levene, True),
+        intercept_test=_record_test(cal.intercept_test), weighting_candidates=cal.weighting_candidates,
+        outliers=OutlierRecord(cal.studentised_limit, cal.cooks_limit, cal.outliers,
+                               "the fit is exact (zero residual SD): residuals cannot be studentised" if fit.exact
+                               else "needs at least one residual degree of freedom after leaving a point out "
+                               "(n - p - 1 >= 1)"),
+        back_calculated=cal.back_calculated, fraction_within_tolerance=cal.fraction_within_tolerance,
+        sensitivity_ratio=cal.sensitivity_ratio, residuals=tuple(fit.residuals.tolist()),
+        r_reason=("r is reported for a straight line only; see r_squared" if fit.n_params > 2
+                  else "R² does not exist for these data"),
+        **{f"{name}_reason": t.reason for name, t in tests.items() if not t.applicable})

@@ -16,9 +16,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..maths.method_comparison import BlandAltman, Deming, PassingBablok, bland_altman, deming, passing_bablok
+from ...criteria import Criterion, interval_within, missing
+from ...maths.method_comparison import BlandAltman, Deming, PassingBablok, bland_altman, deming, passing_bablok
 
-__all__ = ["ComparisonPoint", "ComparisonResult", "assess_comparison"]
+__all__ = ["ComparisonPoint", "ComparisonResult", "assess_comparison", "comparison_criteria"]
 
 
 def _rule(limits, ideal, name):
@@ -101,3 +102,32 @@ def assess_comparison(samples, reference, test, *, error_ratio=1.0, slope_limits
     ok_icpt, icpt_basis = _judge(pb.intercept_ci, intercept_limits, 0.0, "intercept")
     return ComparisonResult(**common, passed=bool(ok_slope and ok_icpt),
                             basis=f"Passing-Bablok: {slope_basis} and {icpt_basis}", reason="")
+
+
+def _interval(ci):
+    """[low, high] of a confidence interval, or None when it does not exist."""
+    if ci is None:
+        return None
+    pair = [getattr(ci, "low", None), getattr(ci, "high", None)]
+    return None if missing(pair) else pair
+
+
+def comparison_criteria(comparison, slope_limits=None, intercept_limits=None) -> tuple:
+    """Method comparison: the Passing-Bablok slope and intercept CIs, each judged on its own.
+
+    Each CI must lie inside its limits where the study gives them, else contain the ideal
+    value (slope 1, intercept 0); together they are the comparison's verdict [EP09].
+    A CI that does not exist gives a not-applicable criterion with the comparison's reason.
+    """
+    pb = comparison.passing_bablok
+    reason = getattr(comparison, "reason", "") or "the Passing-Bablok interval does not exist"
+    out = []
+    for name, ci, limits, ideal in (("slope", pb.slope_ci, slope_limits, 1.0),
+                                    ("intercept", pb.intercept_ci, intercept_limits, 0.0)):
+        value = _interval(ci)
+        limit = list(limits) if limits is not None else ideal
+        rule = f"inside [{limits[0]:g}, {limits[1]:g}]" if limits is not None else f"contains {ideal:g}"
+        out.append(Criterion(f"method-comparison-{name}", f"Passing-Bablok {name} CI {rule}", value, limit,
+                             interval_within(value, limit),
+                             "" if value is not None else f"not applicable: {reason}"))
+    return tuple(out)

@@ -1,0 +1,51 @@
+"""Plain-language sentences for the EP17-A2 limits, built only from their results.json entry."""
+
+from __future__ import annotations
+
+from ...report.text import fmt
+
+__all__ = ["sentences", "figures"]
+
+
+def _lots(part: dict) -> str:
+    lots = part["lots"]
+    return "" if len(lots) < 2 else f", the largest of {len(lots)} reagent lots"
+
+
+def sentences(entry: dict, reading) -> dict:
+    unit = reading.unit
+    out = {}
+    lob = entry["lob"]
+    if lob["value"] is None:
+        out["lob"] = f"No limit of blank: {lob['reason']}."
+    elif lob["method"] == "nonparametric":
+        out["lob"] = (f"Limit of blank {fmt(lob['value'])} {unit}: the {fmt(100 * lob['percentile'])}th percentile "
+                      f"of the blank results by rank interpolation{_lots(lob)} (non-parametric, CLSI EP17-A2).")
+    else:
+        out["lob"] = (f"Limit of blank {fmt(lob['value'])} {unit}: mean + c_p·SD of the blank results"
+                      f"{_lots(lob)} (parametric, CLSI EP17-A2).")
+    lod = entry["lod"]
+    if lod is None:
+        out["lod"] = f"No limit of detection: {entry['lod_reason']}."
+    elif lod["value"] is None:
+        out["lod"] = f"No limit of detection: {lod['reason']}."
+    else:
+        out["lod"] = (f"Limit of detection {fmt(lod['value'])} {unit} = LoB + c_p·SD of the low-level samples"
+                      f"{_lots(lod)}: a sample at this concentration gives a result above the LoB with a "
+                      "probability of about 95 %.")
+    loq = entry["loq"]
+    if loq is None:
+        out["loq"] = f"No limit of quantitation: {entry['loq_reason']}."
+    elif loq["value"] is None:
+        out["loq"] = f"No limit of quantitation: {loq['reason']}."
+    else:
+        out["loq"] = (f"Limit of quantitation {fmt(loq['value'])} {unit}: the lowest tested level meeting the accuracy "
+                      "goal, with every higher level meeting it too, and not below the LoD.")
+    notes = list(lob["notes"]) + (list(lod["notes"]) if lod else []) + (list(loq["notes"]) if loq else [])
+    if notes:
+        out["design"] = "Design: " + "; ".join(notes) + "."
+    return out
+
+
+def figures(entry: dict, reading) -> dict:
+    return {}

@@ -1,0 +1,30 @@
+"""Matrix effect (SANTE/11312/2021 slope ratio; ICH M10 matrix lots and IS-normalised matrix factor):
+the ``[matrix_effect]`` section."""
+
+from __future__ import annotations
+
+from .._entry import Assessment, Characteristic
+from . import presentation, settings
+from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
+from .settings import MatrixEffectData, MatrixEffectSection
+
+__all__ = ["ENTRY", "MatrixEffect"]
+
+
+def assess(ctx) -> Assessment[MatrixEffect] | None:
+    """The analyte's matrix effect and its criteria; ``None`` when it has no matrix-effect data.
+    The matrix-matched calibration is the analyte's ``[calibration]`` data."""
+    data: MatrixEffectData | None = ctx.data_of(ENTRY)
+    s: MatrixEffectSection | None = ctx.settings_of(ENTRY)
+    if data is None or s is None:
+        return None
+    cal = ctx.data.calibration
+    result = matrix_effect(data, cal.concentration, cal.response, level=1 - ctx.alpha, variance=s.variance,
+                           limit_pct=s.limit_pct, lot_max_bias_pct=s.lot_max_bias_pct, lot_max_cv_pct=s.lot_max_cv_pct,
+                           min_lots=s.min_lots, min_replicates=s.min_replicates, factor_max_cv_pct=s.factor_max_cv_pct)
+    return Assessment(result, matrix_effect_criteria(result, judge_slope_ratio=s.judge_slope_ratio, limit_pct=s.limit_pct))
+
+
+ENTRY: Characteristic[MatrixEffect] = Characteristic(
+    "matrix_effect", "Matrix effect", assess, settings=settings.MatrixEffectSection, load=settings.load, result_types=(MatrixEffect,),
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/matrix_effect.html.j2")

@@ -1,0 +1,102 @@
+"""Matrix effect judged: the SANTE slope ratio with its interval, ICH M10 matrix lots, and the
+internal-standard-normalised matrix factor.
+
+Thin wrappers over :mod:`validator.sector.matrix_effect`. The matrix-matched calibration is the
+study's ``[calibration]`` data, fitted here as an unweighted straight line like the solvent one
+(the slope ratio compares two ordinary least-squares slopes, whatever model the calibration
+section chose for quantification).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ...criteria import Criterion, interval_within
+from ...sector.matrix_effect import (LotAccuracyAssessment, NormalisedMatrixFactor, SlopeRatioMatrixEffect,
+                                     lot_accuracy, normalised_matrix_factor, slope_ratio_matrix_effect)
+
+__all__ = ["MatrixEffect", "matrix_effect", "matrix_effect_criteria"]
+
+NEAT = "neat"
+
+
+@dataclass(frozen=True)
+class MatrixEffect:
+    """What was assessed; a part not assessed is ``None`` (or an empty tuple of lots) with its reason."""
+
+    slope_ratio: SlopeRatioMatrixEffect | None = field(metadata={"null_reason": "slope_ratio_reason"})
+    lots: tuple[LotAccuracyAssessment, ...]
+    normalised_factor: NormalisedMatrixFactor | None = field(metadata={"null_reason": "factor_reason"})
+    slope_ratio_reason: str = ""
+    factor_reason: str = ""
+
+
+def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, variance: str = "pooled",
+                  limit_pct: float = 20.0, lot_max_bias_pct: float = 15.0, lot_max_cv_pct: float = 15.0,
+                  min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0) -> MatrixEffect:
+    """Each part for which ``data`` (a ``MatrixEffectData``) holds results.
+
+    Notes
+    -----
+    Slope ratio: ME % = 100 (b_matrix / b_solvent − 1), Fieller's interval at ``level``
+    (:func:`~validator.sector.matrix_effect.slope_ratio_matrix_effect`). Lots: accuracy
+    100·mean/nominal and CV per lot at each nominal level
+    (:func:`~validator.sector.matrix_effect.lot_accuracy`). Matrix factor: per lot, mean response in
+    matrix over mean response in neat solution, analyte over IS; CV across lots
+    (:func:`~validator.sector.matrix_effect.normalised_matrix_factor`).
+    """
+    slope = None
+    slope_reason = ""
+    if data.solvent_concentration is None:
+        slope_reason = "no solvent calibration (solvent_data) was given"
+    else:
+        slope = slope_ratio_matrix_effect(data.solvent_concentration, data.solvent_response, matrix_concentration,
+                                          matrix_response, level=level, variance=variance, limit_percent=limit_pct)
+    lots = ()
+    if data.lot_found is not None:
+        lots = tuple(lot_accuracy(data.lot_found[data.lot_nominal == nominal],
+                                  [lot for lot, nom in zip(data.lots, data.lot_nominal) if nom == nominal],
+                                  float(nominal), max_bias_percent=lot_max_bias_pct, max_cv_percent=lot_max_cv_pct,
+                                  min_lots=min_lots, min_replicates=min_replicates)
+                     for nominal in np.unique(data.lot_nominal))
+    factor = None
+    factor_reason = ""
+    if data.factor_analyte is None:
+        factor_reason = "no matrix-factor responses (factor_data) were given"
+    else:
+        neat = np.array([lot.casefold() == NEAT for lot in data.factor_lots])
+        factor = normalised_matrix_factor(data.factor_analyte[~neat], data.factor_internal_standard[~neat],
+                                          [lot for lot, n in zip(data.factor_lots, neat) if not n],
+                                          data.factor_analyte[neat], data.factor_internal_standard[neat],
+                                          max_cv_percent=factor_max_cv_pct, min_lots=max(min_lots, 2))
+    return MatrixEffect(slope, lots, factor, slope_reason, factor_reason)
+
+
+def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, limit_pct: float) -> tuple[Criterion, ...]:
+    """``matrix-effect-slope-ratio`` (only when judged), ``matrix-lots-<nominal>`` per QC level,
+    ``matrix-factor-cv``."""
+    out = []
+    if judge_slope_ratio:
+        sr = result.slope_ratio
+        value = None if sr is None else sr.statistic
+        why = result.slope_ratio_reason or (sr.reason if sr is not None else "")
+        limit = [-limit_pct, limit_pct]
+        out.append(Criterion("matrix-effect-slope-ratio",
+                             f"matrix effect ME % = 100 (slope in matrix / slope in solvent − 1) within ±{limit_pct:g} %",
+                             value, limit, interval_within([value, value], limit) if value is not None else None,
+                             "" if value is not None else f"not applicable: {why or 'it does not exist'}"))
+    for lv in result.lots:
+        out.append(Criterion(f"matrix-lots-{lv.nominal:g}",
+                             f"every matrix lot (at least {lv.min_lots}) at nominal {lv.nominal:g}: accuracy within "
+                             f"±{lv.max_bias_percent:g} % and CV at most {lv.max_cv_percent:g} %; value: lots meeting it",
+                             lv.n_lots_passed, max(lv.n_lots, lv.min_lots), lv.passed,
+                             "" if lv.passed is not None else f"not applicable: {lv.reason}"))
+    mf = result.normalised_factor
+    if mf is not None:
+        out.append(Criterion("matrix-factor-cv",
+                             f"CV of the IS-normalised matrix factor across lots at most {mf.max_cv_percent:g} %",
+                             mf.cv_percent, mf.max_cv_percent, mf.passed,
+                             "" if mf.passed is not None else f"not applicable: {mf.reason}"))
+    return tuple(out)

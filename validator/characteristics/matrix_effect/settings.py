@@ -1,0 +1,97 @@
+"""The ``[matrix_effect]`` section and its data files.
+
+```toml
+[matrix_effect]
+solvent_data = "solvent-calibration.csv"   # columns concentration, response; optional analyte
+                                           # ([calibration] is the matrix-matched one)
+lots_data = "matrix-lots.csv"              # ICH M10: columns lot, nominal, found; optional analyte
+factor_data = "matrix-factor.csv"          # columns lot, analyte_response, internal_standard_response;
+                                           # rows with lot "neat" are the neat-solution responses
+```
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal, Optional
+
+import numpy as np
+from pydantic import Field, model_validator
+
+from ...inputs.study import DataPath, _Section
+
+__all__ = ["MatrixEffectSection", "MatrixEffectData", "load", "NEAT"]
+
+NEAT = "neat"        # the lot name that marks neat-solution rows of factor_data (any case)
+
+
+class MatrixEffectSection(_Section):
+    solvent_data: Optional[DataPath] = None
+    variance: Literal["pooled", "separate"] = "pooled"
+    limit_pct: float = Field(20.0, gt=0, le=1000)
+    judge_slope_ratio: bool = False          # a criterion |ME %| <= limit_pct (else the flag only)
+    lots_data: Optional[DataPath] = None
+    lot_max_bias_pct: float = Field(15.0, gt=0, le=100)
+    lot_max_cv_pct: float = Field(15.0, gt=0, le=100)
+    min_lots: int = Field(6, ge=1, le=10000)
+    min_replicates: int = Field(3, ge=2, le=10000)
+    factor_data: Optional[DataPath] = None
+    factor_max_cv_pct: float = Field(15.0, gt=0, le=100)
+
+    @model_validator(mode="after")
+    def _some_data(self):
+        if self.solvent_data is None and self.lots_data is None and self.factor_data is None:
+            raise ValueError("give at least one of solvent_data, lots_data and factor_data")
+        return self
+
+
+@dataclass(frozen=True)
+class MatrixEffectData:
+    solvent_concentration: np.ndarray | None = field(default=None, repr=False)
+    solvent_response: np.ndarray | None = field(default=None, repr=False)
+    lots: tuple[str, ...] = field(default=(), repr=False)
+    lot_nominal: np.ndarray | None = field(default=None, repr=False)
+    lot_found: np.ndarray | None = field(default=None, repr=False)
+    factor_lots: tuple[str, ...] = field(default=(), repr=False)
+    factor_analyte: np.ndarray | None = field(default=None, repr=False)
+    factor_internal_standard: np.ndarray | None = field(default=None, repr=False)
+
+
+def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
+    """``{analyte: MatrixEffectData}`` for every analyte with rows in any of the files."""
+    from ...errors import DataError, show
+    from ...inputs.sector_tables import labels, numbers, positive, read_rows
+
+    parts: dict = {}
+    if settings.solvent_data is not None:
+        table, rows = read_rows(reader, "matrix_effect.solvent_data", settings.solvent_data,
+                                ("concentration", "response"), (), analytes, "solvent calibration point")
+        x, y = numbers(reader, table, "concentration"), numbers(reader, table, "response")
+        for i, v in enumerate(x):
+            if v < 0:
+                raise DataError(f"concentration {show(table.columns['concentration'][i])} is negative",
+                                file=table.path, row=table.rows[i], column="concentration", value=v)
+        for name, idx in rows.items():
+            parts.setdefault(name, {}).update(solvent_concentration=x[idx], solvent_response=y[idx])
+    if settings.lots_data is not None:
+        table, rows = read_rows(reader, "matrix_effect.lots_data", settings.lots_data, ("lot", "nominal", "found"),
+                                (), analytes, "matrix-lot result")
+        lots, nominal, found = labels(table, "lot", ""), numbers(reader, table, "nominal"), numbers(reader, table, "found")
+        positive(table, "nominal", nominal)
+        for name, idx in rows.items():
+            parts.setdefault(name, {}).update(lots=tuple(lots[i] for i in idx), lot_nominal=nominal[idx],
+                                              lot_found=found[idx])
+    if settings.factor_data is not None:
+        table, rows = read_rows(reader, "matrix_effect.factor_data", settings.factor_data,
+                                ("lot", "analyte_response", "internal_standard_response"), (), analytes,
+                                "matrix-factor response")
+        lots = labels(table, "lot", "")
+        a, s = numbers(reader, table, "analyte_response"), numbers(reader, table, "internal_standard_response")
+        for name, idx in rows.items():
+            if not any(lots[i].casefold() == NEAT for i in idx):
+                raise DataError(f'analyte "{name}" has no neat-solution rows (lot "{NEAT}"): the matrix factor '
+                                "compares each lot with the neat solution", file=table.path,
+                                row=table.rows[idx[0]], column="lot")
+            parts.setdefault(name, {}).update(factor_lots=tuple(lots[i] for i in idx), factor_analyte=a[idx],
+                                              factor_internal_standard=s[idx])
+    return {name: MatrixEffectData(**values) for name, values in parts.items()}

@@ -1,0 +1,47 @@
+"""Sentences and the figure of differences for incurred-sample reanalysis, from its results.json entry."""
+
+from __future__ import annotations
+
+from ...report.plots import PALETTE, figure, points, svg
+from ...report.text import fmt
+
+__all__ = ["sentences", "figures"]
+
+
+def sentences(entry: dict, reading) -> dict:
+    if entry["n"] == 0:
+        return {"summary": f"No reanalysed samples: {entry['reason']}."}
+    word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[entry["passed"]]
+    out = {"summary": (f"{entry['n_within']} of {entry['n']} repeats ({fmt(100 * entry['fraction_within'], 3)} %) lie "
+                       f"within ±{fmt(entry['limit_percent'])} % of the mean of original and repeat; the study "
+                       f"{word} its requirement of at least {fmt(100 * entry['min_fraction'], 3)} %.")}
+    if entry["n_undefined"]:
+        out["undefined"] = (f"{entry['n_undefined']} pair(s) have a mean of zero or below, so no % difference: "
+                            "they count as not within the limit.")
+    return out
+
+
+def figures(entry: dict, reading) -> dict:
+    """``differences``: each sample's % difference against the mean of its two results, with ± the limit."""
+    rows = [s for s in entry["samples"] if s["difference_percent"] is not None]
+    if not rows:
+        return {}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    means = [(s["original"] + s["repeat"]) / 2 for s in rows]
+    inside = [s["within"] for s in rows]
+    points(ax, [m for m, ok in zip(means, inside) if ok],
+           [s["difference_percent"] for s, ok in zip(rows, inside) if ok], "o", label="within the limit")
+    points(ax, [m for m, ok in zip(means, inside) if not ok],
+           [s["difference_percent"] for s, ok in zip(rows, inside) if not ok], "s", colour=PALETTE["bad"],
+           label="outside the limit")
+    lim = entry["limit_percent"]
+    for y in (-lim, lim):
+        ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
+    ax.axhline(0, color=PALETTE["ink"], lw=0.6)
+    if min(means) > 0 and max(means) / min(means) > 20:
+        ax.set_xscale("log")
+    ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
+    ax.set_ylabel("(repeat − original) / mean, %")
+    ax.legend(loc="best", frameon=False)
+    fig.tight_layout()
+    return {"differences": svg(fig, f"isr{reading.key}")}

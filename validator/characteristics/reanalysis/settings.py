@@ -1,0 +1,56 @@
+"""The ``[reanalysis]`` section (incurred-sample reanalysis, ICH M10) and its data file.
+
+```toml
+[reanalysis]
+data = "isr.csv"        # columns sample, original, repeat; optional analyte
+limit_pct = 20
+min_fraction = 0.67
+```
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from pydantic import Field
+
+from ...inputs.study import DataPath, _Section
+
+__all__ = ["ReanalysisSection", "ReanalysisData", "load"]
+
+
+class ReanalysisSection(_Section):
+    data: DataPath
+    limit_pct: float = Field(20.0, gt=0, le=100)
+    # compared exactly with the fraction of repeats within the limit: 0.67 is not 2/3 (20 of 30 fails it)
+    min_fraction: float = Field(2 / 3, gt=0, le=1)
+
+
+@dataclass(frozen=True)
+class ReanalysisData:
+    samples: tuple[str, ...]
+    original: np.ndarray = field(repr=False)
+    repeat: np.ndarray = field(repr=False)
+
+
+def load(reader, settings: ReanalysisSection, analytes: dict) -> dict:
+    """``{analyte: ReanalysisData}``; a sample listed twice for one analyte is an error at its row."""
+    from ...errors import DataError, show
+    from ...inputs.sector_tables import labels, numbers, read_rows
+
+    table, rows = read_rows(reader, "reanalysis", settings.data, ("sample", "original", "repeat"), (),
+                            analytes, "reanalysed sample")
+    samples = labels(table, "sample", "")
+    original, repeat = numbers(reader, table, "original"), numbers(reader, table, "repeat")
+    out = {}
+    for name, idx in rows.items():
+        first: dict = {}
+        for i in idx:
+            if samples[i] in first:
+                raise DataError(f'sample "{show(samples[i])}" appears again (first at row {first[samples[i]]}); '
+                                "one original and one repeat result per sample", file=table.path,
+                                row=table.rows[i], column="sample", value=samples[i])
+            first[samples[i]] = table.rows[i]
+        out[name] = ReanalysisData(tuple(samples[i] for i in idx), original[idx], repeat[idx])
+    return out

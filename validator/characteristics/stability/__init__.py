@@ -1,0 +1,26 @@
+"""Stability (ICH M10): the ``[stability]`` section."""
+
+from __future__ import annotations
+
+from .._entry import Assessment, Characteristic
+from . import presentation, settings
+from .analysis import StabilityResult, assess_stability, stability_criteria
+from .settings import StabilityData, StabilitySection
+
+__all__ = ["ENTRY", "StabilityResult"]
+
+
+def assess(ctx) -> Assessment[StabilityResult] | None:
+    """The analyte's stability conditions and their criteria; ``None`` when it has no stability results."""
+    data: StabilityData | None = ctx.data_of(ENTRY)
+    s: StabilitySection | None = ctx.settings_of(ENTRY)
+    if data is None or s is None:
+        return None
+    result = assess_stability(data, reference=s.reference, limit_pct=s.limit_pct, judged_on=s.judged_on,
+                              min_replicates=s.min_replicates, level=1 - ctx.alpha)
+    return Assessment(result, stability_criteria(result))
+
+
+ENTRY: Characteristic[StabilityResult] = Characteristic(
+    "stability", "Stability", assess, settings=settings.StabilitySection, load=settings.load, result_types=(StabilityResult,),
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/stability.html.j2")

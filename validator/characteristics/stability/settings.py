@@ -1,0 +1,59 @@
+"""The ``[stability]`` section (ICH M10) and its data file.
+
+```toml
+[stability]
+data = "stability.csv"   # columns condition (e.g. "bench-top 24 h", "3 freeze-thaw cycles"), nominal, found;
+                         # optional analyte. With reference = "fresh", rows with condition "fresh" are the
+                         # freshly prepared comparison samples of their nominal level.
+```
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Literal
+
+import numpy as np
+from pydantic import Field
+
+from ...inputs.study import DataPath, _Section
+
+__all__ = ["StabilitySection", "StabilityData", "load", "FRESH"]
+
+FRESH = "fresh"
+
+
+class StabilitySection(_Section):
+    data: DataPath
+    reference: Literal["nominal", "fresh"] = "nominal"
+    limit_pct: float = Field(15.0, gt=0, le=100)
+    judged_on: Literal["estimate", "interval"] = "estimate"
+    min_replicates: int = Field(3, ge=2, le=10000)
+
+
+@dataclass(frozen=True)
+class StabilityData:
+    conditions: tuple[str, ...]
+    nominal: np.ndarray = field(repr=False)
+    found: np.ndarray = field(repr=False)
+
+
+def load(reader, settings: StabilitySection, analytes: dict) -> dict:
+    """``{analyte: StabilityData}``; with ``reference = "fresh"`` each nominal level needs fresh rows."""
+    from ...errors import DataError
+    from ...inputs.sector_tables import labels, numbers, positive, read_rows
+
+    table, rows = read_rows(reader, "stability", settings.data, ("condition", "nominal", "found"), (), analytes,
+                            "stability result")
+    conditions = labels(table, "condition", "")
+    nominal, found = numbers(reader, table, "nominal"), numbers(reader, table, "found")
+    positive(table, "nominal", nominal)
+    out = {}
+    for name, idx in rows.items():
+        if settings.reference == "fresh":
+            for i in idx:
+                if not any(conditions[j].casefold() == FRESH and nominal[j] == nominal[i] for j in idx):
+                    raise DataError(f'reference = "fresh" but nominal {nominal[i]:g} has no "{FRESH}" rows to compare '
+                                    "with", file=table.path, row=table.rows[i], column="nominal", value=nominal[i])
+        out[name] = StabilityData(tuple(conditions[i] for i in idx), nominal[idx], found[idx])
+    return out

@@ -1,0 +1,56 @@
+"""The validated working range and the verification of the reported LOQ with data near it.
+
+Two registry entries, after detection, recovery and precision, whose results they read:
+:data:`LOQ_CHECK` (written inside results.json's detection section as ``loq_verification``;
+its limit ``loq_rsd_max_pct`` is a key of the ``[detection]`` table) and :data:`ENTRY`. Parts:
+:mod:`.analysis` (pure, criteria), :mod:`.presentation` (sentences), fragment
+``report_templates/characteristics/working_range.html.j2``.
+"""
+
+from __future__ import annotations
+
+from .. import _legacy, calibration, detection, recovery
+from .._entry import Assessment, Characteristic
+from . import presentation
+from .analysis import (LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range,
+                       working_range_criterion)
+
+__all__ = ["ENTRY", "LOQ_CHECK", "WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq",
+           "working_range_criterion", "loq_criterion"]
+
+
+def _recovery_levels(ctx) -> tuple:
+    found = ctx.result_of(recovery.ENTRY)
+    return found.levels if found is not None else ()
+
+
+def _precision_levels(ctx) -> tuple:
+    return ctx.result_of(_legacy.PRECISION) or ()
+
+
+def assess_loq(ctx) -> Assessment[LoqCheck]:
+    check = verify_loq(ctx.result_of(detection.ENTRY).reported.loq, _precision_levels(ctx), _recovery_levels(ctx),
+                       ctx.settings_of(detection.ENTRY).loq_rsd_max_pct)
+    return Assessment(check, (loq_criterion(check),) if check.levels else ())
+
+
+def assess(ctx) -> Assessment[WorkingRange]:
+    """The range narrowed by every recovery or precision level that fails its own criteria."""
+    reported = ctx.result_of(detection.ENTRY).reported
+    levels, precision = _recovery_levels(ctx), _precision_levels(ctx)
+    assessed = [lv.added for lv in levels] + [lv.level for lv in precision]
+    failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
+               + [(lv.level, "precision") for lv in precision if _legacy.precision_level_failed(ctx, lv)])
+    wr = working_range(ctx.result_of(calibration.ENTRY).back_calculated, reported.loq, reported.method, failing,
+                       assessed, ctx.unit)
+    return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
+                                                   (reported.reason or "it does not exist for these data")),))
+
+
+LOQ_CHECK: Characteristic[LoqCheck] = Characteristic(
+    "loq_check", "LOQ verification", assess_loq, result_types=(LoqCheck,), sentences=presentation.loq_sentences,
+    json_path="detection.loq_verification")
+
+ENTRY: Characteristic[WorkingRange] = Characteristic(
+    "working_range", "Working range", assess, result_types=(WorkingRange,), sentences=presentation.sentences,
+    fragment="characteristics/working_range.html.j2")

@@ -1,0 +1,24 @@
+"""The working range and the LOQ verification in plain language, from their results.json entries alone."""
+
+from __future__ import annotations
+
+from ...report.text import fmt
+
+__all__ = ["sentences", "loq_sentences"]
+
+
+def sentences(wr: dict, reading) -> dict[str, str]:
+    """``range``: the validated working range and its basis."""
+    if wr["low"] is None:
+        return {"range": f"No working range can be stated: {wr['basis']}."}
+    return {"range": f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {reading.unit} "
+                     f"({wr['basis']})."}
+
+
+def loq_sentences(lv: dict, reading) -> dict[str, str]:
+    """``verdict``: whether the precision near the LOQ supports it."""
+    if lv["pass"] is None:
+        return {"verdict": f"The LOQ could not be verified with data near it: {lv['reason']}."}
+    state = "supports" if lv["pass"] else "does NOT support"
+    return {"verdict": f"The precision at levels up to 2 × LOQ {state} the LOQ: every RSD there is "
+                       f"{'at most' if lv['pass'] else 'not all within'} {fmt(lv['rsd_max_pct'])} %."}
