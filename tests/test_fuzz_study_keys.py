@@ -44,7 +44,7 @@ BASE = {
                            "standard_uncertainty": "0.15"},
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
-    "reporting": {"unit": '"mg/kg"', "aliquot": "2.0", "final_volume": "10.0"},
+    "sample_preparation": {"unit": '"mg/kg"', "aliquot": "2.0", "final_volume": "10.0"},
     # the sector characteristics (issue #15), on small files written by the data_folder fixture
     "limit_of_blank": {"blanks": '"lob-blanks.csv"', "low_samples": '"lob-low.csv"', "loq_max_cv_pct": "20",
                        "lob_max": "0.5"},

@@ -176,7 +176,7 @@ NOT_CRITERIA = {
     "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
     # the run exports, how their columns and type words map, and which calibration quantifies them
     "runs": ALL, "columns": ALL, "types": ALL,
-    "reporting": ALL,           # the reporting unit and sample preparation: how results are expressed
+    "sample_preparation": ALL,           # the reporting unit and sample preparation: how results are expressed
 }
 NOT_CRITERIA["calibration"] = NOT_CRITERIA["calibration"] + ("quantify_with",)
 

@@ -11,8 +11,8 @@ from __future__ import annotations
 
 from .characteristics import (_legacy, calibration, carry_over, comparison, detection, dilution_integrity,
                               limit_of_blank, matrix_effect, method_detection_limit, reanalysis, recovery,
-                              reference_material, reporting, revalidation, runs, samples, selectivity, stability,
-                              working_range)
+                              reference_material, revalidation, runs, sample_preparation, samples, selectivity,
+                              stability, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -21,7 +21,7 @@ REGISTRY: tuple[Characteristic, ...] = (
     calibration.ENTRY,               # first: its data name the analytes
     runs.ENTRY,                      # run exports: each run's calibration gives the found values below
     samples.ENTRY,
-    reporting.ENTRY,                 # the samples in the reporting unit (preparation factors)
+    sample_preparation.ENTRY,                 # the samples in the reporting unit (preparation factors)
     detection.BLANKS,
     detection.ENTRY,
     recovery.ENTRY,

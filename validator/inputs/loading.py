@@ -225,8 +225,8 @@ _LEGACY_LOADERS = {"precision": _precision}
 
 
 def _check_preparations(study, samples: dict, runs) -> None:
-    """Every per-sample preparation in [reporting] names a sample of the data (else it would apply to nothing)."""
-    reporting = getattr(study.config, "reporting", None)
+    """Every per-sample preparation in [sample_preparation] names a sample of the data (else it would apply to nothing)."""
+    reporting = getattr(study.config, "sample_preparation", None)
     if reporting is None or not reporting.samples:
         return
     ids = {s.id for group in samples.values() for s in group}
@@ -235,7 +235,7 @@ def _check_preparations(study, samples: dict, runs) -> None:
     for sid in reporting.samples:
         if sid not in ids:
             raise StudyError(f'no sample has the id "{show(sid)}", so this preparation would apply to nothing',
-                             file=study.shown, key=f"reporting.samples.{sid}", value=sid)
+                             file=study.shown, key=f"sample_preparation.samples.{sid}", value=sid)
 
 
 def load_study(path: str | Path) -> LoadedStudy:

@@ -1,9 +1,9 @@
 """Sample preparation and reporting units: each sample's result in the reporting unit.
 
-The study's ``[reporting]`` table (:mod:`.settings`) gives the reporting unit and each sample's
+The study's ``[sample_preparation]`` table (:mod:`.settings`) gives the reporting unit and each sample's
 dilution factor, aliquot and final volume; :mod:`.analysis` multiplies the sample's x0, s(x0) and
 interval by the factor; the chain is kept for the audit trail; ``report_templates/
-characteristics/reporting.html.j2`` shows it.
+characteristics/sample_preparation.html.j2`` shows it.
 """
 
 from __future__ import annotations
@@ -26,6 +26,6 @@ def assess(ctx) -> Assessment[ReportingResult] | None:
 
 
 ENTRY: Characteristic[ReportingResult] = Characteristic(
-    "reporting", "Results in the reporting unit", assess, settings=settings.ReportingSection,
+    "sample_preparation", "Results in the reporting unit", assess, settings=settings.ReportingSection,
     result_types=(ReportingResult, ReportedSample), sentences=presentation.sentences,
-    fragment="characteristics/reporting.html.j2")
+    fragment="characteristics/sample_preparation.html.j2")

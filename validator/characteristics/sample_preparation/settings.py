@@ -1,10 +1,10 @@
-"""Sample preparation and the reporting unit: the ``[reporting]`` table of the study file.
+"""Sample preparation and the reporting unit: the ``[sample_preparation]`` table of the study file.
 
 A sample's result is first the concentration in the measured solution (the calibration's unit).
-``[reporting]`` states how a sample was prepared, by default and per sample id, so that the
+``[sample_preparation]`` states how a sample was prepared, by default and per sample id, so that the
 result is also given in the reporting unit (e.g. mg/kg of the sample)::
 
-    [reporting]
+    [sample_preparation]
     unit = "µg/kg"
     dilution_factor = 1            # the measured solution was diluted this many times
     aliquot = 2.0                  # mass or volume of sample taken (e.g. g)
@@ -50,7 +50,7 @@ class Preparation(_Section):
 
 
 class ReportingSection(_Section):
-    """``[reporting]``: the reporting unit and how samples were prepared (default, and per sample id)."""
+    """``[sample_preparation]``: the reporting unit and how samples were prepared (default, and per sample id)."""
 
     unit: Text = Field(min_length=1, max_length=TEXT_LIMITS["concentration_unit"], pattern=r"\S")
     dilution_factor: Amount = 1.0
