@@ -76,6 +76,23 @@ def anions():
     # certified reference material for nitrate (invented certificate: 12.5 mg/L, u = 0.15 mg/L)
     write(folder / "crm.csv", ("found",), [(f"{12.5 * (1 + rng.normal(-0.004, 0.012)):.3f}",) for _ in range(6)])
 
+    # nested precision: 3 days x 2 runs x 2 replicates at 3 levels (each run with its own calibration);
+    # one result of the middle fluoride level was lost (unbalanced: REML). Its own generator, so that
+    # the files above and the second example keep their numbers.
+    nested_rng = np.random.default_rng(20261202)
+    runs = []
+    for name, levels, bias in (("nitrate", (0.5, 10.0, 30.0), 0.992), ("fluoride", (0.1, 0.5, 1.5), 1.006)):
+        for level in levels:
+            for day in range(1, 4):
+                day_effect = nested_rng.normal(0, 0.010 * level)
+                for run in range(1, 3):
+                    run_effect = nested_rng.normal(0, 0.008 * level)
+                    lost = name == "fluoride" and level == 0.5 and day == 3 and run == 2
+                    for _ in range(1 if lost else 2):
+                        found = bias * level + day_effect + run_effect + nested_rng.normal(0, 0.012 * level)
+                        runs.append((name, level, f"day-{day}", f"run-{run}", f"{found:.4f}"))
+    write(folder / "precision-runs.csv", ("analyte", "level", "day", "run", "found"), runs)
+
 
 def after_maintenance():
     """The same laboratory re-validates after the suppressor and conductivity cell were replaced.

@@ -33,9 +33,10 @@ CATALOGUE = [
      "{dir}/study.toml, key calibration: required section is missing"),
     ("template-override", CALIB + '[report]\ntemplate = "mine.html"\n', None, "",
      "{dir}/study.toml, line 8, key report: unknown section; allowed: study, calibration, samples, "
-     "criteria, blanks, detection, recovery, precision, reference_material, revalidation, comparison, "
-     "sample_preparation, limit_of_blank, method_detection_limit, matrix_effect, carry_over, selectivity, "
-     "stability, dilution_integrity, reanalysis, exclusions, runs, columns, types, design, protocol"),
+     "criteria, blanks, detection, recovery, precision, accuracy_profile, uncertainty, reference_material, "
+     "revalidation, comparison, sample_preparation, limit_of_blank, method_detection_limit, matrix_effect, "
+     "carry_over, selectivity, stability, dilution_integrity, reanalysis, exclusions, runs, columns, types, "
+     "design, protocol"),
     ("data-missing", '[calibration]\ndata = "nope.csv"\n', {}, "",
      "nope.csv: data file not found (looked for {dir}/nope.csv); `validator protocol` works without data, "
      "`check` and `run` need it"),

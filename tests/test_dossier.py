@@ -106,8 +106,8 @@ def test_html_is_self_contained(demo_out):
         assert tag["href"].startswith("#")
     for tag in soup.find_all(src=True):
         assert tag["src"].startswith("data:")
-    # per analyte, inline: calibration, diagnostics, recovery, precision
-    assert len(soup.select("svg")) == 4 * 2
+    # per analyte, inline: calibration, diagnostics, recovery, precision, accuracy profile
+    assert len(soup.select("svg")) == 5 * 2
 
 
 def test_pdf_text_pages_and_previews(demo_out, artefacts):

@@ -55,6 +55,8 @@ BASE = {
     "stability": {"data": '"stability.csv"'},
     "dilution_integrity": {"data": '"dilution.csv"'},
     "reanalysis": {"data": '"isr.csv"'},
+    "accuracy_profile": {"acceptance_pct": "15"},
+    "uncertainty": {"coverage_factor": "2", "bias_from": "[\"recovery\", \"reference_material\"]"},
 }
 SECTOR_FILES = {     # invented demo data for the nitrate analyte of the anions example
     "lob-blanks.csv": "analyte,found\n" + "".join(f"nitrate,{0.01 * i}\n" for i in range(12)),

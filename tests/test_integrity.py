@@ -62,7 +62,7 @@ def test_verify_detects_one_byte_change_in_output(run_once, tmp_path, capsys, na
     assert capsys.readouterr().out == f"validator: CHANGED: output {name} differs from the manifest\n"
 
 
-@pytest.mark.parametrize("name", ["study.toml", "calibration.csv", "samples.csv", "precision.csv"])
+@pytest.mark.parametrize("name", ["study.toml", "calibration.csv", "samples.csv", "precision-runs.csv"])
 def test_verify_detects_one_byte_change_in_input(run_once, capsys, name):
     inputs, out = run_once
     original = (inputs / name).read_bytes()

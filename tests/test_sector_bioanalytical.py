@@ -165,9 +165,32 @@ def test_isr_two_thirds_boundary_is_exact():
     assert lba.n_within == 2                               # hand: 28/114 = 24.6 %, 40/120 = 33.3 %
 
 
-def test_isr_undefined_difference_counts_as_not_within():
-    res = incurred_sample_reanalysis([0.0, 100.0, 100.0], [0.0, 101.0, 99.0])
-    assert res.samples[0].difference_percent is None and res.n_undefined == 1 and res.n_within == 2
+def test_isr_pair_of_zeros_is_not_judged_and_left_out_of_the_fraction():
+    res = incurred_sample_reanalysis([0.0, 100.0, 100.0], [0.0, 101.0, 99.0], sample=["Z", "A", "B"])
+    zero = res.samples[0]
+    assert zero.difference_percent is None and zero.within is None and "both 0" in zero.reason
+    # hand computation: 2 judged pairs (1/100.5 and -1/99.5, both within), fraction 2/2 = 1
+    assert (res.n, res.n_judged, res.n_within, res.n_undefined) == (3, 2, 2, 1)
+    assert res.fraction_within == 1.0 and res.passed is True
+    assert any("left out of the fraction: Z" in n for n in res.notes)
+    # different results with a mean not above zero cannot be shown to agree: not within (hand: mean 0)
+    apart = incurred_sample_reanalysis([-1.0, 100.0, 100.0], [1.0, 101.0, 99.0])
+    assert apart.samples[0].within is False and apart.n_judged == 3 and apart.n_within == 2
+    only_zeros = incurred_sample_reanalysis([0.0, 0.0], [0.0, 0.0])
+    assert only_zeros.passed is None and only_zeros.fraction_within is None and "can be judged" in only_zeros.reason
+
+
+def test_isr_few_samples_are_stated_beside_the_verdict():
+    from validator.characteristics.reanalysis.analysis import reanalysis_criteria
+    res = incurred_sample_reanalysis([100.0, 50.0], [105.0, 52.0])
+    # hand computation: 5/102.5 = 4.9 %, 2/51 = 3.9 %: 2 of 2 within, passed; one sample moves the fraction 50 points
+    assert res.passed is True and res.n_judged == 2
+    assert any("rests on 2 reanalysed sample(s), fewer than 20" in n and "50 percentage points" in n
+               for n in res.notes)
+    (crit,) = reanalysis_criteria(res)
+    assert crit.passed is True and crit.note.startswith("note: the fraction rests on 2")
+    # 20 judged samples: no such note (threshold: this tool's choice, no published source)
+    assert incurred_sample_reanalysis([100.0] * 20, [101.0] * 20).notes == ()
     with pytest.raises(ValueError, match="must pair up"):
         incurred_sample_reanalysis([1.0], [1.0, 2.0])
     with pytest.raises(ValueError, match=r"min_fraction must lie in \(0.0, 1.0\], got 1.5"):

@@ -192,7 +192,69 @@ def test_lob_refuses_non_finite_results():
         limit_of_blank([0.0, float("nan"), 1.0])
 
 
-def test_constant_blanks_do_not_warn():
+def test_constant_blanks_give_no_parametric_lob_and_do_not_warn():
     res = limit_of_blank([0.0] * 20, method="parametric", purpose="verification")
-    assert res.value == 0.0                                  # hand: mean 0, SD 0
+    # hand: mean 0, SD 0: identical (censored) blanks estimate no percentile by mean + c_p SD; not applicable
+    assert res.value is None and "SD 0" in res.reason and "non-parametric" in res.reason
+    assert res.lots[0].sd == 0.0
+    # the non-parametric LoB of the same data exists: the 95th percentile of twenty zeros is 0 (hand)
+    assert limit_of_blank([0.0] * 20, purpose="verification").value == 0.0
     assert ep17.MINIMUM_RESULTS_PER_LOT == {"establishment": 60, "verification": 20}
+
+
+@pytest.mark.parametrize("samples, lots, expected", [
+    (["a"] * 2, ["1"] * 2, "lot 1: 2 blank results from 1 sample(s)"),        # hand count: 2 < 20
+    (["a"] * 20, ["1"] * 20, "lot 1: 20 blank results from 1 sample(s)"),     # hand count: 1 < 2 samples
+    (["a", "b"] * 10, ["1"] * 20, ""),                                         # 20 results, 2 samples: met
+    (["a", "b"] * 15, ["1"] * 20 + ["2"] * 10, "lot 2: 10 blank results"),     # 2 lots: each lot counts
+    (["a", "b"] * 20, ["1", "2", "3", "4"] * 10, ""),                          # 4 lots: all 40 together
+])
+def test_verification_shortfall(samples, lots, expected):
+    # from memory: CLSI EP17-A2 sec. 6, at least 20 results from 2 samples; counts by hand
+    got = ep17.verification_shortfall(samples, lots, "blank")
+    assert (got == "") if expected == "" else got.startswith(expected)
+    assert (ep17.VERIFICATION_MINIMUM_RESULTS, ep17.VERIFICATION_MINIMUM_SAMPLES) == (20, 2)
+
+
+def test_four_or_more_lots_combine_all_results_for_lob_and_lod():
+    # from memory: EP17-A2 5.3.3.1: 2 or 3 reagent lots -> largest lot value; 4 or more -> all lots combined
+    rng = np.random.default_rng(415)
+    lots = np.repeat(["A", "B", "C", "D"], 15)
+    blanks = rng.normal(0.02, 0.03, 60) + np.repeat([0.0, 0.01, 0.02, 0.005], 15)
+    blank_samples = np.tile(["b1", "b2", "b3"], 20)
+    res = limit_of_blank(blanks, lot=lots, sample=blank_samples)
+    # cross-check: numpy Hazen quantile (rank 0.5 + p N) of all 60 results together
+    pooled = float(np.quantile(blanks, 0.95, method="hazen"))
+    assert res.lot_rule == "lots combined"
+    assert res.value == pytest.approx(pooled, rel=1e-13)
+    assert res.combined.n_results == 60 and res.combined.rank == pytest.approx(57.5)
+    # the per-lot values are still shown: Hazen quantile of each lot's 15 results
+    assert [lot.value for lot in res.lots] == pytest.approx(
+        [float(np.quantile(blanks[lots == k], 0.95, method="hazen")) for k in "ABCD"], rel=1e-13)
+    par = limit_of_blank(blanks, lot=lots, sample=blank_samples, method="parametric")
+    mean, var = _exact_mean_var(blanks)
+    # hand computation: M_B + c_p SD_B over all 60 results, c_p = 1.645 / (1 - 1/(4 (60 - 3)))
+    cp = Fraction(1645, 1000) / (1 - Fraction(1, 4 * 57))
+    assert par.value == pytest.approx(float(mean) + float(cp) * math.sqrt(var), rel=1e-12)
+
+    low = rng.normal(0.3, 0.05, 60) + np.repeat([0.0, 0.02, -0.01, 0.01], 15)
+    low_samples = np.tile(["s1", "s2", "s3"], 20)
+    lod = limit_of_detection(low, low_samples, res.value, lot=lots)
+    # cross-check: statsmodels OLS on the 3 sample indicators over all 60 results (residual SD = pooled SD_L)
+    dummies = np.column_stack([(low_samples == s).astype(float) for s in ("s1", "s2", "s3")])
+    sd_l = math.sqrt(sm.OLS(low, dummies).fit().scale)
+    assert lod.lot_rule == "lots combined" and lod.combined.sd == pytest.approx(sd_l, rel=1e-12)
+    # hand computation: c_p = 1.645 / (1 - 1/(4 (60 - 3)))
+    assert lod.value == pytest.approx(res.value + float(cp) * sd_l, rel=1e-12)
+
+
+def test_two_or_three_lots_report_the_largest_and_one_lot_its_own():
+    rng = np.random.default_rng(416)
+    x = rng.normal(0, 1, 90)
+    three = limit_of_blank(x, lot=np.repeat(["A", "B", "C"], 30))
+    # cross-check: numpy Hazen quantile per lot; from memory EP17-A2 5.3.3.1: 2-3 lots -> the largest
+    assert three.lot_rule == "largest lot" and three.combined is None
+    assert three.value == pytest.approx(max(float(np.quantile(x[i:i + 30], 0.95, method="hazen"))
+                                            for i in (0, 30, 60)), rel=1e-13)
+    assert "combined only from 4 lots" in three.combined_reason
+    assert limit_of_blank(x).lot_rule == "one lot"

@@ -37,7 +37,7 @@ def _joint_fit(xs, ys, xm, ym):
 
 
 def test_slopes_and_delta_se_match_joint_statsmodels_fit():
-    res = slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX)
+    res = slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, variance="pooled")
     fit = _joint_fit(X, Y_SOLVENT, X, Y_MATRIX)
     b_s, b_m = fit.params[1], fit.params[1] + fit.params[3]
     cov = fit.cov_params()
@@ -60,11 +60,12 @@ def test_slopes_and_delta_se_match_joint_statsmodels_fit():
     assert res.interval == res.fieller_interval and res.interval.level == 0.95
     # hand: ME about -19.6 %, inside the default +/-20 % but beyond a 15 % limit
     assert res.beyond_limit is False
-    assert slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, limit_percent=15.0).beyond_limit is True
+    assert slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, limit_percent=15.0,
+                                     variance="pooled").beyond_limit is True
 
 
 def test_fieller_limits_are_where_the_joint_t_test_reaches_the_critical_value():
-    res = slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, level=0.90)
+    res = slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, level=0.90, variance="pooled")
     fit = _joint_fit(X, Y_SOLVENT, X, Y_MATRIX)
     t_crit = stats.t.isf(0.05, fit.df_resid)
     for me in (res.fieller_interval.low, res.fieller_interval.high):
@@ -97,7 +98,7 @@ def test_fieller_coverage_by_simulation():
     for _ in range(n_sim):
         ys = 2.0 + 10.0 * X + rng.normal(0, 8.0, X.size)
         ym = 1.0 + 8.0 * X + rng.normal(0, 8.0, X.size)
-        res = slope_ratio_matrix_effect(X, ys, X, ym)
+        res = slope_ratio_matrix_effect(X, ys, X, ym, variance="pooled")
         hits += res.fieller_interval.contains(-20.0)
         hits_delta += res.delta_interval.contains(-20.0)
     se = math.sqrt(0.95 * 0.05 / n_sim)          # binomial SE of the coverage estimate, about 0.0049
@@ -184,3 +185,74 @@ def test_normalised_matrix_factor_by_hand():
     assert [r.normalised_factor for r in res.lots] == pytest.approx([float(e) for e in expected], rel=1e-14)
     assert res.cv_percent == pytest.approx(100 * sd / float(mean), rel=1e-12)
     assert res.passed is (res.cv_percent <= 15)
+
+
+def test_judged_slope_ratio_without_a_bounded_interval_is_not_applicable():
+    from validator.characteristics.matrix_effect.analysis import MatrixEffect, matrix_effect_criteria
+    flat = np.array([5.0, -3.0, 4.0, -2.0, 6.0, 1.0])            # a solvent "calibration" with no slope
+    for variance in ("pooled", "separate"):
+        sr = slope_ratio_matrix_effect(X, flat, X, Y_MATRIX, variance=variance)
+        # cross-check: statsmodels OLS of the solvent line; Fieller's set is unbounded exactly when
+        # |b_s / SE(b_s)| <= t (g = t^2 var(b_s) / b_s^2 >= 1), SE from the variance model used
+        fit = sm.OLS(flat, sm.add_constant(X)).fit()
+        t_slope = abs(fit.params[1]) / sr.se_slope_solvent
+        assert t_slope <= stats.t.isf(0.025, sr.df)
+        if variance == "separate":
+            assert sr.se_slope_solvent == pytest.approx(fit.bse[1], rel=1e-9)
+        assert sr.statistic is not None and abs(sr.statistic) > 20 and sr.interval is None
+        (crit,) = matrix_effect_criteria(MatrixEffect(sr, (), None), judge_slope_ratio=True, limit_pct=20.0)
+        # not shown is not passed: an estimate without a bounded interval is not judged (it was FAIL)
+        assert crit.passed is None and crit.value is None
+        assert "no bounded interval" in crit.note and "unbounded" in crit.note
+    exact = slope_ratio_matrix_effect(X, 2 * X, X, 3 * X)
+    (crit,) = matrix_effect_criteria(MatrixEffect(exact, (), None), judge_slope_ratio=True, limit_pct=60.0)
+    assert crit.passed is True and crit.value == pytest.approx(50.0)   # hand: (3/2 - 1) x 100 within +/-60
+
+
+def test_weighted_lines_separate_variances_match_statsmodels_wls():
+    xm = np.array([1.0, 2.0, 4.0, 8.0, 16.0, 32.0, 64.0])
+    ym = np.array([9.0, 17.5, 33.0, 70.2, 131.0, 270.5, 530.0])
+    ws, wm = 1 / X ** 2, 1 / xm ** 2
+    res = slope_ratio_matrix_effect(X, Y_SOLVENT, xm, ym, weighting="1/x^2", weights_solvent=ws,
+                                    weights_matrix=wm)
+    assert res.variance == "separate" and res.weighting == "1/x^2"       # the default variance model
+    # cross-check: statsmodels WLS with weights 1/x^2, one fit per calibration
+    fs = sm.WLS(Y_SOLVENT, sm.add_constant(X), weights=ws).fit()
+    fm = sm.WLS(ym, sm.add_constant(xm), weights=wm).fit()
+    b_s, b_m, v_s, v_m = fs.params[1], fm.params[1], fs.bse[1] ** 2, fm.bse[1] ** 2
+    r = b_m / b_s
+    assert res.slope_solvent == pytest.approx(b_s, rel=1e-12) and res.slope_matrix == pytest.approx(b_m, rel=1e-12)
+    assert res.se_slope_solvent == pytest.approx(fs.bse[1], rel=1e-9)
+    assert res.se_slope_matrix == pytest.approx(fm.bse[1], rel=1e-9)
+    # hand computation: Welch-Satterthwaite df of b_m - R b_s on the WLS slope variances
+    df = (v_m + r * r * v_s) ** 2 / (v_m ** 2 / 5 + r ** 4 * v_s ** 2 / 4)
+    assert res.df == pytest.approx(df, rel=1e-9)
+    # Fieller limits: |b_m - R b_s| / sqrt(v_m + R^2 v_s) = t(df) at each limit (hand, on statsmodels' values)
+    t = stats.t.isf(0.025, df)
+    for me in (res.interval.low, res.interval.high):
+        rr = 1 + me / 100
+        assert abs(b_m - rr * b_s) / math.sqrt(v_m + rr * rr * v_s) == pytest.approx(t, rel=1e-7)
+
+
+def test_weighted_lines_pooled_variance_match_joint_statsmodels_wls():
+    ws, wm = 1 / X, 1 / X
+    res = slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, variance="pooled", weighting="1/x",
+                                    weights_solvent=ws, weights_matrix=wm)
+    x = np.concatenate([X, X])
+    m = np.r_[np.zeros(X.size), np.ones(X.size)]
+    # cross-check: statsmodels WLS of the joint model y = a + b x + c M + d M x, weights 1/x (one sigma)
+    fit = sm.WLS(np.concatenate([Y_SOLVENT, Y_MATRIX]), np.column_stack([np.ones_like(x), x, m, m * x]),
+                 weights=np.concatenate([ws, wm])).fit()
+    b_s, b_m = fit.params[1], fit.params[1] + fit.params[3]
+    assert res.slope_ratio == pytest.approx(b_m / b_s, rel=1e-12) and res.df == fit.df_resid
+    assert res.se_slope_solvent == pytest.approx(math.sqrt(fit.cov_params()[1, 1]), rel=1e-9)
+    t = stats.t.isf(0.025, fit.df_resid)
+    for me in (res.interval.low, res.interval.high):
+        r = 1 + me / 100
+        tv = float(np.squeeze(fit.t_test(np.array([[0, 1 - r, 0, 1]])).tvalue))
+        assert abs(tv) == pytest.approx(t, rel=1e-8)
+
+
+def test_weights_must_be_positive_and_one_per_point():
+    with pytest.raises(ValueError, match="weights_solvent: expected 6 positive weights"):
+        slope_ratio_matrix_effect(X, Y_SOLVENT, X, Y_MATRIX, weights_solvent=np.r_[1 / X[:5], 0.0])

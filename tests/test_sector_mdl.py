@@ -131,3 +131,19 @@ def test_batch_count_note():
     assert res.notes == ("spiked samples from 2 batch(es), fewer than the 3 Appendix B asks for",)
     with pytest.raises(ValueError, match="spiked_batches: expected 7 labels"):
         method_detection_limit(SPIKED, [NAN] * 7, spiked_batches=["a"])
+
+
+def test_exactly_100_blanks_states_the_reading_used_and_the_other_value():
+    # 100 blanks, 2 without a numerical result (ranked lowest), 98 numerical 0.01 .. 0.98
+    blanks = np.concatenate([[NAN, NAN], np.arange(1, 99) / 100])
+    res = method_detection_limit(SPIKED, blanks)
+    # hand computation: "more than 100" reading -> the highest blank 0.98; the "100 or more" reading
+    # -> rank round(0.99 x 100) = 99 of 100 ascending = the 97th numerical blank, 0.97
+    assert res.blank_rule == "highest blank" and res.blank == pytest.approx(0.98)
+    assert "more than 100 method blanks" in res.blank_rule_reading
+    assert "exactly 100 method blanks" in res.blank_rule_reading and "rank 99, 0.97)" in res.blank_rule_reading
+    # 99 blanks: both readings agree, only the reading is stated (hand: highest 0.98)
+    fewer = method_detection_limit(SPIKED, blanks[1:])
+    assert fewer.blank == pytest.approx(0.98) and "exactly" not in fewer.blank_rule_reading
+    # all blanks numerical: the threshold does not apply, nothing to state
+    assert method_detection_limit(SPIKED, np.arange(1, 11) / 100).blank_rule_reading == ""

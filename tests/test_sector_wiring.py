@@ -36,11 +36,14 @@ def _criteria(results, prefix):
 
 # ------------------------------------------------------------------ limit of blank (CLSI EP17-A2)
 BLANKS = [0.01 * i for i in range(60)]          # 0.00, 0.01, ..., 0.59: rank 57.5 -> (0.56 + 0.57)/2
-LOW = {"L1": [0.9, 1.1, 1.0, 0.95, 1.05, 1.0], "L2": [2.1, 1.9, 2.0, 2.05, 1.95, 2.0]}
+LOW = {"L1": [0.9, 1.1, 1.0, 0.95, 1.05, 1.0, 0.92, 1.08, 0.97, 1.03],
+       "L2": [2.1, 1.9, 2.0, 2.05, 1.95, 2.0, 2.08, 1.92, 2.03, 1.97]}
 
 
 def _lob_files():
-    blanks = "found\n" + "".join(f"{v:.2f}\n" for v in BLANKS)
+    # two blank samples (b1, b2 alternating) and 2 x 10 low-level results: the EP17-A2 verification
+    # minimum of 20 results from 2 samples (from memory: EP17-A2 sec. 6) is met
+    blanks = "sample,found\n" + "".join(f"b{1 + i % 2},{v:.2f}\n" for i, v in enumerate(BLANKS))
     low = "sample,found,nominal\n" + "".join(f"{s},{v},{1.0 if s == 'L1' else 2.0}\n"
                                              for s, vs in LOW.items() for v in vs)
     from conftest import CALIBRATION
@@ -65,9 +68,9 @@ def test_limit_of_blank_end_to_end(make_study, outside):
     # hand computation: rank 0.5 + 0.95 x 60 = 57.5, the mean of the 57th and 58th sorted blanks
     assert entry["lob"]["lots"][0]["rank"] == pytest.approx(57.5)
     assert entry["lob"]["value"] == pytest.approx((0.56 + 0.57) / 2, abs=1e-12)
-    # hand computation: SD_L pooled over the two samples (5 df each), c_p = 1.645 / (1 - 1/(4 (12 - 2)))
+    # hand computation: SD_L pooled over the two samples (9 df each), c_p = 1.645 / (1 - 1/(4 (20 - 2)))
     pooled = math.sqrt((np.var(LOW["L1"], ddof=1) + np.var(LOW["L2"], ddof=1)) / 2)
-    cp = 1.645 / (1 - 1 / (4 * (12 - 2)))
+    cp = 1.645 / (1 - 1 / (4 * (20 - 2)))
     assert entry["lod"]["lots"][0]["coverage_factor"] == pytest.approx(cp, rel=1e-12)
     assert entry["lod"]["value"] == pytest.approx(0.565 + cp * pooled, rel=1e-12)
     # LoQ: both levels meet CV <= 10 %, so the lowest (nominal 1), which lies above the LoD
@@ -94,6 +97,57 @@ def test_limit_of_blank_without_low_samples_is_not_shown_so_not_passed(make_stud
     items = {e["item"]: e["reason"] for e in results["analytes"][0]["not_applicable"]}
     assert "no low-level results" in items["limit_of_blank.lod"]
     assert results["analytes"][0]["verdict"] == "incomplete"
+
+
+def _criteria_of(make_study, outside, body, files, name):
+    _, results, _ = _run(make_study(body, files), outside, name=name)
+    return {c["id"]: c for c in _criteria(results, "limit-of")}, results
+
+
+def test_limit_of_blank_degenerate_designs_are_not_passed(make_study, outside):
+    from conftest import CALIBRATION
+    body = LOB_BODY.replace("loq_max_cv_pct = 10\n", "loq_max_cv_pct = 50\nloq_max = 5\n")
+    # 2 blank results from 1 sample, 2 low-level results from 1 sample: below the EP17-A2 verification
+    # minimum of 20 results from 2 samples (from memory: EP17-A2 sec. 6), so no verdict (counts by hand)
+    tiny = {"calibration.csv": CALIBRATION, "blanks.csv": "sample,found\nb,0.01\nb,0.02\n",
+            "low.csv": "sample,found,nominal\nL1,1.0,1.0\nL1,1.1,1.0\n"}
+    parametric = body.replace("[limit_of_blank]", '[limit_of_blank]\nmethod = "parametric"')
+    by_id, results = _criteria_of(make_study, outside, parametric.replace("lob_max = 0.6", "lob_max = 5")
+                                  .replace("lod_max = 0.6", "lod_max = 5"), tiny, "tiny")
+    lob = results["analytes"][0]["limit_of_blank"]["lob"]
+    # hand computation: c_p = 1.645 / (1 - 1/(4 (2 - 1))) = 2.1933..., computed and shown, not judged
+    assert lob["lots"][0]["coverage_factor"] == pytest.approx(1.645 / 0.75, rel=1e-12)
+    for cid in ("limit-of-blank", "limit-of-detection", "limit-of-quantitation"):
+        assert by_id[cid]["pass"] is None, cid
+        assert "verification minimum of 20 results from 2 samples" in by_id[cid]["note"], cid
+    # 20 identical blanks, parametric: SD 0 gives no LoB, so no verdict (hand: mean 0, SD 0)
+    files = _lob_files()
+    files["blanks.csv"] = "sample,found\n" + "b1,0.0\nb2,0.0\n" * 10
+    by_id, _ = _criteria_of(make_study, outside, parametric, files, "zero")
+    assert by_id["limit-of-blank"]["pass"] is None and "SD 0" in by_id["limit-of-blank"]["note"]
+    assert by_id["limit-of-detection"]["pass"] is None
+    # one reagent lot of 60 blanks (establishment asks for 2 lots and 60 low-level results per lot): the
+    # verdict stands, the shortfall is stated beside it in the criterion's note (hand: 0.565 <= 0.6)
+    by_id, _ = _criteria_of(make_study, outside, LOB_BODY, _lob_files(), "onelot")
+    assert by_id["limit-of-blank"]["pass"] is True
+    assert by_id["limit-of-blank"]["note"] == ("design: 1 reagent lot(s), fewer than the 2 CLSI EP17-A2 asks "
+                                               "for establishment")
+    assert "20 low-level results, fewer than the 60" in by_id["limit-of-detection"]["note"]
+
+
+def test_limit_of_blank_four_lots_are_combined_end_to_end(make_study, outside):
+    files = _lob_files()
+    # the 60 blanks of _lob_files spread over 4 reagent lots of 15 (A, B, C, D in turn)
+    files["blanks.csv"] = "sample,lot,found\n" + "".join(f"b{1 + i % 2},{'ABCD'[i % 4]},{v:.2f}\n"
+                                                         for i, v in enumerate(BLANKS))
+    _, results, out = _run(make_study(LOB_BODY, files), outside, "json,html")
+    lob = results["analytes"][0]["limit_of_blank"]["lob"]
+    # hand computation: all 60 results together, rank 57.5 -> (0.56 + 0.57) / 2 (from memory: EP17-A2
+    # 5.3.3.1, 4 or more lots combined); each lot alone would give its own 95th percentile
+    assert lob["lot_rule"] == "lots combined" and lob["combined"]["n_results"] == 60
+    assert lob["value"] == pytest.approx(0.565, abs=1e-12) and len(lob["lots"]) == 4
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert 'data-src="analytes.0.limit_of_blank.lob.combined.value"' in html and "all lots combined" in html
 
 
 def test_limit_of_blank_loader_errors_name_file_row_column_value(make_study):
@@ -143,7 +197,21 @@ def test_reanalysis_by_hand_and_exact_two_thirds(make_study, outside):
     defaults = {d["key"] for d in results["defaults_applied"]}
     assert {"reanalysis.limit_pct", "reanalysis.min_fraction"} <= defaults
     html = (out / "dossier.html").read_text(encoding="utf-8")
-    assert "4 of 6 repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    assert "4 of 6 judged repeats" in html and "<svg" in html.split("Incurred-sample reanalysis")[1]
+    assert "rests on 6 reanalysed sample(s)" in crit["note"]           # few samples: stated beside the verdict
+
+
+def test_reanalysis_pair_of_zeros_is_not_judged(make_study, outside):
+    _, results, out = _run(make_study(ISR_BODY, _isr_files(ISR + [("S7", 0, 0)])), outside, "json,html")
+    entry = results["analytes"][0]["reanalysis"]
+    s7 = entry["samples"][6]
+    # hand computation: S7 has mean 0, % difference undefined, left out: still 4 of 6 judged within
+    assert s7["difference_percent"] is None and s7["within"] is None and "both 0" in s7["reason"]
+    assert (entry["n"], entry["n_judged"], entry["n_within"]) == (7, 6, 4)
+    items = {e["item"]: e["reason"] for e in results["analytes"][0]["not_applicable"]}
+    assert any("both 0" in reason for item, reason in items.items() if "samples.6" in item)
+    assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is True
+    assert "not judged" in (out / "dossier.html").read_text(encoding="utf-8")
     # 0.67 is not two-thirds: 4/6 = 0.6667 < 0.67 fails (compared exactly)
     _, results, _ = _run(make_study(ISR_BODY + "min_fraction = 0.67\n", _isr_files()), outside, name="b")
     assert _criteria(results, "incurred-sample-reanalysis")[0]["pass"] is False
@@ -222,6 +290,7 @@ ME_BODY = """\
 data = "calibration.csv"
 [matrix_effect]
 solvent_data = "solvent.csv"
+variance = "pooled"
 judge_slope_ratio = true
 limit_pct = 5
 """
@@ -270,13 +339,43 @@ def test_matrix_effect_slope_ratio_interval_against_joint_statsmodels_fit(make_s
     assert crit["pass"] is (abs(sr["statistic"]) <= 5)
 
 
+def test_matrix_effect_uses_the_calibration_weighting_and_separate_variances_by_default(make_study, outside):
+    import statsmodels.api as sm
+    from conftest import CALIBRATION
+
+    body = ME_BODY.replace('variance = "pooled"\n', "").replace('data = "calibration.csv"\n',
+                                                                 'data = "calibration.csv"\nweighting = "1/x^2"\n')
+    _, results, out = _run(make_study(body, _me_files()), outside, "json,html")
+    sr = results["analytes"][0]["matrix_effect"]["slope_ratio"]
+    assert sr["weighting"] == "1/x^2" and sr["variance"] == "separate"
+    matrix = np.array([[float(v) for v in line.split(",")] for line in CALIBRATION.splitlines()[1:]])
+    solvent = np.array(SOLVENT, dtype=float)
+    # cross-check: statsmodels WLS (weights 1/x^2), one fit per calibration
+    fits = [sm.WLS(d[:, 1], sm.add_constant(d[:, 0]), weights=1 / d[:, 0] ** 2).fit() for d in (solvent, matrix)]
+    (b_s, v_s), (b_m, v_m) = ((f.params[1], f.bse[1] ** 2) for f in fits)
+    r = b_m / b_s
+    assert sr["statistic"] == pytest.approx(100 * (r - 1), rel=1e-9)
+    # hand computation: Welch-Satterthwaite df of b_m - R b_s
+    df = (v_m + r * r * v_s) ** 2 / (v_m ** 2 / (len(matrix) - 2) + r ** 4 * v_s ** 2 / (len(solvent) - 2))
+    assert sr["df"] == pytest.approx(df, rel=1e-9)
+    assert "weighted 1/x^2" in (out / "dossier.html").read_text(encoding="utf-8")
+    # a solvent blank at concentration 0 cannot be weighted 1/x^2: no slope ratio, with the reason
+    files = _me_files()
+    files["solvent.csv"] += "0,0.01\n"
+    _, results, _ = _run(make_study(body, files), outside, name="zero")
+    entry = results["analytes"][0]["matrix_effect"]
+    assert entry["slope_ratio"] is None and "needs every solvent-calibration concentration > 0" in \
+        entry["slope_ratio_reason"]
+    assert _criteria(results, "matrix-effect-slope-ratio")[0]["pass"] is None
+
+
 def test_matrix_lots_and_normalised_factor_by_hand(make_study, outside):
     lots = "lot,nominal,found\n" + "".join(f"P{k},3,{3 * (1 + 0.02 * k) + d}\n" for k in range(1, 7)
                                            for d in (-0.03, 0.0, 0.03))
     lots += "".join(f"P{k},80,{80 + d}\n" for k in range(1, 6) for d in (-1, 0, 1))      # 5 lots at high QC
     factor = ("lot,analyte_response,internal_standard_response\nneat,100,50\nneat,102,51\n"
               + "".join(f"P{k},{90 + k},{45 + k / 2}\n" for k in range(1, 7)))
-    body = ME_BODY.replace('solvent_data = "solvent.csv"\njudge_slope_ratio = true\nlimit_pct = 5\n',
+    body = ME_BODY.replace('solvent_data = "solvent.csv"\nvariance = "pooled"\njudge_slope_ratio = true\nlimit_pct = 5\n',
                            'lots_data = "lots.csv"\nfactor_data = "factor.csv"\n')
     _, results, out = _run(make_study(body, _me_files(**{"lots.csv": lots, "factor.csv": factor})), outside, "json,html")
     entry = results["analytes"][0]["matrix_effect"]
@@ -342,7 +441,11 @@ def test_mdl_by_hand_with_scipy_t_quantile(make_study, outside):
     assert e["value"] == pytest.approx(max(e["spiked"], 0.31), rel=1e-15)
     crit = _criteria(results, "method-detection-limit")[0]
     assert crit["pass"] is (e["value"] <= 0.5)
-    assert "Method detection limit" in (out / "dossier.html").read_text(encoding="utf-8")
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "Method detection limit" in html
+    # the reading of the 100-blank threshold is stated in results.json and the dossier
+    assert e["blank_rule_reading"].startswith("40 CFR 136 Appendix B Rev. 2, II(2)")
+    assert "Rule applied: 40 CFR 136 Appendix B Rev. 2, II(2)" in html
 
 
 def test_mdl_all_blanks_numerical_and_bad_cell(make_study, outside):

@@ -229,7 +229,40 @@ def test_claims_from_a_study():
     assert rep.observed_sd == pytest.approx(math.sqrt(3.0), rel=1e-14)   # MS_e = 3, hand computation
     unbalanced = nested_variance_components(Y[:-1], [DAY[:-1], RUN[:-1]], names=("day", "run"))
     rep, wl, reason = verify_precision_claims(unbalanced, repeatability_sd=2.0, within_laboratory_sd=5.0)
-    assert rep is not None and wl is None and "unbalanced" in reason
+    # unbalanced: the within-laboratory SD has the Satterthwaite df of the REML information
+    assert reason == "" and rep is not None and wl.df == pytest.approx(unbalanced.intermediate_precision.df)
+
+
+def test_reml_information_df_equals_anova_satterthwaite_when_balanced():
+    # theory (Searle, Casella & McCulloch 1992, ch. 4 and 6): in a balanced design with every ANOVA
+    # estimate positive, REML equals ANOVA and the inverse REML information gives Var(sum of components)
+    # = 2 sum (c_q E[MS_q])^2 / n_q, so 2 g^2 / Var(g) is the ANOVA Satterthwaite df
+    rng = np.random.default_rng(20261202)
+    y, day, run = _simulate_nested(rng, 5, 2, 3, 0.5, 0.3, 0.2)
+    anova = nested_variance_components(y, [day, run], names=("day", "run"))
+    reml = nested_variance_components(y, [day, run], names=("day", "run"), method="reml")
+    assert not any(c.set_to_zero for c in anova.components)
+    for a, r in zip(anova.conditions[1:], reml.conditions[1:]):
+        assert r.df == pytest.approx(a.df, rel=1e-6)        # REML optimiser tolerance
+        assert r.ci_satterthwaite.high == pytest.approx(a.ci_satterthwaite.high, rel=1e-5)
+        assert r.ci_mls is None and "REML" in r.reason
+
+
+def test_unbalanced_intermediate_interval_coverage_by_simulation():
+    # seeded simulation, 80 draws of 6 days x 2 runs x 2 with 3 results lost (SE about 0.027): the
+    # asymptotic interval's coverage of sigma_IP^2 at a stated 0.95 must exceed 0.80 (a guard against gross
+    # errors). Measured with 1 000 draws (seed 4, same design): 0.940, SE 0.0075
+    rng = np.random.default_rng(5)
+    true = 0.5 ** 2 + 0.3 ** 2 + 0.3 ** 2
+    hits = 0
+    keep = np.ones(24, bool)
+    keep[[0, 9, 18]] = False
+    for _ in range(80):
+        y, day, run = _simulate_nested(rng, 6, 2, 2, 0.5, 0.3, 0.3)
+        ci = nested_variance_components(y[keep], [day[keep], run[keep]],
+                                        names=("day", "run")).intermediate_precision.ci_satterthwaite
+        hits += ci.low ** 2 <= true <= ci.high ** 2
+    assert hits / 80 > 0.80
 
 
 _cells = st.lists(st.floats(-1e3, 1e3, allow_nan=False, allow_infinity=False), min_size=12, max_size=12)

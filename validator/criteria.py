@@ -20,7 +20,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["Criterion", "precision_level_criteria", "overall_verdict", "at_least", "at_most", "interval_within",
+__all__ = ["Criterion", "overall_verdict", "at_least", "at_most", "interval_within",
            "missing"]
 
 
@@ -127,18 +127,3 @@ def overall_verdict(criteria) -> str:
     if not criteria or any(c.passed is None for c in criteria):
         return "incomplete"
     return "pass"
-
-
-def precision_level_criteria(lv, limits: tuple) -> tuple:
-    """Repeatability and intermediate RSD of one level against their maxima ``limits`` (where set)."""
-    out = []
-    r_max, i_max = limits
-    for kind, label, value, limit in (
-            ("repeatability", "repeatability RSD", lv.repeatability_rsd_pct, r_max),
-            ("intermediate", "intermediate precision RSD", lv.intermediate_rsd_pct, i_max)):
-        if limit is None:
-            continue
-        out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
-                             value, limit, at_most(value, limit),
-                             "" if value is not None else f"not applicable: {lv.reason or 'the mean is zero'}"))
-    return tuple(out)

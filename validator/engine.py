@@ -18,7 +18,7 @@ from ._common import quiet_numpy
 from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult
-from .characteristics.precision import PrecisionLevel
+from .characteristics.precision import PrecisionLevel, PrecisionResult
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -29,9 +29,6 @@ __all__ = ["AnalyteResult", "StudyResult", "CurveBands", "ResidualSeries", "Stra
            "Assessment", "Characteristic", "analyse_analyte", "analyse_study", "curve_bands", "residual_series"]
 
 R = TypeVar("R")
-
-# the fields of AnalyteResult and AnalyteContext for the characteristics not yet in packages of their own
-_LEGACY = ("precision",)
 
 
 def __getattr__(name):
@@ -117,13 +114,17 @@ class AnalyteResult:
     criteria: tuple[Criterion, ...]
     bands: CurveBands = field(repr=False)
     residual_views: ResidualSeries = field(repr=False)
-    precision: tuple[PrecisionLevel, ...] = ()           # one per level
-    # (name, result) of every assessed characteristic without a field above, in registry order
+    # (name, result) of every assessed characteristic, in registry order
     results: tuple[tuple[str, Any], ...] = ()
 
     def result_of(self, entry: Characteristic[R]) -> R | None:
         """The result of ``entry`` for this analyte, or ``None`` when it was not assessed."""
         return _result(self, entry.name)
+
+    @property
+    def precision(self) -> tuple[PrecisionLevel, ...]:
+        """The precision levels (empty when precision was not assessed)."""
+        return _precision_levels(self)
 
     @property
     def characteristics(self) -> tuple:
@@ -145,11 +146,16 @@ class AnalyteResult:
 _LISTED_WHEN_ASSESSED = ("samples", "recovery", "precision", "reference_material", "revalidation", "comparison")
 
 
+def _precision_levels(holder) -> tuple[PrecisionLevel, ...]:
+    found: PrecisionResult | None = _result(holder, "precision")
+    return () if found is None else found.levels
+
+
 def _result(holder, name: str):
     for entry, result in holder.results:
         if entry == name:
             return result
-    return getattr(holder, name) if name in _LEGACY else None
+    return None
 
 
 @dataclass(frozen=True)
@@ -172,21 +178,24 @@ class AnalyteContext:
 
     A characteristic reads its own data with ``ctx.data_of(ENTRY)``, its own study-file
     table with ``ctx.settings_of(ENTRY)`` and the result of one above it in the registry with
-    ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed). The fields named
-    after a characteristic hold the results of those not yet in packages of their own.
+    ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed).
     """
 
     data: AnalyteData
     config: StudyConfig
     unit: str = ""
-    precision: tuple[PrecisionLevel, ...] = ()
     criteria: tuple[Criterion, ...] = ()
-    # (name, result) of every assessed characteristic without a field above, in registry order
+    # (name, result) of every assessed characteristic, in registry order
     results: tuple[tuple[str, Any], ...] = ()
 
     @property
     def alpha(self) -> float:
         return self.config.criteria.alpha
+
+    @property
+    def precision(self) -> tuple[PrecisionLevel, ...]:
+        """The precision levels assessed so far (empty before precision or without it)."""
+        return _precision_levels(self)
 
     def result_of(self, entry: Characteristic[R]) -> R | None:
         """The result of ``entry`` (assessed above this step), or ``None`` when it was not assessed."""
@@ -203,9 +212,20 @@ class AnalyteContext:
     def with_result(self, name: str, done: Assessment) -> "AnalyteContext":
         """This context with ``done``'s result held under ``name`` and its criteria added."""
         criteria = self.criteria + tuple(done.criteria)
-        if name in _LEGACY:
-            return replace(self, **{name: done.result}, criteria=criteria)
         return replace(self, results=self.results + ((name, done.result),), criteria=criteria)
+
+
+def _declared_without_data(step: Characteristic, ctx: AnalyteContext) -> Criterion | None:
+    """A not-applicable criterion when the study declares ``step``'s table but this analyte has
+    no data for it: the analyte's validation is then incomplete, never silently shorter."""
+    settings = ctx.settings_of(step)
+    if not step.judges or step.load is None or settings is None or ctx.data_of(step) is not None:
+        return None
+    if getattr(settings, "analyte", None) not in (None, ctx.data.name):
+        return None             # the table is for another analyte (a reference material certified for one)
+    return Criterion(f"{step.name}-data", f"{step.title}: data for this analyte", None, None, None,
+                     f"not applicable: the study declares [{step.name}], but its data have no rows for "
+                     f'analyte "{ctx.data.name}", so it was not assessed for this analyte')
 
 
 def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> AnalyteResult:
@@ -217,11 +237,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
             ctx = ctx.with_result(step.name, done)
             if done.provides:
                 ctx = replace(ctx, data=ctx.data.with_entries(done.provides))
+        elif (gap := _declared_without_data(step, ctx)) is not None:
+            ctx = replace(ctx, criteria=ctx.criteria + (gap,))
     cal = ctx.result_of(calibration.ENTRY)
     return AnalyteResult(name=data.name, data=ctx.data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
-                         residual_views=residual_series(cal.fit), precision=ctx.precision,
-                         results=ctx.results)
+                         residual_views=residual_series(cal.fit), results=ctx.results)
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:

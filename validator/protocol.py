@@ -135,7 +135,10 @@ CRITERIA_AND_DESIGN = {
     "criteria": ALL,
     "detection": ALL,
     "recovery": ("range_pct", "levels"),
-    "precision": ("repeatability_rsd_max_pct", "intermediate_rsd_max_pct", "levels"),
+    "precision": ("repeatability_rsd_max_pct", "intermediate_rsd_max_pct", "levels", "design",
+                  "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
+    "accuracy_profile": ALL,
+    "uncertainty": ALL,
     "reference_material": ("analyte", "certified_value", "standard_uncertainty", "coverage_factor",
                            "measurement_standard_uncertainty"),
     "revalidation": ("slope_change_max_pct", "residual_sd_ratio_max"),
@@ -155,11 +158,14 @@ CRITERIA_AND_DESIGN = {
     "dilution_integrity": ("max_bias_pct", "max_cv_pct", "min_replicates"),
     "reanalysis": ("limit_pct", "min_fraction"),
 }
-# added after protocols were first written: absent (or, for a key, null) they are left out of the
-# normalised dict, so that the digest of a study that does not use them is unchanged
-LATER_ADDITIONS = {"study": ("guideline",), "limit_of_blank": ALL, "method_detection_limit": ALL,
-                   "matrix_effect": ALL, "carry_over": ALL, "selectivity": ALL, "stability": ALL,
-                   "dilution_integrity": ALL, "reanalysis": ALL}
+# added after protocols were first written (issues #13 and #15): a section absent, or a key null, is
+# left out of the normalised dict, so that the digest of a study that does not use them is unchanged
+# and a protocol approved before they existed compares with its study without deviations
+LATER_ADDITIONS = {"study": ("guideline",), "criteria": ("judge_on",),
+                   "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
+                   "accuracy_profile": ALL, "uncertainty": ALL,
+                   "limit_of_blank": ALL, "method_detection_limit": ALL, "matrix_effect": ALL, "carry_over": ALL,
+                   "selectivity": ALL, "stability": ALL, "dilution_integrity": ALL, "reanalysis": ALL}
 # every other key, and why it is left out (tests check the two lists cover the whole schema)
 NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
@@ -186,18 +192,16 @@ def normalised(config) -> dict:
     dumped = config.model_dump(mode="json")
     out = {}
     for section, keys in CRITERIA_AND_DESIGN.items():
-        value = dumped.get(section)
-        if value is None and LATER_ADDITIONS.get(section) == ALL:
+        value, later = dumped.get(section), LATER_ADDITIONS.get(section, ())
+        if value is None and later == ALL:
             continue
         if value is None:
             out[section] = None
-        elif keys == ALL:
-            out[section] = value
         elif not keys:
             out[section] = "assessed"       # only whether the characteristic is assessed counts
         else:
-            out[section] = {k: value[k] for k in keys if k in value
-                            and not (value[k] is None and k in LATER_ADDITIONS.get(section, ()))}
+            out[section] = {k: value[k] for k in (value if keys == ALL else keys) if k in value
+                            and not (value[k] is None and later != ALL and k in later)}
     return out
 
 
@@ -490,8 +494,9 @@ def design_deviations(design, analytes) -> list:
         recovery = a.of("recovery")
         if design.recovery is not None and recovery is not None:
             out += _level_deviations("recovery", design.recovery, recovery.added, recovery.series, a.name)
-        if design.precision is not None and a.precision is not None:
-            out += _level_deviations("precision", design.precision, a.precision.level, a.precision.series, a.name)
+        precision = a.of("precision")
+        if design.precision is not None and precision is not None:
+            out += _level_deviations("precision", design.precision, precision.level, precision.series, a.name)
         for name, planned, seen in (
                 ("blanks.count", design.blanks and design.blanks.count, a.of("blanks")),
                 ("reference_material.replicates",

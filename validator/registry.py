@@ -9,10 +9,10 @@ adding a characteristic is its package, its template fragment and one line here
 
 from __future__ import annotations
 
-from .characteristics import (_legacy, calibration, carry_over, comparison, detection, dilution_integrity,
-                              limit_of_blank, matrix_effect, method_detection_limit, reanalysis, recovery,
-                              reference_material, revalidation, runs, sample_preparation, samples, selectivity,
-                              stability, working_range)
+from .characteristics import (accuracy_profile, calibration, carry_over, comparison, detection,
+                              dilution_integrity, limit_of_blank, matrix_effect, method_detection_limit, precision,
+                              reanalysis, recovery, reference_material, revalidation, runs, sample_preparation, samples,
+                              selectivity, stability, uncertainty, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
@@ -21,12 +21,14 @@ REGISTRY: tuple[Characteristic, ...] = (
     calibration.ENTRY,               # first: its data name the analytes
     runs.ENTRY,                      # run exports: each run's calibration gives the found values below
     samples.ENTRY,
-    sample_preparation.ENTRY,                 # the samples in the reporting unit (preparation factors)
+    sample_preparation.ENTRY,        # the samples in the reporting unit (preparation factors)
     detection.BLANKS,
     detection.ENTRY,
     recovery.ENTRY,
-    _legacy.PRECISION,
+    precision.ENTRY,
+    accuracy_profile.ENTRY,          # reads the precision data
     reference_material.ENTRY,
+    uncertainty.ENTRY,               # reads precision, accuracy profile, recovery, reference material, LOQ
     working_range.LOQ_CHECK,
     working_range.ENTRY,
     # the sector characteristics (issue #15)

@@ -8,7 +8,7 @@ is documented in docs/results.md and by the JSON Schema shipped as
 
 Every analyte section is written by :class:`Serialiser` from the result dataclasses of the
 registry's entries (:data:`SERIALISED`), whose field metadata declare names and omissions and
-whose reasons fill ``not_applicable``; precision's levels are still listed here by hand.
+whose reasons fill ``not_applicable``.
 """
 
 from __future__ import annotations
@@ -24,7 +24,6 @@ import numpy as np
 
 from ._common import ConfidenceInterval, finite_or_none as num
 from . import __version__, registry
-from .characteristics.precision import PrecisionLevel
 from .criteria import Criterion
 from .signing import operator_and_host
 
@@ -186,7 +185,7 @@ def json_fields(*types) -> set:
 
 
 def _serialised(entries) -> dict:
-    out = {"precision": (PrecisionLevel,), "criteria": (Criterion,)}
+    out = {"criteria": (Criterion,)}
     for entry in entries:        # one written inside another's section counts as that section's
         if entry.result_types:
             section = entry.written_at.split(".")[0]
@@ -203,7 +202,7 @@ _SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recov
 
 def _analyte(a):
     serialise = Serialiser()
-    sections = {"precision": {"levels": serialise(a.precision, "precision.levels")} if a.precision else None}
+    sections = {}
     for entry in registry.REGISTRY:
         if entry.result_types:
             result = a.result_of(entry)

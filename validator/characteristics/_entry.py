@@ -56,6 +56,9 @@ class Characteristic(Generic[R]):
     inside an earlier entry's section instead of under its own name (the LOQ verification is
     ``"detection.loq_verification"``). ``record(result)``, when given, makes the dataclass that
     results.json writes for a result that holds more than it shows (the calibration's fit).
+    ``judges``: when the study declares the table but the analyte has no data in its file, the
+    analyte gets a not-applicable criterion ``<name>-data`` saying so (never a silent omission);
+    False for entries that only supply data or quantify (blanks, samples).
     """
 
     name: str
@@ -68,6 +71,7 @@ class Characteristic(Generic[R]):
     sentences: Callable[[dict, Reading], Mapping[str, str]] | None = None
     figures: Callable[[dict, Reading], Mapping[str, str]] | None = None
     fragment: str | None = None
+    judges: bool = True
     json_path: str | None = None
     record: Callable[[R], Any] | None = None
 

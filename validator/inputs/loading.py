@@ -46,20 +46,11 @@ class InputFile:
 
 
 @dataclass(frozen=True)
-class PrecisionData:
-    level: np.ndarray = field(repr=False)
-    series: tuple[str, ...] = field(repr=False)
-    found: np.ndarray = field(repr=False)       # found - offset, the subtraction done exactly
-    offset: float = 0.0
-
-
-@dataclass(frozen=True)
 class AnalyteData:
     """One analyte's data: its calibration, and what each characteristic's loader read for it."""
 
     name: str
     calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
-    precision: PrecisionData | None = None
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
     entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
 
@@ -202,26 +193,6 @@ def declared_levels_exist(reader, section: str, key: str, declared, present) -> 
                              file=reader.study.shown, key=f"{section}.levels[{i}].{key}", value=value)
 
 
-def _precision(reader, analytes):
-    def prepare(table):
-        level = numeric_column(table, "level", reader.decimal)
-        series = table.texts("series")
-        numeric_column(table, "found", reader.decimal)          # every cell checked before centring
-        declared_levels_exist(reader, "precision", "level", [lv.level for lv in reader.study.config.precision.levels],
-                              level)
-        return table, level, series
-
-    def make(columns, idx, name):
-        table, level, series = columns
-        offset, centred = exact_centre([table.columns["found"][i] for i in idx], table.decimal)
-        return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset)
-
-    return per_analyte(reader, reader.study.config.precision, analytes, "precision", ("level", "series", "found"),
-                       ("analyte",), "precision result", prepare, make)
-
-
-# characteristics whose data are still read here (not yet by their registry entry's ``load``)
-_LEGACY_LOADERS = {"precision": _precision}
 
 
 def _check_preparations(study, samples: dict, runs) -> None:
@@ -263,12 +234,9 @@ def load_study(path: str | Path) -> LoadedStudy:
             if settings is not None:
                 loaded[entry.name] = entry.load(reader, settings, calibration)
                 calibration = loaded[entry.name] if calibration is None else calibration
-        elif entry.name in _LEGACY_LOADERS:
-            loaded[entry.name] = _LEGACY_LOADERS[entry.name](reader, calibration)
     excluded = reader.exclusions.check()
     _check_preparations(study, loaded.get("samples", {}), runs)
-    legacy = {name: loaded.pop(name, {}) for name in _LEGACY_LOADERS}
-    analytes = tuple(AnalyteData(name, calibration[name], legacy["precision"].get(name),
+    analytes = tuple(AnalyteData(name, calibration[name],
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     # the earlier results.json of a re-validation (it matches at least one analyte, or is refused)

@@ -342,6 +342,11 @@ def load_runs(reader) -> RunsData:
         if first is not None and getattr(cfg, table) is None:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
                             f"[{table}] table; add it with {what}", file=first.file, row=first.row)
+    design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()
+    if set(design) - {"day", "run"}:
+        raise StudyError("with [[runs]], a precision design can name the factors day and run only (they come "
+                         f"from the runs); got {', '.join(show(d) for d in design)}", file=reader.study.shown,
+                         key="precision.design")
     if cfg.reference_material is not None and len(grouped) > 1 and cfg.reference_material.analyte is None:
         raise StudyError("the study covers several analytes; say which one the reference material certifies "
                          "(analyte = ...)", file=reader.study.shown, key="reference_material.analyte")

@@ -176,6 +176,15 @@ class CriteriaSection(_Section):
     lowest_level_tolerance_pct: float = Field(20.0, gt=0, le=100)
     min_fraction_within_tolerance: float = Field(0.75, ge=0, le=1)
     r_squared_min: Optional[float] = Field(None, ge=0, le=1)
+    # what decides recovery and precision RSD criteria: the point estimate, or its interval
+    # (recovery by two one-sided tests, RSDs by their upper confidence bound). Not set means
+    # "estimate"; it is left unset rather than defaulted so that the defaults recorded for
+    # studies written before this key existed stay as they were
+    judge_on: Optional[Literal["estimate", "interval"]] = None
+
+    @property
+    def on_intervals(self) -> bool:
+        return self.judge_on == "interval"
 
 
 def check_range(v, name: str = "range_pct"):
@@ -185,23 +194,6 @@ def check_range(v, name: str = "range_pct"):
     return v
 
 
-class PrecisionLevelLimit(_Section):
-    level: float = Field(ge=0)
-    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
-    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
-
-
-class PrecisionSection(DataSource):
-    repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
-    intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
-    levels: list[PrecisionLevelLimit] = []
-
-    def limits_for(self, level: float) -> tuple:
-        for lv in self.levels:
-            if abs(lv.level - level) <= 1e-9 * max(abs(level), 1.0):
-                return (lv.repeatability_rsd_max_pct or self.repeatability_rsd_max_pct,
-                        lv.intermediate_rsd_max_pct or self.intermediate_rsd_max_pct)
-        return self.repeatability_rsd_max_pct, self.intermediate_rsd_max_pct
 
 
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
@@ -312,7 +304,7 @@ class ExclusionEntry(_Section):
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
-                "reference_material", "revalidation", "comparison")
+                "accuracy_profile", "uncertainty", "reference_material", "revalidation", "comparison")
 _TABLES_AFTER = ("design", "protocol")
 
 
@@ -334,7 +326,6 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 # tables of characteristics not yet in packages of their own, and the tables that are no characteristic's
 _OTHER_TABLES = {"study": (StudySection, ...),
                  "criteria": (CriteriaSection, CriteriaSection()),
-                 "precision": (Optional[PrecisionSection], None),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
                  "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None),
                  # data rows left out, each with its reason (validator.inputs.exclusions)

@@ -300,6 +300,39 @@ def _reml(y, codes):
     return np.r_[ratios * residual, residual] * scale * scale
 
 
+def _reml_covariance(codes, variances):
+    """Inverse of the expected REML information of the variances (outer factors first, residual last).
+
+    With V = sum_j s_j^2 Z_j Z_j' + s_e^2 I and P = V^-1 - V^-1 1 (1' V^-1 1)^-1 1' V^-1, the
+    information is I_ij = tr(P G_i P G_j) / 2 for G_j = Z_j Z_j' (and G = I for the residual)
+    ([Searle] ch. 6). ``None`` when V or the information is singular.
+    """
+    n = codes[0].size
+    grams = [(code[:, None] == code[None, :]).astype(float) for code in codes] + [np.eye(n)]
+    v = sum(float(s2) * g for s2, g in zip(variances, grams))
+    try:
+        vi = linalg.inv(v, check_finite=False)
+    except (linalg.LinAlgError, ValueError):
+        return None
+    vi1 = vi.sum(axis=1)
+    p = vi - np.outer(vi1, vi1) / float(vi1.sum())
+    pg = [p @ g for g in grams]
+    info = np.array([[0.5 * float(np.sum(a * b.T)) for b in pg] for a in pg])
+    if not np.all(np.isfinite(info)) or np.linalg.cond(info) > 1e12:
+        return None
+    return linalg.inv(info)
+
+
+def _reml_sum_df(cov, m: int, variance: float):
+    """Satterthwaite df 2 g^2 / Var(g) of the sum g of the components m.. (from the REML covariance)."""
+    if cov is None or not variance > 0:
+        return None
+    var_g = float(np.sum(cov[m:, m:]))
+    if not (math.isfinite(var_g) and var_g > 0):
+        return None
+    return 2.0 * variance * variance / var_g
+
+
 def nested_variance_components(values, factors, *, names=None, confidence: float = 0.95,
                                method: str = "auto") -> NestedVarianceComponents:
     """Variance components of a fully nested random design (1 to 3 or more factors).
@@ -337,8 +370,13 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
     REML: the restricted log-likelihood of y = mu 1 + sum Z_j u_j + e with
     u_j ~ N(0, s_j^2 I), e ~ N(0, s_e^2 I), maximised over s_j >= 0
     ([Searle] ch. 6). Unbalanced designs get the exact chi-square interval for
-    repeatability from the residual mean square (N - cells df); the sums get no
-    interval (``reason`` says so).
+    repeatability from the residual mean square (N - cells df); each sum g of
+    components gets Satterthwaite's interval [nu g / chi2_{1-a/2; nu},
+    nu g / chi2_{a/2; nu}] with nu = 2 g^2 / Var(g), Var(g) from the inverse
+    expected REML information (asymptotic; in a balanced design with positive
+    estimates it equals the ANOVA Satterthwaite df; seeded simulation of 6 days x
+    2 runs x 2 with 3 results lost: coverage 0.940, SE 0.0075, at a stated 0.95).
+    No MLS interval then (``reason`` says so).
     """
     confidence = open_unit("confidence", confidence)
     if method not in METHODS:
@@ -382,6 +420,7 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
     else:
         with quiet_numpy():
             est = _reml(y, codes)
+            cov = _reml_covariance(codes, est)
         comps = [VarianceComponent(s, float(v), math.sqrt(float(v)), None, False) for s, v in zip(sources, est)]
         notes.extend(f"the REML estimate of the {s!r} variance is on the boundary 0"
                      for s, v in zip(sources[:-1], est[:-1]) if v == 0.0)
@@ -403,8 +442,18 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
                                                  "interval from the residual mean square"))
             continue
         if use != "ANOVA":
-            conditions.append(PrecisionCondition(label, included, variance, math.sqrt(variance), None, None, None,
-                                                 "no interval for sums of components in an unbalanced design"))
+            nu = _reml_sum_df(cov, m, variance)
+            if nu is None:
+                conditions.append(PrecisionCondition(
+                    label, included, variance, math.sqrt(variance), None, None, None,
+                    "REML (unbalanced design): no interval for this sum of components (its REML variance is not "
+                    "estimable)"))
+                continue
+            pair = (nu * variance / stats.chi2.ppf(1 - a / 2, nu), nu * variance / stats.chi2.ppf(a / 2, nu))
+            conditions.append(PrecisionCondition(
+                label, included, variance, math.sqrt(variance), nu, _sd_interval(pair, confidence), None,
+                "REML (unbalanced design): Satterthwaite interval with df from the REML information (asymptotic); "
+                "no modified large-sample interval"))
             continue
         c = [1.0 / anova[m].per_unit]
         for j in range(m + 1, len(names)):

@@ -16,7 +16,7 @@ from pathlib import Path
 import jinja2
 
 from .plots import PALETTE, analyte_figures, figures_for_all, style
-from .text import (SIG, SIG_P, calibration_sentences, characteristic_sentences, fmt, fmt_p, level_label, met,
+from .text import (SIG, SIG_P, calibration_sentences, fmt, fmt_p, level_label, met,
                    verdict_label)
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
@@ -75,7 +75,7 @@ def _plot_data(index: int, a, study: dict) -> dict:
         "qq_line": None if rv.qq_line is None else (rv.qq_line.intercept, rv.qq_line.slope),
         "bc_x": [b.nominal for b in judged], "bc_dev": [b.deviation_pct for b in judged],
         "bc_tol": [b.tolerance_pct for b in judged], "bc_pass": [b.passed for b in judged],
-        "precision": [{"level": lv.level, "series": _series_pct(a.data.precision, lv)} for lv in a.precision],
+        "precision": [{"level": lv.level, "series": _series_pct(a.data.of("precision"), lv)} for lv in a.precision],
     }
 
 
@@ -169,8 +169,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        text = {**calibration_sentences(a, alpha, study["concentration_unit"]),
-                **characteristic_sentences(a, alpha, study["concentration_unit"])}
+        text = calibration_sentences(a, alpha, study["concentration_unit"])
         text.update({name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
                      if name in sentences})
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text})

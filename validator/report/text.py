@@ -142,36 +142,3 @@ def _reason(a: dict, item: str) -> str:
         if entry["item"] == item:
             return entry["reason"]
     return "see the analyte's notes"
-
-
-
-def characteristic_sentences(a: dict, alpha: float, unit: str) -> dict:
-    """Plain-language reading of the precision results (the characteristics in
-    packages of their own bring their sentences in their ``presentation`` module)."""
-    out = {}
-    prec = a.get("precision")
-    if prec:
-        parts = []
-        for lvl in prec["levels"]:
-            clamp = " (between-series variance estimated negative, set to 0)" if lvl["between_series_set_to_zero"] else ""
-            parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {fmt(lvl['repeatability_rsd_pct'], 3)} %, "
-                         f"intermediate RSD {fmt(lvl['intermediate_rsd_pct'], 3)} %{clamp}")
-        out["precision"] = "Precision " + "; ".join(parts) + "."
-        flagged = [lvl for lvl in prec["levels"]
-                   for t in (lvl["cochran"], lvl["grubbs"], lvl.get("grubbs_double"))
-                   if t is not None and t["p_value"] is not None and t["p_value"] < alpha]
-        within = [(lvl, t) for lvl in prec["levels"] for t in lvl.get("grubbs_within_series", [])
-                  if t["p_value"] is not None and t["p_value"] < alpha]
-        out["precision_outliers"] = ("Cochran's or Grubbs' test (single or double) flags a series at level(s) "
-                                     + ", ".join(sorted({fmt(lvl["level"]) for lvl in flagged}))
-                                     + "; the series stay in the estimate and need a reviewer's judgement."
-                                     if flagged else "Neither Cochran's nor Grubbs' tests (single or double) flag a series.")
-        if within:
-            out["precision_outliers"] += (" Grubbs' test within a series flags "
-                                          + "; ".join(f"{t['suspect']} in series {t['series']} at level "
-                                                      f"{fmt(lvl['level'])} (p = {fmt_p(t['p_value'])})"
-                                                      for lvl, t in within)
-                                          + "; these results stay in the estimate and need a reviewer's judgement.")
-        else:
-            out["precision_outliers"] += " Grubbs' test within a series flags no single result where it applies."
-    return out

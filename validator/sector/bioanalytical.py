@@ -362,25 +362,40 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
 
 
 # ----------------------------------------------------------------------------- incurred-sample reanalysis
+# this tool's choice, no published source: below this many judged samples the fraction within is
+# stated as resting on few samples (ICH M10 sec. 5, from memory, sizes ISR as a share of the study's
+# samples and sets no absolute minimum)
+FEW_REANALYSED_SAMPLES = 20
+
+
 @dataclass(frozen=True)
 class ReanalysedSample:
+    """One reanalysed sample. ``within`` is ``None`` (not judged, left out of the fraction) when
+    original and repeat agree but their % difference is undefined (both zero); ``reason`` says why
+    ``difference_percent`` or ``within`` is missing."""
+
     original: float
     repeat: float
     difference_percent: float | None     # 100 (repeat - original) / mean of the two
-    within: bool                         # False also when the difference is undefined
+    within: bool | None                  # False also when two different results have no defined difference
     sample: str = ""                     # the study sample's label, when given
+    reason: str = ""
 
 
 @dataclass(frozen=True)
 class IncurredSampleReanalysis:
+    """Reanalysed samples and the fraction within the limit among the ``n_judged`` judged ones."""
+
     samples: tuple[ReanalysedSample, ...]
     n: int
+    n_judged: int
     n_within: int
     n_undefined: int
     fraction_within: float | None
     limit_percent: float
     min_fraction: float
     passed: bool | None
+    notes: tuple[str, ...] = ()
     reason: str = ""
 
 
@@ -392,8 +407,13 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     Notes
     -----
     Per sample: % difference = 100 (repeat - original) / ((repeat + original) / 2).
-    A pair whose mean is zero or negative (or so small that the difference
-    overflows) has no defined difference and counts as not within. passed = n_within / n >= min_fraction, compared exactly.
+    A pair whose mean is not above zero has no defined difference. If its two
+    results are equal (e.g. both 0) it is not judged (``within`` ``None``) and
+    left out of the fraction, with a note; if they differ it counts as not
+    within (the pair cannot be shown to agree), as does a pair whose
+    difference overflows. passed = n_within / n_judged >= min_fraction,
+    compared exactly. Fewer than ``FEW_REANALYSED_SAMPLES`` judged samples are
+    stated in ``notes`` (the verdict stands).
     """
     lim = check_positive(limit_percent, "limit_percent")
     frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
@@ -405,18 +425,44 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     rows = []
     for a, b, name in zip(o.tolist(), r.tolist(), names):
         mean = (a + b) / 2
-        d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
+        with quiet_numpy():
+            d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
         if math.isfinite(d):
             rows.append(ReanalysedSample(a, b, d, abs(d) <= lim, name))
+        elif mean <= 0 and a == b:
+            rows.append(ReanalysedSample(a, b, None, None, name, (
+                f"original and repeat are both {a:g}: they agree, but the % difference of a mean that is not "
+                "above zero is undefined; not judged and left out of the fraction")))
+        elif mean <= 0:
+            rows.append(ReanalysedSample(a, b, None, False, name, (
+                f"the mean of {a:g} and {b:g} is not above zero, so the % difference is undefined; the results "
+                "differ, so the pair counts as not within")))
         else:
-            rows.append(ReanalysedSample(a, b, None, False, name))
+            rows.append(ReanalysedSample(a, b, None, False, name, f"{OUT_OF_RANGE}; counted as not within"))
     n = len(rows)
-    n_within = sum(x.within for x in rows)
+    judged = [x for x in rows if x.within is not None]
+    n_judged, n_within = len(judged), sum(bool(x.within) for x in judged)
     n_undef = sum(x.difference_percent is None for x in rows)
+    notes = []
+    left_out = [x.sample or str(i + 1) for i, x in enumerate(rows) if x.within is None]
+    if left_out:
+        notes.append(f"{len(left_out)} sample(s) with original and repeat both zero (or equal and not above zero) "
+                     f"are not judged and left out of the fraction: {', '.join(left_out)}")
+    if 0 < n_judged < FEW_REANALYSED_SAMPLES:
+        notes.append(f"the fraction rests on {n_judged} reanalysed sample(s), fewer than {FEW_REANALYSED_SAMPLES} "
+                     f"(this tool's threshold, not a guideline value): one sample moves it by "
+                     f"{100 / n_judged:.3g} percentage points; ICH M10 sizes ISR as 10 % of the first 1000 study "
+                     "samples and 5 % beyond (from memory, sec. 5)")
+    common = dict(samples=tuple(rows), n=n, n_judged=n_judged, n_within=n_within, n_undefined=n_undef,
+                  limit_percent=lim, min_fraction=frac, notes=tuple(notes))
     if n == 0:
-        return IncurredSampleReanalysis((), 0, 0, 0, None, lim, frac, None, "no reanalysed samples")
-    return IncurredSampleReanalysis(tuple(rows), n, n_within, n_undef, n_within / n, lim, frac,
-                                    _at_least(n_within, n, frac))
+        return IncurredSampleReanalysis(**common, fraction_within=None, passed=None, reason="no reanalysed samples")
+    if n_judged == 0:
+        return IncurredSampleReanalysis(**common, fraction_within=None, passed=None,
+                                        reason="no reanalysed sample can be judged: every pair is equal with a "
+                                               "mean not above zero")
+    return IncurredSampleReanalysis(**common, fraction_within=n_within / n_judged,
+                                    passed=_at_least(n_within, n_judged, frac))
 
 
 def reanalysis_sample_count(n_study_samples: int) -> int:

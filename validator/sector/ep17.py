@@ -3,19 +3,21 @@
 What is implemented
 -------------------
 * Limit of blank (LoB), non-parametric (rank interpolation) or parametric
-  (mean + c_p SD), for each reagent lot; the reported LoB is the largest of the
-  lots' values. EP17-A2 reports the maximum across lots when two or three lots
-  are used; its option of combining the results of four or more lots into one
-  estimate is *not* implemented (from memory: EP17-A2 sec. 5.3).
+  (mean + c_p SD), for each reagent lot. The reported LoB follows the lot rule
+  of EP17-A2 (from memory: sec. 5.3.3.1): with two or three reagent lots, the
+  largest of the lots' values; with four or more, one estimate from all lots'
+  results combined; with one lot, that lot's value.
 * Limit of detection (LoD) = LoB + c_p SD_L with SD_L pooled across the
-  low-level samples of a lot; per lot and the reported maximum.
+  low-level samples of a lot; per lot, and reported by the same lot rule.
 * Limit of quantitation (LoQ): the lowest tested level that meets an accuracy
   goal (a precision goal as CV, or a total-error goal |bias| + 2 SD, or both)
   *and above which every tested level meets it too*; never below the LoD.
 * The design minimums are checked and reported as notes, never as errors:
   at least 60 blank and 60 low-level results per reagent lot to establish
   the limits, at least 20 to verify a claim, and at least two reagent lots to
-  establish (from memory: EP17-A2 sec. 5.2 and 6).
+  establish (from memory: EP17-A2 sec. 5.2 and 6). Below the verification
+  minimum (20 results from 2 samples, :func:`verification_shortfall`) the
+  limits are still computed but cannot be judged against a claim.
 
 References
 ----------
@@ -28,7 +30,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -37,7 +39,9 @@ from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positiv
 
 __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
-           "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES"]
+           "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES",
+           "COMBINE_LOTS_FROM", "lot_rule", "verification_shortfall", "VERIFICATION_MINIMUM_RESULTS",
+           "VERIFICATION_MINIMUM_SAMPLES"]
 
 LOB_METHODS = ("nonparametric", "parametric")
 PURPOSES = ("establishment", "verification")
@@ -45,6 +49,17 @@ PURPOSES = ("establishment", "verification")
 # reagent lot, >= 2 lots) and sec. 6 (verification of a claim: >= 20 results)
 MINIMUM_RESULTS_PER_LOT = {"establishment": 60, "verification": 20}
 MINIMUM_LOTS = {"establishment": 2, "verification": 1}
+# from memory: CLSI EP17-A2 sec. 6 (verification of a LoB or LoD claim): at least 20 results from
+# at least 2 samples. Below this no LoB/LoD/LoQ claim can be judged (criteria not applicable).
+VERIFICATION_MINIMUM_RESULTS = 20
+VERIFICATION_MINIMUM_SAMPLES = 2
+# from memory: EP17-A2 5.3.3.1 (and the LoD likewise): with 2 or 3 reagent lots the limit is
+# computed per lot and the largest reported; with 4 or more the lots' results are combined into
+# one estimate. (The standard's text was not available to check; a secondary summary of the
+# section found in this work states the same rule.)
+COMBINE_LOTS_FROM = 4
+LOT_RULES = ("one lot", "largest lot", "lots combined")
+COMBINED = "all lots"
 # CLSI EP17-A2 prints 1.645, the standard normal 95th percentile rounded to three decimals
 EP17_NORMAL_QUANTILE = 1.645
 
@@ -68,29 +83,52 @@ class LotLimit:
     reason: str = ""
 
 
+def _combined_reason(part) -> str:
+    return ("" if part.lot_rule == "lots combined" else
+            f"{len(part.lots)} reagent lot(s): the lots are combined only from {COMBINE_LOTS_FROM} lots "
+            f"(CLSI EP17-A2); the reported value is {'the largest lot value' if len(part.lots) > 1 else 'the lot value'}")
+
+
 @dataclass(frozen=True)
 class LimitOfBlank:
-    """The LoB of each lot and the reported value (the maximum over the lots)."""
+    """The LoB of each lot and the reported value, by ``lot_rule``.
+
+    ``lot_rule``: "one lot"; "largest lot" (2 or 3 lots: the largest lot LoB);
+    "lots combined" (4 or more lots: ``combined``, one LoB from all results).
+    ``combined`` is ``None`` unless the lots are combined.
+    """
 
     method: str
     value: float | None
+    lot_rule: str
     lots: tuple[LotLimit, ...]
-    percentile: float
-    purpose: str
+    combined: LotLimit | None = field(default=None, metadata={"null_reason": "combined_reason"})
+    percentile: float = 0.95
+    purpose: str = "establishment"
     notes: tuple[str, ...] = ()
     reason: str = ""
+
+    @property
+    def combined_reason(self) -> str:
+        return _combined_reason(self)
 
 
 @dataclass(frozen=True)
 class LimitOfDetection:
-    """The LoD of each lot and the reported value (the maximum over the lots)."""
+    """The LoD of each lot and the reported value, by ``lot_rule`` (as for :class:`LimitOfBlank`)."""
 
     value: float | None
     limit_of_blank: float
+    lot_rule: str
     lots: tuple[LotLimit, ...]
-    purpose: str
+    combined: LotLimit | None = field(default=None, metadata={"null_reason": "combined_reason"})
+    purpose: str = "establishment"
     notes: tuple[str, ...] = ()
     reason: str = ""
+
+    @property
+    def combined_reason(self) -> str:
+        return _combined_reason(self)
 
 
 @dataclass(frozen=True)
@@ -220,10 +258,89 @@ def _pooled_sd(values: np.ndarray, samples: np.ndarray) -> tuple[float | None, i
     return (math.sqrt(ss / df) if df > 0 else None), df
 
 
+def lot_rule(n_lots: int) -> str:
+    """How the lots' limits give the reported one (from memory: CLSI EP17-A2 sec. 5.3.3.1).
+
+    "one lot"; "largest lot" for two or three lots (the largest lot value is reported);
+    "lots combined" for four or more (one estimate from all the lots' results).
+    """
+    n = int(n_lots)
+    return "one lot" if n <= 1 else ("largest lot" if n < COMBINE_LOTS_FROM else "lots combined")
+
+
+def verification_shortfall(sample, lot, kind: str) -> str:
+    """Why a design is below the EP17-A2 verification minimum, or "" when it is not.
+
+    Parameters
+    ----------
+    sample, lot : sequence of labels
+        The sample and reagent lot of each result.
+    kind : str
+        "blank" or "low-level", for the message.
+
+    Notes
+    -----
+    Each estimate the reported limit is built on must rest on at least
+    ``VERIFICATION_MINIMUM_RESULTS`` (20) results from at least
+    ``VERIFICATION_MINIMUM_SAMPLES`` (2) samples (from memory: CLSI EP17-A2
+    sec. 6): each lot with 1 to 3 lots, all lots together with 4 or more
+    (:func:`lot_rule`).
+    """
+    samples = np.asarray([str(v) for v in sample], dtype=object)
+    lots = np.asarray([str(v) for v in lot], dtype=object)
+    if samples.size != lots.size:
+        raise ValueError(f"sample and lot must pair up, got {samples.size} and {lots.size} labels")
+    names = list(dict.fromkeys(lots))
+    groups = ([(COMBINED, np.ones(lots.size, dtype=bool))] if lot_rule(len(names)) == "lots combined"
+              else [(f"lot {n}", lots == n) for n in names])
+    if not groups:
+        return f"no {kind} results"
+    for name, mask in groups:
+        n, k = int(mask.sum()), len(set(samples[mask]))
+        if n < VERIFICATION_MINIMUM_RESULTS or k < VERIFICATION_MINIMUM_SAMPLES:
+            return (f"{name}: {n} {kind} results from {k} sample(s), below the CLSI EP17-A2 verification minimum "
+                    f"of {VERIFICATION_MINIMUM_RESULTS} results from {VERIFICATION_MINIMUM_SAMPLES} samples "
+                    "(from memory: EP17-A2 sec. 6)")
+    return ""
+
+
+def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, normal_quantile: float) -> LotLimit:
+    """The LoB of one set of blank results (one lot, or all lots combined)."""
+    k = len(set(s))
+    summary = mean_sd_cv(v)
+    if method == "nonparametric":
+        val, rank, why = nonparametric_percentile(v, p)
+        return LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why)
+    if v.size - k < 1 or summary.sd is None:
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+            f"{v.size} blank results from {k} samples: the parametric LoB needs more results than samples"))
+    if summary.sd == 0:
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+            f"the {v.size} blank results are all {summary.mean:g} (SD 0): such data are censored or identical, "
+            "so mean + c_p SD estimates no percentile; the non-parametric LoB is the CLSI EP17-A2 route "
+            "(method = \"nonparametric\")"))
+    cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
+    value = summary.mean + cp * summary.sd
+    if not math.isfinite(value):
+        return LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE)
+    return LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
+
+
+def _reported(results: list, combined: LotLimit | None, what: str) -> tuple[float | None, str]:
+    """The reported value and its reason: the combined estimate, else the largest lot value."""
+    if combined is not None:
+        return combined.value, ("" if combined.value is not None else
+                                f"no {what} from the lots combined: {combined.reason}")
+    missing = [r for r in results if r.value is None]
+    if missing:
+        return None, f"no {what} for lot {missing[0].lot}: {missing[0].reason}"
+    return max(r.value for r in results), ""
+
+
 def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None, lot=None,
                    percentile: float = 0.95, normal_quantile: float = EP17_NORMAL_QUANTILE,
                    purpose: str = "establishment") -> LimitOfBlank:
-    """Limit of blank per reagent lot and the reported maximum (CLSI EP17-A2).
+    """Limit of blank per reagent lot and the reported value (CLSI EP17-A2).
 
     Parameters
     ----------
@@ -246,8 +363,13 @@ def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None,
     :func:`nonparametric_percentile`).
     Parametric: LoB = M_B + c_p SD_B with M_B, SD_B the mean and SD of all B
     blank results of the lot and c_p = z / (1 - 1/(4 (B - K))), K the number of
-    blank samples (from memory: EP17-A2 sec. 5.3.3.2).
-    The reported LoB is the largest lot LoB; it is ``None`` if any lot's is.
+    blank samples (from memory: EP17-A2 sec. 5.3.3.2). Blank results with SD 0
+    (all equal, e.g. censored at zero) give no parametric LoB (value ``None``
+    with the reason): the non-parametric LoB is the route for such data.
+    The reported LoB (see :func:`lot_rule`): with 2 or 3 lots the largest lot
+    LoB (``None`` if any lot's is); with 4 or more lots the LoB of all lots'
+    results combined (``combined``; K then counts the distinct sample labels
+    over all lots, so a sample measured on several lots is one sample).
     """
     _check_choice(method, "method", LOB_METHODS)
     _check_choice(purpose, "purpose", PURPOSES)
@@ -259,37 +381,38 @@ def limit_of_blank(blank_results, *, method: str = "nonparametric", sample=None,
     results, counts = [], {}
     for name in dict.fromkeys(lots):
         mask = lots == name
-        v, s = values[mask], samples[mask]
-        counts[name] = int(v.size)
-        k = len(set(s))
-        summary = mean_sd_cv(v)
-        if method == "nonparametric":
-            val, rank, why = nonparametric_percentile(v, p)
-            results.append(LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why))
-        elif v.size - k < 1 or summary.sd is None:
-            results.append(LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
-                f"{v.size} blank results from {k} samples: the parametric LoB needs more results "
-                f"than samples")))
-        else:
-            cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
-            value = summary.mean + cp * summary.sd
-            results.append(LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
-                           if math.isfinite(value) else
-                           LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE))
+        counts[name] = int(mask.sum())
+        results.append(_lob_of(name, values[mask], samples[mask], method, p, normal_quantile))
     notes = tuple(_design_notes("blank", counts, purpose))
-    missing = [r for r in results if r.value is None]
+    rule = lot_rule(len(results))
     if not results:
-        return LimitOfBlank(method, None, (), p, purpose, notes, "no blank results")
-    if missing:
-        return LimitOfBlank(method, None, tuple(results), p, purpose, notes,
-                            f"no LoB for lot {missing[0].lot}: {missing[0].reason}")
-    return LimitOfBlank(method, max(r.value for r in results), tuple(results), p, purpose, notes)
+        return LimitOfBlank(method=method, value=None, lot_rule=rule, lots=(), percentile=p, purpose=purpose,
+                            notes=notes, reason="no blank results")
+    combined = (_lob_of(COMBINED, values, samples, method, p, normal_quantile) if rule == "lots combined"
+                else None)
+    value, reason = _reported(results, combined, "LoB")
+    return LimitOfBlank(method=method, value=value, lot_rule=rule, lots=tuple(results), combined=combined,
+                        percentile=p, purpose=purpose, notes=notes, reason=reason)
+
+
+def _lod_of(name: str, v: np.ndarray, s: np.ndarray, lob: float, normal_quantile: float) -> LotLimit:
+    """The LoD of one set of low-level results (one lot, or all lots combined)."""
+    j = len(set(s))
+    sd, df = _pooled_sd(v, s)
+    if sd is None or df < 1:
+        return LotLimit(name, None, int(v.size), j, None, None, reason=(
+            f"{v.size} low-level results from {j} samples: no sample has two results, so SD_L cannot be pooled"))
+    cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
+    value = float(lob) + cp * sd
+    if not math.isfinite(value):
+        return LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE)
+    return LotLimit(name, value, int(v.size), j, None, sd, cp)
 
 
 def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=None,
                        normal_quantile: float = EP17_NORMAL_QUANTILE,
                        purpose: str = "establishment") -> LimitOfDetection:
-    """Limit of detection per reagent lot and the reported maximum (CLSI EP17-A2, classical approach).
+    """Limit of detection per reagent lot and the reported value (CLSI EP17-A2, classical approach).
 
     Parameters
     ----------
@@ -306,8 +429,11 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     For each lot: SD_L = sqrt(sum_j (n_j - 1) s_j^2 / sum_j (n_j - 1)) pooled
     over the J low-level samples, c_p = z / (1 - 1/(4 (L - J))) with L the
     lot's number of low-level results, and LoD = LoB + c_p SD_L. The reported
-    LoD is the largest lot LoD. The homogeneity of the samples' SDs (which
-    pooling assumes) is not tested here.
+    LoD follows :func:`lot_rule`: the largest lot LoD with 2 or 3 lots; with 4
+    or more, SD_L pooled over all lots' results combined (a sample label
+    measured on several lots is one sample, so lot-to-lot differences enter
+    SD_L), L all results and J the distinct samples. The homogeneity of the
+    samples' SDs (which pooling assumes) is not tested here.
     """
     _check_choice(purpose, "purpose", PURPOSES)
     check_positive(normal_quantile, "normal_quantile")
@@ -323,27 +449,17 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     results, counts = [], {}
     for name in dict.fromkeys(lots):
         mask = lots == name
-        v, s = values[mask], samples[mask]
-        counts[name] = int(v.size)
-        j = len(set(s))
-        sd, df = _pooled_sd(v, s)
-        if sd is None or df < 1:
-            results.append(LotLimit(name, None, int(v.size), j, None, None, reason=(
-                f"{v.size} low-level results from {j} samples: no sample has two results, "
-                f"so SD_L cannot be pooled")))
-            continue
-        cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
-        value = float(lob) + cp * sd
-        results.append(LotLimit(name, value, int(v.size), j, None, sd, cp) if math.isfinite(value)
-                       else LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE))
+        counts[name] = int(mask.sum())
+        results.append(_lod_of(name, values[mask], samples[mask], lob, normal_quantile))
     notes = tuple(_design_notes("low-level", counts, purpose))
-    missing = [r for r in results if r.value is None]
+    rule = lot_rule(len(results))
     if not results:
-        return LimitOfDetection(None, float(lob), (), purpose, notes, "no low-level results")
-    if missing:
-        return LimitOfDetection(None, float(lob), tuple(results), purpose, notes,
-                                f"no LoD for lot {missing[0].lot}: {missing[0].reason}")
-    return LimitOfDetection(max(r.value for r in results), float(lob), tuple(results), purpose, notes)
+        return LimitOfDetection(value=None, limit_of_blank=float(lob), lot_rule=rule, lots=(), purpose=purpose,
+                                notes=notes, reason="no low-level results")
+    combined = _lod_of(COMBINED, values, samples, lob, normal_quantile) if rule == "lots combined" else None
+    value, reason = _reported(results, combined, "LoD")
+    return LimitOfDetection(value=value, limit_of_blank=float(lob), lot_rule=rule, lots=tuple(results),
+                            combined=combined, purpose=purpose, notes=notes, reason=reason)
 
 
 def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | None = None,

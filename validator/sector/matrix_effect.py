@@ -39,7 +39,9 @@ class SlopeRatioMatrixEffect:
 
     ``interval`` is the reported one: Fieller's (``fieller_interval``), which,
     unlike the delta-method interval (``delta_interval``), is exact for the
-    ratio of normal estimates under the pooled model and need not be symmetric.
+    ratio of normal estimates under the pooled model (approximate, with
+    Welch-Satterthwaite df, under the separate-variance model) and need not be
+    symmetric.
     All three intervals are on the ME % scale. Fields are ``None`` exactly
     when ``reason`` says why.
     """
@@ -53,6 +55,7 @@ class SlopeRatioMatrixEffect:
     se_ratio_delta: float | None         # delta-method SE of the slope ratio
     df: float | None
     variance: str
+    weighting: str                       # the weighting both lines were fitted with ("none": unweighted)
     interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
     fieller_interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
     delta_interval: ConfidenceInterval | None = field(metadata={"interval": "null"})
@@ -61,21 +64,39 @@ class SlopeRatioMatrixEffect:
     reason: str = ""
 
 
-def _line_fit(x: np.ndarray, y: np.ndarray):
-    """Slope, Sxx and the residual sum of squares of an ordinary straight line."""
+def _line_fit(x: np.ndarray, y: np.ndarray, w: np.ndarray):
+    """Slope, Sxx and the residual sum of squares of a (weighted) least-squares straight line.
+
+    With weights w: x_w = sum w x / sum w (y_w likewise), Sxx = sum w (x - x_w)^2,
+    b = sum w (x - x_w)(y - y_w) / Sxx, SSE = sum w (y - a - b x)^2; var(b) = SSE / (n - 2) / Sxx.
+    """
     with quiet_numpy():
-        xc = x - x.mean()
-        sxx = float(np.sum(xc * xc))
+        sw = float(np.sum(w))
+        xc = x - float(np.sum(w * x)) / sw
+        yw = float(np.sum(w * y)) / sw
+        sxx = float(np.sum(w * xc * xc))
         if not (math.isfinite(sxx) and sxx > 0):
             return float("nan"), sxx, float("nan")
-        slope = float(np.sum(xc * (y - y.mean()))) / sxx
-        intercept = float(y.mean()) - slope * float(x.mean())
-        sse = float(np.sum((y - intercept - slope * x) ** 2))
+        slope = float(np.sum(w * xc * (y - yw))) / sxx
+        intercept = yw - slope * (float(np.sum(w * x)) / sw)
+        sse = float(np.sum(w * (y - intercept - slope * x) ** 2))
     return slope, sxx, sse
 
 
+def _weights(values, n: int, name: str) -> np.ndarray:
+    if values is None:
+        return np.ones(n)
+    w = as_float_array(values, name)
+    if w.size != n or np.any(w <= 0):
+        raise ValueError(f"{name}: expected {n} positive weights (one per point), got {w.size} values"
+                         + (f" with minimum {float(w.min())!r}" if w.size else ""))
+    return w
+
+
 def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level: float = 0.95,
-                              variance: str = "pooled", limit_percent: float = 20.0) -> SlopeRatioMatrixEffect:
+                              variance: str = "separate", limit_percent: float = 20.0,
+                              weighting: str = "none", weights_solvent=None,
+                              weights_matrix=None) -> SlopeRatioMatrixEffect:
     """Matrix effect as the ratio of a matrix-matched to a solvent calibration slope (SANTE/11312/2021).
 
     Parameters
@@ -86,12 +107,20 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
         The same for the matrix-matched calibration.
     level : float
         Two-sided confidence level of the intervals.
-    variance : {"pooled", "separate"}
+    variance : {"separate", "pooled"}
+        "separate" (the default): each line its own residual variance; the t
+        quantile uses Welch-Satterthwaite df for b_m - R b_s at the estimated R
+        (approximate, and valid whether or not the two variances differ).
         "pooled": one residual variance for both lines (the joint model
-        y = a + b x + c M + d M x with M the matrix indicator), df = n_s + n_m - 4;
-        Fieller's interval is then exact under normal errors.
-        "separate": each line its own residual variance; the t quantile uses
-        Welch-Satterthwaite df for b_m - R b_s at the estimated R (approximate).
+        y = a + b x + c M + d M x with M the matrix indicator, weighted by the
+        raw weights), df = n_s + n_m - 4; Fieller's interval is then exact under
+        normal errors with equal (weighted) variances.
+    weighting : str
+        The name of the weighting the weights come from, recorded in the result.
+    weights_solvent, weights_matrix : sequence of float, optional
+        Positive weights of the points (all 1 if omitted), on one common scale
+        (raw weights such as 1/x^2, not renormalised per line: the pooled model
+        assumes one variance of the weighted residuals).
     limit_percent : float
         |ME %| above it is flagged ``beyond_limit`` (from memory: SANTE/11312/2021
         treats matrix effects beyond +/-20 % as calling for matrix-matched
@@ -99,8 +128,9 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
 
     Notes
     -----
-    ME % = (R - 1) x 100 with R = b_m / b_s. Each slope's variance is
-    s^2 / Sxx. The two fits are independent, so the delta-method SE is
+    ME % = (R - 1) x 100 with R = b_m / b_s, each b from a weighted
+    least-squares straight line (see :func:`_line_fit`). Each slope's variance
+    is s^2 / Sxx (weighted Sxx). The two fits are independent, so the delta-method SE is
     SE(R) = |R| sqrt(var(b_m)/b_m^2 + var(b_s)/b_s^2), interval R +/- t SE(R).
     Fieller's interval is the set of R with
     (b_m - R b_s)^2 <= t^2 (var(b_m) + R^2 var(b_s)); it is unbounded (value
@@ -116,9 +146,12 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
         raise ValueError(f"x and y must have equal lengths, got solvent {xs.size}/{ys.size}, "
                          f"matrix {xm.size}/{ym.size}")
 
+    ws = _weights(weights_solvent, xs.size, "weights_solvent")
+    wm = _weights(weights_matrix, xm.size, "weights_matrix")
+
     def none(reason: str) -> SlopeRatioMatrixEffect:
-        return SlopeRatioMatrixEffect(None, None, None, None, None, None, None, None, variance, None, None,
-                                      None, lim, None, reason)
+        return SlopeRatioMatrixEffect(None, None, None, None, None, None, None, None, variance, str(weighting),
+                                      None, None, None, lim, None, reason)
 
     need = 3
     for name, x in (("solvent", xs), ("matrix", xm)):
@@ -126,8 +159,8 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
             return none(f"the {name} calibration has {x.size} points; at least {need} are needed")
         if np.ptp(x) == 0:
             return none(f"the {name} calibration has a single concentration; no slope")
-    b_s, sxx_s, sse_s = _line_fit(xs, ys)
-    b_m, sxx_m, sse_m = _line_fit(xm, ym)
+    b_s, sxx_s, sse_s = _line_fit(xs, ys, ws)
+    b_m, sxx_m, sse_m = _line_fit(xm, ym, wm)
     out_of_range = "the data lie outside the floating-point range this computation can handle"
     for name, sxx in (("solvent", sxx_s), ("matrix", sxx_m)):
         if math.isfinite(sxx) and sxx <= 0:
@@ -162,7 +195,7 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
                                                                   100 * (fieller.high - 1), lv)
     me = 100 * (r - 1)
     return SlopeRatioMatrixEffect(me, r, b_s, b_m, math.sqrt(v_s), math.sqrt(v_m), se_r, df,
-                                  variance, fieller_pct, fieller_pct, delta, lim, abs(me) > lim, why)
+                                  variance, str(weighting), fieller_pct, fieller_pct, delta, lim, abs(me) > lim, why)
 
 
 @dataclass(frozen=True)

@@ -36,6 +36,12 @@ MINIMUM_BATCHES = 3
 # Appendix B Rev. 2, II(2) (MDL_b, some blanks numerical): the highest method blank, unless more
 # than 100 method blanks are available, then the blank at rank round(0.99 n)
 BLANK_RANK_THRESHOLD = 100
+# At exactly 100 blanks the rule's text can be read two ways (an independent check of this module
+# found both "more than 100" and "n >= 100" in II(2); the text was not read in this work). The
+# reading kept gives the larger MDL_b (the highest blank is at least the blank of rank 99).
+BLANK_RULE_READING = ("40 CFR 136 Appendix B Rev. 2, II(2), read as: the highest method blank unless "
+                      f"more than {BLANK_RANK_THRESHOLD} method blanks are available, then the blank at rank "
+                      "round(0.99 n)")
 
 
 @dataclass(frozen=True)
@@ -64,6 +70,9 @@ class MethodDetectionLimit:
     confidence: float
     notes: tuple[str, ...] = ()
     reason: str = ""
+    # which reading of the 100-blank threshold was used ("" unless some but not all blanks are
+    # numerical); at exactly 100 blanks it also gives the value of the other reading
+    blank_rule_reading: str = ""
 
 
 def method_detection_limit(spiked_results, blank_results, *, confidence: float = 0.99,
@@ -93,7 +102,10 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
       - some but not all do: MDL_b is the highest method blank result; with
         more than 100 blanks, the blank of rank round(0.99 n) in ascending
         order (rounded to the nearest whole number; blanks with no numerical
-        result ranked lowest and counted in n);
+        result ranked lowest and counted in n). At exactly 100 blanks the
+        highest blank is used (the reading "more than 100", which gives the
+        larger MDL_b); ``blank_rule_reading`` states this with the value of
+        the other reading;
       - all do: MDL_b = X_b + t(n_b - 1, 1 - alpha) S_b, with X_b taken as 0
         when it is negative.
     * MDL = max(MDL_s, MDL_b), or MDL_s when MDL_b does not apply.
@@ -138,16 +150,23 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
 
     # MDL_b
     mdl_b = t_b = rank = b_mean = b_sd = None
+    reading = ""
     if n_num == 0:
         rule = "none numerical"
     elif n_num < n_b:
+        reading = BLANK_RULE_READING
+        ordered = np.concatenate([np.full(n_b - n_num, -np.inf), np.sort(numerical)])
         if n_b <= BLANK_RANK_THRESHOLD:
             rule = "highest blank"
             mdl_b = float(numerical.max())
+            if n_b == BLANK_RANK_THRESHOLD:
+                other = ordered[int(math.floor(0.99 * n_b + 0.5)) - 1]
+                reading += (f"; at exactly {n_b} method blanks the text can also be read as {n_b} or more (the "
+                            f"blank at rank 99, {'with no numerical result' if not np.isfinite(other) else f'{float(other):g}'}"
+                            "); the reading giving the larger MDL_b, the highest blank, is used")
         else:
             rule = "ranked blank"
             rank = int(math.floor(0.99 * n_b + 0.5))
-            ordered = np.concatenate([np.full(n_b - n_num, -np.inf), np.sort(numerical)])
             value = ordered[rank - 1]
             if not np.isfinite(value):
                 notes.append(f"the blank of rank {rank} of {n_b} has no numerical result; MDL_b does not apply")
@@ -170,4 +189,4 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
     else:
         value, reason = (mdl_s if mdl_b is None else max(mdl_s, mdl_b)), ""
     return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
-                                rank, conf, tuple(notes), reason)
+                                rank, conf, tuple(notes), reason, reading)

@@ -24,7 +24,8 @@ def _no_assessment(ctx) -> None:
 
 
 BLANKS: Characteristic[None] = Characteristic(
-    "blanks", "Blank readings", _no_assessment, settings=settings.BlanksSection, load=settings.load_blanks)
+    "blanks", "Blank readings", _no_assessment, settings=settings.BlanksSection, load=settings.load_blanks,
+    judges=False)
 
 
 def assess(ctx) -> Assessment[DetectionResult]:

@@ -13,7 +13,7 @@ import numpy as np
 
 from ...criteria import Criterion, at_most
 from ...sector.ep17 import (LimitOfBlank, LimitOfDetection, LimitOfQuantitation, limit_of_blank,
-                            limit_of_detection, limit_of_quantitation)
+                            limit_of_detection, limit_of_quantitation, verification_shortfall)
 
 __all__ = ["DetectionCapability", "detection_capability", "detection_capability_criteria"]
 
@@ -27,6 +27,10 @@ class DetectionCapability:
     loq: LimitOfQuantitation | None = field(metadata={"null_reason": "loq_reason"})
     lod_reason: str = ""
     loq_reason: str = ""
+    # why the blank / low-level design is below the EP17-A2 verification minimum ("" when it is not);
+    # stated in the criteria's notes, which results.json writes
+    blank_design_shortfall: str = field(default="", metadata={"json": None})
+    low_design_shortfall: str = field(default="", metadata={"json": None})
 
 
 def detection_capability(blanks, blank_samples, blank_lots, low=None, low_samples=(), low_lots=(),
@@ -62,22 +66,45 @@ def detection_capability(blanks, blank_samples, blank_lots, low=None, low_sample
         loq = limit_of_quantitation(low, list(low_samples), np.asarray(low_nominal, dtype=float),
                                     max_cv_percent=loq_max_cv_pct, max_total_error=loq_max_total_error,
                                     limit_of_detection=None if lod is None else lod.value)
-    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason)
+    blank_short = verification_shortfall(list(blank_samples), list(blank_lots), "blank")
+    low_short = "" if low is None else verification_shortfall(list(low_samples), list(low_lots), "low-level")
+    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short)
 
 
 def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, lod_max=None,
                                   loq_max=None) -> tuple[Criterion, ...]:
     """One criterion per declared maximum: ``limit-of-blank``, ``limit-of-detection``,
-    ``limit-of-quantitation`` (value at most the maximum; not applicable when the value does not exist)."""
+    ``limit-of-quantitation`` (value at most the maximum).
+
+    Not applicable when the value does not exist, or when the results it rests on are below the
+    EP17-A2 verification minimum (:func:`validator.sector.ep17.verification_shortfall`: the LoB
+    on the blank results, the LoD on both, the LoQ on the low-level results). Shortfalls from the
+    establishment design (``notes``) are stated beside a verdict, in the criterion's note.
+    """
+    lob, lod, loq = result.lob, result.lod, result.loq
+    blank_short, low_short = result.blank_design_shortfall, result.low_design_shortfall
+    remarks = {"limit-of-blank": list(lob.notes),
+               "limit-of-detection": list(lob.notes) + (list(lod.notes) if lod else []),
+               "limit-of-quantitation": (list(lod.notes) if lod else []) + (list(loq.notes) if loq else [])}
+    shortfall = {"limit-of-blank": blank_short, "limit-of-detection": blank_short or low_short,
+                 "limit-of-quantitation": low_short}
     out = []
     for cid, label, limit, part, reason in (
-            ("limit-of-blank", "LoB", lob_max, result.lob, ""),
-            ("limit-of-detection", "LoD", lod_max, result.lod, result.lod_reason),
-            ("limit-of-quantitation", "LoQ", loq_max, result.loq, result.loq_reason)):
+            ("limit-of-blank", "LoB", lob_max, lob, ""),
+            ("limit-of-detection", "LoD", lod_max, lod, result.lod_reason),
+            ("limit-of-quantitation", "LoQ", loq_max, loq, result.loq_reason)):
         if limit is None:
             continue
         value = None if part is None else part.value
         why = reason or (part.reason if part is not None else "")
-        out.append(Criterion(cid, f"{label} (CLSI EP17-A2) at most {limit:g}", value, limit, at_most(value, limit),
-                             "" if value is not None else f"not applicable: {why or 'it does not exist'}"))
+        description = f"{label} (CLSI EP17-A2) at most {limit:g}"
+        if value is None:
+            out.append(Criterion(cid, description, value, limit, None,
+                                 f"not applicable: {why or 'it does not exist'}"))
+        elif shortfall[cid]:
+            out.append(Criterion(cid, description, value, limit, None, f"not applicable: {shortfall[cid]}"))
+        else:
+            remark = "; ".join(dict.fromkeys(remarks[cid]))
+            out.append(Criterion(cid, description, value, limit, at_most(value, limit),
+                                 f"design: {remark}" if remark else ""))
     return tuple(out)

@@ -8,8 +8,9 @@ __all__ = ["sentences", "figures"]
 
 
 def _lots(part: dict) -> str:
-    lots = part["lots"]
-    return "" if len(lots) < 2 else f", the largest of {len(lots)} reagent lots"
+    n = len(part["lots"])
+    return {"one lot": "", "largest lot": f", the largest of {n} reagent lots",
+            "lots combined": f", from the results of all {n} reagent lots combined"}[part["lot_rule"]]
 
 
 def sentences(entry: dict, reading) -> dict:

@@ -3,6 +3,7 @@ the ``[matrix_effect]`` section."""
 
 from __future__ import annotations
 
+from .. import calibration
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
@@ -13,13 +14,18 @@ __all__ = ["ENTRY", "MatrixEffect"]
 
 def assess(ctx) -> Assessment[MatrixEffect] | None:
     """The analyte's matrix effect and its criteria; ``None`` when it has no matrix-effect data.
-    The matrix-matched calibration is the analyte's ``[calibration]`` data."""
+    The matrix-matched calibration is the analyte's ``[calibration]`` data, and both lines are fitted
+    with the weighting of its fit."""
     data: MatrixEffectData | None = ctx.data_of(ENTRY)
     s: MatrixEffectSection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
     cal = ctx.data.calibration
+    fitted = ctx.result_of(calibration.ENTRY)
+    # both lines take the weighting of the calibration fit (the declared one, or the one "auto" chose)
+    weighting = fitted.fit.weighting if fitted is not None else "none"
     result = matrix_effect(data, cal.concentration, cal.response, level=1 - ctx.alpha, variance=s.variance,
+                           weighting=weighting,
                            limit_pct=s.limit_pct, lot_max_bias_pct=s.lot_max_bias_pct, lot_max_cv_pct=s.lot_max_cv_pct,
                            min_lots=s.min_lots, min_replicates=s.min_replicates, factor_max_cv_pct=s.factor_max_cv_pct)
     return Assessment(result, matrix_effect_criteria(result, judge_slope_ratio=s.judge_slope_ratio, limit_pct=s.limit_pct))

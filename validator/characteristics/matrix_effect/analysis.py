@@ -2,9 +2,9 @@
 internal-standard-normalised matrix factor.
 
 Thin wrappers over :mod:`validator.sector.matrix_effect`. The matrix-matched calibration is the
-study's ``[calibration]`` data, fitted here as an unweighted straight line like the solvent one
-(the slope ratio compares two ordinary least-squares slopes, whatever model the calibration
-section chose for quantification).
+study's ``[calibration]`` data. Both it and the solvent calibration are fitted as straight lines
+with the weighting of the ``[calibration]`` fit (the declared one, or the one "auto" chose), so
+like is compared with like; the weighting is recorded in results.json.
 """
 
 from __future__ import annotations
@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ...criteria import Criterion, interval_within
+from ...maths.regression import WEIGHTED_BY, raw_weights
 from ...sector.matrix_effect import (LotAccuracyAssessment, NormalisedMatrixFactor, SlopeRatioMatrixEffect,
                                      lot_accuracy, normalised_matrix_factor, slope_ratio_matrix_effect)
 
@@ -33,14 +34,33 @@ class MatrixEffect:
     factor_reason: str = ""
 
 
-def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, variance: str = "pooled",
-                  limit_pct: float = 20.0, lot_max_bias_pct: float = 15.0, lot_max_cv_pct: float = 15.0,
-                  min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0) -> MatrixEffect:
+def _slope_ratio(data, matrix_concentration, matrix_response, *, level: float, variance: str, limit_pct: float,
+                 weighting: str) -> SlopeRatioMatrixEffect | str:
+    """The slope ratio with both lines weighted by ``weighting``, or why it cannot be weighted."""
+    if weighting != "none":
+        what = WEIGHTED_BY[weighting]
+        values = data.solvent_concentration if what == "concentration" else data.solvent_response
+        bad = [float(v) for v in values if not v > 0]
+        if bad:
+            return (f"the weighting of the calibration, {weighting}, needs every solvent-calibration {what} > 0 "
+                    f"(found {bad[0]:g}); both lines are fitted with the same weighting")
+    ws = raw_weights(weighting, data.solvent_concentration, data.solvent_response)
+    wm = raw_weights(weighting, matrix_concentration, matrix_response)
+    return slope_ratio_matrix_effect(data.solvent_concentration, data.solvent_response, matrix_concentration,
+                                     matrix_response, level=level, variance=variance, limit_percent=limit_pct,
+                                     weighting=weighting, weights_solvent=ws, weights_matrix=wm)
+
+
+def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, variance: str = "separate",
+                  weighting: str = "none", limit_pct: float = 20.0, lot_max_bias_pct: float = 15.0,
+                  lot_max_cv_pct: float = 15.0, min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0) -> MatrixEffect:
     """Each part for which ``data`` (a ``MatrixEffectData``) holds results.
 
     Notes
     -----
-    Slope ratio: ME % = 100 (b_matrix / b_solvent − 1), Fieller's interval at ``level``
+    Slope ratio: ME % = 100 (b_matrix / b_solvent − 1), both slopes from straight lines weighted by
+    ``weighting`` (raw weights, :func:`validator.maths.regression.raw_weights`), Fieller's interval
+    at ``level`` with separate (Welch-Satterthwaite, the default) or pooled residual variances
     (:func:`~validator.sector.matrix_effect.slope_ratio_matrix_effect`). Lots: accuracy
     100·mean/nominal and CV per lot at each nominal level
     (:func:`~validator.sector.matrix_effect.lot_accuracy`). Matrix factor: per lot, mean response in
@@ -52,8 +72,10 @@ def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, 
     if data.solvent_concentration is None:
         slope_reason = "no solvent calibration (solvent_data) was given"
     else:
-        slope = slope_ratio_matrix_effect(data.solvent_concentration, data.solvent_response, matrix_concentration,
-                                          matrix_response, level=level, variance=variance, limit_percent=limit_pct)
+        slope = _slope_ratio(data, matrix_concentration, matrix_response, level=level, variance=variance,
+                             limit_pct=limit_pct, weighting=weighting)
+        if isinstance(slope, str):
+            slope, slope_reason = None, slope
     lots = ()
     if data.lot_found is not None:
         lots = tuple(lot_accuracy(data.lot_found[data.lot_nominal == nominal],
@@ -82,6 +104,11 @@ def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, lim
         sr = result.slope_ratio
         value = None if sr is None else sr.statistic
         why = result.slope_ratio_reason or (sr.reason if sr is not None else "")
+        if value is not None and sr.interval is None:
+            # a ratio whose interval is unbounded (solvent slope not different from zero) is not an estimate
+            # to judge: any ME % is compatible with the data
+            value, why = None, (f"the slope ratio has no bounded interval ({why or 'no interval'}); "
+                                f"its estimate, {sr.statistic:.4g} %, is not judged")
         limit = [-limit_pct, limit_pct]
         out.append(Criterion("matrix-effect-slope-ratio",
                              f"matrix effect ME % = 100 (slope in matrix / slope in solvent − 1) within ±{limit_pct:g} %",

@@ -21,8 +21,12 @@ def sentences(entry: dict, reading) -> dict:
         interval = ("" if ci is None else f" ({level_label(sr['interval_level'])} CI {fmt(ci[0], 3)} to "
                     f"{fmt(ci[1], 3)} %, Fieller)")
         flag = ("beyond" if sr["beyond_limit"] else "within")
+        weighted = ("unweighted straight lines" if sr["weighting"] == "none" else
+                    f"straight lines weighted {sr['weighting']}, the weighting of the calibration")
+        variances = ("separate residual variances, Welch-Satterthwaite df" if sr["variance"] == "separate"
+                     else "one pooled residual variance")
         out["slope_ratio"] = (f"The matrix-matched calibration's slope is {fmt(sr['slope_ratio'], 4)} times the solvent "
-                              f"slope: a matrix effect of {fmt(sr['statistic'], 3)} % ({kind}){interval}, {flag} "
+                              f"slope (both {weighted}; {variances}): a matrix effect of {fmt(sr['statistic'], 3)} % ({kind}){interval}, {flag} "
                               f"±{fmt(sr['limit_percent'])} %. "
                               + ("Beyond it, quantification against solvent standards would be biased: calibrate in "
                                  "matrix." if sr["beyond_limit"] else ""))

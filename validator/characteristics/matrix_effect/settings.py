@@ -27,7 +27,9 @@ NEAT = "neat"        # the lot name that marks neat-solution rows of factor_data
 
 class MatrixEffectSection(_Section):
     solvent_data: Optional[DataPath] = None
-    variance: Literal["pooled", "separate"] = "pooled"
+    # "separate": each line its own residual variance, Welch-Satterthwaite df (valid whether or not they
+    # differ); "pooled": one residual variance for both lines
+    variance: Literal["separate", "pooled"] = "separate"
     limit_pct: float = Field(20.0, gt=0, le=1000)
     judge_slope_ratio: bool = False          # a criterion |ME %| <= limit_pct (else the flag only)
     lots_data: Optional[DataPath] = None

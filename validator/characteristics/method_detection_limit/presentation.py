@@ -25,6 +25,8 @@ def sentences(entry: dict, reading) -> dict:
                            f"times the SD of {entry['n_spiked']} spiked results) and MDL_b = {fmt(entry['blank'])} {unit}; "
                            f"here {which}.")}
     out["blanks"] = f"Method blanks: {entry['n_blanks']}, {entry['n_blanks_numerical']} with a numerical result; {_RULES[entry['blank_rule']]}."
+    if entry["blank_rule_reading"]:
+        out["reading"] = f"Rule applied: {entry['blank_rule_reading']}."
     if entry["notes"]:
         out["notes"] = "Design: " + "; ".join(entry["notes"]) + "."
     return out

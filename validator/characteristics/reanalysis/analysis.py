@@ -16,9 +16,12 @@ def reanalysis(samples, original, repeat, *, limit_pct: float, min_fraction: flo
 
 
 def reanalysis_criteria(result: IncurredSampleReanalysis) -> tuple[Criterion, ...]:
-    """``incurred-sample-reanalysis``: the fraction within ±limit at least ``min_fraction`` (compared exactly)."""
+    """``incurred-sample-reanalysis``: the fraction within ±limit at least ``min_fraction`` (compared exactly),
+    among the judged samples; the result's notes (samples left out, few samples) stand beside the verdict."""
+    remark = "; ".join(result.notes)
     return (Criterion("incurred-sample-reanalysis",
                       f"fraction of reanalysed samples whose repeat lies within ±{result.limit_percent:g} % of the "
                       f"mean of the two results at least {result.min_fraction:.4g}",
                       result.fraction_within, result.min_fraction, result.passed,
-                      "" if result.passed is not None else f"not applicable: {result.reason}"),)
+                      (f"note: {remark}" if remark else "") if result.passed is not None
+                      else f"not applicable: {result.reason}"),)

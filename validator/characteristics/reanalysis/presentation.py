@@ -11,13 +11,20 @@ __all__ = ["sentences", "figures"]
 def sentences(entry: dict, reading) -> dict:
     if entry["n"] == 0:
         return {"summary": f"No reanalysed samples: {entry['reason']}."}
-    word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[entry["passed"]]
-    out = {"summary": (f"{entry['n_within']} of {entry['n']} repeats ({fmt(100 * entry['fraction_within'], 3)} %) lie "
-                       f"within ±{fmt(entry['limit_percent'])} % of the mean of original and repeat; the study "
-                       f"{word} its requirement of at least {fmt(100 * entry['min_fraction'], 3)} %.")}
-    if entry["n_undefined"]:
-        out["undefined"] = (f"{entry['n_undefined']} pair(s) have a mean of zero or below, so no % difference: "
-                            "they count as not within the limit.")
+    if entry["fraction_within"] is None:
+        out = {"summary": f"No fraction within the limit: {entry['reason']}."}
+    else:
+        word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[entry["passed"]]
+        out = {"summary": (f"{entry['n_within']} of {entry['n_judged']} judged repeats "
+                           f"({fmt(100 * entry['fraction_within'], 3)} %) lie within ±{fmt(entry['limit_percent'])} % of "
+                           f"the mean of original and repeat; the study {word} its requirement of at least "
+                           f"{fmt(100 * entry['min_fraction'], 3)} %.")}
+    counted = sum(1 for s in entry["samples"] if s["difference_percent"] is None and s["within"] is False)
+    if counted:
+        out["undefined"] = (f"{counted} pair(s) of different results have a mean of zero or below (or overflow), so "
+                            "no % difference: they count as not within the limit.")
+    if entry["notes"]:
+        out["notes"] = "Note: " + "; ".join(entry["notes"]) + "."
     return out
 
 

@@ -9,6 +9,7 @@ assembled in :data:`ENTRY`.
 from __future__ import annotations
 
 from .._entry import Assessment, Characteristic
+from ..interval_judgement import recovery_interval_criteria
 from . import presentation, settings
 from .analysis import RecoveryLevel, RecoveryResult, assess_recovery, recovery_criteria
 
@@ -21,6 +22,8 @@ def assess(ctx) -> Assessment[RecoveryResult] | None:
         return None
     result = assess_recovery(data.added, data.found, data.native, alpha=ctx.alpha,
                              range_for=ctx.settings_of(ENTRY).range_for)
+    if ctx.config.criteria.on_intervals:      # [criteria] judge_on = "interval": two one-sided tests
+        return Assessment(result, recovery_interval_criteria(result, ctx.alpha))
     return Assessment(result, recovery_criteria(result))
 
 

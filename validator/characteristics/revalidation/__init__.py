@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from .. import _legacy, calibration, detection, recovery
+from .. import calibration, detection, precision, recovery
 from .._entry import Assessment, Characteristic
 from . import settings
 from .analysis import (CalibrationChoice, PreviousResults, RecoveryChange, RepeatabilityChange, ResidualSdChange,
@@ -25,6 +25,11 @@ __all__ = ["ENTRY", "RevalidationResult", "SlopeComparison", "ResidualSdChange",
            "revalidation_criteria"]
 
 
+def _precision_levels(ctx):
+    found = ctx.result_of(precision.ENTRY)
+    return None if found is None else found.levels
+
+
 def assess(ctx) -> Assessment[RevalidationResult | None] | None:
     rc = ctx.settings_of(ENTRY)
     if rc is None:
@@ -33,7 +38,7 @@ def assess(ctx) -> Assessment[RevalidationResult | None] | None:
     if previous is None:     # a re-validation in which this analyte has no counterpart
         return Assessment(None, (unmatched_criterion(rc.slope_change_max_pct),))
     current = run_summary(ctx.result_of(calibration.ENTRY), ctx.result_of(detection.ENTRY),
-                          ctx.result_of(recovery.ENTRY), ctx.result_of(_legacy.PRECISION))
+                          ctx.result_of(recovery.ENTRY), _precision_levels(ctx))
     result = assess_revalidation(RunSummary.from_results(previous.entry), current,
                                  slope_change_max_pct=rc.slope_change_max_pct,
                                  residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=ctx.alpha)

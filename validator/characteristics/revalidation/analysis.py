@@ -59,7 +59,8 @@ class SlopeComparison:
     """
 
     quantity: str = "slope"
-    sensitivity_range: tuple[float, float] | None = None
+    sensitivity_range: tuple[float, float] | None = field(default=None,
+                                                         metadata={"null_reason": "no_sensitivity_range"})
     previous: float | None
     current: float | None
     change_pct: float | None
@@ -75,6 +76,12 @@ class SlopeComparison:
 
     def __post_init__(self):
         object.__setattr__(self, "equivalent", self.verdict == "equivalent")
+
+    @property
+    def no_sensitivity_range(self) -> str:
+        """Why ``sensitivity_range`` is null: a straight line's slope needs no range to average over."""
+        return ("" if self.sensitivity_range is not None else
+                f"the {self.quantity} of a straight line is compared; a sensitivity range applies to a curve only")
 
 
 def _decide(b1, b2, diff_se, df, margin_pct, alpha):

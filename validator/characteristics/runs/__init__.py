@@ -31,7 +31,8 @@ def assess(ctx) -> Assessment[RunsResult] | None:
     provides = [("samples", run_samples(result))]
     rm = ctx.config.reference_material
     certified = rm is not None and (rm.analyte is None or rm.analyte == ctx.data.name)
-    for name, data in (("recovery", spiked_found(result)), ("precision", qc_found(result)),
+    design = tuple(getattr(ctx.config.precision, "design", None) or ()) if ctx.config.precision else ()
+    for name, data in (("recovery", spiked_found(result)), ("precision", qc_found(result, design)),
                        ("reference_material", reference_found(result) if certified else None)):
         if data is not None:
             provides.append((name, data))

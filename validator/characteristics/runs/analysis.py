@@ -192,6 +192,8 @@ class QcFound:
     series: tuple[str, ...] = field(repr=False)
     found: np.ndarray = field(repr=False)
     offset: float = 0.0
+    # the labels of each factor of the [precision] design ("day", "run"), outermost first
+    factors: tuple[tuple[str, ...], ...] = field(default=(), repr=False)
 
 
 @dataclass(frozen=True)
@@ -228,16 +230,23 @@ def spiked_found(result: RunsResult) -> SpikedFound | None:
                        native=np.array(native), series=tuple(i.run for i in spiked))
 
 
-def qc_found(result: RunsResult) -> QcFound | None:
-    """Precision's data: one result per QC injection, the run as its series."""
+def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
+    """Precision's data: one result per QC injection, the run as its series.
+
+    With a nested ``design`` (factor names "day" and/or "run"), each factor's labels come from
+    the injections, and the series is the innermost unit (labels joined, "day / run").
+    """
     qc = _usable(result, "qc")
     if not qc:
         return None
     from decimal import Decimal
 
     values = [Decimal(repr(i.found)) for i in qc]
-    return QcFound(level=np.array([i.level for i in qc], float), series=tuple(i.run for i in qc),
-                   found=np.array([float(v - values[0]) for v in values]), offset=float(values[0]))
+    factors = tuple(tuple(getattr(i, name) for i in qc) for name in design)
+    series = tuple(" / ".join(path) for path in zip(*factors)) if design else tuple(i.run for i in qc)
+    return QcFound(level=np.array([i.level for i in qc], float), series=series,
+                   found=np.array([float(v - values[0]) for v in values]), offset=float(values[0]),
+                   factors=factors)
 
 
 def reference_found(result: RunsResult) -> np.ndarray | None:

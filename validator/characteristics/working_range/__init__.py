@@ -9,7 +9,7 @@ its limit ``loq_rsd_max_pct`` is a key of the ``[detection]`` table) and :data:`
 
 from __future__ import annotations
 
-from .. import _legacy, calibration, detection, recovery
+from .. import calibration, detection, precision, recovery
 from .._entry import Assessment, Characteristic
 from . import presentation
 from .analysis import (LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range,
@@ -25,7 +25,8 @@ def _recovery_levels(ctx) -> tuple:
 
 
 def _precision_levels(ctx) -> tuple:
-    return ctx.result_of(_legacy.PRECISION) or ()
+    found = ctx.result_of(precision.ENTRY)
+    return found.levels if found is not None else ()
 
 
 def assess_loq(ctx) -> Assessment[LoqCheck]:
@@ -37,10 +38,11 @@ def assess_loq(ctx) -> Assessment[LoqCheck]:
 def assess(ctx) -> Assessment[WorkingRange]:
     """The range narrowed by every recovery or precision level that fails its own criteria."""
     reported = ctx.result_of(detection.ENTRY).reported
-    levels, precision = _recovery_levels(ctx), _precision_levels(ctx)
-    assessed = [lv.added for lv in levels] + [lv.level for lv in precision]
+    levels, precise = _recovery_levels(ctx), _precision_levels(ctx)
+    assessed = [lv.added for lv in levels] + [lv.level for lv in precise]
     failing = ([(lv.added, "recovery") for lv in levels if not lv.passed]
-               + [(lv.level, "precision") for lv in precision if _legacy.precision_level_failed(ctx, lv)])
+               + [(lv.level, "precision") for lv in precise
+                  if any(c.passed is False for c in precision.level_criteria(ctx, lv))])
     wr = working_range(ctx.result_of(calibration.ENTRY).back_calculated, reported.loq, reported.method, failing,
                        assessed, ctx.unit)
     return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else

@@ -1,0 +1,471 @@
+"""Precision: repeatability and intermediate precision per level (one-way ANOVA, or the nested design).
+
+References
+----------
+.. [ISO5725-2] ISO 5725-2:2019, Accuracy (trueness and precision) of
+   measurement methods and results - Part 2: Basic method for the
+   determination of repeatability and reproducibility (one-way ANOVA,
+   n0 for unbalanced designs, Cochran's and Grubbs' tests).
+.. [Satterthwaite] Satterthwaite, F. E. (1946). An approximate distribution
+   of estimates of variance components. Biometrics Bulletin 2, 110-114.
+.. [Horwitz] Horwitz, W. and Albert, R. (2006). The Horwitz ratio (HorRat).
+   J. AOAC Int. 89, 1095-1109: PRSD_R = 2 C^-0.1505, C a mass fraction.
+.. [Thompson] Thompson, M. (2000). Analyst 125, 385-386: PRSD_R = 22 % below
+   a mass fraction of 1.2e-7, Horwitz up to 0.138, C^-0.5 % above.
+.. [NIST-ANOVA] NIST StRD one-way ANOVA datasets (SiRstv, AtmWtAg, SmLs01-09).
+.. [ISO5725-3] ISO 5725-3:2023, intermediate precision, fully nested designs.
+.. [BG] Burdick, R. K. and Graybill, F. A. (1992). Confidence Intervals on
+   Variance Components. Marcel Dekker (modified large-sample method).
+.. [EP15] CLSI EP15-A3 (2014), upper verification limit of a claimed SD.
+.. [USP1210] USP <1210>: judging a precision by the upper confidence bound of its RSD.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy import stats
+
+from ..._common import ConfidenceInterval, level_label, quiet_numpy
+from ...criteria import Criterion, at_most
+from ...maths.anova import OneWayAnova, one_way_anova
+from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
+from ...maths.variance_components import nested_variance_components, verify_precision_claim
+
+__all__ = ["PrecisionResult", "PrecisionLevel", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate",
+           "ClaimCheck", "RsdUpperBounds", "assess_precision_level", "precision_criteria", "mass_fraction_factor",
+           "horwitz_prsd"]
+
+
+_MASS_FRACTION = {
+    "%": (1e-2, ""), "g/100g": (1e-2, ""), "g/100 g": (1e-2, ""), "g/kg": (1e-3, ""), "mg/g": (1e-3, ""),
+    "mg/kg": (1e-6, ""), "µg/g": (1e-6, ""), "ug/g": (1e-6, ""), "ppm": (1e-6, ""),
+    "µg/kg": (1e-9, ""), "ug/kg": (1e-9, ""), "ng/g": (1e-9, ""), "ppb": (1e-9, ""),
+    "ng/kg": (1e-12, ""), "ppt": (1e-12, ""),
+    "g/l": (1e-3, "density 1 kg/L assumed"), "mg/l": (1e-6, "density 1 kg/L assumed"),
+    "µg/l": (1e-9, "density 1 kg/L assumed"), "ug/l": (1e-9, "density 1 kg/L assumed"),
+    "ng/l": (1e-12, "density 1 kg/L assumed"), "mg/ml": (1e-3, "density 1 kg/L assumed"),
+    "µg/ml": (1e-6, "density 1 kg/L assumed"), "ug/ml": (1e-6, "density 1 kg/L assumed"),
+}
+
+
+def mass_fraction_factor(unit: str):
+    """(factor, assumption) converting ``unit`` to a mass fraction, or None."""
+    key = re.sub(r"\s+", "", unit.strip()).lower().replace("μ", "µ")
+    for k, v in _MASS_FRACTION.items():
+        if re.sub(r"\s+", "", k) == key:
+            return v
+    return None
+
+
+THOMPSON_LOW = 1.2e-7      # mass fraction below which PRSD_R is 22 % [Thompson]
+THOMPSON_HIGH = 0.138      # mass fraction above which PRSD_R = C^-0.5 % [Thompson]
+
+
+def horwitz_prsd(mass_fraction: float) -> float:
+    """Predicted reproducibility RSD (%), the Horwitz function with Thompson's modification.
+
+    Notes
+    -----
+    PRSD_R = 22 % for C < 1.2e-7; 2 C^-0.1505 % for 1.2e-7 <= C <= 0.138
+    (Horwitz); C^-0.5 % for C > 0.138 (sigma_R = 0.01 C^0.5), C a mass
+    fraction [Thompson], [Horwitz]. The pieces meet (to rounding) at both
+    boundaries.
+    """
+    c = float(mass_fraction)
+    if not np.isfinite(c) or c <= 0:
+        raise ValueError(f"mass fraction must be a positive finite number, got {mass_fraction!r}")
+    if c < THOMPSON_LOW:
+        return 22.0
+    if c > THOMPSON_HIGH:
+        return 100.0 * 0.01 * c ** -0.5
+    return 2.0 * c ** (-0.1505)
+
+
+def horwitz_band(mass_fraction: float) -> str:
+    """Which piece of the Thompson-modified Horwitz function applies."""
+    if mass_fraction < THOMPSON_LOW:
+        return "22 % (mass fraction below 1.2e-7)"
+    if mass_fraction > THOMPSON_HIGH:
+        return "C^-0.5 % (mass fraction above 0.138)"
+    return "2 C^-0.1505 % (mass fraction 1.2e-7 to 0.138)"
+
+
+# the one-way ANOVA's values, written flat into the level's results.json object: (json name, attribute(s))
+_ANOVA_JSON = (("ms_between", "ms_between"), ("ms_within", "ms_within"), ("df", ("df_between", "df_within")),
+               ("n0", "n0"), ("f_statistic", "statistic"), ("p_value", "pvalue"))
+
+
+def _upper_rsd(sd, df, mean, alpha):
+    """One-sided upper (1 - alpha) bound on an RSD: 100 sd sqrt(df / chi2_{alpha; df}) / |mean|."""
+    if sd is None or df is None or not (np.isfinite(sd) and np.isfinite(df) and df > 0) or not mean:
+        return None
+    with quiet_numpy():
+        return float(100.0 * sd * np.sqrt(df / stats.chi2.ppf(alpha, df)) / abs(mean))
+
+
+@dataclass(frozen=True)
+class RsdUpperBounds:
+    """One-sided upper confidence bounds on the one-way RSDs ([USP1210]).
+
+    Each is 100 s sqrt(df / chi2_{alpha; df}) / |mean|: repeatability with the within-series
+    df, intermediate precision with its Satterthwaite df.
+    """
+
+    repeatability_rsd_upper_pct: float | None
+    intermediate_rsd_upper_pct: float | None
+    confidence: float
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class VarianceEstimate:
+    """One variance component of the nested design (``raw_estimate``: the ANOVA value before a
+    negative one is set to 0; absent for REML, whose estimates are constrained to >= 0)."""
+
+    source: str
+    variance: float
+    sd: float
+    rsd_pct: float | None = field(metadata={"null_reason": "rsd_reason"})
+    set_to_zero: bool
+    raw_estimate: float | None = field(default=None, metadata={"omit_none": True})
+
+    @property
+    def rsd_reason(self) -> str:
+        return "the mean is zero, so no relative standard deviation exists"
+
+
+@dataclass(frozen=True)
+class PrecisionConditionEstimate:
+    """A precision condition: the components from the replicate out to a factor, as an SD.
+
+    ``sd_ci`` is the two-sided interval (chi-square for repeatability, the modified
+    large-sample method for sums [BG]; in an unbalanced design, where REML is used, the
+    Satterthwaite interval with df from the REML information); ``sd_ci_satterthwaite`` the
+    Satterthwaite interval;
+    ``rsd_upper_pct`` the one-sided upper bound at the same confidence, chi-square with the
+    (Satterthwaite) df.
+    """
+
+    name: str
+    sources: tuple[str, ...]
+    sd: float | None
+    rsd_pct: float | None
+    df: float | None
+    sd_ci: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    sd_ci_satterthwaite: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    rsd_upper_pct: float | None
+    reason: str = ""
+
+
+@dataclass(frozen=True)
+class NestedPrecision:
+    """Variance components of the declared nested design at one level ([ISO5725-3])."""
+
+    design: tuple[str, ...]
+    method: str
+    balanced: bool
+    components: tuple[VarianceEstimate, ...]
+    conditions: tuple[PrecisionConditionEstimate, ...]
+    notes: tuple[str, ...]
+    reason: str = ""
+
+    @property
+    def repeatability(self) -> PrecisionConditionEstimate:
+        return self.conditions[0]
+
+    @property
+    def intermediate(self) -> PrecisionConditionEstimate:
+        return self.conditions[-1]
+
+
+@dataclass(frozen=True)
+class ClaimCheck:
+    """Verification of a claimed repeatability or within-laboratory RSD at one level ([EP15]).
+
+    The claim is converted to an SD at the level's mean; it is verified when the observed SD is
+    at most the upper verification limit claimed SD sqrt(chi2_{1-alpha; df} / df).
+    """
+
+    quantity: str
+    claimed_rsd_pct: float
+    claimed_sd: float | None
+    observed_sd: float | None
+    df: float | None
+    upper_verification_limit: float | None
+    verified: bool | None
+    basis: str
+    reason: str = ""
+
+
+def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
+    conf = 1.0 - alpha
+    rel = (lambda sd: None if sd is None or not mean else 100.0 * sd / abs(mean))
+    with quiet_numpy():
+        res = nested_variance_components(values, factors, names=design, confidence=conf)
+    if res.reason:
+        empty = PrecisionConditionEstimate("repeatability", ("replicate",), None, None, None, None, None, None,
+                                           res.reason)
+        last = PrecisionConditionEstimate("intermediate precision", tuple(design) + ("replicate",), None, None,
+                                          None, None, None, None, res.reason)
+        return NestedPrecision(tuple(design), res.method, res.balanced, (), (empty, last), res.notes, res.reason)
+    comps = tuple(VarianceEstimate(c.source, c.variance, c.sd, rel(c.sd), c.set_to_zero, c.raw_estimate)
+                  for c in res.components)
+    conds = []
+    for c in res.conditions:
+        conds.append(PrecisionConditionEstimate(
+            c.name, c.sources, c.sd, rel(c.sd), c.df, c.ci_mls or c.ci_satterthwaite, c.ci_satterthwaite,
+            _upper_rsd(c.sd, c.df, mean, alpha), c.reason))
+    return NestedPrecision(tuple(design), res.method, res.balanced, comps, tuple(conds), res.notes)
+
+
+def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha) -> tuple:
+    out = []
+    for quantity, claimed, sd, df, why in (("repeatability", claims[0], rep_sd, rep_df, ""),
+                                           ("within-laboratory", claims[1], ip_sd, ip_df, ip_reason)):
+        if claimed is None:
+            continue
+        claimed_sd = abs(mean) * claimed / 100.0 if mean else None
+        if claimed_sd is None or sd is None or df is None or not np.isfinite(sd) or not df > 0:
+            reason = ("the mean is zero, so an RSD claim gives no SD" if not claimed_sd else
+                      f"the observed {quantity} SD or its degrees of freedom do not exist"
+                      + (f" ({why})" if why else ""))
+            out.append(ClaimCheck(quantity, claimed, claimed_sd, None if sd is None or not np.isfinite(sd) else sd,
+                                  None, None, None, "not verified", reason))
+            continue
+        v = verify_precision_claim(sd, claimed_sd, df, alpha=alpha)
+        out.append(ClaimCheck(quantity, claimed, claimed_sd, sd, float(df), v.uvl, v.verified, v.basis))
+    return tuple(out)
+
+
+@dataclass(frozen=True)
+class PrecisionLevel:
+    """One concentration level. Field order and ``metadata`` give its results.json form."""
+
+    level: float
+    series: int
+    n: int
+    mean: float
+    anova: OneWayAnova = field(metadata={"flatten": _ANOVA_JSON})
+    repeatability_sd: float
+    repeatability_rsd_pct: float | None
+    between_series_sd: float
+    between_clamped: bool = field(metadata={"json": "between_series_set_to_zero"})
+    intermediate_sd: float
+    intermediate_rsd_pct: float | None
+    repeatability_sd_ci: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    intermediate_sd_ci: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    intermediate_df: float | None
+    cochran: OutlierTest
+    grubbs: OutlierTest
+    grubbs_double: OutlierTest | None
+    grubbs_within: tuple[OutlierTest, ...] = field(metadata={"json": "grubbs_within_series"})   # one per series
+    horrat: float | None = field(metadata={"null_reason": "horwitz_reason"})
+    horwitz_prsd_pct: float | None = field(metadata={"null_reason": "horwitz_reason"})
+    horwitz_note: str
+    reason: str = field(default="", metadata={"json": "notes"})   # why some estimates are missing
+    # written only when the study declares them ([precision] design, claims, judge_on = "interval")
+    rsd_upper_bounds: RsdUpperBounds | None = field(default=None, metadata={"omit_none": True})
+    nested: NestedPrecision | None = field(default=None, metadata={"omit_none": True})
+    claims: tuple[ClaimCheck, ...] | None = field(default=None, metadata={"omit_none": True})
+
+    @property
+    def decisive(self) -> tuple:
+        """((RSD, its upper bound, why missing) for repeatability, the same for intermediate precision):
+        from the nested design when declared, else from the one-way analysis."""
+        if self.nested is not None:
+            r, i = self.nested.repeatability, self.nested.intermediate
+            return ((r.rsd_pct, r.rsd_upper_pct, self.nested.reason or r.reason),
+                    (i.rsd_pct, i.rsd_upper_pct, self.nested.reason or i.reason))
+        b = self.rsd_upper_bounds
+        return ((self.repeatability_rsd_pct, None if b is None else b.repeatability_rsd_upper_pct, self.reason),
+                (self.intermediate_rsd_pct, None if b is None else b.intermediate_rsd_upper_pct, self.reason))
+
+    @property
+    def horwitz_reason(self) -> str:
+        """Why the Horwitz ratio is missing (results.json ``not_applicable``)."""
+        return self.horwitz_note or "the Horwitz ratio needs a positive mean"
+
+    @property
+    def null_reason(self) -> str:
+        """Why a value of this level is missing (results.json ``not_applicable``)."""
+        an = self.anova
+        if self.reason:
+            return self.reason
+        if an.df_within > 0 and not an.ms_within > 0:
+            return ("the results within every series are identical (zero repeatability variance): the F test "
+                    "and the intervals built on it do not exist")
+        return "the value does not exist for these results (see the level's notes)"
+
+
+@dataclass(frozen=True)
+class PrecisionResult:
+    """The precision of one analyte: one entry per level, in increasing order (results.json ``precision``)."""
+
+    levels: tuple[PrecisionLevel, ...]
+
+
+def _sd_ci(sd, df, alpha):
+    if df is None or not np.isfinite(df) or df <= 0:
+        return None
+    lo = sd * np.sqrt(df / stats.chi2.ppf(1 - alpha / 2, df))
+    hi = sd * np.sqrt(df / stats.chi2.ppf(alpha / 2, df))
+    return ConfidenceInterval(float(lo), float(hi), 1 - alpha)
+
+
+def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset=0.0, design=None,
+                           factors=(), claims=(None, None), bounds=False) -> PrecisionLevel:
+    """Repeatability, between-series and intermediate precision at one level.
+
+    Notes
+    -----
+    s_r^2 = MS_within; s_L^2 = (MS_between - MS_within)/n0, set to 0 when
+    negative; s_I^2 = s_r^2 + s_L^2. RSDs relative to the grand mean.
+    CI of s_r from chi^2 with N - p df; CI of s_I from chi^2 with
+    Satterthwaite's effective df
+    nu = (s_I^2)^2 / [ (MS_b/n0)^2/(p-1) + ((1 - 1/n0) MS_w)^2/(N-p) ]
+    [ISO5725-2], [Satterthwaite].
+
+    With ``design`` (factor names, outermost first) and ``factors`` (their labels per
+    result), the nested variance components of
+    :func:`validator.maths.variance_components.nested_variance_components` are added
+    (``nested``): ANOVA for balanced designs, REML otherwise; intervals on repeatability
+    (chi-square) and on sums of components (modified large-sample [BG] and Satterthwaite);
+    one-sided upper RSD bounds. ``claims`` (claimed repeatability and within-laboratory
+    RSD, %) are verified by the upper verification limit [EP15], from the nested estimates
+    when declared, else the one-way ones. ``bounds`` adds the one-way upper RSD bounds.
+    """
+    a = one_way_anova(values, series, offset)
+    notes = []
+    nan = float("nan")
+    sr2 = a.ms_within if a.df_within > 0 else nan
+    if a.df_within == 0:
+        notes.append("every series has a single result, so repeatability cannot be estimated")
+    if a.df_between == 0:
+        notes.append("only one series, so between-series variance cannot be estimated "
+                     "(intermediate precision is not assessed)")
+        sl2 = nan
+    else:
+        sl2 = (a.ms_between - a.ms_within) / a.n0
+    clamped = bool(sl2 < 0)
+    if clamped:
+        sl2 = 0.0
+    si2 = sr2 + sl2
+    sr, sl, si = (float(np.sqrt(v)) for v in (sr2, sl2, si2))
+    mean = a.grand_mean
+    if mean == 0:
+        notes.append("the mean is zero, so no relative standard deviation exists")
+    rsd = (lambda sd: 100 * sd / mean if mean != 0 and np.isfinite(sd) else None)
+    df_i = None
+    if np.isfinite(si2):
+        if clamped:
+            df_i = float(a.df_within)
+        else:
+            den = ((a.ms_between / a.n0) ** 2 / a.df_between
+                   + ((1 - 1 / a.n0) * a.ms_within) ** 2 / a.df_within)
+            df_i = float(si2**2 / den) if den > 0 else None
+    horrat = prsd = None
+    note = ""
+    conv = mass_fraction_factor(unit) if unit else None
+    if conv is None:
+        note = f'the concentration unit "{unit}" does not convert to a mass fraction'
+    elif mean <= 0:
+        note = "the mean is not positive"
+    elif rsd(si) is None:
+        note = "intermediate precision was not estimated"
+    else:
+        factor, assumption = conv
+        fraction = mean * factor
+        prsd = horwitz_prsd(fraction)
+        horrat = rsd(si) / prsd
+        note = ("HorRat = intermediate RSD / PRSD_R (intermediate precision in place of reproducibility); "
+                f"PRSD_R from the Horwitz function with Thompson's (2000) modification, here {horwitz_band(fraction)}"
+                + (f"; {assumption}" if assumption else ""))
+    nested = None
+    if design:
+        nested = _nested(np.asarray(values, dtype=float) + offset, mean, [list(f) for f in factors], design, alpha)
+    upper = None
+    if bounds and nested is None:
+        upper = RsdUpperBounds(_upper_rsd(sr, a.df_within if a.df_within > 0 else None, mean, alpha),
+                               _upper_rsd(si, df_i, mean, alpha), 1.0 - alpha, "; ".join(notes))
+    checks = None
+    if any(c is not None for c in claims):
+        if nested is not None:
+            r, i = nested.repeatability, nested.intermediate
+            checks = _claims(claims, mean, r.sd, r.df, i.sd, i.df, i.reason, alpha)
+        else:
+            checks = _claims(claims, mean, sr if np.isfinite(sr) else None, a.df_within or None,
+                             si if np.isfinite(si) else None, df_i, "; ".join(notes), alpha)
+    return PrecisionLevel(
+        level=float(level), series=a.groups, n=a.n, mean=mean, anova=a, repeatability_sd=sr,
+        repeatability_rsd_pct=rsd(sr), between_series_sd=sl, between_clamped=clamped, intermediate_sd=si,
+        intermediate_rsd_pct=rsd(si),
+        repeatability_sd_ci=_sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
+        intermediate_sd_ci=_sd_ci(si, df_i, alpha) if np.isfinite(si) else None, intermediate_df=df_i,
+        cochran=cochran_c(values, series, alpha), grubbs=grubbs_means(values, series, alpha),
+        grubbs_double=grubbs_double(values, series, alpha),
+        grubbs_within=grubbs_within_series(values, series, alpha, offset), horrat=horrat, horwitz_prsd_pct=prsd,
+        horwitz_note=note, reason="; ".join(notes), rsd_upper_bounds=upper, nested=nested, claims=checks)
+
+
+NO_SPREAD = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
+             "reported values, so precision is not shown; report the results with more digits")
+
+
+def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool = False, alpha: float = 0.05) -> tuple:
+    """Repeatability and intermediate RSD of one level against their maxima, and claim verifications.
+
+    On the estimate basis (default) the RSDs themselves are judged; on the interval basis
+    ([criteria] judge_on = "interval") their one-sided upper (1 - alpha) confidence bounds.
+    The other basis is stated in the criterion's note whenever it was computed. With a
+    declared nested design the RSDs are the design's repeatability and intermediate
+    precision (all components).
+    """
+    (r_rsd, r_up, r_why), (i_rsd, i_up, i_why) = lv.decisive
+    # an RSD of exactly 0 shows no precision: the spread is below the resolution of the reported
+    # results (rounded or censored values), so it is not judged (not shown is not passed)
+    if r_rsd == 0:
+        r_rsd, r_up, r_why = None, None, NO_SPREAD
+    if i_rsd == 0:
+        i_rsd, i_up, i_why = None, None, NO_SPREAD
+    out = []
+    r_max, i_max = limits
+    conf = level_label(1 - alpha)
+    shown_both = on_intervals or lv.nested is not None
+    for kind, label, value, bound, why, limit in (
+            ("repeatability", "repeatability RSD", r_rsd, r_up, r_why, r_max),
+            ("intermediate", "intermediate precision RSD", i_rsd, i_up, i_why, i_max)):
+        if limit is None:
+            continue
+        if not shown_both:     # the criterion as written before interval judging existed
+            out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
+                                 value, limit, at_most(value, limit),
+                                 "" if value is not None else f"not applicable: {why or 'the mean is zero'}"))
+            continue
+        judged = bound if on_intervals else value
+        other = value if on_intervals else bound
+        other_text = ("does not exist" if other is None else
+                      f"is {other:.4g} % ({'met' if other <= limit else 'not met'} on that basis)")
+        note = (f"judged on the {'upper confidence bound' if on_intervals else 'point estimate'}; the "
+                f"{'point estimate' if on_intervals else f'upper {conf} bound'} {other_text}")
+        if judged is None:
+            note = f"not applicable: {why or 'the value does not exist'}; " + note
+        description = (f"upper {conf} confidence bound of the {label} at level {lv.level:g} at most {limit:g} %"
+                       if on_intervals else f"{label} at level {lv.level:g} at most {limit:g} %")
+        out.append(Criterion(f"{kind}-rsd-{lv.level:g}", description, judged, limit, at_most(judged, limit), note))
+    for c in lv.claims or ():
+        if c.observed_sd == 0:
+            out.append(Criterion(
+                f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
+                f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
+                f"{c.claimed_rsd_pct:g} % RSD (CLSI EP15)", None, c.upper_verification_limit, None,
+                f"not applicable: {NO_SPREAD}"))
+            continue
+        out.append(Criterion(
+            f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
+            f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
+            f"{c.claimed_rsd_pct:g} % RSD (CLSI EP15)", c.observed_sd, c.upper_verification_limit, c.verified,
+            c.basis if c.verified is not None else f"not applicable: {c.reason}"))
+    return tuple(out)
