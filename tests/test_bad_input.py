@@ -26,7 +26,7 @@ CATALOGUE = [
     ("unknown-section", CALIB + '[blank]\ndata = "b.csv"\n', None, "",
      '{dir}/study.toml, line 8, key blank: unknown section; did you mean "blanks"?'),
     ("wrong-type", "[calibration]\ndata = 5\n", None, "",
-     "{dir}/study.toml, line 7, key calibration.data: Input should be a valid string; got 5"),
+     "{dir}/study.toml, line 7, key calibration.data: must be text in quotes (\"...\"); got 5"),
     ("missing-key", '[calibration]\nmodel = "linear"\n', None, "",
      "{dir}/study.toml, key calibration.data: required key is missing"),
     ("missing-section", "", None, "",
@@ -34,8 +34,9 @@ CATALOGUE = [
     ("template-override", CALIB + '[report]\ntemplate = "mine.html"\n', None, "",
      "{dir}/study.toml, line 8, key report: unknown section; allowed: study, calibration, samples, "
      "criteria, blanks, detection, recovery, precision, accuracy_profile, uncertainty, reference_material, "
-     "revalidation, comparison, limit_of_blank, method_detection_limit, matrix_effect, carry_over, selectivity, "
-     "stability, dilution_integrity, reanalysis, design, protocol"),
+     "revalidation, comparison, sample_preparation, limit_of_blank, method_detection_limit, matrix_effect, "
+     "carry_over, selectivity, stability, dilution_integrity, reanalysis, exclusions, runs, columns, types, "
+     "design, protocol"),
     ("data-missing", '[calibration]\ndata = "nope.csv"\n', {}, "",
      "nope.csv: data file not found (looked for {dir}/nope.csv); `validator protocol` works without data, "
      "`check` and `run` need it"),
@@ -47,7 +48,9 @@ CATALOGUE = [
      'calibration.csv, row 1: the header names column "response" twice'),
     ("non-numeric", CALIB, {"calibration.csv": "concentration,response\n1,1\n2,abc\n"}, "",
      'calibration.csv, row 3, column "response": "abc" is not a number'),
-    ("decimal-comma", CALIB, {"calibration.csv": "concentration;response\n1;2,5\n"}, 'delimiter = ";"\n',
+    # the study states decimal = "." (when it states nothing, the decimal comma is detected)
+    ("decimal-comma", CALIB, {"calibration.csv": "concentration;response\n1;2,5\n"},
+     'delimiter = ";"\ndecimal = "."\n',
      'calibration.csv, row 2, column "response": "2,5" uses a decimal comma but the study declares '
      'decimal = "."; set decimal = "," in [study]'),
     ("decimal-point", CALIB, {"calibration.csv": "concentration;response\n1;2.5\n"},

@@ -44,6 +44,7 @@ BASE = {
                            "standard_uncertainty": "0.15"},
     "revalidation": {"previous": '"previous-results.json"'},
     "comparison": {"data": '"comparison.csv"', "slope_limits": "[0.95, 1.05]"},
+    "sample_preparation": {"unit": '"mg/kg"', "aliquot": "2.0", "final_volume": "10.0"},
     # the sector characteristics (issue #15), on small files written by the data_folder fixture
     "limit_of_blank": {"blanks": '"lob-blanks.csv"', "low_samples": '"lob-low.csv"', "loq_max_cv_pct": "20",
                        "lob_max": "0.5"},
@@ -101,6 +102,8 @@ def _numeric_keys() -> list:
 
     out = []
     for section, field in StudyConfig.model_fields.items():
+        if typing.get_origin(field.annotation) is list:     # [[exclusions]]: arrays of tables, not in BASE
+            continue
         model = next(a for a in (typing.get_args(field.annotation) or (field.annotation,))
                      if isinstance(a, type) and issubclass(a, BaseModel))
         for key, sub in model.model_fields.items():

@@ -65,7 +65,7 @@ CASES = [
      "{dir}/study.toml, line 10, key comparison.error_ratio: must be a finite number with "
      "1e-06 <= error_ratio <= 1e+06; got inf"),
     ("recovery-range-inf", CALIB + '[recovery]\ndata = "r.csv"\nrange_pct = [90, inf]\n', None, "",
-     "{dir}/study.toml, line 10, key recovery.range_pct.1: Input should be a finite number; got inf"),
+     "{dir}/study.toml, line 10, key recovery.range_pct.1: must be a finite number; got inf"),
     ("huge-integer-as-float", CALIB + "[criteria]\nalpha = " + "9" * 400 + "\n", None, "",
      "{dir}/study.toml, line 9, key criteria.alpha: is too large for a number "
      "(the largest magnitude is about 1.8e308); got " + "9" * 80 + "... (400 characters)"),
@@ -83,10 +83,10 @@ CASES = [
      "got 1000000000000"),
     # length limits
     ("title-1-mb", CALIB, None, None,
-     "{dir}/study.toml, line 3, key study.title: String should have at most 300 characters; got '"
+     "{dir}/study.toml, line 3, key study.title: is too long (at most 300 characters); got '"
      + "x" * 80 + "... (1000000 characters)'"),
     ("id-101", CALIB, None, None,
-     "{dir}/study.toml, line 2, key study.id: String should have at most 100 characters; got '"
+     "{dir}/study.toml, line 2, key study.id: is too long (at most 100 characters); got '"
      + "i" * 80 + "... (101 characters)'"),
     ("analyte-name-long", CALIB, {"calibration.csv": "analyte,concentration,response\n" + "a" * 101 + ",1,1\n"}, "",
      'calibration.csv, row 2, column "analyte": "' + "a" * 80 + '... (101 characters)" is 101 characters long; '

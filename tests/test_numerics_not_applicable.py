@@ -11,6 +11,7 @@ from hypothesis import HealthCheck, given, seed, settings
 from hypothesis import strategies as st
 
 from test_fuzz import GOOD, good_calibration, good_table
+from validator.registry import REGISTRY
 from validator.engine import analyse_study
 from validator.errors import ValidatorError
 from validator.inputs.loading import load_study
@@ -19,7 +20,9 @@ from validator.results import build_results
 EXAMPLES = 1000 if os.environ.get("HYPOTHESIS_PROFILE") == "nightly" else 100
 SECTIONS = {"samples": "samples.csv", "blanks": "blanks.csv", "recovery": "recovery.csv",
             "precision": "precision.csv", "comparison": "comparison.csv"}
-OPTIONAL = ("recovery", "precision", "reference_material", "revalidation", "comparison")
+# sections that are null when not assessed (characteristics_assessed says so), registry entries included
+OPTIONAL = ("recovery", "precision", "reference_material", "revalidation", "comparison") + tuple(
+    e.name for e in REGISTRY if e.result_types)
 WEIGHTINGS = ('"none"', '"auto"')
 LEGACY = ("lack_of_fit", "mandel", "normality", "heteroscedasticity", "levene", "intercept_test")
 

@@ -291,15 +291,21 @@ def test_workbooks_are_told_from_their_first_bytes(tmp_path):
     assert workbook_instead_of_csv(b"concentration,response\n1,2\n", "c.csv") is None
 
 
-def test_a_workbook_given_as_csv_is_named(tmp_path):
+def test_a_workbook_named_as_data_is_read_as_a_workbook(tmp_path):
+    # read_table tells an .xlsx file from its bytes (not its name) and reads the sheet;
+    # a problem names file, sheet and cell (the project's own wording, no published source)
     wb, _ = results_book()
     wb.create_sheet("Summary")
     data = save(tmp_path, wb)
+    table = read_table(data, "calibration.csv", required=REQUIRED, optional=OPTIONAL, header_row=3)
+    assert table.sheet == "Results" and table.numbers("concentration") == CONCENTRATIONS   # as written
     with pytest.raises(DataError) as info:
         read_table(data, "calibration.csv", delimiter=",", required=("concentration", "response"))
-    assert str(info.value) == (
-        'calibration.csv: is an .xlsx workbook (sheets: "Results", "Summary"), not CSV text; give '
-        'sheet = "Results" for this file in the study, or export the sheet as CSV (UTF-8)')
+    assert str(info.value).startswith(
+        'calibration.csv, sheet Results, cell A1: unknown column "run 3, exported 2026-11-30"')
+    with pytest.raises(DataError) as info:
+        read_table(data, "calibration.csv", required=REQUIRED, optional=OPTIONAL, sheet="Resluts")
+    assert str(info.value).startswith('calibration.csv: has no sheet "Resluts" (sheets: "Results", "Summary")')
     with pytest.raises(DataError) as info:
         read_table(XLS, "calibration.csv", delimiter=",", required=("concentration",))
     assert str(info.value) == (

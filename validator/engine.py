@@ -235,10 +235,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
         done = step.assess(ctx)
         if done is not None:
             ctx = ctx.with_result(step.name, done)
+            if done.provides:
+                ctx = replace(ctx, data=ctx.data.with_entries(done.provides))
         elif (gap := _declared_without_data(step, ctx)) is not None:
             ctx = replace(ctx, criteria=ctx.criteria + (gap,))
     cal = ctx.result_of(calibration.ENTRY)
-    return AnalyteResult(name=data.name, data=data, calibration=cal,
+    return AnalyteResult(name=data.name, data=ctx.data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),
                          residual_views=residual_series(cal.fit), results=ctx.results)
 

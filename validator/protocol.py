@@ -171,14 +171,21 @@ NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
               "scope", "intended_use", "method_summary", "protocol_reference", "document_number",
               "document_version", "decimal", "delimiter", "max_data_file_mb"),      # free text and how the files are read
-    "calibration": ("data",), "samples": ("data",), "blanks": ("data",), "recovery": ("data",),
-    "precision": ("data",), "reference_material": ("data",), "comparison": ("data",),
+    # where a data file is and how it is read (inputs.study.DataSource)
+    **{section: ("data", "sheet", "header_row") for section in
+       ("calibration", "samples", "blanks", "recovery", "precision", "reference_material", "comparison")},
+    "samples": ("data", "sheet", "header_row", "expected", "expected_readings"),   # plus the ids to check
     "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
     "limit_of_blank": ("blanks", "low_samples"), "method_detection_limit": ("spiked", "blanks"),
     "matrix_effect": ("solvent_data", "lots_data", "factor_data"), "carry_over": ("data",),
     "selectivity": ("data",), "stability": ("data",), "dilution_integrity": ("data",), "reanalysis": ("data",),
+    "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
+    # the run exports, how their columns and type words map, and which calibration quantifies them
+    "runs": ALL, "columns": ALL, "types": ALL,
+    "sample_preparation": ALL,           # the reporting unit and sample preparation: how results are expressed
 }
+NOT_CRITERIA["calibration"] = NOT_CRITERIA["calibration"] + ("quantify_with",)
 
 
 def normalised(config) -> dict:

@@ -11,15 +11,17 @@ from __future__ import annotations
 
 from .characteristics import (accuracy_profile, calibration, carry_over, comparison, detection,
                               dilution_integrity, limit_of_blank, matrix_effect, method_detection_limit, precision,
-                              reanalysis, recovery, reference_material, revalidation, samples, selectivity, stability,
-                              uncertainty, working_range)
+                              reanalysis, recovery, reference_material, revalidation, runs, sample_preparation, samples,
+                              selectivity, stability, uncertainty, working_range)
 from .characteristics._entry import Assessment, Characteristic, Reading
 
 __all__ = ["REGISTRY", "Characteristic", "Assessment", "Reading"]
 
 REGISTRY: tuple[Characteristic, ...] = (
     calibration.ENTRY,               # first: its data name the analytes
+    runs.ENTRY,                      # run exports: each run's calibration gives the found values below
     samples.ENTRY,
+    sample_preparation.ENTRY,        # the samples in the reporting unit (preparation factors)
     detection.BLANKS,
     detection.ENTRY,
     recovery.ENTRY,

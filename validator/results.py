@@ -252,9 +252,19 @@ def build_results(result, *, generated_at: str) -> dict:
                   "concentration_unit": cfg.concentration_unit, "response_unit": cfg.response_unit,
                   "analyst": cfg.analyst, "reviewer": cfg.reviewer, "instrument": cfg.instrument,
                   "method": cfg.method, "notes": cfg.notes},
-        "inputs": [{"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size}
+        # how each data file was read (sheet, or CSV delimiter/decimal) only where it applies
+        "inputs": [{k: v for k, v in {"role": f.role, "path": f.path, "sha256": f.sha256, "bytes": f.size,
+                                      "sheet": f.sheet, "delimiter": f.delimiter, "decimal": f.decimal,
+                                      "dialect": f.dialect}.items() if v is not None}
                    for f in loaded.inputs],
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
+        # data rows left out by [[exclusions]]: kept here with their reason, never dropped silently
+        "exclusions": [{"file": e.file, "sheet": e.sheet, "row": e.row, "role": e.role, "reason": e.reason,
+                        "who": e.who, "cells": [{"column": c, "value": v} for c, v in e.cells]}
+                       for e in loaded.excluded],
+        # sample ids one character apart with one reading each: a flagged warning, never silence
+        "sample_id_warnings": [{"analyte": w.analyte, "file": w.file, "ids": list(w.ids), "rows": list(w.rows),
+                                "text": w.text} for w in loaded.near_duplicate_ids],
         "analytes": [_analyte(a) for a in result.analytes],
         **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
            if loaded.config.study.guideline is not None else {}),

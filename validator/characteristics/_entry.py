@@ -35,6 +35,9 @@ class Assessment(Generic[R]):
 
     result: R
     criteria: tuple[Criterion, ...] = ()
+    # data this step gives the entries below it, as (entry name, data): what their
+    # ``ctx.data_of(ENTRY)`` (or the AnalyteData field of that name) then holds
+    provides: tuple[tuple[str, Any], ...] = ()
 
 
 @dataclass(frozen=True)

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 from ..errors import DataError, show
 
-__all__ = ["Dialect", "detect_dialect", "is_number", "DELIMITERS", "DECIMALS"]
+__all__ = ["Dialect", "DialectError", "detect_dialect", "is_number", "DELIMITERS", "DECIMALS"]
 
 # the study's spelling -> the character in the file
 DELIMITERS = {",": ",", ";": ";", "tab": "\t"}
@@ -35,6 +35,21 @@ _SHOWN = {",": '","', ";": '";"', "tab": "a tab"}
 _NUMBER_POINT = re.compile(r"[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?")
 _NUMBER_COMMA = re.compile(r"[+-]?(\d+(,\d*)?|,\d+)([eE][+-]?\d+)?")
 _NUMBER = {".": _NUMBER_POINT, ",": _NUMBER_COMMA}
+
+
+class DialectError(DataError):
+    """A :class:`~validator.errors.DataError` from :func:`detect_dialect`, with its kind.
+
+    ``kind`` is ``"mismatch"`` (the file reads consistently, but not as the
+    study declares; the message names every fix), ``"ambiguous"`` (two
+    readings give different tables) or ``"unreadable"`` (no reading is
+    consistent), so that a caller can prefer a more precise message from
+    reading the file as declared.
+    """
+
+    def __init__(self, problem: str, *, kind: str, file: str):
+        super().__init__(problem, file=file)
+        self.kind = kind
 
 
 @dataclass(frozen=True)
@@ -215,8 +230,8 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
 
     Raises
     ------
-    DataError
-        When the file contradicts a declared value (one message names every
+    DialectError
+        (a DataError) When the file contradicts a declared value (one message names every
         fix), when two different readings are both consistent (ambiguous),
         or when no reading is consistent.
     ValueError
@@ -301,10 +316,10 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
 
     if not readings:
         if all(isinstance(k, str) for k in failures) and len(set(failures.values())) == 1:
-            raise DataError(next(iter(failures.values())), file=file)
+            raise DialectError(next(iter(failures.values())), kind="unreadable", file=file)
         parts = [f"with {_SHOWN[k]}: {v}" if isinstance(k, str) else v for k, v in failures.items()]
-        raise DataError("no delimiter and decimal mark read the file consistently ("
-                        + "; ".join(parts) + ")", file=file)
+        raise DialectError("no delimiter and decimal mark read the file consistently ("
+                           + "; ".join(parts) + ")", kind="unreadable", file=file)
 
     # group readings that mean the same table
     outcomes: dict = {}
@@ -340,14 +355,14 @@ def detect_dialect(text: str, file: str, *, delimiter: str | None = None,
             groups = declared
         else:
             options = ", or ".join(_describe(g[0]) for g in groups)
-            raise DataError(f"the delimiter and decimal mark cannot be told from the file: it reads "
-                            f"consistently with {options}; set delimiter and decimal in [study]",
-                            file=file)
+            raise DialectError(f"the delimiter and decimal mark cannot be told from the file: it reads "
+                               f"consistently with {options}; set delimiter and decimal in [study]",
+                               kind="ambiguous", file=file)
 
     group = groups[0]
     chosen = next((r for r in group if matches(r)), None)
     if chosen is None:
-        raise DataError(_mismatch(group, delimiter, decimal), file=file)
+        raise DialectError(_mismatch(group, delimiter, decimal), kind="mismatch", file=file)
 
     # pick within the group: declared first, then "," before ";" before tab, "." before ","
     delimiter_seen = len(chosen.header) > 1

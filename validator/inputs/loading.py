@@ -13,8 +13,12 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+import dataclasses
+
 import numpy as np
 
+from .exclusions import Excluded, Exclusions
+from .sample_ids import NearDuplicateIds
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
 from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
@@ -35,6 +39,10 @@ class InputFile:
     resolved: str
     sha256: str
     size: int
+    sheet: str | None = None          # the sheet read, for an .xlsx workbook
+    delimiter: str | None = None      # how a CSV file was read: ",", ";" or "tab"
+    decimal: str | None = None        # "." or ","
+    dialect: str | None = None        # "stated", "detected" or "stated and detected"
 
 
 @dataclass(frozen=True)
@@ -45,6 +53,14 @@ class AnalyteData:
     calibration: CalibrationData     # the data of the registry's first entry, which name the analytes
     # (characteristic name, its data) for each characteristic whose ``load`` read data for this analyte
     entries: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
+
+    def with_entries(self, provided) -> "AnalyteData":
+        """These data with ``provided`` (name, data) pairs set: a field of that name, else an entry."""
+        fields = {f.name for f in dataclasses.fields(self)}
+        own = {name: value for name, value in provided if name in fields}
+        entries = dict(self.entries)
+        entries.update({name: value for name, value in provided if name not in fields})
+        return dataclasses.replace(self, **own, entries=tuple(entries.items()))
 
     def of(self, name: str) -> Any:
         """The data the characteristic ``name`` read for this analyte (``None``: none)."""
@@ -57,6 +73,8 @@ class LoadedStudy:
     inputs: tuple[InputFile, ...]            # the study file first
     analytes: tuple[AnalyteData, ...]        # in order of first appearance
     previous: PreviousRun | None = None
+    excluded: tuple[Excluded, ...] = ()      # data rows left out by [[exclusions]], with their reasons
+    near_duplicate_ids: tuple[NearDuplicateIds, ...] = ()   # sample ids one edit apart (no expected list)
 
     @property
     def config(self):
@@ -69,25 +87,49 @@ class Reader:
     def __init__(self, study: StudyFile):
         self.study = study
         cfg = study.config.study
-        self.decimal = cfg.decimal
+        self.decimal = cfg.decimal          # None: detected per file (each table knows its own)
         self.delimiter = cfg.delimiter
         self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
+        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
+        self.near_duplicate_ids: list = []
 
-    def record(self, role: str, path: str, resolved: Path, data: bytes) -> None:
-        """Enter an input file read in full into the audit trail (path as given, SHA-256, size)."""
-        self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data)))
+    def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:
+        """Enter an input file read in full into the audit trail (path as given, SHA-256, size).
 
-    def table(self, role: str, path: str, required: tuple, optional: tuple = ()):
+        With ``table``, also how it was read: the sheet of a workbook, or the
+        delimiter and decimal mark of a CSV file and whether they were stated or detected.
+        """
+        how = {}
+        if table is not None:
+            sheet = getattr(table, "sheet", None)
+            how = ({"sheet": sheet} if sheet else
+                   {"delimiter": table.delimiter, "decimal": table.decimal, "dialect": table.dialect})
+        self.inputs.append(InputFile(role, path, str(resolved), hashlib.sha256(data).hexdigest(), len(data),
+                                     **how))
+
+    def table(self, role: str, source, required: tuple, optional: tuple = (), *, other_columns: str = "refuse"):
+        """The table of ``source`` (a [section] naming data, sheet and header_row, or a path).
+
+        Rows the study excludes ([[exclusions]]) are left out; ``other_columns="ignore"``
+        leaves the columns outside ``required`` and ``optional`` unread (an instrument export).
+        """
+        path = source if isinstance(source, str) else source.data
         resolved = self.study.resolve(path)
         data = read_bytes(resolved, path, self.max_bytes)
-        self.record(role, path, resolved, data)
-        return read_table(data, path, delimiter=self.delimiter, required=required, optional=optional)
+        table = read_table(data, path, delimiter=self.delimiter, decimal=self.decimal, required=required,
+                           optional=optional, sheet=getattr(source, "sheet", None),
+                           header_row=getattr(source, "header_row", None), other_columns=other_columns)
+        self.record(role, path, resolved, data, table)
+        return self.exclusions.apply(role, path, resolved, table)
 
 
-def numeric_column(table, column: str, decimal: str) -> np.ndarray:
-    """A numeric column, refused when a value's magnitude is beyond what the statistics can square."""
+def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray:
+    """A numeric column, refused when a value's magnitude is beyond what the statistics can square.
+
+    ``decimal`` None: the decimal mark the table was read with (stated or detected).
+    """
     values = np.array(table.numbers(column, decimal))
     i = first_out_of_range(values)
     if i is not None:
@@ -133,9 +175,9 @@ def per_analyte(reader, settings, analytes, role: str, required: tuple, optional
     analyte, and ``make(columns, idx, name)`` builds the data of each analyte that has rows.
     Nothing when ``settings`` is ``None`` (the study has no such table).
     """
-    if settings is None:
+    if settings is None or getattr(settings, "data", "") is None:   # no table, or its data come from [[runs]]
         return {}
-    table = reader.table(role, settings.data, required, optional)
+    table = reader.table(role, settings, required, optional)
     columns = prepare(table)
     return {name: make(columns, idx, name)
             for name, idx in analyte_rows(table, analytes, what).items() if idx}
@@ -153,6 +195,20 @@ def declared_levels_exist(reader, section: str, key: str, declared, present) -> 
 
 
 
+def _check_preparations(study, samples: dict, runs) -> None:
+    """Every per-sample preparation in [sample_preparation] names a sample of the data (else it would apply to nothing)."""
+    reporting = getattr(study.config, "sample_preparation", None)
+    if reporting is None or not reporting.samples:
+        return
+    ids = {s.id for group in samples.values() for s in group}
+    if runs is not None:
+        ids |= {i.sample for group in runs.injections.values() for i in group if i.type == "sample"}
+    for sid in reporting.samples:
+        if sid not in ids:
+            raise StudyError(f'no sample has the id "{show(sid)}", so this preparation would apply to nothing',
+                             file=study.shown, key=f"sample_preparation.samples.{sid}", value=sid)
+
+
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files.
 
@@ -164,15 +220,26 @@ def load_study(path: str | Path) -> LoadedStudy:
     study = read_study_file(path)
     reader = Reader(study)
     calibration, loaded = None, {}
+    runs = None
+    if study.config.runs:           # the run exports give the calibration, blanks and injections
+        from .runs import load_runs
+        runs = load_runs(reader)
+        calibration = runs.calibration
+        loaded.update({"calibration": runs.calibration, "blanks": runs.blanks, "runs": runs.injections})
     for entry in registry.REGISTRY:
+        if entry.name in loaded:
+            continue
         if entry.load is not None:
             settings = getattr(study.config, entry.name, None)
             if settings is not None:
                 loaded[entry.name] = entry.load(reader, settings, calibration)
                 calibration = loaded[entry.name] if calibration is None else calibration
+    excluded = reader.exclusions.check()
+    _check_preparations(study, loaded.get("samples", {}), runs)
     analytes = tuple(AnalyteData(name, calibration[name],
                                  entries=tuple((entry, data[name]) for entry, data in loaded.items() if name in data))
                      for name in calibration)
     # the earlier results.json of a re-validation (it matches at least one analyte, or is refused)
     run = next((data.run for data in loaded.get("revalidation", {}).values()), None)
-    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run)
+    return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
+                       excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids))

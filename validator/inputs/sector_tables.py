@@ -37,7 +37,7 @@ def numbers_or_missing(reader, table, column: str, missing_words=("", "nd", "n.d
         if cell.strip().casefold() in missing_words:
             out.append(float("nan"))
         else:
-            out.append(parse_number(cell, decimal=reader.decimal, file=table.path, row=row, column=column))
+            out.append(parse_number(cell, decimal=table.decimal, file=table.path, row=row, column=column))
     return np.array(out, dtype=float)
 
 

@@ -28,6 +28,8 @@ import sys
 import tomllib
 from dataclasses import dataclass
 from pathlib import Path
+import types
+import typing
 from typing import Annotated, Any, Literal, Optional
 
 from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, create_model, model_validator
@@ -83,9 +85,65 @@ def _probability(default: float):
     return Field(default, ge=MIN_PROBABILITY, lt=0.5)
 
 
+def _choices(annotation) -> tuple | None:
+    """The allowed strings of a ``Literal[...]`` (also inside Optional/Annotated), else None."""
+    origin = typing.get_origin(annotation)
+    if origin is Literal:
+        values = typing.get_args(annotation)
+        return values if all(isinstance(v, str) for v in values) else None
+    if origin is Annotated:
+        return _choices(typing.get_args(annotation)[0])
+    if origin in (typing.Union, types.UnionType):
+        for arg in typing.get_args(annotation):
+            found = _choices(arg)
+            if found is not None:
+                return found
+    return None
+
+
 class _Section(BaseModel):
+    """The base of every study-file table: unknown keys refused, numbers finite, values frozen.
+
+    Enumerated values (``model = "Linear"``) are matched without regard to
+    upper/lower case and surrounding spaces, as column headers are: the value
+    is replaced by the allowed spelling before validation, so results and the
+    audit trail show one spelling.
+    """
+
     # allow_inf_nan=False: inf, -inf and nan (and 1e999, which TOML reads as inf) are refused
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True, allow_inf_nan=False)
+
+    @model_validator(mode="before")
+    @classmethod
+    def _enumerations_ignore_case(cls, data):
+        if not isinstance(data, dict):
+            return data
+        out = None
+        for name, field in cls.model_fields.items():
+            value = data.get(name)
+            if not isinstance(value, str):
+                continue
+            choices = _choices(field.annotation)
+            if choices is None or value in choices:
+                continue
+            same = [c for c in choices if c.casefold() == value.strip().casefold()]
+            if len(same) == 1:
+                out = dict(data) if out is None else out
+                out[name] = same[0]
+        return data if out is None else out
+
+
+class DataSource(_Section):
+    """A table that names one data file: CSV text or one sheet of an .xlsx workbook.
+
+    ``data`` is required unless the study gives its data as analytical runs ([[runs]]), whose
+    injections feed the calibration, blanks, samples, recovery, precision and reference
+    material (checked after validation, in :func:`read_study_file`).
+    """
+
+    data: Optional[DataPath] = None
+    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
+    header_row: Optional[int] = Field(None, ge=1, le=1_000_000)
 
 
 class StudySection(_Section):
@@ -106,8 +164,9 @@ class StudySection(_Section):
     protocol_reference: Text = _text("protocol_reference")
     document_number: Text = _text("document_number")
     document_version: Text = _text("document_version")
-    decimal: Literal[".", ","] = "."
-    delimiter: Literal[",", ";", "tab"] = ","
+    # None: told from each CSV file (validator.inputs.dialect); the value used is in results.json inputs
+    decimal: Optional[Literal[".", ","]] = None
+    delimiter: Optional[Literal[",", ";", "tab"]] = None
     max_data_file_mb: float = Field(100.0, ge=0.001, le=MAX_DATA_FILE_MB)   # 1 kB up
     # default acceptance criteria of a named guideline (validator.sector.presets)
     guideline: Optional[Literal[PRESET_NAMES]] = None
@@ -145,6 +204,111 @@ def check_range(v, name: str = "range_pct"):
 
 
 
+# --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
+
+INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample")
+# a run or day label, or a header name of an export
+Label = Annotated[str, Field(min_length=1, max_length=200, pattern=r"\S"), AfterValidator(_no_control)]
+
+
+class RunSource(DataSource):
+    """One ``[[runs]]`` table: an analytical run's export (CSV or one .xlsx sheet).
+
+    ``run`` and ``day`` label the run when the export has no run or day column
+    (default: "run N", N its position in [[runs]]; the day defaults to the run).
+    """
+
+    run: Optional[Label] = None
+    day: Optional[Label] = None
+
+
+class ColumnsSection(_Section):
+    """``[columns]``: the export's header for each field the tool reads (matched ignoring case)."""
+
+    sample: Label = "sample"
+    type: Label = "type"
+    level: Label = "level"
+    response: Label = "response"
+    internal_standard: Optional[Label] = None
+    analyte: Optional[Label] = None
+    run: Optional[Label] = None
+    day: Optional[Label] = None
+
+    @model_validator(mode="after")
+    def _distinct(self):
+        seen = {}
+        for name in type(self).model_fields:
+            header = getattr(self, name)
+            if header is None:
+                continue
+            key = header.strip().casefold()
+            if key in seen:
+                raise ValueError(f'{seen[key]} and {name} both read the column "{show(header)}"')
+            seen[key] = name
+        return self
+
+
+Words = list[Label]
+
+
+class TypesSection(_Section):
+    """``[types]``: the export's words for each injection type (matched ignoring case)."""
+
+    calibrator: Words = ["calibrator"]
+    blank: Words = ["blank"]
+    qc: Words = ["qc"]
+    spiked: Words = ["spiked"]
+    unspiked: Words = ["unspiked"]
+    reference: Words = ["reference"]
+    sample: Words = ["sample"]
+
+    @model_validator(mode="after")
+    def _distinct(self):
+        seen = {}
+        for name in INJECTION_TYPES:
+            for word in getattr(self, name):
+                key = word.strip().casefold()
+                if key in seen and seen[key] != name:
+                    raise ValueError(f'"{show(word)}" is listed for both {seen[key]} and {name}')
+                seen[key] = name
+        return self
+
+    def type_of(self, word: str) -> str | None:
+        """The injection type an export's word stands for (None: not listed)."""
+        key = word.strip().casefold()
+        return next((name for name in INJECTION_TYPES
+                     if any(w.strip().casefold() == key for w in getattr(self, name))), None)
+
+
+class ExclusionEntry(_Section):
+    """One ``[[exclusions]]`` table: a data row left out of the statistics, with its reason.
+
+    Either ``file`` (and ``sheet`` for a workbook) and ``row``, or ``run`` and ``injection`` (the
+    injection's name in that run's export, when the study gives its data as [[runs]]).
+    """
+
+    file: Optional[DataPath] = None
+    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
+    row: Optional[int] = Field(None, ge=2, le=10_000_000)     # a data row: the header is row 1 at the earliest
+    run: Optional[Label] = None
+    injection: Optional[Label] = None
+    reason: Text = Field(min_length=1, max_length=TEXT_LIMITS["notes"], pattern=r"\S")
+    who: Text = _text("analyst")
+
+    @model_validator(mode="after")
+    def _one_way(self):
+        by_file = self.file is not None or self.row is not None or self.sheet is not None
+        by_run = self.run is not None or self.injection is not None
+        if by_file == by_run:
+            raise ValueError("name the excluded point either by file and row (file = ..., row = ...) or by run "
+                             "and injection (run = ..., injection = ...)")
+        if by_file and (self.file is None or self.row is None):
+            raise ValueError("an exclusion by file needs both file = ... and row = ...")
+        if by_run and (self.run is None or self.injection is None):
+            raise ValueError("an exclusion by run needs both run = ... and injection = ...")
+        return self
+
+
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -157,6 +321,8 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
     optional."""
     if required:
         return (model, ...)
+    if issubclass(model, DataSource):     # a data table is there when written, even if only data = ...
+        return (Optional[model], None)
     if all(not f.is_required() for f in model.model_fields.values()):
         try:
             return (model, model())
@@ -169,7 +335,12 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
 _OTHER_TABLES = {"study": (StudySection, ...),
                  "criteria": (CriteriaSection, CriteriaSection()),
                  # the planned experiment and the approved protocol a run is held to (validator.protocol)
-                 "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None)}
+                 "design": (Optional[DesignSection], None), "protocol": (Optional[ProtocolSection], None),
+                 # data rows left out, each with its reason (validator.inputs.exclusions)
+                 "exclusions": (list[ExclusionEntry], []),
+                 # analytical runs: the exports, their column mapping and their injection-type words
+                 "runs": (list[RunSource], []), "columns": (Optional[ColumnsSection], None),
+                 "types": (Optional[TypesSection], None)}
 _MODELS: dict = {}
 
 
@@ -297,6 +468,65 @@ def _got(value) -> str:
 
 _BOUNDS = ("greater_than", "greater_than_equal", "less_than", "less_than_equal")
 
+# the validation library's error kinds, said in the study file's own terms
+_PLAIN = {
+    "float_type": "must be a number (without quotes)",
+    "float_parsing": "must be a number (without quotes)",
+    "int_type": "must be a whole number (without quotes)",
+    "int_parsing": "must be a whole number (without quotes)",
+    "int_from_float": "must be a whole number (without quotes)",
+    "bool_type": "must be true or false (without quotes)",
+    "bool_parsing": "must be true or false (without quotes)",
+    "string_type": 'must be text in quotes ("...")',
+    "dict_type": "must be a table ([name] or { key = value, ... })",
+    "model_type": "must be a table ([name] or { key = value, ... })",
+    "model_attributes_type": "must be a table ([name] or { key = value, ... })",
+    "list_type": "must be a list in square brackets",
+    "finite_number": "must be a finite number",
+    "too_short": "has too few items",
+    "too_long": "has too many items",
+    "string_too_short": "must not be empty",
+    "string_too_long": "is too long",
+    "string_pattern_mismatch": "must not be blank",
+}
+
+
+def _example(loc: tuple) -> str | None:
+    """An example of the right form for the list-valued key at ``loc`` (its default, else a generic one)."""
+    model = _model_at(loc)
+    field = None if model is None else model.model_fields.get(loc[-1])
+    if field is None:
+        return None
+    default = field.default if isinstance(field.default, list) and field.default else None
+    if default is not None and all(isinstance(v, (int, float)) for v in default):
+        return f"{loc[-1]} = [{', '.join(f'{v:g}' for v in default)}]"
+    if typing.get_origin(field.annotation) in (typing.Union, types.UnionType) or "limits" in loc[-1] \
+            or "range" in loc[-1]:
+        return f"{loc[-1]} = [low, high], for example {loc[-1]} = [0.95, 1.05]"
+    item = next(iter(typing.get_args(field.annotation)), None)
+    if isinstance(item, type) and issubclass(item, BaseModel):
+        keys = ", ".join(f"{n} = ..." for n, f in item.model_fields.items() if f.is_required())
+        return f"{loc[-1]} = [{{ {keys} }}, ...]"
+    return f"{loc[-1]} = [...]"
+
+
+def _plain(kind: str, loc: tuple, ctx: dict) -> str:
+    """The message for a value of the wrong kind, with an example where one helps."""
+    if kind == "literal_error":
+        allowed = ctx.get("expected", "")
+        return f"must be one of {allowed} (upper or lower case)"
+    message = _PLAIN[kind]
+    if kind in ("string_too_long", "string_too_short") and "max_length" in ctx and kind == "string_too_long":
+        message = f"is too long (at most {ctx['max_length']} characters)"
+    if kind in ("too_short", "too_long") and ("min_length" in ctx or "max_length" in ctx):
+        message = f"{message} (got {ctx.get('actual_length', '?')})"
+    if kind in ("list_type", "too_short", "too_long") and loc and not loc[-1].isdigit():
+        example = _example(loc)
+        if example:
+            message += f", for example {example}" if not example.startswith(loc[-1] + " = [low") \
+                else f": {example}"
+    return message
+
 
 def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
     errors = exc.errors(include_url=False)
@@ -318,9 +548,11 @@ def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
         what = "section" if len(loc) == 1 else "key"
         return StudyError(f"required {what} is missing", file=shown, key=dotted)
     message = err["msg"].removeprefix("Value error, ")
-    if kind == "value_error" or not loc or kind.startswith("model"):
+    if kind == "value_error" or not loc or (kind.startswith("model") and kind not in _PLAIN):
         return StudyError(message, file=shown, line=line, key=dotted or None)
     valid = _valid_range(loc) if kind in _BOUNDS or kind == "finite_number" else None
+    if kind in _PLAIN or kind == "literal_error":
+        message = _plain(kind, loc, err.get("ctx") or {})
     if kind == "float_type" and isinstance(value, int) and not isinstance(value, bool):
         message = "is too large for a number (the largest magnitude is about 1.8e308)"
     elif valid and kind == "finite_number":
@@ -399,6 +631,37 @@ def _parse_toml(text: str, shown: str) -> dict:
     return data
 
 
+# tables whose data the injections of [[runs]] give instead of a data file of their own
+RUN_FED = ("calibration", "samples", "blanks", "recovery", "precision", "reference_material")
+
+
+def _check_data_sources(config, shown: str, text: str) -> None:
+    """``data`` is given where a table needs a file, and left out where [[runs]] give the data."""
+    runs = bool(config.runs)
+    for name in type(config).model_fields:
+        table = getattr(config, name)
+        if not isinstance(table, DataSource):
+            continue
+        fed = runs and name in RUN_FED
+        if table.data is None and not fed:
+            raise StudyError("required key is missing", file=shown, key=f"{name}.data")
+        if table.data is not None and fed:
+            raise StudyError(f"the study gives its data as [[runs]], whose injections feed [{name}]; remove "
+                             f"data = ... here (or give every table its own file and no [[runs]])", file=shown,
+                             line=_key_line(text, (name, "data")), key=f"{name}.data", value=table.data)
+        if table.data is None and (table.sheet is not None or table.header_row is not None):
+            raise StudyError("sheet and header_row belong to a data file; this table has none ([[runs]] name "
+                             "theirs)", file=shown, key=f"{name}.sheet" if table.sheet else f"{name}.header_row")
+    if not runs:
+        for name in ("columns", "types"):
+            if getattr(config, name) is not None:
+                raise StudyError(f"[{name}] maps the exports of [[runs]], but the study has no [[runs]]",
+                                 file=shown, line=_key_line(text, (name,)), key=name)
+        if config.calibration.quantify_with is not None:
+            raise StudyError("quantify_with applies to [[runs]], but the study has no [[runs]]", file=shown,
+                             line=_key_line(text, ("calibration", "quantify_with")), key="calibration.quantify_with")
+
+
 def read_study_file(path: str | Path) -> StudyFile:
     """Read and validate a study file (the data files are not opened here)."""
     from .tables import decode_text  # the same UTF-8 rules as data files
@@ -416,6 +679,7 @@ def read_study_file(path: str | Path) -> StudyFile:
         config = study_config_model().model_validate(data)
     except ValidationError as exc:
         raise _translate(exc, shown, text) from None
+    _check_data_sources(config, shown, text)
     if config.study.purpose == "revalidation" and config.revalidation is None:
         raise StudyError('purpose = "revalidation" needs a [revalidation] section naming the previous '
                          'results.json (previous = "..."); without it nothing would be compared',

@@ -1,7 +1,8 @@
-"""Reading the study's CSV data files into plain columns.
+"""Reading the study's data files (CSV text or one .xlsx sheet) into plain columns.
 
-This is the only module that opens data files. It turns a CSV export into a
-:class:`Table` of strings and numbers, and turns everything it cannot read
+This is the only module that opens data files. It turns a CSV export, or one
+sheet of an .xlsx workbook (:mod:`validator.inputs.workbook`, errors naming
+sheet and cell), into a :class:`Table` of strings and numbers, and turns everything it cannot read
 into a :class:`~validator.errors.DataError` that names the file, the row (the
 line number in the file, header = row 1), the column and the value.
 
@@ -10,6 +11,12 @@ the declared decimal style. Thousands separators, units pasted after the
 number, NaN and infinity are refused with a message saying which, and so is a
 number too large for a float (``1e999``). Files are read in chunks up to
 their size limit, never by allocating the limit up front.
+
+A CSV file's delimiter and decimal mark are those the study states; what it
+does not state is detected from the file (:mod:`validator.inputs.dialect`),
+and a file that disagrees with what the study states gets one message naming
+every key to change. The table records which dialect it was read with and
+whether it was stated or detected, for the audit trail.
 """
 
 from __future__ import annotations
@@ -51,6 +58,10 @@ class Table:
     path: str            # as written in the study file
     columns: dict[str, list[str]]     # canonical (lower-case) name -> raw strings
     rows: tuple[int, ...]             # file row number of each record
+    decimal: str = "."                # the decimal mark the cells were read with
+    delimiter: str | None = None      # ",", ";" or "tab" for CSV; None for a workbook
+    dialect: str = ""                 # "stated", "detected" or "stated and detected" (CSV); "" otherwise
+    dialect_evidence: tuple[str, ...] = ()   # why, when anything was detected
 
     def __len__(self) -> int:
         return len(self.rows)
@@ -58,8 +69,12 @@ class Table:
     def has(self, name: str) -> bool:
         return name in self.columns
 
-    def numbers(self, name: str, decimal: str) -> list:
-        """Column ``name`` parsed as finite floats (every cell required)."""
+    def numbers(self, name: str, decimal: str | None = None) -> list:
+        """Column ``name`` parsed as finite floats (every cell required).
+
+        ``decimal`` defaults to the mark the table was read with.
+        """
+        decimal = self.decimal if decimal is None else decimal
         return [parse_number(v, decimal=decimal, file=self.path, row=r, column=name)
                 for v, r in zip(self.columns[name], self.rows)]
 
@@ -204,15 +219,79 @@ def decode_text(data: bytes, shown: str) -> str:
     return text
 
 
-def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
-               optional: tuple = (), max_rows: int = DEFAULT_MAX_ROWS) -> Table:
-    """Parse CSV bytes into a :class:`Table`.
+def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal: str | None = None,
+               required: tuple, optional: tuple = (), sheet: str | None = None,
+               header_row: int | None = None, max_rows: int = DEFAULT_MAX_ROWS,
+               other_columns: str = "refuse") -> Table:
+    """Parse a data file's bytes (CSV text or an .xlsx workbook) into a :class:`Table`.
 
     Header names are matched case-insensitively with surrounding spaces
     stripped. Blank lines are skipped. Columns other than ``required`` and
     ``optional`` are refused, so that a misspelt header is not ignored.
+
+    An .xlsx workbook (told from its bytes, not its name) is read with
+    :func:`validator.inputs.workbook.read_workbook` from ``sheet`` (default:
+    the first sheet) and ``header_row`` (default: the first non-empty row).
+    For CSV text, ``header_row`` is the file row of the header (rows above it
+    are ignored), ``sheet`` is refused, and ``delimiter`` and ``decimal`` are
+    the study's declarations (None: detect it from the file, see
+    :func:`validator.inputs.dialect.detect_dialect`). ``other_columns="ignore"``
+    leaves columns that are neither required nor optional unread (an instrument
+    export used as it is); by default they are refused (a misspelt header).
     """
-    text = decode_text(data, shown)
+    if other_columns not in ("refuse", "ignore"):
+        raise ValueError(f"other_columns must be 'refuse' or 'ignore'; got {other_columns!r}")
+    from .dialect import DialectError, detect_dialect
+    from .workbook import read_workbook, sniff_workbook
+
+    if sniff_workbook(data) == "xlsx":
+        return read_workbook(data, shown, required=required, optional=optional, sheet=sheet,
+                             header_row=header_row, max_rows=max_rows, other_columns=other_columns)
+    text = decode_text(data, shown)     # other workbook kinds are refused here, with what to do
+    if sheet is not None:
+        raise DataError(f'is CSV text, not an .xlsx workbook, so sheet = "{show(sheet)}" cannot apply; '
+                        "remove sheet = ... for this file", file=shown)
+    if header_row is not None:
+        lines = text.splitlines(keepends=True)
+        if header_row > len(lines):
+            raise DataError(f"has {len(lines)} rows, so header_row = {header_row} is beyond its end", file=shown)
+        # rows above the header become blank lines: skipped, and every row keeps its number
+        text = "".join("\n" for _ in lines[:header_row - 1]) + "".join(lines[header_row - 1:])
+    if delimiter is not None and decimal is not None:
+        # both stated: read as stated; only if that fails, ask whether the file reads otherwise,
+        # so that one message names every key to change
+        try:
+            return _read_csv(text, shown, delimiter=delimiter, decimal=decimal, required=required,
+                             optional=optional, max_rows=max_rows, other_columns=other_columns)
+        except DataError as failure:
+            try:
+                found = detect_dialect(text, shown)
+            except DataError:
+                raise failure from None
+            if (found.delimiter, found.decimal) != (delimiter, decimal):
+                try:
+                    detect_dialect(text, shown, delimiter=delimiter, decimal=decimal)
+                except DialectError as mismatch:
+                    if mismatch.kind == "mismatch":
+                        raise mismatch from None
+            raise failure from None
+    try:
+        dialect = detect_dialect(text, shown, delimiter=delimiter, decimal=decimal)
+    except DialectError as exc:
+        if exc.kind != "unreadable":
+            raise
+        # no reading is consistent: the message from reading it as stated (or with the usual
+        # "," and ".") names the row that breaks it
+        _read_csv(text, shown, delimiter=delimiter or ",", decimal=decimal or ".", required=required,
+                  optional=optional, max_rows=max_rows, other_columns=other_columns)
+        raise
+    how = "detected" if delimiter is None and decimal is None else "stated and detected"
+    return _read_csv(text, shown, delimiter=dialect.delimiter, decimal=dialect.decimal, required=required,
+                     optional=optional, max_rows=max_rows, other_columns=other_columns, dialect=how, evidence=dialect.evidence)
+
+
+def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: tuple, optional: tuple,
+              max_rows: int, other_columns: str = "refuse", dialect: str = "stated", evidence: tuple = ()) -> Table:
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=_DELIMITERS[delimiter], strict=True)
     header = None
     header_row = 0
@@ -235,15 +314,18 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
     if header is None:
         raise DataError("is empty (no header row)", file=shown)
     seen = set()
+    allowed = set(required) | set(optional)
+    ignored = other_columns == "ignore"
     for name in header:
-        if name == "":
+        if name == "" and not ignored:
             raise DataError("the header has an empty column name", file=shown, row=header_row)
+        if ignored and name not in allowed:
+            continue            # an export's other columns: unread, whatever their names
         if name in seen:
             raise DataError(f'the header names column "{show(name)}" twice', file=shown, row=header_row)
         seen.add(name)
-    allowed = set(required) | set(optional)
     for name in header:
-        if name not in allowed:
+        if name not in allowed and other_columns == "refuse":
             expected = ", ".join(f'"{c}"' for c in (*required, *optional))
             hint = ""
             if delimiter != "," and "," in name or delimiter == "," and ";" in name:
@@ -256,7 +338,7 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
             raise DataError(f'the header has no column "{name}" (found: {found})', file=shown, row=header_row)
     if not records:
         raise DataError("has a header but no data rows", file=shown)
-    columns = {name: [] for name in header}
+    columns = {name: [] for name in header if name in allowed or not ignored}
     for record, line in zip(records, rows):
         if len(record) != len(header):
             hint = ""
@@ -266,5 +348,7 @@ def read_table(data: bytes, shown: str, *, delimiter: str, required: tuple,
             raise DataError(f"has {len(record)} cells but the header has {len(header)}{hint}",
                             file=shown, row=line)
         for name, cell in zip(header, record):
-            columns[name].append(cell)
-    return Table(path=shown, columns=columns, rows=tuple(rows))
+            if name in columns:
+                columns[name].append(cell)
+    return Table(path=shown, columns=columns, rows=tuple(rows), decimal=decimal, delimiter=delimiter,
+                 dialect=dialect, dialect_evidence=tuple(evidence))

@@ -335,7 +335,7 @@ def _cell_text(cell) -> tuple:
 
 def read_workbook(data: bytes, file: str, *, required: tuple, optional: tuple = (),
                   sheet: str | None = None, header_row: int | None = None,
-                  max_rows: int = DEFAULT_MAX_ROWS,
+                  max_rows: int = DEFAULT_MAX_ROWS, other_columns: str = "refuse",
                   max_unpacked_bytes: int = DEFAULT_MAX_UNPACKED_BYTES) -> WorkbookTable:
     """Read one sheet of an .xlsx workbook into a :class:`WorkbookTable`.
 
@@ -356,6 +356,10 @@ def read_workbook(data: bytes, file: str, *, required: tuple, optional: tuple = 
         row with a non-empty cell. Rows above it are ignored.
     max_rows, max_unpacked_bytes : int
         Limits on data rows and on the workbook's uncompressed size.
+    other_columns : {"refuse", "ignore"}
+        What to do with a column that is neither required nor optional: refuse
+        it (a misspelt header), or leave it unread (an instrument export used
+        as it is, whose other columns the study does not map).
 
     Returns
     -------
@@ -407,7 +411,7 @@ def read_workbook(data: bytes, file: str, *, required: tuple, optional: tuple = 
                         f"{show(str(exc))})", file=file) from None
     try:
         return _read_sheet(book, file, required=required, optional=optional, sheet=sheet,
-                           header_row=header_row, max_rows=max_rows)
+                           header_row=header_row, max_rows=max_rows, other_columns=other_columns)
     finally:
         book.close()
 
@@ -461,7 +465,8 @@ def _rows(ws, file: str, sheet: str):
         yield number, real
 
 
-def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows) -> WorkbookTable:
+def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows,
+                other_columns="refuse") -> WorkbookTable:
     ws = _choose_sheet(book, file, sheet)
     name = ws.title
 
@@ -523,6 +528,9 @@ def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows) 
             raise err(f'the header names column "{show(n)}" twice', f"{_column_letter(col)}{found_header_row}")
         seen.add(n)
     allowed = set(required) | set(optional)
+    if other_columns == "ignore":       # columns the study does not read are left unread
+        header = [(col, n) for col, n in header if n in allowed]
+        names = [n for _, n in header]
     for col, n in header:
         if n not in allowed:
             expected = ", ".join(f'"{c}"' for c in (*required, *optional))

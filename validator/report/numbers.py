@@ -200,6 +200,7 @@ RULES: tuple[Rule, ...] = (
     Rule("rsd", "RSD, SD in % and tolerances in %", "2 significant figures"),
     Rule("statistic", "test statistics (F, t, W, LM, C, G), HorRat", "3 significant figures"),
     Rule("correlation", "R² and r", "4 decimals"),
+    Rule("recorded", "a raw peak area read from an instrument export", "as recorded (up to 15 significant figures)"),
     Rule("value", "any other value (concentrations, responses, means)", "4 significant figures"),
 )
 
@@ -227,6 +228,8 @@ def by_rule(value, rule: str) -> str:
         return fixed(value, CORRELATION_DECIMALS)
     if rule == "value":
         return sig(value, DEFAULT_SIG, keep_zeros=False)
+    if rule == "recorded":
+        return sig(value, 15, keep_zeros=False)
     if rule == "count":
         return _special(value) or (str(int(value)) if float(value).is_integer() else sig(value, DEFAULT_SIG))
     raise ValueError(f"unknown rounding rule {rule!r}; expected one of {[r.name for r in RULES]}")
@@ -234,6 +237,7 @@ def by_rule(value, rule: str) -> str:
 
 # the last named part of a results.json path -> its rule (the first matching pattern wins)
 _PATH_RULES: tuple[tuple[str, str], ...] = (
+    (r"^(analyte_response|internal_standard_response)$", "recorded"),     # raw areas of a run export
     (r"p_value$", "p"),
     (r"^range_pct$", "value"),      # a declared acceptance range is shown as declared
     (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct)$", "rsd"),

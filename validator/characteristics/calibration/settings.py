@@ -8,25 +8,27 @@ study's id names the one analyte) and ``series``.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Literal, Optional
 
 import numpy as np
 from pydantic import model_validator
 
 from ...errors import DataError, show
 from ...inputs.loading import numeric_column
-from ...inputs.study import DataPath, _Section
+from ...inputs.study import DataSource
 from ...inputs.tables import MAX_NAME_LENGTH
 from ...maths.regression import WEIGHTED_BY, WEIGHTINGS
 
 __all__ = ["CalibrationSection", "CalibrationData", "load"]
 
 
-class CalibrationSection(_Section):
-    data: DataPath
+class CalibrationSection(DataSource):     # data (sheet, header_row); none when [[runs]] give the calibrators
     model: Literal["linear", "quadratic", "auto"] = "linear"
     weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
     through_origin: bool = False
+    # with [[runs]]: each run's injections through its own calibration ("run", the default) or one
+    # calibration over every run's calibrators ("pooled")
+    quantify_with: Optional[Literal["run", "pooled"]] = None
 
     @model_validator(mode="after")
     def _origin_linear(self):
@@ -81,7 +83,7 @@ def load(reader, settings: CalibrationSection, analytes=None) -> dict[str, Calib
     differs from another only in case, too few levels for the model, constant responses, a
     calibrator that the weighting cannot weight.
     """
-    table = reader.table("calibration", settings.data, ("concentration", "response"),
+    table = reader.table("calibration", settings, ("concentration", "response"),
                          ("analyte", "series"))
     x = numeric_column(table, "concentration", reader.decimal)
     y = numeric_column(table, "response", reader.decimal)

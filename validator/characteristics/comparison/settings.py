@@ -15,14 +15,13 @@ from pydantic import Field, model_validator
 
 from ...errors import DataError, show
 from ...inputs.loading import numeric_column, per_analyte
-from ...inputs.study import DataPath, _Section, check_range
+from ...inputs.study import DataSource, check_range
 from ...inputs.tables import MAX_NAME_LENGTH
 
 __all__ = ["ComparisonSection", "ComparisonData", "load"]
 
 
-class ComparisonSection(_Section):
-    data: DataPath
+class ComparisonSection(DataSource):        # data, and sheet/header_row for a workbook
     error_ratio: float = Field(1.0, ge=1e-6, le=1e6)
     slope_limits: Optional[list[float]] = None
     intercept_limits: Optional[list[float]] = None

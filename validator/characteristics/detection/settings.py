@@ -12,13 +12,13 @@ import numpy as np
 from pydantic import Field, model_validator
 
 from ...inputs.loading import numeric_column, per_analyte
-from ...inputs.study import DataPath, _probability, _Section
+from ...inputs.study import DataSource, _probability, _Section
 
 __all__ = ["DetectionSection", "BlanksSection", "load_blanks"]
 
 
-class BlanksSection(_Section):
-    data: DataPath
+class BlanksSection(DataSource):
+    """[blanks]: blank responses (data, sheet, header_row; no data when [[runs]] give the blanks)."""
 
 
 class DetectionSection(_Section):

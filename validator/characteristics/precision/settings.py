@@ -15,7 +15,7 @@ from pydantic import Field, model_validator
 
 from ...errors import show
 from ...inputs.loading import declared_levels_exist, numeric_column, per_analyte
-from ...inputs.study import DataPath, _Section
+from ...inputs.study import DataSource, _Section
 from ...inputs.tables import exact_centre
 
 __all__ = ["PrecisionSection", "PrecisionLevelLimit", "PrecisionData", "load", "RESERVED_COLUMNS"]
@@ -34,8 +34,7 @@ FactorColumn = Annotated[str, Field(min_length=1, max_length=40, pattern=r"^[A-Z
 RESERVED_COLUMNS = ("analyte", "level", "found")
 
 
-class PrecisionSection(_Section):
-    data: DataPath
+class PrecisionSection(DataSource):        # data (sheet, header_row); none when [[runs]] give the QCs
     repeatability_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     levels: list[PrecisionLevelLimit] = []
@@ -115,7 +114,7 @@ def load(reader, settings: PrecisionSection, analytes) -> dict[str, PrecisionDat
 
     def make(columns, idx, name):
         table, level, series, labels = columns
-        offset, centred = exact_centre([table.columns["found"][i] for i in idx], reader.decimal)
+        offset, centred = exact_centre([table.columns["found"][i] for i in idx], table.decimal)
         return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset,
                              tuple(tuple(column[i] for i in idx) for column in labels))
 

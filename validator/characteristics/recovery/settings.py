@@ -13,7 +13,7 @@ import numpy as np
 from pydantic import Field, model_validator
 
 from ...inputs.loading import check_positive, declared_levels_exist, numeric_column, per_analyte
-from ...inputs.study import DataPath, _Section, check_range
+from ...inputs.study import DataSource, _Section, check_range
 
 __all__ = ["RecoverySection", "RecoveryLevelLimit", "RecoveryData", "load"]
 
@@ -31,8 +31,7 @@ class RecoveryLevelLimit(_Section):
         return self
 
 
-class RecoverySection(_Section):
-    data: DataPath
+class RecoverySection(DataSource):        # data, and sheet/header_row for a workbook
     range_pct: list[RecoveryPct] = [90.0, 110.0]
     levels: list[RecoveryLevelLimit] = []
 

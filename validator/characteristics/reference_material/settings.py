@@ -14,13 +14,12 @@ from pydantic import Field
 
 from ...errors import StudyError
 from ...inputs.loading import numeric_column
-from ...inputs.study import TEXT_LIMITS, DataPath, Text, _Section
+from ...inputs.study import TEXT_LIMITS, DataSource, Text
 
 __all__ = ["ReferenceMaterialSection", "load"]
 
 
-class ReferenceMaterialSection(_Section):
-    data: DataPath
+class ReferenceMaterialSection(DataSource):        # data, and sheet/header_row for a workbook
     certified_value: float = Field(gt=0)
     standard_uncertainty: float = Field(ge=0)
     analyte: Optional[Text] = Field(None, min_length=1, max_length=TEXT_LIMITS["analyte"])
@@ -29,7 +28,9 @@ class ReferenceMaterialSection(_Section):
 
 
 def load(reader, settings: ReferenceMaterialSection, analytes) -> dict[str, np.ndarray]:
-    """``{analyte: results}`` for the one analyte the material certifies."""
+    """``{analyte: results}`` for the one analyte the material certifies (none when [[runs]] give them)."""
+    if settings.data is None:
+        return {}
     if settings.analyte is None and len(analytes) > 1:
         raise StudyError("the study covers several analytes; say which one the reference material "
                          "certifies (analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
@@ -37,5 +38,5 @@ def load(reader, settings: ReferenceMaterialSection, analytes) -> dict[str, np.n
     if name not in analytes:
         raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
                          key="reference_material.analyte", value=name)
-    table = reader.table("reference_material", settings.data, ("found",), ())
+    table = reader.table("reference_material", settings, ("found",), ())
     return {name: numeric_column(table, "found", reader.decimal)}

@@ -19,7 +19,9 @@ __all__ = ["ENTRY", "SampleResult"]
 def assess(ctx) -> Assessment[tuple[SampleResult, ...]]:
     """Every sample of the analyte (none: an empty tuple, written as ``[]``)."""
     fit = ctx.result_of(calibration.ENTRY).fit
-    return Assessment(tuple(quantify(fit, s.id, s.responses) for s in ctx.data_of(ENTRY) or ()))
+    # a sample from [[runs]] goes through its run's calibration (its ``calibration``)
+    return Assessment(tuple(quantify(getattr(s, "calibration", None) or fit, s.id, s.responses)
+                            for s in ctx.data_of(ENTRY) or ()))
 
 
 ENTRY: Characteristic[tuple[SampleResult, ...]] = Characteristic(

@@ -10,14 +10,37 @@ from dataclasses import dataclass
 
 from ...errors import DataError
 from ...inputs.loading import analyte_rows, numeric_column
-from ...inputs.study import DataPath, _Section
+from typing import Annotated, Optional
+
+from pydantic import AfterValidator, Field, model_validator
+
+from ...errors import show
+from ...inputs.sample_ids import check_expected, near_duplicates
+from ...inputs.study import DataSource, _no_control
 from ...inputs.tables import MAX_NAME_LENGTH
 
 __all__ = ["SamplesSection", "SampleData", "load"]
 
 
-class SamplesSection(_Section):
-    data: DataPath
+SampleId = Annotated[str, Field(min_length=1, max_length=100, pattern=r"\S"), AfterValidator(_no_control)]
+
+
+class SamplesSection(DataSource):
+    """[samples]: the unknowns' responses (none when [[runs]] give them), and optionally the ids expected."""
+
+    expected: list[SampleId] = []
+    expected_readings: Optional[int] = Field(None, ge=1, le=1000)
+
+    @model_validator(mode="after")
+    def _expected(self):
+        seen = set()
+        for sid in self.expected:
+            if sid in seen:
+                raise ValueError(f'expected lists sample "{show(sid)}" twice')
+            seen.add(sid)
+        if self.expected_readings is not None and not self.expected:
+            raise ValueError("expected_readings needs the list of expected sample ids (expected = [...])")
+        return self
 
 
 @dataclass(frozen=True)
@@ -31,7 +54,9 @@ class SampleData:
 
 def load(reader, settings: SamplesSection, analytes) -> dict[str, tuple[SampleData, ...]]:
     """``{analyte: its samples}``, each sample's readings grouped by id in file order."""
-    table = reader.table("samples", settings.data, ("sample", "response"), ("analyte",))
+    if settings.data is None:          # the samples come from [[runs]]
+        return {}
+    table = reader.table("samples", settings, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
     responses = numeric_column(table, "response", reader.decimal).tolist()
     seen = {}
@@ -44,6 +69,14 @@ def load(reader, settings: SamplesSection, analytes) -> dict[str, tuple[SampleDa
         seen.setdefault(key, (sid, row))
     out = {}
     for name, idx in analyte_rows(table, analytes, "reading").items():
+        own_ids, own_rows = [ids[i] for i in idx], [table.rows[i] for i in idx]
+        if settings.expected:
+            check_expected(analyte=name, ids=own_ids, rows=own_rows, file=table.path,
+                           expected=tuple(settings.expected), expected_readings=settings.expected_readings,
+                           study=reader.study.shown)
+        else:
+            reader.near_duplicate_ids.extend(near_duplicates(analyte=name, ids=own_ids, rows=own_rows,
+                                                             file=table.path))
         groups = {}
         for i in idx:
             groups.setdefault(ids[i], ([], []))

@@ -1,0 +1,164 @@
+"""Documented exclusions: data rows left out of the statistics, with the reason, never deleted.
+
+A study lists each exclusion as an ``[[exclusions]]`` table naming the data file (and, for a
+workbook, the sheet), the row (the line number in a CSV file, header = row 1; the sheet row in a
+workbook: the numbers every message uses) and the reason, optionally who decided it. The file
+itself stays as the instrument or analyst wrote it, so its SHA-256 in the audit trail still
+matches; the row is removed from the table before any statistic sees it, and the excluded
+record (its cells as written) is kept for results.json and the dossier.
+
+An exclusion that matches no data row is an error: a typo in a row number must not leave a
+point in the fit that the study says is out, nor pass unnoticed.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+from pathlib import Path
+
+from ..errors import DataError, StudyError, show
+
+__all__ = ["Excluded", "Exclusions"]
+
+
+@dataclass(frozen=True)
+class Excluded:
+    """One data row left out, as the study documents it.
+
+    Attributes
+    ----------
+    index : int
+        The entry's position in the study's ``[[exclusions]]`` list (0-based).
+    file, sheet : str, str or None
+        The data file as written in the study, and the sheet of a workbook.
+    row : int
+        The file row (CSV line, header = row 1) or sheet row.
+    role : str
+        What the file feeds ("calibration", "samples", "recovery", ...).
+    reason, who : str
+        As written in the study (``who`` may be empty).
+    cells : tuple of (column, value)
+        The excluded record as written in the file.
+    """
+
+    index: int
+    file: str
+    sheet: str | None
+    row: int
+    role: str
+    reason: str
+    who: str
+    cells: tuple[tuple[str, str], ...]
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return a.resolve() == b.resolve()
+    except OSError:
+        return a == b
+
+
+class Exclusions:
+    """The study's ``[[exclusions]]``, applied to each table as it is read.
+
+    Parameters
+    ----------
+    entries : sequence
+        The validated ``[[exclusions]]`` tables (``file``, ``sheet``, ``row``, ``reason``, ``who``).
+    resolve : callable
+        Turns a data path from the study into a file path (relative to the study's folder).
+    study : str
+        The study file as given, for messages.
+    """
+
+    def __init__(self, entries, resolve, study: str):
+        self.entries = tuple(entries)
+        self.resolve = resolve
+        self.study = study
+        self.applied: list[Excluded] = []
+        self._sheets: dict[int, set] = {}
+
+    def apply(self, role: str, path: str, resolved: Path, table):
+        """``table`` without the rows the study excludes (the same table when none)."""
+        sheet = getattr(table, "sheet", None) or None
+        drop = {}
+        for i, e in enumerate(self.entries):
+            if e.file is None:              # by run and injection: see apply_injections
+                continue
+            if not _same_file(self.resolve(e.file), resolved):
+                continue
+            if e.sheet is not None and e.sheet != sheet:
+                continue
+            if e.row not in table.rows:
+                continue
+            if e.row in drop:
+                raise StudyError(f"excludes {show(e.file)} row {e.row} again (also exclusions[{drop[e.row]}]); "
+                                 "give each excluded row once", file=self.study, key=f"exclusions[{i}].row",
+                                 value=e.row)
+            drop[e.row] = i
+            self._sheets.setdefault(i, set()).add(sheet)
+        if not drop:
+            return table
+        keep = [k for k, r in enumerate(table.rows) if r not in drop]
+        for k, r in enumerate(table.rows):
+            if r in drop:
+                e = self.entries[drop[r]]
+                self.applied.append(Excluded(index=drop[r], file=e.file, sheet=sheet, row=r, role=role,
+                                             reason=e.reason, who=e.who,
+                                             cells=tuple((name, values[k]) for name, values in table.columns.items())))
+        if not keep:
+            raise DataError("every data row is excluded in [[exclusions]]; nothing is left to analyse",
+                            file=path)
+        changes = {"columns": {n: [v[k] for k in keep] for n, v in table.columns.items()},
+                   "rows": tuple(table.rows[k] for k in keep)}
+        if hasattr(table, "kinds"):
+            changes["kinds"] = {n: tuple(v[k] for k in keep) for n, v in table.kinds.items()}
+        return dataclasses.replace(table, **changes)
+
+    def apply_injections(self, injections) -> tuple:
+        """``injections`` without those the study excludes by run and injection name (one each)."""
+        keep = list(injections)
+        for i, e in enumerate(self.entries):
+            if e.run is None:
+                continue
+            hits = [inj for inj in keep if inj.run == e.run and inj.sample == e.injection]
+            if len(hits) > 1:
+                rows = ", ".join(f"{show(h.file)} row {h.row}" for h in hits[:5])
+                raise StudyError(f'run "{show(e.run)}" has {len(hits)} injections named "{show(e.injection)}" '
+                                 f"({rows}); exclude one by file and row instead", file=self.study,
+                                 key=f"exclusions[{i}]", value=e.injection)
+            if not hits:
+                continue
+            inj = hits[0]
+            keep.remove(inj)
+            self._sheets.setdefault(i, set()).add(inj.sheet)
+            cells = (("run", inj.run), ("injection", inj.sample), ("type", inj.type),
+                     ("level", "" if inj.level is None else repr(inj.level)),
+                     ("response", repr(inj.analyte_response)))
+            if inj.internal_standard_response is not None:
+                cells += (("internal standard", repr(inj.internal_standard_response)),)
+            self.applied.append(Excluded(index=i, file=inj.file, sheet=inj.sheet, row=inj.row, role="runs",
+                                         reason=e.reason, who=e.who, cells=cells))
+        return tuple(keep)
+
+    def check(self) -> tuple[Excluded, ...]:
+        """Every exclusion matched exactly one row; the rows left out, in the study's order."""
+        for i, e in enumerate(self.entries):
+            sheets = self._sheets.get(i)
+            if not sheets and e.run is not None:
+                raise StudyError(f'run "{show(e.run)}" has no injection "{show(e.injection)}", so this exclusion '
+                                 "would leave nothing out", file=self.study, key=f"exclusions[{i}]",
+                                 value=e.injection)
+            if not sheets:
+                where = f", sheet {show(e.sheet)}" if e.sheet is not None else ""
+                raise StudyError(f"{show(e.file)}{where} has no data row {e.row} read by this study, so this "
+                                 "exclusion would leave nothing out (rows are file lines, header = row 1; "
+                                 "in a workbook, sheet rows)", file=self.study, key=f"exclusions[{i}]",
+                                 value=e.row)
+            if len(sheets) > 1:
+                raise StudyError(f"{show(e.file)} row {e.row} is a data row in sheets "
+                                 + ", ".join(sorted(show(s) for s in sheets))
+                                 + "; give sheet = ... to say which one is excluded",
+                                 file=self.study, key=f"exclusions[{i}]", value=e.row)
+        return tuple(sorted(self.applied, key=lambda x: x.index))

@@ -1,0 +1,353 @@
+"""Analytical runs: instrument exports read as they are, through the study's column mapping.
+
+A validation is a set of runs. Each ``[[runs]]`` table names one export (CSV or one .xlsx
+sheet), read untouched: ``[columns]`` says which of its headers holds each field the tool
+reads (sample, type, level, response, internal standard, analyte, run, day), ``[types]``
+which of its words means which injection type (the export's "Cal Std" is a calibrator).
+Columns the study does not map are left unread.
+
+Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
+(calibrator, blank, qc, spiked, unspiked, reference, sample), its level (the nominal
+concentration of a calibrator or QC, the added amount of a spiked sample) and its response.
+When an internal-standard column is mapped, the response is the ratio analyte / internal
+standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
+or negative internal-standard area is an error naming the row.
+
+Quantification (a response read back through its run's calibration) is analysis and happens
+downstream; this module only reads.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+from ..errors import DataError, StudyError, show
+from .study import INJECTION_TYPES
+from .tables import MAX_NAME_LENGTH
+
+__all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
+
+# the types whose level (nominal concentration, or added amount) must be given
+NEEDS_LEVEL = ("calibrator", "qc", "spiked")
+
+
+@dataclass(frozen=True)
+class Injection:
+    """One row of a run export, typed and mapped.
+
+    Attributes
+    ----------
+    run, day : str
+        The run's label, and the day it was measured on (the run's label when unknown).
+    analyte, sample, type : str
+        The analyte, the injection's name in the export, and its type (one of
+        :data:`validator.inputs.study.INJECTION_TYPES`).
+    level : float or None
+        Nominal concentration (calibrator, QC) or added amount (spiked); None when not given.
+    response : float
+        What is calibrated: the analyte's response, or its ratio to the internal standard.
+    analyte_response, internal_standard_response : float, float or None
+        The raw areas (heights) as read; the second is None without an internal standard.
+    file, sheet, row : str, str or None, int
+        Where the injection is: the export as named in the study, the sheet of a workbook,
+        the file row (CSV line, header = row 1) or sheet row.
+    """
+
+    run: str
+    day: str
+    analyte: str
+    sample: str
+    type: str
+    level: float | None
+    response: float
+    analyte_response: float
+    internal_standard_response: float | None
+    file: str
+    sheet: str | None
+    row: int
+    matrix: str = ""             # spiked: the unspiked injections' sample id giving the native level ("": none)
+
+
+def _subset(table, idx: list):
+    """``table`` restricted to the records at positions ``idx`` (row numbers kept)."""
+    changes = {"columns": {n: [v[i] for i in idx] for n, v in table.columns.items()},
+               "rows": tuple(table.rows[i] for i in idx)}
+    if hasattr(table, "kinds"):
+        changes["kinds"] = {n: tuple(v[i] for i in idx) for n, v in table.kinds.items()}
+    return dataclasses.replace(table, **changes)
+
+
+def _error(table, problem: str, *, row: int, column: str, value: object = None) -> DataError:
+    """A DataError at a cell: named by sheet and cell in a workbook, by row and column in CSV."""
+    if hasattr(table, "error") and column in getattr(table, "letters", {}):
+        return table.error(problem, column=column, row=row, value=value)
+    return DataError(problem, file=table.path, row=row, column=column, value=value)
+
+
+def _header(name: str | None) -> str | None:
+    return None if name is None else name.strip().lower()
+
+
+def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injection, ...]:
+    """Every injection of every ``[[runs]]`` export, in the order of the study and the files.
+
+    Parameters
+    ----------
+    reader : validator.inputs.loading.Reader
+        Reads a data file into a table (audit trail, exclusions, dialect, sheet).
+    runs : sequence of RunSource
+        The ``[[runs]]`` tables.
+    columns : ColumnsSection
+        ``[columns]``: the export's header of each field.
+    types : TypesSection
+        ``[types]``: the export's words of each injection type.
+    default_analyte : str
+        The analyte's name when no analyte column is mapped (the study id).
+    """
+    mapped = {field: _header(getattr(columns, field)) for field in type(columns).model_fields}
+    # the fields every injection needs, and every header the study names, must be in each export
+    named = {"sample", "type", "response"} | set(columns.model_fields_set)
+    required = tuple(h for f, h in mapped.items() if h is not None and f in named)
+    optional = tuple(h for f, h in mapped.items() if h is not None and f not in named)
+    out = []
+    for k, source in enumerate(runs):
+        table = reader.table("runs", source, required, optional, other_columns="ignore")
+        out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
+    _check_labels(out, reader.study.shown)
+    return _match_matrices(reader.exclusions.apply_injections(out))
+
+
+def _match_matrices(injections) -> tuple:
+    """Each spiked injection with the unspiked matrix of its run whose found level is its native level.
+
+    The unspiked injections of the same run with the same sample id; else, when the run has
+    unspiked injections of one sample id only, those; else, when it has none, no native level
+    (0). Unspiked injections of several ids and none with the spiked one's id are ambiguous.
+    """
+    unspiked: dict = {}
+    for inj in injections:
+        if inj.type == "unspiked":
+            unspiked.setdefault((inj.analyte, inj.run), set()).add(inj.sample)
+    out = []
+    for inj in injections:
+        if inj.type == "spiked":
+            ids = unspiked.get((inj.analyte, inj.run), set())
+            if inj.sample in ids:
+                matrix = inj.sample
+            elif len(ids) == 1:
+                matrix = next(iter(ids))
+            elif not ids:
+                matrix = ""
+            else:
+                raise DataError(f'spiked injection "{show(inj.sample)}" has no unspiked injection of the same '
+                                f'sample id in run "{show(inj.run)}", which has unspiked injections of '
+                                + ", ".join(f'"{show(i)}"' for i in sorted(ids))
+                                + "; give the spiked and the unspiked injection of one matrix the same sample id",
+                                file=inj.file, row=inj.row, value=inj.sample)
+            inj = dataclasses.replace(inj, matrix=matrix)
+        out.append(inj)
+    return tuple(out)
+
+
+def _injections(table, source, k: int, mapped: dict, types, default_analyte: str, study: str):
+    sheet = getattr(table, "sheet", None) or None
+    words = table.texts(mapped["type"])
+    kinds = []
+    for word, row in zip(words, table.rows):
+        kind = types.type_of(word)
+        if kind is None:
+            known = ", ".join(f'"{show(w, 30)}"' for t in INJECTION_TYPES for w in getattr(types, t))
+            raise _error(table, f'injection type "{show(word)}" is not listed in [types] (listed: {known}); '
+                         "add it to the type it means", row=row, column=mapped["type"], value=word)
+        kinds.append(kind)
+    samples = table.texts(mapped["sample"], MAX_NAME_LENGTH)
+    analytes = (table.texts(mapped["analyte"], MAX_NAME_LENGTH) if mapped["analyte"] and table.has(mapped["analyte"])
+                else [default_analyte] * len(table))
+    run_label = source.run or f"run {k + 1}"
+    if mapped["run"] and table.has(mapped["run"]):
+        if source.run is not None:
+            raise StudyError(f"[[runs]] {k + 1} gives run = \"{show(source.run)}\" but its export also has the "
+                             f'run column "{show(mapped["run"])}"; keep one', file=study, key=f"runs[{k}].run")
+        runs = table.texts(mapped["run"], MAX_NAME_LENGTH)
+    else:
+        runs = [run_label] * len(table)
+    if mapped["day"] and table.has(mapped["day"]):
+        if source.day is not None:
+            raise StudyError(f"[[runs]] {k + 1} gives day = \"{show(source.day)}\" but its export also has the "
+                             f'day column "{show(mapped["day"])}"; keep one', file=study, key=f"runs[{k}].day")
+        days = table.texts(mapped["day"], MAX_NAME_LENGTH)
+    else:
+        days = [source.day] * len(table) if source.day else list(runs)
+
+    response = table.numbers(mapped["response"])
+    for value, row in zip(response, table.rows):
+        if value < 0:
+            raise _error(table, f"the response {value:g} is negative", row=row, column=mapped["response"], value=value)
+    internal = [None] * len(table)
+    if mapped["internal_standard"]:
+        column = mapped["internal_standard"]
+        for i, (cell, row) in enumerate(zip(table.columns[column], table.rows)):
+            if cell.strip() == "":
+                raise _error(table, "the internal-standard area is missing; every injection needs one to compute "
+                             "the response ratio", row=row, column=column, value=cell)
+        internal = table.numbers(column)
+        for value, row in zip(internal, table.rows):
+            if not value > 0:
+                raise _error(table, f"the internal-standard area is {value:g}; the response ratio needs an area "
+                             "above zero", row=row, column=column, value=value)
+
+    levels = [None] * len(table)
+    if mapped["level"] and table.has(mapped["level"]):
+        column = mapped["level"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, value in zip(given, _subset(table, given).numbers(column)):
+            levels[i] = value
+    for i, (kind, row) in enumerate(zip(kinds, table.rows)):
+        if kind in NEEDS_LEVEL and levels[i] is None:
+            what = {"calibrator": "its nominal concentration", "qc": "its nominal concentration",
+                    "spiked": "the amount added"}[kind]
+            raise _error(table, f"a {kind} injection needs a level ({what})", row=row, column=mapped["level"])
+        if levels[i] is not None and levels[i] < 0:
+            raise _error(table, f"the level {levels[i]:g} is negative", row=row, column=mapped["level"],
+                         value=levels[i])
+        if kind == "spiked" and not levels[i] > 0:
+            raise _error(table, "a spiked injection needs an added amount above zero", row=row,
+                         column=mapped["level"], value=levels[i])
+
+    out = []
+    for i, row in enumerate(table.rows):
+        ratio = response[i] if internal[i] is None else response[i] / internal[i]
+        out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
+                             level=levels[i], response=ratio, analyte_response=response[i],
+                             internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row))
+    return out
+
+
+def _check_labels(injections, study: str) -> None:
+    """A run label belongs to one export, and a run is measured on one day."""
+    where, day = {}, {}
+    for inj in injections:
+        first = where.setdefault(inj.run, (inj.file, inj.sheet, inj.row))
+        if first[:2] != (inj.file, inj.sheet):
+            raise DataError(f'run "{show(inj.run)}" appears in two exports ({show(first[0])} row {first[2]}); '
+                            "give each run its own label", file=inj.file, row=inj.row)
+        d = day.setdefault(inj.run, (inj.day, inj.row))
+        if d[0] != inj.day:
+            raise DataError(f'run "{show(inj.run)}" has day "{show(inj.day)}" here but "{show(d[0])}" at row {d[1]}; '
+                            "a run is measured on one day", file=inj.file, row=inj.row, value=inj.day)
+
+
+def by_analyte(injections) -> dict:
+    """``{analyte: tuple of its injections}``, analytes in order of first appearance."""
+    out: dict = {}
+    for inj in injections:
+        out.setdefault(inj.analyte, []).append(inj)
+    return {name: tuple(v) for name, v in out.items()}
+
+
+def check_run_calibrations(injections, *, needed: int, pooled: bool) -> None:
+    """Every run whose injections are quantified has a calibration of ``needed`` levels or more.
+
+    With ``pooled``, the calibrators of all runs together must have them.
+    """
+    levels: dict = {}
+    first: dict = {}
+    for inj in injections:
+        first.setdefault(inj.run, inj)
+        if inj.type == "calibrator":
+            levels.setdefault("" if pooled else inj.run, set()).add(inj.level)
+    if pooled:
+        have = len(levels.get("", ()))
+        if have < needed:
+            inj = injections[0]
+            raise DataError(f'analyte "{show(inj.analyte)}" has {have} calibrator level(s) over all runs; at least '
+                            f"{needed} are needed for this model", file=inj.file)
+        return
+    for run, inj in first.items():
+        have = len(levels.get(run, ()))
+        if have < needed:
+            raise DataError(f'run "{show(run)}" has {have} calibrator level(s) for analyte "{show(inj.analyte)}"; '
+                            f"at least {needed} are needed for this model to quantify the run's injections "
+                            '(or quantify with a pooled calibration: [calibration] quantify_with = "pooled")',
+                            file=inj.file, row=inj.row)
+
+
+@dataclass(frozen=True)
+class RunsData:
+    """What the run exports give each analyte before any fit: its pooled calibrators, its blanks'
+    responses and its injections (``{analyte: ...}``, analytes in order of first appearance)."""
+
+    calibration: dict
+    blanks: dict
+    injections: dict
+
+
+def load_runs(reader) -> RunsData:
+    """Read every ``[[runs]]`` export of the study and check what the fits will need.
+
+    The calibration of each analyte is its calibrator injections of all runs (level,
+    response, the run as series), as a calibration file with a series column would give it.
+    """
+    import numpy as np
+
+    from ..maths.regression import WEIGHTED_BY
+    from ..characteristics.calibration.settings import CalibrationData
+    from .sample_ids import check_expected, near_duplicates
+    from .study import ColumnsSection, TypesSection
+
+    cfg = reader.study.config
+    injections = read_runs(reader, cfg.runs, cfg.columns or ColumnsSection(), cfg.types or TypesSection(),
+                           cfg.study.id)
+    pooled = cfg.calibration.quantify_with == "pooled"
+    needed = 2 if cfg.calibration.through_origin else (4 if cfg.calibration.model == "quadratic" else 3)
+    calibration, blanks, grouped = {}, {}, by_analyte(injections)
+    for name, own in grouped.items():
+        cal = [i for i in own if i.type == "calibrator"]
+        if not cal:
+            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run', file=own[0].file,
+                            row=own[0].row)
+        check_run_calibrations(own, needed=needed, pooled=pooled)
+        x = np.array([i.level for i in cal], float)
+        y = np.array([i.response for i in cal], float)
+        if np.unique(x).size < needed:
+            raise DataError(f'analyte "{show(name)}" has {np.unique(x).size} calibrator level(s); at least '
+                            f"{needed} are needed for this model", file=cal[0].file, row=cal[0].row)
+        if np.ptp(y) == 0:
+            raise DataError(f'every calibrator response of analyte "{show(name)}" is {y[0]:g}: the instrument '
+                            "does not respond to concentration", file=cal[0].file, row=cal[0].row)
+        by = WEIGHTED_BY.get(cfg.calibration.weighting)
+        for i in cal:
+            if (by == "concentration" and not i.level > 0) or (by == "response" and not i.response > 0):
+                raise DataError(f"calibrator {show(i.sample)} cannot be weighted by {cfg.calibration.weighting} "
+                                f"(its {by} is {i.level if by == 'concentration' else i.response:g}); use another "
+                                "weighting or leave the injection out ([[exclusions]])", file=i.file, row=i.row)
+        calibration[name] = CalibrationData(x, y, tuple(i.run for i in cal), tuple(i.row for i in cal))
+        blank = [i.response for i in own if i.type == "blank"]
+        if blank:
+            blanks[name] = np.array(blank, float)
+        samples = [i for i in own if i.type == "sample"]
+        if samples and cfg.samples is not None and cfg.samples.expected:
+            check_expected(analyte=name, ids=[i.sample for i in samples], rows=[i.row for i in samples],
+                           file=samples[0].file, expected=tuple(cfg.samples.expected),
+                           expected_readings=cfg.samples.expected_readings, study=reader.study.shown)
+        elif samples:
+            for file in dict.fromkeys(i.file for i in samples):      # rows are named per export
+                own_file = [i for i in samples if i.file == file]
+                reader.near_duplicate_ids.extend(near_duplicates(analyte=name, ids=[i.sample for i in own_file],
+                                                                 rows=[i.row for i in own_file], file=file))
+    for kind, table, what in (("spiked", "recovery", "its acceptance range"), ("qc", "precision", "its limits"),
+                              ("reference", "reference_material", "the certified value")):
+        first = next((i for i in injections if i.type == kind), None)
+        if first is not None and getattr(cfg, table) is None:
+            raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
+                            f"[{table}] table; add it with {what}", file=first.file, row=first.row)
+    design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()
+    if set(design) - {"day", "run"}:
+        raise StudyError("with [[runs]], a precision design can name the factors day and run only (they come "
+                         f"from the runs); got {', '.join(show(d) for d in design)}", file=reader.study.shown,
+                         key="precision.design")
+    if cfg.reference_material is not None and len(grouped) > 1 and cfg.reference_material.analyte is None:
+        raise StudyError("the study covers several analytes; say which one the reference material certifies "
+                         "(analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
+    return RunsData(calibration=calibration, blanks=blanks, injections=grouped)
