@@ -93,7 +93,12 @@ def test_nested_balanced_components_against_expected_mean_squares_and_statsmodel
                                              pytest.approx(math.sqrt(high), rel=1e-10))
     nu = g * g / sum(t * t / n for t, n in terms)          # Satterthwaite (1946), hand computation
     assert ip.df == pytest.approx(nu, rel=1e-12)
-    assert ip.rsd_upper_pct == pytest.approx(100 * math.sqrt(g * nu / stats.chi2.ppf(0.05, nu)) / mean, rel=1e-10)
+    # one-sided upper bound: MLS with H = n/chi2(a) - 1 (Graybill and Wang 1980, one-sided; hand computation with
+    # scipy's chi2), no longer Satterthwaite's g nu / chi2(a; nu), which covered only about 0.89 at 0.95 (see
+    # test_variance_components.test_one_sided_upper_bound_coverage_by_simulation)
+    upper = g + math.sqrt(sum(((n / stats.chi2.ppf(0.05, n) - 1) * t) ** 2 for t, n in terms))
+    assert ip.rsd_upper_pct == pytest.approx(100 * math.sqrt(upper) / mean, rel=1e-10)
+    assert ip.rsd_upper_pct > 100 * math.sqrt(g * nu / stats.chi2.ppf(0.05, nu)) / mean
 
 
 def test_negative_component_set_to_zero_and_said_so():
@@ -171,9 +176,16 @@ def test_default_criteria_are_unchanged_and_interval_basis_uses_the_upper_bound(
     assert r.value == pytest.approx(expected, rel=1e-12)
     assert r.passed == (expected <= 1.0)
     assert "point estimate" in r.note and "upper" in r.description
-    expected_i = (100 * plain.intermediate_sd * math.sqrt(plain.intermediate_df
-                                                          / stats.chi2.ppf(0.05, plain.intermediate_df)) / plain.mean)
+    # intermediate precision: one-sided MLS bound on MS_B/n0 + (1 - 1/n0) MS_W (Graybill and Wang 1980,
+    # H = df/chi2(alpha; df) - 1; hand computation with scipy's chi2), at least the repeatability bound
+    an = plain.anova
+    terms = [(an.ms_between / an.n0, an.df_between), ((1 - 1 / an.n0) * an.ms_within, an.df_within)]
+    u = sum(t for t, _ in terms) + math.sqrt(sum(((n / stats.chi2.ppf(0.05, n) - 1) * t) ** 2 for t, n in terms))
+    expected_i = max(100 * math.sqrt(u) / plain.mean, expected)
     assert i.value == pytest.approx(expected_i, rel=1e-12)
+    satterthwaite = (100 * plain.intermediate_sd * math.sqrt(plain.intermediate_df
+                                                             / stats.chi2.ppf(0.05, plain.intermediate_df)) / plain.mean)
+    assert i.value > satterthwaite
 
 
 # ---------------------------------------------------------------- accuracy profile
