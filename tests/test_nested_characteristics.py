@@ -137,9 +137,17 @@ def test_claim_verification_upper_verification_limit():
     assert rep.upper_verification_limit == pytest.approx(
         rep.claimed_sd * math.sqrt(stats.chi2.ppf(0.95, 16) / 16), rel=1e-12)
     assert rep.verified == (lv.nested.repeatability.sd <= rep.upper_verification_limit)
-    nu = lv.nested.intermediate.df
+    nu = round(lv.nested.intermediate.df)     # from memory: EP15-A3 rounds the within-laboratory df
+    assert wl.df == nu
     assert wl.upper_verification_limit == pytest.approx(wl.claimed_sd * math.sqrt(stats.chi2.ppf(0.95, nu) / nu),
                                                         rel=1e-12)
+    # three levels verified together: alpha / 3 (EP15-A3's Bonferroni division; hand computation, scipy chi2)
+    rep3, wl3 = _level(y, day, run, claims=(0.6, 1.0), claim_levels=(3, 3)).claims
+    assert rep3.upper_verification_limit == pytest.approx(
+        rep.claimed_sd * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 16) / 16), rel=1e-12)
+    assert wl3.upper_verification_limit == pytest.approx(
+        wl.claimed_sd * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, nu) / nu), rel=1e-12)
+    assert "1 - 0.05/3" in rep3.basis and "one level" in rep.basis
     ids = [c.id for c in precision_criteria(lv, (None, None))]
     assert ids == ["repeatability-claim-10", "within-laboratory-claim-10"]
 
@@ -420,6 +428,17 @@ def test_demo_declares_all_three_and_other_studies_get_none(outside):
         assert all(lv["nested"]["design"] == ["day", "run"] for lv in a["precision"]["levels"])
         assert a["accuracy_profile"]["validated_ranges"]
         assert len(a["uncertainty"]["levels"]) == len(a["precision"]["levels"])
+    # claims verified at 3 levels per analyte: UVL = claim sqrt(chi2(1 - 0.05/3; df) / df), df rounded
+    # (from memory: EP15-A3; hand computation with scipy's chi2). Nitrate 0.5 repeatability, df 6:
+    # 0.007342125 x 1.6076 = 0.011803 (0.010636 without the Bonferroni division)
+    nitrate = next(a for a in results["analytes"] if a["name"] == "nitrate")
+    rep, wl = nitrate["precision"]["levels"][0]["claims"]
+    assert rep["upper_verification_limit"] == pytest.approx(
+        rep["claimed_sd"] * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 6) / 6), rel=1e-12)
+    assert rep["upper_verification_limit"] == pytest.approx(0.011803, abs=5e-7)
+    assert wl["df"] == round(nitrate["precision"]["levels"][0]["nested"]["conditions"][-1]["df"])
+    assert wl["upper_verification_limit"] == pytest.approx(
+        wl["claimed_sd"] * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, wl["df"]) / wl["df"]), rel=1e-12)
     out2 = outside / "other"
     assert main(["run", str(repo / "example_studies" / "anions-after-maintenance" / "study.toml"), "--out",
                  str(out2), "--format", "json"]) in (0, 1)

@@ -233,6 +233,15 @@ def test_claim_verification_hand_computation():
         math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 20) / 20), rel=1e-14)
 
 
+@pytest.mark.parametrize("estimated, used", [(4.3374, 4), (4.5, 4), (5.5, 6), (5.93, 6), (0.4, 1), (7.0, 7)])
+def test_claim_df_rounded_to_the_nearest_integer(estimated, used):
+    # from memory: EP15-A3 uses an integer df for the within-laboratory SD (nearest integer); halves go to the
+    # even integer, as Python's round(); hand computation with scipy's chi2 at that df, Bonferroni over 3 levels
+    v = verify_precision_claim(1.2, 1.0, estimated, levels=3)
+    assert v.df == used and v.estimated_df == estimated
+    assert v.factor == pytest.approx(math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, used) / used), rel=1e-14)
+
+
 def test_degenerate_and_invalid():
     with warnings.catch_warnings():
         warnings.simplefilter("error")
@@ -281,12 +290,12 @@ def test_four_stage_unbalanced_reml_against_statsmodels():
 def test_claims_from_a_study():
     got = nested_variance_components(Y, [DAY, RUN], names=("day", "run"))
     rep, wl, reason = verify_precision_claims(got, repeatability_sd=2.0, within_laboratory_sd=5.0)
-    assert reason == "" and rep.df == 4 and wl.df == pytest.approx(got.intermediate_precision.df)
+    assert reason == "" and rep.df == 4 and wl.df == round(got.intermediate_precision.df)
     assert rep.observed_sd == pytest.approx(math.sqrt(3.0), rel=1e-14)   # MS_e = 3, hand computation
     unbalanced = nested_variance_components(Y[:-1], [DAY[:-1], RUN[:-1]], names=("day", "run"))
     rep, wl, reason = verify_precision_claims(unbalanced, repeatability_sd=2.0, within_laboratory_sd=5.0)
     # unbalanced: the within-laboratory SD has the Satterthwaite df of the REML information
-    assert reason == "" and rep is not None and wl.df == pytest.approx(unbalanced.intermediate_precision.df)
+    assert reason == "" and rep is not None and wl.df == max(1, round(unbalanced.intermediate_precision.df))
 
 
 def test_reml_information_df_equals_anova_satterthwaite_when_balanced():

@@ -133,7 +133,8 @@ class ClaimVerification:
     """Verification of a claimed SD against an observed one ([EP15]).
 
     ``verified`` is True when the observed SD is at most the claim, or above
-    it but at most the upper verification limit ``uvl``.
+    it but at most the upper verification limit ``uvl``. ``df`` is the df used
+    (``estimated_df`` rounded to the nearest integer, at least 1).
     """
 
     observed_sd: float
@@ -145,6 +146,7 @@ class ClaimVerification:
     uvl: float
     verified: bool
     basis: str
+    estimated_df: float | None = None
 
 
 # ---------------------------------------------------------------- parameter checks
@@ -536,11 +538,16 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
     Notes
     -----
     UVL = claimed_sd * sqrt(chi2_{1 - alpha/levels; df} / df), with chi2_{q; df}
-    the q quantile and ``df`` the df of the observed SD (residual df for
-    repeatability, Satterthwaite df for within-laboratory precision);
-    ``levels`` > 1 applies the Bonferroni division of alpha over the levels
-    tested together. The claim is verified when observed <= claim, or
-    claim < observed <= UVL.
+    the q quantile, ``levels`` the number of samples (concentration levels) whose
+    claims are verified together (EP15-A3's Bonferroni division of alpha, so that
+    the whole verification keeps its false-rejection rate alpha) and ``df`` the df
+    of the observed SD (residual df for repeatability, Satterthwaite df for
+    within-laboratory precision) rounded to the nearest integer (at least 1; a
+    half to the even integer), as EP15-A3 uses integer df for the within-laboratory
+    SD. The claim is verified when observed <= claim, or claim < observed <= UVL.
+    EP15-A3 takes the within-laboratory df from the claimed ratio of within-laboratory
+    to repeatability SD in its one-way design; here it is the Satterthwaite df of the
+    observed design (the same formula when the observed ratio equals the claimed one).
     """
     for name, v in (("observed_sd", observed_sd), ("claimed_sd", claimed_sd), ("df", df)):
         try:
@@ -552,7 +559,8 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
     alpha_f = open_unit("alpha", alpha, 0.5)
     if isinstance(levels, bool) or not isinstance(levels, (int, np.integer)) or levels < 1:
         raise ValueError(f"levels must be an integer >= 1, got {levels!r}")
-    df = float(df)
+    estimated = float(df)
+    df = float(max(1, round(estimated)))
     factor = math.sqrt(stats.chi2.ppf(1.0 - alpha_f / levels, df) / df)
     uvl = float(claimed_sd) * factor
     observed = float(observed_sd)
@@ -563,7 +571,7 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
     else:
         basis = "observed SD above the upper verification limit"
     return ClaimVerification(observed, float(claimed_sd), df, alpha_f, int(levels), factor, uvl,
-                             observed <= uvl, basis)
+                             observed <= uvl, basis, estimated)
 
 
 def verify_precision_claims(result: NestedVarianceComponents, *, repeatability_sd: float,

@@ -214,7 +214,9 @@ class ClaimCheck:
     """Verification of a claimed repeatability or within-laboratory RSD at one level ([EP15]).
 
     The claim is converted to an SD at the level's mean; it is verified when the observed SD is
-    at most the upper verification limit claimed SD sqrt(chi2_{1-alpha; df} / df).
+    at most the upper verification limit claimed SD sqrt(chi2_{1-alpha/L; df} / df), L the number
+    of levels with that claim (EP15-A3's Bonferroni division) and ``df`` the observed SD's df
+    rounded to the nearest integer (:func:`validator.maths.variance_components.verify_precision_claim`).
     """
 
     quantity: str
@@ -250,10 +252,11 @@ def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
     return NestedPrecision(tuple(design), res.method, res.balanced, comps, tuple(conds), res.notes)
 
 
-def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha) -> tuple:
+def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_levels=(1, 1)) -> tuple:
     out = []
-    for quantity, claimed, sd, df, why in (("repeatability", claims[0], rep_sd, rep_df, ""),
-                                           ("within-laboratory", claims[1], ip_sd, ip_df, ip_reason)):
+    for quantity, claimed, sd, df, why, levels in (
+            ("repeatability", claims[0], rep_sd, rep_df, "", claim_levels[0]),
+            ("within-laboratory", claims[1], ip_sd, ip_df, ip_reason, claim_levels[1])):
         if claimed is None:
             continue
         claimed_sd = abs(mean) * claimed / 100.0 if mean else None
@@ -264,8 +267,14 @@ def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha) -> tup
             out.append(ClaimCheck(quantity, claimed, claimed_sd, None if sd is None or not np.isfinite(sd) else sd,
                                   None, None, None, "not verified", reason))
             continue
-        v = verify_precision_claim(sd, claimed_sd, df, alpha=alpha)
-        out.append(ClaimCheck(quantity, claimed, claimed_sd, sd, float(df), v.uvl, v.verified, v.basis))
+        levels = max(1, int(levels))
+        v = verify_precision_claim(sd, claimed_sd, df, alpha=alpha, levels=levels)
+        how = (f"upper verification limit at chi-square quantile 1 - {v.alpha:g}/{levels} (Bonferroni over the "
+               f"{levels} levels with this claim)" if levels > 1 else
+               f"upper verification limit at chi-square quantile 1 - {v.alpha:g} (one level with this claim)")
+        if v.df != float(df):
+            how += f", df {v.df:g} (the estimated {float(df):.4g} rounded)"
+        out.append(ClaimCheck(quantity, claimed, claimed_sd, sd, v.df, v.uvl, v.verified, f"{v.basis}; {how}"))
     return tuple(out)
 
 
@@ -345,7 +354,7 @@ def _sd_ci(sd, df, alpha):
 
 
 def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset=0.0, design=None,
-                           factors=(), claims=(None, None), bounds=False) -> PrecisionLevel:
+                           factors=(), claims=(None, None), bounds=False, claim_levels=(1, 1)) -> PrecisionLevel:
     """Repeatability, between-series and intermediate precision at one level.
 
     Notes
@@ -364,7 +373,9 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     (chi-square) and on sums of components (modified large-sample [BG] and Satterthwaite);
     one-sided upper RSD bounds. ``claims`` (claimed repeatability and within-laboratory
     RSD, %) are verified by the upper verification limit [EP15], from the nested estimates
-    when declared, else the one-way ones. ``bounds`` adds the one-way upper RSD bounds.
+    when declared, else the one-way ones; ``claim_levels`` is the number of levels with a
+    repeatability and with a within-laboratory claim (the Bonferroni division of alpha).
+    ``bounds`` adds the one-way upper RSD bounds.
     """
     a = one_way_anova(values, series, offset)
     notes = []
@@ -424,10 +435,10 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     if any(c is not None for c in claims):
         if nested is not None:
             r, i = nested.repeatability, nested.intermediate
-            checks = _claims(claims, mean, r.sd, r.df, i.sd, i.df, i.reason, alpha)
+            checks = _claims(claims, mean, r.sd, r.df, i.sd, i.df, i.reason, alpha, claim_levels)
         else:
             checks = _claims(claims, mean, sr if np.isfinite(sr) else None, a.df_within or None,
-                             si if np.isfinite(si) else None, df_i, "; ".join(notes), alpha)
+                             si if np.isfinite(si) else None, df_i, "; ".join(notes), alpha, claim_levels)
     return PrecisionLevel(
         level=float(level), series=a.groups, n=a.n, mean=mean, anova=a, repeatability_sd=sr,
         repeatability_rsd_pct=rsd(sr), between_series_sd=sl, between_clamped=clamped, intermediate_sd=si,
