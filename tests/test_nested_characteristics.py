@@ -267,6 +267,12 @@ def test_beta_content_interval_reduces_to_howe_structure_and_mls_bound():
     assert got.effective_n == pytest.approx(n_e, rel=1e-12)
     assert (got.low, got.high) == (pytest.approx(y.mean() - half, rel=1e-12), pytest.approx(y.mean() + half,
                                                                                              rel=1e-12))
+    # k is the factor on s_IP = sqrt(g) (hand computation above), as documented in docs/results.md, not
+    # z sqrt(1 + 1/n_e), the factor on sqrt(U)
+    assert got.sd_intermediate == pytest.approx(math.sqrt(g), rel=1e-12)
+    assert got.k == pytest.approx(half / math.sqrt(g), rel=1e-12)
+    assert got.sd_upper == pytest.approx(math.sqrt(upper), rel=1e-12)
+    assert got.k > stats.norm.ppf(0.95) * math.sqrt(1 + 1 / n_e)
 
 
 def test_beta_content_factor_for_a_single_mean_square_is_howes():
@@ -428,6 +434,10 @@ def test_demo_declares_all_three_and_other_studies_get_none(outside):
         assert all(lv["nested"]["design"] == ["day", "run"] for lv in a["precision"]["levels"])
         assert a["accuracy_profile"]["validated_ranges"]
         assert len(a["uncertainty"]["levels"]) == len(a["precision"]["levels"])
+        for lv in a["accuracy_profile"]["levels"]:     # k is the factor on intermediate_sd (docs/results.md)
+            ci = lv["content_interval"]
+            assert (ci["high_pct"] - ci["low_pct"]) / 2 == pytest.approx(
+                100 * ci["k"] * lv["intermediate_sd"] / lv["nominal"], rel=1e-9)
     # claims verified at 3 levels per analyte: UVL = claim sqrt(chi2(1 - 0.05/3; df) / df), df rounded
     # (from memory: EP15-A3; hand computation with scipy's chi2). Nitrate 0.5 repeatability, df 6:
     # 0.007342125 x 1.6076 = 0.011803 (0.010636 without the Bonferroni division)
