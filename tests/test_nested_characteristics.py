@@ -93,7 +93,12 @@ def test_nested_balanced_components_against_expected_mean_squares_and_statsmodel
                                              pytest.approx(math.sqrt(high), rel=1e-10))
     nu = g * g / sum(t * t / n for t, n in terms)          # Satterthwaite (1946), hand computation
     assert ip.df == pytest.approx(nu, rel=1e-12)
-    assert ip.rsd_upper_pct == pytest.approx(100 * math.sqrt(g * nu / stats.chi2.ppf(0.05, nu)) / mean, rel=1e-10)
+    # one-sided upper bound: MLS with H = n/chi2(a) - 1 (Graybill and Wang 1980, one-sided; hand computation with
+    # scipy's chi2), no longer Satterthwaite's g nu / chi2(a; nu), which covered only about 0.89 at 0.95 (see
+    # test_variance_components.test_one_sided_upper_bound_coverage_by_simulation)
+    upper = g + math.sqrt(sum(((n / stats.chi2.ppf(0.05, n) - 1) * t) ** 2 for t, n in terms))
+    assert ip.rsd_upper_pct == pytest.approx(100 * math.sqrt(upper) / mean, rel=1e-10)
+    assert ip.rsd_upper_pct > 100 * math.sqrt(g * nu / stats.chi2.ppf(0.05, nu)) / mean
 
 
 def test_negative_component_set_to_zero_and_said_so():
@@ -132,9 +137,17 @@ def test_claim_verification_upper_verification_limit():
     assert rep.upper_verification_limit == pytest.approx(
         rep.claimed_sd * math.sqrt(stats.chi2.ppf(0.95, 16) / 16), rel=1e-12)
     assert rep.verified == (lv.nested.repeatability.sd <= rep.upper_verification_limit)
-    nu = lv.nested.intermediate.df
+    nu = round(lv.nested.intermediate.df)     # from memory: EP15-A3 rounds the within-laboratory df
+    assert wl.df == nu
     assert wl.upper_verification_limit == pytest.approx(wl.claimed_sd * math.sqrt(stats.chi2.ppf(0.95, nu) / nu),
                                                         rel=1e-12)
+    # three levels verified together: alpha / 3 (EP15-A3's Bonferroni division; hand computation, scipy chi2)
+    rep3, wl3 = _level(y, day, run, claims=(0.6, 1.0), claim_levels=(3, 3)).claims
+    assert rep3.upper_verification_limit == pytest.approx(
+        rep.claimed_sd * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 16) / 16), rel=1e-12)
+    assert wl3.upper_verification_limit == pytest.approx(
+        wl.claimed_sd * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, nu) / nu), rel=1e-12)
+    assert "1 - 0.05/3" in rep3.basis and "one level" in rep.basis
     ids = [c.id for c in precision_criteria(lv, (None, None))]
     assert ids == ["repeatability-claim-10", "within-laboratory-claim-10"]
 
@@ -171,9 +184,16 @@ def test_default_criteria_are_unchanged_and_interval_basis_uses_the_upper_bound(
     assert r.value == pytest.approx(expected, rel=1e-12)
     assert r.passed == (expected <= 1.0)
     assert "point estimate" in r.note and "upper" in r.description
-    expected_i = (100 * plain.intermediate_sd * math.sqrt(plain.intermediate_df
-                                                          / stats.chi2.ppf(0.05, plain.intermediate_df)) / plain.mean)
+    # intermediate precision: one-sided MLS bound on MS_B/n0 + (1 - 1/n0) MS_W (Graybill and Wang 1980,
+    # H = df/chi2(alpha; df) - 1; hand computation with scipy's chi2), at least the repeatability bound
+    an = plain.anova
+    terms = [(an.ms_between / an.n0, an.df_between), ((1 - 1 / an.n0) * an.ms_within, an.df_within)]
+    u = sum(t for t, _ in terms) + math.sqrt(sum(((n / stats.chi2.ppf(0.05, n) - 1) * t) ** 2 for t, n in terms))
+    expected_i = max(100 * math.sqrt(u) / plain.mean, expected)
     assert i.value == pytest.approx(expected_i, rel=1e-12)
+    satterthwaite = (100 * plain.intermediate_sd * math.sqrt(plain.intermediate_df
+                                                             / stats.chi2.ppf(0.05, plain.intermediate_df)) / plain.mean)
+    assert i.value > satterthwaite
 
 
 # ---------------------------------------------------------------- accuracy profile
@@ -247,6 +267,12 @@ def test_beta_content_interval_reduces_to_howe_structure_and_mls_bound():
     assert got.effective_n == pytest.approx(n_e, rel=1e-12)
     assert (got.low, got.high) == (pytest.approx(y.mean() - half, rel=1e-12), pytest.approx(y.mean() + half,
                                                                                              rel=1e-12))
+    # k is the factor on s_IP = sqrt(g) (hand computation above), as documented in docs/results.md, not
+    # z sqrt(1 + 1/n_e), the factor on sqrt(U)
+    assert got.sd_intermediate == pytest.approx(math.sqrt(g), rel=1e-12)
+    assert got.k == pytest.approx(half / math.sqrt(g), rel=1e-12)
+    assert got.sd_upper == pytest.approx(math.sqrt(upper), rel=1e-12)
+    assert got.k > stats.norm.ppf(0.95) * math.sqrt(1 + 1 / n_e)
 
 
 def test_beta_content_factor_for_a_single_mean_square_is_howes():
@@ -408,6 +434,21 @@ def test_demo_declares_all_three_and_other_studies_get_none(outside):
         assert all(lv["nested"]["design"] == ["day", "run"] for lv in a["precision"]["levels"])
         assert a["accuracy_profile"]["validated_ranges"]
         assert len(a["uncertainty"]["levels"]) == len(a["precision"]["levels"])
+        for lv in a["accuracy_profile"]["levels"]:     # k is the factor on intermediate_sd (docs/results.md)
+            ci = lv["content_interval"]
+            assert (ci["high_pct"] - ci["low_pct"]) / 2 == pytest.approx(
+                100 * ci["k"] * lv["intermediate_sd"] / lv["nominal"], rel=1e-9)
+    # claims verified at 3 levels per analyte: UVL = claim sqrt(chi2(1 - 0.05/3; df) / df), df rounded
+    # (from memory: EP15-A3; hand computation with scipy's chi2). Nitrate 0.5 repeatability, df 6:
+    # 0.007342125 x 1.6076 = 0.011803 (0.010636 without the Bonferroni division)
+    nitrate = next(a for a in results["analytes"] if a["name"] == "nitrate")
+    rep, wl = nitrate["precision"]["levels"][0]["claims"]
+    assert rep["upper_verification_limit"] == pytest.approx(
+        rep["claimed_sd"] * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, 6) / 6), rel=1e-12)
+    assert rep["upper_verification_limit"] == pytest.approx(0.011803, abs=5e-7)
+    assert wl["df"] == round(nitrate["precision"]["levels"][0]["nested"]["conditions"][-1]["df"])
+    assert wl["upper_verification_limit"] == pytest.approx(
+        wl["claimed_sd"] * math.sqrt(stats.chi2.ppf(1 - 0.05 / 3, wl["df"]) / wl["df"]), rel=1e-12)
     out2 = outside / "other"
     assert main(["run", str(repo / "example_studies" / "anions-after-maintenance" / "study.toml"), "--out",
                  str(out2), "--format", "json"]) in (0, 1)

@@ -356,7 +356,9 @@ class RunsContentInterval:
 
     ``effective_n`` is s_IP^2 / v_m (the number of results the centre is worth),
     ``sd_upper`` the square root of the one-sided MLS upper confidence bound on
-    s_IP^2, ``k`` the factor on ``sd_intermediate`` that gives the half-width.
+    s_IP^2, ``k`` the factor on ``sd_intermediate`` that gives the half-width:
+    k = z_{(1+content)/2} sqrt(1 + 1/n_e) ``sd_upper`` / ``sd_intermediate``, the limits
+    ``mean`` +/- k ``sd_intermediate`` (like the factor of :class:`BetaExpectationInterval`).
     """
 
     low: float | None

@@ -29,7 +29,12 @@ __all__ = ["ContentInterval", "ProfileLevelResult", "ValidatedRange", "AccuracyP
 
 @dataclass(frozen=True)
 class ContentInterval:
-    """The optional beta-content, gamma-confidence interval at one level, in % relative error."""
+    """The optional beta-content, gamma-confidence interval at one level, in % relative error.
+
+    ``k`` is the factor on the level's ``intermediate_sd`` s_IP: the limits are mean ± k s_IP,
+    k = z_{(1+content)/2} sqrt(1 + 1/n_e) ``sd_upper`` / s_IP (not z sqrt(1 + 1/n_e), which
+    multiplies ``sd_upper``); see :func:`validator.maths.tolerance.runs_content_interval`.
+    """
 
     content: float
     confidence: float

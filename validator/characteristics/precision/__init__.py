@@ -38,13 +38,16 @@ def assess(ctx) -> Assessment[PrecisionResult] | None:
         return None
     pc = ctx.settings_of(ENTRY)
     levels = []
+    claimed = [pc.claims_for(float(level)) for level in np.unique(p.level)]
+    # EP15-A3 divides alpha over the levels (samples) whose claims are verified together
+    claim_levels = tuple(sum(c[q] is not None for c in claimed) for q in (0, 1))
     for level in np.unique(p.level):
         mask = p.level == level
         levels.append(assess_precision_level(
             level, p.found[mask], [s for s, lv in zip(p.series, p.level) if lv == level], alpha=ctx.alpha,
             unit=ctx.unit, offset=p.offset, design=pc.design,
             factors=tuple(np.asarray(f)[mask] for f in p.factors), claims=pc.claims_for(float(level)),
-            bounds=ctx.config.criteria.on_intervals))
+            bounds=ctx.config.criteria.on_intervals, claim_levels=claim_levels))
     result = PrecisionResult(tuple(levels))
     return Assessment(result, tuple(c for lv in result.levels for c in level_criteria(ctx, lv)))
 
