@@ -90,3 +90,91 @@ def test_a_spike_level_must_be_one_per_analyte(make_study):
     files = {"calibration.csv": _cal(), "s.csv": "found,spike_level\n1,1\n1.2,2\n", "b.csv": "found\nND\n"}
     with pytest.raises(DataError, match=r's.csv, row 3, column "spike_level"'):
         load_study(make_study(MDL_BODY, files))
+
+
+# ------------------------------------------------------------------ B, C: EP17 limits that detect nothing
+EP17_BODY = """\
+[calibration]
+data = "calibration.csv"
+[limit_of_blank]
+blanks = "blanks.csv"
+low_samples = "low.csv"
+purpose = "verification"
+"""
+OFFSETS = [-1.5, -1.0, -0.7, -0.4, -0.2, 0.0, 0.2, 0.4, 0.7, 1.0]     # invented spread, mean 0
+
+
+def _ep17_files(blank_centre, blank_sd, low_centre, low_sd, low_nominal=1.0):
+    blanks = "sample,found\n" + "".join(f"b{s},{blank_centre + blank_sd * d}\n" for s in (1, 2) for d in OFFSETS)
+    low = "sample,found,nominal\n" + "".join(f"L{s},{low_centre + low_sd * d},{low_nominal}\n"
+                                             for s in (0, 1) for d in OFFSETS)
+    return {"calibration.csv": _cal(), "blanks.csv": blanks, "low.csv": low}
+
+
+def test_b_lod_fails_when_the_low_level_results_sit_below_the_lob(make_study, outside):
+    body = EP17_BODY + "lob_max = 1.2\nlod_max = 1.3\n"
+    _, results = _run(make_study(body, _ep17_files(1.0, 0.05, 0.5, 0.05)), outside)
+    lod = results["analytes"][0]["limit_of_blank"]["lod"]
+    # hand computation: every low-level result (0.425 to 0.55) lies below every blank (0.925 to 1.05)
+    assert lod["above_blank"] == [{"lot": "1", "n": 20, "n_above": 0, "fraction": 0.0,
+                                   # scipy: smallest k with binom.cdf(k, 20, 0.95) >= 0.05 is 17
+                                   "minimum_count": int(stats.binom.ppf(0.05, 20, 0.95)), "passed": False}]
+    assert lod["above_blank"][0]["minimum_count"] == 17   # from memory: EP17-A2 sec. 6 table, 85 % of 20
+    crit = _by_id(results)
+    assert crit["limit-of-blank"]["pass"] is True                      # the LoB itself is a fair estimate
+    assert crit["limit-of-detection"]["value"] <= 1.3                  # the value alone would be met ...
+    assert crit["limit-of-detection"]["pass"] is False                 # ... but the low samples do not support it
+    assert "0 of 20 low-level results above the LoB" in crit["limit-of-detection"]["note"]
+    assert results["analytes"][0]["verdict"] == "fail"
+
+
+def test_b_minimum_count_above_blank_against_scipy_binomial():
+    from validator.sector.ep17 import above_blank, minimum_count_above_blank
+    for n in (20, 30, 40, 60, 120):
+        k = minimum_count_above_blank(n)
+        # cross-check: scipy binomial, k is the smallest count with P(X <= k) >= 0.05 under p = 0.95
+        assert stats.binom.cdf(k, n, 0.95) >= 0.05 > stats.binom.cdf(k - 1, n, 0.95)
+    # hand count: 17 of 20 above 0 pass, 16 do not
+    assert above_blank([1.0] * 17 + [-1.0] * 3, 0.0)[0].passed is True
+    assert above_blank([1.0] * 16 + [-1.0] * 4, 0.0)[0].passed is False
+
+
+def test_c_limits_not_above_zero_are_not_applicable(make_study, outside):
+    body = EP17_BODY.replace('purpose = "verification"', 'method = "parametric"') + \
+        "lob_max = 1.2\nlod_max = 1.3\nloq_max_cv_pct = 50\nloq_max = 2\n"
+    _, results = _run(make_study(body, _ep17_files(-1.0, 0.05, -0.5, 0.05, low_nominal=0.5)), outside)
+    e = results["analytes"][0]["limit_of_blank"]
+    # hand computation: LoB = mean + c_p SD, mean -1.005, < 0; the LoD also below zero
+    assert e["lob"]["value"] < 0 and e["lod"]["value"] < 0
+    crit = _by_id(results)
+    for cid in ("limit-of-blank", "limit-of-detection"):
+        assert crit[cid]["pass"] is None and "not a detection capability" in crit[cid]["note"], cid
+    # the LoQ floor, the LoD, is not above zero: the LoQ is not judged either (the stated rule LoQ >= LoD)
+    assert crit["limit-of-quantitation"]["pass"] is None
+    assert results["analytes"][0]["verdict"] == "incomplete"
+
+
+def test_c_zero_blanks_and_constant_low_samples_pass_nothing(make_study, outside):
+    # 20 blanks of 0 from 2 samples, low-level samples constant 0.05 (verification minimum met)
+    files = _ep17_files(0.0, 0.0, 0.05, 0.0, low_nominal=0.05)
+    body = EP17_BODY + "lob_max = 1.2\nlod_max = 1.3\nloq_max_cv_pct = 20\nloq_max = 2\n"
+    _, results = _run(make_study(body, files), outside)
+    e = results["analytes"][0]["limit_of_blank"]
+    assert e["lob"]["value"] == 0.0                     # rank 19.5 of twenty zeros (hand computation)
+    assert e["lod"]["value"] is None and "SD_L = 0" in e["lod"]["reason"]
+    assert e["loq"]["value"] is None and e["loq"]["levels"][0]["meets_goal"] is None
+    crit = _by_id(results)
+    assert all(crit[c]["pass"] is None for c in ("limit-of-blank", "limit-of-detection", "limit-of-quantitation"))
+    assert results["analytes"][0]["verdict"] == "incomplete"
+
+
+def test_c_loq_without_its_lod_floor_is_not_judged(make_study, outside):
+    # parametric LoB of blanks all 0 does not exist (SD 0), so neither does the LoD: the LoQ (nominal 1,
+    # CV about 5 %) has no floor to be checked against (stated rule: EP17-A2 LoQ >= LoD)
+    files = _ep17_files(0.0, 0.0, 1.0, 0.05)
+    body = EP17_BODY.replace('purpose = "verification"', 'method = "parametric"') + "loq_max_cv_pct = 20\nloq_max = 2\n"
+    _, results = _run(make_study(body, files), outside)
+    e = results["analytes"][0]["limit_of_blank"]
+    assert e["loq"]["value"] == 1.0 and e["lod"] is None
+    crit = _by_id(results)["limit-of-quantitation"]
+    assert crit["pass"] is None and "the LoQ is never below the LoD" in crit["note"]

@@ -34,6 +34,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from scipy import stats
+
 from .._common import quiet_numpy
 from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
 
@@ -41,7 +43,7 @@ __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", 
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
            "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES",
            "COMBINE_LOTS_FROM", "lot_rule", "verification_shortfall", "VERIFICATION_MINIMUM_RESULTS",
-           "VERIFICATION_MINIMUM_SAMPLES"]
+           "VERIFICATION_MINIMUM_SAMPLES", "AboveBlank", "above_blank", "minimum_count_above_blank"]
 
 LOB_METHODS = ("nonparametric", "parametric")
 PURPOSES = ("establishment", "verification")
@@ -114,6 +116,22 @@ class LimitOfBlank:
 
 
 @dataclass(frozen=True)
+class AboveBlank:
+    """How many low-level results of one lot (or of all lots combined) lie above the LoB.
+
+    ``minimum_count`` is the fewest results above the LoB consistent with the LoD's definition (95 %
+    of a sample at the LoD above the LoB); ``passed`` is ``n_above >= minimum_count``.
+    """
+
+    lot: str
+    n: int
+    n_above: int
+    fraction: float
+    minimum_count: int
+    passed: bool
+
+
+@dataclass(frozen=True)
 class LimitOfDetection:
     """The LoD of each lot and the reported value, by ``lot_rule`` (as for :class:`LimitOfBlank`)."""
 
@@ -125,10 +143,17 @@ class LimitOfDetection:
     purpose: str = "establishment"
     notes: tuple[str, ...] = ()
     reason: str = ""
+    # the low-level results above the LoB, per lot (all lots combined from COMBINE_LOTS_FROM lots)
+    above_blank: tuple[AboveBlank, ...] = ()
 
     @property
     def combined_reason(self) -> str:
         return _combined_reason(self)
+
+    @property
+    def above_blank_passed(self) -> bool:
+        """Every lot (or the lots combined) has at least the minimum count of results above the LoB."""
+        return all(a.passed for a in self.above_blank)
 
 
 @dataclass(frozen=True)
@@ -304,6 +329,44 @@ def verification_shortfall(sample, lot, kind: str) -> str:
     return ""
 
 
+# the LoD's definition: a sample at the LoD gives results above the LoB with probability 1 - beta = 0.95;
+# an observed count is accepted unless it is significantly (one-sided 5 %) below that
+ABOVE_BLANK_PROPORTION = 0.95
+ABOVE_BLANK_ALPHA = 0.05
+
+
+def minimum_count_above_blank(n: int) -> int:
+    """The fewest of ``n`` low-level results above the LoB that still verify an LoD.
+
+    Notes
+    -----
+    The smallest k with P(X <= k) >= 0.05 for X ~ Binomial(n, 0.95): fewer results above the LoB
+    are significantly (one-sided, 5 %) below the 95 % the LoD's definition requires. This gives
+    17 of 20 (85 %), 26 of 30, 36 of 40 and 54 of 60 (from memory: the table of minimum
+    proportions of CLSI EP17-A2 for verifying an LoD claim, sec. 6, lists 85 % for 20 results).
+    """
+    if n < 1:
+        raise ValueError(f"minimum_count_above_blank: n must be >= 1, got {n!r}")
+    return int(stats.binom.ppf(ABOVE_BLANK_ALPHA, n, ABOVE_BLANK_PROPORTION))
+
+
+def above_blank(low_level_results, limit_of_blank: float, *, lot=None) -> tuple[AboveBlank, ...]:
+    """Count the low-level results strictly above the LoB, per lot (by :func:`lot_rule`: all lots
+    combined from four lots), each against :func:`minimum_count_above_blank`."""
+    values = as_float_array(low_level_results, "low_level_results")
+    lots = _labels(lot, values.size, "lot", "1")
+    names = list(dict.fromkeys(lots))
+    groups = ([(COMBINED, np.ones(values.size, dtype=bool))] if lot_rule(len(names)) == "lots combined"
+              else [(str(n), lots == n) for n in names])
+    out = []
+    for name, mask in groups:
+        n = int(mask.sum())
+        k = int(np.sum(values[mask] > limit_of_blank))
+        need = minimum_count_above_blank(n)
+        out.append(AboveBlank(name, n, k, k / n, need, k >= need))
+    return tuple(out)
+
+
 def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, normal_quantile: float) -> LotLimit:
     """The LoB of one set of blank results (one lot, or all lots combined)."""
     k = len(set(s))
@@ -402,6 +465,10 @@ def _lod_of(name: str, v: np.ndarray, s: np.ndarray, lob: float, normal_quantile
     if sd is None or df < 1:
         return LotLimit(name, None, int(v.size), j, None, None, reason=(
             f"{v.size} low-level results from {j} samples: no sample has two results, so SD_L cannot be pooled"))
+    if sd == 0:
+        return LotLimit(name, None, int(v.size), j, None, sd, reason=(
+            f"the {v.size} low-level results show no spread within any sample (SD_L = 0): identical results are "
+            "below the resolution of the reported values, so LoB + c_p SD_L estimates no limit of detection"))
     cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
     value = float(lob) + cp * sd
     if not math.isfinite(value):
@@ -433,7 +500,11 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     or more, SD_L pooled over all lots' results combined (a sample label
     measured on several lots is one sample, so lot-to-lot differences enter
     SD_L), L all results and J the distinct samples. The homogeneity of the
-    samples' SDs (which pooling assumes) is not tested here.
+    samples' SDs (which pooling assumes) is not tested here. ``above_blank`` counts the low-level
+    results above the LoB (:func:`above_blank`): by the LoD's definition at least 95 % of results of
+    a sample at the LoD lie above the LoB, so too few above it means the low-level samples do not
+    support an LoD (their SD describes samples indistinguishable from the blanks). Low-level results
+    with no spread (SD_L = 0) give no LoD.
     """
     _check_choice(purpose, "purpose", PURPOSES)
     check_positive(normal_quantile, "normal_quantile")
@@ -459,7 +530,8 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     combined = _lod_of(COMBINED, values, samples, lob, normal_quantile) if rule == "lots combined" else None
     value, reason = _reported(results, combined, "LoD")
     return LimitOfDetection(value=value, limit_of_blank=float(lob), lot_rule=rule, lots=tuple(results),
-                            combined=combined, purpose=purpose, notes=notes, reason=reason)
+                            combined=combined, purpose=purpose, notes=notes, reason=reason,
+                            above_blank=above_blank(values, float(lob), lot=list(lots)))
 
 
 def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | None = None,
@@ -490,8 +562,8 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
     and above which every tested level meets it too (a level that fails above
     a passing one is named in the notes). If that level lies below the LoD,
     the LoQ is the LoD (EP17-A2: LoQ >= LoD). A level's CV needs at least two
-    results; a level without the needed statistic breaks the run of passing
-    levels.
+    results; a level without the needed statistic, or whose results are all
+    equal (SD 0: no spread at all), breaks the run of passing levels.
     """
     if max_cv_percent is None and max_total_error is None:
         raise ValueError("limit_of_quantitation: give max_cv_percent, max_total_error or both, got neither")
@@ -537,6 +609,12 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
             else:
                 verdicts.append(te <= max_total_error)
         meets = None if None in verdicts else all(verdicts)
+        if m.sd == 0:
+            # identical results: the spread is below the resolution of the reported values, so neither a
+            # CV of 0 nor a total error of |bias| shows the goal is met
+            meets = None
+            why.append(f"the {m.n} results are all {m.mean:g} (SD 0): no spread at all, so the accuracy goal "
+                       "is not judged")
         levels.append(QuantitationLevel(str(s), nom, m.n, m.mean, m.sd, m.cv_percent, bias, te, meets,
                                         "; ".join(why)))
     levels.sort(key=lambda lv: lv.nominal)
