@@ -178,3 +178,31 @@ def test_c_loq_without_its_lod_floor_is_not_judged(make_study, outside):
     assert e["loq"]["value"] == 1.0 and e["lod"] is None
     crit = _by_id(results)["limit-of-quantitation"]
     assert crit["pass"] is None and "the LoQ is never below the LoD" in crit["note"]
+
+
+# ------------------------------------------------------------------ D: stability judged on a zero-width interval
+STAB_BODY = """\
+[calibration]
+data = "calibration.csv"
+[stability]
+data = "stability.csv"
+judged_on = "interval"
+"""
+
+
+def test_d_stability_interval_of_identical_results_is_not_judged(make_study, outside):
+    files = {"calibration.csv": _cal(), "stability.csv": "condition,nominal,found\n" + "ft,3,3.0\n" * 3}
+    _, results = _run(make_study(STAB_BODY, files), outside)
+    c = _by_id(results)["stability-ft-3"]
+    # stated rule ("not shown is not passed", like precision on main): SD exactly 0 shows no spread
+    assert c["pass"] is None and "no spread at all" in c["note"]
+    fresh = files | {"stability.csv": "condition,nominal,found\n" + "ft,3,3.0\n" * 3 + "fresh,3,3.0\n" * 3}
+    _, results = _run(make_study(STAB_BODY + 'reference = "fresh"\n', fresh), outside, "fresh")
+    c = _by_id(results)["stability-ft-3"]
+    assert c["pass"] is None and "stored and fresh results show no spread" in c["note"]
+    # with spread the interval is judged: t interval by hand, mean 3, SD 0.1, t(0.975; 2) (scipy)
+    spread = files | {"stability.csv": "condition,nominal,found\nft,3,2.9\nft,3,3.0\nft,3,3.1\n"}
+    _, results = _run(make_study(STAB_BODY, spread), outside, "spread")
+    c = _by_id(results)["stability-ft-3"]
+    half = 100 * stats.t.ppf(0.975, 2) * 0.1 / math.sqrt(3) / 3
+    assert c["value"] == pytest.approx([-half, half], rel=1e-9) and c["pass"] is True

@@ -233,7 +233,9 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
     Against fresh: deviation = 100 (R - 1), R = mean_stored / mean_fresh, with
     Fieller's interval for R (variances s^2/n of each mean, covariance 0) and
     the Welch-Satterthwaite df of mean_stored - R mean_fresh at the estimate
-    (approximate). Too few results give ``passed = None`` with a reason.
+    (approximate). Too few results give ``passed = None`` with a reason; so do, on the
+    interval basis, identical results (SD exactly 0, stored or fresh): their interval has
+    no width because the spread is below the resolution of the values, not because it is small.
     """
     if (nominal is None) == (fresh is None):
         raise ValueError("stability: give exactly one of nominal and fresh")
@@ -247,6 +249,16 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
     fresh_values = as_float_array(fresh, "fresh") if fresh is not None else None
     s = mean_sd_cv(x)
     reference = "nominal" if nominal is not None else "fresh"
+    f_summary = mean_sd_cv(fresh_values) if fresh_values is not None else None
+
+    def no_spread() -> str:
+        """Why an interval from identical results shows nothing ("" when both sets have spread)."""
+        sets = [("stored", s)] + ([("fresh", f_summary)] if f_summary is not None else [])
+        flat = [name for name, m in sets if m.sd == 0]
+        if not flat:
+            return ""
+        return (f"the {' and '.join(flat)} results show no spread at all (SD exactly 0): the spread is below the "
+                "resolution of the reported values, so a confidence interval of zero width shows nothing")
 
     def result(ref_mean, dev, ci, df, reason="", interval_reason=""):
         passed = None
@@ -261,6 +273,8 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
                 passed = abs(dev) <= lim
             elif ci is None:
                 reason = interval_reason or "no confidence interval to judge on"
+            elif no_spread():
+                reason = no_spread()
             else:
                 passed = -lim <= ci.low and ci.high <= lim
         return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed,
