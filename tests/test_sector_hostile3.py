@@ -206,3 +206,33 @@ def test_d_stability_interval_of_identical_results_is_not_judged(make_study, out
     c = _by_id(results)["stability-ft-3"]
     half = 100 * stats.t.ppf(0.975, 2) * 0.1 / math.sqrt(3) / 3
     assert c["value"] == pytest.approx([-half, half], rel=1e-9) and c["pass"] is True
+
+
+# ------------------------------------------------------------------ E: clear failures must fail
+def test_e_dilution_bias_fails_even_with_an_undefined_cv(make_study, outside):
+    body = '[calibration]\ndata = "calibration.csv"\n[dilution_integrity]\ndata = "d.csv"\n'
+    files = {"calibration.csv": _cal(), "d.csv": "factor,nominal,found\n" + "2,3,0\n" * 5}
+    _, results = _run(make_study(body, files), outside)
+    crit = _by_id(results)
+    # hand computation: mean 0, accuracy 0 %, bias -100 % outside ±15 % (ICH M10 3.2.7, from memory)
+    assert crit["dilution-accuracy-2x-3"]["value"] == -100 and crit["dilution-accuracy-2x-3"]["pass"] is False
+    assert crit["dilution-cv-2x-3"]["pass"] is None and "mean is zero" in crit["dilution-cv-2x-3"]["note"]
+    assert "dilution_integrity.levels.0.cv_percent" in _na(results)
+    assert results["analytes"][0]["verdict"] == "fail"
+    # identical non-zero results: the accuracy is judged (met), the CV of 0 % is not shown (SD 0)
+    files["d.csv"] = "factor,nominal,found\n" + "2,3,1.5\n" * 5
+    _, results = _run(make_study(body, files), outside, "flat")
+    crit = _by_id(results)
+    assert crit["dilution-accuracy-2x-3"]["pass"] is True and crit["dilution-cv-2x-3"]["pass"] is None
+    assert "no spread at all" in crit["dilution-cv-2x-3"]["note"]
+
+
+def test_e_matrix_lot_reading_zero_fails_the_level(make_study, outside):
+    body = '[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nlots_data = "lots.csv"\n'
+    rows = "".join(f"L{k},3,{v}\n" for k in range(5) for v in (2.9, 3.0, 3.1)) + "L5,3,0\n" * 3
+    _, results = _run(make_study(body, {"calibration.csv": _cal(), "lots.csv": "lot,nominal,found\n" + rows}),
+                      outside)
+    lots = results["analytes"][0]["matrix_effect"]["lots"][0]
+    # hand computation: lot L5 mean 0, accuracy 0 %, outside ±15 % (ICH M10 3.2.3, from memory)
+    assert lots["lots"][5]["accuracy_percent"] == 0 and lots["lots"][5]["passed"] is False
+    assert lots["passed"] is False and _by_id(results)["matrix-lots-3"]["pass"] is False

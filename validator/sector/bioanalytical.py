@@ -312,7 +312,13 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
 # ----------------------------------------------------------------------------- dilution integrity
 @dataclass(frozen=True)
 class DilutionIntegrity:
-    """Diluted over-range QCs after multiplying by the dilution factor."""
+    """Diluted over-range QCs after multiplying by the dilution factor.
+
+    ``accuracy_passed`` and ``cv_passed`` judge the two parts apart: a mean bias beyond its limit
+    fails even when the CV cannot be computed. ``passed`` is ``False`` when either part fails,
+    ``None`` when neither fails but one is not judged (``reason`` for the whole level,
+    ``cv_reason`` for the CV alone), else ``True``.
+    """
 
     dilution_factor: float
     nominal: float
@@ -321,11 +327,14 @@ class DilutionIntegrity:
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None
-    cv_percent: float | None
-    max_bias_percent: float
-    max_cv_percent: float
-    passed: bool | None
+    cv_percent: float | None = field(metadata={"null_reason": "cv_reason"})
+    max_bias_percent: float = 15.0
+    max_cv_percent: float = 15.0
+    passed: bool | None = None
     reason: str = ""
+    accuracy_passed: bool | None = None
+    cv_passed: bool | None = None
+    cv_reason: str = ""
 
 
 def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: float, *,
@@ -346,7 +355,10 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     Notes
     -----
     back-calculated = measured x factor; accuracy = 100 mean / nominal;
-    CV = 100 SD / mean.
+    CV = 100 SD / mean. With at least ``min_replicates`` results the accuracy is
+    judged whenever the mean exists; the CV is not judged when the mean is zero
+    (CV undefined) or the results are identical (SD exactly 0: no spread at all,
+    below the resolution of the values, as precision on main).
     """
     factor = check_positive(dilution_factor, "dilution_factor")
     if factor < 1:
@@ -358,21 +370,31 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     with quiet_numpy():
         back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
     s = mean_sd_cv(back)
+    common = dict(dilution_factor=factor, nominal=nom, n=s.n, back_calculated=tuple(float(v) for v in back),
+                  max_bias_percent=b_lim, max_cv_percent=c_lim)
     if s.n == 0:
-        return DilutionIntegrity(factor, nom, 0, (), None, None, None, None, b_lim, c_lim, None, "no results")
+        return DilutionIntegrity(**common, mean=None, accuracy_percent=None, bias_percent=None, cv_percent=None,
+                                 reason="no results")
     acc = None if s.mean is None else 100.0 * s.mean / nom
     if acc is None or not math.isfinite(acc):
-        return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), None, None, None, None,
-                                 b_lim, c_lim, None, OUT_OF_RANGE)
-    reason, passed = "", None
+        return DilutionIntegrity(**common, mean=None, accuracy_percent=None, bias_percent=None, cv_percent=None,
+                                 reason=OUT_OF_RANGE)
+    values = dict(mean=s.mean, accuracy_percent=acc, bias_percent=acc - 100, cv_percent=s.cv_percent)
     if s.n < min_rep:
-        reason = f"{s.n} diluted QCs, at least {min_rep} needed"
-    elif s.cv_percent is None:
-        reason = "CV undefined (zero mean)"
+        return DilutionIntegrity(**common, **values, reason=f"{s.n} diluted QCs, at least {min_rep} needed")
+    acc_ok = abs(acc - 100) <= b_lim
+    cv_ok, cv_reason = None, ""
+    if s.cv_percent is None:
+        cv_reason = ("CV undefined: the mean is zero" if s.sd is not None and s.mean == 0
+                     else "CV undefined: " + OUT_OF_RANGE)
+    elif s.sd == 0:
+        cv_reason = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
+                     "reported values, so the CV is not shown")
     else:
-        passed = abs(acc - 100) <= b_lim and s.cv_percent <= c_lim
-    return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), s.mean, acc, acc - 100,
-                             s.cv_percent, b_lim, c_lim, passed, reason)
+        cv_ok = s.cv_percent <= c_lim
+    passed = False if (not acc_ok or cv_ok is False) else (None if cv_ok is None else True)
+    return DilutionIntegrity(**common, **values, passed=passed, reason=cv_reason if passed is None else "",
+                             accuracy_passed=acc_ok, cv_passed=cv_ok, cv_reason=cv_reason)
 
 
 # ----------------------------------------------------------------------------- incurred-sample reanalysis

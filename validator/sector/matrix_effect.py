@@ -249,8 +249,11 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
     -----
     Per lot: accuracy = 100 mean / nominal, CV = 100 SD / mean. The level
     passes when every lot passes and there are at least ``min_lots`` lots. A
-    lot with fewer than ``min_replicates`` results, or too few for a CV, is
-    not judged (``passed`` is ``None``), and neither is the level.
+    lot with fewer than ``min_replicates`` results is not judged (``passed`` is
+    ``None``), and neither is the level; a lot whose accuracy is outside the
+    limit fails (and the level with it) even when its CV is undefined (zero
+    mean) or not shown (identical results, SD 0), which otherwise leave the lot
+    not judged.
     """
     nom = check_positive(nominal, "nominal")
     check_positive(max_bias_percent, "max_bias_percent")
@@ -266,12 +269,21 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
         if acc is None or not math.isfinite(acc):
             out.append(LotAccuracy(str(name), m.n, m.mean, None, None, None, None, OUT_OF_RANGE))
             continue
-        if m.n < min_rep or m.cv_percent is None:
+        if m.n < min_rep:
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
-                                   f"{m.n} results, at least {min_rep} needed" if m.n < min_rep
-                                   else "CV undefined (zero mean)"))
+                                   f"{m.n} results, at least {min_rep} needed"))
             continue
-        ok = abs(acc - 100.0) <= max_bias_percent and m.cv_percent <= max_cv_percent
+        if abs(acc - 100.0) > max_bias_percent:
+            # a clear failure whose value exists: it fails whether or not the CV can be judged
+            out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, False))
+            continue
+        if m.cv_percent is None or m.sd == 0:
+            out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
+                                   "CV undefined (zero mean)" if m.cv_percent is None else
+                                   "the results show no spread at all (SD exactly 0): the spread is below the "
+                                   "resolution of the reported values, so the CV is not shown"))
+            continue
+        ok = m.cv_percent <= max_cv_percent
         out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, ok))
     n_pass = sum(1 for o in out if o.passed)
     if any(o.passed is False for o in out):
