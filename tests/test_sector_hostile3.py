@@ -236,3 +236,61 @@ def test_e_matrix_lot_reading_zero_fails_the_level(make_study, outside):
     # hand computation: lot L5 mean 0, accuracy 0 %, outside ±15 % (ICH M10 3.2.3, from memory)
     assert lots["lots"][5]["accuracy_percent"] == 0 and lots["lots"][5]["passed"] is False
     assert lots["passed"] is False and _by_id(results)["matrix-lots-3"]["pass"] is False
+    assert "CV undefined: the mean is zero" in _na(results)["matrix_effect.lots.0.lots.5.cv_percent"]
+
+
+# ------------------------------------------------------------------ F: every null of a sector section has its reason
+def _uncovered(results):
+    from test_numerics_not_applicable import covered, nulls
+    out = []
+    for analyte in results["analytes"]:
+        sector = {k: v for k, v in analyte.items() if k in SECTOR}
+        out += [p for p in nulls(sector) if not covered(p, analyte)]
+    return out
+
+
+SECTOR = ("limit_of_blank", "method_detection_limit", "matrix_effect", "carry_over", "selectivity", "stability",
+          "dilution_integrity", "reanalysis")
+
+
+def test_f_every_sector_null_has_its_reason(make_study, outside):
+    body = """\
+[calibration]
+data = "calibration.csv"
+[limit_of_blank]
+blanks = "blanks.csv"
+low_samples = "low.csv"
+lob_max = 5
+[selectivity]
+data = "sel.csv"
+[carry_over]
+data = "carry.csv"
+[reanalysis]
+data = "isr.csv"
+[dilution_integrity]
+data = "d.csv"
+[method_detection_limit]
+spiked = "s.csv"
+blanks = "b.csv"
+"""
+    files = _ep17_files(0.1, 0.05, 1.0, 0.05)
+    files.update({
+        "sel.csv": "lot,kind,response\n,lloq,100\n" + "".join(f"L{k},blank,5\n" for k in range(6)),
+        "carry.csv": "kind,response\nlloq,100\nblank,3\n",
+        "isr.csv": "sample,original,repeat\nS1,0,0\nS2,10,11\nS3,10,10.5\n",
+        "d.csv": "factor,nominal,found\n" + "2,3,0\n" * 5,
+        "s.csv": "found\n" + "".join(f"{v}\n" for v in (0.9, 1.3, 0.7, 1.5, 1.1, 0.6, 1.4)),
+        "b.csv": "found\n" + "ND\n" * 7})
+    _, results = _run(make_study(body, files), outside)
+    assert _uncovered(results) == [], _uncovered(results)
+    # a parametric LoB and a LoQ with one goal: rank and the other goal are null, with their reasons
+    body2 = body.replace("lob_max = 5\n", 'lob_max = 5\nmethod = "parametric"\nloq_max_cv_pct = 20\n')
+    _, results = _run(make_study(body2, files), outside, "param")
+    assert _uncovered(results) == [], _uncovered(results)
+
+
+def test_f_example_study_nulls_have_reasons(outside):
+    from pathlib import Path
+    study = Path(__file__).resolve().parent.parent / "example_studies" / "plasma-lcms-bioanalytical" / "study.toml"
+    _, results = _run(study, outside)
+    assert _uncovered(results) == [], _uncovered(results)

@@ -54,12 +54,16 @@ class CarryOver:
     """
 
     analyte_percent: tuple[float, ...]    # each blank injection, % of the mean LLOQ analyte response
-    internal_standard_percent: tuple[float, ...] | None
+    internal_standard_percent: tuple[float, ...] | None = field(metadata={"null_reason": "internal_standard_reason"})
     max_analyte_percent: float            # the largest of analyte_percent
-    max_internal_standard_percent: float | None
-    analyte_limit_percent: float
-    internal_standard_limit_percent: float
-    passed: bool
+    max_internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    analyte_limit_percent: float = 20.0
+    internal_standard_limit_percent: float = 5.0
+    passed: bool = False
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return "no internal-standard responses were given, so the IS part is not judged"
 
 
 def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=None,
@@ -107,8 +111,12 @@ def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=No
 class SelectivityLot:
     lot: str
     analyte_percent: float                # largest blank analyte response of the lot, % of LLOQ response
-    internal_standard_percent: float | None
-    passed: bool
+    internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    passed: bool = False
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return "no internal-standard responses were given, so the IS part is not judged"
 
 
 @dataclass(frozen=True)
@@ -333,7 +341,7 @@ class DilutionIntegrity:
     passed: bool | None = None
     reason: str = ""
     accuracy_passed: bool | None = None
-    cv_passed: bool | None = None
+    cv_passed: bool | None = field(default=None, metadata={"null_reason": "cv_reason"})
     cv_reason: str = ""
 
 

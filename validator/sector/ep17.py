@@ -78,11 +78,28 @@ class LotLimit:
     value: float | None
     n_results: int
     n_samples: int
-    mean: float | None = None
+    mean: float | None = field(default=None, metadata={"null_reason": "mean_reason"})
     sd: float | None = None
-    coverage_factor: float | None = None
-    rank: float | None = None
+    coverage_factor: float | None = field(default=None, metadata={"null_reason": "coverage_factor_reason"})
+    rank: float | None = field(default=None, metadata={"null_reason": "rank_reason"})
     reason: str = ""
+    # "nonparametric" or "parametric" (a LoB), "lod"; says why a statistic of another kind is null
+    kind: str = field(default="", metadata={"json": None})
+
+    @property
+    def mean_reason(self) -> str:
+        return ("the LoD pools the within-sample SDs of the low-level samples (SD_L); it uses no mean"
+                if self.kind == "lod" else "")
+
+    @property
+    def coverage_factor_reason(self) -> str:
+        return ("the non-parametric LoB is a rank-interpolated percentile; it uses no coverage factor"
+                if self.kind == "nonparametric" else "")
+
+    @property
+    def rank_reason(self) -> str:
+        return {"parametric": "the parametric LoB (mean + c_p SD) uses no rank",
+                "lod": "the LoD (LoB + c_p SD_L) uses no rank"}.get(self.kind, "")
 
 
 def _combined_reason(part) -> str:
@@ -178,11 +195,23 @@ class LimitOfQuantitation:
 
     value: float | None
     levels: tuple[QuantitationLevel, ...]
-    max_cv_percent: float | None
-    max_total_error: float | None
-    limit_of_detection: float | None
+    max_cv_percent: float | None = field(metadata={"null_reason": "max_cv_percent_reason"})
+    max_total_error: float | None = field(metadata={"null_reason": "max_total_error_reason"})
+    limit_of_detection: float | None = field(metadata={"null_reason": "limit_of_detection_reason"})
     notes: tuple[str, ...] = ()
     reason: str = ""
+
+    @property
+    def max_cv_percent_reason(self) -> str:
+        return "no precision goal (loq_max_cv_pct) was declared"
+
+    @property
+    def max_total_error_reason(self) -> str:
+        return "no total-error goal (loq_max_total_error) was declared"
+
+    @property
+    def limit_of_detection_reason(self) -> str:
+        return "no LoD was available to set the LoQ's floor"
 
 
 def coverage_factor(n_results: int, n_samples: int, *, normal_quantile: float = EP17_NORMAL_QUANTILE) -> float:
@@ -373,20 +402,20 @@ def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, norm
     summary = mean_sd_cv(v)
     if method == "nonparametric":
         val, rank, why = nonparametric_percentile(v, p)
-        return LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why)
+        return LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why, kind=method)
     if v.size - k < 1 or summary.sd is None:
-        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, kind=method, reason=(
             f"{v.size} blank results from {k} samples: the parametric LoB needs more results than samples"))
     if summary.sd == 0:
-        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, kind=method, reason=(
             f"the {v.size} blank results are all {summary.mean:g} (SD 0): such data are censored or identical, "
             "so mean + c_p SD estimates no percentile; the non-parametric LoB is the CLSI EP17-A2 route "
             "(method = \"nonparametric\")"))
     cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
     value = summary.mean + cp * summary.sd
     if not math.isfinite(value):
-        return LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE)
-    return LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
+        return LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE, kind=method)
+    return LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp, kind=method)
 
 
 def _reported(results: list, combined: LotLimit | None, what: str) -> tuple[float | None, str]:
@@ -463,17 +492,17 @@ def _lod_of(name: str, v: np.ndarray, s: np.ndarray, lob: float, normal_quantile
     j = len(set(s))
     sd, df = _pooled_sd(v, s)
     if sd is None or df < 1:
-        return LotLimit(name, None, int(v.size), j, None, None, reason=(
+        return LotLimit(name, None, int(v.size), j, None, None, kind="lod", reason=(
             f"{v.size} low-level results from {j} samples: no sample has two results, so SD_L cannot be pooled"))
     if sd == 0:
-        return LotLimit(name, None, int(v.size), j, None, sd, reason=(
+        return LotLimit(name, None, int(v.size), j, None, sd, kind="lod", reason=(
             f"the {v.size} low-level results show no spread within any sample (SD_L = 0): identical results are "
             "below the resolution of the reported values, so LoB + c_p SD_L estimates no limit of detection"))
     cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
     value = float(lob) + cp * sd
     if not math.isfinite(value):
-        return LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE)
-    return LotLimit(name, value, int(v.size), j, None, sd, cp)
+        return LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE, kind="lod")
+    return LotLimit(name, value, int(v.size), j, None, sd, cp, kind="lod")
 
 
 def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=None,

@@ -207,9 +207,16 @@ class LotAccuracy:
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None           # accuracy - 100
-    cv_percent: float | None
-    passed: bool | None
+    cv_percent: float | None = field(metadata={"null_reason": "cv_reason"})
+    passed: bool | None = None
     reason: str = ""
+
+    @property
+    def cv_reason(self) -> str:
+        if self.cv_percent is not None or self.mean is None:
+            return ""
+        return ("CV undefined: fewer than two results" if self.n < 2 else
+                "CV undefined: the mean is zero" if self.mean == 0 else f"CV undefined: {OUT_OF_RANGE}")
 
 
 @dataclass(frozen=True)

@@ -56,18 +56,20 @@ class MethodDetectionLimit:
 
     value: float | None
     spiked: float | None               # MDL_s
-    blank: float | None                # MDL_b
-    blank_rule: str
-    n_spiked: int
-    n_blanks: int
-    n_blanks_numerical: int
-    spiked_sd: float | None            # S_s
-    spiked_t: float | None             # t(n_s - 1, 1 - alpha)
-    blank_mean: float | None           # X-bar of the blanks (before the "negative means zero" rule)
-    blank_sd: float | None             # S_b
-    blank_t: float | None
-    blank_rank: int | None             # the rank used by the "ranked blank" rule (1-based, ascending)
-    confidence: float
+    blank: float | None = field(metadata={"null_reason": "blank_reason"})               # MDL_b
+    blank_rule: str = "none numerical"
+    n_spiked: int = 0
+    n_blanks: int = 0
+    n_blanks_numerical: int = 0
+    spiked_sd: float | None = None     # S_s
+    spiked_t: float | None = None      # t(n_s - 1, 1 - alpha)
+    # X-bar of the blanks (before the "negative means zero" rule), S_b, t: only for the rule "mean + t s"
+    blank_mean: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    blank_sd: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    blank_t: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    # the rank used by the "ranked blank" rule (1-based, ascending)
+    blank_rank: int | None = field(default=None, metadata={"null_reason": "blank_rank_reason"})
+    confidence: float = 0.99
     notes: tuple[str, ...] = ()
     reason: str = ""
     # which reading of the 100-blank threshold was used ("" unless some but not all blanks are
@@ -75,6 +77,25 @@ class MethodDetectionLimit:
     blank_rule_reading: str = ""
     # the concentration the samples were spiked at, when given (the MDL is checked against it)
     spike_level: float | None = field(default=None, metadata={"null_reason": "spike_level_reason"})
+
+    @property
+    def blank_reason(self) -> str:
+        if self.blank_rule == "none numerical":
+            return "no method blank gave a numerical result: MDL_b does not apply"
+        why = [n for n in self.notes if "MDL_b does not apply" in n]
+        return why[0] if why else ""
+
+    @property
+    def blank_statistics_reason(self) -> str:
+        if self.blank_rule != "mean + t s":
+            return (f"not every method blank gave a numerical result (rule: {self.blank_rule}): the mean, SD and t "
+                    "of the blanks are used only when all are numerical")
+        return self.blank_reason
+
+    @property
+    def blank_rank_reason(self) -> str:
+        return (f"the rank is used only when some of more than {BLANK_RANK_THRESHOLD} method blanks are numerical "
+                f"(rule here: {self.blank_rule})")
 
     @property
     def spike_level_reason(self) -> str:
