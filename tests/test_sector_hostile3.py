@@ -294,3 +294,101 @@ def test_f_example_study_nulls_have_reasons(outside):
     study = Path(__file__).resolve().parent.parent / "example_studies" / "plasma-lcms-bioanalytical" / "study.toml"
     _, results = _run(study, outside)
     assert _uncovered(results) == [], _uncovered(results)
+
+
+# ------------------------------------------------------------------ G, H: names compared ignoring case; unique ids
+@pytest.mark.parametrize("body, name, content, match", [
+    ('[selectivity]\ndata = "sel.csv"\n', "sel.csv",
+     "lot,kind,response\n,lloq,100\nA,blank,1\na,blank,1\n", r'sel.csv, row 4, column "lot".*"a" and "A" \(row 3\)'),
+    ('[matrix_effect]\nlots_data = "lots.csv"\n', "lots.csv",
+     "lot,nominal,found\nL1,3,3\nl1,3,3\n", r'lots.csv, row 3, column "lot"'),
+    ('[matrix_effect]\nfactor_data = "mf.csv"\n', "mf.csv",
+     "lot,analyte_response,internal_standard_response\nneat,1,1\nL1,1,1\nl1,1,1\n", r'mf.csv, row 4, column "lot"'),
+    ('[stability]\ndata = "st.csv"\n', "st.csv",
+     "condition,nominal,found\nft,3,3\nFT,3,3\n", r'st.csv, row 3, column "condition".*one criterion id'),
+    ('[stability]\ndata = "st.csv"\n', "st.csv",
+     "condition,nominal,found\nbench top,3,3\nbench-top,3,3\n", r'st.csv, row 3, column "condition"'),
+    ('[reanalysis]\ndata = "isr.csv"\n', "isr.csv",
+     "sample,original,repeat\nS1,1,1\ns1,1,1\n", r'isr.csv, row 3, column "sample"'),
+    ('[limit_of_blank]\nblanks = "bl.csv"\n', "bl.csv", "sample,lot,found\nb,A,0\nb,a,0\n",
+     r'bl.csv, row 3, column "lot"'),
+    ('[method_detection_limit]\nspiked = "s.csv"\nblanks = "b.csv"\n', "s.csv", "found,batch\n1,B1\n1,b1\n",
+     r's.csv, row 3, column "batch"'),
+])
+def test_g_two_spellings_of_one_name_are_an_error(make_study, body, name, content, match):
+    # stated rule (README, "sector characteristics"): lot, sample, batch and condition names compare ignoring
+    # case; two spellings of one name for an analyte are an error naming both rows
+    files = {"calibration.csv": _cal(), name: content, "b.csv": "found\nND\n"}
+    with pytest.raises(DataError, match=match):
+        load_study(make_study('[calibration]\ndata = "calibration.csv"\n' + body, files))
+
+
+def test_g_stripped_and_same_case_names_are_one_lot(make_study, outside):
+    # " A" and "A " are the same lot (cells are stripped): one lot, not two (hand count)
+    body = '[calibration]\ndata = "calibration.csv"\n[selectivity]\ndata = "sel.csv"\nmin_lots = 2\n'
+    files = {"calibration.csv": _cal(), "sel.csv": "lot,kind,response\n,lloq,100\n A,blank,1\nA ,blank,1\n"}
+    _, results = _run(make_study(body, files), outside)
+    sel = results["analytes"][0]["selectivity"]
+    assert sel["n_lots"] == 1 and _by_id(results)["selectivity"]["pass"] is None
+
+
+def test_h_criterion_ids_are_unique_for_every_characteristic(make_study, outside):
+    from pathlib import Path
+    body = """\
+[calibration]
+data = "calibration.csv"
+[limit_of_blank]
+blanks = "blanks.csv"
+low_samples = "low.csv"
+lob_max = 5
+lod_max = 5
+loq_max = 5
+loq_max_cv_pct = 20
+[method_detection_limit]
+spiked = "s.csv"
+blanks = "b.csv"
+mdl_max = 5
+[matrix_effect]
+lots_data = "lots.csv"
+factor_data = "mf.csv"
+solvent_data = "solvent.csv"
+judge_slope_ratio = true
+[carry_over]
+data = "carry.csv"
+[selectivity]
+data = "sel.csv"
+[stability]
+data = "st.csv"
+[dilution_integrity]
+data = "d.csv"
+[reanalysis]
+data = "isr.csv"
+"""
+    files = _ep17_files(0.1, 0.05, 1.0, 0.05)
+    # nominals 3 and 3.0000001 (":g" writes both as 3), conditions that differ in words
+    files.update({
+        "s.csv": "found\n" + "".join(f"{v}\n" for v in (0.9, 1.3, 0.7, 1.5, 1.1, 0.6, 1.4)),
+        "b.csv": "found\n" + "ND\n" * 7,
+        "lots.csv": "lot,nominal,found\n" + "".join(f"L{k},{n},{n}\n" for k in range(3) for n in (3, 3.0000001)),
+        "mf.csv": "lot,analyte_response,internal_standard_response\nneat,1,1\nL1,1,1\nL2,1.1,1\n",
+        "solvent.csv": _cal(),
+        "carry.csv": "kind,response,internal_standard_response\nlloq,100,10\nblank,3,0.1\n",
+        "sel.csv": "lot,kind,response\n,lloq,100\n" + "".join(f"L{k},blank,5\n" for k in range(6)),
+        "st.csv": "condition,nominal,found\n" + "".join(f"{c},{n},{n}\n" for c in ("ft", "bench top", "冷凍")
+                                                         for n in (3, 3.0000001) for _ in range(3)),
+        "d.csv": "factor,nominal,found\n" + "".join(f"{f},{n},{n / f}\n" for f in (2, 2.0000001)
+                                                      for n in (3, 3.0000001) for _ in range(5)),
+        "isr.csv": "sample,original,repeat\nS1,10,11\n"})
+    _, results = _run(make_study(body, files), outside)
+    ids = [c["id"] for c in results["analytes"][0]["criteria"]]
+    assert len(ids) == len(set(ids)), sorted(i for i in ids if ids.count(i) > 1)
+    # every sector section judged something here, so every one of them was checked for its ids
+    assert {i.split("-")[0] for i in ids} >= {"limit", "method", "matrix", "carry", "selectivity", "stability",
+                                               "dilution", "incurred"}
+    assert "stability-3-0000001" not in ids and "stability-ft-3.0000001" in ids and "stability-冷凍-3" in ids
+    root = Path(__file__).resolve().parent.parent / "example_studies"
+    for example in ("plasma-lcms-bioanalytical", "anions-drinking-water"):
+        _, results = _run(root / example / "study.toml", outside, example)
+        for analyte in results["analytes"]:
+            ids = [c["id"] for c in analyte["criteria"]]
+            assert len(ids) == len(set(ids)), example

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ...criteria import Criterion
+from ...sector._shared import number_id
 from ...sector.bioanalytical import DilutionIntegrity, dilution_integrity
 
 __all__ = ["DilutionResult", "assess_dilution", "dilution_criteria"]
@@ -29,7 +30,7 @@ def dilution_criteria(result: DilutionResult) -> tuple[Criterion, ...]:
     few replicates; the CV alone when it is undefined (zero mean) or shows no spread (SD 0)."""
     out = []
     for lv in result.levels:
-        tag = f"{lv.dilution_factor:g}x-{lv.nominal:g}"
+        tag = f"{number_id(lv.dilution_factor)}x-{number_id(lv.nominal)}"
         level_note = f"not applicable: {lv.reason}" if lv.accuracy_passed is None else ""
         cv_note = level_note or (f"not applicable: {lv.cv_reason}" if lv.cv_passed is None else "")
         out.append(Criterion(f"dilution-accuracy-{tag}",

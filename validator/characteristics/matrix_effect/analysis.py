@@ -15,6 +15,7 @@ import numpy as np
 
 from ...criteria import Criterion, interval_within
 from ...maths.regression import WEIGHTED_BY, raw_weights
+from ...sector._shared import number_id
 from ...sector.matrix_effect import (LotAccuracyAssessment, NormalisedMatrixFactor, SlopeRatioMatrixEffect,
                                      lot_accuracy, normalised_matrix_factor, slope_ratio_matrix_effect)
 
@@ -115,7 +116,7 @@ def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, lim
                              value, limit, interval_within([value, value], limit) if value is not None else None,
                              "" if value is not None else f"not applicable: {why or 'it does not exist'}"))
     for lv in result.lots:
-        out.append(Criterion(f"matrix-lots-{lv.nominal:g}",
+        out.append(Criterion(f"matrix-lots-{number_id(lv.nominal)}",
                              f"every matrix lot (at least {lv.min_lots}) at nominal {lv.nominal:g}: accuracy within "
                              f"±{lv.max_bias_percent:g} % and CV at most {lv.max_cv_percent:g} %; value: lots meeting it",
                              lv.n_lots_passed, max(lv.n_lots, lv.min_lots), lv.passed,

@@ -62,6 +62,7 @@ class MatrixEffectData:
 def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
     """``{analyte: MatrixEffectData}`` for every analyte with rows in any of the files."""
     from ...errors import DataError, show
+    from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, positive, read_rows
 
     parts: dict = {}
@@ -81,6 +82,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
         lots, nominal, found = labels(table, "lot", ""), numbers(reader, table, "nominal"), numbers(reader, table, "found")
         positive(table, "nominal", nominal)
         for name, idx in rows.items():
+            one_spelling(table, "lot", lots, idx)
             parts.setdefault(name, {}).update(lots=tuple(lots[i] for i in idx), lot_nominal=nominal[idx],
                                               lot_found=found[idx])
     if settings.factor_data is not None:
@@ -90,6 +92,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
         lots = labels(table, "lot", "")
         a, s = numbers(reader, table, "analyte_response"), numbers(reader, table, "internal_standard_response")
         for name, idx in rows.items():
+            one_spelling(table, "lot", lots, idx)
             if not any(lots[i].casefold() == NEAT for i in idx):
                 raise DataError(f'analyte "{name}" has no neat-solution rows (lot "{NEAT}"): the matrix factor '
                                 "compares each lot with the neat solution", file=table.path,

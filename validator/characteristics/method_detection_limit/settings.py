@@ -39,6 +39,7 @@ class MethodDetectionLimitData:
 def load(reader, settings: MethodDetectionLimitSection, analytes: dict) -> dict:
     """``{analyte: MethodDetectionLimitData}`` for every analyte with spiked results."""
     from ...errors import DataError
+    from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, numbers_or_missing, positive, read_rows
 
     table, rows = read_rows(reader, "method_detection_limit.spiked", settings.spiked, ("found",),
@@ -61,6 +62,10 @@ def load(reader, settings: MethodDetectionLimitSection, analytes: dict) -> dict:
     out = {}
     for name, idx in rows.items():
         bidx = brows.get(name, [])
+        if batches is not None:
+            one_spelling(table, "batch", batches, idx)
+        if bbatches is not None:
+            one_spelling(btable, "batch", bbatches, bidx)
         level = None
         if spike is not None:
             for i in idx:

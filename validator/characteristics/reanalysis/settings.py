@@ -37,6 +37,7 @@ class ReanalysisData:
 def load(reader, settings: ReanalysisSection, analytes: dict) -> dict:
     """``{analyte: ReanalysisData}``; a sample listed twice for one analyte is an error at its row."""
     from ...errors import DataError, show
+    from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, read_rows
 
     table, rows = read_rows(reader, "reanalysis", settings.data, ("sample", "original", "repeat"), (),
@@ -45,6 +46,7 @@ def load(reader, settings: ReanalysisSection, analytes: dict) -> dict:
     original, repeat = numbers(reader, table, "original"), numbers(reader, table, "repeat")
     out = {}
     for name, idx in rows.items():
+        one_spelling(table, "sample", samples, idx)
         first: dict = {}
         for i in idx:
             if samples[i] in first:
