@@ -392,3 +392,22 @@ data = "isr.csv"
         for analyte in results["analytes"]:
             ids = [c["id"] for c in analyte["criteria"]]
             assert len(ids) == len(set(ids)), example
+
+
+# ------------------------------------------------------------------ I: matrix factors of extreme magnitude
+def test_i_normalised_matrix_factor_cv_at_extreme_magnitude():
+    from fractions import Fraction
+    from validator.sector.matrix_effect import normalised_matrix_factor
+    rel = [1.0, 1.1, 0.9, 1.05, 0.95, 1.0]
+    # analyte 1e50 x rel in matrix over 1e-50 neat, IS 1e-50 in matrix over 1e50 neat: factors 1e200 x rel
+    res = normalised_matrix_factor([1e50 * r for r in rel], [1e-50] * 6, [f"L{k}" for k in range(6)],
+                                   [1e-50], [1e50])
+    # exact arithmetic (fractions): the CV does not depend on the scale, so it is that of rel
+    fr = [Fraction(r) for r in rel]
+    mean = sum(fr) / 6
+    var = sum((x - mean) ** 2 for x in fr) / 5
+    assert res.cv_percent == pytest.approx(100 * math.sqrt(var) / float(mean), rel=1e-12)
+    assert res.mean == pytest.approx(1e200 * float(mean), rel=1e-12) and res.passed is True
+    # one lot: the true reason (one lot), not an overflow or a count of six
+    one = normalised_matrix_factor([1.0, 1.0], [1.0, 1.0], ["L1", "L1"], [1.0], [1.0], min_lots=2)
+    assert one.cv_percent is None and "1 lot: the CV across lots needs at least two" in one.reason

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
+from ._shared import (MeanSummary, check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
                       t_quantile_two_sided)
 
 __all__ = ["SlopeRatioMatrixEffect", "slope_ratio_matrix_effect", "LotAccuracy", "LotAccuracyAssessment",
@@ -346,7 +346,9 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
     -----
     Per lot: MF_analyte = mean(analyte in matrix) / mean(analyte neat),
     MF_IS likewise, IS-normalised MF = MF_analyte / MF_IS. The CV is
-    100 SD / mean of the lots' normalised factors (n - 1 SD).
+    100 SD / mean of the lots' normalised factors (n - 1 SD), computed on the
+    factors divided by the largest (the CV does not depend on the scale), so
+    that factors whose squares overflow still give it.
     """
     check_positive(max_cv_percent, "max_cv_percent")
     min_lots = check_count(min_lots, "min_lots", 2)
@@ -374,11 +376,22 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
         rows.append(MatrixFactorLot(str(name), mfa, mfs, norm if math.isfinite(norm) else None))
     if any(r.normalised_factor is None for r in rows):
         bad = next(r for r in rows if r.normalised_factor is None)
-        return none(f"lot {bad.lot}: the IS matrix factor is zero or the factors overflow", rows)
-    summary = mean_sd_cv(np.array([r.normalised_factor for r in rows]))
+        return none(f"lot {bad.lot}: " + ("the IS matrix factor is zero" if bad.internal_standard_factor == 0
+                                          else f"its factors: {OUT_OF_RANGE}"), rows)
+    factors = np.array([r.normalised_factor for r in rows])
+    # the CV does not depend on the scale: computed on factors divided by the largest, so that factors of
+    # any magnitude (their squares may overflow) give it; the mean is that of the unscaled factors
+    scale = float(np.max(np.abs(factors)))
+    summary = mean_sd_cv(factors / scale) if scale > 0 else mean_sd_cv(factors)
+    mean = None if summary.mean is None else summary.mean * scale
+    if len(rows) < 2:
+        return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None,
+                                      f"{len(rows)} lot: the CV across lots needs at least two")
     if summary.cv_percent is None:
-        return NormalisedMatrixFactor(tuple(rows), summary.mean, None, float(max_cv_percent), min_lots, None,
-                                      f"{len(rows)} lot(s): the CV across lots needs at least two")
+        why = ("the mean of the normalised factors is zero, so their CV is undefined" if summary.mean == 0
+               else OUT_OF_RANGE)
+        return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None, why)
+    summary = MeanSummary(summary.n, mean, summary.sd, summary.cv_percent)
     if len(rows) < min_lots:
         return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
                                       min_lots, None, f"{len(rows)} matrix lots, at least {min_lots} needed")
