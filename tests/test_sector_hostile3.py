@@ -411,3 +411,30 @@ def test_i_normalised_matrix_factor_cv_at_extreme_magnitude():
     # one lot: the true reason (one lot), not an overflow or a count of six
     one = normalised_matrix_factor([1.0, 1.0], [1.0, 1.0], ["L1", "L1"], [1.0], [1.0], min_lots=2)
     assert one.cv_percent is None and "1 lot: the CV across lots needs at least two" in one.reason
+
+
+# ------------------------------------------------------------------ J: ISR size under the ICH M10 preset
+ISR_HEAD = ('[study]\nid = "T"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "a"\n'
+            'guideline = "ich-m10"\n')
+
+
+def test_j_isr_under_ich_m10_needs_its_size(make_study, outside):
+    from validator.sector.bioanalytical import reanalysis_sample_count
+    body = '[calibration]\ndata = "calibration.csv"\n[reanalysis]\ndata = "isr.csv"\n'
+    files = {"calibration.csv": _cal(), "isr.csv": "sample,original,repeat\nS1,10,11\n"}
+    _, results = _run(make_study(body, files, head=ISR_HEAD), outside)
+    c = _by_id(results)["incurred-sample-reanalysis"]
+    assert c["pass"] is None and "study_samples" in c["note"]
+    # 1 judged sample with 400 study samples: ICH M10 (from memory, sec. 5) asks for 10 % = 40
+    assert reanalysis_sample_count(400) == 40 and reanalysis_sample_count(1200) == 110   # hand: 100 + 10
+    _, results = _run(make_study(body + "study_samples = 400\n", files, head=ISR_HEAD), outside, "size")
+    e = results["analytes"][0]["reanalysis"]
+    assert e["required_samples"] == 40 and e["passed"] is None and "fewer than the 40" in e["reason"]
+    # 10 study samples: 1 reanalysed sample is the M10 size; judged (difference 100 x 1/10.5 = 9.5 %, hand)
+    _, results = _run(make_study(body + "study_samples = 10\n", files, head=ISR_HEAD), outside, "ten")
+    assert _by_id(results)["incurred-sample-reanalysis"]["pass"] is True
+    # without a preset and without study_samples the verdict stands, with sector2's note (the null has its reason)
+    from conftest import STUDY_HEAD
+    _, results = _run(make_study(body, files, head=STUDY_HEAD), outside, "plain")
+    assert _by_id(results)["incurred-sample-reanalysis"]["pass"] is True
+    assert "study_samples" in _na(results)["reanalysis.study_samples"]

@@ -441,10 +441,23 @@ class IncurredSampleReanalysis:
     passed: bool | None
     notes: tuple[str, ...] = ()
     reason: str = ""
+    # the number of study samples, when given, and the reanalysed samples ICH M10 asks for (from memory,
+    # sec. 5: 10 % of the first 1000 and 5 % beyond); a verdict needs n_judged >= required_samples
+    study_samples: int | None = field(default=None, metadata={"null_reason": "size_reason"})
+    required_samples: int | None = field(default=None, metadata={"null_reason": "size_reason"})
+    size_rule: str = "none"
+
+    @property
+    def size_reason(self) -> str:
+        return "the number of study samples ([reanalysis] study_samples) was not given, so the ISR size is not checked"
+
+
+SIZE_RULES = ("none", "ich-m10")
 
 
 def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
-                               min_fraction: float = 2 / 3, sample=None) -> IncurredSampleReanalysis:
+                               min_fraction: float = 2 / 3, sample=None, study_samples: int | None = None,
+                               size_rule: str = "none") -> IncurredSampleReanalysis:
     """Incurred-sample reanalysis (ICH M10 sec. 5, from memory: within +/-20 % for chromatography,
     +/-30 % for ligand-binding assays, in at least two-thirds of the repeats).
 
@@ -458,9 +471,18 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     difference overflows. passed = n_within / n_judged >= min_fraction,
     compared exactly. Fewer than ``FEW_REANALYSED_SAMPLES`` judged samples are
     stated in ``notes`` (the verdict stands).
+
+    ISR size: with ``study_samples`` given, fewer judged samples than
+    :func:`reanalysis_sample_count` asks for give no verdict (``passed``
+    ``None`` with the reason). ``size_rule = "ich-m10"`` (set by the ICH M10
+    preset) makes ``study_samples`` necessary for a verdict: without it the
+    reanalysis cannot be shown to be of the size M10 asks for.
     """
     lim = check_positive(limit_percent, "limit_percent")
     frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
+    if size_rule not in SIZE_RULES:
+        raise ValueError(f"size_rule must be one of {SIZE_RULES!r}, got {size_rule!r}")
+    required = None if study_samples is None else reanalysis_sample_count(check_count(study_samples, "study_samples"))
     o = as_float_array(original, "original")
     r = as_float_array(repeat, "repeat")
     if o.size != r.size:
@@ -498,15 +520,24 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
                      f"{100 / n_judged:.3g} percentage points; ICH M10 sizes ISR as 10 % of the first 1000 study "
                      "samples and 5 % beyond (from memory, sec. 5)")
     common = dict(samples=tuple(rows), n=n, n_judged=n_judged, n_within=n_within, n_undefined=n_undef,
-                  limit_percent=lim, min_fraction=frac, notes=tuple(notes))
+                  limit_percent=lim, min_fraction=frac, notes=tuple(notes), study_samples=study_samples,
+                  required_samples=required, size_rule=size_rule)
     if n == 0:
         return IncurredSampleReanalysis(**common, fraction_within=None, passed=None, reason="no reanalysed samples")
     if n_judged == 0:
         return IncurredSampleReanalysis(**common, fraction_within=None, passed=None,
                                         reason="no reanalysed sample can be judged: every pair is equal with a "
                                                "mean not above zero")
-    return IncurredSampleReanalysis(**common, fraction_within=n_within / n_judged,
-                                    passed=_at_least(n_within, n_judged, frac))
+    fraction = n_within / n_judged
+    if required is not None and n_judged < required:
+        return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=None, reason=(
+            f"{n_judged} judged reanalysed sample(s), fewer than the {required} ICH M10 asks for with "
+            f"{study_samples} study samples (10 % of the first 1000 and 5 % beyond; from memory, sec. 5)"))
+    if required is None and size_rule == "ich-m10":
+        return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=None, reason=(
+            "the ICH M10 preset sizes ISR from the number of study samples (10 % of the first 1000 and 5 % "
+            "beyond; from memory, sec. 5), which was not given: set [reanalysis] study_samples"))
+    return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=_at_least(n_within, n_judged, frac))
 
 
 def reanalysis_sample_count(n_study_samples: int) -> int:

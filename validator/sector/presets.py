@@ -76,6 +76,9 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
         # least two-thirds of the repeats (chromatography)
         PresetValue("reanalysis.limit_pct", 20.0, f"{_M10} sec. 5", True),
         PresetValue("reanalysis.min_fraction", 2 / 3, f"{_M10} sec. 5", True),
+        # from memory: ICH M10 sec. 5: ISR on 10 % of the first 1000 study samples and 5 % beyond, so a
+        # verdict needs the number of study samples ([reanalysis] study_samples)
+        PresetValue("reanalysis.size_rule", "ich-m10", f"{_M10} sec. 5", True),
     )),
     Preset("sante-11312-2021", _SANTE, (
         # from memory: SANTE/11312/2021 (matrix effects, sec. on calibration / Appendix A glossary): an
