@@ -438,3 +438,45 @@ def test_j_isr_under_ich_m10_needs_its_size(make_study, outside):
     _, results = _run(make_study(body, files, head=STUDY_HEAD), outside, "plain")
     assert _by_id(results)["incurred-sample-reanalysis"]["pass"] is True
     assert "study_samples" in _na(results)["reanalysis.study_samples"]
+
+
+# ------------------------------------------------------------------ K: presets say what they did and did not do
+def test_k_sante_matrix_effect_is_reported_not_judged_and_says_why(make_study, outside):
+    head = ISR_HEAD.replace("ich-m10", "sante-11312-2021")
+    body = '[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nsolvent_data = "solvent.csv"\n'
+    # solvent slope half the matrix-matched slope (2.0 in conftest's calibration): ME about +100 %
+    solvent = "concentration,response\n" + "".join(f"{x},{0.01 + 1.0 * x + d}\n" for x, d in
+                                                   [(1, 0.01), (2, -0.01), (4, 0.02), (8, -0.02), (16, 0.01)])
+    _, results = _run(make_study(body, {"calibration.csv": _cal(), "solvent.csv": solvent}, head=head), outside)
+    me = results["analytes"][0]["matrix_effect"]
+    assert me["slope_ratio"]["statistic"] > 90 and me["slope_ratio"]["beyond_limit"] is True
+    assert me["slope_ratio_judged"] is False and "reported, not judged" in me["slope_ratio_note"]
+    assert "matrix-effect-slope-ratio" not in _by_id(results)
+    assert results["guideline"]["note"] == ""
+    # judged on request: the same ME fails (stated rule: |ME %| <= limit_pct)
+    _, results = _run(make_study(body + "judge_slope_ratio = true\n",
+                                 {"calibration.csv": _cal(), "solvent.csv": solvent}, head=head), outside, "judged")
+    assert _by_id(results)["matrix-effect-slope-ratio"]["pass"] is False
+    assert results["analytes"][0]["matrix_effect"]["slope_ratio_note"] == ""
+
+
+def test_k_a_preset_that_supplies_nothing_says_so(make_study, outside):
+    head = ISR_HEAD.replace("ich-m10", "clsi-ep17")
+    body = '[calibration]\ndata = "calibration.csv"\n[reanalysis]\ndata = "isr.csv"\n'
+    _, results = _run(make_study(body, {"calibration.csv": _cal(), "isr.csv": "sample,original,repeat\nS,1,1\n"},
+                                 head=head), outside)
+    g = results["guideline"]
+    assert g["values"] == [] and "supplied nothing" in g["note"] and "[limit_of_blank]" in g["note"]
+
+
+def test_k_readme_lists_every_preset_key():
+    from pathlib import Path
+    from validator.sector.presets import PRESETS
+    readme = (Path(__file__).resolve().parent.parent / "README.md").read_text(encoding="utf-8")
+    table = readme[readme.index("| preset | keys it sets"):]
+    table = table[:table.index("\n\n")]
+    for preset in PRESETS.values():
+        row = next(line for line in table.splitlines() if line.startswith(f"| `{preset.name}`"))
+        for pv in preset.values:
+            section, key = pv.key.split(".")
+            assert f"`{pv.key}`" in row or (section in row and f"`.{key}`" in row), pv.key

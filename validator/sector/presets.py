@@ -14,7 +14,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["PresetValue", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve"]
+__all__ = ["PresetValue", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve", "supplied_note"]
 
 
 @dataclass(frozen=True)
@@ -131,3 +131,13 @@ def resolve(name: str, declared_sections: dict) -> tuple[dict, tuple[PresetUse, 
             updates.setdefault(section, {})[key] = pv.value
             uses.append(PresetUse(pv.key, pv.value, None, True, pv.source, pv.from_memory))
     return updates, tuple(uses)
+
+
+def supplied_note(name: str, uses: tuple[PresetUse, ...]) -> str:
+    """"" when the preset has values for a section the study declares; else a sentence saying it supplied
+    nothing and which sections it covers (a preset that silently does nothing reads as if it applied)."""
+    if uses:
+        return ""
+    sections = list(dict.fromkeys(pv.key.split(".", 1)[0] for pv in PRESETS[name].values))
+    return (f"the preset supplied nothing: it has values only for {', '.join(f'[{s}]' for s in sections)}, "
+            "none of which this study declares; every criterion comes from the study file or the tool's defaults")

@@ -33,6 +33,17 @@ class MatrixEffect:
     normalised_factor: NormalisedMatrixFactor | None = field(metadata={"null_reason": "factor_reason"})
     slope_ratio_reason: str = ""
     factor_reason: str = ""
+    # whether ME % is a criterion (judge_slope_ratio); when it is not, why it is reported only
+    slope_ratio_judged: bool = False
+    slope_ratio_note: str = ""
+
+
+# the slope ratio is reported, not judged, unless judge_slope_ratio = true: why, in results.json and the dossier
+NOT_JUDGED = ("ME % is reported, not judged (judge_slope_ratio = false): its limit (SANTE/11312/2021, from memory) "
+              "decides whether solvent standards may be used for quantification or matrix-matched calibration is "
+              "needed; this study's [calibration] is the matrix-matched one, so a matrix effect beyond the limit "
+              "does not by itself make the method unfit. Set judge_slope_ratio = true to make it a criterion "
+              "(e.g. when results are to be quantified against solvent standards)")
 
 
 def _slope_ratio(data, matrix_concentration, matrix_response, *, level: float, variance: str, limit_pct: float,
@@ -54,7 +65,8 @@ def _slope_ratio(data, matrix_concentration, matrix_response, *, level: float, v
 
 def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, variance: str = "separate",
                   weighting: str = "none", limit_pct: float = 20.0, lot_max_bias_pct: float = 15.0,
-                  lot_max_cv_pct: float = 15.0, min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0) -> MatrixEffect:
+                  lot_max_cv_pct: float = 15.0, min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0,
+                  judge_slope_ratio: bool = False) -> MatrixEffect:
     """Each part for which ``data`` (a ``MatrixEffectData``) holds results.
 
     Notes
@@ -94,7 +106,8 @@ def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, 
                                           [lot for lot, n in zip(data.factor_lots, neat) if not n],
                                           data.factor_analyte[neat], data.factor_internal_standard[neat],
                                           max_cv_percent=factor_max_cv_pct, min_lots=max(min_lots, 2))
-    return MatrixEffect(slope, lots, factor, slope_reason, factor_reason)
+    note = "" if judge_slope_ratio or slope is None else NOT_JUDGED
+    return MatrixEffect(slope, lots, factor, slope_reason, factor_reason, bool(judge_slope_ratio), note)
 
 
 def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, limit_pct: float) -> tuple[Criterion, ...]:
