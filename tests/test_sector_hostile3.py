@@ -480,3 +480,13 @@ def test_k_readme_lists_every_preset_key():
         for pv in preset.values:
             section, key = pv.key.split(".")
             assert f"`{pv.key}`" in row or (section in row and f"`.{key}`" in row), pv.key
+
+
+# ------------------------------------------------------------------ L: min_lots below 2 refused
+def test_l_matrix_min_lots_below_two_is_refused(make_study):
+    body = '[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nlots_data = "lots.csv"\nmin_lots = 1\n'
+    files = {"calibration.csv": _cal(), "lots.csv": "lot,nominal,found\nL1,3,3\n"}
+    with pytest.raises(StudyError) as info:
+        load_study(make_study(body, files))
+    # stated rule: the CV across lots needs two lots (README, [matrix_effect]); the message names key and value
+    assert "key matrix_effect.min_lots: must be 2 <= min_lots <= 10000; got 1" in str(info.value)

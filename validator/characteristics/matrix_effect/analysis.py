@@ -105,7 +105,7 @@ def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, 
         factor = normalised_matrix_factor(data.factor_analyte[~neat], data.factor_internal_standard[~neat],
                                           [lot for lot, n in zip(data.factor_lots, neat) if not n],
                                           data.factor_analyte[neat], data.factor_internal_standard[neat],
-                                          max_cv_percent=factor_max_cv_pct, min_lots=max(min_lots, 2))
+                                          max_cv_percent=factor_max_cv_pct, min_lots=min_lots)
     note = "" if judge_slope_ratio or slope is None else NOT_JUDGED
     return MatrixEffect(slope, lots, factor, slope_reason, factor_reason, bool(judge_slope_ratio), note)
 

@@ -35,7 +35,9 @@ class MatrixEffectSection(_Section):
     lots_data: Optional[DataPath] = None
     lot_max_bias_pct: float = Field(15.0, gt=0, le=100)
     lot_max_cv_pct: float = Field(15.0, gt=0, le=100)
-    min_lots: int = Field(6, ge=1, le=10000)
+    # at least 2: a matrix effect from one lot says nothing about lot-to-lot variation, and the matrix
+    # factor's CV across lots needs two (a smaller value was silently raised to 2 for the factor)
+    min_lots: int = Field(6, ge=2, le=10000)
     min_replicates: int = Field(3, ge=2, le=10000)
     factor_data: Optional[DataPath] = None
     factor_max_cv_pct: float = Field(15.0, gt=0, le=100)
