@@ -490,3 +490,11 @@ def test_l_matrix_min_lots_below_two_is_refused(make_study):
         load_study(make_study(body, files))
     # stated rule: the CV across lots needs two lots (README, [matrix_effect]); the message names key and value
     assert "key matrix_effect.min_lots: must be 2 <= min_lots <= 10000; got 1" in str(info.value)
+
+
+def test_b_dossier_says_why_the_lod_fails(make_study, outside):
+    body = EP17_BODY + "lob_max = 1.2\nlod_max = 1.3\n"
+    out = outside / "html"
+    main(["run", str(make_study(body, _ep17_files(1.0, 0.05, 0.5, 0.05))), "--out", str(out), "--format", "json,html"])
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "lot 1: 0 of 20 results above the LoB, fewer than the 17 needed" in html
