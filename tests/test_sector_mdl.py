@@ -103,7 +103,8 @@ def test_fewer_than_seven_spiked_samples_give_no_mdl():
 def test_notes_for_few_blanks_and_non_positive_spikes():
     res = method_detection_limit([0.0] + SPIKED[1:], [0.1, 0.2])
     assert any("2 method blanks" in n for n in res.notes)
-    assert any("not above zero" in n for n in res.notes)
+    # from memory: 40 CFR 136 App. B Rev. 2, II(2): a spiked result not above zero means respiking: no MDL
+    assert res.value is None and "1 of 7 spiked results are not above zero" in res.reason
 
 
 def test_constant_spiked_results_are_degenerate_not_a_crash():

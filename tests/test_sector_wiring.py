@@ -232,7 +232,7 @@ def test_guideline_preset_supplies_defaults_and_the_study_overrides(make_study, 
     assert g["name"] == "ich-m10"
     values = {v["key"]: v for v in g["values"]}
     # only the sections the study declares: no selectivity, stability, ... values
-    assert set(values) == {"reanalysis.limit_pct", "reanalysis.min_fraction"}
+    assert set(values) == {"reanalysis.limit_pct", "reanalysis.min_fraction", "reanalysis.size_rule"}
     assert values["reanalysis.limit_pct"]["used"] is False and values["reanalysis.limit_pct"]["study_value"] == 30
     assert values["reanalysis.min_fraction"]["used"] is True and values["reanalysis.min_fraction"]["study_value"] is None
     assert all(v["source"].startswith("ICH M10") and v["from_memory"] for v in g["values"])
@@ -560,6 +560,7 @@ def test_protocol_digest_covers_sector_criteria_and_is_unchanged_without_them(ma
     plain = normalised(load_study(make_study()).config)
     assert "reanalysis" not in plain and "guideline" not in plain["study"]       # older digests unchanged
     with_isr = normalised(load_study(make_study(ISR_BODY, _isr_files())).config)
-    assert with_isr["reanalysis"] == {"limit_pct": 20.0, "min_fraction": 2 / 3}
+    assert with_isr["reanalysis"] == {"limit_pct": 20.0, "min_fraction": 2 / 3, "study_samples": None,
+                                      "size_rule": "none"}
     stricter = normalised(load_study(make_study(ISR_BODY + "limit_pct = 15\n", _isr_files())).config)
     assert digest(stricter) != digest(with_isr)

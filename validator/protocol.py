@@ -156,7 +156,7 @@ CRITERIA_AND_DESIGN = {
     "selectivity": ("analyte_limit_pct", "internal_standard_limit_pct", "min_lots", "min_fraction"),
     "stability": ("reference", "limit_pct", "judged_on", "min_replicates"),
     "dilution_integrity": ("max_bias_pct", "max_cv_pct", "min_replicates"),
-    "reanalysis": ("limit_pct", "min_fraction"),
+    "reanalysis": ("limit_pct", "min_fraction", "study_samples", "size_rule"),
 }
 # added after protocols were first written (issues #13 and #15): a section absent, or a key null, is
 # left out of the normalised dict, so that the digest of a study that does not use them is unchanged

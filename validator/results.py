@@ -279,9 +279,9 @@ def build_results(result, *, generated_at: str) -> dict:
 
 def _guideline(name: str, uses) -> dict:
     """``[study] guideline``: the preset, and each of its values used or overridden by the study."""
-    from .sector.presets import PRESETS
+    from .sector.presets import PRESETS, supplied_note
 
-    return {"name": name, "title": PRESETS[name].title,
+    return {"name": name, "title": PRESETS[name].title, "note": supplied_note(name, uses),
             "values": [{"key": u.key, "preset_value": u.preset_value, "study_value": u.study_value,
                         "used": u.used, "source": u.source, "from_memory": u.from_memory} for u in uses]}
 

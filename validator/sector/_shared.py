@@ -15,7 +15,7 @@ from scipy import stats
 from .._common import ConfidenceInterval, quiet_numpy
 
 __all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "as_float_array", "labels", "check_count", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
-           "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided"]
+           "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided", "number_id"]
 
 
 # results beyond this magnitude are refused: their squares and sums stay far inside the float range
@@ -174,6 +174,13 @@ def fieller_ratio_interval(numerator: float, denominator: float, var_numerator: 
     if not (math.isfinite(low) and math.isfinite(high)):
         return None, out
     return ConfidenceInterval(low=low, high=high, level=level), ""
+
+
+def number_id(value: float) -> str:
+    """A number as written in a criterion id: ``f"{value:g}"`` when that reads back as the same number,
+    else the shortest text that does (``repr``), so that two different nominals never share an id."""
+    short = f"{float(value):g}"
+    return short if float(short) == float(value) else repr(float(value))
 
 
 def t_quantile_two_sided(level: float, df: float) -> float:

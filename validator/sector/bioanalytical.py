@@ -54,12 +54,16 @@ class CarryOver:
     """
 
     analyte_percent: tuple[float, ...]    # each blank injection, % of the mean LLOQ analyte response
-    internal_standard_percent: tuple[float, ...] | None
+    internal_standard_percent: tuple[float, ...] | None = field(metadata={"null_reason": "internal_standard_reason"})
     max_analyte_percent: float            # the largest of analyte_percent
-    max_internal_standard_percent: float | None
-    analyte_limit_percent: float
-    internal_standard_limit_percent: float
-    passed: bool
+    max_internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    analyte_limit_percent: float = 20.0
+    internal_standard_limit_percent: float = 5.0
+    passed: bool = False
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return "no internal-standard responses were given, so the IS part is not judged"
 
 
 def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=None,
@@ -107,8 +111,12 @@ def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=No
 class SelectivityLot:
     lot: str
     analyte_percent: float                # largest blank analyte response of the lot, % of LLOQ response
-    internal_standard_percent: float | None
-    passed: bool
+    internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    passed: bool = False
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return "no internal-standard responses were given, so the IS part is not judged"
 
 
 @dataclass(frozen=True)
@@ -233,7 +241,9 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
     Against fresh: deviation = 100 (R - 1), R = mean_stored / mean_fresh, with
     Fieller's interval for R (variances s^2/n of each mean, covariance 0) and
     the Welch-Satterthwaite df of mean_stored - R mean_fresh at the estimate
-    (approximate). Too few results give ``passed = None`` with a reason.
+    (approximate). Too few results give ``passed = None`` with a reason; so do, on the
+    interval basis, identical results (SD exactly 0, stored or fresh): their interval has
+    no width because the spread is below the resolution of the values, not because it is small.
     """
     if (nominal is None) == (fresh is None):
         raise ValueError("stability: give exactly one of nominal and fresh")
@@ -247,6 +257,16 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
     fresh_values = as_float_array(fresh, "fresh") if fresh is not None else None
     s = mean_sd_cv(x)
     reference = "nominal" if nominal is not None else "fresh"
+    f_summary = mean_sd_cv(fresh_values) if fresh_values is not None else None
+
+    def no_spread() -> str:
+        """Why an interval from identical results shows nothing ("" when both sets have spread)."""
+        sets = [("stored", s)] + ([("fresh", f_summary)] if f_summary is not None else [])
+        flat = [name for name, m in sets if m.sd == 0]
+        if not flat:
+            return ""
+        return (f"the {' and '.join(flat)} results show no spread at all (SD exactly 0): the spread is below the "
+                "resolution of the reported values, so a confidence interval of zero width shows nothing")
 
     def result(ref_mean, dev, ci, df, reason="", interval_reason=""):
         passed = None
@@ -261,6 +281,8 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
                 passed = abs(dev) <= lim
             elif ci is None:
                 reason = interval_reason or "no confidence interval to judge on"
+            elif no_spread():
+                reason = no_spread()
             else:
                 passed = -lim <= ci.low and ci.high <= lim
         return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed,
@@ -298,7 +320,13 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
 # ----------------------------------------------------------------------------- dilution integrity
 @dataclass(frozen=True)
 class DilutionIntegrity:
-    """Diluted over-range QCs after multiplying by the dilution factor."""
+    """Diluted over-range QCs after multiplying by the dilution factor.
+
+    ``accuracy_passed`` and ``cv_passed`` judge the two parts apart: a mean bias beyond its limit
+    fails even when the CV cannot be computed. ``passed`` is ``False`` when either part fails,
+    ``None`` when neither fails but one is not judged (``reason`` for the whole level,
+    ``cv_reason`` for the CV alone), else ``True``.
+    """
 
     dilution_factor: float
     nominal: float
@@ -307,11 +335,14 @@ class DilutionIntegrity:
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None
-    cv_percent: float | None
-    max_bias_percent: float
-    max_cv_percent: float
-    passed: bool | None
+    cv_percent: float | None = field(metadata={"null_reason": "cv_reason"})
+    max_bias_percent: float = 15.0
+    max_cv_percent: float = 15.0
+    passed: bool | None = None
     reason: str = ""
+    accuracy_passed: bool | None = None
+    cv_passed: bool | None = field(default=None, metadata={"null_reason": "cv_reason"})
+    cv_reason: str = ""
 
 
 def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: float, *,
@@ -332,7 +363,10 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     Notes
     -----
     back-calculated = measured x factor; accuracy = 100 mean / nominal;
-    CV = 100 SD / mean.
+    CV = 100 SD / mean. With at least ``min_replicates`` results the accuracy is
+    judged whenever the mean exists; the CV is not judged when the mean is zero
+    (CV undefined) or the results are identical (SD exactly 0: no spread at all,
+    below the resolution of the values, as precision on main).
     """
     factor = check_positive(dilution_factor, "dilution_factor")
     if factor < 1:
@@ -344,21 +378,31 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     with quiet_numpy():
         back = as_float_array(measured_in_diluted, "measured_in_diluted") * factor
     s = mean_sd_cv(back)
+    common = dict(dilution_factor=factor, nominal=nom, n=s.n, back_calculated=tuple(float(v) for v in back),
+                  max_bias_percent=b_lim, max_cv_percent=c_lim)
     if s.n == 0:
-        return DilutionIntegrity(factor, nom, 0, (), None, None, None, None, b_lim, c_lim, None, "no results")
+        return DilutionIntegrity(**common, mean=None, accuracy_percent=None, bias_percent=None, cv_percent=None,
+                                 reason="no results")
     acc = None if s.mean is None else 100.0 * s.mean / nom
     if acc is None or not math.isfinite(acc):
-        return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), None, None, None, None,
-                                 b_lim, c_lim, None, OUT_OF_RANGE)
-    reason, passed = "", None
+        return DilutionIntegrity(**common, mean=None, accuracy_percent=None, bias_percent=None, cv_percent=None,
+                                 reason=OUT_OF_RANGE)
+    values = dict(mean=s.mean, accuracy_percent=acc, bias_percent=acc - 100, cv_percent=s.cv_percent)
     if s.n < min_rep:
-        reason = f"{s.n} diluted QCs, at least {min_rep} needed"
-    elif s.cv_percent is None:
-        reason = "CV undefined (zero mean)"
+        return DilutionIntegrity(**common, **values, reason=f"{s.n} diluted QCs, at least {min_rep} needed")
+    acc_ok = abs(acc - 100) <= b_lim
+    cv_ok, cv_reason = None, ""
+    if s.cv_percent is None:
+        cv_reason = ("CV undefined: the mean is zero" if s.sd is not None and s.mean == 0
+                     else "CV undefined: " + OUT_OF_RANGE)
+    elif s.sd == 0:
+        cv_reason = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
+                     "reported values, so the CV is not shown")
     else:
-        passed = abs(acc - 100) <= b_lim and s.cv_percent <= c_lim
-    return DilutionIntegrity(factor, nom, s.n, tuple(float(v) for v in back), s.mean, acc, acc - 100,
-                             s.cv_percent, b_lim, c_lim, passed, reason)
+        cv_ok = s.cv_percent <= c_lim
+    passed = False if (not acc_ok or cv_ok is False) else (None if cv_ok is None else True)
+    return DilutionIntegrity(**common, **values, passed=passed, reason=cv_reason if passed is None else "",
+                             accuracy_passed=acc_ok, cv_passed=cv_ok, cv_reason=cv_reason)
 
 
 # ----------------------------------------------------------------------------- incurred-sample reanalysis
@@ -397,10 +441,23 @@ class IncurredSampleReanalysis:
     passed: bool | None
     notes: tuple[str, ...] = ()
     reason: str = ""
+    # the number of study samples, when given, and the reanalysed samples ICH M10 asks for (from memory,
+    # sec. 5: 10 % of the first 1000 and 5 % beyond); a verdict needs n_judged >= required_samples
+    study_samples: int | None = field(default=None, metadata={"null_reason": "size_reason"})
+    required_samples: int | None = field(default=None, metadata={"null_reason": "size_reason"})
+    size_rule: str = "none"
+
+    @property
+    def size_reason(self) -> str:
+        return "the number of study samples ([reanalysis] study_samples) was not given, so the ISR size is not checked"
+
+
+SIZE_RULES = ("none", "ich-m10")
 
 
 def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
-                               min_fraction: float = 2 / 3, sample=None) -> IncurredSampleReanalysis:
+                               min_fraction: float = 2 / 3, sample=None, study_samples: int | None = None,
+                               size_rule: str = "none") -> IncurredSampleReanalysis:
     """Incurred-sample reanalysis (ICH M10 sec. 5, from memory: within +/-20 % for chromatography,
     +/-30 % for ligand-binding assays, in at least two-thirds of the repeats).
 
@@ -414,9 +471,18 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
     difference overflows. passed = n_within / n_judged >= min_fraction,
     compared exactly. Fewer than ``FEW_REANALYSED_SAMPLES`` judged samples are
     stated in ``notes`` (the verdict stands).
+
+    ISR size: with ``study_samples`` given, fewer judged samples than
+    :func:`reanalysis_sample_count` asks for give no verdict (``passed``
+    ``None`` with the reason). ``size_rule = "ich-m10"`` (set by the ICH M10
+    preset) makes ``study_samples`` necessary for a verdict: without it the
+    reanalysis cannot be shown to be of the size M10 asks for.
     """
     lim = check_positive(limit_percent, "limit_percent")
     frac = check_fraction(min_fraction, "min_fraction", low_open=True, high_open=False)
+    if size_rule not in SIZE_RULES:
+        raise ValueError(f"size_rule must be one of {SIZE_RULES!r}, got {size_rule!r}")
+    required = None if study_samples is None else reanalysis_sample_count(check_count(study_samples, "study_samples"))
     o = as_float_array(original, "original")
     r = as_float_array(repeat, "repeat")
     if o.size != r.size:
@@ -454,15 +520,24 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
                      f"{100 / n_judged:.3g} percentage points; ICH M10 sizes ISR as 10 % of the first 1000 study "
                      "samples and 5 % beyond (from memory, sec. 5)")
     common = dict(samples=tuple(rows), n=n, n_judged=n_judged, n_within=n_within, n_undefined=n_undef,
-                  limit_percent=lim, min_fraction=frac, notes=tuple(notes))
+                  limit_percent=lim, min_fraction=frac, notes=tuple(notes), study_samples=study_samples,
+                  required_samples=required, size_rule=size_rule)
     if n == 0:
         return IncurredSampleReanalysis(**common, fraction_within=None, passed=None, reason="no reanalysed samples")
     if n_judged == 0:
         return IncurredSampleReanalysis(**common, fraction_within=None, passed=None,
                                         reason="no reanalysed sample can be judged: every pair is equal with a "
                                                "mean not above zero")
-    return IncurredSampleReanalysis(**common, fraction_within=n_within / n_judged,
-                                    passed=_at_least(n_within, n_judged, frac))
+    fraction = n_within / n_judged
+    if required is not None and n_judged < required:
+        return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=None, reason=(
+            f"{n_judged} judged reanalysed sample(s), fewer than the {required} ICH M10 asks for with "
+            f"{study_samples} study samples (10 % of the first 1000 and 5 % beyond; from memory, sec. 5)"))
+    if required is None and size_rule == "ich-m10":
+        return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=None, reason=(
+            "the ICH M10 preset sizes ISR from the number of study samples (10 % of the first 1000 and 5 % "
+            "beyond; from memory, sec. 5), which was not given: set [reanalysis] study_samples"))
+    return IncurredSampleReanalysis(**common, fraction_within=fraction, passed=_at_least(n_within, n_judged, frac))
 
 
 def reanalysis_sample_count(n_study_samples: int) -> int:

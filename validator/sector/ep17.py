@@ -34,6 +34,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from scipy import stats
+
 from .._common import quiet_numpy
 from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
 
@@ -41,7 +43,7 @@ __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", 
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
            "limit_of_quantitation", "MINIMUM_RESULTS_PER_LOT", "LOB_METHODS", "PURPOSES",
            "COMBINE_LOTS_FROM", "lot_rule", "verification_shortfall", "VERIFICATION_MINIMUM_RESULTS",
-           "VERIFICATION_MINIMUM_SAMPLES"]
+           "VERIFICATION_MINIMUM_SAMPLES", "AboveBlank", "above_blank", "minimum_count_above_blank"]
 
 LOB_METHODS = ("nonparametric", "parametric")
 PURPOSES = ("establishment", "verification")
@@ -76,11 +78,28 @@ class LotLimit:
     value: float | None
     n_results: int
     n_samples: int
-    mean: float | None = None
+    mean: float | None = field(default=None, metadata={"null_reason": "mean_reason"})
     sd: float | None = None
-    coverage_factor: float | None = None
-    rank: float | None = None
+    coverage_factor: float | None = field(default=None, metadata={"null_reason": "coverage_factor_reason"})
+    rank: float | None = field(default=None, metadata={"null_reason": "rank_reason"})
     reason: str = ""
+    # "nonparametric" or "parametric" (a LoB), "lod"; says why a statistic of another kind is null
+    kind: str = field(default="", metadata={"json": None})
+
+    @property
+    def mean_reason(self) -> str:
+        return ("the LoD pools the within-sample SDs of the low-level samples (SD_L); it uses no mean"
+                if self.kind == "lod" else "")
+
+    @property
+    def coverage_factor_reason(self) -> str:
+        return ("the non-parametric LoB is a rank-interpolated percentile; it uses no coverage factor"
+                if self.kind == "nonparametric" else "")
+
+    @property
+    def rank_reason(self) -> str:
+        return {"parametric": "the parametric LoB (mean + c_p SD) uses no rank",
+                "lod": "the LoD (LoB + c_p SD_L) uses no rank"}.get(self.kind, "")
 
 
 def _combined_reason(part) -> str:
@@ -114,6 +133,22 @@ class LimitOfBlank:
 
 
 @dataclass(frozen=True)
+class AboveBlank:
+    """How many low-level results of one lot (or of all lots combined) lie above the LoB.
+
+    ``minimum_count`` is the fewest results above the LoB consistent with the LoD's definition (95 %
+    of a sample at the LoD above the LoB); ``passed`` is ``n_above >= minimum_count``.
+    """
+
+    lot: str
+    n: int
+    n_above: int
+    fraction: float
+    minimum_count: int
+    passed: bool
+
+
+@dataclass(frozen=True)
 class LimitOfDetection:
     """The LoD of each lot and the reported value, by ``lot_rule`` (as for :class:`LimitOfBlank`)."""
 
@@ -125,10 +160,17 @@ class LimitOfDetection:
     purpose: str = "establishment"
     notes: tuple[str, ...] = ()
     reason: str = ""
+    # the low-level results above the LoB, per lot (all lots combined from COMBINE_LOTS_FROM lots)
+    above_blank: tuple[AboveBlank, ...] = ()
 
     @property
     def combined_reason(self) -> str:
         return _combined_reason(self)
+
+    @property
+    def above_blank_passed(self) -> bool:
+        """Every lot (or the lots combined) has at least the minimum count of results above the LoB."""
+        return all(a.passed for a in self.above_blank)
 
 
 @dataclass(frozen=True)
@@ -153,11 +195,23 @@ class LimitOfQuantitation:
 
     value: float | None
     levels: tuple[QuantitationLevel, ...]
-    max_cv_percent: float | None
-    max_total_error: float | None
-    limit_of_detection: float | None
+    max_cv_percent: float | None = field(metadata={"null_reason": "max_cv_percent_reason"})
+    max_total_error: float | None = field(metadata={"null_reason": "max_total_error_reason"})
+    limit_of_detection: float | None = field(metadata={"null_reason": "limit_of_detection_reason"})
     notes: tuple[str, ...] = ()
     reason: str = ""
+
+    @property
+    def max_cv_percent_reason(self) -> str:
+        return "no precision goal (loq_max_cv_pct) was declared"
+
+    @property
+    def max_total_error_reason(self) -> str:
+        return "no total-error goal (loq_max_total_error) was declared"
+
+    @property
+    def limit_of_detection_reason(self) -> str:
+        return "no LoD was available to set the LoQ's floor"
 
 
 def coverage_factor(n_results: int, n_samples: int, *, normal_quantile: float = EP17_NORMAL_QUANTILE) -> float:
@@ -304,26 +358,64 @@ def verification_shortfall(sample, lot, kind: str) -> str:
     return ""
 
 
+# the LoD's definition: a sample at the LoD gives results above the LoB with probability 1 - beta = 0.95;
+# an observed count is accepted unless it is significantly (one-sided 5 %) below that
+ABOVE_BLANK_PROPORTION = 0.95
+ABOVE_BLANK_ALPHA = 0.05
+
+
+def minimum_count_above_blank(n: int) -> int:
+    """The fewest of ``n`` low-level results above the LoB that still verify an LoD.
+
+    Notes
+    -----
+    The smallest k with P(X <= k) >= 0.05 for X ~ Binomial(n, 0.95): fewer results above the LoB
+    are significantly (one-sided, 5 %) below the 95 % the LoD's definition requires. This gives
+    17 of 20 (85 %), 26 of 30, 36 of 40 and 54 of 60 (from memory: the table of minimum
+    proportions of CLSI EP17-A2 for verifying an LoD claim, sec. 6, lists 85 % for 20 results).
+    """
+    if n < 1:
+        raise ValueError(f"minimum_count_above_blank: n must be >= 1, got {n!r}")
+    return int(stats.binom.ppf(ABOVE_BLANK_ALPHA, n, ABOVE_BLANK_PROPORTION))
+
+
+def above_blank(low_level_results, limit_of_blank: float, *, lot=None) -> tuple[AboveBlank, ...]:
+    """Count the low-level results strictly above the LoB, per lot (by :func:`lot_rule`: all lots
+    combined from four lots), each against :func:`minimum_count_above_blank`."""
+    values = as_float_array(low_level_results, "low_level_results")
+    lots = _labels(lot, values.size, "lot", "1")
+    names = list(dict.fromkeys(lots))
+    groups = ([(COMBINED, np.ones(values.size, dtype=bool))] if lot_rule(len(names)) == "lots combined"
+              else [(str(n), lots == n) for n in names])
+    out = []
+    for name, mask in groups:
+        n = int(mask.sum())
+        k = int(np.sum(values[mask] > limit_of_blank))
+        need = minimum_count_above_blank(n)
+        out.append(AboveBlank(name, n, k, k / n, need, k >= need))
+    return tuple(out)
+
+
 def _lob_of(name: str, v: np.ndarray, s: np.ndarray, method: str, p: float, normal_quantile: float) -> LotLimit:
     """The LoB of one set of blank results (one lot, or all lots combined)."""
     k = len(set(s))
     summary = mean_sd_cv(v)
     if method == "nonparametric":
         val, rank, why = nonparametric_percentile(v, p)
-        return LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why)
+        return LotLimit(name, val, int(v.size), k, summary.mean, summary.sd, None, rank, why, kind=method)
     if v.size - k < 1 or summary.sd is None:
-        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, kind=method, reason=(
             f"{v.size} blank results from {k} samples: the parametric LoB needs more results than samples"))
     if summary.sd == 0:
-        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, reason=(
+        return LotLimit(name, None, int(v.size), k, summary.mean, summary.sd, kind=method, reason=(
             f"the {v.size} blank results are all {summary.mean:g} (SD 0): such data are censored or identical, "
             "so mean + c_p SD estimates no percentile; the non-parametric LoB is the CLSI EP17-A2 route "
             "(method = \"nonparametric\")"))
     cp = coverage_factor(int(v.size), k, normal_quantile=normal_quantile)
     value = summary.mean + cp * summary.sd
     if not math.isfinite(value):
-        return LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE)
-    return LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp)
+        return LotLimit(name, None, int(v.size), k, reason=OUT_OF_RANGE, kind=method)
+    return LotLimit(name, value, int(v.size), k, summary.mean, summary.sd, cp, kind=method)
 
 
 def _reported(results: list, combined: LotLimit | None, what: str) -> tuple[float | None, str]:
@@ -400,13 +492,17 @@ def _lod_of(name: str, v: np.ndarray, s: np.ndarray, lob: float, normal_quantile
     j = len(set(s))
     sd, df = _pooled_sd(v, s)
     if sd is None or df < 1:
-        return LotLimit(name, None, int(v.size), j, None, None, reason=(
+        return LotLimit(name, None, int(v.size), j, None, None, kind="lod", reason=(
             f"{v.size} low-level results from {j} samples: no sample has two results, so SD_L cannot be pooled"))
+    if sd == 0:
+        return LotLimit(name, None, int(v.size), j, None, sd, kind="lod", reason=(
+            f"the {v.size} low-level results show no spread within any sample (SD_L = 0): identical results are "
+            "below the resolution of the reported values, so LoB + c_p SD_L estimates no limit of detection"))
     cp = coverage_factor(int(v.size), j, normal_quantile=normal_quantile)
     value = float(lob) + cp * sd
     if not math.isfinite(value):
-        return LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE)
-    return LotLimit(name, value, int(v.size), j, None, sd, cp)
+        return LotLimit(name, None, int(v.size), j, reason=OUT_OF_RANGE, kind="lod")
+    return LotLimit(name, value, int(v.size), j, None, sd, cp, kind="lod")
 
 
 def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=None,
@@ -433,7 +529,11 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     or more, SD_L pooled over all lots' results combined (a sample label
     measured on several lots is one sample, so lot-to-lot differences enter
     SD_L), L all results and J the distinct samples. The homogeneity of the
-    samples' SDs (which pooling assumes) is not tested here.
+    samples' SDs (which pooling assumes) is not tested here. ``above_blank`` counts the low-level
+    results above the LoB (:func:`above_blank`): by the LoD's definition at least 95 % of results of
+    a sample at the LoD lie above the LoB, so too few above it means the low-level samples do not
+    support an LoD (their SD describes samples indistinguishable from the blanks). Low-level results
+    with no spread (SD_L = 0) give no LoD.
     """
     _check_choice(purpose, "purpose", PURPOSES)
     check_positive(normal_quantile, "normal_quantile")
@@ -459,7 +559,8 @@ def limit_of_detection(low_level_results, sample, limit_of_blank: float, *, lot=
     combined = _lod_of(COMBINED, values, samples, lob, normal_quantile) if rule == "lots combined" else None
     value, reason = _reported(results, combined, "LoD")
     return LimitOfDetection(value=value, limit_of_blank=float(lob), lot_rule=rule, lots=tuple(results),
-                            combined=combined, purpose=purpose, notes=notes, reason=reason)
+                            combined=combined, purpose=purpose, notes=notes, reason=reason,
+                            above_blank=above_blank(values, float(lob), lot=list(lots)))
 
 
 def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | None = None,
@@ -490,8 +591,8 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
     and above which every tested level meets it too (a level that fails above
     a passing one is named in the notes). If that level lies below the LoD,
     the LoQ is the LoD (EP17-A2: LoQ >= LoD). A level's CV needs at least two
-    results; a level without the needed statistic breaks the run of passing
-    levels.
+    results; a level without the needed statistic, or whose results are all
+    equal (SD 0: no spread at all), breaks the run of passing levels.
     """
     if max_cv_percent is None and max_total_error is None:
         raise ValueError("limit_of_quantitation: give max_cv_percent, max_total_error or both, got neither")
@@ -537,6 +638,12 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
             else:
                 verdicts.append(te <= max_total_error)
         meets = None if None in verdicts else all(verdicts)
+        if m.sd == 0:
+            # identical results: the spread is below the resolution of the reported values, so neither a
+            # CV of 0 nor a total error of |bias| shows the goal is met
+            meets = None
+            why.append(f"the {m.n} results are all {m.mean:g} (SD 0): no spread at all, so the accuracy goal "
+                       "is not judged")
         levels.append(QuantitationLevel(str(s), nom, m.n, m.mean, m.sd, m.cv_percent, bias, te, meets,
                                         "; ".join(why)))
     levels.sort(key=lambda lv: lv.nominal)

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
+from ._shared import (MeanSummary, check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
                       t_quantile_two_sided)
 
 __all__ = ["SlopeRatioMatrixEffect", "slope_ratio_matrix_effect", "LotAccuracy", "LotAccuracyAssessment",
@@ -207,9 +207,16 @@ class LotAccuracy:
     mean: float | None
     accuracy_percent: float | None       # 100 mean / nominal
     bias_percent: float | None           # accuracy - 100
-    cv_percent: float | None
-    passed: bool | None
+    cv_percent: float | None = field(metadata={"null_reason": "cv_reason"})
+    passed: bool | None = None
     reason: str = ""
+
+    @property
+    def cv_reason(self) -> str:
+        if self.cv_percent is not None or self.mean is None:
+            return ""
+        return ("CV undefined: fewer than two results" if self.n < 2 else
+                "CV undefined: the mean is zero" if self.mean == 0 else f"CV undefined: {OUT_OF_RANGE}")
 
 
 @dataclass(frozen=True)
@@ -249,8 +256,11 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
     -----
     Per lot: accuracy = 100 mean / nominal, CV = 100 SD / mean. The level
     passes when every lot passes and there are at least ``min_lots`` lots. A
-    lot with fewer than ``min_replicates`` results, or too few for a CV, is
-    not judged (``passed`` is ``None``), and neither is the level.
+    lot with fewer than ``min_replicates`` results is not judged (``passed`` is
+    ``None``), and neither is the level; a lot whose accuracy is outside the
+    limit fails (and the level with it) even when its CV is undefined (zero
+    mean) or not shown (identical results, SD 0), which otherwise leave the lot
+    not judged.
     """
     nom = check_positive(nominal, "nominal")
     check_positive(max_bias_percent, "max_bias_percent")
@@ -266,12 +276,21 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
         if acc is None or not math.isfinite(acc):
             out.append(LotAccuracy(str(name), m.n, m.mean, None, None, None, None, OUT_OF_RANGE))
             continue
-        if m.n < min_rep or m.cv_percent is None:
+        if m.n < min_rep:
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
-                                   f"{m.n} results, at least {min_rep} needed" if m.n < min_rep
-                                   else "CV undefined (zero mean)"))
+                                   f"{m.n} results, at least {min_rep} needed"))
             continue
-        ok = abs(acc - 100.0) <= max_bias_percent and m.cv_percent <= max_cv_percent
+        if abs(acc - 100.0) > max_bias_percent:
+            # a clear failure whose value exists: it fails whether or not the CV can be judged
+            out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, False))
+            continue
+        if m.cv_percent is None or m.sd == 0:
+            out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
+                                   "CV undefined (zero mean)" if m.cv_percent is None else
+                                   "the results show no spread at all (SD exactly 0): the spread is below the "
+                                   "resolution of the reported values, so the CV is not shown"))
+            continue
+        ok = m.cv_percent <= max_cv_percent
         out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, ok))
     n_pass = sum(1 for o in out if o.passed)
     if any(o.passed is False for o in out):
@@ -327,7 +346,9 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
     -----
     Per lot: MF_analyte = mean(analyte in matrix) / mean(analyte neat),
     MF_IS likewise, IS-normalised MF = MF_analyte / MF_IS. The CV is
-    100 SD / mean of the lots' normalised factors (n - 1 SD).
+    100 SD / mean of the lots' normalised factors (n - 1 SD), computed on the
+    factors divided by the largest (the CV does not depend on the scale), so
+    that factors whose squares overflow still give it.
     """
     check_positive(max_cv_percent, "max_cv_percent")
     min_lots = check_count(min_lots, "min_lots", 2)
@@ -355,11 +376,22 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
         rows.append(MatrixFactorLot(str(name), mfa, mfs, norm if math.isfinite(norm) else None))
     if any(r.normalised_factor is None for r in rows):
         bad = next(r for r in rows if r.normalised_factor is None)
-        return none(f"lot {bad.lot}: the IS matrix factor is zero or the factors overflow", rows)
-    summary = mean_sd_cv(np.array([r.normalised_factor for r in rows]))
+        return none(f"lot {bad.lot}: " + ("the IS matrix factor is zero" if bad.internal_standard_factor == 0
+                                          else f"its factors: {OUT_OF_RANGE}"), rows)
+    factors = np.array([r.normalised_factor for r in rows])
+    # the CV does not depend on the scale: computed on factors divided by the largest, so that factors of
+    # any magnitude (their squares may overflow) give it; the mean is that of the unscaled factors
+    scale = float(np.max(np.abs(factors)))
+    summary = mean_sd_cv(factors / scale) if scale > 0 else mean_sd_cv(factors)
+    mean = None if summary.mean is None else summary.mean * scale
+    if len(rows) < 2:
+        return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None,
+                                      f"{len(rows)} lot: the CV across lots needs at least two")
     if summary.cv_percent is None:
-        return NormalisedMatrixFactor(tuple(rows), summary.mean, None, float(max_cv_percent), min_lots, None,
-                                      f"{len(rows)} lot(s): the CV across lots needs at least two")
+        why = ("the mean of the normalised factors is zero, so their CV is undefined" if summary.mean == 0
+               else OUT_OF_RANGE)
+        return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None, why)
+    summary = MeanSummary(summary.n, mean, summary.sd, summary.cv_percent)
     if len(rows) < min_lots:
         return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
                                       min_lots, None, f"{len(rows)} matrix lots, at least {min_lots} needed")

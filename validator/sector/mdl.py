@@ -19,12 +19,12 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
 
-from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, mean_sd_cv
+from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
 
 __all__ = ["MethodDetectionLimit", "method_detection_limit", "MINIMUM_SPIKED", "BLANK_RANK_THRESHOLD"]
 
@@ -56,27 +56,55 @@ class MethodDetectionLimit:
 
     value: float | None
     spiked: float | None               # MDL_s
-    blank: float | None                # MDL_b
-    blank_rule: str
-    n_spiked: int
-    n_blanks: int
-    n_blanks_numerical: int
-    spiked_sd: float | None            # S_s
-    spiked_t: float | None             # t(n_s - 1, 1 - alpha)
-    blank_mean: float | None           # X-bar of the blanks (before the "negative means zero" rule)
-    blank_sd: float | None             # S_b
-    blank_t: float | None
-    blank_rank: int | None             # the rank used by the "ranked blank" rule (1-based, ascending)
-    confidence: float
+    blank: float | None = field(metadata={"null_reason": "blank_reason"})               # MDL_b
+    blank_rule: str = "none numerical"
+    n_spiked: int = 0
+    n_blanks: int = 0
+    n_blanks_numerical: int = 0
+    spiked_sd: float | None = None     # S_s
+    spiked_t: float | None = None      # t(n_s - 1, 1 - alpha)
+    # X-bar of the blanks (before the "negative means zero" rule), S_b, t: only for the rule "mean + t s"
+    blank_mean: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    blank_sd: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    blank_t: float | None = field(default=None, metadata={"null_reason": "blank_statistics_reason"})
+    # the rank used by the "ranked blank" rule (1-based, ascending)
+    blank_rank: int | None = field(default=None, metadata={"null_reason": "blank_rank_reason"})
+    confidence: float = 0.99
     notes: tuple[str, ...] = ()
     reason: str = ""
     # which reading of the 100-blank threshold was used ("" unless some but not all blanks are
     # numerical); at exactly 100 blanks it also gives the value of the other reading
     blank_rule_reading: str = ""
+    # the concentration the samples were spiked at, when given (the MDL is checked against it)
+    spike_level: float | None = field(default=None, metadata={"null_reason": "spike_level_reason"})
+
+    @property
+    def blank_reason(self) -> str:
+        if self.blank_rule == "none numerical":
+            return "no method blank gave a numerical result: MDL_b does not apply"
+        why = [n for n in self.notes if "MDL_b does not apply" in n]
+        return why[0] if why else ""
+
+    @property
+    def blank_statistics_reason(self) -> str:
+        if self.blank_rule != "mean + t s":
+            return (f"not every method blank gave a numerical result (rule: {self.blank_rule}): the mean, SD and t "
+                    "of the blanks are used only when all are numerical")
+        return self.blank_reason
+
+    @property
+    def blank_rank_reason(self) -> str:
+        return (f"the rank is used only when some of more than {BLANK_RANK_THRESHOLD} method blanks are numerical "
+                f"(rule here: {self.blank_rule})")
+
+    @property
+    def spike_level_reason(self) -> str:
+        return "no spike level was given (optional column spike_level of the spiked-sample file)"
 
 
 def method_detection_limit(spiked_results, blank_results, *, confidence: float = 0.99,
-                           spiked_batches=None, blank_batches=None) -> MethodDetectionLimit:
+                           spiked_batches=None, blank_batches=None,
+                           spike_level: float | None = None) -> MethodDetectionLimit:
     """Initial MDL by 40 CFR Part 136 Appendix B, Revision 2.
 
     Parameters
@@ -93,6 +121,8 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         The preparation batch of each result; when given, fewer than three
         distinct batches is stated in ``notes`` (from memory: II(2) asks for
         samples prepared and analysed in at least three batches on separate dates).
+    spike_level : float, optional
+        The concentration the samples were spiked at; an MDL above it gives no MDL.
 
     Notes
     -----
@@ -109,9 +139,14 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
       - all do: MDL_b = X_b + t(n_b - 1, 1 - alpha) S_b, with X_b taken as 0
         when it is negative.
     * MDL = max(MDL_s, MDL_b), or MDL_s when MDL_b does not apply.
-    Fewer than seven spiked samples give no MDL (value ``None``); fewer than
-    seven blanks, or a spiked result that is not above zero (the rule then asks
-    to repeat at a higher spike level), is stated in ``notes``.
+    Fewer than seven spiked samples give no MDL (value ``None``); so does a
+    spiked result that is not a numerical result above zero (from memory:
+    Appendix B Rev. 2, II(2): such a result means the spiked samples are to be
+    repeated at a higher concentration, so they do not determine an MDL), and
+    an MDL above the spike level, when it is given (from memory: Appendix B,
+    the spike level must lie above the MDL it determines, else the spiked
+    samples are repeated at a higher level). Fewer than seven blanks are
+    stated in ``notes``.
     """
     conf = check_fraction(confidence, "confidence", low=0.5, high=1.0)
     spiked = as_float_array(spiked_results, "spiked_results")
@@ -130,9 +165,9 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         if len(set(labels)) < MINIMUM_BATCHES:
             notes.append(f"{kind} samples from {len(set(labels))} batch(es), fewer than the "
                          f"{MINIMUM_BATCHES} Appendix B asks for")
-    if n_s and np.any(spiked <= 0):
-        notes.append("a spiked result is not above zero: Appendix B asks to repeat the spiked samples "
-                     "at a higher concentration")
+    if spike_level is not None:
+        spike_level = check_positive(spike_level, "spike_level")
+    not_positive = int(np.sum(spiked <= 0))
 
     # MDL_s
     s = mean_sd_cv(spiked)
@@ -188,5 +223,15 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         value, reason = None, f"MDL_s not available: {reason_s}"
     else:
         value, reason = (mdl_s if mdl_b is None else max(mdl_s, mdl_b)), ""
+    if n_s >= MINIMUM_SPIKED and not_positive:
+        # from memory: Appendix B Rev. 2, II(2): every spiked result must be a numerical result above zero,
+        # else the spiked samples are repeated at a higher concentration
+        value, reason = None, (f"{not_positive} of {n_s} spiked results are not above zero (mean "
+                               f"{s.mean:.4g}): the spiked samples are not distinguished from zero, and 40 CFR 136 "
+                               "Appendix B asks to repeat them at a higher concentration (from memory: II(2))")
+    elif value is not None and spike_level is not None and value > spike_level:
+        value, reason = None, (f"the MDL, {value:.4g}, lies above the spike level {spike_level:g}: the spiked "
+                               "samples do not determine it; 40 CFR 136 Appendix B asks to repeat them at a higher "
+                               "concentration (from memory)")
     return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
-                                rank, conf, tuple(notes), reason, reading)
+                                rank, conf, tuple(notes), reason, reading, spike_level)

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["PresetValue", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve"]
+__all__ = ["PresetValue", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve", "supplied_note"]
 
 
 @dataclass(frozen=True)
@@ -76,6 +76,9 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
         # least two-thirds of the repeats (chromatography)
         PresetValue("reanalysis.limit_pct", 20.0, f"{_M10} sec. 5", True),
         PresetValue("reanalysis.min_fraction", 2 / 3, f"{_M10} sec. 5", True),
+        # from memory: ICH M10 sec. 5: ISR on 10 % of the first 1000 study samples and 5 % beyond, so a
+        # verdict needs the number of study samples ([reanalysis] study_samples)
+        PresetValue("reanalysis.size_rule", "ich-m10", f"{_M10} sec. 5", True),
     )),
     Preset("sante-11312-2021", _SANTE, (
         # from memory: SANTE/11312/2021 (matrix effects, sec. on calibration / Appendix A glossary): an
@@ -128,3 +131,13 @@ def resolve(name: str, declared_sections: dict) -> tuple[dict, tuple[PresetUse, 
             updates.setdefault(section, {})[key] = pv.value
             uses.append(PresetUse(pv.key, pv.value, None, True, pv.source, pv.from_memory))
     return updates, tuple(uses)
+
+
+def supplied_note(name: str, uses: tuple[PresetUse, ...]) -> str:
+    """"" when the preset has values for a section the study declares; else a sentence saying it supplied
+    nothing and which sections it covers (a preset that silently does nothing reads as if it applied)."""
+    if uses:
+        return ""
+    sections = list(dict.fromkeys(pv.key.split(".", 1)[0] for pv in PRESETS[name].values))
+    return (f"the preset supplied nothing: it has values only for {', '.join(f'[{s}]' for s in sections)}, "
+            "none of which this study declares; every criterion comes from the study file or the tool's defaults")

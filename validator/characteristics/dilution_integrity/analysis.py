@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ...criteria import Criterion
+from ...sector._shared import number_id
 from ...sector.bioanalytical import DilutionIntegrity, dilution_integrity
 
 __all__ = ["DilutionResult", "assess_dilution", "dilution_criteria"]
@@ -25,18 +26,17 @@ def assess_dilution(data, *, max_bias_pct: float, max_cv_pct: float, min_replica
 
 def dilution_criteria(result: DilutionResult) -> tuple[Criterion, ...]:
     """Per factor and nominal: ``dilution-accuracy-<factor>x-<nominal>`` (bias within ±max_bias_pct) and
-    ``dilution-cv-<factor>x-<nominal>`` (CV at most max_cv_pct); not applicable with too few replicates."""
+    ``dilution-cv-<factor>x-<nominal>`` (CV at most max_cv_pct), judged apart: both not applicable with too
+    few replicates; the CV alone when it is undefined (zero mean) or shows no spread (SD 0)."""
     out = []
     for lv in result.levels:
-        tag = f"{lv.dilution_factor:g}x-{lv.nominal:g}"
-        judged = lv.passed is not None
-        note = "" if judged else f"not applicable: {lv.reason}"
+        tag = f"{number_id(lv.dilution_factor)}x-{number_id(lv.nominal)}"
+        level_note = f"not applicable: {lv.reason}" if lv.accuracy_passed is None else ""
+        cv_note = level_note or (f"not applicable: {lv.cv_reason}" if lv.cv_passed is None else "")
         out.append(Criterion(f"dilution-accuracy-{tag}",
                              f"dilution ×{lv.dilution_factor:g} of nominal {lv.nominal:g}: mean bias after the factor "
                              f"within ±{lv.max_bias_percent:g} %", lv.bias_percent,
-                             [-lv.max_bias_percent, lv.max_bias_percent],
-                             None if not judged else abs(lv.bias_percent) <= lv.max_bias_percent, note))
+                             [-lv.max_bias_percent, lv.max_bias_percent], lv.accuracy_passed, level_note))
         out.append(Criterion(f"dilution-cv-{tag}", f"dilution ×{lv.dilution_factor:g} of nominal {lv.nominal:g}: CV at "
-                             f"most {lv.max_cv_percent:g} %", lv.cv_percent, lv.max_cv_percent,
-                             None if not judged else lv.cv_percent <= lv.max_cv_percent, note))
+                             f"most {lv.max_cv_percent:g} %", lv.cv_percent, lv.max_cv_percent, lv.cv_passed, cv_note))
     return tuple(out)

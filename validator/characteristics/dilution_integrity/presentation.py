@@ -14,8 +14,10 @@ def sentences(entry: dict, reading) -> dict:
         if lv["passed"] is None:
             out[f"level_{i}"] = f"{head}: not judged: {lv['reason']}."
         else:
-            out[f"level_{i}"] = (f"{head}: {lv['n']} QCs, mean accuracy {fmt(lv['accuracy_percent'], 4)} % and CV "
-                                 f"{fmt(lv['cv_percent'], 3)} % after the factor; "
+            cv = (f"CV {fmt(lv['cv_percent'], 3)} %" if lv["cv_passed"] is not None
+                  else f"CV not judged ({lv['cv_reason']})")
+            out[f"level_{i}"] = (f"{head}: {lv['n']} QCs, mean accuracy {fmt(lv['accuracy_percent'], 4)} % and {cv} "
+                                 "after the factor; "
                                  + ("dilution does not affect the result within the limits." if lv["passed"]
                                     else "NOT within the limits."))
     return out

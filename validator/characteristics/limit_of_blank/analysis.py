@@ -76,10 +76,14 @@ def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, 
     """One criterion per declared maximum: ``limit-of-blank``, ``limit-of-detection``,
     ``limit-of-quantitation`` (value at most the maximum).
 
-    Not applicable when the value does not exist, or when the results it rests on are below the
+    Not applicable when the value does not exist, when it is not above zero (no detection
+    capability), when the LoQ's floor, the LoD, does not exist, or when the results it rests on are below the
     EP17-A2 verification minimum (:func:`validator.sector.ep17.verification_shortfall`: the LoB
     on the blank results, the LoD on both, the LoQ on the low-level results). Shortfalls from the
-    establishment design (``notes``) are stated beside a verdict, in the criterion's note.
+    establishment design (``notes``) are stated beside a verdict, in the criterion's note. The LoD
+    fails, whatever its value, when too few low-level results lie above the LoB
+    (:func:`validator.sector.ep17.above_blank`, from memory: CLSI EP17-A2 sec. 6, verification of
+    an LoD claim by the proportion of low-level results above the LoB).
     """
     lob, lod, loq = result.lob, result.lod, result.loq
     blank_short, low_short = result.blank_design_shortfall, result.low_design_shortfall
@@ -88,6 +92,7 @@ def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, 
                "limit-of-quantitation": (list(lod.notes) if lod else []) + (list(loq.notes) if loq else [])}
     shortfall = {"limit-of-blank": blank_short, "limit-of-detection": blank_short or low_short,
                  "limit-of-quantitation": low_short}
+    lod_value = None if lod is None else lod.value
     out = []
     for cid, label, limit, part, reason in (
             ("limit-of-blank", "LoB", lob_max, lob, ""),
@@ -98,13 +103,36 @@ def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, 
         value = None if part is None else part.value
         why = reason or (part.reason if part is not None else "")
         description = f"{label} (CLSI EP17-A2) at most {limit:g}"
+        if cid == "limit-of-detection":
+            description += (", with at least the binomial minimum of low-level results above the LoB "
+                            "(95 % by the LoD's definition, one-sided 5 %)")
         if value is None:
             out.append(Criterion(cid, description, value, limit, None,
                                  f"not applicable: {why or 'it does not exist'}"))
+        elif not value > 0:
+            # a limit at or below zero separates nothing from a blank: it is no detection capability
+            out.append(Criterion(cid, description, value, limit, None,
+                                 f"not applicable: the {label} is {value:g}, not above zero: a limit at or below "
+                                 "zero is not a detection capability (blank results centred at or below zero, or "
+                                 "censored at zero)"))
         elif shortfall[cid]:
             out.append(Criterion(cid, description, value, limit, None, f"not applicable: {shortfall[cid]}"))
+        elif cid == "limit-of-quantitation" and not (lod_value is not None and lod_value > 0):
+            # the LoQ is never below the LoD (EP17-A2); without an LoD that floor cannot be checked
+            floor = (f"the LoD does not exist ({result.lod_reason or lod.reason})" if lod_value is None
+                     else f"the LoD, {lod_value:g}, is not above zero")
+            out.append(Criterion(cid, description, value, limit, None,
+                                 f"not applicable: the LoQ is never below the LoD, and {floor}"))
         else:
             remark = "; ".join(dict.fromkeys(remarks[cid]))
-            out.append(Criterion(cid, description, value, limit, at_most(value, limit),
+            verdict = at_most(value, limit)
+            if cid == "limit-of-detection" and not lod.above_blank_passed:
+                failing = [a for a in lod.above_blank if not a.passed]
+                remark = "; ".join([f"lot {a.lot}: {a.n_above} of {a.n} low-level results above the LoB "
+                                    f"{lod.limit_of_blank:g}, fewer than the {a.minimum_count} needed" for a in failing]
+                                   + ([f"design: {remark}"] if remark else []))
+                out.append(Criterion(cid, description, value, limit, False, remark))
+                continue
+            out.append(Criterion(cid, description, value, limit, verdict,
                                  f"design: {remark}" if remark else ""))
     return tuple(out)

@@ -34,6 +34,13 @@ def sentences(entry: dict, reading) -> dict:
         out["lod"] = (f"Limit of detection {fmt(lod['value'])} {unit} = LoB + c_p·SD of the low-level samples"
                       f"{_lots(lod)}: a sample at this concentration gives a result above the LoB with a "
                       "probability of about 95 %.")
+    if lod is not None:
+        short = [a for a in lod["above_blank"] if not a["passed"]]
+        if short:
+            out["above_blank"] = ("The low-level samples do not support an LoD: " + "; ".join(
+                f"{'all lots' if a['lot'] == 'all lots' else 'lot ' + a['lot']}: {a['n_above']} of {a['n']} results "
+                f"above the LoB, fewer than the {a['minimum_count']} needed" for a in short)
+                + " (at least 95 % of results at the LoD lie above the LoB; binomial, one-sided 5 %).")
     loq = entry["loq"]
     if loq is None:
         out["loq"] = f"No limit of quantitation: {entry['loq_reason']}."

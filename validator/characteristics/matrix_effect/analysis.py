@@ -15,6 +15,7 @@ import numpy as np
 
 from ...criteria import Criterion, interval_within
 from ...maths.regression import WEIGHTED_BY, raw_weights
+from ...sector._shared import number_id
 from ...sector.matrix_effect import (LotAccuracyAssessment, NormalisedMatrixFactor, SlopeRatioMatrixEffect,
                                      lot_accuracy, normalised_matrix_factor, slope_ratio_matrix_effect)
 
@@ -32,6 +33,17 @@ class MatrixEffect:
     normalised_factor: NormalisedMatrixFactor | None = field(metadata={"null_reason": "factor_reason"})
     slope_ratio_reason: str = ""
     factor_reason: str = ""
+    # whether ME % is a criterion (judge_slope_ratio); when it is not, why it is reported only
+    slope_ratio_judged: bool = False
+    slope_ratio_note: str = ""
+
+
+# the slope ratio is reported, not judged, unless judge_slope_ratio = true: why, in results.json and the dossier
+NOT_JUDGED = ("ME % is reported, not judged (judge_slope_ratio = false): its limit (SANTE/11312/2021, from memory) "
+              "decides whether solvent standards may be used for quantification or matrix-matched calibration is "
+              "needed; this study's [calibration] is the matrix-matched one, so a matrix effect beyond the limit "
+              "does not by itself make the method unfit. Set judge_slope_ratio = true to make it a criterion "
+              "(e.g. when results are to be quantified against solvent standards)")
 
 
 def _slope_ratio(data, matrix_concentration, matrix_response, *, level: float, variance: str, limit_pct: float,
@@ -53,7 +65,8 @@ def _slope_ratio(data, matrix_concentration, matrix_response, *, level: float, v
 
 def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, variance: str = "separate",
                   weighting: str = "none", limit_pct: float = 20.0, lot_max_bias_pct: float = 15.0,
-                  lot_max_cv_pct: float = 15.0, min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0) -> MatrixEffect:
+                  lot_max_cv_pct: float = 15.0, min_lots: int = 6, min_replicates: int = 3, factor_max_cv_pct: float = 15.0,
+                  judge_slope_ratio: bool = False) -> MatrixEffect:
     """Each part for which ``data`` (a ``MatrixEffectData``) holds results.
 
     Notes
@@ -92,8 +105,9 @@ def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, 
         factor = normalised_matrix_factor(data.factor_analyte[~neat], data.factor_internal_standard[~neat],
                                           [lot for lot, n in zip(data.factor_lots, neat) if not n],
                                           data.factor_analyte[neat], data.factor_internal_standard[neat],
-                                          max_cv_percent=factor_max_cv_pct, min_lots=max(min_lots, 2))
-    return MatrixEffect(slope, lots, factor, slope_reason, factor_reason)
+                                          max_cv_percent=factor_max_cv_pct, min_lots=min_lots)
+    note = "" if judge_slope_ratio or slope is None else NOT_JUDGED
+    return MatrixEffect(slope, lots, factor, slope_reason, factor_reason, bool(judge_slope_ratio), note)
 
 
 def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, limit_pct: float) -> tuple[Criterion, ...]:
@@ -115,7 +129,7 @@ def matrix_effect_criteria(result: MatrixEffect, *, judge_slope_ratio: bool, lim
                              value, limit, interval_within([value, value], limit) if value is not None else None,
                              "" if value is not None else f"not applicable: {why or 'it does not exist'}"))
     for lv in result.lots:
-        out.append(Criterion(f"matrix-lots-{lv.nominal:g}",
+        out.append(Criterion(f"matrix-lots-{number_id(lv.nominal)}",
                              f"every matrix lot (at least {lv.min_lots}) at nominal {lv.nominal:g}: accuracy within "
                              f"±{lv.max_bias_percent:g} % and CV at most {lv.max_cv_percent:g} %; value: lots meeting it",
                              lv.n_lots_passed, max(lv.n_lots, lv.min_lots), lv.passed,

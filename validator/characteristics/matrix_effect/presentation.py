@@ -32,6 +32,8 @@ def sentences(entry: dict, reading) -> dict:
                                  "matrix." if sr["beyond_limit"] else ""))
         if sr["interval"] is None and sr["reason"]:
             out["slope_ratio"] += f" No interval: {sr['reason']}."
+        if entry["slope_ratio_note"]:
+            out["slope_ratio"] += f" {entry['slope_ratio_note']}."
     for i, lv in enumerate(entry["lots"]):
         word = {True: "meets", False: "does NOT meet", None: "cannot be judged against"}[lv["passed"]]
         out[f"lots_{i}"] = (f"At nominal {fmt(lv['nominal'])} {reading.unit}, {lv['n_lots_passed']} of {lv['n_lots']} matrix "

@@ -35,7 +35,9 @@ class MatrixEffectSection(_Section):
     lots_data: Optional[DataPath] = None
     lot_max_bias_pct: float = Field(15.0, gt=0, le=100)
     lot_max_cv_pct: float = Field(15.0, gt=0, le=100)
-    min_lots: int = Field(6, ge=1, le=10000)
+    # at least 2: a matrix effect from one lot says nothing about lot-to-lot variation, and the matrix
+    # factor's CV across lots needs two (a smaller value was silently raised to 2 for the factor)
+    min_lots: int = Field(6, ge=2, le=10000)
     min_replicates: int = Field(3, ge=2, le=10000)
     factor_data: Optional[DataPath] = None
     factor_max_cv_pct: float = Field(15.0, gt=0, le=100)
@@ -62,6 +64,7 @@ class MatrixEffectData:
 def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
     """``{analyte: MatrixEffectData}`` for every analyte with rows in any of the files."""
     from ...errors import DataError, show
+    from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, positive, read_rows
 
     parts: dict = {}
@@ -81,6 +84,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
         lots, nominal, found = labels(table, "lot", ""), numbers(reader, table, "nominal"), numbers(reader, table, "found")
         positive(table, "nominal", nominal)
         for name, idx in rows.items():
+            one_spelling(table, "lot", lots, idx)
             parts.setdefault(name, {}).update(lots=tuple(lots[i] for i in idx), lot_nominal=nominal[idx],
                                               lot_found=found[idx])
     if settings.factor_data is not None:
@@ -90,6 +94,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
         lots = labels(table, "lot", "")
         a, s = numbers(reader, table, "analyte_response"), numbers(reader, table, "internal_standard_response")
         for name, idx in rows.items():
+            one_spelling(table, "lot", lots, idx)
             if not any(lots[i].casefold() == NEAT for i in idx):
                 raise DataError(f'analyte "{name}" has no neat-solution rows (lot "{NEAT}"): the matrix factor '
                                 "compares each lot with the neat solution", file=table.path,

@@ -12,7 +12,8 @@ def mdl(data, *, confidence: float = 0.99) -> MethodDetectionLimit:
     """MDL = max(MDL_s, MDL_b); see :func:`validator.sector.mdl.method_detection_limit`."""
     return method_detection_limit(data.spiked, data.blanks, confidence=confidence,
                                   spiked_batches=None if data.spiked_batches is None else list(data.spiked_batches),
-                                  blank_batches=None if data.blank_batches is None else list(data.blank_batches))
+                                  blank_batches=None if data.blank_batches is None else list(data.blank_batches),
+                                  spike_level=data.spike_level)
 
 
 def mdl_criteria(result: MethodDetectionLimit, mdl_max: float | None) -> tuple[Criterion, ...]:

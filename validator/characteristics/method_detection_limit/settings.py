@@ -2,7 +2,7 @@
 
 ```toml
 [method_detection_limit]
-spiked = "mdl-spiked.csv"   # column found; optional batch, analyte
+spiked = "mdl-spiked.csv"   # column found; optional batch, spike_level (one per analyte), analyte
 blanks = "mdl-blanks.csv"   # column found (empty, "ND" or "not detected": no numerical result); optional batch, analyte
 ```
 """
@@ -33,16 +33,22 @@ class MethodDetectionLimitData:
     spiked_batches: tuple[str, ...] | None = field(repr=False)
     blanks: np.ndarray = field(repr=False)                 # NaN: no numerical result
     blank_batches: tuple[str, ...] | None = field(repr=False)
+    spike_level: float | None = None                       # the concentration spiked, when given
 
 
 def load(reader, settings: MethodDetectionLimitSection, analytes: dict) -> dict:
     """``{analyte: MethodDetectionLimitData}`` for every analyte with spiked results."""
     from ...errors import DataError
-    from ...inputs.sector_tables import labels, numbers, numbers_or_missing, read_rows
+    from ...inputs.sector_names import one_spelling
+    from ...inputs.sector_tables import labels, numbers, numbers_or_missing, positive, read_rows
 
-    table, rows = read_rows(reader, "method_detection_limit.spiked", settings.spiked, ("found",), ("batch",),
-                            analytes, "spiked result")
+    table, rows = read_rows(reader, "method_detection_limit.spiked", settings.spiked, ("found",),
+                            ("batch", "spike_level"), analytes, "spiked result")
     found = numbers(reader, table, "found")
+    spike = None
+    if table.has("spike_level"):
+        spike = numbers(reader, table, "spike_level")
+        positive(table, "spike_level", spike)
     batches = labels(table, "batch", "") if table.has("batch") else None
     btable, brows = read_rows(reader, "method_detection_limit.blanks", settings.blanks, ("found",), ("batch",),
                               analytes, "method blank result")
@@ -56,6 +62,19 @@ def load(reader, settings: MethodDetectionLimitSection, analytes: dict) -> dict:
     out = {}
     for name, idx in rows.items():
         bidx = brows.get(name, [])
+        if batches is not None:
+            one_spelling(table, "batch", batches, idx)
+        if bbatches is not None:
+            one_spelling(btable, "batch", bbatches, bidx)
+        level = None
+        if spike is not None:
+            for i in idx:
+                if spike[i] != spike[idx[0]]:
+                    raise DataError(f"spike_level {spike[i]:g} differs from {spike[idx[0]]:g} at row "
+                                    f"{table.rows[idx[0]]}; one spike level per analyte", file=table.path,
+                                    row=table.rows[i], column="spike_level", value=spike[i])
+            level = float(spike[idx[0]])
         out[name] = MethodDetectionLimitData(found[idx], None if batches is None else tuple(batches[i] for i in idx),
-                                             bfound[bidx], None if bbatches is None else tuple(bbatches[i] for i in bidx))
+                                             bfound[bidx], None if bbatches is None else tuple(bbatches[i] for i in bidx),
+                                             level)
     return out

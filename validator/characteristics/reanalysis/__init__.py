@@ -16,7 +16,8 @@ def assess(ctx) -> Assessment[IncurredSampleReanalysis] | None:
     s: ReanalysisSection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
-    result = reanalysis(data.samples, data.original, data.repeat, limit_pct=s.limit_pct, min_fraction=s.min_fraction)
+    result = reanalysis(data.samples, data.original, data.repeat, limit_pct=s.limit_pct, min_fraction=s.min_fraction,
+                        study_samples=s.study_samples, size_rule=s.size_rule)
     return Assessment(result, reanalysis_criteria(result))
 
 

@@ -8,11 +8,12 @@ from ...sector.bioanalytical import IncurredSampleReanalysis, incurred_sample_re
 __all__ = ["IncurredSampleReanalysis", "reanalysis", "reanalysis_criteria"]
 
 
-def reanalysis(samples, original, repeat, *, limit_pct: float, min_fraction: float) -> IncurredSampleReanalysis:
+def reanalysis(samples, original, repeat, *, limit_pct: float, min_fraction: float, study_samples: int | None = None,
+               size_rule: str = "none") -> IncurredSampleReanalysis:
     """% difference = 100 (repeat − original) / mean of the two, per sample; see
     :func:`validator.sector.bioanalytical.incurred_sample_reanalysis`."""
     return incurred_sample_reanalysis(original, repeat, limit_percent=limit_pct, min_fraction=min_fraction,
-                                      sample=list(samples))
+                                      sample=list(samples), study_samples=study_samples, size_rule=size_rule)
 
 
 def reanalysis_criteria(result: IncurredSampleReanalysis) -> tuple[Criterion, ...]:

@@ -8,6 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...criteria import Criterion
+from ...sector._shared import number_id
 from ...sector.bioanalytical import Stability, stability
 
 __all__ = ["StabilityCondition", "StabilityResult", "assess_stability", "stability_criteria"]
@@ -52,8 +53,8 @@ def assess_stability(data, *, reference: str, limit_pct: float, judged_on: str, 
 
 
 def stability_criteria(result: StabilityResult) -> tuple[Criterion, ...]:
-    """``stability-<condition>-<nominal>`` (the condition in lower-case letters and digits joined by
-    hyphens): the deviation (or its whole CI, when judged on the interval)
+    """``stability-<condition>-<nominal>`` (the condition case-folded, its letters and digits joined by
+    hyphens; the nominal by :func:`validator.sector._shared.number_id`): the deviation (or its whole CI, when judged on the interval)
     within ±limit."""
     out = []
     for c in result.conditions:
@@ -63,8 +64,9 @@ def stability_criteria(result: StabilityResult) -> tuple[Criterion, ...]:
             else s.deviation_percent
         what = f"{s.interval.label} CI of the deviation" if on_interval and s.interval is not None else \
             ("CI of the deviation" if on_interval else "deviation")
-        slug = re.sub(r"[^a-z0-9]+", "-", c.condition.casefold()).strip("-")
-        out.append(Criterion(f"stability-{slug}-{c.nominal:g}",
+        # the same rule as validator.inputs.sector_names.slug, which refuses two conditions of one slug
+        slug = re.sub(r"[\W_]+", "-", c.condition.casefold()).strip("-")
+        out.append(Criterion(f"stability-{slug}-{number_id(c.nominal)}",
                              f"stability, {c.condition} at nominal {c.nominal:g}: {what} of the mean from "
                              f"{s.reference} within ±{s.limit_percent:g} %", value, [-s.limit_percent, s.limit_percent],
                              s.passed, "" if s.passed is not None else f"not applicable: {s.reason}"))

@@ -41,6 +41,7 @@ class StabilityData:
 def load(reader, settings: StabilitySection, analytes: dict) -> dict:
     """``{analyte: StabilityData}``; with ``reference = "fresh"`` each nominal level needs fresh rows."""
     from ...errors import DataError
+    from ...inputs.sector_names import one_spelling, slug
     from ...inputs.sector_tables import labels, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "stability", settings.data, ("condition", "nominal", "found"), (), analytes,
@@ -50,6 +51,9 @@ def load(reader, settings: StabilitySection, analytes: dict) -> dict:
     positive(table, "nominal", nominal)
     out = {}
     for name, idx in rows.items():
+        # each condition names criterion ids stability-<slug>-<nominal>: one spelling per slug
+        one_spelling(table, "condition", conditions, idx, key=slug,
+                     how="differ only in letter case or punctuation and would give one criterion id")
         if settings.reference == "fresh":
             for i in idx:
                 if not any(conditions[j].casefold() == FRESH and nominal[j] == nominal[i] for j in idx):
