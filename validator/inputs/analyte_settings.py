@@ -210,8 +210,10 @@ def line_of(text: str, loc: tuple) -> int | None:
     lines = text.splitlines()
     dot = r"\s*\.\s*"
     for depth in range(min(len(names), 3), 1, -1):
-        header = re.compile(r"^\s*\[\s*" + dot.join(_name_pattern(n) for n in names[:depth]) + r"\s*\]")
         rest = names[depth:]
+        # the table itself, or (for the table's own line) the first of its sub-tables
+        header = re.compile(r"^\s*\[\s*" + dot.join(_name_pattern(n) for n in names[:depth])
+                            + (r"\s*(\.[^\]]*)?\]" if not rest else r"\s*\]"))
         for number, line in enumerate(lines, start=1):
             if not header.match(line):
                 continue
