@@ -216,3 +216,26 @@ def test_the_protocol_digest_counts_per_analyte_criteria(make_study):
            "standard_uncertainty = 0.2\n")
     config = read_study_file(make_study(BODY + MATERIAL + own, files=files)).config
     assert "data" not in normalised(config)["analyte_settings"]["zinc"]["reference_material"]
+
+
+def test_the_dossier_shows_an_analytes_own_settings(make_study, outside):
+    from bs4 import BeautifulSoup
+    from test_dossier import assert_correctly_rounded, lookup
+    from validator.cli import main
+
+    study = make_study(BODY + ZINC_WIDER, files={"calibration.csv": TWO, "recovery.csv": RECOVERY})
+    assert main(["run", str(study), "--out", str(outside / "out"), "--format", "html"]) == 0
+    assert main(["run", str(study), "--out", str(outside / "json"), "--format", "json"]) == 0
+    results = json.loads((outside / "json" / "results.json").read_text(encoding="utf-8"))
+    soup = BeautifulSoup((outside / "out" / "dossier.html").read_text(encoding="utf-8"), "html.parser")
+    zinc = soup.select_one("#analyte-1")
+    table = zinc.select_one("table.analyte-settings")
+    assert [code.get_text() for code in table.select("code")] == ["recovery.range_pct",
+                                                                  "criteria.back_calculation_tolerance_pct"]
+    spans = table.select("span.n[data-src]")
+    assert [s["data-src"] for s in spans] == [
+        "analytes.1.settings.0.value.0", "analytes.1.settings.0.value.1", "analytes.1.settings.0.study_value.0",
+        "analytes.1.settings.0.study_value.1", "analytes.1.settings.1.value", "analytes.1.settings.1.study_value"]
+    for span in spans:
+        assert_correctly_rounded(span, lookup(results, span["data-src"]))
+    assert soup.select_one("#analyte-0").select_one("table.analyte-settings") is None
