@@ -153,6 +153,10 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
                     why = STUDY_WIDE.get((table, key), "it is not an acceptance criterion or design key")
                     raise StudyError(f"is set for the whole study only: {why}", file=shown,
                                      line=_key_line(text, loc + (key,)), key=f"{dotted}.{key}", value=values[key])
+            if config.runs and "data" in values:
+                raise StudyError(f"the study gives its data as [[runs]], whose reference injections feed [{table}]; "
+                                 "remove data = ... here", file=shown, line=_key_line(text, loc + ("data",)),
+                                 key=f"{dotted}.data", value=values["data"])
             own = {k: getattr(section, k) for k in section.model_fields_set}
             merged = {**own, **values}
             if table == "reference_material":
