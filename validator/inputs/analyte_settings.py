@@ -122,7 +122,8 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
     """
     from .study import _key_line, _translate
 
-    raw = getattr(config, ROOT, None) or {}
+    table_of_all = getattr(config, ROOT, None)
+    raw = {} if table_of_all is None else table_of_all.root
     tables = _tables()
     out = []
     for analyte, given in raw.items():

@@ -32,7 +32,8 @@ import types
 import typing
 from typing import Annotated, Any, Literal, Optional
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, create_model, model_validator
+from pydantic import (AfterValidator, BaseModel, ConfigDict, Field, RootModel, ValidationError, create_model,
+                      model_validator)
 
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
@@ -309,6 +310,17 @@ class ExclusionEntry(_Section):
         return self
 
 
+class AnalyteSettingsTable(RootModel[dict[Annotated[str, Field(min_length=1, max_length=TEXT_LIMITS["analyte"]),
+                                                    AfterValidator(_printable)], dict[str, dict[str, Any]]]]):
+    """``[analyte_settings.<analyte>.<table>]``: per-analyte values of keys of other tables, by analyte.
+
+    Only the shape is checked here; each table is validated by its own model, merged with the
+    study-wide table, in :func:`validator.inputs.analyte_settings.resolve`.
+    """
+
+    model_config = ConfigDict(strict=True, frozen=True)
+
+
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -343,8 +355,7 @@ _OTHER_TABLES = {"study": (StudySection, ...),
                  "types": (Optional[TypesSection], None),
                  # per-analyte values of criteria and characteristic keys (validator.inputs.analyte_settings),
                  # checked against their tables' models after the whole file is validated
-                 "analyte_settings": (Optional[dict[Annotated[str, Field(min_length=1, max_length=TEXT_LIMITS["analyte"])],
-                                                    dict[str, dict[str, Any]]]], None)}
+                 "analyte_settings": (Optional[AnalyteSettingsTable], None)}
 _MODELS: dict = {}
 
 
