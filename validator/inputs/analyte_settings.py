@@ -232,4 +232,5 @@ def line_of(text: str, loc: tuple) -> int | None:
                 if key.match(lines[later]):
                     return later + 1
             return number
-    return None
+    from .study import _line_of          # zinc = { ... } inside [analyte_settings]
+    return _line_of(text, (ROOT, names[1])) if len(names) > 1 else None
