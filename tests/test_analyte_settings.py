@@ -239,3 +239,13 @@ def test_the_dossier_shows_an_analytes_own_settings(make_study, outside):
     for span in spans:
         assert_correctly_rounded(span, lookup(results, span["data-src"]))
     assert soup.select_one("#analyte-0").select_one("table.analyte-settings") is None
+
+
+@pytest.mark.parametrize("table", ["study", "samples", "design"])
+def test_tables_of_the_whole_study_are_refused(make_study, table):
+    study = make_study(BODY + f"[analyte_settings.zinc.{table}]\nid = \"x\"\n",
+                       files={"calibration.csv": TWO, "recovery.csv": RECOVERY})
+    with pytest.raises(StudyError) as caught:
+        read_study_file(study)
+    assert caught.value.key == f"analyte_settings.zinc.{table}"
+    assert f"[{table}] cannot be set per analyte" in caught.value.problem

@@ -58,6 +58,8 @@ STUDY_WIDE = {
 # tables read in full when the files are loaded (the calibration names the analytes and quantifies [[runs]])
 STUDY_WIDE_TABLES = {"calibration": "the calibration is read, checked and used to quantify the other data when "
                                     "the files are loaded"}
+# tables of the study file that are not a characteristic's or [criteria] (never set per analyte)
+NOT_TABLES = ("study", "design", "protocol", "runs", "columns", "types", "exclusions", ROOT)
 # keys outside CRITERIA_AND_DESIGN that may still be set per analyte: a reference material's own data file
 DATA_KEYS = {"reference_material": ("data", "sheet", "header_row")}
 
@@ -86,13 +88,12 @@ class AnalyteSettings:
 
 
 def _tables():
-    """{table name: pydantic model} of the tables a per-analyte setting may change."""
-    from .. import registry
-    from .study import CriteriaSection
+    """{table name: pydantic model} of the tables of the study schema a per-analyte setting may change."""
+    from .study import _model_at, study_config_model
 
-    out = {"criteria": CriteriaSection}
-    out.update({e.name: e.settings for e in registry.REGISTRY if e.settings is not None})
-    return out
+    models = {name: _model_at((name, "key")) for name in study_config_model().model_fields}
+    return {name: model for name, model in models.items()
+            if model is not None and name not in NOT_TABLES and overridable_keys(name, model)}
 
 
 def overridable_keys(table: str, model: type[BaseModel]) -> tuple[str, ...]:
@@ -136,10 +137,14 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
             line = _key_line(text, loc)
             dotted = ".".join(loc)
             model = tables.get(table)
+            if model is None and table in type(config).model_fields:
+                why = STUDY_WIDE_TABLES.get(table, "it holds no acceptance criteria or design keys that can "
+                                                   "differ by analyte")
+                raise StudyError(f"[{table}] cannot be set per analyte: {why}", file=shown, line=line, key=dotted)
             if model is None:
                 close = difflib.get_close_matches(table, list(tables), n=1, cutoff=0.6)
-                hint = f'; did you mean "{close[0]}"?' if close else "; allowed: " + ", ".join(
-                    t for t, m in tables.items() if overridable_keys(t, m))
+                hint = (f'; did you mean "{close[0]}"?' if close else
+                        "; allowed: " + ", ".join(list(tables) + list(STUDY_WIDE_TABLES)))
                 raise StudyError(f"unknown table{hint}", file=shown, line=line, key=dotted, value=table)
             allowed = overridable_keys(table, model)
             if not allowed:

@@ -325,7 +325,7 @@ class AnalyteSettingsTable(RootModel[dict[Annotated[str, Field(min_length=1, max
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
                 "accuracy_profile", "uncertainty", "reference_material", "revalidation", "comparison")
-_TABLES_AFTER = ("design", "protocol", "analyte_settings")
+_TABLES_AFTER = ("design", "protocol")
 
 
 def _table_field(model: type[BaseModel], required: bool) -> tuple:
