@@ -36,7 +36,7 @@ CATALOGUE = [
      "criteria, blanks, detection, recovery, precision, accuracy_profile, uncertainty, reference_material, "
      "revalidation, comparison, sample_preparation, limit_of_blank, method_detection_limit, matrix_effect, "
      "carry_over, selectivity, stability, dilution_integrity, reanalysis, exclusions, runs, columns, types, "
-     "design, protocol"),
+     "analyte_settings, design, protocol"),
     ("data-missing", '[calibration]\ndata = "nope.csv"\n', {}, "",
      "nope.csv: data file not found (looked for {dir}/nope.csv); `validator protocol` works without data, "
      "`check` and `run` need it"),

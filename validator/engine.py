@@ -178,7 +178,10 @@ class AnalyteContext:
 
     A characteristic reads its own data with ``ctx.data_of(ENTRY)``, its own study-file
     table with ``ctx.settings_of(ENTRY)`` and the result of one above it in the registry with
-    ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed).
+    ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed). ``config`` is the
+    configuration this analyte is judged with: the study's, with its ``[analyte_settings.<analyte>]``
+    tables applied (:mod:`validator.inputs.analyte_settings`), so ``settings_of`` and
+    ``config.criteria`` give the analyte's own values; ``alpha`` is the study's.
     """
 
     data: AnalyteData
@@ -246,7 +249,8 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
 
 
 def analyse_study(loaded: LoadedStudy) -> StudyResult:
-    """Analyse every analyte of a loaded study."""
+    """Analyse every analyte of a loaded study, each with its own settings ([analyte_settings])."""
     return StudyResult(loaded=loaded,
-                       analytes=tuple(analyse_analyte(a, loaded.config, loaded.config.study.concentration_unit)
+                       analytes=tuple(analyse_analyte(a, loaded.study.config_for(a.name),
+                                                      loaded.config.study.concentration_unit)
                                       for a in loaded.analytes))

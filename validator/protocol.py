@@ -157,6 +157,9 @@ CRITERIA_AND_DESIGN = {
     "stability": ("reference", "limit_pct", "judged_on", "min_replicates"),
     "dilution_integrity": ("max_bias_pct", "max_cv_pct", "min_replicates"),
     "reanalysis": ("limit_pct", "min_fraction", "study_samples", "size_rule"),
+    # per-analyte values of the keys above (validator.inputs.analyte_settings): each table's design and
+    # criteria keys, by analyte; a reference material's own data file is left out, as above
+    "analyte_settings": ALL,
 }
 # added after protocols were first written (issues #13 and #15): a section absent, or a key null, is
 # left out of the normalised dict, so that the digest of a study that does not use them is unchanged
@@ -165,7 +168,8 @@ LATER_ADDITIONS = {"study": ("guideline",), "criteria": ("judge_on",),
                    "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
                    "accuracy_profile": ALL, "uncertainty": ALL,
                    "limit_of_blank": ALL, "method_detection_limit": ALL, "matrix_effect": ALL, "carry_over": ALL,
-                   "selectivity": ALL, "stability": ALL, "dilution_integrity": ALL, "reanalysis": ALL}
+                   "selectivity": ALL, "stability": ALL, "dilution_integrity": ALL, "reanalysis": ALL,
+                   "analyte_settings": ALL}
 # every other key, and why it is left out (tests check the two lists cover the whole schema)
 NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
@@ -196,6 +200,12 @@ def normalised(config) -> dict:
         value, later = dumped.get(section), LATER_ADDITIONS.get(section, ())
         if value is None and later == ALL:
             continue
+        if section == "analyte_settings":       # {analyte: {table: {key: value}}}, the design and criteria keys
+            out[section] = {analyte: {table: {k: v for k, v in keys_of.items()
+                                              if _counts_as_criterion(table, k)}
+                                      for table, keys_of in tables.items()}
+                            for analyte, tables in value.items()}
+            continue
         if value is None:
             out[section] = None
         elif not keys:
@@ -204,6 +214,11 @@ def normalised(config) -> dict:
             out[section] = {k: value[k] for k in (value if keys == ALL else keys) if k in value
                             and not (value[k] is None and later != ALL and k in later)}
     return out
+
+
+def _counts_as_criterion(table: str, key: str) -> bool:
+    keys = CRITERIA_AND_DESIGN.get(table, ())
+    return keys == ALL or key in keys
 
 
 def canonical_text(design_and_criteria: dict) -> str:

@@ -200,7 +200,16 @@ _SECTION_ORDER = ("calibration", "samples", "detection", "working_range", "recov
                   "reference_material", "revalidation", "comparison")
 
 
-def _analyte(a):
+def _settings(study, name: str) -> dict:
+    """``{"settings": [...]}``: the keys an analyte's [analyte_settings] tables set, with the study-wide value;
+    ``{}`` for an analyte judged with the study-wide settings alone."""
+    own = next((s for s in study.analyte_settings if s.analyte == name), None)
+    if own is None:
+        return {}
+    return {"settings": [{"key": c.key, "value": c.value, "study_value": c.study_value} for c in own.changes]}
+
+
+def _analyte(a, study=None):
     serialise = Serialiser()
     sections = {}
     for entry in registry.REGISTRY:
@@ -217,6 +226,7 @@ def _analyte(a):
             place[name] = None if result is None else serialise(result, entry.written_at)
     order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
     entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),
+             **({} if study is None else _settings(study, a.name)),
              **{name: sections[name] for name in order},
              "criteria": serialise(a.criteria, "criteria"),
              "diagnostics": list(a.calibration.diagnostics)}
@@ -265,7 +275,7 @@ def build_results(result, *, generated_at: str) -> dict:
         # sample ids one character apart with one reading each: a flagged warning, never silence
         "sample_id_warnings": [{"analyte": w.analyte, "file": w.file, "ids": list(w.ids), "rows": list(w.rows),
                                 "text": w.text} for w in loaded.near_duplicate_ids],
-        "analytes": [_analyte(a) for a in result.analytes],
+        "analytes": [_analyte(a, loaded.study) for a in result.analytes],
         **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
            if loaded.config.study.guideline is not None else {}),
         "revalidation": None if loaded.previous is None else {

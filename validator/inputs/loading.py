@@ -17,6 +17,7 @@ import dataclasses
 
 import numpy as np
 
+from .analyte_settings import check_analytes
 from .exclusions import Excluded, Exclusions
 from .sample_ids import NearDuplicateIds
 from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
@@ -209,6 +210,25 @@ def _check_preparations(study, samples: dict, runs) -> None:
                              file=study.shown, key=f"sample_preparation.samples.{sid}", value=sid)
 
 
+def _own_files(reader, entry, analytes, shared) -> dict:
+    """``{entry.name: data}`` with the data an analyte's own table names ([analyte_settings.<analyte>.<name>]
+    data = ..., a reference material of its own), read with the analyte's settings; ``{}`` when there are none."""
+    own = {s.analyte: s.config for s in reader.study.analyte_settings
+           if entry.load is not None and s.sets(entry.name, "data")}
+    if not own:
+        return {}
+    out = dict(shared or {})
+    for name, config in own.items():
+        if name in out:
+            raise StudyError(f'analyte "{show(name)}" has rows in the file of [{entry.name}] and a data file of its '
+                             "own; give its results in one place", file=reader.study.shown,
+                             key=f"analyte_settings.{name}.{entry.name}.data", value=name)
+        data = entry.load(reader, getattr(config, entry.name), {name: analytes[name]})
+        if name in data:
+            out[name] = data[name]
+    return {entry.name: out}
+
+
 def load_study(path: str | Path) -> LoadedStudy:
     """Read and check a study file and all its data files.
 
@@ -226,6 +246,7 @@ def load_study(path: str | Path) -> LoadedStudy:
         runs = load_runs(reader)
         calibration = runs.calibration
         loaded.update({"calibration": runs.calibration, "blanks": runs.blanks, "runs": runs.injections})
+        check_analytes(study, calibration)
     for entry in registry.REGISTRY:
         if entry.name in loaded:
             continue
@@ -234,6 +255,9 @@ def load_study(path: str | Path) -> LoadedStudy:
             if settings is not None:
                 loaded[entry.name] = entry.load(reader, settings, calibration)
                 calibration = loaded[entry.name] if calibration is None else calibration
+                if entry.name == "calibration":
+                    check_analytes(study, calibration)
+            loaded.update(_own_files(reader, entry, calibration, loaded.get(entry.name)))
     excluded = reader.exclusions.check()
     _check_preparations(study, loaded.get("samples", {}), runs)
     analytes = tuple(AnalyteData(name, calibration[name],

@@ -32,7 +32,8 @@ import types
 import typing
 from typing import Annotated, Any, Literal, Optional
 
-from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError, create_model, model_validator
+from pydantic import (AfterValidator, BaseModel, ConfigDict, Field, RootModel, ValidationError, create_model,
+                      model_validator)
 
 from ..errors import StudyError, control_character, show
 from ..maths.regression import WEIGHTINGS
@@ -309,6 +310,17 @@ class ExclusionEntry(_Section):
         return self
 
 
+class AnalyteSettingsTable(RootModel[dict[Annotated[str, Field(min_length=1, max_length=TEXT_LIMITS["analyte"]),
+                                                    AfterValidator(_printable)], dict[str, dict[str, Any]]]]):
+    """``[analyte_settings.<analyte>.<table>]``: per-analyte values of keys of other tables, by analyte.
+
+    Only the shape is checked here; each table is validated by its own model, merged with the
+    study-wide table, in :func:`validator.inputs.analyte_settings.resolve`.
+    """
+
+    model_config = ConfigDict(strict=True, frozen=True)
+
+
 # The tables of the study file in the order of its schema (messages list them so, defaults_applied
 # follows it): the tables of the characteristics in the registry, and those below.
 _TABLE_ORDER = ("study", "calibration", "samples", "criteria", "blanks", "detection", "recovery", "precision",
@@ -340,7 +352,10 @@ _OTHER_TABLES = {"study": (StudySection, ...),
                  "exclusions": (list[ExclusionEntry], []),
                  # analytical runs: the exports, their column mapping and their injection-type words
                  "runs": (list[RunSource], []), "columns": (Optional[ColumnsSection], None),
-                 "types": (Optional[TypesSection], None)}
+                 "types": (Optional[TypesSection], None),
+                 # per-analyte values of criteria and characteristic keys (validator.inputs.analyte_settings),
+                 # checked against their tables' models after the whole file is validated
+                 "analyte_settings": (Optional[AnalyteSettingsTable], None)}
 _MODELS: dict = {}
 
 
@@ -380,6 +395,12 @@ class StudyFile:
     config: Any                # the StudyConfig (study_config_model()) instance
     defaults_applied: tuple[tuple[str, Any], ...]    # ("criteria.alpha", 0.05), ...
     guideline: tuple[PresetUse, ...] = ()             # what [study] guideline supplied or the study overrode
+    # the analytes with [analyte_settings.<name>] tables: their merged configuration and what differs
+    analyte_settings: tuple = ()                      # of validator.inputs.analyte_settings.AnalyteSettings
+
+    def config_for(self, analyte: str):
+        """The configuration ``analyte`` is judged with: the study's, with its [analyte_settings] applied."""
+        return next((s.config for s in self.analyte_settings if s.analyte == analyte), self.config)
 
     def resolve(self, data_path: str) -> Path:
         """A data path from the study file, relative to the study file's folder."""
@@ -389,6 +410,9 @@ class StudyFile:
 
 def _key_line(text: str, loc: tuple) -> int | None:
     """Best-effort line number of the key at ``loc`` in the TOML text."""
+    if len(loc) > 1 and loc[0] == "analyte_settings":
+        from .analyte_settings import line_of
+        return line_of(text, loc)
     names = [part for part in loc if not part.isdigit()]
     if len(names) == len(loc):
         return _line_of(text, loc)
@@ -424,6 +448,8 @@ def _line_of(text: str, loc: tuple) -> int | None:
 def _model_at(loc: tuple):
     """The pydantic model holding the key at ``loc`` (``None`` if there is none)."""
     model = study_config_model()
+    if len(loc) > 3 and loc[0] == "analyte_settings":     # [analyte_settings.<analyte>.<table>] key
+        loc = loc[2:]
     for part in loc[:-1]:
         if part.isdigit():
             continue
@@ -528,11 +554,12 @@ def _plain(kind: str, loc: tuple, ctx: dict) -> str:
     return message
 
 
-def _translate(exc: ValidationError, shown: str, text: str) -> StudyError:
+def _translate(exc: ValidationError, shown: str, text: str, prefix: tuple = ()) -> StudyError:
+    """The study error for ``exc``; ``prefix`` is the key path of the table validated (when not the file)."""
     errors = exc.errors(include_url=False)
     # an unknown key usually explains a "missing" one (a typo), so report it first
     err = sorted(errors, key=lambda e: e["type"] != "extra_forbidden")[0]
-    loc = tuple(str(p) for p in err["loc"])
+    loc = prefix + tuple(str(p) for p in err["loc"])
     dotted = ".".join(loc) if loc else "(top level)"
     line = _key_line(text, loc) if loc else None
     kind = err["type"]
@@ -685,8 +712,10 @@ def read_study_file(path: str | Path) -> StudyFile:
                          'results.json (previous = "..."); without it nothing would be compared',
                          file=shown, line=_key_line(text, ("study", "purpose")), key="study.purpose")
     config, uses = _apply_guideline(config)
+    from .analyte_settings import resolve
     return StudyFile(path=p, shown=shown, text=text, sha256=hashlib.sha256(raw).hexdigest(),
-                     config=config, defaults_applied=tuple(_defaults(config)), guideline=uses)
+                     config=config, defaults_applied=tuple(_defaults(config)), guideline=uses,
+                     analyte_settings=resolve(config, shown, text))
 
 
 def _apply_guideline(config: StudyConfig) -> tuple[StudyConfig, tuple[PresetUse, ...]]:
