@@ -17,8 +17,7 @@ import jinja2
 
 from . import numbers, summary
 from .plots import PALETTE, analyte_figures, figures_for_all, style
-from .text import (SIG, SIG_P, calibration_sentences, fmt, fmt_p, level_label, met,
-                   verdict_label)
+from .text import SIG, SIG_P, fmt, fmt_p, level_label, met, verdict_label
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
 
@@ -144,7 +143,8 @@ def _readings(results: dict, alpha: float) -> list:
     out = []
     for i, a in enumerate(results["analytes"]):
         reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
-                                   key=str(i))
+                                   key=str(i), not_applicable=tuple((n["item"], n["reason"])
+                                                                    for n in a.get("not_applicable", ())))
         out.append([(e.name, entry, reading) for e in registry.REGISTRY
                     if (e.sentences or e.figures) and (entry := _written(a, e.written_at))])
     return out
@@ -186,13 +186,15 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                               _analyte_figures)
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     unit = study["concentration_unit"]
-    shown = tuple(e.name for e in registry.REGISTRY if e.fragment)
+    # the fragments in registry order, by where the dossier includes them (Characteristic.placement)
+    placed = {p: [e for e in registry.REGISTRY if e.fragment and e.placement == p]
+              for p in ("analyte", "characteristics", "study-before", "study-after")}
+    shown = tuple(e.name for e in placed["characteristics"])
     titles = {e.name: e.title for e in registry.REGISTRY}
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        text = calibration_sentences(a, alpha, unit)
-        text.update({name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
-                     if name in sentences})
+        text = {name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
+                if name in sentences}
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text,
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
                          "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"]),
@@ -203,14 +205,14 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                 "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None}
                for a in analytes for point in a["flagged_points"]]
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
-    # the characteristics shown in each analyte's section, in registry order (those with a fragment)
-    sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
+    # the characteristics shown in each analyte's characteristics section, in registry order
+    sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in placed["characteristics"]]
     # characteristics assessed for any analyte (the formulas page shows the sector ones only then)
     sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, alpha=alpha, sections=sections,
+        r=results, study=study, analytes=analytes, alpha=alpha, sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),

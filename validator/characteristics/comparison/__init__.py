@@ -28,4 +28,4 @@ def assess(ctx) -> Assessment[ComparisonResult] | None:
 
 ENTRY: Characteristic[ComparisonResult] = Characteristic(
     "comparison", "Method comparison", assess, settings=settings.ComparisonSection, load=settings.load,
-    result_types=(ComparisonResult,))
+    result_types=(ComparisonResult,), fragment="characteristics/comparison.html.j2", placement="study-before")

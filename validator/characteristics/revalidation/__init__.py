@@ -50,4 +50,4 @@ def assess(ctx) -> Assessment[RevalidationResult | None] | None:
 
 ENTRY: Characteristic[RevalidationResult | None] = Characteristic(
     "revalidation", "Re-validation", assess, settings=settings.RevalidationSection, load=settings.load,
-    result_types=(RevalidationResult,))
+    result_types=(RevalidationResult,), fragment="characteristics/revalidation.html.j2", placement="study-before")
