@@ -1,9 +1,10 @@
-"""Number formatting and the plain-language sentences of the dossier.
+"""Number formatting and verdict words of the dossier: the helpers the characteristics'
+``presentation.py`` modules build their sentences with.
 
 Numbers are rounded by the rules of :mod:`validator.report.numbers`;
-results.json keeps full precision. Every sentence is built
-from values already in results.json; this module compares them with the
-study's alpha and limits but estimates nothing.
+results.json keeps full precision. Every sentence (in each characteristic's
+``presentation.py``) is built from values already in results.json; it compares
+them with the study's alpha and limits but estimates nothing.
 """
 
 from __future__ import annotations
@@ -11,10 +12,12 @@ from __future__ import annotations
 from .._common import level_label
 from . import numbers as N
 # the reporting rules, re-exported for the characteristics' presentation modules (which import report.text)
-from .numbers import basis_label, by_rule, matched, superscripts_in, uncertainty  # noqa: F401
+from .numbers import basis_label, by_rule, interval, matched, superscripts_in, uncertainty, weighting_label  # noqa: F401
+from .summary import flagged_points  # noqa: F401
 
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label",
-           "basis_label", "by_rule", "matched", "superscripts_in", "uncertainty"]
+           "basis_label", "by_rule", "matched", "superscripts_in", "uncertainty", "interval", "weighting_label",
+           "flagged_points"]
 
 SIG = N.DEFAULT_SIG
 SIG_P = N.P_SIG

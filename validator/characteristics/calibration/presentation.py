@@ -6,9 +6,8 @@ Its figures (the fit with its bands, the residual diagnostics) are still drawn i
 
 from __future__ import annotations
 
-from ...report.numbers import interval, weighting_label
-from ...report.summary import flagged_points
-from ...report.text import by_rule, fmt, fmt_p, level_label, matched, superscripts_in, uncertainty
+from ...report.text import (by_rule, flagged_points, fmt, fmt_p, interval, level_label, matched, superscripts_in,
+                            uncertainty, weighting_label)
 
 __all__ = ["sentences"]
 
