@@ -119,18 +119,6 @@ def _change_data(a, entry: dict) -> dict:
             "previous_range": (min(levels), max(levels)),
             "current_coefficients": entry["calibration"]["coefficients"],
             "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
-    from ..characteristics import comparison
-
-    c = a.result_of(comparison.ENTRY)
-    if c is not None:
-        ba = c.bland_altman
-        out["comparison"] = {
-            "reference": list(c.reference), "test": list(c.test),
-            # a pair without a percentage difference (mean 0) is NaN: not drawn
-            "differences": list(ba.differences),
-            "bias": ba.bias, "limits": None if ba.limits is None else list(ba.limits), "percentage": ba.percentage,
-            "pb_a": c.passing_bablok.intercept, "pb_b": c.passing_bablok.slope,
-            "dm_a": c.deming.intercept, "dm_b": c.deming.slope}
     return out
 
 

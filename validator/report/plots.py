@@ -275,36 +275,6 @@ def _revalidation_figure(d: dict) -> str:
     return _svg(fig, f"rv{d['key']}")
 
 
-def _comparison_figure(d: dict) -> str:
-    c = d["comparison"]
-    x, y = c["reference"], c["test"]
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(6.4, 3.0))
-    lo, hi = min(min(x), min(y)), max(max(x), max(y))
-    ax1.plot([lo, hi], [lo, hi], ":", color=PALETTE["ink"], linewidth=0.8, label="identity")
-    if c["pb_b"] is not None:                     # None: not applicable, nothing to draw
-        ax1.plot([lo, hi], [c["pb_a"] + c["pb_b"] * lo, c["pb_a"] + c["pb_b"] * hi], "-", color=PALETTE["fit"],
-                 linewidth=1.2, label="Passing-Bablok")
-    if c["dm_b"] is not None:
-        ax1.plot([lo, hi], [c["dm_a"] + c["dm_b"] * lo, c["dm_a"] + c["dm_b"] * hi], "--", color=PALETTE["pred"],
-                 linewidth=1.2, label="Deming")
-    _points(ax1, x, y, "o")
-    ax1.set_xlabel(f"previous / reference ({d['xunit']})")
-    ax1.set_ylabel(f"this run / test ({d['xunit']})")
-    ax1.legend(frameon=False, fontsize=6)
-    means = [(a + b) / 2 for a, b in zip(x, y)]
-    _points(ax2, means, c["differences"], "s")
-    if c["bias"] is not None:
-        ax2.axhline(c["bias"], color=PALETTE["fit"], linewidth=1.2)
-        for limit in c["limits"]:
-            ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, ls="--")
-    ax2.axhline(0, color=PALETTE["ink"], linewidth=0.6, ls=":")
-    ax2.set_xlabel(f"mean of the two ({d['xunit']})")
-    ax2.set_ylabel("difference" + (" (%)" if c["percentage"] else f" ({d['xunit']})"))
-    ax2.set_title("bias (solid), limits of agreement (dashed)", fontsize=8, loc="left")
-    fig.tight_layout()
-    return _svg(fig, f"mc{d['key']}")
-
-
 def analyte_figures(d: dict) -> dict:
     with style():
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
@@ -312,8 +282,6 @@ def analyte_figures(d: dict) -> dict:
             figs["precision"] = _precision_figure(d)
         if d.get("revalidation"):
             figs["revalidation"] = _revalidation_figure(d)
-        if d.get("comparison"):
-            figs["comparison"] = _comparison_figure(d)
         return figs
 
 
