@@ -29,6 +29,9 @@ class Reading:
     key: str = ""                # unique per analyte in the dossier (prefix of a figure's element ids)
     # the analyte's not_applicable list of results.json, as (item, reason) pairs
     not_applicable: tuple[tuple[str, str], ...] = ()
+    # the analyte's whole results.json entry, for a characteristic that shows the results of entries
+    # above it (the re-validation draws this run's calibration); read it, never change it
+    analyte: Mapping[str, Any] | None = None
 
     def reason_for(self, item: str) -> str:
         """Why the result at ``item`` (its path in the analyte's entry) is not applicable."""

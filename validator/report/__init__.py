@@ -108,20 +108,6 @@ def _series_pct(data, lv):
     return out
 
 
-def _change_data(a, entry: dict) -> dict:
-    out = {}
-    prev = a.data.of("revalidation")
-    prev = None if prev is None else prev.entry
-    if prev is not None:
-        levels = [lv["concentration"] for lv in prev["calibration"]["level_table"]]
-        out["revalidation"] = {
-            "previous_coefficients": prev["calibration"]["coefficients"],
-            "previous_range": (min(levels), max(levels)),
-            "current_coefficients": entry["calibration"]["coefficients"],
-            "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
-    return out
-
-
 def _readings(results: dict, alpha: float) -> list:
     """Per analyte: (name, its results.json entry, Reading) of every registry entry with sentences or
     figures that the analyte has."""
@@ -132,7 +118,8 @@ def _readings(results: dict, alpha: float) -> list:
     for i, a in enumerate(results["analytes"]):
         reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
                                    key=str(i), not_applicable=tuple((n["item"], n["reason"])
-                                                                    for n in a.get("not_applicable", ())))
+                                                                    for n in a.get("not_applicable", ())),
+                                   analyte=a)
         out.append([(e.name, entry, reading) for e in registry.REGISTRY
                     if (e.sentences or e.figures) and (entry := _written(a, e.written_at))])
     return out
@@ -169,8 +156,7 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
     readings = _readings(results, alpha)
-    figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i]),
-                                "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
+    figures = figures_for_all([{**_plot_data(i, a, study), "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
                               _analyte_figures)
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     unit = study["concentration_unit"]

@@ -251,37 +251,11 @@ def _precision_figure(d: dict) -> str:
     return _svg(fig, f"tp{d['key']}")
 
 
-def _line(coefficients: dict, xs):
-    """Values of a calibration function a + b x + c x^2 for drawing (coefficients from results.json)."""
-    a = coefficients.get("intercept", {}).get("estimate", 0.0)
-    b = coefficients["slope"]["estimate"]
-    c = coefficients.get("quadratic", {}).get("estimate", 0.0)
-    return [a + b * x + c * x * x for x in xs]
-
-
-def _revalidation_figure(d: dict) -> str:
-    r = d["revalidation"]
-    fig, ax = plt.subplots(figsize=(6.4, 3.0))
-    for label, coef, (lo, hi), style, colour in (
-            ("previous validation", r["previous_coefficients"], r["previous_range"], "--", PALETTE["pred"]),
-            ("this run", r["current_coefficients"], r["current_range"], "-", PALETTE["fit"])):
-        xs = [lo + (hi - lo) * i / 60 for i in range(61)]
-        ax.plot(xs, _line(coef, xs), style, color=colour, linewidth=1.4, label=label)
-    _points(ax, d["x"], d["y"], "o", label="calibrators, this run")
-    ax.set_xlabel(f"concentration ({d['xunit']})")
-    ax.set_ylabel(f"response ({d['yunit']})")
-    ax.legend(frameon=False, fontsize=7, loc="upper left")
-    fig.tight_layout()
-    return _svg(fig, f"rv{d['key']}")
-
-
 def analyte_figures(d: dict) -> dict:
     with style():
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
         if d.get("precision"):
             figs["precision"] = _precision_figure(d)
-        if d.get("revalidation"):
-            figs["revalidation"] = _revalidation_figure(d)
         return figs
 
 
