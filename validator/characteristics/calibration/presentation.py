@@ -36,10 +36,10 @@ def sentences(cal: dict, reading) -> dict[str, str]:
                   f"{matched(slope['estimate'], slope['std_error'])} ({level_label(slope['ci_level'])} CI {low} to {high}); "
                   f"the residual standard deviation s(y/x) is {uncertainty(cal['residual_sd'])} and "
                   f"R² = {by_rule(cal['r_squared'], 'correlation')}.")
-    def test_sentence(key: str, name: str, reading) -> None:
-        """``reading(test)`` for an applicable test, else the one not-applicable sentence with its reason."""
+    def test_sentence(key: str, name: str, describe) -> None:
+        """``describe(test)`` for an applicable test, else the one not-applicable sentence with its reason."""
         test = cal[key]
-        out[key] = f"{name} was not applicable: {reading.reason_for(key)}." if test is None else reading(test)
+        out[key] = f"{name} was not applicable: {reading.reason_for(key)}." if test is None else describe(test)
 
     def lack_of_fit(lof):
         evidence = "is" if _sig(lof["p_value"], alpha) else "is no"
