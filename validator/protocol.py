@@ -19,9 +19,10 @@ Normalised design and criteria
 ------------------------------
 The study configuration dumped as JSON (``model_dump(mode="json")``, so every
 default is filled in and a default written explicitly normalises the same),
-reduced to the keys in :data:`CRITERIA_AND_DESIGN` (the one list of what counts
-as design or criteria; data paths and free text are left out, see
-:data:`NOT_CRITERIA`), written with sorted keys, no spaces and floats in
+reduced to the keys that count as design or criteria (:func:`criteria_and_design`:
+for the characteristics' tables every key of the registry's settings model but
+data paths and keys declared not to count; data paths and free text are left
+out, see :func:`not_criteria`), written with sorted keys, no spaces and floats in
 Python's shortest round-trip form. The digest is the SHA-256 of that text.
 """
 
@@ -30,6 +31,7 @@ from __future__ import annotations
 import hashlib
 import json
 import re
+import typing
 from dataclasses import dataclass, replace
 from datetime import date, timedelta
 from pathlib import Path
@@ -39,7 +41,8 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from .errors import StudyError, ValidatorError, show
 
-__all__ = ["DesignSection", "ProtocolSection", "CRITERIA_AND_DESIGN", "NOT_CRITERIA", "PROTOCOL_VERSION",
+__all__ = ["DesignSection", "ProtocolSection", "criteria_and_design", "not_criteria", "later_additions",
+           "counting_keys", "PROTOCOL_1_0_TABLES", "LATER_KEYS", "PROTOCOL_VERSION",
            "PROTOCOL_JSON", "normalised", "canonical_text", "digest", "design_checks", "build_protocol",
            "read_protocol", "compare", "Deviation", "deviation_criteria", "with_deviations",
            "protocol_entry", "write_protocol_folder"]
@@ -124,85 +127,126 @@ class ProtocolSection(_Table):
     file: Annotated[str, Field(min_length=1, max_length=4096)]
 
 
-# ---- what counts as design and criteria: the one list ----------------------------------------------
+# ---- what counts as design and criteria ------------------------------------------------------------
 
 ALL = "*"
-# section -> the keys of that section that are design or acceptance criteria ("*": every key).
-# A section absent from the study normalises to null, so adding or removing one is a deviation.
-CRITERIA_AND_DESIGN = {
+# The tables that are no characteristic's (the study file's frame), kept by hand: the keys of each
+# that are design or acceptance criteria ("*": every key), and every other key with why it is left out.
+FRAME_CRITERIA_AND_DESIGN = {
     "study": ("purpose", "concentration_unit", "guideline"),     # the unit gives every level and limit its meaning
-    "calibration": ("model", "weighting", "through_origin"),
     "criteria": ALL,
-    "detection": ALL,
-    "recovery": ("range_pct", "levels"),
-    "precision": ("repeatability_rsd_max_pct", "intermediate_rsd_max_pct", "levels", "design",
-                  "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
-    "accuracy_profile": ALL,
-    "uncertainty": ALL,
-    "reference_material": ("analyte", "certified_value", "standard_uncertainty", "coverage_factor",
-                           "measurement_standard_uncertainty"),
-    "revalidation": ("slope_change_max_pct", "residual_sd_ratio_max"),
-    "comparison": ("error_ratio", "slope_limits", "intercept_limits", "percentage_differences"),
-    "samples": (),                                   # present or not: which characteristics are assessed
-    "blanks": (),
     "design": ALL,
-    # the sector characteristics (issue #15): every key but where the data are
-    "limit_of_blank": ("method", "purpose", "percentile", "loq_max_cv_pct", "loq_max_total_error", "lob_max",
-                       "lod_max", "loq_max"),
-    "method_detection_limit": ("confidence", "mdl_max"),
-    "matrix_effect": ("variance", "limit_pct", "judge_slope_ratio", "lot_max_bias_pct", "lot_max_cv_pct", "min_lots",
-                      "min_replicates", "factor_max_cv_pct"),
-    "carry_over": ("analyte_limit_pct", "internal_standard_limit_pct"),
-    "selectivity": ("analyte_limit_pct", "internal_standard_limit_pct", "min_lots", "min_fraction"),
-    "stability": ("reference", "limit_pct", "judged_on", "min_replicates"),
-    "dilution_integrity": ("max_bias_pct", "max_cv_pct", "min_replicates"),
-    "reanalysis": ("limit_pct", "min_fraction", "study_samples", "size_rule"),
-    # per-analyte values of the keys above (validator.inputs.analyte_settings): each table's design and
-    # criteria keys, by analyte; a reference material's own data file is left out, as above
+    # per-analyte values of the characteristics' keys (validator.inputs.analyte_settings): each table's
+    # design and criteria keys, by analyte; a reference material's own data file is left out
     "analyte_settings": ALL,
 }
-# added after protocols were first written (issues #13 and #15): a section absent, or a key null, is
-# left out of the normalised dict, so that the digest of a study that does not use them is unchanged
-# and a protocol approved before they existed compares with its study without deviations
-LATER_ADDITIONS = {"study": ("guideline",), "criteria": ("judge_on",),
-                   "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
-                   "accuracy_profile": ALL, "uncertainty": ALL,
-                   "limit_of_blank": ALL, "method_detection_limit": ALL, "matrix_effect": ALL, "carry_over": ALL,
-                   "selectivity": ALL, "stability": ALL, "dilution_integrity": ALL, "reanalysis": ALL,
-                   "analyte_settings": ALL}
-# every other key, and why it is left out (tests check the two lists cover the whole schema)
-NOT_CRITERIA = {
+FRAME_NOT_CRITERIA = {
     "study": ("id", "title", "response_unit", "analyst", "reviewer", "instrument", "method", "notes",
               "scope", "intended_use", "method_summary", "protocol_reference", "document_number",
               "document_version", "decimal", "delimiter", "max_data_file_mb"),      # free text and how the files are read
-    # where a data file is and how it is read (inputs.study.DataSource)
-    **{section: ("data", "sheet", "header_row") for section in
-       ("calibration", "samples", "blanks", "recovery", "precision", "reference_material", "comparison")},
-    "samples": ("data", "sheet", "header_row", "expected", "expected_readings"),   # plus the ids to check
-    "revalidation": ("previous", "analytes"),                    # where the previous run is and its names
     "protocol": ALL,                                             # the path of the protocol itself
-    "limit_of_blank": ("blanks", "low_samples"), "method_detection_limit": ("spiked", "blanks"),
-    "matrix_effect": ("solvent_data", "lots_data", "factor_data"), "carry_over": ("data",),
-    "selectivity": ("data",), "stability": ("data",), "dilution_integrity": ("data",), "reanalysis": ("data",),
     "exclusions": ALL,          # data rows left out with their reasons: listed in results, not design
     # the run exports, how their columns and type words map, and which calibration quantifies them
     "runs": ALL, "columns": ALL, "types": ALL,
-    "sample_preparation": ALL,           # the reporting unit and sample preparation: how results are expressed
 }
-NOT_CRITERIA["calibration"] = NOT_CRITERIA["calibration"] + ("quantify_with",)
+# The characteristics' tables that protocol version 1.0 knew. Every other characteristic's table was
+# added later: absent, it is left out of the normalised dict (not null), so that the digest of a study
+# that does not use it is unchanged and a protocol approved before it existed compares without deviations.
+PROTOCOL_1_0_TABLES = ("calibration", "samples", "blanks", "detection", "recovery", "precision",
+                       "reference_material", "revalidation", "comparison")
+# Keys added later to the tables of protocol 1.0 (issues #13 and #15): left out while null, for the same
+# reason. Frozen: a key added to one of these tables from now on goes here, with a default of None.
+LATER_KEYS = {"study": ("guideline",), "criteria": ("judge_on",),
+              "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
+              "analyte_settings": ALL}       # a frame table added later (issue #12), left out while absent
+
+
+def _declared_not_to_count(info) -> bool:
+    """True if a field (or a type inside its annotation, e.g. ``Optional[DataPath]``) or a settings
+    model carries ``json_schema_extra={"protocol": False}``."""
+    from pydantic.fields import FieldInfo
+
+    extra = getattr(info, "json_schema_extra", None)
+    if extra is None and isinstance(info, type) and issubclass(info, BaseModel):
+        extra = info.model_config.get("json_schema_extra")
+    if isinstance(extra, dict) and extra.get("protocol") is False:
+        return True
+    if isinstance(info, FieldInfo):
+        return any(_declared_not_to_count(m) for m in info.metadata) or _declared_not_to_count(info.annotation)
+    if isinstance(info, type):
+        return False
+    return any(_declared_not_to_count(a) for a in typing.get_args(info))
+
+
+def counting_keys(settings: type[BaseModel]):
+    """The keys of a characteristic's settings model that are design or criteria: every key but those
+    that say where or how data are read (``DataPath`` keys, ``sheet``, ``header_row``) or are declared
+    not to count (``json_schema_extra={"protocol": False}`` on the field); ``None`` when the whole
+    table is declared not to count (``json_schema_extra={"protocol": False}`` in its model_config)."""
+    if _declared_not_to_count(settings):
+        return None
+    return tuple(k for k, f in settings.model_fields.items() if not _declared_not_to_count(f))
+
+
+def _characteristic_tables():
+    from .registry import REGISTRY
+
+    return [(e.name, e.settings) for e in REGISTRY if e.settings is not None]
+
+
+def criteria_and_design() -> dict:
+    """Table -> the keys that are design or acceptance criteria (``"*"``: every key; ``()``: only
+    whether the table is there counts, normalised to "assessed"). A table absent from the study
+    normalises to null (unless added after protocol 1.0), so adding or removing one is a deviation.
+    Derived for the characteristics' tables from the registry's settings models."""
+    out = dict(FRAME_CRITERIA_AND_DESIGN)
+    for name, settings in _characteristic_tables():
+        keys = counting_keys(settings)
+        if keys is not None:
+            out[name] = keys
+    return out
+
+
+def not_criteria() -> dict:
+    """Table -> every key that is not design or criteria (tests check the two cover the whole schema)."""
+    out = dict(FRAME_NOT_CRITERIA)
+    for name, settings in _characteristic_tables():
+        keys = counting_keys(settings)
+        out[name] = ALL if keys is None else tuple(k for k in settings.model_fields if k not in keys)
+    return out
+
+
+def later_additions() -> dict:
+    """Table -> the keys added after protocol 1.0 (``"*"``: the whole table)."""
+    out = dict(LATER_KEYS)
+    for name, settings in _characteristic_tables():
+        if name not in PROTOCOL_1_0_TABLES and counting_keys(settings) is not None:
+            out[name] = ALL
+    return out
+
+
+def __getattr__(name):
+    # the lists as module attributes, derived from the registry on each use
+    derived = {"CRITERIA_AND_DESIGN": criteria_and_design, "NOT_CRITERIA": not_criteria,
+               "LATER_ADDITIONS": later_additions}
+    if name in derived:
+        return derived[name]()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 def normalised(config) -> dict:
     """The design and criteria of a validated study configuration, as a plain JSON dict."""
     dumped = config.model_dump(mode="json")
+    later_all = later_additions()
     out = {}
-    for section, keys in CRITERIA_AND_DESIGN.items():
-        value, later = dumped.get(section), LATER_ADDITIONS.get(section, ())
+    counting = criteria_and_design()
+    for section, keys in counting.items():
+        value, later = dumped.get(section), later_all.get(section, ())
         if value is None and later == ALL:
             continue
         if section == "analyte_settings":       # {analyte: {table: {key: value}}}, the design and criteria keys
             out[section] = {analyte: {table: {k: v for k, v in keys_of.items()
-                                              if _counts_as_criterion(table, k)}
+                                              if _counts_as_criterion(counting, table, k)}
                                       for table, keys_of in tables.items()}
                             for analyte, tables in value.items()}
             continue
@@ -216,8 +260,8 @@ def normalised(config) -> dict:
     return out
 
 
-def _counts_as_criterion(table: str, key: str) -> bool:
-    keys = CRITERIA_AND_DESIGN.get(table, ())
+def _counts_as_criterion(counting: dict, table: str, key: str) -> bool:
+    keys = counting.get(table, ())
     return keys == ALL or key in keys
 
 

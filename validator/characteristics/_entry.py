@@ -27,6 +27,15 @@ class Reading:
     unit: str                    # the concentration unit
     response_unit: str = ""
     key: str = ""                # unique per analyte in the dossier (prefix of a figure's element ids)
+    # the analyte's not_applicable list of results.json, as (item, reason) pairs
+    not_applicable: tuple[tuple[str, str], ...] = ()
+    # the analyte's whole results.json entry, for a characteristic that shows the results of entries
+    # above it (the re-validation draws this run's calibration); read it, never change it
+    analyte: Mapping[str, Any] | None = None
+
+    def reason_for(self, item: str) -> str:
+        """Why the result at ``item`` (its path in the analyte's entry) is not applicable."""
+        return next((reason for path, reason in self.not_applicable if path == item), "see the analyte's notes")
 
 
 @dataclass(frozen=True)
@@ -52,7 +61,11 @@ class Characteristic(Generic[R]):
     its data file and returns ``{analyte: data}``. ``result_types`` are the dataclasses the
     ``results.Serialiser`` writes under ``name``. ``sentences(entry, reading)`` and
     ``figures(entry, reading)`` build the dossier's text and SVG figures from the written
-    results.json entry alone; ``fragment`` is its template. ``json_path`` writes the result
+    results.json entry alone; ``fragment`` is its template and ``placement`` where the dossier
+    includes it: ``"characteristics"`` in each analyte's characteristics section (for an analyte
+    that has the entry), ``"analyte"`` as a section of its own ahead of them (the calibration),
+    ``"study-before"`` and ``"study-after"`` once, as a study-level section before or after the
+    analytes' sections (the re-validation and method comparison; the quantified samples). ``json_path`` writes the result
     inside an earlier entry's section instead of under its own name (the LOQ verification is
     ``"detection.loq_verification"``). ``record(result)``, when given, makes the dataclass that
     results.json writes for a result that holds more than it shows (the calibration's fit).
@@ -71,6 +84,7 @@ class Characteristic(Generic[R]):
     sentences: Callable[[dict, Reading], Mapping[str, str]] | None = None
     figures: Callable[[dict, Reading], Mapping[str, str]] | None = None
     fragment: str | None = None
+    placement: str = "characteristics"
     judges: bool = True
     json_path: str | None = None
     record: Callable[[R], Any] | None = None

@@ -70,8 +70,11 @@ def _printable(text: str) -> str:
     return text
 
 
-# a data path as written in the study file: relative to the study file's folder
-DataPath = Annotated[str, Field(min_length=1, max_length=MAX_PATH_LENGTH), AfterValidator(_no_control)]
+# a data path as written in the study file: relative to the study file's folder. Where the data are is
+# no design or criterion: {"protocol": False} leaves it out of the protocol (validator.protocol)
+NOT_IN_PROTOCOL = {"protocol": False}
+DataPath = Annotated[str, Field(min_length=1, max_length=MAX_PATH_LENGTH, json_schema_extra=NOT_IN_PROTOCOL),
+                     AfterValidator(_no_control)]
 # free text shown in the dossier (lengths in TEXT_LIMITS)
 Text = Annotated[str, AfterValidator(_printable)]
 
@@ -143,8 +146,9 @@ class DataSource(_Section):
     """
 
     data: Optional[DataPath] = None
-    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = None
-    header_row: Optional[int] = Field(None, ge=1, le=1_000_000)
+    sheet: Optional[Annotated[str, Field(min_length=1, max_length=31), AfterValidator(_no_control)]] = Field(
+        None, json_schema_extra=NOT_IN_PROTOCOL)
+    header_row: Optional[int] = Field(None, ge=1, le=1_000_000, json_schema_extra=NOT_IN_PROTOCOL)
 
 
 class StudySection(_Section):

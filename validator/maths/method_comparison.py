@@ -433,8 +433,8 @@ class BlandAltman:
     excluded: tuple[int, ...] = field(default=(), metadata={"json": None})
     excluded_samples: tuple[str, ...] = field(init=False)    # the excluded pairs' sample names
     note: str = ""
-    # every pair's difference in the order given (NaN for an excluded pair), for the plot
-    differences: tuple[float, ...] = field(default=(), metadata={"json": None})
+    # every pair's difference in the order given (NaN, written null, for an excluded pair): the plot's points
+    differences: tuple[float, ...] = ()
     samples: tuple[str, ...] = field(default=(), metadata={"json": None})    # the pairs' names, if given
 
     def __post_init__(self):

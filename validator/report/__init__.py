@@ -17,8 +17,7 @@ import jinja2
 
 from . import numbers, summary
 from .plots import PALETTE, analyte_figures, figures_for_all, style
-from .text import (SIG, SIG_P, calibration_sentences, fmt, fmt_p, level_label, met,
-                   verdict_label)
+from .text import SIG, SIG_P, fmt, fmt_p, level_label, met, verdict_label
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
 
@@ -109,32 +108,6 @@ def _series_pct(data, lv):
     return out
 
 
-def _change_data(a, entry: dict) -> dict:
-    out = {}
-    prev = a.data.of("revalidation")
-    prev = None if prev is None else prev.entry
-    if prev is not None:
-        levels = [lv["concentration"] for lv in prev["calibration"]["level_table"]]
-        out["revalidation"] = {
-            "previous_coefficients": prev["calibration"]["coefficients"],
-            "previous_range": (min(levels), max(levels)),
-            "current_coefficients": entry["calibration"]["coefficients"],
-            "current_range": (float(a.calibration.fit.x.min()), float(a.calibration.fit.x.max()))}
-    from ..characteristics import comparison
-
-    c = a.result_of(comparison.ENTRY)
-    if c is not None:
-        ba = c.bland_altman
-        out["comparison"] = {
-            "reference": list(c.reference), "test": list(c.test),
-            # a pair without a percentage difference (mean 0) is NaN: not drawn
-            "differences": list(ba.differences),
-            "bias": ba.bias, "limits": None if ba.limits is None else list(ba.limits), "percentage": ba.percentage,
-            "pb_a": c.passing_bablok.intercept, "pb_b": c.passing_bablok.slope,
-            "dm_a": c.deming.intercept, "dm_b": c.deming.slope}
-    return out
-
-
 def _readings(results: dict, alpha: float) -> list:
     """Per analyte: (name, its results.json entry, Reading) of every registry entry with sentences or
     figures that the analyte has."""
@@ -144,7 +117,9 @@ def _readings(results: dict, alpha: float) -> list:
     out = []
     for i, a in enumerate(results["analytes"]):
         reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
-                                   key=str(i))
+                                   key=str(i), not_applicable=tuple((n["item"], n["reason"])
+                                                                    for n in a.get("not_applicable", ())),
+                                   analyte=a)
         out.append([(e.name, entry, reading) for e in registry.REGISTRY
                     if (e.sentences or e.figures) and (entry := _written(a, e.written_at))])
     return out
@@ -181,18 +156,19 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
     readings = _readings(results, alpha)
-    figures = figures_for_all([{**_plot_data(i, a, study), **_change_data(a, results["analytes"][i]),
-                                "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
+    figures = figures_for_all([{**_plot_data(i, a, study), "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
                               _analyte_figures)
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     unit = study["concentration_unit"]
-    shown = tuple(e.name for e in registry.REGISTRY if e.fragment)
+    # the fragments in registry order, by where the dossier includes them (Characteristic.placement)
+    placed = {p: [e for e in registry.REGISTRY if e.fragment and e.placement == p]
+              for p in ("analyte", "characteristics", "study-before", "study-after")}
+    shown = tuple(e.name for e in placed["characteristics"])
     titles = {e.name: e.title for e in registry.REGISTRY}
     analytes = []
     for i, a in enumerate(results["analytes"]):
-        text = calibration_sentences(a, alpha, unit)
-        text.update({name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
-                     if name in sentences})
+        text = {name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
+                if name in sentences}
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text,
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
                          "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"]),
@@ -203,14 +179,14 @@ def render_html(result, results: dict, *, paper: str = "a4") -> str:
                 "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None}
                for a in analytes for point in a["flagged_points"]]
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
-    # the characteristics shown in each analyte's section, in registry order (those with a fragment)
-    sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in registry.REGISTRY if e.fragment]
+    # the characteristics shown in each analyte's characteristics section, in registry order
+    sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in placed["characteristics"]]
     # characteristics assessed for any analyte (the formulas page shows the sector ones only then)
     sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, alpha=alpha, sections=sections,
+        r=results, study=study, analytes=analytes, alpha=alpha, sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),

@@ -251,69 +251,11 @@ def _precision_figure(d: dict) -> str:
     return _svg(fig, f"tp{d['key']}")
 
 
-def _line(coefficients: dict, xs):
-    """Values of a calibration function a + b x + c x^2 for drawing (coefficients from results.json)."""
-    a = coefficients.get("intercept", {}).get("estimate", 0.0)
-    b = coefficients["slope"]["estimate"]
-    c = coefficients.get("quadratic", {}).get("estimate", 0.0)
-    return [a + b * x + c * x * x for x in xs]
-
-
-def _revalidation_figure(d: dict) -> str:
-    r = d["revalidation"]
-    fig, ax = plt.subplots(figsize=(6.4, 3.0))
-    for label, coef, (lo, hi), style, colour in (
-            ("previous validation", r["previous_coefficients"], r["previous_range"], "--", PALETTE["pred"]),
-            ("this run", r["current_coefficients"], r["current_range"], "-", PALETTE["fit"])):
-        xs = [lo + (hi - lo) * i / 60 for i in range(61)]
-        ax.plot(xs, _line(coef, xs), style, color=colour, linewidth=1.4, label=label)
-    _points(ax, d["x"], d["y"], "o", label="calibrators, this run")
-    ax.set_xlabel(f"concentration ({d['xunit']})")
-    ax.set_ylabel(f"response ({d['yunit']})")
-    ax.legend(frameon=False, fontsize=7, loc="upper left")
-    fig.tight_layout()
-    return _svg(fig, f"rv{d['key']}")
-
-
-def _comparison_figure(d: dict) -> str:
-    c = d["comparison"]
-    x, y = c["reference"], c["test"]
-    fig, (ax1, ax2) = plt.subplots(1, 2, figsize=(6.4, 3.0))
-    lo, hi = min(min(x), min(y)), max(max(x), max(y))
-    ax1.plot([lo, hi], [lo, hi], ":", color=PALETTE["ink"], linewidth=0.8, label="identity")
-    if c["pb_b"] is not None:                     # None: not applicable, nothing to draw
-        ax1.plot([lo, hi], [c["pb_a"] + c["pb_b"] * lo, c["pb_a"] + c["pb_b"] * hi], "-", color=PALETTE["fit"],
-                 linewidth=1.2, label="Passing-Bablok")
-    if c["dm_b"] is not None:
-        ax1.plot([lo, hi], [c["dm_a"] + c["dm_b"] * lo, c["dm_a"] + c["dm_b"] * hi], "--", color=PALETTE["pred"],
-                 linewidth=1.2, label="Deming")
-    _points(ax1, x, y, "o")
-    ax1.set_xlabel(f"previous / reference ({d['xunit']})")
-    ax1.set_ylabel(f"this run / test ({d['xunit']})")
-    ax1.legend(frameon=False, fontsize=6)
-    means = [(a + b) / 2 for a, b in zip(x, y)]
-    _points(ax2, means, c["differences"], "s")
-    if c["bias"] is not None:
-        ax2.axhline(c["bias"], color=PALETTE["fit"], linewidth=1.2)
-        for limit in c["limits"]:
-            ax2.axhline(limit, color=PALETTE["pred"], linewidth=1, ls="--")
-    ax2.axhline(0, color=PALETTE["ink"], linewidth=0.6, ls=":")
-    ax2.set_xlabel(f"mean of the two ({d['xunit']})")
-    ax2.set_ylabel("difference" + (" (%)" if c["percentage"] else f" ({d['xunit']})"))
-    ax2.set_title("bias (solid), limits of agreement (dashed)", fontsize=8, loc="left")
-    fig.tight_layout()
-    return _svg(fig, f"mc{d['key']}")
-
-
 def analyte_figures(d: dict) -> dict:
     with style():
         figs = {"calibration": _calibration_figure(d), "diagnostics": _diagnostic_figure(d)}
         if d.get("precision"):
             figs["precision"] = _precision_figure(d)
-        if d.get("revalidation"):
-            figs["revalidation"] = _revalidation_figure(d)
-        if d.get("comparison"):
-            figs["comparison"] = _comparison_figure(d)
         return figs
 
 

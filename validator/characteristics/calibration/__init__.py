@@ -2,15 +2,16 @@
 automatic choice of model and weighting; also the inverse prediction used by the samples.
 
 The first registry entry: its data file names the analytes. Parts: :mod:`.settings` (table,
-loader), :mod:`.analysis` (pure, criteria). Its sentences, figures and dossier section are
-still in ``report/text.py``, ``report/plots.py`` and ``dossier.html.j2``; results.json writes
-its :class:`~.analysis.CalibrationRecord`.
+loader), :mod:`.analysis` (pure, criteria), :mod:`.presentation` (sentences); its dossier
+section is ``report_templates/characteristics/calibration.html.j2`` (a section of its own for
+each analyte). Its figures are still drawn in ``report/plots.py`` from the engine's plot series;
+results.json writes its :class:`~.analysis.CalibrationRecord`.
 """
 
 from __future__ import annotations
 
 from .._entry import Assessment, Characteristic
-from . import settings
+from . import presentation, settings
 from .analysis import (BackCalculated, CalibrationRecord, CalibrationResult, ChoiceStep, OutlierFlag, SampleResult,
                        WeightingCandidate, analyse_calibration, back_calculate, calibration_criteria,
                        calibration_record, choose_weighting, lack_of_fit, mandel_test, quantify)
@@ -32,4 +33,5 @@ def assess(ctx) -> Assessment[CalibrationResult]:
 
 ENTRY: Characteristic[CalibrationResult] = Characteristic(
     "calibration", "Calibration", assess, settings=settings.CalibrationSection, required=True, load=settings.load,
-    result_types=(CalibrationRecord,), record=calibration_record)
+    result_types=(CalibrationRecord,), record=calibration_record, sentences=presentation.sentences,
+    fragment="characteristics/calibration.html.j2", placement="analyte")

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 from typing import Literal, Optional
 
 import numpy as np
-from pydantic import model_validator
+from pydantic import Field, model_validator
 
 from ...errors import DataError, show
 from ...inputs.loading import numeric_column
@@ -27,8 +27,8 @@ class CalibrationSection(DataSource):     # data (sheet, header_row); none when 
     weighting: Literal[WEIGHTINGS + ("auto",)] = "none"
     through_origin: bool = False
     # with [[runs]]: each run's injections through its own calibration ("run", the default) or one
-    # calibration over every run's calibrators ("pooled")
-    quantify_with: Optional[Literal["run", "pooled"]] = None
+    # calibration over every run's calibrators ("pooled"): how results are read, not a criterion
+    quantify_with: Optional[Literal["run", "pooled"]] = Field(None, json_schema_extra={"protocol": False})
 
     @model_validator(mode="after")
     def _origin_linear(self):

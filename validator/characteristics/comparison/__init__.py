@@ -9,7 +9,7 @@ drawn from the result's differences, which results.json does not hold) are not m
 from __future__ import annotations
 
 from .._entry import Assessment, Characteristic
-from . import settings
+from . import presentation, settings
 from .analysis import ComparisonPoint, ComparisonResult, assess_comparison, comparison_criteria
 
 __all__ = ["ENTRY", "ComparisonPoint", "ComparisonResult", "assess_comparison", "comparison_criteria"]
@@ -28,4 +28,4 @@ def assess(ctx) -> Assessment[ComparisonResult] | None:
 
 ENTRY: Characteristic[ComparisonResult] = Characteristic(
     "comparison", "Method comparison", assess, settings=settings.ComparisonSection, load=settings.load,
-    result_types=(ComparisonResult,))
+    result_types=(ComparisonResult,), figures=presentation.figures, fragment="characteristics/comparison.html.j2", placement="study-before")

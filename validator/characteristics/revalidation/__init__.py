@@ -3,8 +3,9 @@ mean sensitivity equivalence, residual SD ratio, LOD/LOQ, recovery and repeatabi
 
 The last registry entry: it reads the results of calibration, detection, recovery and
 precision. Parts: :mod:`.settings` (table, loader of the earlier results.json),
-:mod:`.analysis` (pure, criteria). Its dossier section (the frame's "What changed" section)
-and its figure are not moved yet.
+:mod:`.analysis` (pure, criteria), :mod:`.presentation` (its figure, drawn from results.json);
+its dossier section ("What changed since the previous validation", with the method comparison)
+is ``report_templates/characteristics/revalidation.html.j2``.
 """
 
 from __future__ import annotations
@@ -13,8 +14,8 @@ from dataclasses import replace
 
 from .. import calibration, detection, precision, recovery
 from .._entry import Assessment, Characteristic
-from . import settings
-from .analysis import (CalibrationChoice, PreviousResults, RecoveryChange, RepeatabilityChange, ResidualSdChange,
+from . import presentation, settings
+from .analysis import (CalibrationChoice, CalibrationFunction, PreviousResults, RecoveryChange, RepeatabilityChange, ResidualSdChange,
                        RevalidationResult, RunPair, RunSummary, SlopeComparison, assess_revalidation,
                        compare_slopes, joint_comparison, refit_like, residual_sd_ratio, revalidation_criteria,
                        run_summary, unmatched_criterion)
@@ -44,10 +45,11 @@ def assess(ctx) -> Assessment[RevalidationResult | None] | None:
                                  residual_sd_ratio_max=rc.residual_sd_ratio_max, alpha=ctx.alpha)
     run = previous.run
     result = replace(result, previous=PreviousResults(run.path, run.study_id, run.generated_at, run.sha256),
-                     previous_analyte=previous.name)
+                     previous_analyte=previous.name,
+                     previous_function=CalibrationFunction.from_entry(previous.entry["calibration"]))
     return Assessment(result, revalidation_criteria(result, rc.slope_change_max_pct, rc.residual_sd_ratio_max))
 
 
 ENTRY: Characteristic[RevalidationResult | None] = Characteristic(
     "revalidation", "Re-validation", assess, settings=settings.RevalidationSection, load=settings.load,
-    result_types=(RevalidationResult,))
+    result_types=(RevalidationResult,), figures=presentation.figures, fragment="characteristics/revalidation.html.j2", placement="study-before")

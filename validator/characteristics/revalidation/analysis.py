@@ -41,7 +41,7 @@ from ...criteria import Criterion, at_most, interval_within
 from ...maths.distributions import f_test_two_sided
 from ...maths.regression import PolynomialFit, fit_polynomial
 
-__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "RunPair", "RecoveryChange", "ResidualSdChange",
+__all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "CalibrationFunction", "RunPair", "RecoveryChange", "ResidualSdChange",
            "PreviousResults", "revalidation_criteria", "unmatched_criterion",
            "RepeatabilityChange", "CalibrationChoice", "compare_slopes", "residual_sd_ratio",
            "refit_like", "joint_comparison", "assess_revalidation", "calibration_points", "RunSummary",
@@ -315,6 +315,28 @@ class PreviousResults:
 _LIST = ("previous", "current")         # a RunPair written as [previous, current]
 
 
+@dataclass(frozen=True)
+class CalibrationFunction:
+    """A run's calibration function a + b x + c x² (a = 0 through the origin, c = 0 for a straight
+    line) over its calibrated range [low, high], as its results.json recorded it (for drawing)."""
+
+    intercept: float
+    slope: float
+    quadratic: float
+    low: float
+    high: float
+
+    @classmethod
+    def from_entry(cls, calibration: dict) -> "CalibrationFunction":
+        """From a results.json analyte's ``calibration`` entry (coefficients and level table)."""
+        coefficients = calibration["coefficients"]
+        levels = [lv["concentration"] for lv in calibration["level_table"]]
+        return cls(intercept=coefficients.get("intercept", {}).get("estimate", 0.0),
+                   slope=coefficients["slope"]["estimate"],
+                   quadratic=coefficients.get("quadratic", {}).get("estimate", 0.0),
+                   low=min(levels), high=max(levels))
+
+
 @dataclass(frozen=True, kw_only=True)
 class RevalidationResult:
     """One analyte compared with its previous validation. Field order and ``metadata`` give its
@@ -336,6 +358,8 @@ class RevalidationResult:
     repeatability: tuple[RepeatabilityChange, ...]       # levels in both runs
     verdict: str
     reasons: tuple[str, ...]
+    # the previous validation's own calibration function, drawn beside this run's in the dossier
+    previous_function: CalibrationFunction | None = field(default=None, metadata={"omit_none": True})
 
     def __post_init__(self):
         object.__setattr__(self, "basis", self.slope.basis)

@@ -22,7 +22,7 @@ class RevalidationSection(_Section):
     slope_change_max_pct: float = Field(5.0, gt=0, le=100)
     residual_sd_ratio_max: float = Field(2.0, gt=0, le=100)
     # this run's analyte name -> its name in the previous results.json, for renamed analytes
-    analytes: dict[str, str] = Field(default_factory=dict)
+    analytes: dict[str, str] = Field(default_factory=dict, json_schema_extra={"protocol": False})
 
 
 @dataclass(frozen=True)

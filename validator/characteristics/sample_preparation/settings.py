@@ -20,7 +20,7 @@ from __future__ import annotations
 
 from typing import Annotated, Optional
 
-from pydantic import Field, model_validator
+from pydantic import ConfigDict, Field, model_validator
 
 from ...inputs.study import TEXT_LIMITS, Text, _Section
 
@@ -51,6 +51,9 @@ class Preparation(_Section):
 
 class ReportingSection(_Section):
     """``[sample_preparation]``: the reporting unit and how samples were prepared (default, and per sample id)."""
+
+    # how results are expressed, not design or criteria: the table is left out of the protocol
+    model_config = ConfigDict(json_schema_extra={"protocol": False})
 
     unit: Text = Field(min_length=1, max_length=TEXT_LIMITS["concentration_unit"], pattern=r"\S")
     dilution_factor: Amount = 1.0

@@ -26,4 +26,4 @@ def assess(ctx) -> Assessment[tuple[SampleResult, ...]]:
 
 ENTRY: Characteristic[tuple[SampleResult, ...]] = Characteristic(
     "samples", "Quantified samples", assess, settings=settings.SamplesSection, load=settings.load,
-    result_types=(SampleResult,), judges=False)
+    result_types=(SampleResult,), judges=False, fragment="characteristics/samples.html.j2", placement="study-after")

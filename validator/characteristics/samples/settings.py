@@ -28,8 +28,9 @@ SampleId = Annotated[str, Field(min_length=1, max_length=100, pattern=r"\S"), Af
 class SamplesSection(DataSource):
     """[samples]: the unknowns' responses (none when [[runs]] give them), and optionally the ids expected."""
 
-    expected: list[SampleId] = []
-    expected_readings: Optional[int] = Field(None, ge=1, le=1000)
+    # the ids to check the data against: not design or criteria (validator.protocol)
+    expected: list[SampleId] = Field([], json_schema_extra={"protocol": False})
+    expected_readings: Optional[int] = Field(None, ge=1, le=1000, json_schema_extra={"protocol": False})
 
     @model_validator(mode="after")
     def _expected(self):
