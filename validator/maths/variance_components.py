@@ -153,6 +153,20 @@ class ClaimVerification:
 
 # ---------------------------------------------------------------- intervals on sums of mean squares
 
+def _linear_combination(coefficients, mean_squares, dfs):
+    """The arrays of sum c_q MS_q, checked: equal-length 1-D, c_q > 0, MS_q >= 0, n_q > 0."""
+    c = np.asarray(coefficients, dtype=float)
+    ms = np.asarray(mean_squares, dtype=float)
+    n = np.asarray(dfs, dtype=float)
+    if c.shape != ms.shape or c.shape != n.shape or c.ndim != 1 or c.size == 0:
+        raise ValueError(f"coefficients, mean_squares and dfs must be equal-length 1-D sequences, "
+                         f"got lengths {c.size}, {ms.size}, {n.size}")
+    if np.any(~(c > 0)) or np.any(~(ms >= 0)) or np.any(~(n > 0)):
+        raise ValueError(f"coefficients and dfs must be > 0 and mean squares >= 0, got {c.tolist()}, "
+                         f"{ms.tolist()}, {n.tolist()}")
+    return c, ms, n
+
+
 def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: float = 0.95):
     """Intervals on gamma = sum c_q E[MS_q] with all c_q > 0: Satterthwaite and MLS.
 
@@ -170,15 +184,7 @@ def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: fl
     For one mean square both reduce to the exact chi-square interval.
     """
     confidence = open_unit("confidence", confidence)
-    c = np.asarray(coefficients, dtype=float)
-    ms = np.asarray(mean_squares, dtype=float)
-    n = np.asarray(dfs, dtype=float)
-    if c.shape != ms.shape or c.shape != n.shape or c.ndim != 1 or c.size == 0:
-        raise ValueError(f"coefficients, mean_squares and dfs must be equal-length 1-D sequences, "
-                         f"got lengths {c.size}, {ms.size}, {n.size}")
-    if np.any(~(c > 0)) or np.any(~(ms >= 0)) or np.any(~(n > 0)):
-        raise ValueError(f"coefficients and dfs must be > 0 and mean squares >= 0, got {c.tolist()}, "
-                         f"{ms.tolist()}, {n.tolist()}")
+    c, ms, n = _linear_combination(coefficients, mean_squares, dfs)
     a = 1.0 - confidence
     terms = c * ms
     g = float(terms.sum())
@@ -209,15 +215,7 @@ def mls_upper_bound(coefficients, mean_squares, dfs, confidence: float = 0.95) -
     close to its stated confidence (the tests measure it by seeded simulation).
     """
     confidence = open_unit("confidence", confidence)
-    c = np.asarray(coefficients, dtype=float)
-    ms = np.asarray(mean_squares, dtype=float)
-    n = np.asarray(dfs, dtype=float)
-    if c.shape != ms.shape or c.shape != n.shape or c.ndim != 1 or c.size == 0:
-        raise ValueError(f"coefficients, mean_squares and dfs must be equal-length 1-D sequences, "
-                         f"got lengths {c.size}, {ms.size}, {n.size}")
-    if np.any(~(c > 0)) or np.any(~(ms >= 0)) or np.any(~(n > 0)):
-        raise ValueError(f"coefficients and dfs must be > 0 and mean squares >= 0, got {c.tolist()}, "
-                         f"{ms.tolist()}, {n.tolist()}")
+    c, ms, n = _linear_combination(coefficients, mean_squares, dfs)
     terms = c * ms
     g = float(terms.sum())
     if g == 0.0:
