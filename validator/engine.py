@@ -245,8 +245,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                          residual_views=residual_series(cal.fit), results=ctx.results)
 
 
-def analyse_study(loaded: LoadedStudy) -> StudyResult:
-    """Analyse every analyte of a loaded study."""
-    return StudyResult(loaded=loaded,
-                       analytes=tuple(analyse_analyte(a, loaded.config, loaded.config.study.concentration_unit)
-                                      for a in loaded.analytes))
+def analyse_study(loaded: LoadedStudy, on_analyte=None) -> StudyResult:
+    """Analyse every analyte of a loaded study; ``on_analyte(done, total)``, if given, after each one
+    (the command line's progress display)."""
+    analytes = []
+    for a in loaded.analytes:
+        analytes.append(analyse_analyte(a, loaded.config, loaded.config.study.concentration_unit))
+        if on_analyte is not None:
+            on_analyte(len(analytes), len(loaded.analytes))
+    return StudyResult(loaded=loaded, analytes=tuple(analytes))
