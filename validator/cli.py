@@ -70,6 +70,12 @@ def _cmd_run(args) -> int:
     formats = _formats(args.format)
     generated_at = run_timestamp()     # before numpy is imported: numpy.f2py reads the variable too
 
+    # One BLAS thread, set before numpy is first imported (a user's own setting is kept): validator's
+    # least-squares matrices have a few columns, and OpenBLAS's idle threads spin between its many
+    # small calls (measured, docs/performance.md: about half the CPU of a 50-analyte JSON run on
+    # 2 cores). One thread also makes the sums' order independent of the machine's core count;
+    # results.json was byte-identical with and without it (demo and 300 analytes).
+    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
     from .progress import Progress
 
     progress = Progress(quiet=args.quiet)
