@@ -70,17 +70,34 @@ def _cmd_run(args) -> int:
     formats = _formats(args.format)
     generated_at = run_timestamp()     # before numpy is imported: numpy.f2py reads the variable too
 
+    # One BLAS thread, set before numpy is first imported (a user's own setting is kept): validator's
+    # least-squares matrices have a few columns, and OpenBLAS's idle threads spin between its many
+    # small calls (measured, docs/performance.md: about half the CPU of a 50-analyte JSON run on
+    # 2 cores). One thread also makes the sums' order independent of the machine's core count;
+    # results.json was byte-identical with and without it (demo and 300 analytes).
+    os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+    from .progress import Progress
+
+    progress = Progress(quiet=args.quiet)
+    try:
+        return _run_study(args, formats, generated_at, progress)
+    finally:
+        progress.close()               # before the verdict line, or an error's one line, is printed
+
+
+def _run_study(args, formats, generated_at, progress) -> int:
     from .engine import analyse_study
     from .inputs.loading import load_study
     from .output import check_existing, check_target
     from .results import build_results, dumps
 
+    progress("reading the study")
     loaded = load_study(args.study)
     held = _held_to_protocol(args, loaded)
     target = check_target(args.out, [args.study] + [f.resolved for f in loaded.inputs]
                           + ([held[0]] if held else []))
     check_existing(target, args.out, args.force)          # early; repeated under the lock
-    result = analyse_study(loaded)
+    result = analyse_study(loaded, on_analyte=lambda k, n: progress("analysing", k, n))
     if held:                                              # deviations join the criteria here, and only here
         from .protocol import with_deviations
         result = with_deviations(result, held[3])
@@ -91,14 +108,16 @@ def _cmd_run(args) -> int:
 
     def write(folder: Path):
         if "json" in formats:
+            progress("writing results.json")
             (folder / "results.json").write_text(dumps(results), encoding="utf-8")
         if "html" in formats or "pdf" in formats:
             from .report import render_dossier
-            render_dossier(result, results, folder, formats=formats, paper=args.paper)
+            render_dossier(result, results, folder, formats=formats, paper=args.paper, progress=progress)
         from .inputs.integrity import write_manifest
         write_manifest(folder)
 
     _write_outputs(target, args.out, args.force, write)
+    progress.close()
     judged = [c["pass"] for a in results["analytes"] for c in a["criteria"]]
     print(f"validator: {results['verdict'].upper()}: {len(results['analytes'])} analyte(s), "
           f"{judged.count(False)} criterion/criteria not met, {judged.count(None)} not applicable; "
@@ -229,6 +248,8 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--paper", choices=("a4", "letter"), default="a4", help="PDF page size")
     run.add_argument("--force", action="store_true",
                      help="replace a previous validator output at --out (nothing else)")
+    run.add_argument("--quiet", action="store_true",
+                     help="no progress line on stderr (it is shown only on a terminal, for runs over about 2 s)")
     run.add_argument("--protocol", help="the approved protocol.json: deviations from it are listed and "
                      "each is a criterion not met")
     run.set_defaults(func=_cmd_run)

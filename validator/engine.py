@@ -248,9 +248,12 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                          residual_views=residual_series(cal.fit), results=ctx.results)
 
 
-def analyse_study(loaded: LoadedStudy) -> StudyResult:
-    """Analyse every analyte of a loaded study, each with its own settings ([analyte_settings])."""
-    return StudyResult(loaded=loaded,
-                       analytes=tuple(analyse_analyte(a, loaded.study.config_for(a.name),
-                                                      loaded.config.study.concentration_unit)
-                                      for a in loaded.analytes))
+def analyse_study(loaded: LoadedStudy, on_analyte=None) -> StudyResult:
+    """Analyse every analyte of a loaded study, each with its own settings ([analyte_settings]);
+    ``on_analyte(done, total)``, if given, after each one (the command line's progress display)."""
+    analytes = []
+    for a in loaded.analytes:
+        analytes.append(analyse_analyte(a, loaded.study.config_for(a.name), loaded.config.study.concentration_unit))
+        if on_analyte is not None:
+            on_analyte(len(analytes), len(loaded.analytes))
+    return StudyResult(loaded=loaded, analytes=tuple(analytes))

@@ -149,15 +149,19 @@ def _analyte_figures(d: dict) -> dict:
     return figures
 
 
-def render_html(result, results: dict, *, paper: str = "a4") -> str:
-    """The dossier as one self-contained HTML document."""
+def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> str:
+    """The dossier as one self-contained HTML document (``progress(stage, done, total)``: see
+    validator.progress)."""
     from .. import registry
 
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
     readings = _readings(results, alpha)
-    figures = figures_for_all([{**_plot_data(i, a, study), "characteristics": readings[i]} for i, a in enumerate(result.analytes)],
-                              _analyte_figures)
+    figures = figures_for_all([{**_plot_data(i, a, study), "characteristics": readings[i]}
+                               for i, a in enumerate(result.analytes)], _analyte_figures,
+                              on_done=None if progress is None else lambda k, n: progress("drawing figures", k, n))
+    if progress is not None:
+        progress("writing the HTML dossier")
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
     unit = study["concentration_unit"]
     # the fragments in registry order, by where the dossier includes them (Characteristic.placement)
@@ -232,9 +236,12 @@ def write_pdf(html: str, target: Path) -> list:
     return list(type(fetcher).refused)
 
 
-def render_dossier(result, results: dict, folder: Path, *, formats=("html", "pdf"), paper="a4") -> None:
-    html = render_html(result, results, paper=paper)
+def render_dossier(result, results: dict, folder: Path, *, formats=("html", "pdf"), paper="a4",
+                   progress=None) -> None:
+    html = render_html(result, results, paper=paper, progress=progress)
     if "html" in formats:
         (folder / "dossier.html").write_text(html, encoding="utf-8")
     if "pdf" in formats:
+        if progress is not None:
+            progress("laying out the PDF (the longest step)")
         write_pdf(html, folder / "dossier.pdf")

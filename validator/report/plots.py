@@ -279,15 +279,25 @@ def _die_with_parent(parent: int) -> None:
         os._exit(1)
 
 
-def figures_for_all(plot_data: list, draw=analyte_figures) -> list:
+def figures_for_all(plot_data: list, draw=analyte_figures, on_done=None) -> list:
     """``draw(d)`` (the figures of one analyte) for every analyte; two processes when there are several.
 
-    ``draw`` must be a module-level function (it is sent to the worker processes by name).
+    ``draw`` must be a module-level function (it is sent to the worker processes by name);
+    ``on_done(done, total)``, if given, is called in this process as each analyte's figures arrive.
     """
     _pyplot()       # imported once here, before the workers are forked, not once in each
+    done = []
+
+    def collect(figures):
+        for f in figures:
+            done.append(f)
+            if on_done is not None:
+                on_done(len(done), len(plot_data))
+        return done
+
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
         with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
                                  initializer=_die_with_parent, initargs=(os.getpid(),)) as pool:
-            return list(pool.map(draw, plot_data))
-    return [draw(d) for d in plot_data]
+            return collect(pool.map(draw, plot_data))
+    return collect(draw(d) for d in plot_data)
