@@ -40,7 +40,7 @@ class _LazyPyplot:
 
 plt = _LazyPyplot()
 
-__all__ = ["PALETTE", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg"]
+__all__ = ["PALETTE", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x"]
 
 # our own palette: blue / amber / plum / slate, distinguishable with common colour-vision deficiencies
 PALETTE = {"ink": "#1d2430", "data": "#1f5a8c", "fit": "#1d2430", "conf": "#1f5a8c",
@@ -117,6 +117,9 @@ def _log_x(ax, both: bool = False) -> None:
         scale("log")
         axis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
         axis.set_minor_formatter(NullFormatter())
+
+
+log_x = _log_x      # for the characteristics' figures
 
 
 def _wide(values) -> bool:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.plots import PALETTE, figure, points, svg
+from ...report.plots import PALETTE, figure, log_x, points, svg
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -46,7 +46,7 @@ def figures(entry: dict, reading) -> dict:
         ax.axhline(y, color=PALETTE["pred"], ls="--", lw=0.8)
     ax.axhline(0, color=PALETTE["ink"], lw=0.6)
     if min(means) > 0 and max(means) / min(means) > 20:
-        ax.set_xscale("log")
+        log_x(ax)
     ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
     ax.set_ylabel("(repeat − original) / mean, %")
     ax.legend(loc="best", frameon=False)
