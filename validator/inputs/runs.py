@@ -234,7 +234,10 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
 
     lots = [""] * len(table)
     if mapped["lot"] and table.has(mapped["lot"]):
-        lots = [cell.strip() for cell in table.texts(mapped["lot"], MAX_NAME_LENGTH)]
+        column = mapped["lot"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
+            lots[i] = text.strip()
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind == "matrix_blank" and not lots[i]:
             raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
