@@ -334,6 +334,13 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 raise DataError(f'matrix blank "{show(inj.sample)}" is in run "{show(inj.run)}", which has no '
                                 f'calibrator of analyte "{show(inj.analyte)}": selectivity compares it with its own '
                                 "run's lowest calibrator", file=inj.file, row=inj.row, value=inj.sample)
+        for run in dict.fromkeys(i.run for i in own if i.type == "matrix_blank"):
+            cal = [i for i in own if i.type == "calibrator" and i.run == run]
+            lowest = [i for i in cal if i.level == min(c.level for c in cal)]
+            if not sum(i.analyte_response for i in lowest) > 0:
+                raise DataError(f'the lowest calibrators of run "{show(run)}" have no response above zero; '
+                                "selectivity compares the matrix blanks with it", file=lowest[0].file,
+                                row=lowest[0].row, value=lowest[0].analyte_response)
     low = [i for i in own if i.type == "low_level" and i.level is not None]
     if fed_by_runs(cfg, "limit_of_blank"):
         first: dict = {}
