@@ -2,13 +2,14 @@
 
 A validation is a set of runs. Each ``[[runs]]`` table names one export (CSV or one .xlsx
 sheet), read untouched: ``[columns]`` says which of its headers holds each field the tool
-reads (sample, type, level, response, internal standard, analyte, run, day), ``[types]``
-which of its words means which injection type (the export's "Cal Std" is a calibrator).
-Columns the study does not map are left unread.
+reads (sample, type, level, response, internal standard, analyte, run, day, and the optional
+order and lot), ``[types]`` which of its words means which injection type (the export's "Cal
+Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
-(calibrator, blank, qc, spiked, unspiked, reference, sample), its level (the nominal
-concentration of a calibrator or QC, the added amount of a spiked sample) and its response.
+(calibrator, blank, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
+level (the nominal concentration of a calibrator or QC, the added amount of a spiked sample),
+its response, its lot and its place in the run's sequence (the ``order`` column, else the row).
 When an internal-standard column is mapped, the response is the ratio analyte / internal
 standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
 or negative internal-standard area is an error naming the row.
@@ -67,6 +68,8 @@ class Injection:
     sheet: str | None
     row: int
     matrix: str = ""             # spiked: the unspiked injections' sample id giving the native level ("": none)
+    lot: str = ""                # the matrix lot ([columns] lot; "": not given)
+    position: float = 0.0        # the place in the run's sequence: [columns] order, else the row
 
 
 def _subset(table, idx: list):
@@ -115,7 +118,21 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
         table = reader.table("runs", source, required, optional, other_columns="ignore")
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
+    _check_lots(out)
     return _match_matrices(reader.exclusions.apply_injections(out))
+
+
+def _check_lots(injections) -> None:
+    """One spelling per lot of an analyte: lots "A" and "a" would count as two (names compared ignoring case)."""
+    seen: dict = {}
+    for inj in injections:
+        if not inj.lot:
+            continue
+        first = seen.setdefault((inj.analyte, inj.lot.casefold()), inj)
+        if first.lot != inj.lot:
+            raise DataError(f'lot "{show(inj.lot)}" and "{show(first.lot)}" ({show(first.file)} row {first.row}) '
+                            "differ only in letter case: names are compared ignoring case, so they would be one "
+                            "lot; write it one way", file=inj.file, row=inj.row, column="lot", value=inj.lot)
 
 
 def _match_matrices(injections) -> tuple:
@@ -215,12 +232,40 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
             raise _error(table, "a spiked injection needs an added amount above zero", row=row,
                          column=mapped["level"], value=levels[i])
 
+    lots = [""] * len(table)
+    if mapped["lot"] and table.has(mapped["lot"]):
+        column = mapped["lot"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
+            lots[i] = text.strip()
+    for i, (kind, row) in enumerate(zip(kinds, table.rows)):
+        if kind == "matrix_blank" and not lots[i]:
+            raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
+                         row=row, column=mapped["lot"] or "lot", value=lots[i])
+    positions = [float(r) for r in table.rows]
+    if mapped["order"] and table.has(mapped["order"]):
+        column = mapped["order"]
+        for cell, row in zip(table.columns[column], table.rows):
+            if cell.strip() == "":
+                raise _error(table, "the injection's position in the sequence is missing", row=row, column=column,
+                             value=cell)
+        positions = table.numbers(column)
+        seen: dict = {}
+        for i, (value, row) in enumerate(zip(positions, table.rows)):
+            key = (runs[i], analytes[i], value)
+            if key in seen:
+                raise _error(table, f"position {value:g} is also that of row {seen[key]} of run "
+                             f'"{show(runs[i])}"; each injection of a run has its own place in the sequence',
+                             row=row, column=column, value=value)
+            seen[key] = row
+
     out = []
     for i, row in enumerate(table.rows):
         ratio = response[i] if internal[i] is None else response[i] / internal[i]
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
-                             internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row))
+                             internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
+                             lot=lots[i], position=float(positions[i])))
     return out
 
 
@@ -271,6 +316,46 @@ def check_run_calibrations(injections, *, needed: int, pooled: bool) -> None:
                             f"at least {needed} are needed for this model to quantify the run's injections "
                             '(or quantify with a pooled calibration: [calibration] quantify_with = "pooled")',
                             file=inj.file, row=inj.row)
+
+
+def _check_sector_injections(own, cfg, pooled: bool) -> None:
+    """What the sector tables that read the runs need of one analyte's injections.
+
+    A matrix blank is compared with its own run's LLOQ: its run needs calibrators. The low_level
+    injections of one sample id have one nominal level (EP17), and one spike level per analyte (MDL).
+    """
+    from .study import ColumnsSection, fed_by_runs
+
+    header = (cfg.columns or ColumnsSection()).level
+    calibrated = {i.run for i in own if i.type == "calibrator"}
+    if fed_by_runs(cfg, "selectivity"):
+        for inj in own:
+            if inj.type == "matrix_blank" and inj.run not in calibrated:
+                raise DataError(f'matrix blank "{show(inj.sample)}" is in run "{show(inj.run)}", which has no '
+                                f'calibrator of analyte "{show(inj.analyte)}": selectivity compares it with its own '
+                                "run's lowest calibrator", file=inj.file, row=inj.row, value=inj.sample)
+        for run in dict.fromkeys(i.run for i in own if i.type == "matrix_blank"):
+            cal = [i for i in own if i.type == "calibrator" and i.run == run]
+            lowest = [i for i in cal if i.level == min(c.level for c in cal)]
+            if not sum(i.analyte_response for i in lowest) > 0:
+                raise DataError(f'the lowest calibrators of run "{show(run)}" have no response above zero; '
+                                "selectivity compares the matrix blanks with it", file=lowest[0].file,
+                                row=lowest[0].row, value=lowest[0].analyte_response)
+    low = [i for i in own if i.type == "low_level" and i.level is not None]
+    if fed_by_runs(cfg, "limit_of_blank"):
+        first: dict = {}
+        for inj in low:
+            f = first.setdefault(inj.sample, inj)
+            if f.level != inj.level:
+                raise DataError(f'low-level sample "{show(inj.sample)}" has level {inj.level:g} here and '
+                                f"{f.level:g} at {show(f.file)} row {f.row}; one nominal level per sample",
+                                file=inj.file, row=inj.row, column=header, value=inj.level)
+    if fed_by_runs(cfg, "method_detection_limit") and low:
+        for inj in low:
+            if inj.level != low[0].level:
+                raise DataError(f"low-level injection at level {inj.level:g}, but {show(low[0].file)} row "
+                                f"{low[0].row} has {low[0].level:g}; the MDL takes one spike level per analyte",
+                                file=inj.file, row=inj.row, column=header, value=inj.level)
 
 
 @dataclass(frozen=True)
@@ -342,6 +427,16 @@ def load_runs(reader) -> RunsData:
         if first is not None and getattr(cfg, table) is None:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
                             f"[{table}] table; add it with {what}", file=first.file, row=first.row)
+    from .study import fed_by_runs
+    for kind, tables in (("matrix_blank", ("selectivity",)), ("low_level", ("limit_of_blank", "method_detection_limit"))):
+        first = next((i for i in injections if i.type == kind), None)
+        if first is not None and not any(fed_by_runs(cfg, t) for t in tables):
+            names = " or ".join(f"[{t}]" for t in tables)
+            raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
+                            "takes its data from the runs; add one without a data file of its own",
+                            file=first.file, row=first.row)
+    for own in grouped.values():
+        _check_sector_injections(own, cfg, pooled)
     design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()
     if set(design) - {"day", "run"}:
         raise StudyError("with [[runs]], a precision design can name the factors day and run only (they come "

@@ -211,7 +211,8 @@ def check_range(v, name: str = "range_pct"):
 
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
 
-INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample")
+INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
+                   "low_level")
 # a run or day label, or a header name of an export
 Label = Annotated[str, Field(min_length=1, max_length=200, pattern=r"\S"), AfterValidator(_no_control)]
 
@@ -238,6 +239,10 @@ class ColumnsSection(_Section):
     analyte: Optional[Label] = None
     run: Optional[Label] = None
     day: Optional[Label] = None
+    # the injection's position in its run's sequence (default: the row order of the export)
+    order: Optional[Label] = None
+    # the matrix lot (or source) of a matrix blank (selectivity) or a low-level sample (EP17)
+    lot: Optional[Label] = None
 
     @model_validator(mode="after")
     def _distinct(self):
@@ -266,6 +271,9 @@ class TypesSection(_Section):
     unspiked: Words = ["unspiked"]
     reference: Words = ["reference"]
     sample: Words = ["sample"]
+    # no default words: a blank matrix of one lot (selectivity), a sample at a low level (EP17, MDL)
+    matrix_blank: Words = []
+    low_level: Words = []
 
     @model_validator(mode="after")
     def _distinct(self):
@@ -337,8 +345,8 @@ def _table_field(model: type[BaseModel], required: bool) -> tuple:
     optional."""
     if required:
         return (model, ...)
-    if issubclass(model, DataSource):     # a data table is there when written, even if only data = ...
-        return (Optional[model], None)
+    if issubclass(model, DataSource) or getattr(model, "OPTIONAL_TABLE", False):
+        return (Optional[model], None)    # a data table is there when written, even if only data = ... (or empty)
     if all(not f.is_required() for f in model.model_fields.values()):
         try:
             return (model, model())
@@ -666,8 +674,42 @@ def _parse_toml(text: str, shown: str) -> dict:
 RUN_FED = ("calibration", "samples", "blanks", "recovery", "precision", "reference_material")
 
 
+# sector tables whose data files are left out when the injections of [[runs]] give their data instead:
+# table -> its file keys (all given: the table reads its own files; all left out: the runs feed it)
+RUN_FED_SECTOR = {"carry_over": ("data",), "selectivity": ("data",), "limit_of_blank": ("blanks", "low_samples"),
+                  "method_detection_limit": ("spiked", "blanks")}
+
+
+def fed_by_runs(config, name: str) -> bool:
+    """True when the sector table ``name`` is in the study and takes its data from the [[runs]] injections."""
+    table = getattr(config, name, None)
+    return (bool(config.runs) and table is not None and name in RUN_FED_SECTOR
+            and all(getattr(table, key) is None for key in RUN_FED_SECTOR[name]))
+
+
+def _check_sector_sources(config, shown: str, text: str) -> None:
+    """A sector table names its files, or (with [[runs]]) none of them; never a part."""
+    runs = bool(config.runs)
+    for name, keys in RUN_FED_SECTOR.items():
+        table = getattr(config, name, None)
+        if table is None:
+            continue
+        given = [k for k in keys if getattr(table, k) is not None]
+        required = [k for k in keys if k != "low_samples"]
+        if not runs:
+            for key in required:
+                if getattr(table, key) is None:
+                    raise StudyError("required key is missing", file=shown, key=f"{name}.{key}")
+        elif given and any(getattr(table, k) is None for k in required):
+            missing = next(k for k in required if getattr(table, k) is None)
+            raise StudyError(f"[{name}] names its own file {given[0]} = ... but not {missing}; give all its files, "
+                             "or none of them to take its data from the injections of [[runs]]", file=shown,
+                             line=_key_line(text, (name, given[0])), key=f"{name}.{missing}")
+
+
 def _check_data_sources(config, shown: str, text: str) -> None:
     """``data`` is given where a table needs a file, and left out where [[runs]] give the data."""
+    _check_sector_sources(config, shown, text)
     runs = bool(config.runs)
     for name in type(config).model_fields:
         table = getattr(config, name)

@@ -26,7 +26,7 @@ from .._common import ConfidenceInterval, quiet_numpy
 from ._shared import (check_count, labels, MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
                       mean_sd_cv, t_quantile_two_sided)
 
-__all__ = ["CarryOver", "carry_over", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
+__all__ = ["CarryOver", "CarryOverBlank", "carry_over", "SelectivityInjection", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
            "DilutionIntegrity", "dilution_integrity", "ReanalysedSample", "IncurredSampleReanalysis",
            "incurred_sample_reanalysis", "reanalysis_sample_count"]
 
@@ -46,24 +46,63 @@ def _reference_mean(values, name: str) -> float:
 
 # ----------------------------------------------------------------------------- carry-over
 @dataclass(frozen=True)
+class CarryOverBlank:
+    """One run's blank injected right after its highest calibrator (carry-over read from [[runs]]), or
+    the reason the run has none, with the run's references it is compared with.
+
+    ``lloq_response`` is the mean analyte response of the run's calibrators at its lowest level
+    (the LLOQ); ``internal_standard_reference`` the mean IS response of the run's calibrators and
+    QCs. % = 100 x blank response / reference.
+    """
+
+    run: str
+    blank: str                            # the blank's sample name ("" when the run has none)
+    file: str
+    sheet: str | None = field(metadata={"omit_none": True})
+    row: int | None                       # the blank's row
+    after: str                            # the highest calibrator it follows ("" when none)
+    after_row: int | None
+    highest_level: float | None
+    lloq_level: float | None
+    lloq_injections: int
+    lloq_response: float | None
+    blank_response: float | None
+    analyte_percent: float | None
+    internal_standard_reference: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    blank_internal_standard: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    reason: str = ""
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return self.reason or "no internal standard is mapped, so the IS part is not judged"
+
+
+@dataclass(frozen=True)
 class CarryOver:
     """Blank responses after the highest calibrator, as % of the LLOQ (analyte) and IS responses.
 
     ``internal_standard_percent`` is ``None`` when no IS responses were given
-    (the IS part is then not judged).
+    (the IS part is then not judged). ``data_from`` says where the responses came from: "file"
+    (the [carry_over] data file) or "runs" (the [[runs]] sequences, each blank in ``run_blanks``);
+    with no blank at all (runs without a blank right after the highest calibrator) the maxima and
+    ``passed`` are ``None`` with ``reason``.
     """
 
     analyte_percent: tuple[float, ...]    # each blank injection, % of the mean LLOQ analyte response
     internal_standard_percent: tuple[float, ...] | None = field(metadata={"null_reason": "internal_standard_reason"})
-    max_analyte_percent: float            # the largest of analyte_percent
+    max_analyte_percent: float | None     # the largest of analyte_percent
     max_internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
     analyte_limit_percent: float = 20.0
     internal_standard_limit_percent: float = 5.0
-    passed: bool = False
+    passed: bool | None = False
+    reason: str = ""
+    data_from: str = "file"
+    run_blanks: tuple[CarryOverBlank, ...] = ()
 
     @property
     def internal_standard_reason(self) -> str:
-        return "no internal-standard responses were given, so the IS part is not judged"
+        return self.reason or "no internal-standard responses were given, so the IS part is not judged"
 
 
 def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=None,
@@ -120,8 +159,38 @@ class SelectivityLot:
 
 
 @dataclass(frozen=True)
+class SelectivityInjection:
+    """One matrix-blank injection of [[runs]] against the LLOQ of its own run (selectivity read from runs).
+
+    ``lloq_response`` and ``internal_standard_reference`` are the mean analyte and IS responses of the
+    run's calibrators at its lowest level; % = 100 x response / reference.
+    """
+
+    run: str
+    lot: str
+    sample: str
+    file: str
+    sheet: str | None = field(metadata={"omit_none": True})
+    row: int
+    response: float                       # the analyte response (area) of the matrix blank
+    lloq_response: float
+    analyte_percent: float
+    internal_standard_response: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    internal_standard_reference: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+    internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
+
+    @property
+    def internal_standard_reason(self) -> str:
+        return "no internal standard is mapped, so the IS part is not judged"
+
+
+@dataclass(frozen=True)
 class Selectivity:
-    """Blank-matrix lots: interference as % of the LLOQ and IS responses, and the fraction of lots passing."""
+    """Blank-matrix lots: interference as % of the LLOQ and IS responses, and the fraction of lots passing.
+
+    ``data_from``: "file" (the [selectivity] data file) or "runs" (matrix-blank injections of
+    [[runs]], each against its own run's LLOQ, listed in ``injections``).
+    """
 
     lots: tuple[SelectivityLot, ...]
     n_lots: int
@@ -131,12 +200,25 @@ class Selectivity:
     min_lots: int
     passed: bool | None
     reason: str = ""
+    data_from: str = "file"
+    injections: tuple[SelectivityInjection, ...] = ()
+
+
+def _run_means(values, groups, own, name: str) -> np.ndarray:
+    """For each label of ``own``, the mean of ``values`` whose label in ``groups`` is the same."""
+    means = {}
+    for g in dict.fromkeys(own):
+        mask = groups == g
+        if not mask.any():
+            raise ValueError(f"{name}: no reference response for run {g!r}")
+        means[g] = _reference_mean(values[mask], name)
+    return np.array([means[g] for g in own], dtype=float)
 
 
 def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=None,
                 internal_standard_response=None, analyte_limit_percent: float = 20.0,
                 internal_standard_limit_percent: float = 5.0, min_lots: int = 6,
-                min_fraction: float = 1.0) -> Selectivity:
+                min_fraction: float = 1.0, run=None, lloq_run=None) -> Selectivity:
     """Selectivity from individual blank-matrix lots (ICH M10 sec. 3.2.1).
 
     Defaults (from memory: ICH M10 sec. 3.2.1, chromatography): at least 6
@@ -144,6 +226,9 @@ def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=N
     the LLOQ analyte response and at the IS's <= 5 % of the IS response, so
     ``min_fraction`` = 1 (every lot). Ligand-binding assays (sec. 4) use other
     designs (from memory: 10 lots, 80 % of lots); pass their values.
+
+    ``run`` and ``lloq_run`` (both or neither) label the run of each blank and of each LLOQ
+    response: each blank is then compared with the mean LLOQ (and IS) response of its own run.
 
     Notes
     -----
@@ -160,7 +245,14 @@ def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=N
     if blanks.size == 0:
         raise ValueError("blank_response: at least one blank response is needed, got none")
     lots = labels(lot, blanks.size, "lot")
-    ref = _reference_mean(lloq_response, "lloq_response")
+    if (run is None) != (lloq_run is None):
+        raise ValueError("run and lloq_run: give both or neither")
+    lloq = as_float_array(lloq_response, "lloq_response")
+    if run is None:
+        ref = np.full(blanks.size, _reference_mean(lloq, "lloq_response"))
+    else:
+        own, groups = labels(run, blanks.size, "run"), labels(lloq_run, lloq.size, "lloq_run")
+        ref = _run_means(lloq, groups, own, "lloq_response")
     if (blank_internal_standard is None) != (internal_standard_response is None):
         raise ValueError("blank_internal_standard and internal_standard_response: give both or neither")
     ib = iref = None
@@ -168,12 +260,14 @@ def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=N
         ib = as_float_array(blank_internal_standard, "blank_internal_standard")
         if ib.size != blanks.size:
             raise ValueError(f"blank_internal_standard: expected {blanks.size} values, got {ib.size}")
-        iref = _reference_mean(internal_standard_response, "internal_standard_response")
+        istd = as_float_array(internal_standard_response, "internal_standard_response")
+        iref = (np.full(blanks.size, _reference_mean(istd, "internal_standard_response")) if run is None
+                else _run_means(istd, groups, own, "internal_standard_response"))
     rows = []
     for name in dict.fromkeys(lots):
         mask = lots == name
-        a_pct = float(100.0 * blanks[mask].max() / ref)
-        i_pct = None if ib is None else float(100.0 * ib[mask].max() / iref)
+        a_pct = float((100.0 * blanks[mask] / ref[mask]).max())
+        i_pct = None if ib is None else float((100.0 * ib[mask] / iref[mask]).max())
         ok = a_pct <= a_lim and (i_pct is None or i_pct <= i_lim)
         rows.append(SelectivityLot(str(name), a_pct, i_pct, ok))
     n_pass = sum(r.passed for r in rows)

@@ -77,6 +77,9 @@ class MethodDetectionLimit:
     blank_rule_reading: str = ""
     # the concentration the samples were spiked at, when given (the MDL is checked against it)
     spike_level: float | None = field(default=None, metadata={"null_reason": "spike_level_reason"})
+    # where the results came from: "file" (the spiked and blanks files) or "runs" (the low_level and
+    # blank injections of [[runs]], each found through its run's calibration, the run as batch)
+    data_from: str = "file"
 
     @property
     def blank_reason(self) -> str:

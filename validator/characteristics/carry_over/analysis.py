@@ -1,11 +1,19 @@
-"""Carry-over judged (ICH M10): blanks after the highest calibrator against the LLOQ (and IS) response."""
+"""Carry-over judged (ICH M10): blanks after the highest calibrator against the LLOQ (and IS) response.
+
+Two ways in: the ``[carry_over]`` data file (blank and LLOQ rows), or the sequences of the
+analytical runs (``[[runs]]``), where the blank is the injection right after a run's highest
+calibrator (:func:`carry_over_from_runs`).
+"""
 
 from __future__ import annotations
 
-from ...criteria import Criterion, at_most
-from ...sector.bioanalytical import CarryOver, carry_over
+import numpy as np
 
-__all__ = ["CarryOver", "assess_carry_over", "carry_over_criteria"]
+from ...criteria import Criterion, at_most
+from ...sector._shared import MAX_MAGNITUDE
+from ...sector.bioanalytical import CarryOver, CarryOverBlank, carry_over
+
+__all__ = ["CarryOver", "CarryOverBlank", "assess_carry_over", "carry_over_from_runs", "carry_over_criteria"]
 
 
 def assess_carry_over(data, *, analyte_limit_pct: float, internal_standard_limit_pct: float) -> CarryOver:
@@ -16,12 +24,114 @@ def assess_carry_over(data, *, analyte_limit_pct: float, internal_standard_limit
                       analyte_limit_percent=analyte_limit_pct, internal_standard_limit_percent=internal_standard_limit_pct)
 
 
+def _describe(inj) -> str:
+    return f'"{inj.sample}" ({inj.type}, {inj.file} row {inj.row})'
+
+
+def _run_blanks(run: str, own: list) -> list[CarryOverBlank]:
+    """The blanks injected right after the run's highest calibrator, or one entry saying why there is none."""
+    first = own[0]
+    none = dict(run=run, blank="", file=first.file, sheet=first.sheet, row=None, after="", after_row=None,
+                highest_level=None, lloq_level=None, lloq_injections=0, lloq_response=None, blank_response=None,
+                analyte_percent=None, internal_standard_reference=None, blank_internal_standard=None,
+                internal_standard_percent=None)
+    calibrators = [i for i in own if i.type == "calibrator"]
+    if not calibrators:
+        return [CarryOverBlank(**none, reason=f'run "{run}" has no calibrator, so no highest calibrator to follow')]
+    highest = max(i.level for i in calibrators)
+    lowest = min(i.level for i in calibrators)
+    lloq = [i for i in calibrators if i.level == lowest]
+    lloq_mean = float(np.mean([i.analyte_response for i in lloq]))
+    none.update(highest_level=float(highest), lloq_level=float(lowest), lloq_injections=len(lloq),
+                lloq_response=lloq_mean)
+    tops = [k for k, i in enumerate(own) if i.type == "calibrator" and i.level == highest]
+    pairs = [(own[k], own[k + 1]) for k in tops if k + 1 < len(own) and own[k + 1].type == "blank"]
+    if not pairs:
+        last = own[tops[-1]]
+        after = own[tops[-1] + 1] if tops[-1] + 1 < len(own) else None
+        what = ("is the run's last injection" if after is None
+                else f"is followed by {_describe(after)}, not a blank")
+        return [CarryOverBlank(**{**none, "after": last.sample, "after_row": last.row},
+                               reason=f'no blank was injected right after the highest calibrator of run "{run}": '
+                                      f"{_describe(last)} {what}")]
+    if not lloq_mean >= 1 / MAX_MAGNITUDE:        # the smallest reference the percentage takes
+        return [CarryOverBlank(**none, reason=f'the mean response of the lowest calibrators of run "{run}" is '
+                                              f"{lloq_mean:g}; no percentage of it exists")]
+    with_is = all(i.internal_standard_response is not None for i in own)
+    is_ref = None
+    if with_is:
+        spiked = [i.internal_standard_response for i in own if i.type in ("calibrator", "qc")]
+        is_ref = float(np.mean(spiked))
+    out = []
+    for top, blank in pairs:
+        r = carry_over([blank.analyte_response], [i.analyte_response for i in lloq],
+                       blank_internal_standard=[blank.internal_standard_response] if with_is else None,
+                       internal_standard_response=[i.internal_standard_response for i in own
+                                                   if i.type in ("calibrator", "qc")] if with_is else None)
+        out.append(CarryOverBlank(**{**none, "blank": blank.sample, "file": blank.file, "sheet": blank.sheet,
+                                     "row": blank.row, "after": top.sample, "after_row": top.row,
+                                     "blank_response": float(blank.analyte_response),
+                                     "analyte_percent": r.analyte_percent[0],
+                                     "internal_standard_reference": is_ref,
+                                     "blank_internal_standard": (float(blank.internal_standard_response)
+                                                                 if with_is else None),
+                                     "internal_standard_percent": (r.internal_standard_percent[0]
+                                                                   if with_is else None)}))
+    return out
+
+
+def carry_over_from_runs(injections, *, analyte_limit_pct: float, internal_standard_limit_pct: float) -> CarryOver:
+    """Carry-over read from the sequences of the analytical runs, run by run.
+
+    Parameters
+    ----------
+    injections : sequence
+        One analyte's injections, objects with the attributes of
+        :class:`validator.inputs.runs.Injection` (run, type, level, sample, analyte_response,
+        internal_standard_response, file, sheet, row, position).
+
+    Notes
+    -----
+    In each run, in the order of ``position`` (the export's row order, or its mapped order
+    column; injections left out by [[exclusions]] are not in the sequence), every injection of
+    type blank that comes right after a calibrator at the run's highest level is a carry-over
+    blank. Its analyte response (the raw area, not the ratio to the internal standard) as
+    % = 100 x blank / mean analyte response of the run's calibrators at the lowest level (the
+    LLOQ); with an internal standard, the blank's IS response as % of the mean IS response of the
+    run's calibrators and QCs. ICH M10 sec. 3.2.6 (from memory: analyte <= 20 % of the LLOQ,
+    IS <= 5 %). A run with no blank right after its highest calibrator is listed with the reason;
+    with no such blank in any run the carry-over is not judged (``passed`` None).
+    """
+    runs: dict = {}
+    for inj in injections:
+        runs.setdefault(inj.run, []).append(inj)
+    rows = []
+    for run, own in runs.items():
+        rows.extend(_run_blanks(run, sorted(own, key=lambda i: i.position)))
+    judged = [r for r in rows if r.analyte_percent is not None]
+    if not judged:
+        return CarryOver(analyte_percent=(), internal_standard_percent=None, max_analyte_percent=None,
+                         max_internal_standard_percent=None, analyte_limit_percent=float(analyte_limit_pct),
+                         internal_standard_limit_percent=float(internal_standard_limit_pct), passed=None,
+                         reason="; ".join(r.reason for r in rows), data_from="runs", run_blanks=tuple(rows))
+    a_pct = tuple(r.analyte_percent for r in judged)
+    i_pct = (tuple(r.internal_standard_percent for r in judged)
+             if all(r.internal_standard_percent is not None for r in judged) else None)
+    max_i = None if i_pct is None else max(i_pct)
+    passed = max(a_pct) <= analyte_limit_pct and (max_i is None or max_i <= internal_standard_limit_pct)
+    return CarryOver(analyte_percent=a_pct, internal_standard_percent=i_pct, max_analyte_percent=max(a_pct),
+                     max_internal_standard_percent=max_i, analyte_limit_percent=float(analyte_limit_pct),
+                     internal_standard_limit_percent=float(internal_standard_limit_pct), passed=passed,
+                     data_from="runs", run_blanks=tuple(rows))
+
+
 def carry_over_criteria(result: CarryOver) -> tuple[Criterion, ...]:
     """``carry-over`` (largest blank, % of the LLOQ response) and, with IS responses,
-    ``carry-over-internal-standard``."""
+    ``carry-over-internal-standard``; not applicable (with the reason) when no blank was found."""
+    note = f"not applicable: {result.reason}" if result.max_analyte_percent is None else ""
     out = [Criterion("carry-over", f"largest blank after the highest calibrator at most {result.analyte_limit_percent:g} % "
                      "of the mean LLOQ analyte response", result.max_analyte_percent, result.analyte_limit_percent,
-                     at_most(result.max_analyte_percent, result.analyte_limit_percent))]
+                     at_most(result.max_analyte_percent, result.analyte_limit_percent), note)]
     if result.max_internal_standard_percent is not None:
         out.append(Criterion("carry-over-internal-standard",
                              f"largest IS response in those blanks at most {result.internal_standard_limit_percent:g} % "

@@ -8,11 +8,25 @@ __all__ = ["sentences", "figures"]
 
 
 def sentences(entry: dict, reading) -> dict:
+    out = {}
+    if entry.get("data_from") == "runs":
+        blanks = [b for b in entry["run_blanks"] if b["analyte_percent"] is not None]
+        out["source"] = ("Read from the run sequences: in each run, the blank injected right after the highest "
+                         "calibrator, against the mean response of that run's lowest calibrators (LLOQ)"
+                         + (" and the mean internal-standard response of its calibrators and QCs" if
+                            entry["internal_standard_percent"] is not None else "")
+                         + f"; {len(blanks)} such blank(s) in {len({b['run'] for b in entry['run_blanks']})} run(s).")
+        missing = [b["reason"] for b in entry["run_blanks"] if b["analyte_percent"] is None]
+        if missing and blanks:
+            out["missing"] = "Not judged in these runs: " + "; ".join(missing) + "."
+    if entry["max_analyte_percent"] is None:
+        out["analyte"] = f"Carry-over not judged: {entry['reason']}."
+        return out
     n = len(entry["analyte_percent"])
     word = "within" if entry["max_analyte_percent"] <= entry["analyte_limit_percent"] else "ABOVE"
-    out = {"analyte": (f"The largest of {n} blank response(s) after the highest calibrator is "
-                       f"{fmt(entry['max_analyte_percent'], 3)} % of the mean LLOQ response, {word} the limit of "
-                       f"{fmt(entry['analyte_limit_percent'])} %.")}
+    out["analyte"] = (f"The largest of {n} blank response(s) after the highest calibrator is "
+                      f"{fmt(entry['max_analyte_percent'], 3)} % of the mean LLOQ response, {word} the limit of "
+                      f"{fmt(entry['analyte_limit_percent'])} %.")
     if entry["max_internal_standard_percent"] is not None:
         word = "within" if entry["max_internal_standard_percent"] <= entry["internal_standard_limit_percent"] else "ABOVE"
         out["internal_standard"] = (f"At the internal standard's retention the largest is "

@@ -10,6 +10,7 @@ data = "carry-over.csv"   # columns kind ("blank": a blank injected after the hi
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import ClassVar, Optional
 
 import numpy as np
 from pydantic import Field
@@ -20,7 +21,9 @@ __all__ = ["CarryOverSection", "CarryOverData", "load"]
 
 
 class CarryOverSection(_Section):
-    data: DataPath
+    # there only when written: with [[runs]] an empty table reads the injections
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    data: Optional[DataPath] = None         # left out with [[runs]]: the runs' sequences give the blanks
     analyte_limit_pct: float = Field(20.0, gt=0, le=100)
     internal_standard_limit_pct: float = Field(5.0, gt=0, le=100)
 
@@ -36,6 +39,8 @@ class CarryOverData:
 
 def load(reader, settings: CarryOverSection, analytes: dict) -> dict:
     """``{analyte: CarryOverData}``; each analyte needs blank and LLOQ rows, LLOQ responses above zero."""
+    if settings.data is None:          # the injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError
     from ...inputs.sector_tables import kinds, numbers, positive, read_rows
 

@@ -31,6 +31,9 @@ class DetectionCapability:
     # stated in the criteria's notes, which results.json writes
     blank_design_shortfall: str = field(default="", metadata={"json": None})
     low_design_shortfall: str = field(default="", metadata={"json": None})
+    # where the results came from: "file" ([limit_of_blank] blanks and low_samples) or "runs" (the blank
+    # and low_level injections of [[runs]], each found through its run's calibration: runs.injections)
+    data_from: str = "file"
 
 
 def detection_capability(blanks, blank_samples, blank_lots, low=None, low_samples=(), low_lots=(),

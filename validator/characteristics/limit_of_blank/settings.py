@@ -10,7 +10,7 @@ low_samples = "low-results.csv"  # columns sample, found; optional nominal, lot,
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal, Optional
+from typing import ClassVar, Literal, Optional
 
 import numpy as np
 from pydantic import Field
@@ -24,7 +24,9 @@ _CONCENTRATION = dict(gt=0, le=1e100)
 
 
 class LimitOfBlankSection(_Section):
-    blanks: DataPath
+    # there only when written: with [[runs]] an empty table reads the injections
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    blanks: Optional[DataPath] = None       # left out with [[runs]]: their blank and low-level injections
     low_samples: Optional[DataPath] = None
     method: Literal["nonparametric", "parametric"] = "nonparametric"
     purpose: Literal["establishment", "verification"] = "establishment"
@@ -53,6 +55,8 @@ class LimitOfBlankData:
 
 def load(reader, settings: LimitOfBlankSection, analytes: dict) -> dict:
     """``{analyte: LimitOfBlankData}`` for every analyte with blank results."""
+    if settings.blanks is None:          # the injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError
     from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, one_value_per_group, read_rows

@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
+import numpy as np
+
 from .._entry import Assessment, Characteristic
+from ..runs.analysis import RunsResult
 from . import presentation, settings
 from .analysis import MethodDetectionLimit, mdl, mdl_criteria
 from .settings import MethodDetectionLimitData, MethodDetectionLimitSection
@@ -16,8 +21,29 @@ def assess(ctx) -> Assessment[MethodDetectionLimit] | None:
     s: MethodDetectionLimitSection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
+    from_runs = isinstance(data, RunsResult)
+    if from_runs:                         # no files of its own: the runs' low_level and blank injections
+        data = _from_runs(data)
+        if data is None:
+            return None
     result = mdl(data, confidence=s.confidence)
+    if from_runs:
+        result = replace(result, data_from="runs")
     return Assessment(result, mdl_criteria(result, s.mdl_max))
+
+
+def _from_runs(runs: RunsResult) -> MethodDetectionLimitData | None:
+    """Spiked results: the found values of the low_level injections; method blanks: of the blank injections
+    (each through its run's calibration); the run as batch; the spike level when the low_level injections
+    give one. ``None`` without a low_level injection with a found value."""
+    spiked = [i for i in runs.injections if i.type == "low_level" and i.found is not None]
+    blanks = [i for i in runs.injections if i.type == "blank" and i.found is not None]
+    if not spiked:
+        return None
+    level = spiked[0].level if all(i.level is not None for i in spiked) else None
+    return MethodDetectionLimitData(np.array([i.found for i in spiked], float), tuple(i.run for i in spiked),
+                                    np.array([i.found for i in blanks], float), tuple(i.run for i in blanks),
+                                    None if level is None else float(level))
 
 
 ENTRY: Characteristic[MethodDetectionLimit] = Characteristic(

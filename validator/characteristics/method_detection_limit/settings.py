@@ -10,7 +10,7 @@ blanks = "mdl-blanks.csv"   # column found (empty, "ND" or "not detected": no nu
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Optional
+from typing import ClassVar, Optional
 
 import numpy as np
 from pydantic import Field
@@ -21,8 +21,10 @@ __all__ = ["MethodDetectionLimitSection", "MethodDetectionLimitData", "load"]
 
 
 class MethodDetectionLimitSection(_Section):
-    spiked: DataPath
-    blanks: DataPath
+    # there only when written: with [[runs]] an empty table reads the injections
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    spiked: Optional[DataPath] = None       # both left out with [[runs]]: their low-level and blank injections
+    blanks: Optional[DataPath] = None
     confidence: float = Field(0.99, ge=0.9, lt=1)          # 1 - alpha of the one-sided t; the rule fixes 0.99
     mdl_max: Optional[float] = Field(None, gt=0, le=1e100)  # the highest MDL the method may have; a criterion when set
 
@@ -38,6 +40,8 @@ class MethodDetectionLimitData:
 
 def load(reader, settings: MethodDetectionLimitSection, analytes: dict) -> dict:
     """``{analyte: MethodDetectionLimitData}`` for every analyte with spiked results."""
+    if settings.spiked is None:          # the injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError
     from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import labels, numbers, numbers_or_missing, positive, read_rows

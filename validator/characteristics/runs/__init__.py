@@ -12,13 +12,15 @@ chain response -> calibration -> found for every injection.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from .. import calibration
 from .._entry import Assessment, Characteristic
 from . import presentation
 from .analysis import (QuantifiedInjection, RunCalibration, RunsResult, qc_found, quantify_runs, reference_found,
                        run_samples, spiked_found)
 
-__all__ = ["ENTRY", "RunsResult", "RunCalibration", "QuantifiedInjection", "quantify_runs"]
+__all__ = ["ENTRY", "SECTOR_READS", "RunsResult", "RunCalibration", "QuantifiedInjection", "quantify_runs"]
 
 
 def assess(ctx) -> Assessment[RunsResult] | None:
@@ -36,7 +38,21 @@ def assess(ctx) -> Assessment[RunsResult] | None:
                        ("reference_material", reference_found(result) if certified else None)):
         if data is not None:
             provides.append((name, data))
-    return Assessment(result, (), provides=tuple(provides))
+    # the sector tables that name no file of their own read the run sequences: they get this result
+    for name, (key, kinds) in SECTOR_READS.items():
+        settings = getattr(ctx.config, name, None)
+        if (settings is not None and getattr(settings, key) is None and ctx.data.of(name) is None
+                and (kinds is None or any(i.type in kinds for i in result.injections))):
+            provides.append((name, result))
+    result = replace(result, feeds=tuple(name for name, _ in provides))
+    return Assessment(result, (), provides=tuple((name, result if isinstance(data, RunsResult) else data)
+                                                 for name, data in provides))
+
+
+# sector table -> (its file key: None means "read the runs"; the injection types it needs, None: the sequence)
+# (the study-file side of the same rule: validator.inputs.study.RUN_FED_SECTOR)
+SECTOR_READS = {"limit_of_blank": ("blanks", ("blank",)), "method_detection_limit": ("spiked", ("low_level",)),
+                "carry_over": ("data", None), "selectivity": ("data", ("matrix_blank",))}
 
 
 ENTRY: Characteristic[RunsResult] = Characteristic(

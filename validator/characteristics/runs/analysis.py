@@ -69,6 +69,8 @@ class QuantifiedInjection:
     within_range: bool
     reason: str = ""
     matrix: str = field(default="", metadata={"json": None})   # spiked: its unspiked matrix's sample id
+    lot: str = field(default="", metadata={"when": lambda i: bool(i.lot)})   # [columns] lot, when given
+    position: float = field(default=0.0, metadata={"json": None})             # its place in the run's sequence
 
 
 @dataclass(frozen=True)
@@ -80,6 +82,11 @@ class RunsResult:
     weighting: str
     calibrations: tuple[RunCalibration, ...]
     injections: tuple[QuantifiedInjection, ...]
+    # the characteristics that took their data from these injections, in registry order
+    feeds: tuple[str, ...] = ()
+    # the calibrator injections, read back through their calibration too (not written: the calibration
+    # section lists them); with ``injections``, every injection of the sequence
+    calibrators: tuple[QuantifiedInjection, ...] = field(default=(), repr=False, metadata={"json": None})
 
     def of_type(self, kind: str) -> tuple[QuantifiedInjection, ...]:
         return tuple(i for i in self.injections if i.type == kind)
@@ -146,10 +153,8 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
             calibrations.append(_calibration(run, x, y, model, weighting, alpha))
         calibrations = tuple(calibrations)
         used = {c.run: c for c in calibrations}
-    out = []
+    out, calibrators = [], []
     for inj in injections:
-        if inj.type == "calibrator":
-            continue
         c = used[inj.run]
         x0, inside = c.fit.inverse(inj.response)
         reason = ""
@@ -159,13 +164,14 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
                                    "corresponds to it")
         with quiet_numpy():
             within = found is not None and bool(inside) and c.low <= found <= c.high
-        out.append(QuantifiedInjection(run=inj.run, day=inj.day, sample=inj.sample, type=inj.type, level=inj.level,
+        (calibrators if inj.type == "calibrator" else out).append(QuantifiedInjection(run=inj.run, day=inj.day, sample=inj.sample, type=inj.type, level=inj.level,
                                        response=inj.response, analyte_response=inj.analyte_response,
                                        internal_standard_response=inj.internal_standard_response, file=inj.file,
                                        sheet=inj.sheet, row=inj.row, calibration=c.run, found=found,
-                                       within_range=within, reason=reason, matrix=getattr(inj, "matrix", "")))
+                                       within_range=within, reason=reason, matrix=getattr(inj, "matrix", ""),
+                                       lot=getattr(inj, "lot", ""), position=getattr(inj, "position", 0.0)))
     return RunsResult(quantified_with=POOLED if pooled else "run", model=model, weighting=weighting,
-                      calibrations=calibrations, injections=tuple(out))
+                      calibrations=calibrations, injections=tuple(out), calibrators=tuple(calibrators))
 
 
 # --- what the runs give the characteristics downstream ------------------------------------------

@@ -15,7 +15,14 @@ def sentences(entry: dict, reading) -> dict:
         how = f"each through the calibration of its own run ({len(runs)} run calibrations: {', '.join(runs)})"
     weighting = "unweighted" if entry["weighting"] == "none" else f"weighted {entry['weighting']}"
     model = {"linear": "straight line", "quadratic": "quadratic", "origin": "straight line through the origin"}
+    names = {"samples": "samples", "recovery": "recovery", "precision": "precision (series = run)",
+             "reference_material": "reference material", "limit_of_blank": "the limit of blank (EP17)",
+             "method_detection_limit": "the method detection limit", "carry_over": "carry-over (the run sequences)",
+             "selectivity": "selectivity (matrix blanks)"}
+    fed = [names.get(n, n) for n in entry.get("feeds", ())]
+    uses = (f"{fed[0][0].upper()}{fed[0][1:]}" + "".join(f", {f}" for f in fed[1:-1])
+            + (f" and {fed[-1]}" if len(fed) > 1 else "") + " use these injections" if fed
+            else "No characteristic takes its data from these injections")
     return {"path": "Found values were computed by validator from the raw responses in the run exports, "
-                    f"{how}, {model.get(entry['model'], entry['model'])}, {weighting}. Recovery, precision "
-                    "(series = run), reference material and samples use these found values; each injection's "
+                    f"{how}, {model.get(entry['model'], entry['model'])}, {weighting}. {uses}; each injection's "
                     "chain is listed below."}

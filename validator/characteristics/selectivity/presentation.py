@@ -16,6 +16,11 @@ def sentences(entry: dict, reading) -> dict:
     else:
         out["summary"] += (f" At least {fmt(100 * entry['min_fraction'], 3)} % of the lots must pass: "
                            + ("met." if entry["passed"] else "NOT met."))
+    if entry.get("data_from") == "runs":
+        runs = list(dict.fromkeys(i["run"] for i in entry["injections"]))
+        out["source"] = (f"Read from {len(entry['injections'])} matrix-blank injection(s) of the runs "
+                         f"({', '.join(runs)}), each against the mean response of its own run's lowest "
+                         "calibrators (LLOQ).")
     return out
 
 

@@ -10,6 +10,7 @@ data = "selectivity.csv"   # columns lot, kind ("blank": a blank-matrix lot, "ll
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import ClassVar, Optional
 
 import numpy as np
 from pydantic import Field
@@ -20,7 +21,9 @@ __all__ = ["SelectivitySection", "SelectivityData", "load"]
 
 
 class SelectivitySection(_Section):
-    data: DataPath
+    # there only when written: with [[runs]] an empty table reads the injections
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    data: Optional[DataPath] = None         # left out with [[runs]]: their matrix-blank injections
     analyte_limit_pct: float = Field(20.0, gt=0, le=100)
     internal_standard_limit_pct: float = Field(5.0, gt=0, le=100)
     min_lots: int = Field(6, ge=1, le=10000)
@@ -38,6 +41,8 @@ class SelectivityData:
 
 def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
     """``{analyte: SelectivityData}``; blank rows need a lot, each analyte needs blank and LLOQ rows."""
+    if settings.data is None:          # the injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError
     from ...inputs.sector_names import one_spelling
     from ...inputs.sector_tables import kinds, numbers, positive, read_rows
