@@ -77,6 +77,10 @@ class MethodDetectionLimit:
     blank_rule_reading: str = ""
     # the concentration the samples were spiked at, when given (the MDL is checked against it)
     spike_level: float | None = field(default=None, metadata={"null_reason": "spike_level_reason"})
+    # the results themselves, for the dossier's figure: every spiked result, and the method blanks
+    # that gave a numerical result (the others are counted in n_blanks - n_blanks_numerical)
+    spiked_results: tuple[float, ...] = ()
+    blank_numerical_results: tuple[float, ...] = ()
 
     @property
     def blank_reason(self) -> str:
@@ -234,4 +238,5 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
                                "samples do not determine it; 40 CFR 136 Appendix B asks to repeat them at a higher "
                                "concentration (from memory)")
     return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
-                                rank, conf, tuple(notes), reason, reading, spike_level)
+                                rank, conf, tuple(notes), reason, reading, spike_level,
+                                tuple(float(v) for v in spiked), tuple(float(v) for v in numerical))

@@ -31,6 +31,9 @@ class DetectionCapability:
     # stated in the criteria's notes, which results.json writes
     blank_design_shortfall: str = field(default="", metadata={"json": None})
     low_design_shortfall: str = field(default="", metadata={"json": None})
+    # the results themselves, for the dossier's figure (in the order of their files; empty: none given)
+    blank_results: tuple[float, ...] = ()
+    low_results: tuple[float, ...] = ()
 
 
 def detection_capability(blanks, blank_samples, blank_lots, low=None, low_samples=(), low_lots=(),
@@ -68,7 +71,9 @@ def detection_capability(blanks, blank_samples, blank_lots, low=None, low_sample
                                     limit_of_detection=None if lod is None else lod.value)
     blank_short = verification_shortfall(list(blank_samples), list(blank_lots), "blank")
     low_short = "" if low is None else verification_shortfall(list(low_samples), list(low_lots), "low-level")
-    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short)
+    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short,
+                               tuple(float(v) for v in np.asarray(blanks, dtype=float)),
+                               () if low is None else tuple(float(v) for v in np.asarray(low, dtype=float)))
 
 
 def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, lod_max=None,
