@@ -690,7 +690,7 @@ def one_way_mean_standard_error(ms_between: float, ms_within: float, df_between:
     if ms_between < ms_within:
         return MeanStandardError(math.sqrt(ms_within / n), float(df_within),
                                  "between-series variance estimated negative, set to 0: s_r/sqrt(N)")
-    c = (n - n0 * df_between) / n ** 2
+    c = (n - n0 * df_between) / n                # sum(n_i^2) / N^2
     a, b = c / n0, 1.0 / n - c / n0
     variance = a * ms_between + b * ms_within
     terms = (a * ms_between) ** 2 / df_between + ((b * ms_within) ** 2 / df_within if b != 0 else 0.0)
