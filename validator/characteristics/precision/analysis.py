@@ -270,14 +270,14 @@ class TruenessCheck:
                                "freedom are not given (normal quantile)")
 
 
-def _trueness(values, groups, mean, reference, alpha, levels) -> TruenessCheck:
+def _trueness(values, groups, mean, reference, alpha, levels, offset=0.0) -> TruenessCheck:
     target, u_target, df_target = reference
     bias = float(mean - target)
     bias_pct = 100.0 * bias / abs(target) if target else None
     common = dict(reference_value=float(target), reference_standard_uncertainty=float(u_target),
                   reference_df=None if df_target is None else float(df_target), mean=float(mean), bias=bias,
                   bias_pct=bias_pct)
-    a = one_way_anova(values, groups)
+    a = one_way_anova(values, groups, offset)
     if a.n < 2 or a.df_within < 1:
         return TruenessCheck(**common, mean_standard_error=None, mean_standard_error_df=None,
                              combined_standard_error=None, df=None, multiplier=None, verification_interval=None,
@@ -530,8 +530,7 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     if reference is not None:
         # the grand mean's standard error from the series, or from the outermost factor of a declared design
         groups = list(factors[0]) if design and len(factors) else list(series)
-        trueness = _trueness(np.asarray(values, dtype=float) + offset, groups, mean, reference, alpha,
-                             reference_levels)
+        trueness = _trueness(values, groups, mean, reference, alpha, reference_levels, offset)
     counts = {}
     for label in series:
         counts[label] = counts.get(label, 0) + 1
