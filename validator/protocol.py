@@ -42,7 +42,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from .errors import StudyError, ValidatorError, show
 
 __all__ = ["DesignSection", "ProtocolSection", "criteria_and_design", "not_criteria", "later_additions",
-           "counting_keys", "PROTOCOL_1_0_TABLES", "LATER_KEYS", "PROTOCOL_VERSION",
+           "counting_keys", "PROTOCOL_1_0_TABLES", "LATER_KEYS", "LATER_ITEM_KEYS", "PROTOCOL_VERSION",
            "PROTOCOL_JSON", "normalised", "canonical_text", "digest", "design_checks", "build_protocol",
            "read_protocol", "compare", "Deviation", "deviation_criteria", "with_deviations",
            "protocol_entry", "write_protocol_folder"]
@@ -157,8 +157,13 @@ PROTOCOL_1_0_TABLES = ("calibration", "samples", "blanks", "detection", "recover
 # Keys added later to the tables of protocol 1.0 (issues #13 and #15): left out while null, for the same
 # reason. Frozen: a key added to one of these tables from now on goes here, with a default of None.
 LATER_KEYS = {"study": ("guideline",), "criteria": ("judge_on",),
-              "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct"),
+              "precision": ("design", "claimed_repeatability_rsd_pct", "claimed_within_laboratory_rsd_pct",
+                            "min_series", "min_replicates", "min_levels"),
               "analyte_settings": ALL}       # a frame table added later (issue #12), left out while absent
+# Keys added later to the items of a list of tables (e.g. [[precision.levels]]): left out of each item while
+# null, so that the digest of a protocol approved before them is unchanged.
+LATER_ITEM_KEYS = {("precision", "levels"): ("claimed_repeatability_sd", "claimed_within_laboratory_sd",
+                                             "reference_value", "reference_standard_uncertainty", "reference_df")}
 
 
 def _declared_not_to_count(info) -> bool:
@@ -257,6 +262,10 @@ def normalised(config) -> dict:
         else:
             out[section] = {k: value[k] for k in (value if keys == ALL else keys) if k in value
                             and not (value[k] is None and later != ALL and k in later)}
+            for (table, key), item_keys in LATER_ITEM_KEYS.items():
+                if table == section and isinstance(out[section].get(key), list):
+                    out[section][key] = [{k: v for k, v in item.items() if not (v is None and k in item_keys)}
+                                         if isinstance(item, dict) else item for item in out[section][key]]
     return out
 
 

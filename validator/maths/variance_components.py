@@ -30,7 +30,9 @@ References
 .. [Searle] Searle, S. R., Casella, G. and McCulloch, C. E. (1992). Variance
    Components. Wiley (nested ANOVA and REML).
 .. [EP15] CLSI EP15-A3 (2014), User Verification of Precision and Estimation
-   of Bias: upper verification limit of a claimed SD.
+   of Bias: upper verification limit of a claimed SD; verification interval
+   of the bias against a target value (from memory: sec. 3.5, TV +/- m se_c,
+   se_c = sqrt(se_mean^2 + se_RM^2), m a Student t quantile).
 .. [NIST-2.6.1] NIST/SEMATECH e-Handbook of Statistical Methods, case study
    2.6.1 (resistivity gauge study, level-1/2/3 standard deviations).
 """
@@ -47,7 +49,8 @@ from .._common import ConfidenceInterval, open_unit, quiet_numpy
 
 __all__ = ["MeanSquare", "VarianceComponent", "PrecisionCondition", "NestedVarianceComponents",
            "ClaimVerification", "nested_variance_components", "sum_of_mean_squares_interval", "mls_upper_bound",
-           "verify_precision_claim", "verify_precision_claims", "METHODS"]
+           "verify_precision_claim", "verify_precision_claims", "MeanStandardError", "one_way_mean_standard_error",
+           "BiasVerification", "verify_bias", "METHODS"]
 
 METHODS = ("auto", "anova", "reml")
 RESIDUAL = "replicate"
@@ -648,3 +651,101 @@ def verify_precision_claims(result: NestedVarianceComponents, *, repeatability_s
                              + (ip.reason or "not computed"))
     second = verify_precision_claim(ip.sd, within_laboratory_sd, ip.df, alpha=alpha, levels=levels)
     return first, second, ""
+
+
+# ---------------------------------------------------------------- bias against a target value ([EP15])
+
+@dataclass(frozen=True)
+class MeanStandardError:
+    """The standard error of the grand mean of a one-way (days x replicates) design, with its df."""
+
+    se: float
+    df: float
+    basis: str
+
+
+def one_way_mean_standard_error(ms_between: float, ms_within: float, df_between: int, df_within: int, n: int,
+                                n0: float) -> MeanStandardError:
+    """Standard error of the grand mean of N results in p groups (random group effects).
+
+    Notes
+    -----
+    Var(grand mean) = sigma_B^2 sum(n_i^2)/N^2 + sigma_r^2/N, with
+    sum(n_i^2)/N = N - n0 (p - 1) (the ISO 5725-2 n0). With s_B^2 = (MS_B - MS_W)/n0
+    and s_r^2 = MS_W: se^2 = a MS_B + b MS_W, a = c/n0, b = 1/N - c/n0,
+    c = sum(n_i^2)/N^2; balanced (n per group), se^2 = MS_B/N exactly, the
+    EP15-A3 form (s_WL^2 - (n-1)/n s_R^2)/k with k days (from memory). The df are
+    Satterthwaite's, (se^2)^2 / sum((coef MS)^2/df) [Satterthwaite]: p - 1 when
+    balanced. When MS_B < MS_W the between-group variance is set to 0:
+    se^2 = MS_W/N on N - p df; with one group, se^2 = MS_W/N on N - 1 df.
+    """
+    for name, v in (("ms_between", ms_between), ("ms_within", ms_within), ("n0", n0)):
+        if not (isinstance(v, (int, float, np.floating)) and math.isfinite(float(v)) and float(v) >= 0):
+            raise ValueError(f"{name} must be a finite number >= 0, got {v!r}")
+    if n < 2 or df_within < 1:
+        raise ValueError(f"the standard error of the mean needs replicates: n = {n!r}, df_within = {df_within!r}")
+    if df_between < 1:
+        return MeanStandardError(math.sqrt(ms_within / n), float(df_within),
+                                 "one series: s/sqrt(N), between-series variance not estimable")
+    if ms_between < ms_within:
+        return MeanStandardError(math.sqrt(ms_within / n), float(df_within),
+                                 "between-series variance estimated negative, set to 0: s_r/sqrt(N)")
+    c = (n - n0 * df_between) / n                # sum(n_i^2) / N^2
+    a, b = c / n0, 1.0 / n - c / n0
+    variance = a * ms_between + b * ms_within
+    terms = (a * ms_between) ** 2 / df_between + ((b * ms_within) ** 2 / df_within if b != 0 else 0.0)
+    df = variance ** 2 / terms if terms > 0 else float(df_between)
+    return MeanStandardError(math.sqrt(variance), float(df),
+                             "sqrt(s_B^2 sum(n_i^2)/N^2 + s_r^2/N), Satterthwaite df")
+
+
+@dataclass(frozen=True)
+class BiasVerification:
+    """Verification of a bias against a target value ([EP15]): the mean lies in TV +/- m se_c."""
+
+    bias: float
+    standard_error: float            # se_c, the mean's and the target value's combined
+    df: float | None                 # None: infinite (a target value without df and an exact mean is not possible)
+    multiplier: float                # m
+    low: float
+    high: float
+    alpha: float
+    levels: int
+    verified: bool
+
+
+def verify_bias(mean: float, se_mean: float, df_mean: float, target: float, target_uncertainty: float = 0.0,
+                target_df: float | None = None, *, alpha: float = 0.05, levels: int = 1) -> BiasVerification:
+    """Verify that a mean agrees with a target value within the verification interval ([EP15]).
+
+    Notes
+    -----
+    se_c = sqrt(se_mean^2 + u_TV^2); df_c = se_c^4 / (se_mean^4/df_mean + u_TV^4/df_TV)
+    (Welch-Satterthwaite; the target's term left out when its df are not given, i.e. taken as
+    infinite); m = t_{1 - alpha/(2 L)}(df_c), L the number of samples (levels) verified together
+    (the Bonferroni division, as for the precision claims; from memory: EP15-A3 uses
+    1 - alpha/(2 nsamp)); the verification interval is TV +/- m se_c, and the bias is verified when
+    the mean lies in it, i.e. |mean - TV| <= m se_c.
+    """
+    for name, v in (("mean", mean), ("target", target), ("se_mean", se_mean), ("df_mean", df_mean),
+                    ("target_uncertainty", target_uncertainty)):
+        if not (isinstance(v, (int, float, np.floating)) and math.isfinite(float(v))):
+            raise ValueError(f"{name} must be a finite number, got {v!r}")
+    if se_mean < 0 or target_uncertainty < 0 or not df_mean > 0:
+        raise ValueError(f"se_mean and target_uncertainty must be >= 0 and df_mean > 0, got {se_mean!r}, "
+                         f"{target_uncertainty!r}, {df_mean!r}")
+    if target_df is not None and not (math.isfinite(float(target_df)) and target_df > 0):
+        raise ValueError(f"target_df must be a finite number > 0 or None, got {target_df!r}")
+    alpha_f = open_unit("alpha", alpha, 0.5)
+    if isinstance(levels, bool) or not isinstance(levels, (int, np.integer)) or levels < 1:
+        raise ValueError(f"levels must be an integer >= 1, got {levels!r}")
+    se_c = math.sqrt(se_mean ** 2 + target_uncertainty ** 2)
+    if se_c == 0:
+        raise ValueError("the combined standard error is zero: the mean's standard error and the target's "
+                         "uncertainty are both 0")
+    den = se_mean ** 4 / df_mean + (target_uncertainty ** 4 / target_df if target_df is not None else 0.0)
+    df = se_c ** 4 / den if den > 0 else None
+    m = float(stats.t.ppf(1.0 - alpha_f / (2 * levels), df)) if df is not None else \
+        float(stats.norm.ppf(1.0 - alpha_f / (2 * levels)))
+    return BiasVerification(float(mean - target), se_c, None if df is None else float(df), m, float(target - m * se_c),
+                            float(target + m * se_c), alpha_f, int(levels), bool(abs(mean - target) <= m * se_c))

@@ -80,6 +80,10 @@ class MethodDetectionLimit:
     # where the results came from: "file" (the spiked and blanks files) or "runs" (the low_level and
     # blank injections of [[runs]], each found through its run's calibration, the run as batch)
     data_from: str = "file"
+    # the results themselves, for the dossier's figure: every spiked result, and the method blanks
+    # that gave a numerical result (the others are counted in n_blanks - n_blanks_numerical)
+    spiked_results: tuple[float, ...] = ()
+    blank_numerical_results: tuple[float, ...] = ()
 
     @property
     def blank_reason(self) -> str:
@@ -237,4 +241,5 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
                                "samples do not determine it; 40 CFR 136 Appendix B asks to repeat them at a higher "
                                "concentration (from memory)")
     return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
-                                rank, conf, tuple(notes), reason, reading, spike_level)
+                                rank, conf, tuple(notes), reason, reading, spike_level,
+                                tuple(float(v) for v in spiked), tuple(float(v) for v in numerical))

@@ -50,6 +50,7 @@ _M10 = "ICH M10 (final, 24 May 2022)"
 _SANTE = "SANTE/11312/2021"
 _EP17 = "CLSI EP17-A2 (2012)"
 _MDL = "40 CFR Part 136 Appendix B, Revision 2 (2017)"
+_EP15 = "CLSI EP15-A3 (2014)"
 
 PRESETS: dict[str, Preset] = {p.name: p for p in (
     Preset("ich-m10", f"{_M10}, chromatographic assays", (
@@ -88,6 +89,14 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
     Preset("clsi-ep17", _EP17, (
         # from memory: CLSI EP17-A2 sec. 5.3: LoB as the 95th percentile of the blank results
         PresetValue("limit_of_blank.percentile", 0.95, f"{_EP17} sec. 5.3", True),
+    )),
+    Preset("clsi-ep15", f"{_EP15}, user verification of precision and estimation of bias", (
+        # from memory: CLSI EP15-A3 sec. 3 (precision experiment): 5 days, one run a day, 5 replicates per
+        # run, at least 2 samples (concentrations); the claims are verified by the upper verification limit
+        # at alpha 0.05 divided over the samples (the study's [criteria] alpha, 0.05 by default)
+        PresetValue("precision.min_series", 5, f"{_EP15} sec. 3, the 5 x 5 design", True),
+        PresetValue("precision.min_replicates", 5, f"{_EP15} sec. 3, the 5 x 5 design", True),
+        PresetValue("precision.min_levels", 2, f"{_EP15} sec. 3, samples", True),
     )),
     Preset("40-cfr-136-appendix-b", _MDL, (
         # Appendix B Rev. 2, "Definition": the MDL is reported with confidence 0.99 that the measured

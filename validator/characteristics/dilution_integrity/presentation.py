@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -23,5 +24,33 @@ def sentences(entry: dict, reading) -> dict:
     return out
 
 
+_MARKERS = "osD^v<>ph"
+
+
 def figures(entry: dict, reading) -> dict:
-    return {}
+    """``accuracy``: each diluted QC's accuracy after the factor (100 × result × factor / nominal, %), by
+    dilution level, with the mean accuracy limits 100 ± max_bias_percent."""
+    levels = [lv for lv in entry["levels"] if lv["back_calculated"]]
+    if not levels:
+        return {}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    start = 1
+    for i, lv in enumerate(levels):
+        accuracy = [100.0 * v / lv["nominal"] for v in lv["back_calculated"]]
+        points(ax, range(start, start + len(accuracy)), accuracy, _MARKERS[i % len(_MARKERS)],
+               colour=PALETTE["data"] if i % 2 == 0 else PALETTE["pred"],
+               label=f"×{fmt(lv['dilution_factor'])} of {fmt(lv['nominal'])} {reading.unit} ({len(accuracy)})",
+               gid=f"level-{i}")
+        start += len(accuracy)
+    for i, lim in enumerate(sorted({lv["max_bias_percent"] for lv in levels})):
+        for y in (100 - lim, 100 + lim):
+            ax.axhline(y, color=PALETTE["bad"], ls="--", lw=0.8,
+                       label=f"limits 100 ± {fmt(lim)} % (on the mean)" if y > 100 and i == 0 else None,
+                       gid=f"limit-{i}")
+    ax.axhline(100, color=PALETTE["ink"], lw=0.6)
+    ax.set_xlabel("diluted QC number (in file order within each dilution)")
+    ax.set_ylabel("accuracy after the factor (% of nominal)")
+    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return {"accuracy": svg(fig, f"dil{reading.key}")}

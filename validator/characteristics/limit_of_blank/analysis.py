@@ -34,6 +34,9 @@ class DetectionCapability:
     # where the results came from: "file" ([limit_of_blank] blanks and low_samples) or "runs" (the blank
     # and low_level injections of [[runs]], each found through its run's calibration: runs.injections)
     data_from: str = "file"
+    # the results themselves, for the dossier's figure (in the order of their files; empty: none given)
+    blank_results: tuple[float, ...] = ()
+    low_results: tuple[float, ...] = ()
 
 
 def detection_capability(blanks, blank_samples, blank_lots, low=None, low_samples=(), low_lots=(),
@@ -71,7 +74,9 @@ def detection_capability(blanks, blank_samples, blank_lots, low=None, low_sample
                                     limit_of_detection=None if lod is None else lod.value)
     blank_short = verification_shortfall(list(blank_samples), list(blank_lots), "blank")
     low_short = "" if low is None else verification_shortfall(list(low_samples), list(low_lots), "low-level")
-    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short)
+    return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short,
+                               tuple(float(v) for v in np.asarray(blanks, dtype=float)),
+                               () if low is None else tuple(float(v) for v in np.asarray(low, dtype=float)))
 
 
 def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, lod_max=None,

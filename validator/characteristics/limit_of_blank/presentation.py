@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -56,4 +57,24 @@ def sentences(entry: dict, reading) -> dict:
 
 
 def figures(entry: dict, reading) -> dict:
-    return {}
+    """``results``: the blank and low-level results in file order, with the reported LoB and LoD as lines."""
+    blanks, low = entry.get("blank_results") or [], entry.get("low_results") or []
+    if not blanks and not low:
+        return {}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    points(ax, range(1, len(blanks) + 1), blanks, "o", label=f"blank results ({len(blanks)})", gid="blank-results")
+    if low:
+        points(ax, range(len(blanks) + 1, len(blanks) + len(low) + 1), low, "s", colour=PALETTE["pred"],
+               label=f"low-level results ({len(low)})", gid="low-results")
+    lob = entry["lob"]["value"]
+    lod = None if entry["lod"] is None else entry["lod"]["value"]
+    if lob is not None:
+        ax.axhline(lob, color=PALETTE["ink"], ls="--", lw=0.8, label=f"LoB {fmt(lob)} {reading.unit}", gid="lob-line")
+    if lod is not None:
+        ax.axhline(lod, color=PALETTE["bad"], ls="-.", lw=0.8, label=f"LoD {fmt(lod)} {reading.unit}", gid="lod-line")
+    ax.set_xlabel("result number (blanks, then low-level samples, in file order)")
+    ax.set_ylabel(f"result ({reading.unit})")
+    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return {"results": svg(fig, f"lob{reading.key}")}

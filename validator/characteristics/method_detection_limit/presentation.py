@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -33,4 +34,29 @@ def sentences(entry: dict, reading) -> dict:
 
 
 def figures(entry: dict, reading) -> dict:
-    return {}
+    """``results``: the spiked results and the numerical method blanks in file order, with MDL_s and MDL_b."""
+    spiked, blanks = entry.get("spiked_results") or [], entry.get("blank_numerical_results") or []
+    if not spiked and not blanks:
+        return {}
+    fig, ax = figure(figsize=(6.4, 2.8))
+    points(ax, range(1, len(spiked) + 1), spiked, "o", label=f"spiked results ({len(spiked)})",
+           gid="spiked-results")
+    if blanks:
+        points(ax, range(len(spiked) + 1, len(spiked) + len(blanks) + 1), blanks, "s", colour=PALETTE["pred"],
+               label=f"numerical blanks ({len(blanks)} of {entry['n_blanks']})",
+               gid="blank-results")
+    if entry["spiked"] is not None:
+        ax.axhline(entry["spiked"], color=PALETTE["ink"], ls="--", lw=0.8,
+                   label=f"MDL_s {fmt(entry['spiked'])} {reading.unit}", gid="mdl-s-line")
+    if entry["blank"] is not None:
+        ax.axhline(entry["blank"], color=PALETTE["bad"], ls="-.", lw=0.8,
+                   label=f"MDL_b {fmt(entry['blank'])} {reading.unit}", gid="mdl-b-line")
+    if entry.get("spike_level") is not None:
+        ax.axhline(entry["spike_level"], color=PALETTE["data"], ls=":", lw=0.8,
+                   label=f"spike level {fmt(entry['spike_level'])} {reading.unit}", gid="spike-line")
+    ax.set_xlabel("result number (spiked samples, then method blanks, in file order)")
+    ax.set_ylabel(f"result ({reading.unit})")
+    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return {"results": svg(fig, f"mdl{reading.key}")}

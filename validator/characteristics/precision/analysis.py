@@ -29,14 +29,15 @@ import numpy as np
 from scipy import stats
 
 from ..._common import ConfidenceInterval, level_label, quiet_numpy
-from ...criteria import Criterion, at_most
+from ...criteria import Criterion, at_least, at_most
 from ...maths.anova import OneWayAnova, one_way_anova
 from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
-from ...maths.variance_components import mls_upper_bound, nested_variance_components, verify_precision_claim
+from ...maths.variance_components import (mls_upper_bound, nested_variance_components, one_way_mean_standard_error,
+                                          verify_bias, verify_precision_claim)
 
 __all__ = ["PrecisionResult", "PrecisionLevel", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate",
-           "ClaimCheck", "RsdUpperBounds", "assess_precision_level", "precision_criteria", "mass_fraction_factor",
-           "horwitz_prsd"]
+           "ClaimCheck", "TruenessCheck", "RsdUpperBounds", "assess_precision_level", "precision_criteria",
+           "design_criteria", "levels_criterion", "mass_fraction_factor", "horwitz_prsd"]
 
 
 _MASS_FRACTION = {
@@ -213,14 +214,16 @@ class NestedPrecision:
 class ClaimCheck:
     """Verification of a claimed repeatability or within-laboratory RSD at one level ([EP15]).
 
-    The claim is converted to an SD at the level's mean; it is verified when the observed SD is
+    A claim as an RSD is converted to an SD at the level's mean (a claim as an SD is used as it is, and
+    shown as an RSD of the mean when the mean is not zero); it is verified when the observed SD is
     at most the upper verification limit claimed SD sqrt(chi2_{1-alpha/L; df} / df), L the number
     of levels with that claim (EP15-A3's Bonferroni division) and ``df`` the observed SD's df
     rounded to the nearest integer (:func:`validator.maths.variance_components.verify_precision_claim`).
     """
 
     quantity: str
-    claimed_rsd_pct: float
+    claimed_as: str                 # "RSD" (a % of the level mean) or "SD" (in the concentration unit)
+    claimed_rsd_pct: float | None = field(metadata={"omit_none": True})     # an SD claim: as % of the mean
     claimed_sd: float | None
     observed_sd: float | None
     df: float | None
@@ -228,6 +231,75 @@ class ClaimCheck:
     verified: bool | None
     basis: str
     reason: str = ""
+
+
+@dataclass(frozen=True)
+class TruenessCheck:
+    """Verification of the bias at one level against a target value ([EP15]).
+
+    The mean's standard error comes from the one-way ANOVA by series (by the outermost factor of a
+    declared design: its means are independent), se_c = sqrt(se_mean^2 + u_TV^2) with
+    Welch-Satterthwaite df, m the t quantile 1 - alpha/(2 L) (L levels with a target value), and the
+    bias is verified when the mean lies in TV +/- m se_c
+    (:func:`validator.maths.variance_components.verify_bias`).
+    """
+
+    reference_value: float
+    reference_standard_uncertainty: float
+    reference_df: float | None = field(metadata={"omit_none": True})      # None: taken as infinite
+    mean: float
+    bias: float
+    bias_pct: float | None = field(metadata={"null_reason": "bias_pct_reason"})
+    mean_standard_error: float | None
+    mean_standard_error_df: float | None
+    combined_standard_error: float | None
+    df: float | None = field(metadata={"null_reason": "df_reason"})
+    multiplier: float | None
+    verification_interval: ConfidenceInterval | None = field(metadata={"interval": "pair"})
+    verified: bool | None
+    basis: str
+    reason: str = ""
+
+    @property
+    def bias_pct_reason(self) -> str:
+        return self.reason or "the reference value is zero, so no relative bias exists"
+
+    @property
+    def df_reason(self) -> str:
+        return self.reason or ("infinite: the mean's standard error is zero and the reference value's degrees of "
+                               "freedom are not given (normal quantile)")
+
+
+def _trueness(values, groups, mean, reference, alpha, levels, offset=0.0) -> TruenessCheck:
+    target, u_target, df_target = reference
+    bias = float(mean - target)
+    bias_pct = 100.0 * bias / abs(target) if target else None
+    common = dict(reference_value=float(target), reference_standard_uncertainty=float(u_target),
+                  reference_df=None if df_target is None else float(df_target), mean=float(mean), bias=bias,
+                  bias_pct=bias_pct)
+    a = one_way_anova(values, groups, offset)
+    if a.n < 2 or a.df_within < 1:
+        return TruenessCheck(**common, mean_standard_error=None, mean_standard_error_df=None,
+                             combined_standard_error=None, df=None, multiplier=None, verification_interval=None,
+                             verified=None, basis="not verified",
+                             reason="the mean's standard error needs a series with at least two results")
+    with quiet_numpy():
+        se = one_way_mean_standard_error(a.ms_between, a.ms_within, a.df_between, a.df_within, a.n, a.n0)
+    if se.se == 0 and u_target == 0:
+        return TruenessCheck(**common, mean_standard_error=0.0, mean_standard_error_df=se.df,
+                             combined_standard_error=0.0, df=None, multiplier=None, verification_interval=None,
+                             verified=None, basis="not verified",
+                             reason=("the results show no spread at all (SD exactly 0) and the reference value has no "
+                                     "uncertainty: the verification interval has no width"))
+    v = verify_bias(mean, se.se, se.df, target, u_target, df_target, alpha=alpha, levels=max(1, int(levels)))
+    basis = (f"mean's standard error {se.basis} on {se.df:.4g} df; se_c = sqrt(se_mean² + u_ref²)"
+             + (f", Welch-Satterthwaite df {v.df:.4g}" if v.df is not None else ", normal quantile")
+             + f"; m = t quantile 1 - {v.alpha:g}/(2·{v.levels}) (Bonferroni over the {v.levels} level(s) with a "
+               "reference value)")
+    return TruenessCheck(**common, mean_standard_error=se.se, mean_standard_error_df=se.df,
+                         combined_standard_error=v.standard_error, df=v.df, multiplier=v.multiplier,
+                         verification_interval=ConfidenceInterval(v.low, v.high, 1.0 - v.alpha / v.levels),
+                         verified=v.verified, basis=basis)
 
 
 def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
@@ -252,20 +324,27 @@ def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
     return NestedPrecision(tuple(design), res.method, res.balanced, comps, tuple(conds), res.notes)
 
 
-def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_levels=(1, 1)) -> tuple:
+def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_levels=(1, 1),
+            sd_claims=(None, None)) -> tuple:
     out = []
-    for quantity, claimed, sd, df, why, levels in (
-            ("repeatability", claims[0], rep_sd, rep_df, "", claim_levels[0]),
-            ("within-laboratory", claims[1], ip_sd, ip_df, ip_reason, claim_levels[1])):
-        if claimed is None:
+    for quantity, claimed, sd_claim, sd, df, why, levels in (
+            ("repeatability", claims[0], sd_claims[0], rep_sd, rep_df, "", claim_levels[0]),
+            ("within-laboratory", claims[1], sd_claims[1], ip_sd, ip_df, ip_reason, claim_levels[1])):
+        if claimed is None and sd_claim is None:
             continue
-        claimed_sd = abs(mean) * claimed / 100.0 if mean else None
+        if sd_claim is not None:          # a level's SD claim takes precedence over an RSD claim
+            claimed_as, claimed_sd = "SD", float(sd_claim)
+            claimed = 100.0 * claimed_sd / abs(mean) if mean else None
+        else:
+            claimed_as, claimed_sd = "RSD", (abs(mean) * claimed / 100.0 if mean else None)
+        observed = None if sd is None or not np.isfinite(sd) else sd
         if claimed_sd is None or sd is None or df is None or not np.isfinite(sd) or not df > 0:
             reason = ("the mean is zero, so an RSD claim gives no SD" if not claimed_sd else
                       f"the observed {quantity} SD or its degrees of freedom do not exist"
                       + (f" ({why})" if why else ""))
-            out.append(ClaimCheck(quantity, claimed, claimed_sd, None if sd is None or not np.isfinite(sd) else sd,
-                                  None, None, None, "not verified", reason))
+            out.append(ClaimCheck(quantity=quantity, claimed_as=claimed_as, claimed_rsd_pct=claimed,
+                                  claimed_sd=claimed_sd, observed_sd=observed, df=None, upper_verification_limit=None,
+                                  verified=None, basis="not verified", reason=reason))
             continue
         levels = max(1, int(levels))
         v = verify_precision_claim(sd, claimed_sd, df, alpha=alpha, levels=levels)
@@ -274,7 +353,9 @@ def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_
                f"upper verification limit at chi-square quantile 1 - {v.alpha:g} (one level with this claim)")
         if v.df != float(df):
             how += f", df {v.df:g} (the estimated {float(df):.4g} rounded)"
-        out.append(ClaimCheck(quantity, claimed, claimed_sd, sd, v.df, v.uvl, v.verified, f"{v.basis}; {how}"))
+        out.append(ClaimCheck(quantity=quantity, claimed_as=claimed_as, claimed_rsd_pct=claimed, claimed_sd=claimed_sd,
+                              observed_sd=sd, df=v.df, upper_verification_limit=v.uvl, verified=v.verified,
+                              basis=f"{v.basis}; {how}"))
     return tuple(out)
 
 
@@ -308,6 +389,8 @@ class PrecisionLevel:
     rsd_upper_bounds: RsdUpperBounds | None = field(default=None, metadata={"omit_none": True})
     nested: NestedPrecision | None = field(default=None, metadata={"omit_none": True})
     claims: tuple[ClaimCheck, ...] | None = field(default=None, metadata={"omit_none": True})
+    trueness: TruenessCheck | None = field(default=None, metadata={"omit_none": True})
+    fewest_results_per_series: int = 0
 
     @property
     def decisive(self) -> tuple:
@@ -354,7 +437,8 @@ def _sd_ci(sd, df, alpha):
 
 
 def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset=0.0, design=None,
-                           factors=(), claims=(None, None), bounds=False, claim_levels=(1, 1)) -> PrecisionLevel:
+                           factors=(), claims=(None, None), bounds=False, claim_levels=(1, 1),
+                           sd_claims=(None, None), reference=None, reference_levels=1) -> PrecisionLevel:
     """Repeatability, between-series and intermediate precision at one level.
 
     Notes
@@ -375,7 +459,10 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     RSD, %) are verified by the upper verification limit [EP15], from the nested estimates
     when declared, else the one-way ones; ``claim_levels`` is the number of levels with a
     repeatability and with a within-laboratory claim (the Bonferroni division of alpha).
-    ``bounds`` adds the one-way upper RSD bounds.
+    ``bounds`` adds the one-way upper RSD bounds. ``sd_claims`` are claims as SDs (a level's SD
+    claim takes precedence over an RSD claim of the same quantity). ``reference`` (target value,
+    its standard uncertainty, its df or None) adds the EP15 verification of the bias
+    (:class:`TruenessCheck`), ``reference_levels`` being the number of levels with a target value.
     """
     a = one_way_anova(values, series, offset)
     notes = []
@@ -432,13 +519,21 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
         upper = RsdUpperBounds(r_upper, _intermediate_upper_rsd(a, si2, r_upper, mean, alpha), 1.0 - alpha,
                                "; ".join(notes))
     checks = None
-    if any(c is not None for c in claims):
+    if any(c is not None for c in tuple(claims) + tuple(sd_claims)):
         if nested is not None:
             r, i = nested.repeatability, nested.intermediate
-            checks = _claims(claims, mean, r.sd, r.df, i.sd, i.df, i.reason, alpha, claim_levels)
+            checks = _claims(claims, mean, r.sd, r.df, i.sd, i.df, i.reason, alpha, claim_levels, sd_claims)
         else:
             checks = _claims(claims, mean, sr if np.isfinite(sr) else None, a.df_within or None,
-                             si if np.isfinite(si) else None, df_i, "; ".join(notes), alpha, claim_levels)
+                             si if np.isfinite(si) else None, df_i, "; ".join(notes), alpha, claim_levels, sd_claims)
+    trueness = None
+    if reference is not None:
+        # the grand mean's standard error from the series, or from the outermost factor of a declared design
+        groups = list(factors[0]) if design and len(factors) else list(series)
+        trueness = _trueness(values, groups, mean, reference, alpha, reference_levels, offset)
+    counts = {}
+    for label in series:
+        counts[label] = counts.get(label, 0) + 1
     return PrecisionLevel(
         level=float(level), series=a.groups, n=a.n, mean=mean, anova=a, repeatability_sd=sr,
         repeatability_rsd_pct=rsd(sr), between_series_sd=sl, between_clamped=clamped, intermediate_sd=si,
@@ -448,7 +543,8 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
         cochran=cochran_c(values, series, alpha), grubbs=grubbs_means(values, series, alpha),
         grubbs_double=grubbs_double(values, series, alpha),
         grubbs_within=grubbs_within_series(values, series, alpha, offset), horrat=horrat, horwitz_prsd_pct=prsd,
-        horwitz_note=note, reason="; ".join(notes), rsd_upper_bounds=upper, nested=nested, claims=checks)
+        horwitz_note=note, reason="; ".join(notes), rsd_upper_bounds=upper, nested=nested, claims=checks,
+        trueness=trueness, fewest_results_per_series=min(counts.values()) if counts else 0)
 
 
 NO_SPREAD = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
@@ -497,16 +593,46 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
                        if on_intervals else f"{label} at level {lv.level:g} at most {limit:g} %")
         out.append(Criterion(f"{kind}-rsd-{lv.level:g}", description, judged, limit, at_most(judged, limit), note))
     for c in lv.claims or ():
+        claimed = (f"{c.claimed_rsd_pct:g} % RSD" if c.claimed_as == "RSD" else f"SD {c.claimed_sd:g}")
+        description = (f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
+                       f"{claimed} (CLSI EP15)")
+        cid = f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}"
         if c.observed_sd == 0:
-            out.append(Criterion(
-                f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
-                f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
-                f"{c.claimed_rsd_pct:g} % RSD (CLSI EP15)", None, c.upper_verification_limit, None,
-                f"not applicable: {NO_SPREAD}"))
+            out.append(Criterion(cid, description, None, c.upper_verification_limit, None,
+                                 f"not applicable: {NO_SPREAD}"))
             continue
+        out.append(Criterion(cid, description, c.observed_sd, c.upper_verification_limit, c.verified,
+                             c.basis if c.verified is not None else f"not applicable: {c.reason}"))
+    t = lv.trueness
+    if t is not None:
+        half = None if t.verification_interval is None else t.multiplier * t.combined_standard_error
         out.append(Criterion(
-            f"{'repeatability' if c.quantity == 'repeatability' else 'within-laboratory'}-claim-{lv.level:g}",
-            f"{c.quantity} SD at level {lv.level:g} at most the upper verification limit of the claimed "
-            f"{c.claimed_rsd_pct:g} % RSD (CLSI EP15)", c.observed_sd, c.upper_verification_limit, c.verified,
-            c.basis if c.verified is not None else f"not applicable: {c.reason}"))
+            f"trueness-{lv.level:g}", f"|mean - reference value {t.reference_value:g}| at level {lv.level:g} at most "
+            "the half-width of the verification interval (CLSI EP15)", abs(t.bias), half,
+            None if t.verified is None else at_most(abs(t.bias), half),
+            t.basis if t.verified is not None else f"not applicable: {t.reason}"))
     return tuple(out)
+
+
+def design_criteria(lv: PrecisionLevel, min_series: int | None, min_replicates: int | None) -> tuple:
+    """The precision design at one level against its declared minimums (CLSI EP15-A3's 5 x 5, by its
+    preset): ``precision-series-<level>`` (series at least ``min_series``) and
+    ``precision-replicates-<level>`` (the fewest results in a series at least ``min_replicates``)."""
+    out = []
+    if min_series is not None:
+        out.append(Criterion(f"precision-series-{lv.level:g}", f"precision design at level {lv.level:g}: at least "
+                             f"{min_series} series (days or runs)", lv.series, min_series, at_least(lv.series, min_series)))
+    if min_replicates is not None:
+        out.append(Criterion(f"precision-replicates-{lv.level:g}", f"precision design at level {lv.level:g}: at "
+                             f"least {min_replicates} results in every series", lv.fewest_results_per_series,
+                             min_replicates, at_least(lv.fewest_results_per_series, min_replicates)))
+    return tuple(out)
+
+
+def levels_criterion(result: PrecisionResult, min_levels: int | None) -> tuple:
+    """``precision-levels``: the levels (samples) of the precision experiment at least ``min_levels``."""
+    if min_levels is None:
+        return ()
+    n = len(result.levels)
+    return (Criterion("precision-levels", f"precision design: at least {min_levels} levels (samples)", n,
+                      min_levels, at_least(n, min_levels)),)

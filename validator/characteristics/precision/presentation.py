@@ -68,4 +68,15 @@ def _nested(prec: dict, unit: str) -> str:
             f"Claimed precision verified at {sum(c['verified'] is True for _, c in claims)} of {len(claims)} checks"
             + (f"; above the upper verification limit: {', '.join(failed)}" if failed else "")
             + (f"; not verifiable: {', '.join(missing)}" if missing else "") + ".")
+    trueness = [(lv, lv["trueness"]) for lv in prec["levels"] if lv.get("trueness")]
+    if trueness:
+        parts = []
+        for lv, t in trueness:
+            head = f"at {fmt(lv['level'])} {unit}: mean {fmt(t['mean'])} against {fmt(t['reference_value'])}"
+            if t["verified"] is None:
+                parts.append(f"{head}, not verifiable ({t['reason']})")
+            else:
+                parts.append(f"{head}, verification interval {fmt(t['verification_interval'][0])} to "
+                             f"{fmt(t['verification_interval'][1])}: " + ("verified" if t["verified"] else "NOT verified"))
+        text += (" " if text else "") + "Bias against the reference values (CLSI EP15) " + "; ".join(parts) + "."
     return text

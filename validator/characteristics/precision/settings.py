@@ -27,6 +27,30 @@ class PrecisionLevelLimit(_Section):
     intermediate_rsd_max_pct: Optional[float] = Field(None, gt=0, le=100)
     claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
     claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
+    # claims as SDs in the concentration unit (CLSI EP15-A3 takes a claim as an SD or a CV), at this level only
+    claimed_repeatability_sd: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
+    claimed_within_laboratory_sd: Optional[float] = Field(None, gt=0, allow_inf_nan=False)
+    # a target value of the material measured at this level (reference material, assigned value) and its
+    # standard uncertainty (df: None for a large or unknown number), for the EP15 verification of the bias
+    reference_value: Optional[float] = Field(None, allow_inf_nan=False)
+    reference_standard_uncertainty: Optional[float] = Field(None, ge=0, allow_inf_nan=False)
+    reference_df: Optional[float] = Field(None, gt=0, le=1e6, allow_inf_nan=False)
+
+    @model_validator(mode="after")
+    def _claims_and_reference(self):
+        for quantity in ("repeatability", "within_laboratory"):
+            if (getattr(self, f"claimed_{quantity}_rsd_pct") is not None
+                    and getattr(self, f"claimed_{quantity}_sd") is not None):
+                raise ValueError(f"level {self.level:g} claims the {quantity.replace('_', '-')} precision both as an "
+                                 f"RSD and as an SD; give one (claimed_{quantity}_rsd_pct or claimed_{quantity}_sd)")
+        if self.reference_value is None and (self.reference_standard_uncertainty is not None
+                                             or self.reference_df is not None):
+            raise ValueError(f"level {self.level:g} gives reference_standard_uncertainty or reference_df without "
+                             "reference_value")
+        if self.reference_value is not None and self.reference_standard_uncertainty is None:
+            raise ValueError(f"level {self.level:g} gives reference_value without reference_standard_uncertainty "
+                             "(0 when the target value is taken as exact)")
+        return self
 
 
 # a column of the precision data naming a factor of the nested design (day, run, analyst, ...)
@@ -45,6 +69,11 @@ class PrecisionSection(DataSource):        # data (sheet, header_row); none when
     # verification limit (CLSI EP15)
     claimed_repeatability_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
     claimed_within_laboratory_rsd_pct: Optional[float] = Field(None, gt=0, le=100)
+    # design minimums judged as criteria (None: not judged): series (days or runs) per level, results in
+    # each series, levels (samples); the "clsi-ep15" preset sets EP15-A3's 5 days x 5 replicates, 2 samples
+    min_series: Optional[int] = Field(None, ge=2, le=1000)
+    min_replicates: Optional[int] = Field(None, ge=2, le=1000)
+    min_levels: Optional[int] = Field(None, ge=1, le=100)
 
     @model_validator(mode="after")
     def _design(self):
@@ -76,6 +105,18 @@ class PrecisionSection(DataSource):        # data (sheet, header_row); none when
         lv = self._level(level)
         own = (None, None) if lv is None else (lv.claimed_repeatability_rsd_pct, lv.claimed_within_laboratory_rsd_pct)
         return (own[0] or self.claimed_repeatability_rsd_pct, own[1] or self.claimed_within_laboratory_rsd_pct)
+
+    def sd_claims_for(self, level: float) -> tuple:
+        """(claimed repeatability SD, claimed within-laboratory SD) at ``level`` (declared per level only)."""
+        lv = self._level(level)
+        return (None, None) if lv is None else (lv.claimed_repeatability_sd, lv.claimed_within_laboratory_sd)
+
+    def reference_for(self, level: float) -> tuple | None:
+        """(target value, its standard uncertainty, its df or None) at ``level``, or None when not given."""
+        lv = self._level(level)
+        if lv is None or lv.reference_value is None:
+            return None
+        return lv.reference_value, lv.reference_standard_uncertainty, lv.reference_df
 
 
 @dataclass(frozen=True)

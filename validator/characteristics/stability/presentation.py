@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt, level_label
 
 __all__ = ["sentences", "figures"]
@@ -25,4 +26,33 @@ def sentences(entry: dict, reading) -> dict:
 
 
 def figures(entry: dict, reading) -> dict:
-    return {}
+    """``deviations``: each condition's mean deviation from its reference (%) with its confidence interval,
+    against ± the limit (one row per condition and nominal level)."""
+    rows = [c for c in entry["conditions"] if c["result"]["deviation_percent"] is not None]
+    if not rows:
+        return {}
+    fig, ax = figure(figsize=(6.4, 0.9 + 0.32 * len(rows)))
+    ys = list(range(len(rows)))[::-1]
+    level = None
+    for y, c in zip(ys, rows):
+        s = c["result"]
+        if s["interval"] is not None:
+            level = s["interval_level"]
+            ax.plot(s["interval"], [y, y], color=PALETTE["data"], lw=1.0)
+    points(ax, [c["result"]["deviation_percent"] for c in rows], ys, "o", label="mean deviation", gid="means")
+    if level is not None:
+        ax.plot([], [], color=PALETTE["data"], lw=1.0, label=f"{level_label(level)} confidence interval")
+    for i, lim in enumerate(sorted({c["result"]["limit_percent"] for c in rows})):
+        for x in (-lim, lim):
+            ax.axvline(x, color=PALETTE["pred"], ls="--", lw=0.8,
+                       label=f"limits ±{fmt(lim)} %" if x > 0 and i == 0 else None, gid=f"limit-{i}")
+    ax.axvline(0, color=PALETTE["ink"], lw=0.6)
+    names = {"nominal": "the nominal value", "fresh": "the fresh samples' mean"}
+    references = sorted({names.get(c["result"]["reference"], c["result"]["reference"]) for c in rows})
+    ax.set_yticks(ys)
+    ax.set_yticklabels([f"{c['condition']}, {fmt(c['nominal'])} {reading.unit}" for c in rows])
+    ax.set_ylim(-0.6, len(rows) - 0.4)
+    ax.set_xlabel(f"deviation of the mean from {' or '.join(references)} (%)")
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return {"deviations": svg(fig, f"stab{reading.key}")}
