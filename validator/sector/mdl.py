@@ -242,4 +242,5 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
                                "concentration (from memory)")
     return MethodDetectionLimit(value, mdl_s, mdl_b, rule, n_s, n_b, n_num, s.sd, t_s, b_mean, b_sd, t_b,
                                 rank, conf, tuple(notes), reason, reading, spike_level,
-                                tuple(float(v) for v in spiked), tuple(float(v) for v in numerical))
+                                spiked_results=tuple(float(v) for v in spiked),
+                                blank_numerical_results=tuple(float(v) for v in numerical))

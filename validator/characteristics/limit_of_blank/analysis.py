@@ -75,8 +75,8 @@ def detection_capability(blanks, blank_samples, blank_lots, low=None, low_sample
     blank_short = verification_shortfall(list(blank_samples), list(blank_lots), "blank")
     low_short = "" if low is None else verification_shortfall(list(low_samples), list(low_lots), "low-level")
     return DetectionCapability(lob, lod, loq, lod_reason, loq_reason, blank_short, low_short,
-                               tuple(float(v) for v in np.asarray(blanks, dtype=float)),
-                               () if low is None else tuple(float(v) for v in np.asarray(low, dtype=float)))
+                               blank_results=tuple(float(v) for v in np.asarray(blanks, dtype=float)),
+                               low_results=() if low is None else tuple(float(v) for v in np.asarray(low, dtype=float)))
 
 
 def detection_capability_criteria(result: DetectionCapability, *, lob_max=None, lod_max=None,
