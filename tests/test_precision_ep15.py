@@ -282,3 +282,30 @@ def test_new_level_keys_leave_the_protocol_digest_unchanged_while_absent(make_st
     with_reference = normalised(read_study_file(make_study(
         body + "reference_value = 10\nreference_standard_uncertainty = 0.1\n", files)).config)
     assert digest(with_reference) != digest(plain)
+
+
+def test_a_level_measured_on_one_day_verifies_its_bias_on_the_repeatability(make_study, outside):
+    # found by an independent blind recomputation: one series and a reference value stopped the run (exit 3)
+    rng = np.random.default_rng(11)
+    files = _files(rng)
+    rows = files["precision.csv"].splitlines()
+    header, level10 = rows[0], [r for r in rows[1:] if r.startswith("10,")]
+    one_day = [f"10,day1,{r.split(',')[-1]}" for r in level10[:5]]
+    files["precision.csv"] = "\n".join([header] + one_day) + "\n"
+    body = EP15_BODY.split("[[precision.levels]]")[0] + (
+        "[[precision.levels]]\nlevel = 10\nreference_value = 10\nreference_standard_uncertainty = 0.05\n")
+    study = make_study(body, files)
+    out = outside / "out"
+    assert main(["run", str(study), "--out", str(out), "--format", "json"]) in (0, 1)
+    level = json.loads((out / "results.json").read_text())["analytes"][0]["precision"]["levels"][0]
+    y = np.array([float(r.split(",")[-1]) for r in one_day])
+    # hand computation: one series, se = s/sqrt(N) on N - 1 df, combined with u_ref by Welch-Satterthwaite
+    se = y.std(ddof=1) / math.sqrt(5)
+    se_c = math.sqrt(se ** 2 + 0.05 ** 2)
+    df_c = se_c ** 4 / (se ** 4 / 4)
+    m = stats.t.ppf(1 - 0.05 / 2, df_c)
+    trueness = level["trueness"]
+    assert trueness["mean_standard_error"] == pytest.approx(se, rel=1e-12)
+    assert trueness["mean_standard_error_df"] == 4
+    assert trueness["multiplier"] == pytest.approx(m, rel=1e-10)
+    assert trueness["verified"] == bool(abs(y.mean() - 10) <= m * se_c)

@@ -679,7 +679,10 @@ def one_way_mean_standard_error(ms_between: float, ms_within: float, df_between:
     balanced. When MS_B < MS_W the between-group variance is set to 0:
     se^2 = MS_W/N on N - p df; with one group, se^2 = MS_W/N on N - 1 df.
     """
-    for name, v in (("ms_between", ms_between), ("ms_within", ms_within), ("n0", n0)):
+    # with one series the between-series mean square and n0 do not exist (0/0): only MS_W is read
+    checked = (("ms_within", ms_within),) if df_between < 1 else \
+        (("ms_between", ms_between), ("ms_within", ms_within), ("n0", n0))
+    for name, v in checked:
         if not (isinstance(v, (int, float, np.floating)) and math.isfinite(float(v)) and float(v) >= 0):
             raise ValueError(f"{name} must be a finite number >= 0, got {v!r}")
     if n < 2 or df_within < 1:
