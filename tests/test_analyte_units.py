@@ -265,3 +265,16 @@ def test_a_revalidation_compares_each_analyte_in_its_own_units(two_units, make_s
         load_study(make_study(body, files=FILES, head=HEAD))
     assert str(caught.value).endswith('prev.json: uses concentration unit "µg/mL" for analyte "zinc" but this '
                                       'study uses "ng/mL"; results in different units cannot be compared')
+
+
+def test_no_fragment_shows_the_study_unit_for_an_analyte():
+    # an analyte's numbers are in its own unit (a.unit, a.response_unit); only the cover and the protocol
+    # show the study's, beside the analytes with their own
+    from validator.report import templates_dir
+
+    for path in sorted(templates_dir().rglob("*.j2")):
+        text = path.read_text(encoding="utf-8")
+        if path.name in ("dossier.html.j2", "protocol.html.j2"):
+            text = "\n".join(line for line in text.splitlines() if "<dt>Units</dt>" not in line
+                             and not line.startswith('<p class="muted">Levels in'))
+        assert "study.concentration_unit" not in text and "study.response_unit" not in text, path.name

@@ -137,7 +137,8 @@ FRAME_CRITERIA_AND_DESIGN = {
     "criteria": ALL,
     "design": ALL,
     # per-analyte values of the characteristics' keys (validator.inputs.analyte_settings): each table's
-    # design and criteria keys, by analyte; a reference material's own data file is left out
+    # design and criteria keys, by analyte; a reference material's own data file is left out, and so are
+    # an analyte's response unit and reporting (its concentration unit counts, as the study's does)
     "analyte_settings": ALL,
 }
 FRAME_NOT_CRITERIA = {
