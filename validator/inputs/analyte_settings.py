@@ -24,9 +24,10 @@ keys of ``[study]`` (a multi-residue method calibrates compounds in different un
     concentration_unit = "µg/L"
     response_unit = "nS·min"
 
-and how its samples are reported (``[sample_preparation]``: its reporting unit and factors). An override names a table the study declares (or one that is always
-present, such as ``[criteria]``), for an analyte of the calibration data (checked by
-:func:`check_analytes` once the data are loaded).
+and how its samples are reported (``[sample_preparation]``: its reporting unit and factors).
+An override names a table the study declares (or one that is always present, such as
+``[criteria]``), for an analyte of the calibration data (checked by :func:`check_analytes` once
+the data are loaded).
 
 A ``reference_material`` table for an analyte is that analyte's material: its ``analyte`` is
 the analyte the table is set for; when the study-wide material is for another analyte, the
@@ -45,8 +46,8 @@ from pydantic import BaseModel, ValidationError
 
 from ..errors import StudyError, show
 
-__all__ = ["AnalyteSettings", "SettingChange", "STUDY_WIDE", "EXPRESSION_KEYS", "overridable_keys", "resolve", "check_analytes",
-           "line_of"]
+__all__ = ["AnalyteSettings", "SettingChange", "STUDY_WIDE", "EXPRESSION_KEYS", "overridable_keys", "resolve",
+           "check_analytes", "line_of"]
 
 ROOT = "analyte_settings"
 
