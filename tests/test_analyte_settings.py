@@ -241,7 +241,7 @@ def test_the_dossier_shows_an_analytes_own_settings(make_study, outside):
     assert soup.select_one("#analyte-0").select_one("table.analyte-settings") is None
 
 
-@pytest.mark.parametrize("table", ["study", "samples", "design"])
+@pytest.mark.parametrize("table", ["samples", "design"])
 def test_tables_of_the_whole_study_are_refused(make_study, table):
     study = make_study(BODY + f"[analyte_settings.zinc.{table}]\nid = \"x\"\n",
                        files={"calibration.csv": TWO, "recovery.csv": RECOVERY})

@@ -181,7 +181,9 @@ class AnalyteContext:
     ``ctx.result_of(OTHER_ENTRY)`` (``None`` when that one was not assessed). ``config`` is the
     configuration this analyte is judged with: the study's, with its ``[analyte_settings.<analyte>]``
     tables applied (:mod:`validator.inputs.analyte_settings`), so ``settings_of`` and
-    ``config.criteria`` give the analyte's own values; ``alpha`` is the study's.
+    ``config.criteria`` give the analyte's own values; ``alpha`` is the study's. ``unit`` is the
+    analyte's concentration unit (``[study] concentration_unit``, or its own in
+    ``[analyte_settings.<analyte>.study]``).
     """
 
     data: AnalyteData
@@ -253,7 +255,8 @@ def analyse_study(loaded: LoadedStudy, on_analyte=None) -> StudyResult:
     ``on_analyte(done, total)``, if given, after each one (the command line's progress display)."""
     analytes = []
     for a in loaded.analytes:
-        analytes.append(analyse_analyte(a, loaded.study.config_for(a.name), loaded.config.study.concentration_unit))
+        config = loaded.study.config_for(a.name)       # its units too: [analyte_settings.<analyte>.study]
+        analytes.append(analyse_analyte(a, config, config.study.concentration_unit))
         if on_analyte is not None:
             on_analyte(len(analytes), len(loaded.analytes))
     return StudyResult(loaded=loaded, analytes=tuple(analytes))

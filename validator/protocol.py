@@ -137,7 +137,8 @@ FRAME_CRITERIA_AND_DESIGN = {
     "criteria": ALL,
     "design": ALL,
     # per-analyte values of the characteristics' keys (validator.inputs.analyte_settings): each table's
-    # design and criteria keys, by analyte; a reference material's own data file is left out
+    # design and criteria keys, by analyte; a reference material's own data file is left out, and so are
+    # an analyte's response unit and reporting (its concentration unit counts, as the study's does)
     "analyte_settings": ALL,
 }
 FRAME_NOT_CRITERIA = {
@@ -250,10 +251,10 @@ def normalised(config) -> dict:
         if value is None and later == ALL:
             continue
         if section == "analyte_settings":       # {analyte: {table: {key: value}}}, the design and criteria keys
-            out[section] = {analyte: {table: {k: v for k, v in keys_of.items()
-                                              if _counts_as_criterion(counting, table, k)}
-                                      for table, keys_of in tables.items()}
-                            for analyte, tables in value.items()}
+            per_analyte = {analyte: own for analyte, tables in value.items()
+                           if (own := _analyte_criteria(counting, tables)) is not None}
+            if per_analyte:          # only units or reporting set per analyte: as if absent
+                out[section] = per_analyte
             continue
         if value is None:
             out[section] = None
@@ -267,6 +268,18 @@ def normalised(config) -> dict:
                     out[section][key] = [{k: v for k, v in item.items() if not (v is None and k in item_keys)}
                                          if isinstance(item, dict) else item for item in out[section][key]]
     return out
+
+
+def _analyte_criteria(counting: dict, tables: dict) -> dict | None:
+    """One analyte's [analyte_settings] tables reduced to their design and criteria keys. A table that is
+    no characteristic's with criteria (``[study]``: its units; ``[sample_preparation]``: how results are
+    reported) is left out when none of its keys count, and an analyte left with no table is ``None``."""
+    out = {}
+    for table, keys_of in tables.items():
+        kept = {k: v for k, v in keys_of.items() if _counts_as_criterion(counting, table, k)}
+        if kept or (table in counting and table != "study"):
+            out[table] = kept
+    return out or None
 
 
 def _counts_as_criterion(counting: dict, table: str, key: str) -> bool:
@@ -664,7 +677,14 @@ def document_data(protocol: dict, study, notes) -> dict:
                                      "method": cfg.method, "instrument": cfg.instrument,
                                      "analyst": cfg.analyst, "reviewer": cfg.reviewer,
                                      "concentration_unit": cfg.concentration_unit,
-                                     "response_unit": cfg.response_unit, "notes": cfg.notes},
+                                     "response_unit": cfg.response_unit, "notes": cfg.notes,
+                                     # analytes with their own units ([analyte_settings.<analyte>.study])
+                                     "own_units": [{"name": s.analyte,
+                                                    "concentration": s.config.study.concentration_unit,
+                                                    "response": s.config.study.response_unit}
+                                                   for s in study.analyte_settings
+                                                   if s.sets("study", "concentration_unit")
+                                                   or s.sets("study", "response_unit")]},
             "assessed": [label for key, label in _ASSESSED
                          if protocol["design_and_criteria"].get(key) is not None],
             "design": _design_rows(study.config.design),

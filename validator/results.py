@@ -209,6 +209,15 @@ def _settings(study, name: str) -> dict:
     return {"settings": [{"key": c.key, "value": c.value, "study_value": c.study_value} for c in own.changes]}
 
 
+def _units(study, name: str) -> dict:
+    """``{"concentration_unit": ..., "response_unit": ...}``: the analyte's units when its
+    ``[analyte_settings.<analyte>.study]`` sets one; ``{}`` when it has the study's (``study.*_unit``)."""
+    own = next((s for s in study.analyte_settings if s.analyte == name), None)
+    if own is None or not any(own.sets("study", key) for key in ("concentration_unit", "response_unit")):
+        return {}
+    return {"concentration_unit": own.config.study.concentration_unit, "response_unit": own.config.study.response_unit}
+
+
 def _analyte(a, study=None):
     serialise = Serialiser()
     sections = {}
@@ -226,6 +235,7 @@ def _analyte(a, study=None):
             place[name] = None if result is None else serialise(result, entry.written_at)
     order = [n for n in _SECTION_ORDER if n in sections] + [n for n in sections if n not in _SECTION_ORDER]
     entry = {"name": a.name, "verdict": a.verdict, "characteristics_assessed": list(a.characteristics),
+             **({} if study is None else _units(study, a.name)),
              **({} if study is None else _settings(study, a.name)),
              **{name: sections[name] for name in order},
              "criteria": serialise(a.criteria, "criteria"),

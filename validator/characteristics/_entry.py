@@ -24,8 +24,8 @@ class Reading:
     """What a characteristic's sentences and figures may know besides its results.json entry."""
 
     alpha: float                 # the study's alpha, to read p-values against
-    unit: str                    # the concentration unit
-    response_unit: str = ""
+    unit: str                    # the analyte's concentration unit (its own, else the study's)
+    response_unit: str = ""      # the analyte's response unit (its own, else the study's)
     key: str = ""                # unique per analyte in the dossier (prefix of a figure's element ids)
     # the analyte's not_applicable list of results.json, as (item, reason) pairs
     not_applicable: tuple[tuple[str, str], ...] = ()

@@ -17,9 +17,17 @@ What can be set per analyte: the design and criteria keys of a table
 (:data:`validator.protocol.CRITERIA_AND_DESIGN`), except those in :data:`STUDY_WIDE` (read
 when the data files are loaded, or one value for the whole study by design), plus the data
 file of a reference material (``data``, ``sheet``, ``header_row`` of ``reference_material``:
-one material per analyte). An override names a table the study declares (or one that is always
-present, such as ``[criteria]``), for an analyte of the calibration data (checked by
-:func:`check_analytes` once the data are loaded).
+one material per analyte), plus the keys of :data:`EXPRESSION_KEYS`: the analyte's units, as
+keys of ``[study]`` (a multi-residue method calibrates compounds in different units)::
+
+    [analyte_settings.fluoride.study]
+    concentration_unit = "µg/L"
+    response_unit = "nS·min"
+
+and how its samples are reported (``[sample_preparation]``: its reporting unit and factors).
+An override names a table the study declares (or one that is always present, such as
+``[criteria]``), for an analyte of the calibration data (checked by :func:`check_analytes` once
+the data are loaded).
 
 A ``reference_material`` table for an analyte is that analyte's material: its ``analyte`` is
 the analyte the table is set for; when the study-wide material is for another analyte, the
@@ -38,8 +46,8 @@ from pydantic import BaseModel, ValidationError
 
 from ..errors import StudyError, show
 
-__all__ = ["AnalyteSettings", "SettingChange", "STUDY_WIDE", "overridable_keys", "resolve", "check_analytes",
-           "line_of"]
+__all__ = ["AnalyteSettings", "SettingChange", "STUDY_WIDE", "EXPRESSION_KEYS", "overridable_keys", "resolve",
+           "check_analytes", "line_of"]
 
 ROOT = "analyte_settings"
 
@@ -59,9 +67,16 @@ STUDY_WIDE = {
 STUDY_WIDE_TABLES = {"calibration": "the calibration is read, checked and used to quantify the other data when "
                                     "the files are loaded"}
 # tables of the study file that are not a characteristic's or [criteria] (never set per analyte)
-NOT_TABLES = ("study", "design", "protocol", "runs", "columns", "types", "exclusions", ROOT)
+NOT_TABLES = ("design", "protocol", "runs", "columns", "types", "exclusions", ROOT)
 # keys outside CRITERIA_AND_DESIGN that may still be set per analyte: a reference material's own data file
 DATA_KEYS = {"reference_material": ("data", "sheet", "header_row")}
+# keys that say how an analyte's results are expressed, not design or criteria, that may be set per analyte:
+# its units (of [study], whose other keys are the whole study's) and how its samples are reported
+EXPRESSION_KEYS = {"study": ("concentration_unit", "response_unit"),
+                   "sample_preparation": ("unit", "dilution_factor", "aliquot", "final_volume", "samples")}
+# tables of the study's frame of which only EXPRESSION_KEYS may be set per analyte, and why
+FRAME_TABLES = {"study": "of [study], only concentration_unit and response_unit can differ by analyte; the "
+                         "other keys describe the whole study"}
 
 
 @dataclass(frozen=True)
@@ -102,9 +117,11 @@ def overridable_keys(table: str, model: type[BaseModel]) -> tuple[str, ...]:
 
     if table in STUDY_WIDE_TABLES:
         return ()
+    if table in FRAME_TABLES:
+        return tuple(k for k in model.model_fields if k in EXPRESSION_KEYS[table])
     listed = CRITERIA_AND_DESIGN.get(table, ())
     keys = tuple(model.model_fields) if listed == ALL else tuple(listed)
-    keys += DATA_KEYS.get(table, ())
+    keys += DATA_KEYS.get(table, ()) + EXPRESSION_KEYS.get(table, ())
     return tuple(k for k in model.model_fields if k in keys and (table, k) not in STUDY_WIDE)
 
 
@@ -113,6 +130,8 @@ def _json(value):
         return value.model_dump(mode="json")
     if isinstance(value, (list, tuple)):
         return [_json(v) for v in value]
+    if isinstance(value, dict):
+        return {k: _json(v) for k, v in value.items()}
     return value
 
 
@@ -156,7 +175,8 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
                                  f"study declares (add [{table}])", file=shown, line=line, key=dotted)
             for key in values:
                 if key in model.model_fields and key not in allowed:
-                    why = STUDY_WIDE.get((table, key), "it is not an acceptance criterion or design key")
+                    why = STUDY_WIDE.get((table, key), FRAME_TABLES.get(table, "it is not an acceptance "
+                                                                                "criterion or design key"))
                     raise StudyError(f"is set for the whole study only: {why}", file=shown,
                                      line=_key_line(text, loc + (key,)), key=f"{dotted}.{key}", value=values[key])
             if config.runs and "data" in values:

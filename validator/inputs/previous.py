@@ -201,6 +201,20 @@ def _check_refit(reader, name: str, index: int, entry: dict, data: CalibrationDa
                         f"(recorded {model} calibration function, weighting {weighting})", file=prev_path)
 
 
+UNIT_KEYS = ("concentration_unit", "response_unit")
+
+
+def _check_units(previous: dict, current, path: str, analyte: str | None = None) -> None:
+    """The previous run's units (``previous``: its unit keys) are this study's (``current``: a [study] table)."""
+    for kind in ("concentration", "response"):
+        unit = previous.get(f"{kind}_unit")
+        current_unit = getattr(current, f"{kind}_unit")
+        if unit is not None and unit != current_unit:
+            where = "" if analyte is None else f'for analyte "{show(analyte)}" '
+            raise DataError(f'uses {kind} unit "{show(unit)}" {where}but this study uses "{show(current_unit)}"; '
+                            "results in different units cannot be compared", file=path)
+
+
 def read_previous(reader, analytes):
     """Read, check and match the previous results.json of a re-validation.
 
@@ -229,12 +243,10 @@ def read_previous(reader, analytes):
     if isinstance(version, str) and version.split(".")[0] != "1":       # other types: the schema names them
         raise DataError(f'has schema version "{version[:40]}"; this validator reads version 1.x', file=path)
     _check_schema(previous, path)
-    for kind in ("concentration", "response"):
-        unit = previous["study"].get(f"{kind}_unit")
-        current_unit = getattr(reader.study.config.study, f"{kind}_unit")
-        if unit is not None and unit != current_unit:
-            raise DataError(f'uses {kind} unit "{show(unit)}" but this study uses "{show(current_unit)}"; '
-                            "results in different units cannot be compared", file=path)
+    per_analyte = (any(k in a for a in previous["analytes"] if isinstance(a, dict) for k in UNIT_KEYS)
+                   or any(s.sets("study", k) for s in reader.study.analyte_settings for k in UNIT_KEYS))
+    if not per_analyte:             # one unit each way on both sides: said once, before the analytes are matched
+        _check_units(previous["study"], reader.study.config.study, path)
     names = [a["name"] for a in previous["analytes"]]
     if len(set(names)) != len(names):
         dup = next(n for n in names if names.count(n) > 1)
@@ -248,6 +260,9 @@ def read_previous(reader, analytes):
                         + ", ".join(f'"{a}"' for a in current) + "; the previous results have "
                         + ", ".join(f'"{a}"' for a in names)
                         + '; map renamed analytes with [revalidation] analytes = {new = "old"}', file=path)
+    for new, old in pairs:      # an analyte's own units ([analyte_settings.<analyte>.study]) on either side
+        _check_units({k: by_name[old].get(k, previous["study"].get(k)) for k in UNIT_KEYS},
+                     reader.study.config_for(new).study, path, new if per_analyte else None)
     for new, old in pairs:
         _check_refit(reader, new, names.index(old), by_name[old], analytes[new], path)
     matched_new = {c for c, _ in pairs}

@@ -65,12 +65,14 @@ def _environment() -> jinja2.Environment:
     return env
 
 
-def _plot_data(index: int, a, study: dict) -> dict:
+def _plot_data(index: int, a, units: tuple[str, str]) -> dict:
+    """The series of one analyte's calibration and precision figures; ``units``: its (concentration,
+    response) units."""
     fit, bands, rv = a.calibration.fit, a.bands, a.residual_views
     back = a.calibration.back_calculated
     judged = [b for b in back if b.passed is not None]
     return {
-        "key": str(index), "xunit": study["concentration_unit"], "yunit": study["response_unit"],
+        "key": str(index), "xunit": units[0], "yunit": units[1],
         "level": level_label(1 - fit.alpha),
         "x": fit.x.tolist(), "y": fit.y.tolist(), "residuals": fit.residuals.tolist(),
         "grid": bands.x.tolist(), "fit": bands.fit.tolist(),
@@ -116,7 +118,8 @@ def _readings(results: dict, alpha: float) -> list:
     study = results["study"]
     out = []
     for i, a in enumerate(results["analytes"]):
-        reading = registry.Reading(alpha=alpha, unit=study["concentration_unit"], response_unit=study["response_unit"],
+        unit, response_unit = summary.units_of(a, study)
+        reading = registry.Reading(alpha=alpha, unit=unit, response_unit=response_unit,
                                    key=str(i), not_applicable=tuple((n["item"], n["reason"])
                                                                     for n in a.get("not_applicable", ())),
                                    analyte=a)
@@ -157,13 +160,13 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
     study = results["study"]
     alpha = result.loaded.config.criteria.alpha
     readings = _readings(results, alpha)
-    figures = figures_for_all([{**_plot_data(i, a, study), "characteristics": readings[i]}
+    units = [summary.units_of(a, study) for a in results["analytes"]]
+    figures = figures_for_all([{**_plot_data(i, a, units[i]), "characteristics": readings[i]}
                                for i, a in enumerate(result.analytes)], _analyte_figures,
                               on_done=None if progress is None else lambda k, n: progress("drawing figures", k, n))
     if progress is not None:
         progress("writing the HTML dossier")
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
-    unit = study["concentration_unit"]
     # the fragments in registry order, by where the dossier includes them (Characteristic.placement)
     placed = {p: [e for e in registry.REGISTRY if e.fragment and e.placement == p]
               for p in ("analyte", "characteristics", "study-before", "study-after")}
@@ -173,9 +176,11 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
     for i, a in enumerate(results["analytes"]):
         text = {name: dict(sentences[name](entry, reading)) for name, entry, reading in readings[i]
                 if name in sentences}
+        # "unit", "response_unit": the analyte's own units (else the study's), shown beside its numbers
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text,
+                         "unit": units[i][0], "response_unit": units[i][1],
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
-                         "remarks": summary.remarks(a, unit), "flagged_points": summary.flagged_points(a["calibration"]),
+                         "remarks": summary.remarks(a, units[i][0]), "flagged_points": summary.flagged_points(a["calibration"]),
                          "file_rows": _calibration_rows(result.analytes[i], a)})
     criteria = summary.ordered_criteria(results)
     matrix = summary.matrix(results)
@@ -194,6 +199,8 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
+        # the concentration unit of the matrix's header, None when the analytes' units differ (then each row's)
+        matrix_unit=summary.common_unit(results), own_units=summary.units_by_analyte(results),
         conclusion=summary.conclusion(results), remarks=all_remarks,
         flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
         calibration_file=result.loaded.config.calibration.data,

@@ -13,7 +13,31 @@ from dataclasses import dataclass
 from . import numbers as N
 
 __all__ = ["Cell", "MatrixRow", "matrix", "ordered_criteria", "conclusion", "characteristic_verdicts",
-           "criterion_characteristic", "studied_heading"]
+           "criterion_characteristic", "studied_heading", "units_of", "common_unit", "units_by_analyte"]
+
+
+def units_of(analyte: dict, study: dict) -> tuple[str, str]:
+    """(concentration unit, response unit) of one analyte's results.json entry: its own
+    (``[analyte_settings.<analyte>.study]``), else the study's."""
+    return (analyte.get("concentration_unit", study["concentration_unit"]),
+            analyte.get("response_unit", study["response_unit"]))
+
+
+def common_unit(results: dict, which: int = 0) -> str | None:
+    """The concentration (``which=0``) or response (1) unit every analyte shares, ``None`` when they differ."""
+    found = {units_of(a, results["study"])[which] for a in results["analytes"]}
+    return found.pop() if len(found) == 1 else None
+
+
+def units_by_analyte(results: dict) -> list[dict]:
+    """The analytes whose units are not the study's: ``{index, name, concentration, response}`` each."""
+    study = results["study"]
+    out = []
+    for i, a in enumerate(results["analytes"]):
+        conc, resp = units_of(a, study)
+        if (conc, resp) != (study["concentration_unit"], study["response_unit"]):
+            out.append({"index": i, "name": a["name"], "concentration": conc, "response": resp})
+    return out
 
 
 @dataclass(frozen=True)
@@ -30,6 +54,7 @@ class MatrixRow:
     index: int
     name: str
     verdict: str
+    unit: str                  # the analyte's concentration unit (range, LOD and LOQ are in it)
     range_low: Cell | None
     range_high: Cell | None
     range_note: str
@@ -101,6 +126,7 @@ def matrix(results: dict) -> list[MatrixRow]:
     rows = []
     for i, a in enumerate(results["analytes"]):
         base = f"analytes.{i}"
+        unit = units_of(a, results["study"])[0]
         wr = a.get("working_range")
         if wr and wr.get("low") is not None:
             low = Cell(wr["low"], f"{base}.working_range.low", "value")
@@ -123,7 +149,7 @@ def matrix(results: dict) -> list[MatrixRow]:
         prec_levels = (a.get("precision") or {}).get("levels", [])
         unc_levels = (a.get("uncertainty") or {}).get("levels", [])
         rows.append(MatrixRow(
-            index=i, name=a["name"], verdict=a["verdict"], range_low=low, range_high=high, range_note=range_note,
+            index=i, name=a["name"], verdict=a["verdict"], unit=unit, range_low=low, range_high=high, range_note=range_note,
             lod=lod, loq=loq, detection_note=det_note,
             recovery_low=_extreme(i, "recovery", rec_levels, "mean_pct", min),
             recovery_high=_extreme(i, "recovery", rec_levels, "mean_pct", max),
@@ -141,9 +167,9 @@ _ORDER = {False: 0, None: 1, True: 2}
 def ordered_criteria(results: dict) -> list[dict]:
     """Every criterion of every analyte, not met first, then not applicable, then met (stable within
     each group), with its analyte, its indices in results.json and its display (label, unit, rule)."""
-    unit = results["study"]["concentration_unit"]
+    study = results["study"]
     rows = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j,
-                 display=N.criterion_display(c["id"], c["description"], unit))
+                 display=N.criterion_display(c["id"], c["description"], units_of(a, study)[0]))
             for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
     return sorted(rows, key=lambda c: _ORDER[c["pass"]])
 
@@ -158,7 +184,6 @@ def conclusion(results: dict) -> str:
     """The conclusion paragraph: the overall verdict in words, what failed or could not be judged,
     and over which ranges the method was shown to work."""
     analytes = results["analytes"]
-    unit = results["study"]["concentration_unit"]
     total = sum(len(a["criteria"]) for a in analytes)
     failed = [a["name"] for a in analytes if any(c["pass"] is False for c in a["criteria"])]
     incomplete = [a["name"] for a in analytes
@@ -180,10 +205,11 @@ def conclusion(results: dict) -> str:
             parts.append(f"{n_na} criterion/criteria could not be evaluated on these data"
                          + (f" (for {_names(incomplete)})" if incomplete else "")
                          + "; what was not shown is not passed, so the overall verdict cannot be a pass.")
-    ranges = [(a["name"], a["working_range"]) for a in analytes if a.get("working_range")]
+    ranges = [(a["name"], a["working_range"], units_of(a, results["study"])[0])
+              for a in analytes if a.get("working_range")]
     shown = [f"{name} {N.by_rule(wr['low'], 'value')} to {N.by_rule(wr['high'], 'value')} {unit}"
-             for name, wr in ranges if wr.get("low") is not None]
-    missing = [name for name, wr in ranges if wr.get("low") is None]
+             for name, wr, unit in ranges if wr.get("low") is not None]
+    missing = [name for name, wr, _ in ranges if wr.get("low") is None]
     if shown and len(shown) <= 6:
         parts.append("Validated working ranges: " + "; ".join(shown) + ".")
     elif shown:
