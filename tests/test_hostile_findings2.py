@@ -1,0 +1,183 @@
+"""Findings of the second hostile black-box run (notes: FINDINGS.md numbers), each kept as a test.
+
+The rules are the README's and the formulas page's (common practice, no published source, unless
+a test names one); expected numbers are hand computations from the formula beside them.
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from fractions import Fraction
+
+import numpy as np
+import pytest
+
+from conftest import CALIBRATION, REPO
+from validator._common import LIMIT_RELATIVE_TOLERANCE, no_relative_sd, not_above, not_below
+from validator.characteristics.precision.analysis import assess_precision_level, precision_criteria
+from validator.characteristics.recovery.analysis import assess_recovery
+from validator.characteristics.working_range.analysis import LoqLevel, verify_loq
+from validator.cli import main
+from validator.criteria import at_least, at_most, interval_within
+from validator.sector.bioanalytical import carry_over, dilution_integrity, incurred_sample_reanalysis, stability
+from validator.sector.ep17 import limit_of_quantitation
+from validator.sector.matrix_effect import lot_accuracy
+
+PLASMA = REPO / "example_studies" / "plasma-lcms-bioanalytical"
+
+
+def _run(capsys, *argv):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _criteria(results: dict) -> dict:
+    return {c["id"]: c for a in results["analytes"] for c in a["criteria"]}
+
+
+# ----------------------------------------------------------------------------- 9: RSD of a mean <= 0
+PRECISION_AROUND_ZERO = ("level,series,found\n0.1,a,0.05\n0.1,a,-0.30\n0.1,b,0.20\n0.1,b,-0.10\n"
+                         "0.1,c,-0.25\n0.1,c,0.15\n")
+
+
+def test_precision_with_a_negative_mean_is_not_applicable_never_met(make_study, outside, capsys):
+    # FINDINGS 9: results scattered +/-0.3 around a nominal 0.1 gave RSD -598 % "<= 5 %: met" and PASS
+    study = make_study(body='[calibration]\ndata = "calibration.csv"\n[precision]\ndata = "precision.csv"\n'
+                            'repeatability_rsd_max_pct = 5\nintermediate_rsd_max_pct = 8\n',
+                       files={"calibration.csv": CALIBRATION, "precision.csv": PRECISION_AROUND_ZERO})
+    code, out, err = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    r = json.loads((outside / "o" / "results.json").read_text())
+    level = r["analytes"][0]["precision"]["levels"][0]
+    # hand computation: mean = (0.05 - 0.30 + 0.20 - 0.10 - 0.25 + 0.15) / 6 = -0.25 / 6 = -0.041666...
+    assert level["mean"] == pytest.approx(-0.25 / 6, rel=1e-12)
+    assert level["repeatability_rsd_pct"] is None and level["intermediate_rsd_pct"] is None
+    crit = _criteria(r)
+    for cid in ("repeatability-rsd-0.1", "intermediate-rsd-0.1"):
+        assert crit[cid]["pass"] is None and crit[cid]["value"] is None
+        assert crit[cid]["note"].startswith("not applicable: the mean is negative (-0.04167), so an RSD (CV) "
+                                            "is not meaningful")
+    assert r["verdict"] != "pass" and code != 0, (out, err)
+
+
+def test_all_negative_results_give_no_rsd():
+    # FINDINGS 9, second case: found -1.0, -1.02, -0.99, -1.01 at level 1 gave RSD -1.4 % "met"
+    lv = assess_precision_level(1.0, [-1.0, -1.02, -0.99, -1.01], ["a", "a", "b", "b"])
+    assert lv.mean == pytest.approx(-1.005, rel=1e-12)        # hand computation: -4.02 / 4
+    assert lv.repeatability_rsd_pct is None and lv.intermediate_rsd_pct is None
+    crits = precision_criteria(lv, (5.0, 8.0))
+    assert [c.passed for c in crits] == [None, None]
+    assert all("the mean is negative (-1.005)" in c.note for c in crits)
+
+
+def test_nested_design_and_upper_bounds_give_no_rsd_for_a_negative_mean():
+    lv = assess_precision_level(1.0, [-1.0, -1.02, -0.99, -1.01, -1.0, -0.98, -1.03, -1.0],
+                                list("aabbccdd"), design=["day", "run"],
+                                factors=[["d1"] * 4 + ["d2"] * 4, ["r1", "r1", "r2", "r2"] * 2])
+    (r_rsd, r_up, r_why), (i_rsd, i_up, i_why) = lv.decisive
+    assert (r_rsd, r_up, i_rsd, i_up) == (None, None, None, None)
+    assert "the mean is negative" in r_why and "the mean is negative" in i_why
+    for on_intervals in (False, True):
+        assert [c.passed for c in precision_criteria(lv, (5.0, 8.0), on_intervals=on_intervals)] == [None, None]
+    bounds = assess_precision_level(1.0, [-1.0, -1.02, -0.99, -1.01], ["a", "a", "b", "b"], bounds=True)
+    assert bounds.rsd_upper_bounds.repeatability_rsd_upper_pct is None
+    assert bounds.rsd_upper_bounds.intermediate_rsd_upper_pct is None
+
+
+def test_a_precision_claim_needs_a_positive_mean():
+    lv = assess_precision_level(1.0, [-1.0, -1.02, -0.99, -1.01], ["a", "a", "b", "b"], claims=(2.0, 3.0))
+    assert all(c.verified is None and "the mean is negative" in c.reason for c in lv.claims)
+
+
+def test_recovery_rsd_needs_a_positive_mean_recovery():
+    rec = assess_recovery(np.array([1.0, 1.0, 1.0]), np.array([-0.1, -0.12, -0.11]))
+    level = rec.levels[0]
+    assert level.mean_pct == pytest.approx(-11.0, rel=1e-12)   # hand computation: 100 x mean(found) / added
+    assert level.rsd_pct is None and "the mean recovery is negative" in level.reason
+
+
+def test_loq_check_with_a_level_without_rsd_is_not_applicable():
+    # one level up to 2 x LOQ with an RSD of 3 % (met) and one without an RSD (its mean is negative): the
+    # LOQ is not shown at the second, so the check is not met either (not shown is not passed)
+    class P:
+        def __init__(self, level, rsd):
+            self.level, self.repeatability_rsd_pct = level, rsd
+    check = verify_loq(1.0, [P(1.0, 3.0), P(2.0, None)], [], 20.0)
+    assert check.passed is None and check.reason == "no RSD exists at precision level 2 (see its section)"
+    assert check.levels[1] == LoqLevel("precision", 2.0, None, None)
+    # a level that exceeds the maximum fails whatever the others show
+    assert verify_loq(1.0, [P(1.0, 25.0), P(2.0, None)], [], 20.0).passed is False
+    assert verify_loq(1.0, [P(1.0, 3.0), P(2.0, 20.0)], [], 20.0).passed is True
+
+
+@pytest.mark.parametrize("mean, words", [(0.0, "is zero"), (-2.5, "is negative (-2.5)"), (None, "does not exist")])
+def test_no_relative_sd_reasons(mean, words):
+    assert words in no_relative_sd(mean)
+    assert no_relative_sd(1e-300) == ""
+
+
+def test_sector_cvs_need_a_positive_mean():
+    # dilution: a negative mean (accuracy far off) fails on accuracy; its CV is not judged and says why
+    d = dilution_integrity([-10.0, -10.5, -9.5, -10.2, -9.8], 10, 100.0)
+    assert d.cv_percent is None and d.cv_passed is None and "the mean is negative" in d.cv_reason
+    assert d.accuracy_passed is False and d.passed is False
+    # matrix lots: a lot whose mean is negative has no CV
+    lots = lot_accuracy([-1.0, -1.1, -0.9] * 6, [f"L{i}" for i in range(6) for _ in range(3)], 1.0,
+                        max_bias_percent=1000.0)
+    assert all(lv.cv_percent is None and lv.passed is None and "the mean is negative" in lv.reason
+               for lv in lots.lots)
+    assert lots.passed is None
+    # EP17 LoQ precision goal: a level whose mean is negative does not meet a CV goal (CV = SD / |mean|
+    # would call -1.0, -1.02, -0.99, -1.01 precise to 1.4 %)
+    loq = limit_of_quantitation([-1.0, -1.02, -0.99, -1.01], ["s"] * 4, [1.0] * 4, max_cv_percent=20.0)
+    assert loq.levels[0].cv_percent is None and loq.levels[0].meets_goal is None
+    assert "the mean is negative" in loq.levels[0].reason and loq.value is None
+
+
+# ----------------------------------------------------------------------------- 2, 3, 4: on the limit
+def test_exactly_on_the_limit_through_binary_floating_point_is_on_the_limit():
+    # exact arithmetic: 100 x 0.14 / 0.7 = 20 and 100 (2.55 / 3 - 1) = -15
+    assert Fraction("0.14") * 100 / Fraction("0.7") == 20
+    assert 100 * (Fraction("2.55") / 3 - 1) == -15
+    carry = 100.0 * 0.14 / 0.7
+    dev = 100.0 * (2.55 / 3 - 1)
+    assert carry > 20 and dev < -15        # binary floating point lands beyond the limit
+    assert at_most(carry, 20) is True and interval_within([dev, dev], [-15, 15]) is True
+    assert at_least(100.0 * (0.7 / 0.14) / 25 - 1e-14, 20) is True     # hand computation: 100 x 5 / 25 = 20
+    # the rule is relative 1e-9 of the limit (this tool's choice, no published source): beyond it, beyond
+    assert LIMIT_RELATIVE_TOLERANCE == 1e-9
+    assert at_most(20 * (1 + 2e-9), 20) is False and at_most(20.0001, 20) is False
+    assert at_least(20 * (1 - 2e-9), 20) is False
+    assert not_above(0.0, 0.0) and not not_above(1e-300, 0.0)          # a limit of 0 is compared exactly
+    assert not_below(np.array([19.99999999999, 19.9]), 20).tolist() == [True, False]
+
+
+def test_carry_over_exactly_at_20_percent_is_met():
+    # FINDINGS 2: LLOQ 0.7, blank 0.14: 100 x 0.14 / 0.7 = 20 % (hand computation) "at most 20 %"
+    c = carry_over([0.14], [0.7])
+    assert c.max_analyte_percent == pytest.approx(20.0, rel=1e-15) and c.passed is True
+
+
+def test_stability_exactly_at_minus_15_percent_is_met():
+    # FINDINGS 3: 3 x (nominal 3, found 2.55): deviation 100 (2.55 / 3 - 1) = -15 % (hand computation)
+    s = stability([2.55, 2.55, 2.55], nominal=3.0)
+    assert s.deviation_percent == pytest.approx(-15.0, rel=1e-15) and s.passed is True
+
+
+def test_isr_difference_exactly_20_percent_is_within():
+    # FINDINGS 4: original 0.9, repeat 1.1: 100 (1.1 - 0.9) / 1.0 = 20 % (hand computation) "within 20 %"
+    isr = incurred_sample_reanalysis([0.9] * 3, [1.1] * 3, sample=["A", "B", "C"])
+    assert all(s.within for s in isr.samples) and isr.n_within == 3 and isr.passed is True
+
+
+def test_on_the_limit_end_to_end(tmp_path, outside, capsys):
+    folder = tmp_path / "p"
+    shutil.copytree(PLASMA, folder)
+    (folder / "carry-over.csv").write_text("kind,response,internal_standard_response\nlloq,0.7,1000\n"
+                                           "blank,0.14,10\n", encoding="utf-8")
+    (folder / "stability.csv").write_text("condition,nominal,found\n" + "bench,3,2.55\n" * 3, encoding="utf-8")
+    code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    crit = _criteria(json.loads((outside / "o" / "results.json").read_text()))
+    assert crit["carry-over"]["pass"] is True and crit["stability-bench-3"]["pass"] is True, err
+    assert code == 0, err
