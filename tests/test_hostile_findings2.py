@@ -181,3 +181,33 @@ def test_on_the_limit_end_to_end(tmp_path, outside, capsys):
     crit = _criteria(json.loads((outside / "o" / "results.json").read_text()))
     assert crit["carry-over"]["pass"] is True and crit["stability-bench-3"]["pass"] is True, err
     assert code == 0, err
+
+
+# ----------------------------------------------------------------------------- 13: zero spread
+def test_identical_matrix_factors_are_not_applicable_like_other_zero_spreads():
+    # FINDINGS 13: six lots with bit-identical analyte and IS areas gave a matrix-factor CV of 0 % "met",
+    # while a dilution CV of identical results is not applicable (not shown is not passed)
+    from validator.sector.matrix_effect import normalised_matrix_factor
+    lots = [f"donor-{i}" for i in range(1, 7)]
+    mf = normalised_matrix_factor([140187.0] * 6, [234037.0] * 6, lots, [149782.0], [244869.0])
+    assert mf.cv_percent == 0.0 and mf.passed is None
+    assert mf.reason.startswith("the IS-normalised matrix factors of all 6 lots are identical (SD exactly 0)")
+    d = dilution_integrity([200.0] * 5, 10, 2000.0)
+    assert d.cv_percent == 0.0 and d.cv_passed is None and d.passed is None
+    # a factor that varies is judged: CV of (1, 1.1) x scale, hand computation 100 x 0.0707107 / 1.05
+    mf = normalised_matrix_factor([100.0, 110.0], [100.0, 100.0], ["a", "b"], [100.0], [100.0], min_lots=2)
+    assert mf.cv_percent == pytest.approx(100 * np.std([1.0, 1.1], ddof=1) / 1.05, rel=1e-12)
+    assert mf.passed is True
+
+
+def test_matrix_factor_cv_end_to_end_not_applicable(tmp_path, outside, capsys):
+    folder = tmp_path / "p"
+    shutil.copytree(PLASMA, folder)
+    (folder / "matrix-factor.csv").write_text("lot,analyte_response,internal_standard_response\n"
+                                              "neat,149782,244869\n"
+                                              + "".join(f"donor-0{i},140187,234037\n" for i in range(1, 7)),
+                                              encoding="utf-8")
+    _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    crit = _criteria(json.loads((outside / "o" / "results.json").read_text()))["matrix-factor-cv"]
+    assert crit["pass"] is None and crit["value"] == 0.0
+    assert crit["note"].startswith("not applicable: the IS-normalised matrix factors of all 6 lots are identical")

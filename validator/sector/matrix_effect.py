@@ -397,6 +397,10 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
         # identical factors in every lot show no lot-to-lot variation at all, below the resolution of the
         # responses (or copied values): not shown is not passed, as for precision and dilution integrity
         return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
-                                      min_lots, None, NO_SPREAD_CV)
+                                      min_lots, None,
+                                      f"the IS-normalised matrix factors of all {len(rows)} lots are identical (SD "
+                                      "exactly 0): no lot-to-lot variation is shown within the resolution of the "
+                                      "responses (check for copied values), so the CV of 0 % is not judged, as an "
+                                      "RSD of identical results is not for precision")
     return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
                                   min_lots, bool(not_above(summary.cv_percent, max_cv_percent)))
