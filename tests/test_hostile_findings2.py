@@ -211,3 +211,24 @@ def test_matrix_factor_cv_end_to_end_not_applicable(tmp_path, outside, capsys):
     crit = _criteria(json.loads((outside / "o" / "results.json").read_text()))["matrix-factor-cv"]
     assert crit["pass"] is None and crit["value"] == 0.0
     assert crit["note"].startswith("not applicable: the IS-normalised matrix factors of all 6 lots are identical")
+
+
+# ----------------------------------------------------------------------------- 14: negative blank areas
+@pytest.mark.parametrize("file, content, row, column, value", [
+    ("carry-over.csv", "kind,response,internal_standard_response\nlloq,3700,257266\nlloq,3700,257266\n"
+                       "blank,-500,1410\n", 4, "response", "-500"),
+    ("carry-over.csv", "kind,response,internal_standard_response\nlloq,3700,257266\nblank,5,-1\n",
+     3, "internal_standard_response", "-1"),
+    ("selectivity.csv", "lot,kind,response\n,lloq,3700\n" + "".join(f"L{i},blank,10\n" for i in range(5))
+     + "L5,blank,-0.5\n", 8, "response", "-0.5"),
+    ("matrix-factor.csv", "lot,analyte_response,internal_standard_response\nneat,100,100\nL1,-3,100\n",
+     3, "analyte_response", "-3"),
+])
+def test_negative_responses_in_sector_files_are_refused(tmp_path, outside, capsys, file, content, row, column, value):
+    # FINDINGS 14: a blank area of -500 gave carry-over -13.5 % "met"; run exports refuse negative areas
+    folder = tmp_path / "p"
+    shutil.copytree(PLASMA, folder)
+    (folder / file).write_text(content, encoding="utf-8")
+    code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    assert (code, err) == (2, f'validator: error: {file}, row {row}, column "{column}": {column} {value} is '
+                              "negative: a response (peak area) cannot be below zero\n")

@@ -65,7 +65,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
     """``{analyte: MatrixEffectData}`` for every analyte with rows in any of the files."""
     from ...errors import DataError, show
     from ...inputs.sector_names import one_spelling
-    from ...inputs.sector_tables import labels, numbers, positive, read_rows
+    from ...inputs.sector_tables import labels, not_negative, numbers, positive, read_rows
 
     parts: dict = {}
     if settings.solvent_data is not None:
@@ -93,6 +93,8 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
                                 "matrix-factor response")
         lots = labels(table, "lot", "")
         a, s = numbers(reader, table, "analyte_response"), numbers(reader, table, "internal_standard_response")
+        not_negative(table, "analyte_response", a)
+        not_negative(table, "internal_standard_response", s)
         for name, idx in rows.items():
             one_spelling(table, "lot", lots, idx)
             if not any(lots[i].casefold() == NEAT for i in idx):

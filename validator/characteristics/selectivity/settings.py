@@ -40,7 +40,7 @@ def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
     """``{analyte: SelectivityData}``; blank rows need a lot, each analyte needs blank and LLOQ rows."""
     from ...errors import DataError
     from ...inputs.sector_names import one_spelling
-    from ...inputs.sector_tables import kinds, numbers, positive, read_rows
+    from ...inputs.sector_tables import kinds, not_negative, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "selectivity", settings.data, ("lot", "kind", "response"),
                             ("internal_standard_response",), analytes, "selectivity injection")
@@ -61,8 +61,10 @@ def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
                 raise DataError("a blank-matrix row needs its lot", file=table.path, row=table.rows[i], column="lot",
                                 value="")
         one_spelling(table, "lot", lots, blank)
+        not_negative(table, "response", response, blank)
         positive(table, "response", response, lloq)
         if has_is:
+            not_negative(table, "internal_standard_response", istd, blank)
             positive(table, "internal_standard_response", istd, lloq)
         out[name] = SelectivityData(tuple(lots[i] for i in blank), response[blank], response[lloq],
                                     None if istd is None else istd[blank], None if istd is None else istd[lloq])
