@@ -232,3 +232,49 @@ def test_negative_responses_in_sector_files_are_refused(tmp_path, outside, capsy
     code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
     assert (code, err) == (2, f'validator: error: {file}, row {row}, column "{column}": {column} {value} is '
                               "negative: a response (peak area) cannot be below zero\n")
+
+
+# ----------------------------------------------------------------------------- 8: matrix effect in the summary
+
+
+def _matrix_effect_study(make_study, judged: str = "", guideline: bool = True):
+    # solvent slope 3.3 x the matrix slope: ME % = 100 (1/3.3 - 1) = -69.7 % (hand computation)
+    solvent = "concentration,response\n" + "".join(f"{x},{3.3 * 2.0 * x + 0.01}\n" for x in (1, 2, 4, 8, 16))
+    head = ('[study]\nid = "G-1"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "ratio"\n'
+            + ('guideline = "sante-11312-2021"\n' if guideline else ""))
+    body = ('[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nsolvent_data = "solvent.csv"\n'
+            + ("" if guideline else "limit_pct = 20\n") + judged)
+    return make_study(body=body, head=head, files={"calibration.csv": CALIBRATION, "solvent.csv": solvent})
+
+
+def test_a_matrix_effect_beyond_the_preset_limit_is_a_summary_remark(make_study, outside, capsys):
+    # FINDINGS 8: under the SANTE preset ME % of -70 % gave PASS and the summary said nothing
+    from validator.report.summary import remarks
+    code, _, err = _run(capsys, "run", _matrix_effect_study(make_study), "--out", outside / "o",
+                        "--format", "json,html")
+    r = json.loads((outside / "o" / "results.json").read_text())
+    sr = r["analytes"][0]["matrix_effect"]["slope_ratio"]
+    # hand computation from the formula ME % = 100 (b_matrix / b_solvent - 1), about 100 (1/3.3 - 1) = -69.7 %
+    assert sr["statistic"] == pytest.approx(100 * (sr["slope_matrix"] / sr["slope_solvent"] - 1), rel=1e-12)
+    assert sr["statistic"] == pytest.approx(100 * (1 / 3.3 - 1), abs=0.05) and sr["beyond_limit"] is True
+    texts = [m.text for m in remarks(r["analytes"][0], "ng/mL", r.get("guideline")) if m.kind == "matrix-effect-beyond-limit"]
+    assert texts == ['the matrix effect ME % = -69.7 % (slope in matrix / slope in solvent − 1) lies beyond ±20 %, '
+                     'the SANTE/11312/2021 preset\'s limit (guideline = "sante-11312-2021"; SANTE/11312/2021, matrix '
+                     'effects (sec. D, calibration), from memory): beyond it SANTE/11312/2021 calls for matrix-matched '
+                     'calibration (or another calibration that compensates the effect), as quantification against '
+                     'solvent standards would be biased. It is reported, not judged (judge_slope_ratio = false), so '
+                     'the verdict does not depend on it: confirm that samples are quantified against the '
+                     'matrix-matched [calibration], or set judge_slope_ratio = true.']
+    summary_page = (outside / "o" / "dossier.html").read_text(encoding="utf-8").split('id="remarks"')[1]
+    assert "the matrix effect ME % = -69.7 %" in summary_page.split("</ul>")[0]
+
+
+def test_a_judged_matrix_effect_remark_names_its_criterion(make_study, outside, capsys):
+    from validator.report.summary import remarks
+    _run(capsys, "run", _matrix_effect_study(make_study, "judge_slope_ratio = true\n", guideline=False),
+         "--out", outside / "o", "--format", "json")
+    r = json.loads((outside / "o" / "results.json").read_text())
+    (text,) = [m.text for m in remarks(r["analytes"][0], "ng/mL", r.get("guideline"))
+               if m.kind == "matrix-effect-beyond-limit"]
+    assert "the study's limit ([matrix_effect] limit_pct): beyond it quantification against solvent" in text
+    assert text.endswith("It is judged (judge_slope_ratio = true): criterion matrix-effect-slope-ratio, NOT MET.")
