@@ -278,3 +278,48 @@ def test_a_judged_matrix_effect_remark_names_its_criterion(make_study, outside, 
                if m.kind == "matrix-effect-beyond-limit"]
     assert "the study's limit ([matrix_effect] limit_pct): beyond it quantification against solvent" in text
     assert text.endswith("It is judged (judge_slope_ratio = true): criterion matrix-effect-slope-ratio, NOT MET.")
+
+
+# ----------------------------------------------------------------------------- 5: empty cells of a one-column file
+MDL_SPIKED = "found\n0.05\n0.06\n0.04\n0.055\n0.045\n0.06\n0.05\n"
+MDL_BODY = ('[calibration]\ndata = "calibration.csv"\n[method_detection_limit]\nspiked = "mdl-spiked.csv"\n'
+            'blanks = "mdl-blanks.csv"\nmdl_max = 0.05\n')
+
+
+@pytest.mark.parametrize("blanks", ["found\n0.02\n\n0.03\n\n0.05\n", "found\n0.02\nND\n0.03\nND\n0.05\n",
+                                    "found\n0.02\n\n0.03\n\n0.05\n\n\n"])
+def test_empty_lines_of_a_one_column_blank_file_are_results_without_a_number(make_study, outside, capsys, blanks):
+    # FINDINGS 5: the two empty results were dropped as blank lines: n 3, rule "mean + t s", MDL 0.1397 not met
+    study = make_study(body=MDL_BODY, files={"calibration.csv": CALIBRATION, "mdl-spiked.csv": MDL_SPIKED,
+                                             "mdl-blanks.csv": blanks})
+    _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    mdl = a["method_detection_limit"]
+    # 40 CFR 136 Appendix B Rev. 2 (as the README reads it): with blanks that give no numerical result,
+    # MDL_b is the highest blank result when there are at most 100: here 0.05 of 5 blanks
+    assert (mdl["n_blanks"], mdl["n_blanks_numerical"], mdl["blank_rule"]) == (5, 3, "highest blank")
+    assert mdl["blank"] == 0.05
+    assert next(c for c in a["criteria"] if c["id"] == "method-detection-limit")["pass"] is True
+
+
+def test_one_column_files_keep_interior_empty_lines_as_rows():
+    from validator.inputs.tables import read_table
+    t = read_table(b"found\n1\n\n2\n  \n3\n\n\n", "f.csv", required=("found",))
+    assert t.columns["found"] == ["1", "", "2", "", "3"] and t.rows == (2, 3, 4, 5, 6)
+    # a file of two columns still skips blank lines (an empty line there is not one cell)
+    t = read_table(b"a,b\n1,2\n\n3,4\n", "f.csv", required=("a", "b"))
+    assert t.columns["a"] == ["1", "3"] and t.rows == (2, 4)
+
+
+def test_one_column_sheets_keep_interior_empty_rows(tmp_path):
+    import openpyxl
+    from validator.inputs.workbook import read_workbook
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    for row, value in ((1, "found"), (2, 0.02), (4, 0.03), (6, 0.05)):
+        ws.cell(row, 1, value)
+    ws.cell(5, 1, None)
+    path = tmp_path / "b.xlsx"
+    wb.save(path)
+    t = read_workbook(path.read_bytes(), "b.xlsx", required=("found",))
+    assert t.columns["found"] == ["0.02", "", "0.03", "", "0.05"] and t.rows == (2, 3, 4, 5, 6)
