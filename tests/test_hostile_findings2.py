@@ -323,3 +323,47 @@ def test_one_column_sheets_keep_interior_empty_rows(tmp_path):
     wb.save(path)
     t = read_workbook(path.read_bytes(), "b.xlsx", required=("found",))
     assert t.columns["found"] == ["0.02", "", "0.03", "", "0.05"] and t.rows == (2, 3, 4, 5, 6)
+
+
+# ----------------------------------------------------------------------------- 6: lots typed several ways
+def _load(study):
+    from validator.inputs.loading import load_study
+    return load_study(study)
+
+
+@pytest.mark.parametrize("body, name, content, row, value, first", [
+    ('[selectivity]\ndata = "sel.csv"\n', "sel.csv",
+     "lot,kind,response\n,lloq,3995\n" + "".join(f"{lot},blank,121\n" for lot in
+                                                ("d1", "d 1", "d-1", "d_1", "d.1", "d1.")), 4, "d 1", "d1"),
+    ('[matrix_effect]\nlots_data = "lots.csv"\n', "lots.csv", "lot,nominal,found\nP-1,3,3\nP1,3,3\n",
+     3, "P1", "P-1"),
+    ('[matrix_effect]\nfactor_data = "mf.csv"\n', "mf.csv",
+     "lot,analyte_response,internal_standard_response\nneat,1,1\nL 1,1,1\nl1.,1,1\n", 4, "l1.", "L 1"),
+    ('[limit_of_blank]\nblanks = "bl.csv"\n', "bl.csv", "sample,lot,found\nb,lot_A,0\nb,LOT-A,0\n",
+     3, "LOT-A", "lot_A"),
+])
+def test_lot_names_differing_only_in_case_spaces_or_punctuation_are_one_lot(make_study, body, name, content,
+                                                                           row, value, first):
+    # FINDINGS 6: six spellings of one donor counted as the 6 lots ICH M10 asks for (common practice, no
+    # published source: lots are compared on their letters and digits)
+    from validator.errors import DataError
+    files = {"calibration.csv": CALIBRATION, name: content}
+    with pytest.raises(DataError) as info:
+        _load(make_study('[calibration]\ndata = "calibration.csv"\n' + body, files))
+    assert str(info.value) == (f'{name}, row {row}, column "lot": lot "{value}" and "{first}" (row {row - 1}) differ '
+                               "only in letter case, spaces or punctuation (one lot typed two ways would count twice "
+                               "towards the minimum number of lots): names are compared ignoring case, spaces and "
+                               "punctuation, so they would be one lot; write it one way")
+
+
+def test_lots_one_character_apart_stay_distinct(make_study, outside, capsys):
+    # "d1" and "d2" are two donors (unlike sample ids, lots one character apart are not suspicious)
+    from validator.inputs.sector_names import lot_key
+    assert [lot_key(s) for s in ("d1", "d 1", "D-1", "d_1", "d.1", "d1.")] == ["d1"] * 6
+    assert lot_key("d1") != lot_key("d2")
+    sel = "lot,kind,response\n,lloq,3995\n" + "".join(f"d{i},blank,121\n" for i in range(1, 7))
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[selectivity]\ndata = "sel.csv"\n',
+                       {"calibration.csv": CALIBRATION, "sel.csv": sel})
+    _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
+    a = json.loads((outside / "o" / "results.json").read_text())["analytes"][0]
+    assert a["selectivity"]["n_lots"] == 6

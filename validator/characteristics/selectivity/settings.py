@@ -39,7 +39,7 @@ class SelectivityData:
 def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
     """``{analyte: SelectivityData}``; blank rows need a lot, each analyte needs blank and LLOQ rows."""
     from ...errors import DataError
-    from ...inputs.sector_names import one_spelling
+    from ...inputs.sector_names import one_lot_spelling
     from ...inputs.sector_tables import kinds, not_negative, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "selectivity", settings.data, ("lot", "kind", "response"),
@@ -60,7 +60,7 @@ def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
             if not lots[i]:
                 raise DataError("a blank-matrix row needs its lot", file=table.path, row=table.rows[i], column="lot",
                                 value="")
-        one_spelling(table, "lot", lots, blank)
+        one_lot_spelling(table, "lot", lots, blank)
         not_negative(table, "response", response, blank)
         positive(table, "response", response, lloq)
         if has_is:
