@@ -67,7 +67,8 @@ def test_degenerate_and_invalid():
     flat = tost_mean([100.0, 100.0, 100.0], 98, 102)
     assert flat.pvalue is None and flat.equivalent is None and "standard error is 0" in flat.reason
     assert "at least 2" in tost_mean([100.0], 98, 102).reason
-    assert "mean is 0" in rsd_upper_bound([-1.0, 1.0]).reason
+    assert "mean is zero" in rsd_upper_bound([-1.0, 1.0]).reason
+    assert "mean is negative" in rsd_upper_bound([-1.0, -1.5]).reason   # an RSD needs a positive mean
     with pytest.raises(ValueError, match=r"low and high must be finite with low < high, got 102 and 98"):
         tost_mean(RECOVERY, 102, 98)
     with pytest.raises(ValueError, match=r"alpha must be in the open interval \(0, 0.5\), got 0.6"):

@@ -10,7 +10,8 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy", "level_label",
-           "open_unit", "positive"]
+           "open_unit", "positive", "no_relative_sd", "LIMIT_RELATIVE_TOLERANCE", "not_above", "not_below",
+           "between"]
 
 
 @dataclass(frozen=True)
@@ -104,3 +105,53 @@ def positive(name: str, value) -> float:
     if not (math.isfinite(v) and v > 0):
         raise ValueError(f"{name} must be a finite number > 0, got {value!r}")
     return v
+
+
+# A value within this relative distance of an acceptance limit counts as ON the limit. Results are
+# computed in binary floating point, where 100 x 0.14 / 0.7 is 20.000000000000004 and
+# 100 (2.55 / 3 - 1) is -15.000000000000002: a value that is exactly on its limit in decimal
+# arithmetic may land a few units in the last place beyond it, and would then be judged against
+# what the dossier shows (20 %, -15 %). 1e-9 lies far above that representation error (about
+# 1e-16 relative per operation, 1e-13 after long sums) and far below any difference a laboratory
+# reports (this tool's choice, no published source). It is applied in this one place: every
+# comparison of a value with an acceptance limit goes through not_above, not_below or between
+# (criteria.at_most, at_least and interval_within, and the sector statistics' own verdicts,
+# per sample and per lot too). A limit of exactly 0 is compared exactly.
+LIMIT_RELATIVE_TOLERANCE = 1e-9
+
+
+def not_above(value, limit):
+    """``value <= limit``, a value within :data:`LIMIT_RELATIVE_TOLERANCE` of the limit counting as on it.
+
+    Works elementwise on numpy arrays (a bool array back).
+    """
+    return value <= limit + LIMIT_RELATIVE_TOLERANCE * abs(limit)
+
+
+def not_below(value, limit):
+    """``value >= limit``, a value within :data:`LIMIT_RELATIVE_TOLERANCE` of the limit counting as on it."""
+    return value >= limit - LIMIT_RELATIVE_TOLERANCE * abs(limit)
+
+
+def between(value, low, high) -> bool:
+    """``low <= value <= high``, each end by :func:`not_below` and :func:`not_above`."""
+    return bool(not_below(value, low) and not_above(value, high))
+
+
+def no_relative_sd(mean, what: str = "the mean") -> str:
+    """Why no RSD (CV) = 100 SD / mean is judged for this mean, or "" when the mean is positive.
+
+    An RSD describes a spread relative to a positive level; with a mean of zero it does not
+    exist and with a negative mean (results scattered around or below zero) it is not
+    meaningful: a negative RSD would "meet" any maximum and SD / |mean| would call results
+    precise whose level is wrong. Every RSD or CV that validator judges is therefore not
+    applicable, with this reason, unless its mean is positive.
+    """
+    if mean is None or not isinstance(mean, (int, float, np.integer, np.floating)) or not math.isfinite(mean):
+        return f"{what} does not exist, so no RSD (CV) exists"
+    if mean == 0:
+        return f"{what} is zero, so no RSD (CV) exists"
+    if mean < 0:
+        return (f"{what} is negative ({float(mean):.4g}), so an RSD (CV) is not meaningful: it needs a positive "
+                "mean (the results scatter around or below zero)")
+    return ""

@@ -11,6 +11,11 @@ enforces this when it is constructed, so no statistic can bypass it; the
 helpers :func:`at_least`, :func:`at_most` and :func:`interval_within` judge a
 value only when it exists.
 
+A value within a relative 1e-9 of its limit counts as on the limit (``_common.not_above``,
+``not_below``, ``between``: the one rule, used here and by the sector statistics' own
+verdicts), so that a value exactly on its limit in decimal arithmetic is not judged beyond
+it through binary floating point (100 x 0.14 / 0.7 = 20.000000000000004).
+
 The limits are the study's own; validator's defaults are examples taken
 from common practice, not regulatory limits.
 """
@@ -19,6 +24,8 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+
+from ._common import between, not_above, not_below
 
 __all__ = ["Criterion", "overall_verdict", "at_least", "at_most", "interval_within",
            "missing"]
@@ -95,13 +102,14 @@ class Criterion:
 
 
 def at_least(value, limit) -> bool | None:
-    """value >= limit, or None when either does not exist (see :func:`missing`)."""
-    return None if missing(value) or missing(limit) else bool(value >= limit)
+    """value >= limit (within the tolerance of ``_common.not_below``), or None when either does not
+    exist (see :func:`missing`)."""
+    return None if missing(value) or missing(limit) else bool(not_below(value, limit))
 
 
 def at_most(value, limit) -> bool | None:
-    """value <= limit, or None when either does not exist."""
-    return None if missing(value) or missing(limit) else bool(value <= limit)
+    """value <= limit (within the tolerance of ``_common.not_above``), or None when either does not exist."""
+    return None if missing(value) or missing(limit) else bool(not_above(value, limit))
 
 
 def interval_within(interval, limits) -> bool | None:
@@ -111,8 +119,8 @@ def interval_within(interval, limits) -> bool | None:
         return None
     low, high = interval
     if isinstance(limits, (list, tuple)):
-        return bool(limits[0] <= low and high <= limits[1])
-    return bool(low <= limits <= high)
+        return bool(not_below(low, limits[0]) and not_above(high, limits[1]))
+    return between(limits, low, high)
 
 
 def overall_verdict(criteria) -> str:

@@ -32,7 +32,7 @@ def recovery_interval_criteria(recovery, alpha: float) -> tuple:
         low, high = lv.range_pct
         test = tost_mean(lv.recoveries_pct, low, high, alpha=alpha)
         value = None if test.ci is None else [test.ci.low, test.ci.high]
-        estimate_ok = "met" if low <= lv.mean_pct <= high else "not met"
+        estimate_ok = "met" if lv.passed else "not met"
         level = "" if test.ci is None else f"{level_label(test.ci.level)} "
         note = (f"judged on the interval (two one-sided tests, p = {test.pvalue:.3g}); the point estimate "
                 f"{lv.mean_pct:.4g} % is {estimate_ok} on that basis" if test.ci is not None else

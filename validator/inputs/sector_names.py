@@ -5,6 +5,12 @@ A lot "A" and a lot "a" are one lot written two ways, or a typing slip: counting
 inflate the number of lots towards a design minimum, and two conditions "ft" and "FT" would give
 one criterion id twice. Two spellings of one name for an analyte are therefore an error at the row
 of the second, naming the first.
+
+Lots (selectivity, matrix-effect lots and factors, EP17 lots) compare ignoring letter case, spaces
+and punctuation too (:func:`lot_key`): "d1", "d 1", "d-1", "d_1", "d.1" and "d1." are one donor typed
+six ways, and counted apart they would reach a design minimum of 6 lots. (Sample ids one character
+apart are flagged by ``sample_ids.near_duplicates`` instead: there, "S1" and "S2" are different
+samples, and so are lots "d1" and "d2", which this comparison keeps apart.)
 """
 
 from __future__ import annotations
@@ -13,7 +19,7 @@ import re
 
 from ..errors import DataError, show
 
-__all__ = ["one_spelling", "slug"]
+__all__ = ["one_spelling", "slug", "lot_key", "one_lot_spelling"]
 
 
 def slug(name: str) -> str:
@@ -22,8 +28,22 @@ def slug(name: str) -> str:
     return re.sub(r"[\W_]+", "-", name.casefold()).strip("-")
 
 
+def lot_key(name: str) -> str:
+    """A lot name compared ignoring letter case, spaces and punctuation: its letters and digits only,
+    case-folded ("D-1", "d 1", "d1." -> "d1")."""
+    return re.sub(r"[\W_]+", "", name.casefold())
+
+
+def one_lot_spelling(table, column: str, names, idx) -> None:
+    """Every lot of the rows ``idx`` written one way per :func:`lot_key`, else a ``DataError`` at the
+    first row that writes it another way (naming the first)."""
+    one_spelling(table, column, names, idx, key=lot_key, compared="ignoring case, spaces and punctuation",
+                 how="differ only in letter case, spaces or punctuation (one lot typed two ways would count "
+                     "twice towards the minimum number of lots)")
+
+
 def one_spelling(table, column: str, names, idx, *, key=str.casefold,
-                 how: str = "differ only in letter case") -> None:
+                 how: str = "differ only in letter case", compared: str = "ignoring case") -> None:
     """Every name of the rows ``idx`` written one way per ``key`` (letter case by default), else a
     ``DataError`` at the first row that writes it another way."""
     seen: dict = {}
@@ -32,6 +52,6 @@ def one_spelling(table, column: str, names, idx, *, key=str.casefold,
         if k in seen and names[seen[k]] != names[i]:
             first = seen[k]
             raise DataError(f'{column} "{show(names[i])}" and "{show(names[first])}" (row {table.rows[first]}) '
-                            f"{how}: names are compared ignoring case, so they would be one {column}; "
+                            f"{how}: names are compared {compared}, so they would be one {column}; "
                             "write it one way", file=table.path, row=table.rows[i], column=column, value=names[i])
         seen.setdefault(k, i)

@@ -15,7 +15,7 @@ from ..errors import DataError, show
 from .loading import analyte_rows, numeric_column
 from .tables import MAX_NAME_LENGTH, parse_number
 
-__all__ = ["read_rows", "numbers", "numbers_or_missing", "labels", "positive", "one_value_per_group", "kinds"]
+__all__ = ["read_rows", "numbers", "numbers_or_missing", "labels", "positive", "not_negative", "one_value_per_group", "kinds"]
 
 
 def read_rows(reader, role: str, path: str, required: tuple, optional: tuple, analytes: dict, what: str):
@@ -54,6 +54,16 @@ def positive(table, column: str, values, idx=None) -> None:
         if not values[i] > 0:
             raise DataError(f"{column} {show(table.columns[column][i])} must be > 0", file=table.path,
                             row=table.rows[i], column=column, value=values[i])
+
+
+def not_negative(table, column: str, values, idx=None, what: str = "a response (peak area)") -> None:
+    """Every value (of the rows ``idx``) at least zero, else an error naming its row: a peak area
+    cannot be negative (as in the run exports), and a negative blank would mask a carry-over or an
+    interference instead of showing it."""
+    for i in (range(len(values)) if idx is None else idx):
+        if values[i] < 0:
+            raise DataError(f"{column} {show(table.columns[column][i])} is negative: {what} cannot be below zero",
+                            file=table.path, row=table.rows[i], column=column, value=values[i])
 
 
 def one_value_per_group(table, group_column: str, groups, value_column: str, values, idx) -> dict:

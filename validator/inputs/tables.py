@@ -226,7 +226,9 @@ def read_table(data: bytes, shown: str, *, delimiter: str | None = None, decimal
     """Parse a data file's bytes (CSV text or an .xlsx workbook) into a :class:`Table`.
 
     Header names are matched case-insensitively with surrounding spaces
-    stripped. Blank lines are skipped. Columns other than ``required`` and
+    stripped. Blank lines are skipped, except in a one-column CSV file, where an
+    empty line between data rows is a row with an empty cell (that is how such a
+    file writes an empty value); empty lines after the last data row end it. Columns other than ``required`` and
     ``optional`` are refused, so that a misspelt header is not ignored.
 
     An .xlsx workbook (told from its bytes, not its name) is read with
@@ -297,14 +299,25 @@ def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: 
     header_row = 0
     records, rows = [], []
     end = 0
+    blank_lines = []            # blank lines after the header, kept until the next data row
     try:
         for record in reader:
             line, end = end + 1, reader.line_num     # a quoted cell may span lines: the first one
             if not any(cell.strip() for cell in record):
+                if header is not None:
+                    blank_lines.append(line)
                 continue
             if header is None:
                 header, header_row = [c.strip().lower() for c in record], line
                 continue
+            if len(header) == 1 and other_columns == "refuse":
+                # a one-column file writes an empty cell as an empty line: between data rows it is a
+                # row whose value is empty (e.g. a blank result with no numerical result), never
+                # dropped; empty lines after the last data row end the file
+                for blank in blank_lines:
+                    records.append([""])
+                    rows.append(blank)
+            blank_lines = []
             if len(records) >= max_rows:
                 raise DataError(f"has more than {max_rows} data rows; refused", file=shown)
             records.append([c.strip() for c in record])

@@ -380,7 +380,9 @@ def read_workbook(data: bytes, file: str, *, required: tuple, optional: tuple = 
     -----
     The table spans the header's columns, from the first to the last
     non-empty header cell, and every row below the header; rows whose cells
-    there are all empty are skipped. Formula cells give the value the
+    there are all empty are skipped, except in a one-column table, where an empty
+    row between data rows is a row with an empty cell (empty rows after the last
+    data row end the table). Formula cells give the value the
     spreadsheet program saved with them; validator computes no formula.
     Dates are recognised by openpyxl from the cell's number format.
 
@@ -555,6 +557,10 @@ def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows,
     columns = {n: [] for n in names}
     kinds = {n: [] for n in names}
     rows = []
+    # a one-column table writes an empty value as an empty row: between data rows it is a row whose
+    # cell is empty (as in a one-column CSV file), never dropped; empty rows after the last data row end it
+    one_column = len(header) == 1 and other_columns == "refuse"
+    previous = found_header_row
     for row_number, by_column in records:
         values = []
         for col, n in header:
@@ -585,6 +591,12 @@ def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows,
             raise err(f'"{show(_cell_text(c)[1])}" is outside the table (the header spans '
                       f"{_column_letter(first_col)} to {_column_letter(last_col)}); give the column a "
                       "name or clear the cell", c.coordinate, row=row_number)
+        if one_column:
+            for empty_row in range(previous + 1, row_number):
+                columns[names[0]].append("")
+                kinds[names[0]].append(EMPTY)
+                rows.append(empty_row)
+        previous = row_number
         for (kind, text), n in zip(values, names):
             columns[n].append(text)
             kinds[n].append(kind)

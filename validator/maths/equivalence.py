@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, open_unit, positive, quiet_numpy
+from .._common import ConfidenceInterval, no_relative_sd, open_unit, positive, quiet_numpy
 
 __all__ = ["EquivalenceTest", "RsdBound", "tost_mean", "tost_two_samples", "rsd_upper_bound"]
 
@@ -168,10 +168,11 @@ def rsd_upper_bound(values, *, confidence: float = 0.95, limit_percent: float | 
 
     Notes
     -----
-    RSD = 100 s / |m|; the bound is 100 s sqrt((n - 1) / chi2_{1-confidence; n-1}) / |m|,
+    RSD = 100 s / m; the bound is 100 s sqrt((n - 1) / chi2_{1-confidence; n-1}) / m,
     the chi-square upper bound on sigma divided by the observed mean (the
     uncertainty of the mean is neglected, which is adequate when the RSD is
-    small). ``within_limit`` is True when the bound is at most ``limit_percent``.
+    small). ``within_limit`` is True when the bound is at most ``limit_percent``. A mean that is
+    not positive gives no RSD (``_common.no_relative_sd``).
     """
     conf = open_unit("confidence", confidence)
     limit = None if limit_percent is None else positive("limit_percent", limit_percent)
@@ -180,9 +181,9 @@ def rsd_upper_bound(values, *, confidence: float = 0.95, limit_percent: float | 
     if x.size < 2:
         return RsdBound(None, None, df, conf, limit, None, f"an RSD needs at least 2 results, got {x.size}")
     mean = float(x.mean())
-    if mean == 0.0:
-        return RsdBound(None, None, df, conf, limit, None, "the mean is 0: the RSD is undefined")
+    if no_relative_sd(mean):
+        return RsdBound(None, None, df, conf, limit, None, no_relative_sd(mean))
     sd = float(np.std(x - mean, ddof=1))
-    rsd = 100.0 * sd / abs(mean)
+    rsd = 100.0 * sd / mean
     bound = rsd * math.sqrt(df / stats.chi2.ppf(1.0 - conf, df))
     return RsdBound(rsd, bound, df, conf, limit, None if limit is None else bool(bound <= limit))

@@ -53,7 +53,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import integrate, optimize, special, stats
 
-from .._common import open_unit, positive, quiet_numpy
+from .._common import between, open_unit, positive, quiet_numpy
 
 __all__ = ["ToleranceInterval", "BetaExpectationInterval", "ProfileLevel", "AccuracyProfile",
            "normal_tolerance_factor", "normal_tolerance_interval", "beta_expectation_interval",
@@ -557,7 +557,7 @@ def accuracy_profile(levels, *, beta: float, acceptance_percent) -> AccuracyProf
             continue
         lo, hi = (iv.low - c) / c * 100.0, (iv.high - c) / c * 100.0
         out.append(ProfileLevel(c, iv.mean, (iv.mean - c) / c * 100.0, iv.mean / c * 100.0, lo, hi,
-                                bool(-lam_c <= lo and hi <= lam_c), iv, own))
+                                between(lo, -lam_c, lam_c) and between(hi, -lam_c, lam_c), iv, own))
     missing = [lv.nominal for lv in out if lv.inside is None]
     if missing:
         return AccuracyProfile(tuple(out), beta, lam, None, _basis(per_level),

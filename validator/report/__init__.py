@@ -180,7 +180,7 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
         analytes.append({"index": i, "data": a, "figures": figures[i], "text": text,
                          "unit": units[i][0], "response_unit": units[i][1],
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
-                         "remarks": summary.remarks(a, units[i][0]), "flagged_points": summary.flagged_points(a["calibration"]),
+                         "remarks": summary.remarks(a, units[i][0], results.get("guideline")), "flagged_points": summary.flagged_points(a["calibration"]),
                          "file_rows": _calibration_rows(result.analytes[i], a)})
     criteria = summary.ordered_criteria(results)
     matrix = summary.matrix(results)

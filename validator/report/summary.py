@@ -294,7 +294,8 @@ class Remark:
 REMARK_KINDS = {"limits-below-range": "LOD or LOQ below the lowest calibrator",
                 "sample-outside-range": "samples outside the calibrated range",
                 "function-changed": "calibration function other than the earlier validation's",
-                "too-few-data": "tests with too few data"}
+                "too-few-data": "tests with too few data",
+                "matrix-effect-beyond-limit": "matrix effect beyond its limit"}
 
 
 def grouped_remarks(per_analyte: list[tuple[int, str, list[Remark]]], single_limit: int = 3) -> list[dict]:
@@ -316,11 +317,42 @@ def grouped_remarks(per_analyte: list[tuple[int, str, list[Remark]]], single_lim
     return out
 
 
-def remarks(analyte: dict, unit: str) -> list[Remark]:
+def _matrix_effect(analyte: dict, guideline: dict | None) -> list[Remark]:
+    """A matrix effect (ME %) beyond its limit, judged or only reported: named in the summary either way,
+    with where the limit comes from (a guideline preset or the study) and how it was configured."""
+    me = analyte.get("matrix_effect") or {}
+    sr = me.get("slope_ratio")
+    if not sr or sr.get("statistic") is None or not sr.get("beyond_limit"):
+        return []
+    limit = sr["limit_percent"]
+    preset = next((v for v in (guideline or {}).get("values", []) if v["key"] == "matrix_effect.limit_pct"
+                   and v["used"] and v["study_value"] is None and v["preset_value"] == limit), None)
+    source = (f"the {guideline['title']} preset's limit (guideline = \"{guideline['name']}\"; "
+              f"{preset['source']}{', from memory' if preset['from_memory'] else ''})" if preset else
+              "the study's limit ([matrix_effect] limit_pct)")
+    text = (f"the matrix effect ME % = {N.by_rule(sr['statistic'], 'percent')} % (slope in matrix / slope in solvent "
+            f"− 1) lies beyond ±{N.by_rule(limit, 'value')} %, {source}: "
+            + (f"beyond it {guideline['title']} calls for matrix-matched calibration (or another calibration that "
+               "compensates the effect), as quantification against solvent standards would be biased. " if preset else
+               "beyond it quantification against solvent standards would be biased; matrix-matched calibration "
+               "is indicated. "))
+    verdict = next((c["pass"] for c in analyte["criteria"] if c["id"] == "matrix-effect-slope-ratio"), "absent")
+    if me.get("slope_ratio_judged") and verdict != "absent":
+        text += ("It is judged (judge_slope_ratio = true): criterion matrix-effect-slope-ratio, "
+                 f"{ {True: 'met', False: 'NOT MET', None: 'not applicable'}[verdict]}.")
+    else:
+        text += ("It is reported, not judged (judge_slope_ratio = false), so the verdict does not depend on it: "
+                 "confirm that samples are quantified against the matrix-matched [calibration], or set "
+                 "judge_slope_ratio = true.")
+    return [Remark("matrix-effect-beyond-limit", text)]
+
+
+def remarks(analyte: dict, unit: str, guideline: dict | None = None) -> list[Remark]:
     """Plain-language plausibility remarks on one analyte's results (empty when there is nothing to say):
     limits below the lowest calibrator, samples outside the calibrated range, a calibration function
-    other than the earlier validation's, tests with too few data."""
-    out = []
+    other than the earlier validation's, a matrix effect beyond its limit (``guideline``: the
+    results.json ``guideline`` entry, naming a preset that supplied the limit), tests with too few data."""
+    out = _matrix_effect(analyte, guideline)
     cal = analyte["calibration"]
     lowest = lowest_calibrator(cal)
     det = analyte.get("detection")

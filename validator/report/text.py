@@ -9,7 +9,7 @@ them with the study's alpha and limits but estimates nothing.
 
 from __future__ import annotations
 
-from .._common import level_label
+from .._common import level_label, not_above  # noqa: F401 (not_above: the one limit rule, for sentences)
 from . import numbers as N
 # the reporting rules, re-exported for the characteristics' presentation modules (which import report.text)
 from .numbers import basis_label, by_rule, interval, matched, superscripts_in, uncertainty, weighting_label  # noqa: F401

@@ -12,15 +12,18 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from .._common import ConfidenceInterval, quiet_numpy
+from .._common import ConfidenceInterval, no_relative_sd, quiet_numpy
 
-__all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "as_float_array", "labels", "check_count", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
+__all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "NO_SPREAD_CV", "as_float_array", "labels", "check_count", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
            "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided", "number_id"]
 
 
 # results beyond this magnitude are refused: their squares and sums stay far inside the float range
 MAX_MAGNITUDE = 1e100
 OUT_OF_RANGE = "the numbers lie outside the floating-point range this computation can handle"
+# why a CV of identical results (SD exactly 0) is not judged: not shown is not passed (as precision)
+NO_SPREAD_CV = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
+                "reported values, so the CV is not shown")
 
 
 def as_float_array(values, name: str, *, allow_nan: bool = False) -> np.ndarray:
@@ -94,8 +97,8 @@ def check_level(level) -> float:
 class MeanSummary:
     """Mean, sample SD (n - 1) and CV of a set of results.
 
-    ``sd`` is ``None`` for fewer than two results; ``cv_percent`` is ``None``
-    when ``sd`` is or the mean is zero. A statistic that overflows the
+    ``sd`` is ``None`` for fewer than two results; ``cv_percent`` (100 sd / mean) is ``None``
+    when ``sd`` is or the mean is not positive (``_common.no_relative_sd`` says why). A statistic that overflows the
     floating-point range is ``None`` too (callers state the reason).
     """
 
@@ -118,7 +121,7 @@ def mean_sd_cv(values: np.ndarray) -> MeanSummary:
         return MeanSummary(n, None, None, None)
     if sd is not None and not math.isfinite(sd):
         sd = None
-    cv = None if sd is None or mean == 0 else 100.0 * sd / abs(mean)
+    cv = None if sd is None or no_relative_sd(mean) else 100.0 * sd / mean
     if cv is not None and not math.isfinite(cv):
         cv = None
     return MeanSummary(n, mean, sd, cv)

@@ -22,8 +22,8 @@ from fractions import Fraction
 
 import numpy as np
 
-from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (check_count, labels, MAX_MAGNITUDE, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
+from .._common import ConfidenceInterval, between, no_relative_sd, not_above, quiet_numpy
+from ._shared import (check_count, labels, MAX_MAGNITUDE, NO_SPREAD_CV, OUT_OF_RANGE, as_float_array, check_fraction, check_level, check_positive, fieller_ratio_interval,
                       mean_sd_cv, t_quantile_two_sided)
 
 __all__ = ["CarryOver", "CarryOverBlank", "carry_over", "SelectivityInjection", "SelectivityLot", "Selectivity", "selectivity", "Stability", "stability",
@@ -141,7 +141,7 @@ def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=No
         iref = _reference_mean(internal_standard_response, "internal_standard_response")
         i_pct = tuple(float(v) for v in 100.0 * ib / iref)
     max_i = None if not i_pct else max(i_pct)
-    passed = max(a_pct) <= a_lim and (max_i is None or max_i <= i_lim)
+    passed = bool(not_above(max(a_pct), a_lim) and (max_i is None or not_above(max_i, i_lim)))
     return CarryOver(a_pct, i_pct, max(a_pct), max_i, a_lim, i_lim, passed)
 
 
@@ -268,7 +268,7 @@ def selectivity(blank_response, lot, lloq_response, *, blank_internal_standard=N
         mask = lots == name
         a_pct = float((100.0 * blanks[mask] / ref[mask]).max())
         i_pct = None if ib is None else float((100.0 * ib[mask] / iref[mask]).max())
-        ok = a_pct <= a_lim and (i_pct is None or i_pct <= i_lim)
+        ok = bool(not_above(a_pct, a_lim) and (i_pct is None or not_above(i_pct, i_lim)))
         rows.append(SelectivityLot(str(name), a_pct, i_pct, ok))
     n_pass = sum(r.passed for r in rows)
     fraction = n_pass / len(rows)
@@ -372,13 +372,13 @@ def stability(stored, *, nominal: float | None = None, fresh=None, condition: st
             if s.n < min_rep:
                 reason = f"{s.n} stored results, at least {min_rep} needed"
             elif judged_on == "estimate":
-                passed = abs(dev) <= lim
+                passed = bool(not_above(abs(dev), lim))
             elif ci is None:
                 reason = interval_reason or "no confidence interval to judge on"
             elif no_spread():
                 reason = no_spread()
             else:
-                passed = -lim <= ci.low and ci.high <= lim
+                passed = between(ci.low, -lim, lim) and between(ci.high, -lim, lim)
         return Stability(condition, reference, s.n, s.mean, ref_mean, dev, ci, df, lim, judged_on, passed,
                          reason or interval_reason)
 
@@ -484,16 +484,14 @@ def dilution_integrity(measured_in_diluted, dilution_factor: float, nominal: flo
     values = dict(mean=s.mean, accuracy_percent=acc, bias_percent=acc - 100, cv_percent=s.cv_percent)
     if s.n < min_rep:
         return DilutionIntegrity(**common, **values, reason=f"{s.n} diluted QCs, at least {min_rep} needed")
-    acc_ok = abs(acc - 100) <= b_lim
+    acc_ok = bool(not_above(abs(acc - 100), b_lim))
     cv_ok, cv_reason = None, ""
     if s.cv_percent is None:
-        cv_reason = ("CV undefined: the mean is zero" if s.sd is not None and s.mean == 0
-                     else "CV undefined: " + OUT_OF_RANGE)
+        cv_reason = "CV undefined: " + ((no_relative_sd(s.mean) if s.sd is not None else "") or OUT_OF_RANGE)
     elif s.sd == 0:
-        cv_reason = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "
-                     "reported values, so the CV is not shown")
+        cv_reason = NO_SPREAD_CV
     else:
-        cv_ok = s.cv_percent <= c_lim
+        cv_ok = bool(not_above(s.cv_percent, c_lim))
     passed = False if (not acc_ok or cv_ok is False) else (None if cv_ok is None else True)
     return DilutionIntegrity(**common, **values, passed=passed, reason=cv_reason if passed is None else "",
                              accuracy_passed=acc_ok, cv_passed=cv_ok, cv_reason=cv_reason)
@@ -588,7 +586,7 @@ def incurred_sample_reanalysis(original, repeat, *, limit_percent: float = 20.0,
         with quiet_numpy():
             d = 100.0 * (b - a) / mean if mean > 0 else float("nan")
         if math.isfinite(d):
-            rows.append(ReanalysedSample(a, b, d, abs(d) <= lim, name))
+            rows.append(ReanalysedSample(a, b, d, bool(not_above(abs(d), lim)), name))
         elif mean <= 0 and a == b:
             rows.append(ReanalysedSample(a, b, None, None, name, (
                 f"original and repeat are both {a:g}: they agree, but the % difference of a mean that is not "

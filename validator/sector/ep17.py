@@ -36,7 +36,7 @@ import numpy as np
 
 from scipy import stats
 
-from .._common import quiet_numpy
+from .._common import no_relative_sd, not_above, quiet_numpy
 from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
 
 __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
@@ -578,7 +578,8 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
         The assigned (reference) concentration of each result's sample; one
         value per sample.
     max_cv_percent : float, optional
-        Precision goal: a level meets it when CV = 100 SD / |mean| <= goal.
+        Precision goal: a level meets it when CV = 100 SD / mean <= goal (a level whose mean is
+        not positive has no meaningful CV and does not meet it).
     max_total_error : float, optional
         Total-error goal in concentration units: |mean - nominal| + 2 SD <= goal.
     limit_of_detection : float, optional
@@ -627,16 +628,17 @@ def limit_of_quantitation(results, sample, nominal, *, max_cv_percent: float | N
         verdicts, why = [], []
         if max_cv_percent is not None:
             if m.cv_percent is None:
-                why.append("CV needs two results and a non-zero mean")
+                why.append("CV needs two results" if m.sd is None else
+                           f"CV: {no_relative_sd(m.mean) or OUT_OF_RANGE}")
                 verdicts.append(None)
             else:
-                verdicts.append(m.cv_percent <= max_cv_percent)
+                verdicts.append(bool(not_above(m.cv_percent, max_cv_percent)))
         if max_total_error is not None:
             if te is None:
                 why.append("total error needs two results")
                 verdicts.append(None)
             else:
-                verdicts.append(te <= max_total_error)
+                verdicts.append(bool(not_above(te, max_total_error)))
         meets = None if None in verdicts else all(verdicts)
         if m.sd == 0:
             # identical results: the spread is below the resolution of the reported values, so neither a

@@ -22,8 +22,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .._common import ConfidenceInterval, quiet_numpy
-from ._shared import (MeanSummary, check_count, labels, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
+from .._common import ConfidenceInterval, no_relative_sd, not_above, quiet_numpy
+from ._shared import (MeanSummary, check_count, labels, NO_SPREAD_CV, OUT_OF_RANGE, as_float_array, check_level, check_positive, fieller_ratio_interval, mean_sd_cv,
                       t_quantile_two_sided)
 
 __all__ = ["SlopeRatioMatrixEffect", "slope_ratio_matrix_effect", "LotAccuracy", "LotAccuracyAssessment",
@@ -195,7 +195,7 @@ def slope_ratio_matrix_effect(x_solvent, y_solvent, x_matrix, y_matrix, *, level
                                                                   100 * (fieller.high - 1), lv)
     me = 100 * (r - 1)
     return SlopeRatioMatrixEffect(me, r, b_s, b_m, math.sqrt(v_s), math.sqrt(v_m), se_r, df,
-                                  variance, str(weighting), fieller_pct, fieller_pct, delta, lim, abs(me) > lim, why)
+                                  variance, str(weighting), fieller_pct, fieller_pct, delta, lim, not not_above(abs(me), lim), why)
 
 
 @dataclass(frozen=True)
@@ -216,7 +216,7 @@ class LotAccuracy:
         if self.cv_percent is not None or self.mean is None:
             return ""
         return ("CV undefined: fewer than two results" if self.n < 2 else
-                "CV undefined: the mean is zero" if self.mean == 0 else f"CV undefined: {OUT_OF_RANGE}")
+                f"CV undefined: {no_relative_sd(self.mean) or OUT_OF_RANGE}")
 
 
 @dataclass(frozen=True)
@@ -280,17 +280,16 @@ def lot_accuracy(measured, lot, nominal: float, *, max_bias_percent: float = 15.
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
                                    f"{m.n} results, at least {min_rep} needed"))
             continue
-        if abs(acc - 100.0) > max_bias_percent:
+        if not not_above(abs(acc - 100.0), max_bias_percent):
             # a clear failure whose value exists: it fails whether or not the CV can be judged
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, False))
             continue
         if m.cv_percent is None or m.sd == 0:
             out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, None,
-                                   "CV undefined (zero mean)" if m.cv_percent is None else
-                                   "the results show no spread at all (SD exactly 0): the spread is below the "
-                                   "resolution of the reported values, so the CV is not shown"))
+                                   f"CV undefined: {no_relative_sd(m.mean) or OUT_OF_RANGE}" if m.cv_percent is None
+                                   else NO_SPREAD_CV))
             continue
-        ok = m.cv_percent <= max_cv_percent
+        ok = bool(not_above(m.cv_percent, max_cv_percent))
         out.append(LotAccuracy(str(name), m.n, m.mean, acc, acc - 100.0, m.cv_percent, ok))
     n_pass = sum(1 for o in out if o.passed)
     if any(o.passed is False for o in out):
@@ -388,12 +387,20 @@ def normalised_matrix_factor(analyte_in_matrix, internal_standard_in_matrix, lot
         return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None,
                                       f"{len(rows)} lot: the CV across lots needs at least two")
     if summary.cv_percent is None:
-        why = ("the mean of the normalised factors is zero, so their CV is undefined" if summary.mean == 0
-               else OUT_OF_RANGE)
+        why = no_relative_sd(summary.mean, "the mean of the normalised factors") or OUT_OF_RANGE
         return NormalisedMatrixFactor(tuple(rows), mean, None, float(max_cv_percent), min_lots, None, why)
     summary = MeanSummary(summary.n, mean, summary.sd, summary.cv_percent)
     if len(rows) < min_lots:
         return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
                                       min_lots, None, f"{len(rows)} matrix lots, at least {min_lots} needed")
+    if summary.sd == 0:
+        # identical factors in every lot show no lot-to-lot variation at all, below the resolution of the
+        # responses (or copied values): not shown is not passed, as for precision and dilution integrity
+        return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
+                                      min_lots, None,
+                                      f"the IS-normalised matrix factors of all {len(rows)} lots are identical (SD "
+                                      "exactly 0): no lot-to-lot variation is shown within the resolution of the "
+                                      "responses (check for copied values), so the CV of 0 % is not judged, as an "
+                                      "RSD of identical results is not for precision")
     return NormalisedMatrixFactor(tuple(rows), summary.mean, summary.cv_percent, float(max_cv_percent),
-                                  min_lots, summary.cv_percent <= max_cv_percent)
+                                  min_lots, bool(not_above(summary.cv_percent, max_cv_percent)))

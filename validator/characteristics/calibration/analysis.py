@@ -34,7 +34,7 @@ import numpy as np
 from scipy import stats
 from statsmodels.stats.diagnostic import het_breuschpagan
 
-from ..._common import ConfidenceInterval, TestResult, not_applicable, quiet_numpy
+from ..._common import ConfidenceInterval, TestResult, not_above, not_applicable, quiet_numpy
 from ...criteria import Criterion, at_least, missing
 from ...maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
 
@@ -227,7 +227,7 @@ def back_calculate(fit: PolynomialFit, tolerance_pct: float, lowest_tolerance_pc
         dev = 100.0 * (found - x) / x
     tol = np.where(x == lowest, lowest_tolerance_pct, tolerance_pct) if lowest is not None else \
         np.full(x.shape, float(tolerance_pct))
-    ok = np.isfinite(dev) & (np.abs(dev) <= tol)
+    ok = np.isfinite(dev) & not_above(np.abs(dev), tol)
     out = []
     for xi, yi, fi, di, ti, oi in zip(x.tolist(), y.tolist(), found.tolist(), dev.tolist(), tol.tolist(),
                                       ok.tolist()):

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt
+from ...report.text import fmt, not_above
 
 __all__ = ["sentences", "figures"]
 
@@ -23,12 +23,13 @@ def sentences(entry: dict, reading) -> dict:
         out["analyte"] = f"Carry-over not judged: {entry['reason']}."
         return out
     n = len(entry["analyte_percent"])
-    word = "within" if entry["max_analyte_percent"] <= entry["analyte_limit_percent"] else "ABOVE"
+    word = "within" if not_above(entry["max_analyte_percent"], entry["analyte_limit_percent"]) else "ABOVE"
     out["analyte"] = (f"The largest of {n} blank response(s) after the highest calibrator is "
                       f"{fmt(entry['max_analyte_percent'], 3)} % of the mean LLOQ response, {word} the limit of "
                       f"{fmt(entry['analyte_limit_percent'])} %.")
     if entry["max_internal_standard_percent"] is not None:
-        word = "within" if entry["max_internal_standard_percent"] <= entry["internal_standard_limit_percent"] else "ABOVE"
+        word = ("within" if not_above(entry["max_internal_standard_percent"], entry["internal_standard_limit_percent"])
+                else "ABOVE")
         out["internal_standard"] = (f"At the internal standard's retention the largest is "
                                     f"{fmt(entry['max_internal_standard_percent'], 3)} % of the mean IS response, {word} "
                                     f"{fmt(entry['internal_standard_limit_percent'])} %.")

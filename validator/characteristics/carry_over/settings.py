@@ -38,11 +38,12 @@ class CarryOverData:
 
 
 def load(reader, settings: CarryOverSection, analytes: dict) -> dict:
-    """``{analyte: CarryOverData}``; each analyte needs blank and LLOQ rows, LLOQ responses above zero."""
+    """``{analyte: CarryOverData}``; each analyte needs blank and LLOQ rows, LLOQ responses above zero,
+    blank responses not below zero."""
     if settings.data is None:          # the injections of [[runs]] give the data (characteristics.runs)
         return {}
     from ...errors import DataError
-    from ...inputs.sector_tables import kinds, numbers, positive, read_rows
+    from ...inputs.sector_tables import kinds, not_negative, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "carry_over", settings.data, ("kind", "response"), ("internal_standard_response",),
                             analytes, "carry-over injection")
@@ -58,8 +59,10 @@ def load(reader, settings: CarryOverSection, analytes: dict) -> dict:
                 raise DataError(f'analyte "{name}" has no "{what}" rows: carry-over compares the blanks after the '
                                 "highest calibrator with the LLOQ response", file=table.path, row=table.rows[idx[0]],
                                 column="kind")
+        not_negative(table, "response", response, blank)
         positive(table, "response", response, lloq)
         if has_is:
+            not_negative(table, "internal_standard_response", istd, blank)
             positive(table, "internal_standard_response", istd, lloq)
         out[name] = CarryOverData(response[blank], response[lloq], None if istd is None else istd[blank],
                                   None if istd is None else istd[lloq])

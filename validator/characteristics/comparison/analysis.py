@@ -31,8 +31,8 @@ def _rule(limits, ideal, name):
 def _judge(ci, limits, ideal, name):
     """CI inside the limits where given, else the CI contains the ideal value."""
     if limits is not None:
-        return limits[0] <= ci.low and ci.high <= limits[1], _rule(limits, ideal, name)
-    return ci.contains(ideal), _rule(limits, ideal, name)
+        return interval_within([ci.low, ci.high], limits), _rule(limits, ideal, name)
+    return interval_within([ci.low, ci.high], ideal), _rule(limits, ideal, name)
 
 
 @dataclass(frozen=True)

@@ -58,7 +58,7 @@ def load(reader, settings: LimitOfBlankSection, analytes: dict) -> dict:
     if settings.blanks is None:          # the injections of [[runs]] give the data (characteristics.runs)
         return {}
     from ...errors import DataError
-    from ...inputs.sector_names import one_spelling
+    from ...inputs.sector_names import one_lot_spelling, one_spelling
     from ...inputs.sector_tables import labels, numbers, one_value_per_group, read_rows
 
     table, rows = read_rows(reader, "limit_of_blank.blanks", settings.blanks, ("found",), ("sample", "lot"),
@@ -66,8 +66,8 @@ def load(reader, settings: LimitOfBlankSection, analytes: dict) -> dict:
     found = numbers(reader, table, "found")
     samples, lots = labels(table, "sample", "blank"), labels(table, "lot", "1")
     for idx in rows.values():
-        for column, names in (("sample", samples), ("lot", lots)):
-            one_spelling(table, column, names, idx)
+        one_spelling(table, "sample", samples, idx)
+        one_lot_spelling(table, "lot", lots, idx)
     out = {name: LimitOfBlankData(found[idx], tuple(samples[i] for i in idx), tuple(lots[i] for i in idx))
            for name, idx in rows.items()}
     if settings.low_samples is None:
@@ -82,8 +82,8 @@ def load(reader, settings: LimitOfBlankSection, analytes: dict) -> dict:
             raise DataError(f'analyte "{name}" has low-level results but no blank results in {settings.blanks}: '
                             "the LoD is built on the LoB", file=low_table.path, row=low_table.rows[idx[0]],
                             column="analyte" if low_table.has("analyte") else None, value=name)
-        for column, names in (("sample", low_samples), ("lot", low_lots)):
-            one_spelling(low_table, column, names, idx)
+        one_spelling(low_table, "sample", low_samples, idx)
+        one_lot_spelling(low_table, "lot", low_lots, idx)
         if nominal is not None:
             one_value_per_group(low_table, "sample", low_samples, "nominal", nominal, idx)
         d = out[name]

@@ -46,7 +46,8 @@ def sentences(entry: dict, reading) -> dict:
             out["factor"] = f"No CV of the IS-normalised matrix factor: {mf['reason']}."
         else:
             out["factor"] = (f"The IS-normalised matrix factor averages {fmt(mf['mean'], 4)} over {len(mf['lots'])} lots "
-                             f"with a CV of {fmt(mf['cv_percent'], 3)} % (at most {fmt(mf['max_cv_percent'])} % allowed).")
+                             f"with a CV of {fmt(mf['cv_percent'], 3)} % (at most {fmt(mf['max_cv_percent'])} % allowed)"
+                             + (f"; not judged: {mf['reason']}." if mf["passed"] is None and mf["reason"] else "."))
     return out
 
 

@@ -64,8 +64,8 @@ class MatrixEffectData:
 def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
     """``{analyte: MatrixEffectData}`` for every analyte with rows in any of the files."""
     from ...errors import DataError, show
-    from ...inputs.sector_names import one_spelling
-    from ...inputs.sector_tables import labels, numbers, positive, read_rows
+    from ...inputs.sector_names import one_lot_spelling
+    from ...inputs.sector_tables import labels, not_negative, numbers, positive, read_rows
 
     parts: dict = {}
     if settings.solvent_data is not None:
@@ -84,7 +84,7 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
         lots, nominal, found = labels(table, "lot", ""), numbers(reader, table, "nominal"), numbers(reader, table, "found")
         positive(table, "nominal", nominal)
         for name, idx in rows.items():
-            one_spelling(table, "lot", lots, idx)
+            one_lot_spelling(table, "lot", lots, idx)
             parts.setdefault(name, {}).update(lots=tuple(lots[i] for i in idx), lot_nominal=nominal[idx],
                                               lot_found=found[idx])
     if settings.factor_data is not None:
@@ -93,8 +93,10 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
                                 "matrix-factor response")
         lots = labels(table, "lot", "")
         a, s = numbers(reader, table, "analyte_response"), numbers(reader, table, "internal_standard_response")
+        not_negative(table, "analyte_response", a)
+        not_negative(table, "internal_standard_response", s)
         for name, idx in rows.items():
-            one_spelling(table, "lot", lots, idx)
+            one_lot_spelling(table, "lot", lots, idx)
             if not any(lots[i].casefold() == NEAT for i in idx):
                 raise DataError(f'analyte "{name}" has no neat-solution rows (lot "{NEAT}"): the matrix factor '
                                 "compares each lot with the neat solution", file=table.path,

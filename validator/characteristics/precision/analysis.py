@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from ..._common import ConfidenceInterval, level_label, quiet_numpy
+from ..._common import ConfidenceInterval, level_label, no_relative_sd, quiet_numpy
 from ...criteria import Criterion, at_least, at_most
 from ...maths.anova import OneWayAnova, one_way_anova
 from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
@@ -100,23 +100,23 @@ _ANOVA_JSON = (("ms_between", "ms_between"), ("ms_within", "ms_within"), ("df", 
 
 
 def _upper_rsd(sd, df, mean, alpha):
-    """One-sided upper (1 - alpha) bound on an RSD: 100 sd sqrt(df / chi2_{alpha; df}) / |mean|."""
-    if sd is None or df is None or not (np.isfinite(sd) and np.isfinite(df) and df > 0) or not mean:
+    """One-sided upper (1 - alpha) bound on an RSD: 100 sd sqrt(df / chi2_{alpha; df}) / mean (mean > 0)."""
+    if sd is None or df is None or not (np.isfinite(sd) and np.isfinite(df) and df > 0) or no_relative_sd(mean):
         return None
     with quiet_numpy():
-        return float(100.0 * sd * np.sqrt(df / stats.chi2.ppf(alpha, df)) / abs(mean))
+        return float(100.0 * sd * np.sqrt(df / stats.chi2.ppf(alpha, df)) / mean)
 
 
 def _rsd_of_variance(variance, mean):
-    if variance is None or not np.isfinite(variance) or not mean:
+    if variance is None or not np.isfinite(variance) or no_relative_sd(mean):
         return None
-    return float(100.0 * np.sqrt(variance) / abs(mean))
+    return float(100.0 * np.sqrt(variance) / mean)
 
 
 def _intermediate_upper_rsd(a: OneWayAnova, si2, repeatability_upper, mean, alpha):
     """One-sided upper (1 - alpha) bound on the one-way intermediate RSD by the MLS method ([BG]):
     s_I^2 = MS_B / n0 + (1 - 1/n0) MS_W, at least the estimate and the repeatability bound."""
-    if not (np.isfinite(si2) and a.df_between > 0 and a.df_within > 0 and mean):
+    if not (np.isfinite(si2) and a.df_between > 0 and a.df_within > 0) or no_relative_sd(mean):
         return None
     c, ms, df = [1.0 / a.n0], [a.ms_between], [a.df_between]
     if a.n0 > 1.0:
@@ -133,8 +133,8 @@ def _intermediate_upper_rsd(a: OneWayAnova, si2, repeatability_upper, mean, alph
 class RsdUpperBounds:
     """One-sided upper confidence bounds on the one-way RSDs ([USP1210]).
 
-    Repeatability: 100 s_r sqrt(df / chi2_{alpha; df}) / |mean| with the within-series df
-    (exact). Intermediate precision: 100 sqrt(U) / |mean|, U the one-sided modified
+    Repeatability: 100 s_r sqrt(df / chi2_{alpha; df}) / mean with the within-series df
+    (exact). Intermediate precision: 100 sqrt(U) / mean, U the one-sided modified
     large-sample bound on s_I^2 = MS_B / n0 + (1 - 1/n0) MS_W ([BG]; Graybill and Wang 1980;
     the Satterthwaite chi-square bound covered about 0.88 at a stated 0.95 for 3 series x 3
     with the between-series variance 4 times the repeatability variance), at least the
@@ -304,7 +304,7 @@ def _trueness(values, groups, mean, reference, alpha, levels, offset=0.0) -> Tru
 
 def _nested(values, mean, factors, design, alpha) -> NestedPrecision:
     conf = 1.0 - alpha
-    rel = (lambda sd: None if sd is None or not mean else 100.0 * sd / abs(mean))
+    rel = (lambda sd: None if sd is None or no_relative_sd(mean) else 100.0 * sd / mean)
     with quiet_numpy():
         res = nested_variance_components(values, factors, names=design, confidence=conf)
     if res.reason:
@@ -334,12 +334,12 @@ def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_
             continue
         if sd_claim is not None:          # a level's SD claim takes precedence over an RSD claim
             claimed_as, claimed_sd = "SD", float(sd_claim)
-            claimed = 100.0 * claimed_sd / abs(mean) if mean else None
+            claimed = None if no_relative_sd(mean) else 100.0 * claimed_sd / mean
         else:
-            claimed_as, claimed_sd = "RSD", (abs(mean) * claimed / 100.0 if mean else None)
+            claimed_as, claimed_sd = "RSD", (None if no_relative_sd(mean) else mean * claimed / 100.0)
         observed = None if sd is None or not np.isfinite(sd) else sd
         if claimed_sd is None or sd is None or df is None or not np.isfinite(sd) or not df > 0:
-            reason = ("the mean is zero, so an RSD claim gives no SD" if not claimed_sd else
+            reason = (f"{no_relative_sd(mean)}, so an RSD claim gives no SD" if not claimed_sd else
                       f"the observed {quantity} SD or its degrees of freedom do not exist"
                       + (f" ({why})" if why else ""))
             out.append(ClaimCheck(quantity=quantity, claimed_as=claimed_as, claimed_rsd_pct=claimed,
@@ -398,8 +398,9 @@ class PrecisionLevel:
         from the nested design when declared, else from the one-way analysis."""
         if self.nested is not None:
             r, i = self.nested.repeatability, self.nested.intermediate
-            return ((r.rsd_pct, r.rsd_upper_pct, self.nested.reason or r.reason),
-                    (i.rsd_pct, i.rsd_upper_pct, self.nested.reason or i.reason))
+            mean_why = no_relative_sd(self.mean)
+            return ((r.rsd_pct, r.rsd_upper_pct, mean_why or self.nested.reason or r.reason),
+                    (i.rsd_pct, i.rsd_upper_pct, mean_why or self.nested.reason or i.reason))
         b = self.rsd_upper_bounds
         return ((self.repeatability_rsd_pct, None if b is None else b.repeatability_rsd_upper_pct, self.reason),
                 (self.intermediate_rsd_pct, None if b is None else b.intermediate_rsd_upper_pct, self.reason))
@@ -482,9 +483,9 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     si2 = sr2 + sl2
     sr, sl, si = (float(np.sqrt(v)) for v in (sr2, sl2, si2))
     mean = a.grand_mean
-    if mean == 0:
-        notes.append("the mean is zero, so no relative standard deviation exists")
-    rsd = (lambda sd: 100 * sd / mean if mean != 0 and np.isfinite(sd) else None)
+    if no_relative_sd(mean):
+        notes.append(no_relative_sd(mean))
+    rsd = (lambda sd: 100 * sd / mean if not no_relative_sd(mean) and np.isfinite(sd) else None)
     df_i = None
     if np.isfinite(si2):
         if clamped:
@@ -579,12 +580,12 @@ def precision_criteria(lv: PrecisionLevel, limits: tuple, *, on_intervals: bool 
         if not shown_both:     # the criterion as written before interval judging existed
             out.append(Criterion(f"{kind}-rsd-{lv.level:g}", f"{label} at level {lv.level:g} at most {limit:g} %",
                                  value, limit, at_most(value, limit),
-                                 "" if value is not None else f"not applicable: {why or 'the mean is zero'}"))
+                                 "" if value is not None else f"not applicable: {why or 'the RSD does not exist'}"))
             continue
         judged = bound if on_intervals else value
         other = value if on_intervals else bound
         other_text = ("does not exist" if other is None else
-                      f"is {other:.4g} % ({'met' if other <= limit else 'not met'} on that basis)")
+                      f"is {other:.4g} % ({'met' if at_most(other, limit) else 'not met'} on that basis)")
         note = (f"judged on the {'upper confidence bound' if on_intervals else 'point estimate'}; the "
                 f"{'point estimate' if on_intervals else f'upper {conf} bound'} {other_text}")
         if judged is None:

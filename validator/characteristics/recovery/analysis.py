@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from ..._common import ConfidenceInterval
+from ..._common import ConfidenceInterval, between, no_relative_sd
 from ...criteria import Criterion
 
 __all__ = ["RecoveryLevel", "RecoveryResult", "assess_recovery", "recovery_criteria"]
@@ -80,9 +80,9 @@ def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda a
             ci = ConfidenceInterval(mean - tq * se, mean + tq * se, 1 - alpha)
             t = (mean - 100.0) / se if se > 0 else None
             p = float(2 * stats.t.sf(abs(t), n - 1)) if t is not None else None
-            rsd = 100 * sd / mean if mean != 0 else None
+            rsd = None if no_relative_sd(mean) else 100 * sd / mean
             reasons = (["every recovery at this level is identical, so the t test is not applicable"] if t is None
-                       else []) + (["the mean recovery is zero, so no RSD"] if rsd is None else [])
+                       else []) + ([no_relative_sd(mean, "the mean recovery")] if rsd is None else [])
             reason = "; ".join(reasons)
         else:
             sd = rsd = t = p = None
@@ -90,7 +90,7 @@ def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda a
             reason = "one result at this level: SD, RSD, CI and t test need at least 2"
         levels.append(RecoveryLevel(added=float(a), n=n, mean_pct=mean, sd_pct=sd, rsd_pct=rsd, ci_pct=ci,
                                     t_statistic=t, pvalue=p, range_pct=lo_hi,
-                                    passed=bool(lo_hi[0] <= mean <= lo_hi[1]),
+                                    passed=between(mean, lo_hi[0], lo_hi[1]),
                                     recoveries_pct=tuple(map(float, r)), reason=reason))
     return RecoveryResult(n=int(rec.size), overall_mean_pct=float(rec.mean()), levels=tuple(levels))
 

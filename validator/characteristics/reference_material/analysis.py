@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ...criteria import Criterion
+from ...criteria import Criterion, at_most
 
 __all__ = ["ReferenceMaterialResult", "assess_reference_material", "reference_material_criterion"]
 
@@ -85,7 +85,7 @@ def assess_reference_material(found, certified_value, standard_uncertainty, *, k
         U = significant = None
     else:
         U = k * float(np.sqrt(u_mean**2 + standard_uncertainty**2))
-        significant = bool(abs(bias) > U)
+        significant = not at_most(abs(bias), U)
     return ReferenceMaterialResult(n=n, mean=mean, sd=sd, certified_value=float(certified_value),
                                    certified_uncertainty=float(standard_uncertainty), bias=bias,
                                    bias_pct=100 * bias / certified_value, u_mean=u_mean, expanded_uncertainty=U,

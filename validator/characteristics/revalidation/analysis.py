@@ -36,7 +36,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from ..._common import ConfidenceInterval, quiet_numpy
+from ..._common import ConfidenceInterval, not_above, quiet_numpy
 from ...criteria import Criterion, at_most, interval_within
 from ...maths.distributions import f_test_two_sided
 from ...maths.regression import PolynomialFit, fit_polynomial
@@ -92,7 +92,7 @@ def _decide(b1, b2, diff_se, df, margin_pct, alpha):
     tq = float(stats.t.ppf(1 - alpha, df))
     lo, hi = 100 * (b2 - b1 - tq * diff_se) / b1, 100 * (b2 - b1 + tq * diff_se) / b1
     lo, hi = min(lo, hi), max(lo, hi)
-    if -margin_pct <= lo and hi <= margin_pct:
+    if interval_within([lo, hi], [-margin_pct, margin_pct]):
         verdict = "equivalent"
     elif hi < -margin_pct or lo > margin_pct:
         verdict = "different"
@@ -576,7 +576,7 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
     if ratio is None:
         reasons.append("the previous residual SD is zero, so no residual SD ratio exists")
         verdict = "different" if verdict == "different" else "not shown equivalent"
-    elif ratio > residual_sd_ratio_max:
+    elif not not_above(ratio, residual_sd_ratio_max):
         verdict = "different"
         reasons.append(f"residual SD ratio {ratio:.3g} exceeds the maximum {residual_sd_ratio_max:g}")
     else:

@@ -44,8 +44,8 @@ def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
     if settings.data is None:          # the injections of [[runs]] give the data (characteristics.runs)
         return {}
     from ...errors import DataError
-    from ...inputs.sector_names import one_spelling
-    from ...inputs.sector_tables import kinds, numbers, positive, read_rows
+    from ...inputs.sector_names import one_lot_spelling
+    from ...inputs.sector_tables import kinds, not_negative, numbers, positive, read_rows
 
     table, rows = read_rows(reader, "selectivity", settings.data, ("lot", "kind", "response"),
                             ("internal_standard_response",), analytes, "selectivity injection")
@@ -65,9 +65,11 @@ def load(reader, settings: SelectivitySection, analytes: dict) -> dict:
             if not lots[i]:
                 raise DataError("a blank-matrix row needs its lot", file=table.path, row=table.rows[i], column="lot",
                                 value="")
-        one_spelling(table, "lot", lots, blank)
+        one_lot_spelling(table, "lot", lots, blank)
+        not_negative(table, "response", response, blank)
         positive(table, "response", response, lloq)
         if has_is:
+            not_negative(table, "internal_standard_response", istd, blank)
             positive(table, "internal_standard_response", istd, lloq)
         out[name] = SelectivityData(tuple(lots[i] for i in blank), response[blank], response[lloq],
                                     None if istd is None else istd[blank], None if istd is None else istd[lloq])

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ...criteria import Criterion, at_least
+from ...criteria import Criterion, at_least, at_most
 
 __all__ = ["WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq", "working_range_criterion",
            "loq_criterion"]
@@ -121,9 +121,16 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
         return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=None,
                         reason="no precision or recovery level at or below 2 × LOQ", levels=())
     rsds = [r.rsd_pct for r in rows if r.rsd_pct is not None]
-    passed = bool(rsds) and all(v <= rsd_max_pct for v in rsds)
-    return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed if rsds else None,
-                    reason="" if rsds else "no RSD available at those levels", levels=tuple(rows))
+    missing = [f"{r.source} level {r.level:g}" for r in rows if r.rsd_pct is None]
+    # a level without an RSD (one result, a mean that is not positive) shows nothing: the check is met
+    # only when every level up to 2 x LOQ has an RSD within the maximum (not shown is not passed)
+    if any(at_most(v, rsd_max_pct) is False for v in rsds):
+        passed, reason = False, ""
+    elif missing:
+        passed, reason = None, f"no RSD exists at {', '.join(missing)} (see its section)"
+    else:
+        passed, reason = True, ""
+    return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed, reason=reason, levels=tuple(rows))
 
 
 def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
