@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..._common import not_above
 from ...criteria import Criterion, at_most
 from ...sector._shared import MAX_MAGNITUDE
 from ...sector.bioanalytical import CarryOver, CarryOverBlank, carry_over
@@ -118,7 +119,8 @@ def carry_over_from_runs(injections, *, analyte_limit_pct: float, internal_stand
     i_pct = (tuple(r.internal_standard_percent for r in judged)
              if all(r.internal_standard_percent is not None for r in judged) else None)
     max_i = None if i_pct is None else max(i_pct)
-    passed = max(a_pct) <= analyte_limit_pct and (max_i is None or max_i <= internal_standard_limit_pct)
+    passed = bool(not_above(max(a_pct), analyte_limit_pct)
+                  and (max_i is None or not_above(max_i, internal_standard_limit_pct)))
     return CarryOver(analyte_percent=a_pct, internal_standard_percent=i_pct, max_analyte_percent=max(a_pct),
                      max_internal_standard_percent=max_i, analyte_limit_percent=float(analyte_limit_pct),
                      internal_standard_limit_percent=float(internal_standard_limit_pct), passed=passed,
