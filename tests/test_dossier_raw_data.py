@@ -117,3 +117,22 @@ def test_excluded_run_injection_is_listed(tmp_path_factory):
     results = json.loads((out / "results.json").read_text())
     shown = soup.select("#raw-data-0 tr[data-injection]")
     assert len(shown) == len(results["analytes"][0]["runs"]["injections"])
+
+
+def test_a_calibrator_outside_its_tolerance_is_named_by_its_file_row(make_study, outside):
+    # two calibrators at the same level (duplicates), the second of them 40 % high: it is named by its
+    # point and file row, not by its level alone
+    lines = ["concentration,response"] + [f"{x},{2.0 * x * f:.6g}" for x, f in
+                                          [(1, 1.0), (1, 1.4), (2, 1.0), (2, 1.01), (4, 0.99), (4, 1.0),
+                                           (8, 1.0), (8, 1.01), (16, 1.0), (16, 0.99)]]
+    study = make_study(files={"calibration.csv": "\n".join(lines) + "\n"})
+    out = outside / "out"
+    assert main(["run", str(study), "--out", str(out), "--format", "html,json"]) == 0
+    results = json.loads((out / "results.json").read_text())
+    back = results["analytes"][0]["calibration"]["back_calculated"]
+    failing = [k for k, b in enumerate(back) if b["pass"] is False]
+    assert 1 in failing                      # the 40 % high one (file row 3) fails whatever the fit
+    soup = BeautifulSoup((out / "dossier.html").read_text(), "html.parser")
+    text = soup.select_one("#back-calculation-failures-0").get_text(" ", strip=True)
+    assert "point 2 (calibration.csv row 3" in text
+    assert text.count("point ") == len(failing)
