@@ -218,7 +218,22 @@ def _units(study, name: str) -> dict:
     return {"concentration_unit": own.config.study.concentration_unit, "response_unit": own.config.study.response_unit}
 
 
-def _analyte(a, study=None):
+def data_rows(loaded, analyte: str | None) -> list:
+    """The data rows the statistics read for ``analyte`` (``None``: the files that do not name their
+    analyte), one entry per table: file (sheet), columns, and each row as read with its file row; the
+    rows the study excludes ([[exclusions]]) are listed among them with their reason."""
+    out = []
+    for d in loaded.data_rows:
+        if d.analyte != analyte:
+            continue
+        rows = [{"row": r, "values": list(cells)} for r, cells in zip(d.rows, d.cells)]
+        rows += [{"row": r, "values": list(cells), "excluded": reason} for r, reason, cells in d.excluded]
+        out.append({"role": d.role, "file": d.file, **({"sheet": d.sheet} if d.sheet else {}),
+                    "columns": list(d.columns), "rows": sorted(rows, key=lambda r: r["row"])})
+    return out
+
+
+def _analyte(a, study=None, loaded=None):
     serialise = Serialiser()
     sections = {}
     for entry in registry.REGISTRY:
@@ -239,7 +254,8 @@ def _analyte(a, study=None):
              **({} if study is None else _settings(study, a.name)),
              **{name: sections[name] for name in order},
              "criteria": serialise(a.criteria, "criteria"),
-             "diagnostics": list(a.calibration.diagnostics)}
+             "diagnostics": list(a.calibration.diagnostics),
+             **({} if loaded is None else {"data_rows": data_rows(loaded, a.name)})}
     entry["not_applicable"] = _in_entry_order(serialise.not_applicable, entry)
     return entry
 
@@ -285,7 +301,9 @@ def build_results(result, *, generated_at: str) -> dict:
         # sample ids one character apart with one reading each: a flagged warning, never silence
         "sample_id_warnings": [{"analyte": w.analyte, "file": w.file, "ids": list(w.ids), "rows": list(w.rows),
                                 "text": w.text} for w in loaded.near_duplicate_ids],
-        "analytes": [_analyte(a, loaded.study) for a in result.analytes],
+        "analytes": [_analyte(a, loaded.study, loaded) for a in result.analytes],
+        # rows of data files that do not say which analyte they belong to (several analytes, no column)
+        "data_rows": data_rows(loaded, None),
         **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
            if loaded.config.study.guideline is not None else {}),
         "revalidation": None if loaded.previous is None else {

@@ -29,7 +29,7 @@ from .study import StudyFile, read_study_file
 if TYPE_CHECKING:
     from ..characteristics.calibration.settings import CalibrationData
 
-__all__ = ["InputFile", "AnalyteData", "LoadedStudy", "Reader", "load_study", "per_analyte", "analyte_rows",
+__all__ = ["InputFile", "DataRows", "AnalyteData", "LoadedStudy", "Reader", "load_study", "per_analyte", "analyte_rows",
            "numeric_column", "check_positive", "declared_levels_exist"]
 
 
@@ -44,6 +44,27 @@ class InputFile:
     delimiter: str | None = None      # how a CSV file was read: ",", ";" or "tab"
     decimal: str | None = None        # "." or ","
     dialect: str | None = None        # "stated", "detected" or "stated and detected"
+
+
+@dataclass(frozen=True)
+class DataRows:
+    """The rows of one data table that the statistics read, as read (cell text), with their file rows.
+
+    ``analyte`` is the analyte the rows belong to: the table's "analyte" column, else the analyte the
+    table's section names (``analyte = ...``, an analyte's own data file), else the one analyte of a
+    study of one; ``None`` when the file does not say (listed study-wide). The rows of an instrument
+    export read through [[runs]] are not listed here: each injection is in results.json with its row.
+    """
+
+    role: str                          # the study-file table that named the file
+    file: str                          # as given in the study file
+    sheet: str | None
+    analyte: str | None
+    columns: tuple[str, ...]
+    rows: tuple[int, ...]              # file row (line) of each record
+    cells: tuple[tuple[str, ...], ...]  # per record, its cells in the order of ``columns``
+    # the rows of this table and analyte left out by [[exclusions]]: (file row, reason, cells)
+    excluded: tuple[tuple[int, str, tuple[str, ...]], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -76,6 +97,7 @@ class LoadedStudy:
     previous: PreviousRun | None = None
     excluded: tuple[Excluded, ...] = ()      # data rows left out by [[exclusions]], with their reasons
     near_duplicate_ids: tuple[NearDuplicateIds, ...] = ()   # sample ids one edit apart (no expected list)
+    data_rows: tuple[DataRows, ...] = ()     # every data row the statistics read, by table and analyte
 
     @property
     def config(self):
@@ -95,6 +117,8 @@ class Reader:
                                  len(study.text.encode()))]
         self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
         self.near_duplicate_ids: list = []
+        self.data_rows: list[DataRows] = []
+        self.only_analyte: str | None = None    # set while an analyte's own data file is read
 
     def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:
         """Enter an input file read in full into the audit trail (path as given, SHA-256, size).
@@ -123,7 +147,34 @@ class Reader:
                            optional=optional, sheet=getattr(source, "sheet", None),
                            header_row=getattr(source, "header_row", None), other_columns=other_columns)
         self.record(role, path, resolved, data, table)
-        return self.exclusions.apply(role, path, resolved, table)
+        before = len(self.exclusions.applied)
+        kept = self.exclusions.apply(role, path, resolved, table)
+        if role != "runs":          # an export's injections are listed, with their rows, by the runs
+            self._keep_rows(role, path, kept, getattr(source, "analyte", None), self.exclusions.applied[before:])
+        return kept
+
+    def _keep_rows(self, role: str, path: str, table, named: str | None, excluded) -> None:
+        """Record the rows of ``table`` (after exclusions) per analyte, as read, for the raw-data appendix."""
+        columns = tuple(table.columns)
+        sheet = getattr(table, "sheet", None) or None
+        if "analyte" in table.columns:
+            groups: dict = {}
+            for k, name in enumerate(table.columns["analyte"]):
+                groups.setdefault(name.strip(), []).append(k)
+        else:
+            owner = self.only_analyte or (named if isinstance(named, str) else None)
+            groups = {owner: list(range(len(table.rows)))}
+        owner = self.only_analyte or (named if isinstance(named, str) else None)
+        left_out: dict = {}
+        for e in excluded:
+            cells = dict(e.cells)
+            name = cells["analyte"].strip() if "analyte" in cells else owner
+            left_out.setdefault(name, []).append((e.row, e.reason, tuple(cells.get(c, "") for c in columns)))
+            groups.setdefault(name, [])
+        for name, idx in groups.items():
+            self.data_rows.append(DataRows(role, path, sheet, name, columns, tuple(table.rows[k] for k in idx),
+                                           tuple(tuple(table.columns[c][k] for c in columns) for k in idx),
+                                           tuple(left_out.get(name, ()))))
 
 
 def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray:
@@ -223,7 +274,11 @@ def _own_files(reader, entry, analytes, shared) -> dict:
             raise StudyError(f'analyte "{show(name)}" has rows in the file of [{entry.name}] and a data file of its '
                              "own; give its results in one place", file=reader.study.shown,
                              key=f"analyte_settings.{name}.{entry.name}.data", value=name)
-        data = entry.load(reader, getattr(config, entry.name), {name: analytes[name]})
+        reader.only_analyte = name
+        try:
+            data = entry.load(reader, getattr(config, entry.name), {name: analytes[name]})
+        finally:
+            reader.only_analyte = None
         if name in data:
             out[name] = data[name]
     return {entry.name: out}
@@ -266,4 +321,13 @@ def load_study(path: str | Path) -> LoadedStudy:
     # the earlier results.json of a re-validation (it matches at least one analyte, or is refused)
     run = next((data.run for data in loaded.get("revalidation", {}).values()), None)
     return LoadedStudy(study=study, inputs=tuple(reader.inputs), analytes=analytes, previous=run,
-                       excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids))
+                       excluded=excluded, near_duplicate_ids=tuple(reader.near_duplicate_ids),
+                       data_rows=_owned(reader.data_rows, tuple(calibration)))
+
+
+def _owned(data_rows: list, analytes: tuple) -> tuple:
+    """``data_rows`` with the rows of a file that does not name its analyte given to the one analyte of a
+    study of one (else left study-wide)."""
+    if len(analytes) != 1:
+        return tuple(data_rows)
+    return tuple(dataclasses.replace(d, analyte=analytes[0]) if d.analyte is None else d for d in data_rows)

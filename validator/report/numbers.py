@@ -349,4 +349,47 @@ def criterion_display(criterion_id: str, description: str, concentration_unit: s
     if m:
         what = "Repeatability RSD" if m.group(1) == "repeatability" else "Intermediate precision RSD"
         return CriterionDisplay(f"{what} at {_level_text(m.group(2), cu)}", "%", "≤", "rsd")
-    return CriterionDisplay(description, "", "", "value")
+    if criterion_id.startswith("stability-"):     # the condition is in the description only
+        label = re.sub(r" at nominal ([^:\s]+):", rf" at nominal \1 {cu}:", description)
+        return CriterionDisplay(label[:1].upper() + label[1:], "%", "within", "percent")
+    display = _more_displays(criterion_id, cu)
+    return display if display is not None else CriterionDisplay(description, "", "", "value")
+
+
+# criteria ids of the later characteristics (each matched in full, with its level or condition):
+# label template ({0}, {1}: the matched groups; {cu}: the concentration unit), unit, comparison, rule
+_MORE_DISPLAYS = (
+    (r"(repeatability|within-laboratory)-claim-(.+)", "{0} SD at {1} {cu}: at most the upper verification limit "
+     "of the claimed RSD (CLSI EP15)", "cu", "≤", "uncertainty"),
+    (r"accuracy-profile-(.+)", "Accuracy profile at {0} {cu}: beta-expectation tolerance interval "
+     "(relative to the nominal value)", "%", "within", "percent"),
+    (r"expanded-uncertainty-(.+)", "Relative expanded uncertainty at {0} {cu}", "%", "≤", "percent"),
+    (r"limit-of-blank", "Limit of blank (CLSI EP17)", "cu", "≤", "value"),
+    (r"limit-of-detection", "Limit of detection (CLSI EP17)", "cu", "≤", "value"),
+    (r"limit-of-quantitation", "Limit of quantitation (CLSI EP17)", "cu", "≤", "value"),
+    (r"method-detection-limit", "Method detection limit (40 CFR 136 Appendix B)", "cu", "≤", "value"),
+    (r"matrix-effect-slope-ratio", "Matrix effect: slope ratio ME", "%", "within", "percent"),
+    (r"matrix-factor-cv", "CV of the IS-normalised matrix factor across lots", "%", "≤", "rsd"),
+    (r"matrix-lots-(.+)", "Matrix lots meeting accuracy and CV at nominal {0} {cu}", "lots", "≥", "count"),
+    (r"carry-over", "Carry-over: largest blank after the highest calibrator, % of the mean LLOQ response", "%", "≤",
+     "percent"),
+    (r"carry-over-internal-standard", "Carry-over of the internal standard, % of its mean response", "%", "≤",
+     "percent"),
+    (r"selectivity", "Selectivity: fraction of blank-matrix lots free of interference", "", "≥", "statistic"),
+    (r"incurred-sample-reanalysis", "Incurred-sample reanalysis: fraction of repeats within the limit", "", "≥",
+     "statistic"),
+    (r"dilution-accuracy-(\d+(?:\.\d+)?)x-(.+)", "Dilution ×{0} of nominal {1} {cu}: mean bias", "%", "within",
+     "percent"),
+    (r"dilution-cv-(\d+(?:\.\d+)?)x-(.+)", "Dilution ×{0} of nominal {1} {cu}: CV", "%", "≤", "rsd"),
+)
+
+
+def _more_displays(criterion_id: str, cu: str) -> CriterionDisplay | None:
+    for pattern, label, unit, comparison, rule in _MORE_DISPLAYS:
+        m = re.fullmatch(pattern, criterion_id)
+        if m:
+            groups = [g[:1].upper() + g[1:] if i == 0 and pattern.startswith("(repeatability") else g
+                      for i, g in enumerate(m.groups())]
+            return CriterionDisplay(label.format(*groups, cu=cu).replace("  ", " "), cu if unit == "cu" else unit,
+                                    comparison, rule)
+    return None
