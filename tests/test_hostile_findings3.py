@@ -1,0 +1,119 @@
+"""Findings of the first hostile black-box round (notes hostile-r1), each kept as a test.
+
+Data are invented for the tests; each expected value says where it comes from (hand computations
+beside them; the rules are the README's, common practice, no published source).
+"""
+
+from __future__ import annotations
+
+import json
+from fractions import Fraction
+
+import pytest
+
+from conftest import CALIBRATION
+from validator.cli import main
+from validator.engine import analyse_study
+from validator.errors import DataError, StudyError
+from validator.inputs.loading import load_study
+from validator.inputs.study import read_study_file
+from validator.results import build_results
+
+
+def _results(study) -> dict:
+    return json.loads(json.dumps(build_results(analyse_study(load_study(study)), generated_at="2026-01-01T00:00:00Z")))
+
+
+def _criterion(entry: dict, cid: str) -> dict:
+    return next(c for c in entry["criteria"] if c["id"] == cid)
+
+
+def _run(capsys, *argv):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+# ---------------------------------------------------------------- finding 1: per-analyte range vs per-level range
+
+TWO = "analyte," + CALIBRATION.splitlines()[0] + "\n" + "".join(
+    f"{name},{line}\n" for name in ("lead", "zinc") for line in CALIBRATION.splitlines()[1:])
+# added 2: found 1.7 -> 85 % (hand computation: 100 * 1.7 / 2); added 10: found 10 -> 100 %
+RECOVERY_2_LEVELS = "analyte,added,found\n" + "".join(
+    f"{name},{added},{found}\n" for name in ("lead", "zinc") for added, found in (("2", "1.7"), ("10", "10")) * 3)
+PER_LEVEL = """
+[calibration]
+data = "calibration.csv"
+
+[recovery]
+data = "recovery.csv"
+range_pct = [90, 110]
+levels = [{ added = 2, range_pct = [80, 120] }]
+"""
+ZINC_STRICT = """
+[analyte_settings.zinc.recovery]
+range_pct = [95, 105]
+"""
+
+
+def test_a_per_analyte_range_applies_to_every_level_of_that_analyte(make_study):
+    results = _results(make_study(PER_LEVEL + ZINC_STRICT,
+                                  files={"calibration.csv": TWO, "recovery.csv": RECOVERY_2_LEVELS}))
+    lead, zinc = results["analytes"]
+    assert 100 * Fraction("1.7") / 2 == 85                     # hand computation
+    # lead keeps the study-wide per-level range at added 2: 85 % in [80, 120] -> met
+    assert _criterion(lead, "recovery-2")["limit"] == [80.0, 120.0]
+    assert _criterion(lead, "recovery-2")["pass"] is True
+    # zinc's own range is the more specific setting: every zinc level is judged on [95, 105], so 85 % fails
+    assert _criterion(zinc, "recovery-2")["limit"] == [95.0, 105.0]
+    assert _criterion(zinc, "recovery-2")["value"] == pytest.approx(85, rel=1e-12)
+    assert _criterion(zinc, "recovery-2")["pass"] is False
+    assert _criterion(zinc, "recovery-10")["limit"] == [95.0, 105.0]
+    # the settings say what zinc was judged with: its range, and no per-level range left
+    assert zinc["settings"] == [
+        {"key": "recovery.range_pct", "value": [95.0, 105.0], "study_value": [90.0, 110.0]},
+        {"key": "recovery.levels", "value": [], "study_value": [{"added": 2.0, "range_pct": [80.0, 120.0]}]}]
+
+
+def test_a_per_analyte_precision_limit_replaces_only_that_key_of_the_levels(make_study):
+    body = """
+[calibration]
+data = "calibration.csv"
+
+[precision]
+data = "precision.csv"
+repeatability_rsd_max_pct = 5
+intermediate_rsd_max_pct = 8
+levels = [{ level = 2, repeatability_rsd_max_pct = 10, intermediate_rsd_max_pct = 12 }]
+
+[analyte_settings.zinc.precision]
+repeatability_rsd_max_pct = 3
+"""
+    precision = "analyte,level,series,found\n" + "".join(
+        f"{a},2,{s},{f}\n" for a in ("lead", "zinc") for s, f in (("1", "2.0"), ("1", "2.1"), ("2", "1.9"),
+                                                                 ("2", "2.0")))
+    study = read_study_file(make_study(body, files={"calibration.csv": TWO, "precision.csv": precision}))
+    zinc = study.config_for("zinc").precision
+    lead = study.config_for("lead").precision
+    # zinc: its own repeatability maximum at every level; the level keeps its own intermediate maximum
+    assert zinc.limits_for(2.0) == (3.0, 12.0)
+    assert lead.limits_for(2.0) == (10.0, 12.0)
+    changes = {c.key: (c.value, c.study_value) for c in study.analyte_settings[0].changes}
+    assert changes["precision.levels"] == (
+        [{"level": 2.0, "intermediate_rsd_max_pct": 12.0}],
+        [{"level": 2.0, "repeatability_rsd_max_pct": 10.0, "intermediate_rsd_max_pct": 12.0}])
+
+
+def test_the_dossier_shows_the_per_level_limits_the_analyte_kept(make_study, outside):
+    from bs4 import BeautifulSoup
+    from test_dossier import assert_correctly_rounded, lookup
+
+    study = make_study(PER_LEVEL + ZINC_STRICT, files={"calibration.csv": TWO, "recovery.csv": RECOVERY_2_LEVELS})
+    assert main(["run", str(study), "--out", str(outside / "out"), "--format", "json,html"]) == 1   # zinc fails
+    results = json.loads((outside / "out" / "results.json").read_text(encoding="utf-8"))
+    soup = BeautifulSoup((outside / "out" / "dossier.html").read_text(encoding="utf-8"), "html.parser")
+    table = soup.select_one("#analyte-1").select_one("table.analyte-settings")
+    rows = [[td.get_text() for td in tr.select("td")] for tr in table.select("tbody tr")]
+    assert rows[1] == ["recovery.levels", "[]", "[{added = 2, range_pct = [80, 120]}]"]
+    for span in table.select("span.n[data-src]"):
+        assert_correctly_rounded(span, lookup(results, span["data-src"]))
