@@ -11,7 +11,7 @@ from fractions import Fraction
 
 import pytest
 
-from conftest import CALIBRATION
+from conftest import CALIBRATION, STUDY_HEAD
 from validator.cli import main
 from validator.engine import analyse_study
 from validator.errors import DataError, StudyError
@@ -117,3 +117,43 @@ def test_the_dossier_shows_the_per_level_limits_the_analyte_kept(make_study, out
     assert rows[1] == ["recovery.levels", "[]", "[{added = 2, range_pct = [80, 120]}]"]
     for span in table.select("span.n[data-src]"):
         assert_correctly_rounded(span, lookup(results, span["data-src"]))
+
+
+# ---------------------------------------------------------------- finding 7: guideline audit and per-analyte overrides
+
+SANTE_HEAD = STUDY_HEAD + 'guideline = "sante-11312-2021"\n'
+MATRIX = """
+[calibration]
+data = "calibration.csv"
+
+[matrix_effect]
+solvent_data = "solvent.csv"
+"""
+# the solvent calibration of both analytes: the conftest calibration's responses (invented demo data)
+SOLVENT = "analyte," + CALIBRATION.splitlines()[0] + "\n" + "".join(
+    f"{name},{line}\n" for name in ("lead", "zinc") for line in CALIBRATION.splitlines()[1:])
+
+
+@pytest.mark.parametrize("overriding, on_study_value", [(("zinc",), 1), (("lead", "zinc"), 0)])
+def test_the_guideline_audit_names_the_analytes_that_override_a_preset_value(make_study, outside, overriding,
+                                                                            on_study_value):
+    from bs4 import BeautifulSoup
+
+    own = "".join(f"[analyte_settings.{a}.matrix_effect]\nlimit_pct = 80\n" for a in overriding)
+    study = make_study(MATRIX + own, files={"calibration.csv": TWO, "solvent.csv": SOLVENT}, head=SANTE_HEAD)
+    main(["run", str(study), "--out", str(outside / "out"), "--format", "json,html"])
+    results = json.loads((outside / "out" / "results.json").read_text(encoding="utf-8"))
+    (value,) = results["guideline"]["values"]
+    # the README's rule: the preset fills the study-wide value (20, the SANTE preset); each analyte whose own
+    # [analyte_settings] sets the key is judged with its value and listed
+    assert (value["key"], value["preset_value"], value["used"]) == ("matrix_effect.limit_pct", 20.0, True)
+    assert value["analyte_values"] == [{"analyte": a, "value": 80.0} for a in overriding]
+    assert value["analytes_on_study_wide_value"] == on_study_value
+    soup = BeautifulSoup((outside / "out" / "dossier.html").read_text(encoding="utf-8"), "html.parser")
+    heading = next(h for h in soup.select("h3") if h.get_text().startswith("Guideline preset"))
+    used = heading.find_next("table").select("tbody tr td")[2].get_text()
+    if on_study_value:
+        assert used == ("20.0 (preset-supplied) for 1 analyte(s); 80.0 for zinc "
+                        "(its own [analyte_settings.zinc] overrides the preset)")
+    else:
+        assert used.startswith("not used for any analyte: each sets its own value; 80.0 for lead")
