@@ -157,3 +157,76 @@ def test_the_guideline_audit_names_the_analytes_that_override_a_preset_value(mak
                         "(its own [analyte_settings.zinc] overrides the preset)")
     else:
         assert used.startswith("not used for any analyte: each sets its own value; 80.0 for lead")
+
+
+# ---------------------------------------------------------------- finding 10: one export named by two [[runs]]
+
+def _reader(make_study, body: str = ""):
+    from validator.inputs.loading import Reader
+
+    study = make_study(body or None)
+    return Reader(read_study_file(study)), study.parent
+
+
+RUNS_COLUMNS = dict(sample="Name", type="Kind", level="Conc", response="Area")
+EXPORT = "Name,Kind,Conc,Area\nc1,Cal,1,100\nc2,Cal,2,201\nc3,Cal,4,399\nq1,QC,2,200\n"
+
+
+@pytest.mark.parametrize("second, how", [
+    ("run-1.csv", "the same file"),
+    ("./sub/../run-1.csv", "the same file"),
+    ("copy.csv", "a file with the same content (SHA-256 "),
+])
+def test_one_export_read_by_two_runs_is_refused(make_study, second, how):
+    from validator.inputs.runs import read_runs
+    from validator.inputs.study import ColumnsSection, RunSource, TypesSection
+
+    reader, folder = _reader(make_study)
+    (folder / "sub").mkdir()
+    for name in ("run-1.csv", "copy.csv"):
+        (folder / name).write_text(EXPORT, encoding="utf-8")
+    runs = [RunSource(data="run-1.csv", run="r1"), RunSource(data=second, run="r2")]
+    with pytest.raises(StudyError) as caught:
+        read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), TypesSection(calibrator=["Cal"], qc=["QC"]), "T-1")
+    # the README's rule (common practice): one export is one run, its rows never counted twice
+    assert caught.value.key == "runs[1].data"
+    assert caught.value.problem.startswith(f'[[runs]] 2 (data = "{second}") reads {how}')
+    assert caught.value.problem.endswith('as [[runs]] 1 (data = "run-1.csv"): one export would count as two runs; '
+                                         "give each run its own export")
+
+
+def test_two_sheets_of_one_workbook_are_two_exports(make_study):
+    import openpyxl
+
+    from validator.inputs.runs import read_runs
+    from validator.inputs.study import ColumnsSection, RunSource, TypesSection
+
+    reader, folder = _reader(make_study)
+    wb = openpyxl.Workbook()
+    for k, title in enumerate(("Run 1", "Run 2")):
+        ws = wb.active if k == 0 else wb.create_sheet()
+        ws.title = title
+        for line in EXPORT.splitlines():
+            ws.append([float(c) if c[0].isdigit() else c for c in line.split(",")])
+    wb.save(folder / "runs.xlsx")
+    runs = [RunSource(data="runs.xlsx", sheet="Run 1", run="r1"), RunSource(data="runs.xlsx", sheet="Run 2", run="r2")]
+    injections = read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), TypesSection(calibrator=["Cal"], qc=["QC"]),
+                           "T-1")
+    assert [i.run for i in injections] == ["r1"] * 4 + ["r2"] * 4       # 4 rows written per sheet
+    runs[1] = RunSource(data="runs.xlsx", sheet="Run 1", run="r2")
+    with pytest.raises(StudyError, match=r'key runs\[1\]\.data: \[\[runs\]\] 2 \(data = "runs.xlsx", '
+                                         r'sheet "Run 1"\) reads the same file'):
+        read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), TypesSection(calibrator=["Cal"], qc=["QC"]), "T-1")
+
+
+def test_the_line_of_a_key_in_an_array_of_tables():
+    from validator.inputs.study import item_line
+
+    text = '[study]\nid = "x"\n[[runs]]\ndata = "a.csv"\n[[runs]]\nrun = "b"\ndata = "b.csv"\n[[exclusions]]\nrow = 3\n'
+    # counted by hand in the text above
+    assert item_line(text, "runs", 0, "data") == 4
+    assert item_line(text, "runs", 1, "data") == 7
+    assert item_line(text, "runs", 1) == 5
+    assert item_line(text, "runs", 1, "day") == 5          # no such key: the table's header
+    assert item_line(text, "runs", 2, "data") is None
+    assert item_line(text, "exclusions", 0, "row") == 9

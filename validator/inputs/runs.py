@@ -110,12 +110,39 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
     named = {"sample", "type", "response"} | set(columns.model_fields_set)
     required = tuple(h for f, h in mapped.items() if h is not None and f in named)
     optional = tuple(h for f, h in mapped.items() if h is not None and f not in named)
-    out = []
+    out, read = [], {}
     for k, source in enumerate(runs):
         table = reader.table("runs", source, required, optional, other_columns="ignore")
+        _check_not_read_twice(read, k, source, reader.inputs[-1], reader.study)
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
     return _match_matrices(reader.exclusions.apply_injections(out))
+
+
+def _check_not_read_twice(read: dict, k: int, source, record, study) -> None:
+    """Two ``[[runs]]`` never read the same export: the same file (and sheet), or a copy of it.
+
+    The export is known by its content (SHA-256 of the file) and the sheet read, so a path written
+    two ways, a link and a copied file are all caught; two sheets of one workbook are two exports.
+    Read twice, every injection would count as two runs' results (doubled degrees of freedom, no
+    between-run variance).
+    """
+    from .study import item_line
+
+    key = (record.sha256, record.sheet)
+    if key not in read:
+        read[key] = (k, source, record)
+        return
+    first, earlier, was = read[key]
+    import os
+
+    how = ("the same file" if os.path.realpath(was.resolved) == os.path.realpath(record.resolved) else
+           f"a file with the same content (SHA-256 {record.sha256[:12]}...)")
+    sheet = f', sheet "{show(record.sheet)}"' if record.sheet else ""
+    raise StudyError(f'[[runs]] {k + 1} (data = "{show(source.data)}"{sheet}) reads {how} as [[runs]] {first + 1} '
+                     f'(data = "{show(earlier.data)}"): one export would count as two runs; give each run its '
+                     "own export", file=study.shown, line=item_line(study.text, "runs", k, "data"),
+                     key=f"runs[{k}].data", value=source.data)
 
 
 def _match_matrices(injections) -> tuple:

@@ -429,6 +429,24 @@ def _key_line(text: str, loc: tuple) -> int | None:
     return None
 
 
+def item_line(text: str, array: str, index: int, key: str | None = None) -> int | None:
+    """Best-effort line of ``key`` in the ``index``-th (0-based) ``[[array]]`` table, else of its header."""
+    header = re.compile(r"^\s*\[\[\s*" + re.escape(array) + r"\s*\]\]")
+    key_re = None if key is None else re.compile(r"^\s*" + re.escape(key) + r"\s*=")
+    seen, start = -1, None
+    for number, line in enumerate(text.splitlines(), start=1):
+        if start is not None and line.lstrip().startswith("["):
+            break
+        if header.match(line):
+            seen += 1
+            if seen == index:
+                start = number
+            continue
+        if start is not None and key_re is not None and key_re.match(line):
+            return number
+    return start
+
+
 def _line_of(text: str, loc: tuple) -> int | None:
     lines = text.splitlines()
     section, key = (loc[0], loc[-1]) if len(loc) > 1 else (None, loc[0])
