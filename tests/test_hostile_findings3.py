@@ -230,3 +230,62 @@ def test_the_line_of_a_key_in_an_array_of_tables():
     assert item_line(text, "runs", 1, "day") == 5          # no such key: the table's header
     assert item_line(text, "runs", 2, "data") is None
     assert item_line(text, "exclusions", 0, "row") == 9
+
+
+# ---------------------------------------------------------------- finding 11: labels differing only in case
+
+def test_spelling_variant_finds_labels_differing_only_in_case_or_spacing():
+    from validator.inputs.sample_ids import spelling_key, spelling_variant
+
+    # the rule (README): letter case and runs of white space ignored; punctuation counts
+    assert spelling_key("Run  1") == spelling_key("run 1") == "run 1"
+    assert spelling_variant(["B1", "B1", "B2", "b1", "B2"]) == (0, 3)
+    assert spelling_variant(["run 1", "Run  1"]) == (0, 1)
+    assert spelling_variant(["B1", "B-1", "B2"]) is None
+    assert spelling_variant([]) is None
+
+
+BATCHES = ("Batch,Name,Kind,Conc,Area\n"
+           "B1,c1,Cal,1,100\nB1,c2,Cal,2,201\nB1,c3,Cal,4,399\nB1,q1,QC,2,200\n"
+           "B2,c1,Cal,1,101\nB2,c2,Cal,2,199\nB2,c3,Cal,4,401\n{label},q1,QC,2,202\n")
+
+
+@pytest.mark.parametrize("label", ["b1"])
+def test_a_run_label_in_another_case_is_refused_naming_both_rows(make_study, label):
+    from validator.inputs.runs import read_runs
+    from validator.inputs.study import ColumnsSection, RunSource, TypesSection
+
+    reader, folder = _reader(make_study)
+    (folder / "all.csv").write_text(BATCHES.format(label=label), encoding="utf-8")
+    columns = ColumnsSection(run="Batch", **RUNS_COLUMNS)
+    with pytest.raises(DataError) as caught:
+        read_runs(reader, [RunSource(data="all.csv")], columns, TypesSection(calibrator=["Cal"], qc=["QC"]), "T-1")
+    # the README's rule: "b1" next to "B1" would be a third run (another precision series), so it is refused
+    assert (caught.value.file, caught.value.row) == ("all.csv", 9)          # the 9th line of the file
+    assert caught.value.problem == (f'run "{label}" differs only in letter case or spacing from run "B1" (row 2): '
+                                    "they would count as two; write one spelling")
+    # the same export with "B2" there is read as two runs; a cell " B1 " is "B1" (cells are stripped)
+    for same in ("B2", " B1 "):
+        (folder / "all.csv").write_text(BATCHES.format(label=same), encoding="utf-8")
+        injections = read_runs(reader, [RunSource(data="all.csv")], columns,
+                               TypesSection(calibrator=["Cal"], qc=["QC"]), "T-1")
+        assert sorted({i.run for i in injections}) == ["B1", "B2"]
+
+
+def test_run_labels_of_two_exports_and_sample_ids_are_compared_too(make_study):
+    from validator.inputs.runs import read_runs
+    from validator.inputs.study import ColumnsSection, RunSource, TypesSection
+
+    reader, folder = _reader(make_study)
+    (folder / "r1.csv").write_text(EXPORT, encoding="utf-8")
+    (folder / "r2.csv").write_text(EXPORT.replace("q1,QC,2,200", "q1,QC,2,203"), encoding="utf-8")
+    types = TypesSection(calibrator=["Cal"], qc=["QC"], sample=["Unknown"])
+    runs = [RunSource(data="r1.csv", run="Run-1"), RunSource(data="r2.csv", run="run-1")]
+    with pytest.raises(DataError, match=r'r2.csv, row 2: run "run-1" differs only in letter case or spacing from '
+                                        r'run "Run-1" \(r1.csv row 2\)'):
+        read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), types, "T-1")
+    (folder / "r2.csv").write_text(EXPORT + "S-1,Unknown,,150\ns-1,Unknown,,152\n", encoding="utf-8")
+    runs = [RunSource(data="r1.csv", run="run-1"), RunSource(data="r2.csv", run="run-2")]
+    with pytest.raises(DataError, match=r'r2.csv, row 7: sample id "s-1" differs only in letter case or spacing '
+                                        r'from sample id "S-1" \(row 6\)'):
+        read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), types, "T-1")

@@ -116,6 +116,7 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
         _check_not_read_twice(read, k, source, reader.inputs[-1], reader.study)
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
+    _check_spellings(out)
     return _match_matrices(reader.exclusions.apply_injections(out))
 
 
@@ -263,6 +264,24 @@ def _check_labels(injections, study: str) -> None:
         if d[0] != inj.day:
             raise DataError(f'run "{show(inj.run)}" has day "{show(inj.day)}" here but "{show(d[0])}" at row {d[1]}; '
                             "a run is measured on one day", file=inj.file, row=inj.row, value=inj.day)
+
+
+def _check_spellings(injections) -> None:
+    """One spelling per run, day and sample: labels differing only in letter case or spacing ("B1" and
+    "b1") would silently be two runs (another precision series), two days or two samples."""
+    from .sample_ids import spelling_variant
+
+    samples = [inj for inj in injections if inj.type == "sample"]
+    for what, group, label in (("run", injections, lambda inj: inj.run), ("day", injections, lambda inj: inj.day),
+                               ("sample id", samples, lambda inj: inj.sample)):
+        labels = [label(inj) for inj in group]
+        clash = spelling_variant(labels)
+        if clash is not None:
+            first, inj = group[clash[0]], group[clash[1]]
+            where = f"row {first.row}" if first.file == inj.file else f"{show(first.file)} row {first.row}"
+            raise DataError(f'{what} "{show(labels[clash[1]])}" differs only in letter case or spacing from '
+                            f'{what} "{show(labels[clash[0]])}" ({where}): they would count as two; write one '
+                            "spelling", file=inj.file, row=inj.row, value=labels[clash[1]])
 
 
 def by_analyte(injections) -> dict:
