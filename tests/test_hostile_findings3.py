@@ -289,3 +289,63 @@ def test_run_labels_of_two_exports_and_sample_ids_are_compared_too(make_study):
     with pytest.raises(DataError, match=r'r2.csv, row 7: sample id "s-1" differs only in letter case or spacing '
                                         r'from sample id "S-1" \(row 6\)'):
         read_runs(reader, runs, ColumnsSection(**RUNS_COLUMNS), types, "T-1")
+
+
+# ---------------------------------------------------------------- finding 12: hidden rows of a workbook
+
+CAL_ROWS = [(float(c), float(r)) for c, r in (line.split(",") for line in CALIBRATION.strip().splitlines()[1:])]
+
+
+def _calibration_book(path, hide=(), header_at: int = 3):
+    """The conftest calibration in sheet "Results" (header at ``header_at``, a note above), rows ``hide`` hidden."""
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Results"
+    ws["A1"] = "Batch 7 export"
+    ws.cell(header_at, 1, "Concentration")
+    ws.cell(header_at, 2, "Response")
+    for i, (c, r) in enumerate(CAL_ROWS, start=header_at + 1):
+        ws.cell(i, 1, c)
+        ws.cell(i, 2, r)
+    for row in hide:
+        ws.row_dimensions[row].hidden = True
+    wb.save(path)
+
+
+BOOK_BODY = '[calibration]\ndata = "calibration.xlsx"\nheader_row = 3\n'
+
+
+def test_a_hidden_data_row_is_refused_naming_it(make_study, capsys):
+    study = make_study(BOOK_BODY, files={})
+    _calibration_book(study.parent / "calibration.xlsx", hide=(6,))
+    code, _, err = _run(capsys, "check", study)
+    # the project's rule for hidden sheets, applied to rows: never read silently
+    assert (code, err) == (2, 'validator: error: calibration.xlsx, sheet Results: row 6 is hidden in the workbook; '
+                              "a hidden row is not read silently: unhide it to use it, or leave it out with its "
+                              'reason in [[exclusions]] (file = "calibration.xlsx", sheet = "Results", row = 6)\n')
+    _calibration_book(study.parent / "calibration.xlsx", hide=(6, 9, 10))
+    code, _, err = _run(capsys, "check", study)
+    assert "rows 6, 9, 10 are hidden in the workbook" in err
+
+
+def test_a_hidden_row_above_the_header_or_excluded_is_no_problem(make_study, outside):
+    study = make_study(BOOK_BODY + '[[exclusions]]\nfile = "calibration.xlsx"\nrow = 6\nreason = "hidden: vial '
+                       'cracked"\n', files={})
+    _calibration_book(study.parent / "calibration.xlsx", hide=(1, 2, 6))
+    assert main(["run", str(study), "--out", str(outside / "a"), "--format", "json"]) == 0
+    excluded = json.loads((outside / "a" / "results.json").read_text(encoding="utf-8"))
+    # the same book with that row deleted instead (hand computation: the same numbers go in)
+    deleted = make_study('[calibration]\ndata = "deleted.xlsx"\nheader_row = 3\n', files={})
+    import openpyxl
+    wb = openpyxl.load_workbook(study.parent / "calibration.xlsx")
+    wb.active.delete_rows(6)
+    for row in (1, 2, 6):
+        wb.active.row_dimensions[row].hidden = False
+    wb.save(deleted.parent / "deleted.xlsx")
+    assert main(["run", str(deleted), "--out", str(outside / "b"), "--format", "json"]) == 0
+    other = json.loads((outside / "b" / "results.json").read_text(encoding="utf-8"))
+    assert excluded["analytes"][0]["calibration"]["n"] == other["analytes"][0]["calibration"]["n"] == 9
+    assert excluded["analytes"][0]["calibration"]["coefficients"] == other["analytes"][0]["calibration"]["coefficients"]
+    assert [(e["row"], e["sheet"]) for e in excluded["exclusions"]] == [(6, "Results")]

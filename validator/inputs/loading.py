@@ -123,7 +123,27 @@ class Reader:
                            optional=optional, sheet=getattr(source, "sheet", None),
                            header_row=getattr(source, "header_row", None), other_columns=other_columns)
         self.record(role, path, resolved, data, table)
-        return self.exclusions.apply(role, path, resolved, table)
+        return _no_hidden_rows(self.exclusions.apply(role, path, resolved, table))
+
+
+def _no_hidden_rows(table):
+    """``table``, refused when a workbook row it still holds is hidden (by hand or by a filter).
+
+    Hiding a row is how a spreadsheet user often "removes" an injection; validator does not read
+    such a row silently (as it refuses a hidden first sheet): unhide it to use it, or leave it out
+    with its reason in [[exclusions]].
+    """
+    from .workbook import CellError
+
+    kept = set(table.rows)
+    hidden = [r for r in getattr(table, "hidden_rows", ()) if r in kept]
+    if not hidden:
+        return table
+    listed = ", ".join(str(r) for r in hidden[:10]) + (", ..." if len(hidden) > 10 else "")
+    raise CellError(f"{'row' if len(hidden) == 1 else 'rows'} {listed} {'is' if len(hidden) == 1 else 'are'} hidden "
+                    "in the workbook; a hidden row is not read silently: unhide it to use it, or leave it out with "
+                    f'its reason in [[exclusions]] (file = "{show(table.path)}", sheet = "{show(table.sheet)}", '
+                    f"row = {hidden[0]})", file=table.path, sheet=table.sheet, row=hidden[0])
 
 
 def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray:
