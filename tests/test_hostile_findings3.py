@@ -349,3 +349,36 @@ def test_a_hidden_row_above_the_header_or_excluded_is_no_problem(make_study, out
     assert excluded["analytes"][0]["calibration"]["n"] == other["analytes"][0]["calibration"]["n"] == 9
     assert excluded["analytes"][0]["calibration"]["coefficients"] == other["analytes"][0]["calibration"]["coefficients"]
     assert [(e["row"], e["sheet"]) for e in excluded["exclusions"]] == [(6, "Results")]
+
+
+# ---------------------------------------------------------------- finding 15: exclusion messages
+
+def test_an_injection_excluded_by_row_and_again_by_name_is_said_to_be_excluded_twice(make_study, capsys):
+    body = ('[calibration]\nmodel = "linear"\n[[runs]]\ndata = "r1.csv"\nrun = "run-1"\n'
+            '[columns]\nsample = "Name"\ntype = "Kind"\nlevel = "Conc"\nresponse = "Area"\n'
+            '[types]\ncalibrator = ["Cal"]\nqc = ["QC"]\n[precision]\nrepeatability_rsd_max_pct = 10\n'
+            '[[exclusions]]\nfile = "r1.csv"\nrow = 5\nreason = "x"\n'
+            '[[exclusions]]\nrun = "run-1"\ninjection = "q1"\nreason = "y"\n')
+    study = make_study(body, files={"r1.csv": EXPORT + "q2,QC,2,199\n"})
+    code, _, err = _run(capsys, "check", study)
+    # row 5 of r1.csv is q1 (the 4th data row below the header, counted by hand); the second [[exclusions]]
+    # table starts on line 25 of the study file (STUDY_HEAD has 5 lines, counted by hand)
+    assert (code, err) == (2, f'validator: error: {study}, line 25, key exclusions[1]: injection "q1" of run "run-1" '
+                              "(r1.csv row 5) is already excluded by exclusions[0]; give each excluded row once\n")
+
+
+def test_an_exclusion_of_a_row_outside_a_workbooks_table_names_its_header_row(make_study, capsys):
+    study = make_study(BOOK_BODY + '[[exclusions]]\nfile = "calibration.xlsx"\nrow = 2\nreason = "x"\n', files={})
+    _calibration_book(study.parent / "calibration.xlsx")
+    code, _, err = _run(capsys, "check", study)
+    # header written at sheet row 3, the 10 calibration rows at 4 to 13; [[exclusions]] on study line 9 (by hand)
+    assert (code, err) == (2, f"validator: error: {study}, line 9, key exclusions[0]: calibration.xlsx has no data "
+                              "row 2 read by this study, so this exclusion would leave nothing out (rows are sheet "
+                              "rows: sheet Results has its header at row 3 and data rows 4 to 13)\n")
+
+
+def test_a_schema_error_in_a_list_uses_the_bracket_form(make_study, capsys):
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[[exclusions]]\nfile = "calibration.csv"\nrow = 4\n'
+                       'reason = " "\n')
+    code, _, err = _run(capsys, "check", study)
+    assert code == 2 and "key exclusions[0].reason: must not be blank" in err

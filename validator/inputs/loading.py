@@ -93,7 +93,7 @@ class Reader:
         self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
-        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
+        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown, study.text)
         self.near_duplicate_ids: list = []
 
     def record(self, role: str, path: str, resolved: Path, data: bytes, table=None) -> None:

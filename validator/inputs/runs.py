@@ -110,14 +110,28 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
     named = {"sample", "type", "response"} | set(columns.model_fields_set)
     required = tuple(h for f, h in mapped.items() if h is not None and f in named)
     optional = tuple(h for f, h in mapped.items() if h is not None and f not in named)
-    out, read = [], {}
+    out, read, by_row = [], {}, {}
     for k, source in enumerate(runs):
+        before = len(reader.exclusions.applied)
         table = reader.table("runs", source, required, optional, other_columns="ignore")
         _check_not_read_twice(read, k, source, reader.inputs[-1], reader.study)
+        by_row.update(_excluded_injections(reader.exclusions.applied[before:], table, source, k, mapped))
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
     _check_spellings(out)
-    return _match_matrices(reader.exclusions.apply_injections(out))
+    return _match_matrices(reader.exclusions.apply_injections(out, excluded_by_row=by_row))
+
+
+def _excluded_injections(excluded, table, source, k: int, mapped: dict) -> dict:
+    """``{(run, injection name): Excluded}`` of the export's rows [[exclusions]] left out by file and row,
+    so that an exclusion of the same injection by run and name is named as a second one."""
+    out = {}
+    run_column = mapped["run"] if mapped["run"] and table.has(mapped["run"]) else None
+    for e in excluded:
+        cells = dict(e.cells)
+        run = cells.get(run_column, "").strip() if run_column else (source.run or f"run {k + 1}")
+        out[(run, cells.get(mapped["sample"], "").strip())] = e
+    return out
 
 
 def _check_not_read_twice(read: dict, k: int, source, record, study) -> None:

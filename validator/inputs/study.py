@@ -576,13 +576,25 @@ def _plain(kind: str, loc: tuple, ctx: dict) -> str:
     return message
 
 
+def dotted_key(loc: tuple) -> str:
+    """A key path as messages write it: tables joined by dots, list items by their index in brackets
+    (``exclusions[0].reason``, ``recovery.range_pct[1]``), the one form every message uses."""
+    out = ""
+    for part in loc:
+        if isinstance(part, int) and not isinstance(part, bool):
+            out += f"[{part}]"
+        else:
+            out += f".{part}" if out else str(part)
+    return out
+
+
 def _translate(exc: ValidationError, shown: str, text: str, prefix: tuple = ()) -> StudyError:
     """The study error for ``exc``; ``prefix`` is the key path of the table validated (when not the file)."""
     errors = exc.errors(include_url=False)
     # an unknown key usually explains a "missing" one (a typo), so report it first
     err = sorted(errors, key=lambda e: e["type"] != "extra_forbidden")[0]
     loc = prefix + tuple(str(p) for p in err["loc"])
-    dotted = ".".join(loc) if loc else "(top level)"
+    dotted = dotted_key(prefix + tuple(err["loc"])) if loc else "(top level)"
     line = _key_line(text, loc) if loc else None
     kind = err["type"]
     value = err.get("input")
