@@ -382,3 +382,19 @@ def test_a_schema_error_in_a_list_uses_the_bracket_form(make_study, capsys):
                        'reason = " "\n')
     code, _, err = _run(capsys, "check", study)
     assert code == 2 and "key exclusions[0].reason: must not be blank" in err
+
+
+# ---------------------------------------------------------------- finding 16: every calibrator of an analyte excluded
+
+def test_excluding_every_calibrator_of_an_analyte_says_so(make_study, capsys):
+    samples = "analyte,sample,response\nlead,S1,5.1\nzinc,S1,5.2\n"
+    # zinc's calibration rows are file rows 12 to 21 (10 lead rows after the header, counted by hand)
+    excl = "".join(f'[[exclusions]]\nfile = "calibration.csv"\nrow = {r}\nreason = "standard expired"\n'
+                   for r in range(12, 22))
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[samples]\ndata = "samples.csv"\n' + excl,
+                       files={"calibration.csv": TWO, "samples.csv": samples})
+    code, _, err = _run(capsys, "check", study)
+    assert (code, err) == (2, f'validator: error: {study}, line 10, key exclusions[0]: every calibration row of '
+                              'analyte "zinc" in calibration.csv is excluded (10 row(s): exclusions[0], '
+                              "exclusions[1], exclusions[2], exclusions[3], exclusions[4], ...), so nothing is left "
+                              "of it; keep the rows it needs, or leave zinc out of the data\n")

@@ -142,6 +142,26 @@ class Exclusions:
             changes["kinds"] = {n: tuple(v[k] for k in keep) for n, v in table.kinds.items()}
         return dataclasses.replace(table, **changes)
 
+    def refuse_emptied(self, role: str, column: str, kept, what: str) -> None:
+        """Refuse a value of ``column`` (an analyte) whose every row of the ``role`` file is excluded.
+
+        ``kept``: the values still in the table. Without this, the value would vanish from the
+        file and a later message would say it "is not in the data" although its rows are there.
+        """
+        emptied: dict = {}
+        for e in self.applied:
+            name = dict(e.cells).get(column, "").strip()
+            if e.role == role and name and name not in kept:
+                emptied.setdefault(name, []).append(e)
+        if not emptied:
+            return
+        name, rows = next(iter(emptied.items()))
+        listed = ", ".join(f"exclusions[{e.index}]" for e in rows[:5]) + (", ..." if len(rows) > 5 else "")
+        raise StudyError(f'every {what} row of {column} "{show(name)}" in {show(rows[0].file)} is excluded '
+                         f"({len(rows)} row(s): {listed}), so nothing is left of it; keep the rows it needs, or "
+                         f"leave {show(name)} out of the data", file=self.study, line=self._line(rows[0].index),
+                         key=f"exclusions[{rows[0].index}]", value=name)
+
     def apply_injections(self, injections, excluded_by_row: dict | None = None) -> tuple:
         """``injections`` without those the study excludes by run and injection name (one each).
 

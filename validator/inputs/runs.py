@@ -365,8 +365,9 @@ def load_runs(reader) -> RunsData:
     for name, own in grouped.items():
         cal = [i for i in own if i.type == "calibrator"]
         if not cal:
-            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run', file=own[0].file,
-                            row=own[0].row)
+            after = " left after [[exclusions]]" if reader.exclusions.applied else ""
+            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run{after}',
+                            file=own[0].file, row=own[0].row)
         check_run_calibrations(own, needed=needed, pooled=pooled)
         x = np.array([i.level for i in cal], float)
         y = np.array([i.response for i in cal], float)
