@@ -398,3 +398,33 @@ def test_excluding_every_calibrator_of_an_analyte_says_so(make_study, capsys):
                               'analyte "zinc" in calibration.csv is excluded (10 row(s): exclusions[0], '
                               "exclusions[1], exclusions[2], exclusions[3], exclusions[4], ...), so nothing is left "
                               "of it; keep the rows it needs, or leave zinc out of the data\n")
+
+
+# ---------------------------------------------------------------- finding 17: per-analyte protocol deviations
+
+@pytest.mark.parametrize("approved, changed, key, protocol_value, run_value", [
+    # a per-analyte key changed
+    (ZINC_STRICT, ZINC_STRICT.replace("[95, 105]", "[50, 150]"), "analyte_settings.zinc.recovery.range_pct",
+     [95, 105], [50, 150]),
+    # a per-analyte table added after approval
+    ("", ZINC_STRICT, "analyte_settings.zinc", None, {"recovery": {"range_pct": [95, 105]}}),
+])
+def test_a_deviation_in_one_analytes_own_settings_concerns_that_analyte_only(
+        make_study, outside, capsys, approved, changed, key, protocol_value, run_value):
+    files = {"calibration.csv": TWO, "recovery.csv": RECOVERY_2_LEVELS}
+    body = PER_LEVEL.replace("levels = [{ added = 2, range_pct = [80, 120] }]\n", "")
+    study = make_study(body + approved, files=files)
+    code, _, err = _run(capsys, "protocol", study, "--out", outside / "p", "--approved-on", "2026-12-01",
+                        "--approved-by", "A. Approver")
+    assert (code, err) == (0, "")
+    study = make_study(body + changed, files=files)
+    _run(capsys, "run", study, "--out", outside / "r", "--protocol", outside / "p" / "protocol.json",
+         "--format", "json")
+    results = json.loads((outside / "r" / "results.json").read_text(encoding="utf-8"))
+    (dev,) = results["protocol"]["deviations"]
+    assert (dev["key"], dev["protocol"], dev["run"], dev["analyte"]) == (key, protocol_value, run_value, "zinc")
+    per_analyte = {a["name"]: [c["id"] for c in a["criteria"] if c["id"] == "protocol-deviation"]
+                   for a in results["analytes"]}
+    # the rule of with_deviations: a deviation with an analyte joins that analyte's criteria only
+    assert per_analyte == {"lead": [], "zinc": ["protocol-deviation"]}
+    assert results["verdict"] == "fail"
