@@ -133,7 +133,7 @@ def test_an_override_equals_a_one_analyte_study_with_those_settings(make_study, 
      "[calibration] cannot be set per analyte"),
     ("[analyte_settings.zinc.recovery]\nrange_pct = [120, 80]\n", "analyte_settings.zinc.recovery",
      "range_pct must be [low, high] with low < high"),
-    ("[analyte_settings.zinc.recovery]\nrange_pct = [80, 2000]\n", "analyte_settings.zinc.recovery.range_pct.1",
+    ("[analyte_settings.zinc.recovery]\nrange_pct = [80, 2000]\n", "analyte_settings.zinc.recovery.range_pct[1]",
      "less than or equal to 1000"),      # as the study-wide table says it
 ])
 def test_a_bad_setting_names_its_key_and_line(make_study, extra, key, words):

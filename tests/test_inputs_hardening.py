@@ -59,13 +59,13 @@ CASES = [
      "with 0 < lowest_level_tolerance_pct <= 100; got inf"),
     ("precision-level-nan", CALIB + '[precision]\ndata = "p.csv"\n'
      "levels = [{ level = nan, repeatability_rsd_max_pct = 5 }]\n", None, "",
-     "{dir}/study.toml, line 10, key precision.levels.0.level: must be a finite number with 0 <= level; "
+     "{dir}/study.toml, line 10, key precision.levels[0].level: must be a finite number with 0 <= level; "
      "got nan"),
     ("error-ratio-inf", CALIB + '[comparison]\ndata = "m.csv"\nerror_ratio = inf\n', None, "",
      "{dir}/study.toml, line 10, key comparison.error_ratio: must be a finite number with "
      "1e-06 <= error_ratio <= 1e+06; got inf"),
     ("recovery-range-inf", CALIB + '[recovery]\ndata = "r.csv"\nrange_pct = [90, inf]\n', None, "",
-     "{dir}/study.toml, line 10, key recovery.range_pct.1: must be a finite number; got inf"),
+     "{dir}/study.toml, line 10, key recovery.range_pct[1]: must be a finite number; got inf"),
     ("huge-integer-as-float", CALIB + "[criteria]\nalpha = " + "9" * 400 + "\n", None, "",
      "{dir}/study.toml, line 9, key criteria.alpha: is too large for a number "
      "(the largest magnitude is about 1.8e308); got " + "9" * 80 + "... (400 characters)"),

@@ -70,14 +70,14 @@ def test_an_exclusion_matching_nothing_is_an_error(make_study, capsys):
     assert main(["check", str(study)]) == 2
     assert capsys.readouterr().err.endswith(
         "key exclusions[0]: calibration.csv has no data row 40 read by this study, so this exclusion would "
-        "leave nothing out (rows are file lines, header = row 1; in a workbook, sheet rows)\n")
+        "leave nothing out (rows are file lines: the data rows read are 2 to 11)\n")   # 10 rows below the header
 
 
 def test_an_exclusion_needs_a_reason(make_study, capsys):
     study = make_study(BODY + '[[exclusions]]\nfile = "calibration.csv"\nrow = 4\nreason = " "\n',
                        {"calibration.csv": CALIBRATION, "samples.csv": SAMPLES})
     assert main(["check", str(study)]) == 2
-    assert "key exclusions.0.reason: must not be blank" in capsys.readouterr().err
+    assert "key exclusions[0].reason: must not be blank" in capsys.readouterr().err
 
 
 def test_an_injection_excluded_by_run_and_name_equals_the_same_row_excluded_by_file(tmp_path, outside):

@@ -529,7 +529,17 @@ def compare(protocol: dict, study) -> list:
     out = []
     if protocol["study_id"] != study.config.study.id:
         out.append(Deviation("study.id", protocol["study_id"], study.config.study.id))
-    _differences(protocol["design_and_criteria"], normalised(study.config), "", out)
+    before, now = dict(protocol["design_and_criteria"]), normalised(study.config)
+    own_before, own_now = before.pop("analyte_settings", {}), now.pop("analyte_settings", {})
+    _differences(before, now, "", out)
+    # one analyte's own settings concern that analyte only (its verdict, not the others')
+    own_before = own_before if isinstance(own_before, dict) else {}
+    own_now = own_now if isinstance(own_now, dict) else {}
+    for analyte in sorted(set(own_before) | set(own_now)):
+        found: list = []
+        _differences(own_before.get(analyte, _MISSING), own_now.get(analyte, _MISSING),
+                     f"analyte_settings.{analyte}", found)
+        out += [replace(d, analyte=analyte) for d in found]
     return out
 
 

@@ -304,7 +304,8 @@ def build_results(result, *, generated_at: str) -> dict:
         "analytes": [_analyte(a, loaded.study, loaded) for a in result.analytes],
         # rows of data files that do not say which analyte they belong to (several analytes, no column)
         "data_rows": data_rows(loaded, None),
-        **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline)}
+        **({"guideline": _guideline(loaded.config.study.guideline, loaded.study.guideline,
+                                    loaded.study.analyte_settings, [a.name for a in result.analytes])}
            if loaded.config.study.guideline is not None else {}),
         "revalidation": None if loaded.previous is None else {
             "previous": {"path": loaded.previous.path, "study_id": loaded.previous.study_id,
@@ -315,13 +316,22 @@ def build_results(result, *, generated_at: str) -> dict:
     }
 
 
-def _guideline(name: str, uses) -> dict:
-    """``[study] guideline``: the preset, and each of its values used or overridden by the study."""
+def _guideline(name: str, uses, analyte_settings, analytes: list[str]) -> dict:
+    """``[study] guideline``: the preset, and each of its values used or overridden by the study, and
+    the analytes whose own [analyte_settings] set the key (judged with their value, not the study-wide one)."""
     from .sector.presets import PRESETS, supplied_note
 
-    return {"name": name, "title": PRESETS[name].title, "note": supplied_note(name, uses),
-            "values": [{"key": u.key, "preset_value": u.preset_value, "study_value": u.study_value,
-                        "used": u.used, "source": u.source, "from_memory": u.from_memory} for u in uses]}
+    def own(key: str) -> list[dict]:
+        return [{"analyte": s.analyte, "value": c.value} for s in analyte_settings if s.analyte in analytes
+                for c in s.changes if c.key == key]
+
+    values = []
+    for u in uses:
+        overriding = own(u.key)
+        values.append({"key": u.key, "preset_value": u.preset_value, "study_value": u.study_value, "used": u.used,
+                       "analyte_values": overriding, "analytes_on_study_wide_value": len(analytes) - len(overriding),
+                       "source": u.source, "from_memory": u.from_memory})
+    return {"name": name, "title": PRESETS[name].title, "note": supplied_note(name, uses), "values": values}
 
 
 _ITEM = json.JSONEncoder(ensure_ascii=False, allow_nan=False)

@@ -127,7 +127,7 @@ def overridable_keys(table: str, model: type[BaseModel]) -> tuple[str, ...]:
 
 def _json(value):
     if isinstance(value, BaseModel):
-        return value.model_dump(mode="json")
+        return value.model_dump(mode="json", exclude_none=True)
     if isinstance(value, (list, tuple)):
         return [_json(v) for v in value]
     if isinstance(value, dict):
@@ -190,14 +190,47 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
                 merged["analyte"] = analyte
                 if "data" in values:        # its own file: the study-wide sheet and header row are not its
                     merged = {k: v for k, v in merged.items() if k not in ("sheet", "header_row") or k in values}
+            levels = _levels_without(section, values)
+            if levels is not None:
+                merged["levels"] = levels
             try:
                 update[table] = type(section).model_validate(merged)
             except ValidationError as exc:
                 raise _translate(exc, shown, text, prefix=loc) from None
             changes += [SettingChange(f"{table}.{key}", _json(getattr(update[table], key)),
                                       _json(getattr(section, key))) for key in values]
+            if levels is not None:
+                changes.append(SettingChange(f"{table}.levels", _json(update[table].levels), _json(section.levels)))
         out.append(AnalyteSettings(analyte, config.model_copy(update=update), tuple(changes), tuple(given)))
     return tuple(out)
+
+
+def _levels_without(section, values: dict) -> list | None:
+    """The study-wide per-level limits an analyte keeps once its own table sets the same keys (None: unchanged).
+
+    A key set for one analyte (``[analyte_settings.fluoride.recovery] range_pct``) is that analyte's
+    value at every level: the more specific setting wins over the study-wide per-level one
+    (``[recovery] levels = [{added = 0.1, range_pct = [80, 120]}]``), which cannot be set per
+    analyte (:data:`STUDY_WIDE`). A level entry loses the keys the analyte sets; an entry left
+    with no limit of its own (or without a key its model requires) is dropped.
+    """
+    if "levels" not in type(section).model_fields or not getattr(section, "levels", None):
+        return None
+    limit_keys = lambda model: [k for k in model.model_fields if k in type(section).model_fields]  # noqa: E731
+    kept, changed = [], False
+    for level in section.levels:
+        model = type(level)
+        shared = [k for k in limit_keys(model) if k in values and getattr(level, k) is not None]
+        if not shared:
+            kept.append(level)
+            continue
+        changed = True
+        if any(model.model_fields[k].is_required() for k in shared):
+            continue
+        left = level.model_copy(update={k: None for k in shared})
+        if any(getattr(left, k) is not None for k in limit_keys(model)):
+            kept.append(left)
+    return kept if changed else None
 
 
 def _check_material(section, values: dict, analyte: str, shown: str, text: str, loc: tuple) -> None:

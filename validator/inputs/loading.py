@@ -115,7 +115,7 @@ class Reader:
         self.max_bytes = int(cfg.max_data_file_mb * 1024 * 1024)
         self.inputs = [InputFile("study", study.shown, str(study.path.resolve()), study.sha256,
                                  len(study.text.encode()))]
-        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown)
+        self.exclusions = Exclusions(study.config.exclusions, study.resolve, study.shown, study.text)
         self.near_duplicate_ids: list = []
         self.data_rows: list[DataRows] = []
         self.only_analyte: str | None = None    # set while an analyte's own data file is read
@@ -148,7 +148,7 @@ class Reader:
                            header_row=getattr(source, "header_row", None), other_columns=other_columns)
         self.record(role, path, resolved, data, table)
         before = len(self.exclusions.applied)
-        kept = self.exclusions.apply(role, path, resolved, table)
+        kept = _no_hidden_rows(self.exclusions.apply(role, path, resolved, table))
         if role != "runs":          # an export's injections are listed, with their rows, by the runs
             self._keep_rows(role, path, kept, getattr(source, "analyte", None), self.exclusions.applied[before:])
         return kept
@@ -175,6 +175,26 @@ class Reader:
             self.data_rows.append(DataRows(role, path, sheet, name, columns, tuple(table.rows[k] for k in idx),
                                            tuple(tuple(table.columns[c][k] for c in columns) for k in idx),
                                            tuple(left_out.get(name, ()))))
+
+
+def _no_hidden_rows(table):
+    """``table``, refused when a workbook row it still holds is hidden (by hand or by a filter).
+
+    Hiding a row is how a spreadsheet user often "removes" an injection; validator does not read
+    such a row silently (as it refuses a hidden first sheet): unhide it to use it, or leave it out
+    with its reason in [[exclusions]].
+    """
+    from .workbook import CellError
+
+    kept = set(table.rows)
+    hidden = [r for r in getattr(table, "hidden_rows", ()) if r in kept]
+    if not hidden:
+        return table
+    listed = ", ".join(str(r) for r in hidden[:10]) + (", ..." if len(hidden) > 10 else "")
+    raise CellError(f"{'row' if len(hidden) == 1 else 'rows'} {listed} {'is' if len(hidden) == 1 else 'are'} hidden "
+                    "in the workbook; a hidden row is not read silently: unhide it to use it, or leave it out with "
+                    f'its reason in [[exclusions]] (file = "{show(table.path)}", sheet = "{show(table.sheet)}", '
+                    f"row = {hidden[0]})", file=table.path, sheet=table.sheet, row=hidden[0])
 
 
 def numeric_column(table, column: str, decimal: str | None = None) -> np.ndarray:

@@ -113,13 +113,55 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
     named = {"sample", "type", "response"} | set(columns.model_fields_set)
     required = tuple(h for f, h in mapped.items() if h is not None and f in named)
     optional = tuple(h for f, h in mapped.items() if h is not None and f not in named)
-    out = []
+    out, read, by_row = [], {}, {}
     for k, source in enumerate(runs):
+        before = len(reader.exclusions.applied)
         table = reader.table("runs", source, required, optional, other_columns="ignore")
+        _check_not_read_twice(read, k, source, reader.inputs[-1], reader.study)
+        by_row.update(_excluded_injections(reader.exclusions.applied[before:], table, source, k, mapped))
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
     _check_lots(out)
-    return _match_matrices(reader.exclusions.apply_injections(out))
+    _check_spellings(out)
+    return _match_matrices(reader.exclusions.apply_injections(out, excluded_by_row=by_row))
+
+
+def _excluded_injections(excluded, table, source, k: int, mapped: dict) -> dict:
+    """``{(run, injection name): Excluded}`` of the export's rows [[exclusions]] left out by file and row,
+    so that an exclusion of the same injection by run and name is named as a second one."""
+    out = {}
+    run_column = mapped["run"] if mapped["run"] and table.has(mapped["run"]) else None
+    for e in excluded:
+        cells = dict(e.cells)
+        run = cells.get(run_column, "").strip() if run_column else (source.run or f"run {k + 1}")
+        out[(run, cells.get(mapped["sample"], "").strip())] = e
+    return out
+
+
+def _check_not_read_twice(read: dict, k: int, source, record, study) -> None:
+    """Two ``[[runs]]`` never read the same export: the same file (and sheet), or a copy of it.
+
+    The export is known by its content (SHA-256 of the file) and the sheet read, so a path written
+    two ways, a link and a copied file are all caught; two sheets of one workbook are two exports.
+    Read twice, every injection would count as two runs' results (doubled degrees of freedom, no
+    between-run variance).
+    """
+    from .study import item_line
+
+    key = (record.sha256, record.sheet)
+    if key not in read:
+        read[key] = (k, source, record)
+        return
+    first, earlier, was = read[key]
+    import os
+
+    how = ("the same file" if os.path.realpath(was.resolved) == os.path.realpath(record.resolved) else
+           f"a file with the same content (SHA-256 {record.sha256[:12]}...)")
+    sheet = f', sheet "{show(record.sheet)}"' if record.sheet else ""
+    raise StudyError(f'[[runs]] {k + 1} (data = "{show(source.data)}"{sheet}) reads {how} as [[runs]] {first + 1} '
+                     f'(data = "{show(earlier.data)}"): one export would count as two runs; give each run its '
+                     "own export", file=study.shown, line=item_line(study.text, "runs", k, "data"),
+                     key=f"runs[{k}].data", value=source.data)
 
 
 def _check_lots(injections) -> None:
@@ -283,6 +325,24 @@ def _check_labels(injections, study: str) -> None:
                             "a run is measured on one day", file=inj.file, row=inj.row, value=inj.day)
 
 
+def _check_spellings(injections) -> None:
+    """One spelling per run, day and sample: labels differing only in letter case or spacing ("B1" and
+    "b1") would silently be two runs (another precision series), two days or two samples."""
+    from .sample_ids import spelling_variant
+
+    samples = [inj for inj in injections if inj.type == "sample"]
+    for what, group, label in (("run", injections, lambda inj: inj.run), ("day", injections, lambda inj: inj.day),
+                               ("sample id", samples, lambda inj: inj.sample)):
+        labels = [label(inj) for inj in group]
+        clash = spelling_variant(labels)
+        if clash is not None:
+            first, inj = group[clash[0]], group[clash[1]]
+            where = f"row {first.row}" if first.file == inj.file else f"{show(first.file)} row {first.row}"
+            raise DataError(f'{what} "{show(labels[clash[1]])}" differs only in letter case or spacing from '
+                            f'{what} "{show(labels[clash[0]])}" ({where}): they would count as two; write one '
+                            "spelling", file=inj.file, row=inj.row, value=labels[clash[1]])
+
+
 def by_analyte(injections) -> dict:
     """``{analyte: tuple of its injections}``, analytes in order of first appearance."""
     out: dict = {}
@@ -390,8 +450,9 @@ def load_runs(reader) -> RunsData:
     for name, own in grouped.items():
         cal = [i for i in own if i.type == "calibrator"]
         if not cal:
-            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run', file=own[0].file,
-                            row=own[0].row)
+            after = " left after [[exclusions]]" if reader.exclusions.applied else ""
+            raise DataError(f'analyte "{show(name)}" has no calibrator injection in any run{after}',
+                            file=own[0].file, row=own[0].row)
         check_run_calibrations(own, needed=needed, pooled=pooled)
         x = np.array([i.level for i in cal], float)
         y = np.array([i.response for i in cal], float)

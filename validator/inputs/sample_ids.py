@@ -19,7 +19,28 @@ from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
 
-__all__ = ["NearDuplicateIds", "one_edit_apart", "check_expected", "near_duplicates"]
+__all__ = ["NearDuplicateIds", "one_edit_apart", "check_expected", "near_duplicates", "spelling_key",
+           "spelling_variant"]
+
+
+def spelling_key(label: str) -> str:
+    """The form in which two labels (sample ids, run and day labels) are one label: letter case and
+    runs of white space ignored ("B1", "b1" and "b 1" are not the same key; "Run 1" and "run  1" are)."""
+    return " ".join(label.split()).casefold()
+
+
+def spelling_variant(labels) -> tuple[int, int] | None:
+    """``(i, j)``, ``i < j``: the first label ``labels[j]`` written differently from an earlier one
+    ``labels[i]`` that has the same :func:`spelling_key` (one label typed two ways); None if none.
+
+    The caller says what the labels are and names both rows in its error.
+    """
+    seen: dict = {}
+    for j, label in enumerate(labels):
+        i = seen.setdefault(spelling_key(label), j)
+        if labels[i] != label:
+            return i, j
+    return None
 
 
 @dataclass(frozen=True)

@@ -437,6 +437,24 @@ def _key_line(text: str, loc: tuple) -> int | None:
     return None
 
 
+def item_line(text: str, array: str, index: int, key: str | None = None) -> int | None:
+    """Best-effort line of ``key`` in the ``index``-th (0-based) ``[[array]]`` table, else of its header."""
+    header = re.compile(r"^\s*\[\[\s*" + re.escape(array) + r"\s*\]\]")
+    key_re = None if key is None else re.compile(r"^\s*" + re.escape(key) + r"\s*=")
+    seen, start = -1, None
+    for number, line in enumerate(text.splitlines(), start=1):
+        if start is not None and line.lstrip().startswith("["):
+            break
+        if header.match(line):
+            seen += 1
+            if seen == index:
+                start = number
+            continue
+        if start is not None and key_re is not None and key_re.match(line):
+            return number
+    return start
+
+
 def _line_of(text: str, loc: tuple) -> int | None:
     lines = text.splitlines()
     section, key = (loc[0], loc[-1]) if len(loc) > 1 else (None, loc[0])
@@ -566,13 +584,25 @@ def _plain(kind: str, loc: tuple, ctx: dict) -> str:
     return message
 
 
+def dotted_key(loc: tuple) -> str:
+    """A key path as messages write it: tables joined by dots, list items by their index in brackets
+    (``exclusions[0].reason``, ``recovery.range_pct[1]``), the one form every message uses."""
+    out = ""
+    for part in loc:
+        if isinstance(part, int) and not isinstance(part, bool):
+            out += f"[{part}]"
+        else:
+            out += f".{part}" if out else str(part)
+    return out
+
+
 def _translate(exc: ValidationError, shown: str, text: str, prefix: tuple = ()) -> StudyError:
     """The study error for ``exc``; ``prefix`` is the key path of the table validated (when not the file)."""
     errors = exc.errors(include_url=False)
     # an unknown key usually explains a "missing" one (a typo), so report it first
     err = sorted(errors, key=lambda e: e["type"] != "extra_forbidden")[0]
     loc = prefix + tuple(str(p) for p in err["loc"])
-    dotted = ".".join(loc) if loc else "(top level)"
+    dotted = dotted_key(prefix + tuple(err["loc"])) if loc else "(top level)"
     line = _key_line(text, loc) if loc else None
     kind = err["type"]
     value = err.get("input")

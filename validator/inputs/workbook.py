@@ -46,6 +46,7 @@ _MERGE_CELL = f"{{{_MAIN_NS}}}mergeCell"
 _CELL = f"{{{_MAIN_NS}}}c"
 _FORMULA = f"{{{_MAIN_NS}}}f"
 _VALUE = f"{{{_MAIN_NS}}}v"
+_ROW = f"{{{_MAIN_NS}}}row"
 _SHEET = f"{{{_MAIN_NS}}}sheet"
 _OLE2 = b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1"
 _ZIP = (b"PK\x03\x04", b"PK\x05\x06")
@@ -116,10 +117,14 @@ class WorkbookTable(Table):
     kinds : dict
         Column name -> tuple of ``"number"``, ``"text"``, ``"empty"``,
         ``"boolean"`` or ``"date"``, one per row: what the cell held.
+    hidden_rows : tuple of int
+        The data rows the sheet hides (by hand or by a filter); the caller decides
+        (:meth:`validator.inputs.loading.Reader.table` refuses those not excluded).
     """
 
     sheet: str = ""
     header_row: int = 1
+    hidden_rows: tuple[int, ...] = ()
     letters: dict = field(default_factory=dict)
     kinds: dict = field(default_factory=dict)
 
@@ -290,11 +295,16 @@ def _check_archive(data: bytes, file: str, max_unpacked_bytes: int) -> None:
 
 
 def _scan_sheet(source, file: str, sheet: str):
-    """Merged ranges and formula cells without a saved value, from the sheet's XML."""
-    merged, uncalculated = [], []
+    """Merged ranges, formula cells without a saved value and hidden rows (hidden by hand or by a
+    filter: ``<row hidden="1">``, ECMA-376 Part 1, 18.3.1.73), from the sheet's XML."""
+    merged, uncalculated, hidden = [], [], set()
     try:
         for _, element in ElementTree.iterparse(source):
-            if element.tag == _CELL:
+            if element.tag == _ROW:
+                if element.get("hidden") in ("1", "true") and (element.get("r") or "").isdigit():
+                    hidden.add(int(element.get("r")))
+                element.clear()
+            elif element.tag == _CELL:
                 if element.find(_FORMULA) is not None:
                     v = element.find(_VALUE)
                     # a saved empty text result is <v></v> in a cell of type "str"
@@ -305,7 +315,7 @@ def _scan_sheet(source, file: str, sheet: str):
                 merged.append(element.get("ref"))
     except ElementTree.ParseError as exc:
         raise CellError(f"the sheet's XML cannot be read ({exc})", file=file, sheet=sheet) from None
-    return merged, uncalculated
+    return merged, uncalculated, hidden
 
 
 def _range_bounds(ref: str):
@@ -476,7 +486,7 @@ def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows,
         return CellError(problem, file=file, sheet=name, cell=cell, **kw)
 
     with ws._get_source() as source:     # openpyxl's read-only worksheet keeps the part's path
-        merged, uncalculated = _scan_sheet(source, file, name)
+        merged, uncalculated, hidden = _scan_sheet(source, file, name)
     uncalculated = set(uncalculated)
 
     header = None           # list of (column index, name)
@@ -604,6 +614,6 @@ def _read_sheet(book, file, *, required, optional, sheet, header_row, max_rows,
     if not rows:
         raise err(f"has a header (row {found_header_row}) but no data rows")
     return WorkbookTable(path=file, columns=columns, rows=tuple(rows), sheet=name,
-                         header_row=found_header_row,
+                         header_row=found_header_row, hidden_rows=tuple(r for r in rows if r in hidden),
                          letters={n: _column_letter(col) for col, n in header},
                          kinds={n: tuple(k) for n, k in kinds.items()})

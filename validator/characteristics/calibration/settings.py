@@ -95,6 +95,8 @@ def load(reader, settings: CalibrationSection, analytes=None) -> dict[str, Calib
     names = table.texts("analyte", MAX_NAME_LENGTH) if table.has("analyte") else [default_name] * len(table)
     series = tuple(table.columns["series"]) if table.has("series") else ("",) * len(table)
     order, groups = _group(names)
+    if table.has("analyte"):
+        reader.exclusions.refuse_emptied("calibration", "analyte", groups, "calibration")
     folded = {}
     for name in order:          # "Nitrate" and "nitrate" are two analytes only by mistake
         other = folded.setdefault(name.casefold(), name)

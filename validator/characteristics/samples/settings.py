@@ -15,7 +15,7 @@ from typing import Annotated, Optional
 from pydantic import AfterValidator, Field, model_validator
 
 from ...errors import show
-from ...inputs.sample_ids import check_expected, near_duplicates
+from ...inputs.sample_ids import check_expected, near_duplicates, spelling_variant
 from ...inputs.study import DataSource, _no_control
 from ...inputs.tables import MAX_NAME_LENGTH
 
@@ -60,14 +60,12 @@ def load(reader, settings: SamplesSection, analytes) -> dict[str, tuple[SampleDa
     table = reader.table("samples", settings, ("sample", "response"), ("analyte",))
     ids = table.texts("sample", MAX_NAME_LENGTH)
     responses = numeric_column(table, "response", reader.decimal).tolist()
-    seen = {}
-    for sid, row in zip(ids, table.rows):
-        key = " ".join(sid.split()).casefold()
-        if key in seen and seen[key][0] != sid:
-            raise DataError(f'sample id "{sid}" differs only in case or spacing from "{seen[key][0]}" '
-                            f"(row {seen[key][1]}); use one spelling per sample", file=table.path, row=row,
-                            column="sample", value=sid)
-        seen.setdefault(key, (sid, row))
+    clash = spelling_variant(ids)
+    if clash is not None:
+        first, second = clash
+        raise DataError(f'sample id "{ids[second]}" differs only in case or spacing from "{ids[first]}" '
+                        f"(row {table.rows[first]}); use one spelling per sample", file=table.path,
+                        row=table.rows[second], column="sample", value=ids[second])
     out = {}
     for name, idx in analyte_rows(table, analytes, "reading").items():
         own_ids, own_rows = [ids[i] for i in idx], [table.rows[i] for i in idx]
