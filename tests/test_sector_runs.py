@@ -44,6 +44,7 @@ lot = "Lot"
 [types]
 calibrator = ["Cal"]
 blank = ["Blank"]
+zero = ["Zero"]
 matrix_blank = ["Blank Lot"]
 low_level = ["Low"]
 """
@@ -160,6 +161,68 @@ def test_no_blank_after_the_highest_calibrator_is_not_applicable(tmp_path, outsi
     c = criterion(r, "carry-over")
     assert c["pass"] is None and c["note"].startswith("not applicable")
     assert any(n["item"].startswith("carry_over") for n in r["not_applicable"])
+
+
+@pytest.mark.parametrize("is_area", ["", "0"])
+def test_a_blank_without_internal_standard_serves_the_raw_area_checks_only(tmp_path, outside, is_area):
+    text = RUN_1.replace("DB-1,Blank,,12,30,", f"DB-1,Blank,,12,{is_area},")
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text}), outside))
+    db = next(i for i in r["runs"]["injections"] if i["sample"] == "DB-1")
+    # the ratio analyte/IS is undefined: no found value, the chain says why
+    assert db["response"] is None and db["found"] is None and "ratio analyte/IS is undefined" in db["reason"]
+    k = r["runs"]["injections"].index(db)
+    assert any(n["item"] == f"runs.injections.{k}" and "undefined" in n["reason"] for n in r["not_applicable"])
+    (b,) = r["carry_over"]["run_blanks"]
+    assert (b["blank"], b["type"]) == ("DB-1", "blank")
+    assert b["analyte_percent"] == pytest.approx(100 * 12 / 102, rel=1e-12)    # hand computation, as above
+    c = criterion(r, "carry-over-internal-standard")
+    if is_area == "0":
+        # hand computation: 100 x 0/998 = 0 %, judged
+        assert b["internal_standard_percent"] == 0.0 and c["pass"] is True
+    else:
+        # not given: not shown, not passed
+        assert b["internal_standard_percent"] is None and "row 7" in b["internal_standard_note"]
+        assert c["pass"] is None and c["note"].startswith("not applicable: no IS area is given for")
+        assert r["carry_over"]["internal_standard_note"] == b["internal_standard_note"]
+    # the LoB blanks are the analyte-free injections with a found value: DB-1 is not among them
+    assert "DB-1" not in {i["sample"] for i in r["runs"]["injections"] if i["found"] is not None}
+
+
+def test_a_zero_sample_after_the_highest_calibrator_is_judged_on_its_analyte_part(tmp_path, outside):
+    text = RUN_1.replace("DB-1,Blank,,12,30,", "DB-1,Zero,,12,990,")
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text, "run-2.csv": RUN_2}), outside))
+    co = r["carry_over"]
+    b1, b2 = co["run_blanks"]
+    assert (b1["blank"], b1["type"], b2["type"]) == ("DB-1", "zero", "blank")
+    # the zero sample's IS area is the internal standard added, not carry-over: analyte part only
+    assert b1["analyte_percent"] == pytest.approx(100 * 12 / 102, rel=1e-12)     # hand computation
+    assert b1["internal_standard_percent"] is None and "zero sample" in b1["internal_standard_note"]
+    assert b1["blank_internal_standard"] == 990
+    # the IS part on the blank of run 2 only: 100 x 25/1000 (hand computation)
+    assert co["internal_standard_percent"] == pytest.approx([2.5], rel=1e-12)
+    assert criterion(r, "carry-over-internal-standard")["pass"] is True
+    # a zero sample has a ratio and a found value (it feeds the limits of blank as a blank with IS)
+    zero = next(i for i in r["runs"]["injections"] if i["sample"] == "DB-1")
+    assert zero["response"] == pytest.approx(12 / 990, rel=1e-15) and zero["found"] is not None
+    # only zero samples: the IS part is not applicable, with the reason
+    alone = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text}), outside, "alone"))
+    c = criterion(alone, "carry-over-internal-standard")
+    assert c["pass"] is None and "only zero samples" in c["note"]
+    assert criterion(alone, "carry-over")["pass"] is True
+
+
+def test_a_calibrator_without_internal_standard_is_an_error(tmp_path):
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": RUN_1.replace("Cal 3,Cal,5,490,980,", "Cal 3,Cal,5,490,,")}))
+    assert str(err.value).startswith('run-1.csv, row 5, column "is area": the internal-standard area is missing; '
+                                     "a calibrator injection needs one")
+
+
+def test_a_matrix_blank_without_internal_standard_area_is_an_error_for_selectivity(tmp_path):
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": RUN_1.replace("MB-3,Blank Lot,,3,5,L3", "MB-3,Blank Lot,,3,,L3")}))
+    assert str(err.value).startswith('run-1.csv, row 12, column "is area": matrix blank "MB-3" has no '
+                                     "internal-standard area")
 
 
 def test_carry_over_pure_function_with_qcs_in_the_is_reference():
@@ -372,7 +435,7 @@ def test_the_dossier_says_where_the_numbers_came_from(tmp_path, outside):
     results = json.loads((out / "results.json").read_text(encoding="utf-8"))
     text = BeautifulSoup(html, "html.parser").get_text(" ")
     assert "Read from the run sequences" in text and "matrix-blank injection(s) of the runs" in text
-    assert "found values of the runs' blank and low_level injections" in text
+    assert "found values of the runs' blank, zero and low_level injections" in text
     assert "Carry-over (the run sequences)".lower() in text.lower()
     shown = 0
     for span in BeautifulSoup(html, "html.parser").select("span.n[data-src]"):

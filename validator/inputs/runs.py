@@ -7,12 +7,15 @@ order and lot), ``[types]`` which of its words means which injection type (the e
 Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
-(calibrator, blank, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
+(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
 level (the nominal concentration of a calibrator or QC, the added amount of a spiked sample),
 its response, its lot and its place in the run's sequence (the ``order`` column, else the row).
 When an internal-standard column is mapped, the response is the ratio analyte / internal
 standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
-or negative internal-standard area is an error naming the row.
+or negative internal-standard area is an error naming the row, except that a blank or a
+matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0: its ratio
+is then undefined (``response`` None) and it serves the checks on raw areas only. A zero
+sample (type ``zero``: blank matrix with the internal standard) needs its IS area.
 
 Quantification (a response read back through its run's calibration) is analysis and happens
 downstream; this module only reads.
@@ -24,7 +27,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
-from .study import INJECTION_TYPES
+from .study import BLANK_TYPES, INJECTION_TYPES
 from .tables import MAX_NAME_LENGTH
 
 __all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
@@ -46,10 +49,13 @@ class Injection:
         :data:`validator.inputs.study.INJECTION_TYPES`).
     level : float or None
         Nominal concentration (calibrator, QC) or added amount (spiked); None when not given.
-    response : float
-        What is calibrated: the analyte's response, or its ratio to the internal standard.
+    response : float or None
+        What is calibrated: the analyte's response, or its ratio to the internal standard; None
+        for a blank or matrix blank with no internal-standard area (missing, or 0): the ratio is
+        undefined and the injection serves the checks on raw areas only (carry-over, selectivity).
     analyte_response, internal_standard_response : float, float or None
-        The raw areas (heights) as read; the second is None without an internal standard.
+        The raw areas (heights) as read; the second is None without an internal standard, or
+        when a blank's IS area is not given.
     file, sheet, row : str, str or None, int
         Where the injection is: the export as named in the study, the sheet of a workbook,
         the file row (CSV line, header = row 1) or sheet row.
@@ -61,7 +67,7 @@ class Injection:
     sample: str
     type: str
     level: float | None
-    response: float
+    response: float | None
     analyte_response: float
     internal_standard_response: float | None
     file: str
@@ -204,15 +210,23 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     internal = [None] * len(table)
     if mapped["internal_standard"]:
         column = mapped["internal_standard"]
+        # a blank (no analyte, no internal standard) may have no IS area, or 0: its ratio is undefined
         for i, (cell, row) in enumerate(zip(table.columns[column], table.rows)):
-            if cell.strip() == "":
-                raise _error(table, "the internal-standard area is missing; every injection needs one to compute "
-                             "the response ratio", row=row, column=column, value=cell)
-        internal = table.numbers(column)
-        for value, row in zip(internal, table.rows):
-            if not value > 0:
-                raise _error(table, f"the internal-standard area is {value:g}; the response ratio needs an area "
-                             "above zero", row=row, column=column, value=value)
+            if cell.strip() == "" and kinds[i] not in BLANK_TYPES:
+                raise _error(table, f"the internal-standard area is missing; a {kinds[i]} injection needs one to "
+                             "compute the response ratio (only blank and matrix_blank injections may have none)",
+                             row=row, column=column, value=cell)
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, value in zip(given, _subset(table, given).numbers(column)):
+            internal[i] = value
+        for value, kind, row in zip(internal, kinds, table.rows):
+            if value is None:
+                continue
+            if value < 0 or (not value > 0 and kind not in BLANK_TYPES):
+                raise _error(table, f"the internal-standard area is {value:g}; the response ratio of a {kind} "
+                             "injection needs an area above zero" + ("" if value < 0 else
+                             " (only blank and matrix_blank injections may have none)"),
+                             row=row, column=column, value=value)
 
     levels = [None] * len(table)
     if mapped["level"] and table.has(mapped["level"]):
@@ -261,7 +275,10 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
 
     out = []
     for i, row in enumerate(table.rows):
-        ratio = response[i] if internal[i] is None else response[i] / internal[i]
+        if not mapped["internal_standard"]:
+            ratio = response[i]
+        else:             # a blank without an IS area has no ratio: used for its raw areas only
+            ratio = response[i] / internal[i] if internal[i] else None
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
@@ -329,7 +346,12 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
     header = (cfg.columns or ColumnsSection()).level
     calibrated = {i.run for i in own if i.type == "calibrator"}
     if fed_by_runs(cfg, "selectivity"):
+        internal = (cfg.columns or ColumnsSection()).internal_standard
         for inj in own:
+            if inj.type == "matrix_blank" and internal and inj.internal_standard_response is None:
+                raise DataError(f'matrix blank "{show(inj.sample)}" has no internal-standard area; selectivity '
+                                "compares it with the IS area of the run's lowest calibrators: write 0 when no IS "
+                                "peak was found", file=inj.file, row=inj.row, column=internal.strip().lower())
             if inj.type == "matrix_blank" and inj.run not in calibrated:
                 raise DataError(f'matrix blank "{show(inj.sample)}" is in run "{show(inj.run)}", which has no '
                                 f'calibrator of analyte "{show(inj.analyte)}": selectivity compares it with its own '
@@ -408,7 +430,7 @@ def load_runs(reader) -> RunsData:
                                 f"(its {by} is {i.level if by == 'concentration' else i.response:g}); use another "
                                 "weighting or leave the injection out ([[exclusions]])", file=i.file, row=i.row)
         calibration[name] = CalibrationData(x, y, tuple(i.run for i in cal), tuple(i.row for i in cal))
-        blank = [i.response for i in own if i.type == "blank"]
+        blank = [i.response for i in own if i.type in ("blank", "zero") and i.response is not None]
         if blank:
             blanks[name] = np.array(blank, float)
         samples = [i for i in own if i.type == "sample"]

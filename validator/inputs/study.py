@@ -211,8 +211,12 @@ def check_range(v, name: str = "range_pct"):
 
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
 
-INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
+INJECTION_TYPES = ("calibrator", "blank", "zero", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
                    "low_level")
+# ICH M10's words: a blank has neither analyte nor internal standard, a zero sample the internal standard only.
+# The blank types may have no internal-standard area (missing, or 0): their ratio response is then undefined
+# and they serve the checks on raw areas only (carry-over, selectivity)
+BLANK_TYPES = ("blank", "matrix_blank")
 # a run or day label, or a header name of an export
 Label = Annotated[str, Field(min_length=1, max_length=200, pattern=r"\S"), AfterValidator(_no_control)]
 
@@ -271,7 +275,9 @@ class TypesSection(_Section):
     unspiked: Words = ["unspiked"]
     reference: Words = ["reference"]
     sample: Words = ["sample"]
-    # no default words: a blank matrix of one lot (selectivity), a sample at a low level (EP17, MDL)
+    # no default words: a blank matrix with the internal standard only (a zero sample), a blank matrix of one
+    # lot (selectivity), a sample at a low level (EP17, MDL)
+    zero: Words = []
     matrix_blank: Words = []
     low_level: Words = []
 

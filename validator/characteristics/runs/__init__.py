@@ -51,7 +51,7 @@ def assess(ctx) -> Assessment[RunsResult] | None:
 
 # sector table -> (its file key: None means "read the runs"; the injection types it needs, None: the sequence)
 # (the study-file side of the same rule: validator.inputs.study.RUN_FED_SECTOR)
-SECTOR_READS = {"limit_of_blank": ("blanks", ("blank",)), "method_detection_limit": ("spiked", ("low_level",)),
+SECTOR_READS = {"limit_of_blank": ("blanks", ("blank", "zero")), "method_detection_limit": ("spiked", ("low_level",)),
                 "carry_over": ("data", None), "selectivity": ("data", ("matrix_blank",))}
 
 

@@ -22,6 +22,9 @@ from ...maths.regression import PolynomialFit, fit_polynomial
 __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs"]
 
 POOLED = "pooled"
+# why a blank without an internal-standard area has no found value (its chain in results.json says it)
+NO_RATIO = ("no internal-standard area (a blank has none): the ratio analyte/IS is undefined, so nothing is "
+            "quantified; the injection serves the checks on raw areas only (carry-over, selectivity)")
 
 
 @dataclass(frozen=True)
@@ -50,7 +53,8 @@ class QuantifiedInjection:
     """One injection read back through a calibration: response -> calibration -> found.
 
     ``found`` is None (with ``reason``) when no concentration corresponds to the response
-    (beyond the vertex of a quadratic). ``within_range`` is False for an extrapolated value.
+    (beyond the vertex of a quadratic), or when a blank has no internal-standard area (``response``
+    None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
     """
 
     run: str
@@ -58,7 +62,7 @@ class QuantifiedInjection:
     sample: str
     type: str
     level: float | None = field(metadata={"omit_none": True})
-    response: float
+    response: float | None
     analyte_response: float
     internal_standard_response: float | None = field(metadata={"omit_none": True})
     file: str
@@ -156,12 +160,15 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
     out, calibrators = [], []
     for inj in injections:
         c = used[inj.run]
-        x0, inside = c.fit.inverse(inj.response)
-        reason = ""
-        found = float(x0)
-        if not np.isfinite(found):
-            found, reason = None, ("the response lies beyond the vertex of the quadratic; no concentration "
-                                   "corresponds to it")
+        if inj.response is None:
+            found, inside, reason = None, False, NO_RATIO
+        else:
+            x0, inside = c.fit.inverse(inj.response)
+            reason = ""
+            found = float(x0)
+            if not np.isfinite(found):
+                found, reason = None, ("the response lies beyond the vertex of the quadratic; no concentration "
+                                       "corresponds to it")
         with quiet_numpy():
             within = found is not None and bool(inside) and c.low <= found <= c.high
         (calibrators if inj.type == "calibrator" else out).append(QuantifiedInjection(run=inj.run, day=inj.day, sample=inj.sample, type=inj.type, level=inj.level,
