@@ -3,7 +3,7 @@
 A validation is a set of runs. Each ``[[runs]]`` table names one export (CSV or one .xlsx
 sheet), read untouched: ``[columns]`` says which of its headers holds each field the tool
 reads (sample, type, level, response, internal standard, analyte, run, day, and the optional
-order and lot), ``[types]`` which of its words means which injection type (the export's "Cal
+order, lot, condition and dilution), ``[types]`` which of its words means which injection type (the export's "Cal
 Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
@@ -76,6 +76,8 @@ class Injection:
     matrix: str = ""             # spiked: the unspiked injections' sample id giving the native level ("": none)
     lot: str = ""                # the matrix lot ([columns] lot; "": not given)
     position: float = 0.0        # the place in the run's sequence: [columns] order, else the row
+    condition: str = ""          # a QC's storage condition ([columns] condition; "": not given)
+    dilution: float | None = None    # a diluted QC's dilution factor, above 1 ([columns] dilution; None: not diluted)
 
 
 def _subset(table, idx: list):
@@ -256,6 +258,36 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         if kind == "matrix_blank" and not lots[i]:
             raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
                          row=row, column=mapped["lot"] or "lot", value=lots[i])
+    conditions = [""] * len(table)
+    if mapped["condition"] and table.has(mapped["condition"]):
+        column = mapped["condition"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
+            conditions[i] = text.strip()
+            if kinds[i] != "qc":
+                raise _error(table, f"a storage condition is read for QC injections only (stability), not for a "
+                             f"{kinds[i]} injection", row=table.rows[i], column=column, value=text)
+    dilutions = [None] * len(table)
+    if mapped["dilution"] and table.has(mapped["dilution"]):
+        column = mapped["dilution"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, value in zip(given, _subset(table, given).numbers(column)):
+            row = table.rows[i]
+            if not value >= 1:
+                raise _error(table, f"the dilution factor {value:g} is below 1", row=row, column=column, value=value)
+            if value == 1:
+                continue                 # not diluted
+            if kinds[i] != "qc":
+                raise _error(table, f"a dilution factor other than 1 is read for QC injections only (dilution "
+                             f"integrity), not for a {kinds[i]} injection; give a sample's dilution in "
+                             "[sample_preparation]", row=row, column=column, value=value)
+            dilutions[i] = value
+    for i, row in enumerate(table.rows):
+        roles = [f for f, v in (("lot", lots[i]), ("condition", conditions[i]), ("dilution", dilutions[i])) if v]
+        if kinds[i] == "qc" and len(roles) > 1:
+            raise _error(table, "a QC injection serves one of matrix lots (lot), stability (condition) and "
+                         f"dilution integrity (dilution); this one has {' and '.join(roles)}", row=row,
+                         column=mapped[roles[1]])
     positions = [float(r) for r in table.rows]
     if mapped["order"] and table.has(mapped["order"]):
         column = mapped["order"]
@@ -282,8 +314,19 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
-                             lot=lots[i], position=float(positions[i])))
+                             lot=lots[i], position=float(positions[i]), condition=conditions[i],
+                             dilution=dilutions[i]))
     return out
+
+
+def _qc_role(inj) -> str:
+    """The sector table a QC injection feeds instead of precision ("" for any other injection): one with a
+    lot the matrix effect, with a condition stability, with a dilution factor dilution integrity."""
+    from .study import QC_ROLES
+
+    if inj.type != "qc":
+        return ""
+    return next((table for column, table in QC_ROLES.items() if getattr(inj, column, None)), "")
 
 
 def _check_labels(injections, study: str) -> None:
@@ -363,6 +406,24 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 raise DataError(f'the lowest calibrators of run "{show(run)}" have no response above zero; '
                                 "selectivity compares the matrix blanks with it", file=lowest[0].file,
                                 row=lowest[0].row, value=lowest[0].analyte_response)
+    if fed_by_runs(cfg, "stability"):
+        from .sector_names import slug
+        cond = (cfg.columns or ColumnsSection()).condition
+        stored = [i for i in own if i.type == "qc" and i.condition]
+        seen: dict = {}
+        for inj in stored:
+            first = seen.setdefault(slug(inj.condition), inj)
+            if first.condition != inj.condition:
+                raise DataError(f'condition "{show(inj.condition)}" and "{show(first.condition)}" ({show(first.file)} '
+                                f"row {first.row}) differ only in letter case or punctuation and would give one "
+                                "criterion id; write it one way", file=inj.file, row=inj.row,
+                                column=cond.strip().lower(), value=inj.condition)
+        if cfg.stability.reference == "fresh":
+            fresh = {i.level for i in stored if i.condition.casefold() == "fresh"}
+            for inj in stored:
+                if inj.level not in fresh:
+                    raise DataError(f'reference = "fresh" but nominal {inj.level:g} has no QC of condition "fresh" '
+                                    "to compare with", file=inj.file, row=inj.row, column=header, value=inj.level)
     low = [i for i in own if i.type == "low_level" and i.level is not None]
     if fed_by_runs(cfg, "limit_of_blank"):
         first: dict = {}
@@ -445,7 +506,7 @@ def load_runs(reader) -> RunsData:
                                                                  rows=[i.row for i in own_file], file=file))
     for kind, table, what in (("spiked", "recovery", "its acceptance range"), ("qc", "precision", "its limits"),
                               ("reference", "reference_material", "the certified value")):
-        first = next((i for i in injections if i.type == kind), None)
+        first = next((i for i in injections if i.type == kind and not _qc_role(i)), None)
         if first is not None and getattr(cfg, table) is None:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
                             f"[{table}] table; add it with {what}", file=first.file, row=first.row)
@@ -457,6 +518,13 @@ def load_runs(reader) -> RunsData:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
                             "takes its data from the runs; add one without a data file of its own",
                             file=first.file, row=first.row)
+    from .study import QC_ROLES
+    for column, table in QC_ROLES.items():
+        first = next((i for i in injections if i.type == "qc" and getattr(i, column)), None)
+        if first is not None and not fed_by_runs(cfg, table):
+            raise DataError(f'the runs have QC injections with a {column} (first: "{show(first.sample)}") but no '
+                            f"[{table}] table takes its data from the runs; add one without a data file of its own "
+                            f"(or leave the {column} column unmapped)", file=first.file, row=first.row)
     for own in grouped.values():
         _check_sector_injections(own, cfg, pooled)
     design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()
