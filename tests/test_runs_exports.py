@@ -76,10 +76,16 @@ def test_a_csv_export_with_a_run_column_and_no_internal_standard(make_study):
 
 
 @pytest.mark.parametrize("change, expected", [
-    ((1, 5, None), "run-1.xlsx, sheet Results, cell F4: the internal-standard area is missing; every injection "
-                   "needs one to compute the response ratio"),
-    ((1, 5, 0.0), "run-1.xlsx, sheet Results, cell F4: the internal-standard area is 0; the response ratio needs "
-                  "an area above zero"),
+    ((1, 5, None), "run-1.xlsx, sheet Results, cell F4: the internal-standard area is missing; a calibrator "
+                   "injection needs one to compute the response ratio (only blank and matrix_blank injections may "
+                   "have none)"),
+    ((1, 5, 0.0), "run-1.xlsx, sheet Results, cell F4: the internal-standard area is 0; the response ratio of a "
+                  "calibrator injection needs an area above zero (only blank and matrix_blank injections may have "
+                  "none)"),
+    ((2, 5, -1.0), "run-1.xlsx, sheet Results, cell F5: the internal-standard area is -1; the response ratio of a "
+                   "blank injection needs an area above zero"),
+    ((4, 5, None), "run-1.xlsx, sheet Results, cell F7: the internal-standard area is missing; a sample "
+                   "injection needs one"),
     ((2, 1, "Solvent"), 'run-1.xlsx, sheet Results, cell B5: injection type "Solvent" is not listed in [types] '
                         '(listed: "Cal Std", "Blank", "QC", "spiked", "unspiked", "reference", "Unknown"); add it '
                         "to the type it means"),
@@ -94,6 +100,18 @@ def test_export_errors_name_the_cell(make_study, change, expected):
     with pytest.raises(DataError) as info:
         read_runs(reader, [RunSource(data="run-1.xlsx", header_row=2)], COLUMNS, TYPES, "T-1")
     assert str(info.value).startswith(expected)
+
+
+@pytest.mark.parametrize("area", [None, 0.0])
+def test_a_blank_without_internal_standard_has_no_ratio(make_study, area):
+    # ICH M10: a blank has neither analyte nor internal standard; its IS area may be missing or 0
+    reader, folder = reader_for(make_study)
+    rows = [list(r) for r in ROWS]
+    rows[2][5] = area
+    book(folder / "run-1.xlsx", rows)
+    blank = read_runs(reader, [RunSource(data="run-1.xlsx", header_row=2)], COLUMNS, TYPES, "T-1")[2]
+    assert (blank.type, blank.response, blank.analyte_response) == ("blank", None, 3.0)
+    assert blank.internal_standard_response == area
 
 
 def test_a_mapped_header_missing_from_the_export_is_named(make_study):

@@ -35,6 +35,11 @@ def test_the_bioanalytical_example_shows_the_set(outside):
     for name in ("matrix_effect", "carry_over", "selectivity", "stability", "dilution_integrity", "reanalysis"):
         assert name in analyte["characteristics_assessed"]
     assert results["guideline"]["name"] == "ich-m10" and all(v["used"] for v in results["guideline"]["values"])
+    # the sector characteristics read the injections of the three run exports (issue #15)
+    for name in ("matrix_effect", "carry_over", "selectivity", "stability", "dilution_integrity"):
+        assert analyte[name]["data_from"] == "runs" and name in analyte["runs"]["feeds"]
+    types = {b["run"]: b["type"] for b in analyte["carry_over"]["run_blanks"]}
+    assert types == {"run-1": "blank", "run-2": "blank", "run-3": "zero"}     # a zero sample: analyte part only
     ids = {c["id"].split("-")[0] for c in analyte["criteria"]}
     assert {"matrix", "carry", "selectivity", "stability", "dilution", "incurred"} <= ids
     html = (out / "dossier.html").read_text(encoding="utf-8")

@@ -44,6 +44,7 @@ lot = "Lot"
 [types]
 calibrator = ["Cal"]
 blank = ["Blank"]
+zero = ["Zero"]
 matrix_blank = ["Blank Lot"]
 low_level = ["Low"]
 """
@@ -160,6 +161,68 @@ def test_no_blank_after_the_highest_calibrator_is_not_applicable(tmp_path, outsi
     c = criterion(r, "carry-over")
     assert c["pass"] is None and c["note"].startswith("not applicable")
     assert any(n["item"].startswith("carry_over") for n in r["not_applicable"])
+
+
+@pytest.mark.parametrize("is_area", ["", "0"])
+def test_a_blank_without_internal_standard_serves_the_raw_area_checks_only(tmp_path, outside, is_area):
+    text = RUN_1.replace("DB-1,Blank,,12,30,", f"DB-1,Blank,,12,{is_area},")
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text}), outside))
+    db = next(i for i in r["runs"]["injections"] if i["sample"] == "DB-1")
+    # the ratio analyte/IS is undefined: no found value, the chain says why
+    assert db["response"] is None and db["found"] is None and "ratio analyte/IS is undefined" in db["reason"]
+    k = r["runs"]["injections"].index(db)
+    assert any(n["item"] == f"runs.injections.{k}" and "undefined" in n["reason"] for n in r["not_applicable"])
+    (b,) = r["carry_over"]["run_blanks"]
+    assert (b["blank"], b["type"]) == ("DB-1", "blank")
+    assert b["analyte_percent"] == pytest.approx(100 * 12 / 102, rel=1e-12)    # hand computation, as above
+    c = criterion(r, "carry-over-internal-standard")
+    if is_area == "0":
+        # hand computation: 100 x 0/998 = 0 %, judged
+        assert b["internal_standard_percent"] == 0.0 and c["pass"] is True
+    else:
+        # not given: not shown, not passed
+        assert b["internal_standard_percent"] is None and "row 7" in b["internal_standard_note"]
+        assert c["pass"] is None and c["note"].startswith("not applicable: no IS area is given for")
+        assert r["carry_over"]["internal_standard_note"] == b["internal_standard_note"]
+    # the LoB blanks are the analyte-free injections with a found value: DB-1 is not among them
+    assert "DB-1" not in {i["sample"] for i in r["runs"]["injections"] if i["found"] is not None}
+
+
+def test_a_zero_sample_after_the_highest_calibrator_is_judged_on_its_analyte_part(tmp_path, outside):
+    text = RUN_1.replace("DB-1,Blank,,12,30,", "DB-1,Zero,,12,990,")
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text, "run-2.csv": RUN_2}), outside))
+    co = r["carry_over"]
+    b1, b2 = co["run_blanks"]
+    assert (b1["blank"], b1["type"], b2["type"]) == ("DB-1", "zero", "blank")
+    # the zero sample's IS area is the internal standard added, not carry-over: analyte part only
+    assert b1["analyte_percent"] == pytest.approx(100 * 12 / 102, rel=1e-12)     # hand computation
+    assert b1["internal_standard_percent"] is None and "zero sample" in b1["internal_standard_note"]
+    assert b1["blank_internal_standard"] == 990
+    # the IS part on the blank of run 2 only: 100 x 25/1000 (hand computation)
+    assert co["internal_standard_percent"] == pytest.approx([2.5], rel=1e-12)
+    assert criterion(r, "carry-over-internal-standard")["pass"] is True
+    # a zero sample has a ratio and a found value (it feeds the limits of blank as a blank with IS)
+    zero = next(i for i in r["runs"]["injections"] if i["sample"] == "DB-1")
+    assert zero["response"] == pytest.approx(12 / 990, rel=1e-15) and zero["found"] is not None
+    # only zero samples: the IS part is not applicable, with the reason
+    alone = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text}), outside, "alone"))
+    c = criterion(alone, "carry-over-internal-standard")
+    assert c["pass"] is None and "only zero samples" in c["note"]
+    assert criterion(alone, "carry-over")["pass"] is True
+
+
+def test_a_calibrator_without_internal_standard_is_an_error(tmp_path):
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": RUN_1.replace("Cal 3,Cal,5,490,980,", "Cal 3,Cal,5,490,,")}))
+    assert str(err.value).startswith('run-1.csv, row 5, column "is area": the internal-standard area is missing; '
+                                     "a calibrator injection needs one")
+
+
+def test_a_matrix_blank_without_internal_standard_area_is_an_error_for_selectivity(tmp_path):
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": RUN_1.replace("MB-3,Blank Lot,,3,5,L3", "MB-3,Blank Lot,,3,,L3")}))
+    assert str(err.value).startswith('run-1.csv, row 12, column "is area": matrix blank "MB-3" has no '
+                                     "internal-standard area")
 
 
 def test_carry_over_pure_function_with_qcs_in_the_is_reference():
@@ -372,7 +435,7 @@ def test_the_dossier_says_where_the_numbers_came_from(tmp_path, outside):
     results = json.loads((out / "results.json").read_text(encoding="utf-8"))
     text = BeautifulSoup(html, "html.parser").get_text(" ")
     assert "Read from the run sequences" in text and "matrix-blank injection(s) of the runs" in text
-    assert "found values of the runs' blank and low_level injections" in text
+    assert "found values of the runs' blank, zero and low_level injections" in text
     assert "Carry-over (the run sequences)".lower() in text.lower()
     shown = 0
     for span in BeautifulSoup(html, "html.parser").select("span.n[data-src]"):
@@ -380,3 +443,116 @@ def test_the_dossier_says_where_the_numbers_came_from(tmp_path, outside):
             assert_correctly_rounded(span, lookup(results, span["data-src"]))
             shown += 1
     assert shown > 20
+
+
+# --- matrix lots, stability and dilution integrity from QC injections ------------------------------
+
+QC_HEADER = "Sample,Type,Level,Area,IS Area,Lot,Condition,Dil\n"
+QC_COLUMNS = 'condition = "Condition"\ndilution = "Dil"\n'
+QC_SECTORS = "\n[matrix_effect]\nmin_lots = 6\n\n[stability]\nmin_replicates = 3\n\n[dilution_integrity]\n"
+
+
+def qc_run(k: int) -> str:
+    """An invented run: 4 calibrators (area ratio ~ 0.1 x level), then QCs of 6 lots at 3 and 80, stored QCs
+    (fresh and after 3 freeze-thaw cycles) at 3 and 80, and QCs of 500 diluted 10-fold."""
+    rows = [f"Cal {lv},Cal,{lv},{100 * lv + 3 * k},1000,,," for lv in (1, 2, 5, 10, 50, 100)]
+    for j, lot in enumerate(("L1", "L2", "L3", "L4", "L5", "L6")):
+        for lv in (3, 80):
+            for rep in range(2):
+                area = 100 * lv * (1 + 0.01 * ((j + rep + k) % 5) - 0.02)
+                rows.append(f"M{lot}-{lv}-{rep},qc,{lv},{area:.3f},{1000 + 7 * rep},{lot},,")
+    for cond, shift in (("fresh", 0.0), ("freeze-thaw x3", -0.04)):
+        for lv in (3, 80):
+            for rep in range(2):
+                area = 100 * lv * (1 + shift + 0.01 * ((rep + k) % 3))
+                rows.append(f"S-{cond}-{lv}-{rep},qc,{lv},{area:.3f},1000,,{cond},")
+    for rep in range(3):
+        rows.append(f"D-{rep},qc,500,{100 * 50 * (1 + 0.01 * (rep - 1 + k)):.3f},1000,,,10")
+    return QC_HEADER + "".join(r + "\n" for r in rows)
+
+
+def test_matrix_lots_stability_and_dilution_from_runs_equal_the_own_files(tmp_path, outside):
+    runs_dir, file_dir = tmp_path / "runs", tmp_path / "file"
+    runs_dir.mkdir(), file_dir.mkdir()
+    a = analyte(run_json(write_runs(runs_dir, {"run-1.csv": qc_run(0), "run-2.csv": qc_run(1)}, order=QC_COLUMNS,
+                                    sectors=QC_SECTORS), outside, "a"))
+    injections = a["runs"]["injections"]
+    lots = [i for i in injections if "lot" in i]
+    stored = [i for i in injections if "condition" in i]
+    diluted = [i for i in injections if "dilution" in i]
+    assert (len(lots), len(stored), len(diluted)) == (48, 16, 6)
+    assert {"matrix_effect", "stability", "dilution_integrity"} <= set(a["runs"]["feeds"])
+    assert "precision" not in a["runs"]["feeds"]         # such QCs serve their sector table only
+    # the chain for one QC (hand computation: the inverse of its run's straight line, ISO 8466-1 sec. 6)
+    cal = {c["run"]: c for c in a["runs"]["calibrations"]}
+    q = diluted[-1]
+    assert q["found"] == pytest.approx((q["response"] - cal[q["run"]]["intercept"]) / cal[q["run"]]["slope"],
+                                       rel=1e-12)
+    (file_dir / "lots.csv").write_text("lot,nominal,found\n" + "".join(
+        f"{i['lot']},{i['level']!r},{i['found']!r}\n" for i in lots), encoding="utf-8")
+    (file_dir / "stability.csv").write_text("condition,nominal,found\n" + "".join(
+        f"{i['condition']},{i['level']!r},{i['found']!r}\n" for i in stored), encoding="utf-8")
+    (file_dir / "dilution.csv").write_text("factor,nominal,found\n" + "".join(
+        f"{i['dilution']!r},{i['level']!r},{i['found']!r}\n" for i in diluted), encoding="utf-8")
+    (file_dir / "calibration.csv").write_text("concentration,response\n1,1\n2,2.1\n5,4.9\n10,10.1\n", encoding="utf-8")
+    (file_dir / "study.toml").write_text(
+        '[study]\nid = "SR-4"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area"\n'
+        '[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nmin_lots = 6\nlots_data = "lots.csv"\n'
+        '[stability]\nmin_replicates = 3\ndata = "stability.csv"\n[dilution_integrity]\ndata = "dilution.csv"\n',
+        encoding="utf-8")
+    b = analyte(run_json(file_dir / "study.toml", outside, "b"))
+    for name in ("matrix_effect", "stability", "dilution_integrity"):
+        assert (a[name]["data_from"], b[name]["data_from"]) == ("runs", "file")
+        assert _close(_without(a[name]), _without(b[name]))
+    # hand computation, ICH M10 lot accuracy: 100 x mean found / nominal, lot L1 at 3
+    l1 = [i["found"] for i in lots if i["lot"] == "L1" and i["level"] == 3]
+    lv = next(x for x in a["matrix_effect"]["lots"] if x["nominal"] == 3)
+    first = next(x for x in lv["lots"] if x["lot"] == "L1")
+    assert first["accuracy_percent"] == pytest.approx(100 * sum(l1) / len(l1) / 3, rel=1e-12)
+    # dilution: back-calculated = found x 10 (hand computation)
+    assert a["dilution_integrity"]["levels"][0]["back_calculated"] == pytest.approx(
+        [10 * i["found"] for i in diluted], rel=1e-15)
+    ids = {c["id"] for c in a["criteria"]}
+    assert {"matrix-lots-3", "matrix-lots-80", "stability-freeze-thaw-x3-3", "dilution-accuracy-10x-500"} <= ids
+
+
+@pytest.mark.parametrize("edit, expected", [
+    (lambda t: t.replace(",,freeze-thaw x3,", ",L1,freeze-thaw x3,", 1),
+     "a QC injection serves one of matrix lots (lot), stability (condition) and dilution integrity (dilution)"),
+    (lambda t: t.replace("Cal 1,Cal,1,100,1000,,,", "Cal 1,Cal,1,100,1000,,,2"),
+     "a dilution factor other than 1 is read for QC injections only"),
+    (lambda t: t.replace(",,,10\n", ",,,0.5\n", 1), "the dilution factor 0.5 is below 1"),
+    (lambda t: t.replace("Cal 2,Cal,2,200,1000,,,", "Cal 2,Cal,2,200,1000,,bench,"),
+     "a storage condition is read for QC injections only"),
+])
+def test_qc_roles_errors_name_the_row(tmp_path, edit, expected):
+    study = write_runs(tmp_path, {"run-1.csv": edit(qc_run(0))}, order=QC_COLUMNS, sectors=QC_SECTORS)
+    with pytest.raises(DataError) as err:
+        load_study(study)
+    assert str(err.value).startswith("run-1.csv, row ") and expected in str(err.value)
+
+
+def test_qcs_with_a_lot_need_a_matrix_effect_table_reading_the_runs(tmp_path):
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": qc_run(0)}, order=QC_COLUMNS,
+                              sectors="\n[stability]\n[dilution_integrity]\n"))
+    assert "QC injections with a lot" in str(err.value) and "[matrix_effect]" in str(err.value)
+    assert str(err.value).startswith("run-1.csv, row 8")
+
+
+def test_fresh_reference_needs_fresh_qcs_at_each_level(tmp_path):
+    text = qc_run(0).replace(",fresh,", ",bench 4 h,")
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": text}, order=QC_COLUMNS,
+                              sectors=QC_SECTORS.replace("[stability]\n", '[stability]\nreference = "fresh"\n')))
+    assert 'reference = "fresh" but nominal 3 has no QC of condition "fresh"' in str(err.value)
+
+
+def test_the_dossier_says_the_qc_studies_came_from_the_runs(tmp_path, outside):
+    out = outside / "html"
+    study = write_runs(tmp_path, {"run-1.csv": qc_run(0), "run-2.csv": qc_run(1)}, order=QC_COLUMNS, sectors=QC_SECTORS)
+    assert main(["run", str(study), "--out", str(out), "--format", "html,json"]) in (0, 1)
+    text = BeautifulSoup(next(out.glob("*.html")).read_text(encoding="utf-8"), "html.parser").get_text(" ")
+    for what in ("have a lot", "have a storage condition", "have a dilution factor"):
+        assert f"the runs' QC injections that {what}" in text
+    assert "the matrix effect (QCs of each lot)" in text and "dilution integrity (diluted QCs)" in text

@@ -3,16 +3,19 @@
 A validation is a set of runs. Each ``[[runs]]`` table names one export (CSV or one .xlsx
 sheet), read untouched: ``[columns]`` says which of its headers holds each field the tool
 reads (sample, type, level, response, internal standard, analyte, run, day, and the optional
-order and lot), ``[types]`` which of its words means which injection type (the export's "Cal
+order, lot, condition and dilution), ``[types]`` which of its words means which injection type (the export's "Cal
 Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
-(calibrator, blank, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
+(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
 level (the nominal concentration of a calibrator or QC, the added amount of a spiked sample),
 its response, its lot and its place in the run's sequence (the ``order`` column, else the row).
 When an internal-standard column is mapped, the response is the ratio analyte / internal
 standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
-or negative internal-standard area is an error naming the row.
+or negative internal-standard area is an error naming the row, except that a blank or a
+matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0: its ratio
+is then undefined (``response`` None) and it serves the checks on raw areas only. A zero
+sample (type ``zero``: blank matrix with the internal standard) needs its IS area.
 
 Quantification (a response read back through its run's calibration) is analysis and happens
 downstream; this module only reads.
@@ -24,7 +27,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
-from .study import INJECTION_TYPES
+from .study import BLANK_TYPES, INJECTION_TYPES
 from .tables import MAX_NAME_LENGTH
 
 __all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
@@ -46,10 +49,13 @@ class Injection:
         :data:`validator.inputs.study.INJECTION_TYPES`).
     level : float or None
         Nominal concentration (calibrator, QC) or added amount (spiked); None when not given.
-    response : float
-        What is calibrated: the analyte's response, or its ratio to the internal standard.
+    response : float or None
+        What is calibrated: the analyte's response, or its ratio to the internal standard; None
+        for a blank or matrix blank with no internal-standard area (missing, or 0): the ratio is
+        undefined and the injection serves the checks on raw areas only (carry-over, selectivity).
     analyte_response, internal_standard_response : float, float or None
-        The raw areas (heights) as read; the second is None without an internal standard.
+        The raw areas (heights) as read; the second is None without an internal standard, or
+        when a blank's IS area is not given.
     file, sheet, row : str, str or None, int
         Where the injection is: the export as named in the study, the sheet of a workbook,
         the file row (CSV line, header = row 1) or sheet row.
@@ -61,7 +67,7 @@ class Injection:
     sample: str
     type: str
     level: float | None
-    response: float
+    response: float | None
     analyte_response: float
     internal_standard_response: float | None
     file: str
@@ -70,6 +76,8 @@ class Injection:
     matrix: str = ""             # spiked: the unspiked injections' sample id giving the native level ("": none)
     lot: str = ""                # the matrix lot ([columns] lot; "": not given)
     position: float = 0.0        # the place in the run's sequence: [columns] order, else the row
+    condition: str = ""          # a QC's storage condition ([columns] condition; "": not given)
+    dilution: float | None = None    # a diluted QC's dilution factor, above 1 ([columns] dilution; None: not diluted)
 
 
 def _subset(table, idx: list):
@@ -246,15 +254,23 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     internal = [None] * len(table)
     if mapped["internal_standard"]:
         column = mapped["internal_standard"]
+        # a blank (no analyte, no internal standard) may have no IS area, or 0: its ratio is undefined
         for i, (cell, row) in enumerate(zip(table.columns[column], table.rows)):
-            if cell.strip() == "":
-                raise _error(table, "the internal-standard area is missing; every injection needs one to compute "
-                             "the response ratio", row=row, column=column, value=cell)
-        internal = table.numbers(column)
-        for value, row in zip(internal, table.rows):
-            if not value > 0:
-                raise _error(table, f"the internal-standard area is {value:g}; the response ratio needs an area "
-                             "above zero", row=row, column=column, value=value)
+            if cell.strip() == "" and kinds[i] not in BLANK_TYPES:
+                raise _error(table, f"the internal-standard area is missing; a {kinds[i]} injection needs one to "
+                             "compute the response ratio (only blank and matrix_blank injections may have none)",
+                             row=row, column=column, value=cell)
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, value in zip(given, _subset(table, given).numbers(column)):
+            internal[i] = value
+        for value, kind, row in zip(internal, kinds, table.rows):
+            if value is None:
+                continue
+            if value < 0 or (not value > 0 and kind not in BLANK_TYPES):
+                raise _error(table, f"the internal-standard area is {value:g}; the response ratio of a {kind} "
+                             "injection needs an area above zero" + ("" if value < 0 else
+                             " (only blank and matrix_blank injections may have none)"),
+                             row=row, column=column, value=value)
 
     levels = [None] * len(table)
     if mapped["level"] and table.has(mapped["level"]):
@@ -284,6 +300,36 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         if kind == "matrix_blank" and not lots[i]:
             raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
                          row=row, column=mapped["lot"] or "lot", value=lots[i])
+    conditions = [""] * len(table)
+    if mapped["condition"] and table.has(mapped["condition"]):
+        column = mapped["condition"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
+            conditions[i] = text.strip()
+            if kinds[i] != "qc":
+                raise _error(table, f"a storage condition is read for QC injections only (stability), not for a "
+                             f"{kinds[i]} injection", row=table.rows[i], column=column, value=text)
+    dilutions = [None] * len(table)
+    if mapped["dilution"] and table.has(mapped["dilution"]):
+        column = mapped["dilution"]
+        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        for i, value in zip(given, _subset(table, given).numbers(column)):
+            row = table.rows[i]
+            if not value >= 1:
+                raise _error(table, f"the dilution factor {value:g} is below 1", row=row, column=column, value=value)
+            if value == 1:
+                continue                 # not diluted
+            if kinds[i] != "qc":
+                raise _error(table, f"a dilution factor other than 1 is read for QC injections only (dilution "
+                             f"integrity), not for a {kinds[i]} injection; give a sample's dilution in "
+                             "[sample_preparation]", row=row, column=column, value=value)
+            dilutions[i] = value
+    for i, row in enumerate(table.rows):
+        roles = [f for f, v in (("lot", lots[i]), ("condition", conditions[i]), ("dilution", dilutions[i])) if v]
+        if kinds[i] == "qc" and len(roles) > 1:
+            raise _error(table, "a QC injection serves one of matrix lots (lot), stability (condition) and "
+                         f"dilution integrity (dilution); this one has {' and '.join(roles)}", row=row,
+                         column=mapped[roles[1]])
     positions = [float(r) for r in table.rows]
     if mapped["order"] and table.has(mapped["order"]):
         column = mapped["order"]
@@ -303,12 +349,26 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
 
     out = []
     for i, row in enumerate(table.rows):
-        ratio = response[i] if internal[i] is None else response[i] / internal[i]
+        if not mapped["internal_standard"]:
+            ratio = response[i]
+        else:             # a blank without an IS area has no ratio: used for its raw areas only
+            ratio = response[i] / internal[i] if internal[i] else None
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
-                             lot=lots[i], position=float(positions[i])))
+                             lot=lots[i], position=float(positions[i]), condition=conditions[i],
+                             dilution=dilutions[i]))
     return out
+
+
+def _qc_role(inj) -> str:
+    """The sector table a QC injection feeds instead of precision ("" for any other injection): one with a
+    lot the matrix effect, with a condition stability, with a dilution factor dilution integrity."""
+    from .study import QC_ROLES
+
+    if inj.type != "qc":
+        return ""
+    return next((table for column, table in QC_ROLES.items() if getattr(inj, column, None)), "")
 
 
 def _check_labels(injections, study: str) -> None:
@@ -389,7 +449,12 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
     header = (cfg.columns or ColumnsSection()).level
     calibrated = {i.run for i in own if i.type == "calibrator"}
     if fed_by_runs(cfg, "selectivity"):
+        internal = (cfg.columns or ColumnsSection()).internal_standard
         for inj in own:
+            if inj.type == "matrix_blank" and internal and inj.internal_standard_response is None:
+                raise DataError(f'matrix blank "{show(inj.sample)}" has no internal-standard area; selectivity '
+                                "compares it with the IS area of the run's lowest calibrators: write 0 when no IS "
+                                "peak was found", file=inj.file, row=inj.row, column=internal.strip().lower())
             if inj.type == "matrix_blank" and inj.run not in calibrated:
                 raise DataError(f'matrix blank "{show(inj.sample)}" is in run "{show(inj.run)}", which has no '
                                 f'calibrator of analyte "{show(inj.analyte)}": selectivity compares it with its own '
@@ -401,6 +466,24 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 raise DataError(f'the lowest calibrators of run "{show(run)}" have no response above zero; '
                                 "selectivity compares the matrix blanks with it", file=lowest[0].file,
                                 row=lowest[0].row, value=lowest[0].analyte_response)
+    if fed_by_runs(cfg, "stability"):
+        from .sector_names import slug
+        cond = (cfg.columns or ColumnsSection()).condition
+        stored = [i for i in own if i.type == "qc" and i.condition]
+        seen: dict = {}
+        for inj in stored:
+            first = seen.setdefault(slug(inj.condition), inj)
+            if first.condition != inj.condition:
+                raise DataError(f'condition "{show(inj.condition)}" and "{show(first.condition)}" ({show(first.file)} '
+                                f"row {first.row}) differ only in letter case or punctuation and would give one "
+                                "criterion id; write it one way", file=inj.file, row=inj.row,
+                                column=cond.strip().lower(), value=inj.condition)
+        if cfg.stability.reference == "fresh":
+            fresh = {i.level for i in stored if i.condition.casefold() == "fresh"}
+            for inj in stored:
+                if inj.level not in fresh:
+                    raise DataError(f'reference = "fresh" but nominal {inj.level:g} has no QC of condition "fresh" '
+                                    "to compare with", file=inj.file, row=inj.row, column=header, value=inj.level)
     low = [i for i in own if i.type == "low_level" and i.level is not None]
     if fed_by_runs(cfg, "limit_of_blank"):
         first: dict = {}
@@ -469,7 +552,7 @@ def load_runs(reader) -> RunsData:
                                 f"(its {by} is {i.level if by == 'concentration' else i.response:g}); use another "
                                 "weighting or leave the injection out ([[exclusions]])", file=i.file, row=i.row)
         calibration[name] = CalibrationData(x, y, tuple(i.run for i in cal), tuple(i.row for i in cal))
-        blank = [i.response for i in own if i.type == "blank"]
+        blank = [i.response for i in own if i.type in ("blank", "zero") and i.response is not None]
         if blank:
             blanks[name] = np.array(blank, float)
         samples = [i for i in own if i.type == "sample"]
@@ -484,7 +567,7 @@ def load_runs(reader) -> RunsData:
                                                                  rows=[i.row for i in own_file], file=file))
     for kind, table, what in (("spiked", "recovery", "its acceptance range"), ("qc", "precision", "its limits"),
                               ("reference", "reference_material", "the certified value")):
-        first = next((i for i in injections if i.type == kind), None)
+        first = next((i for i in injections if i.type == kind and not _qc_role(i)), None)
         if first is not None and getattr(cfg, table) is None:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
                             f"[{table}] table; add it with {what}", file=first.file, row=first.row)
@@ -496,6 +579,13 @@ def load_runs(reader) -> RunsData:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
                             "takes its data from the runs; add one without a data file of its own",
                             file=first.file, row=first.row)
+    from .study import QC_ROLES
+    for column, table in QC_ROLES.items():
+        first = next((i for i in injections if i.type == "qc" and getattr(i, column)), None)
+        if first is not None and not fed_by_runs(cfg, table):
+            raise DataError(f'the runs have QC injections with a {column} (first: "{show(first.sample)}") but no '
+                            f"[{table}] table takes its data from the runs; add one without a data file of its own "
+                            f"(or leave the {column} column unmapped)", file=first.file, row=first.row)
     for own in grouped.values():
         _check_sector_injections(own, cfg, pooled)
     design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()

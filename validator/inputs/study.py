@@ -211,8 +211,12 @@ def check_range(v, name: str = "range_pct"):
 
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
 
-INJECTION_TYPES = ("calibrator", "blank", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
+INJECTION_TYPES = ("calibrator", "blank", "zero", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
                    "low_level")
+# ICH M10's words: a blank has neither analyte nor internal standard, a zero sample the internal standard only.
+# The blank types may have no internal-standard area (missing, or 0): their ratio response is then undefined
+# and they serve the checks on raw areas only (carry-over, selectivity)
+BLANK_TYPES = ("blank", "matrix_blank")
 # a run or day label, or a header name of an export
 Label = Annotated[str, Field(min_length=1, max_length=200, pattern=r"\S"), AfterValidator(_no_control)]
 
@@ -241,8 +245,13 @@ class ColumnsSection(_Section):
     day: Optional[Label] = None
     # the injection's position in its run's sequence (default: the row order of the export)
     order: Optional[Label] = None
-    # the matrix lot (or source) of a matrix blank (selectivity) or a low-level sample (EP17)
+    # the matrix lot (or source) of a matrix blank (selectivity), a low-level sample (EP17) or a QC
+    # prepared in one lot (matrix effect, ICH M10)
     lot: Optional[Label] = None
+    # a QC's storage condition (stability: "fresh" for the comparison samples), and a QC's dilution
+    # factor (dilution integrity: found in the diluted sample, before the factor)
+    condition: Optional[Label] = None
+    dilution: Optional[Label] = None
 
     @model_validator(mode="after")
     def _distinct(self):
@@ -271,7 +280,9 @@ class TypesSection(_Section):
     unspiked: Words = ["unspiked"]
     reference: Words = ["reference"]
     sample: Words = ["sample"]
-    # no default words: a blank matrix of one lot (selectivity), a sample at a low level (EP17, MDL)
+    # no default words: a blank matrix with the internal standard only (a zero sample), a blank matrix of one
+    # lot (selectivity), a sample at a low level (EP17, MDL)
+    zero: Words = []
     matrix_blank: Words = []
     low_level: Words = []
 
@@ -707,7 +718,12 @@ RUN_FED = ("calibration", "samples", "blanks", "recovery", "precision", "referen
 # sector tables whose data files are left out when the injections of [[runs]] give their data instead:
 # table -> its file keys (all given: the table reads its own files; all left out: the runs feed it)
 RUN_FED_SECTOR = {"carry_over": ("data",), "selectivity": ("data",), "limit_of_blank": ("blanks", "low_samples"),
-                  "method_detection_limit": ("spiked", "blanks")}
+                  "method_detection_limit": ("spiked", "blanks"), "matrix_effect": ("lots_data",),
+                  "stability": ("data",), "dilution_integrity": ("data",)}
+# file keys a table may leave out even without [[runs]] (its other files or parts stand alone)
+_OPTIONAL_FILE_KEYS = ("low_samples", "lots_data")
+# the QC injections a sector table reads from the runs: the [columns] field that marks them -> the table
+QC_ROLES = {"lot": "matrix_effect", "condition": "stability", "dilution": "dilution_integrity"}
 
 
 def fed_by_runs(config, name: str) -> bool:
@@ -725,7 +741,12 @@ def _check_sector_sources(config, shown: str, text: str) -> None:
         if table is None:
             continue
         given = [k for k in keys if getattr(table, k) is not None]
-        required = [k for k in keys if k != "low_samples"]
+        required = [k for k in keys if k not in _OPTIONAL_FILE_KEYS]
+        if name == "matrix_effect" and not runs and all(getattr(table, k) is None for k in
+                                                        ("solvent_data", "lots_data", "factor_data")):
+            raise StudyError("give at least one of solvent_data, lots_data and factor_data (or, with [[runs]], "
+                             "leave lots_data out to read the QC injections that have a lot)", file=shown,
+                             line=_key_line(text, (name,)), key=name)
         if not runs:
             for key in required:
                 if getattr(table, key) is None:

@@ -57,6 +57,7 @@ class CarryOverBlank:
 
     run: str
     blank: str                            # the blank's sample name ("" when the run has none)
+    type: str                             # "blank" (no IS), "zero" (IS only: analyte part only), "" when none
     file: str
     sheet: str | None = field(metadata={"omit_none": True})
     row: int | None                       # the blank's row
@@ -72,10 +73,13 @@ class CarryOverBlank:
     blank_internal_standard: float | None = field(metadata={"null_reason": "internal_standard_reason"})
     internal_standard_percent: float | None = field(metadata={"null_reason": "internal_standard_reason"})
     reason: str = ""
+    # why this blank's IS part is not judged while its analyte part is (a zero sample, no IS area given)
+    internal_standard_note: str = ""
 
     @property
     def internal_standard_reason(self) -> str:
-        return self.reason or "no internal standard is mapped, so the IS part is not judged"
+        return (self.reason or self.internal_standard_note
+                or "no internal standard is mapped, so the IS part is not judged")
 
 
 @dataclass(frozen=True)
@@ -99,10 +103,13 @@ class CarryOver:
     reason: str = ""
     data_from: str = "file"
     run_blanks: tuple[CarryOverBlank, ...] = ()
+    # from runs: why the IS part is not judged although the analyte part is ("" when it is, or no IS)
+    internal_standard_note: str = ""
 
     @property
     def internal_standard_reason(self) -> str:
-        return self.reason or "no internal-standard responses were given, so the IS part is not judged"
+        return (self.reason or self.internal_standard_note
+                or "no internal-standard responses were given, so the IS part is not judged")
 
 
 def carry_over(blank_after_highest, lloq_response, *, blank_internal_standard=None,

@@ -29,10 +29,16 @@ def _describe(inj) -> str:
     return f'"{inj.sample}" ({inj.type}, {inj.file} row {inj.row})'
 
 
+# the injection types that may follow the highest calibrator as a carry-over blank
+CARRY_OVER_BLANKS = ("blank", "zero")
+ZERO_NOTE = ("a zero sample (blank matrix with the internal standard): its IS area is the internal standard "
+             "added, not carry-over, so only its analyte part is judged")
+
+
 def _run_blanks(run: str, own: list) -> list[CarryOverBlank]:
     """The blanks injected right after the run's highest calibrator, or one entry saying why there is none."""
     first = own[0]
-    none = dict(run=run, blank="", file=first.file, sheet=first.sheet, row=None, after="", after_row=None,
+    none = dict(run=run, blank="", type="", file=first.file, sheet=first.sheet, row=None, after="", after_row=None,
                 highest_level=None, lloq_level=None, lloq_injections=0, lloq_response=None, blank_response=None,
                 analyte_percent=None, internal_standard_reference=None, blank_internal_standard=None,
                 internal_standard_percent=None)
@@ -46,38 +52,45 @@ def _run_blanks(run: str, own: list) -> list[CarryOverBlank]:
     none.update(highest_level=float(highest), lloq_level=float(lowest), lloq_injections=len(lloq),
                 lloq_response=lloq_mean)
     tops = [k for k, i in enumerate(own) if i.type == "calibrator" and i.level == highest]
-    pairs = [(own[k], own[k + 1]) for k in tops if k + 1 < len(own) and own[k + 1].type == "blank"]
+    pairs = [(own[k], own[k + 1]) for k in tops if k + 1 < len(own) and own[k + 1].type in CARRY_OVER_BLANKS]
     if not pairs:
         last = own[tops[-1]]
         after = own[tops[-1] + 1] if tops[-1] + 1 < len(own) else None
         what = ("is the run's last injection" if after is None
-                else f"is followed by {_describe(after)}, not a blank")
+                else f"is followed by {_describe(after)}, not a blank or zero sample")
         return [CarryOverBlank(**{**none, "after": last.sample, "after_row": last.row},
                                reason=f'no blank was injected right after the highest calibrator of run "{run}": '
                                       f"{_describe(last)} {what}")]
     if not lloq_mean >= 1 / MAX_MAGNITUDE:        # the smallest reference the percentage takes
         return [CarryOverBlank(**none, reason=f'the mean response of the lowest calibrators of run "{run}" is '
                                               f"{lloq_mean:g}; no percentage of it exists")]
-    with_is = all(i.internal_standard_response is not None for i in own)
-    is_ref = None
-    if with_is:
-        spiked = [i.internal_standard_response for i in own if i.type in ("calibrator", "qc")]
-        is_ref = float(np.mean(spiked))
+    # the internal standard is mapped when the calibrators have IS areas (they always do then)
+    spiked = [i.internal_standard_response for i in own if i.type in ("calibrator", "qc")]
+    with_is = all(v is not None for v in spiked)
+    is_ref = float(np.mean(spiked)) if with_is else None
     out = []
     for top, blank in pairs:
+        note = ""
+        if with_is and blank.type == "zero":
+            note = ZERO_NOTE
+        elif with_is and blank.internal_standard_response is None:
+            note = (f"no IS area is given for {_describe(blank)}, so its IS part is not judged (write 0 when no "
+                    "IS peak was found)")
+        judged_is = with_is and not note
         r = carry_over([blank.analyte_response], [i.analyte_response for i in lloq],
-                       blank_internal_standard=[blank.internal_standard_response] if with_is else None,
-                       internal_standard_response=[i.internal_standard_response for i in own
-                                                   if i.type in ("calibrator", "qc")] if with_is else None)
-        out.append(CarryOverBlank(**{**none, "blank": blank.sample, "file": blank.file, "sheet": blank.sheet,
-                                     "row": blank.row, "after": top.sample, "after_row": top.row,
-                                     "blank_response": float(blank.analyte_response),
+                       blank_internal_standard=[blank.internal_standard_response] if judged_is else None,
+                       internal_standard_response=spiked if judged_is else None)
+        out.append(CarryOverBlank(**{**none, "blank": blank.sample, "type": blank.type, "file": blank.file,
+                                     "sheet": blank.sheet, "row": blank.row, "after": top.sample,
+                                     "after_row": top.row, "blank_response": float(blank.analyte_response),
                                      "analyte_percent": r.analyte_percent[0],
                                      "internal_standard_reference": is_ref,
-                                     "blank_internal_standard": (float(blank.internal_standard_response)
-                                                                 if with_is else None),
+                                     "blank_internal_standard": (None if blank.internal_standard_response is None
+                                                                 or not with_is
+                                                                 else float(blank.internal_standard_response)),
                                      "internal_standard_percent": (r.internal_standard_percent[0]
-                                                                   if with_is else None)}))
+                                                                   if judged_is else None)},
+                                  internal_standard_note=note))
     return out
 
 
@@ -95,12 +108,16 @@ def carry_over_from_runs(injections, *, analyte_limit_pct: float, internal_stand
     -----
     In each run, in the order of ``position`` (the export's row order, or its mapped order
     column; injections left out by [[exclusions]] are not in the sequence), every injection of
-    type blank that comes right after a calibrator at the run's highest level is a carry-over
-    blank. Its analyte response (the raw area, not the ratio to the internal standard) as
+    type blank or zero that comes right after a calibrator at the run's highest level is a
+    carry-over blank. Its analyte response (the raw area, not the ratio to the internal standard) as
     % = 100 x blank / mean analyte response of the run's calibrators at the lowest level (the
     LLOQ); with an internal standard, the blank's IS response as % of the mean IS response of the
     run's calibrators and QCs. ICH M10 sec. 3.2.6 (from memory: analyte <= 20 % of the LLOQ,
-    IS <= 5 %). A run with no blank right after its highest calibrator is listed with the reason;
+    IS <= 5 %). The IS part needs a blank without internal standard (type blank, ICH M10's
+    "blank sample"): a zero sample (type zero, internal standard added) is judged on its analyte
+    part only, and a blank with no IS area given has no IS part; the IS criterion is then judged
+    on the other blanks only when every blank has one, else not at all (with the reason).
+    A run with no blank right after its highest calibrator is listed with the reason;
     with no such blank in any run the carry-over is not judged (``passed`` None).
     """
     runs: dict = {}
@@ -116,20 +133,32 @@ def carry_over_from_runs(injections, *, analyte_limit_pct: float, internal_stand
                          internal_standard_limit_percent=float(internal_standard_limit_pct), passed=None,
                          reason="; ".join(r.reason for r in rows), data_from="runs", run_blanks=tuple(rows))
     a_pct = tuple(r.analyte_percent for r in judged)
-    i_pct = (tuple(r.internal_standard_percent for r in judged)
-             if all(r.internal_standard_percent is not None for r in judged) else None)
+    with_is = any(r.internal_standard_reference is not None for r in judged)
+    blanks = [r for r in judged if r.type == "blank"]
+    missing = [r for r in blanks if r.internal_standard_percent is None]
+    note = ""
+    i_pct = None
+    if with_is:
+        if missing:
+            note = "; ".join(r.internal_standard_note for r in missing)
+        elif not blanks:
+            note = ("only zero samples (internal standard added) follow the highest calibrators: there is no blank "
+                    "without internal standard to judge the IS part on")
+        else:
+            i_pct = tuple(r.internal_standard_percent for r in blanks)
     max_i = None if i_pct is None else max(i_pct)
     passed = bool(not_above(max(a_pct), analyte_limit_pct)
                   and (max_i is None or not_above(max_i, internal_standard_limit_pct)))
     return CarryOver(analyte_percent=a_pct, internal_standard_percent=i_pct, max_analyte_percent=max(a_pct),
                      max_internal_standard_percent=max_i, analyte_limit_percent=float(analyte_limit_pct),
                      internal_standard_limit_percent=float(internal_standard_limit_pct), passed=passed,
-                     data_from="runs", run_blanks=tuple(rows))
+                     data_from="runs", run_blanks=tuple(rows), internal_standard_note=note)
 
 
 def carry_over_criteria(result: CarryOver) -> tuple[Criterion, ...]:
     """``carry-over`` (largest blank, % of the LLOQ response) and, with IS responses,
-    ``carry-over-internal-standard``; not applicable (with the reason) when no blank was found."""
+    ``carry-over-internal-standard``; not applicable (with the reason) when no blank was found, and
+    the IS part alone when an IS is mapped but no blank without it shows its IS area."""
     note = f"not applicable: {result.reason}" if result.max_analyte_percent is None else ""
     out = [Criterion("carry-over", f"largest blank after the highest calibrator at most {result.analyte_limit_percent:g} % "
                      "of the mean LLOQ analyte response", result.max_analyte_percent, result.analyte_limit_percent,
@@ -140,4 +169,9 @@ def carry_over_criteria(result: CarryOver) -> tuple[Criterion, ...]:
                              "of the mean IS response", result.max_internal_standard_percent,
                              result.internal_standard_limit_percent,
                              at_most(result.max_internal_standard_percent, result.internal_standard_limit_percent)))
+    elif result.internal_standard_note:        # an IS is mapped, but no blank without it can show its part
+        out.append(Criterion("carry-over-internal-standard",
+                             f"largest IS response in those blanks at most {result.internal_standard_limit_percent:g} % "
+                             "of the mean IS response", None, result.internal_standard_limit_percent, None,
+                             f"not applicable: {result.internal_standard_note}"))
     return tuple(out)

@@ -11,10 +11,12 @@ def sentences(entry: dict, reading) -> dict:
     out = {}
     if entry.get("data_from") == "runs":
         blanks = [b for b in entry["run_blanks"] if b["analyte_percent"] is not None]
-        out["source"] = ("Read from the run sequences: in each run, the blank injected right after the highest "
-                         "calibrator, against the mean response of that run's lowest calibrators (LLOQ)"
-                         + (" and the mean internal-standard response of its calibrators and QCs" if
-                            entry["internal_standard_percent"] is not None else "")
+        out["source"] = ("Read from the run sequences: in each run, the blank (or zero sample) injected right "
+                         "after the highest calibrator, against the mean response of that run's lowest calibrators "
+                         "(LLOQ)"
+                         + (" and, for a blank without internal standard, the mean internal-standard response of "
+                            "its calibrators and QCs" if
+                            any(b["internal_standard_reference"] is not None for b in entry["run_blanks"]) else "")
                          + f"; {len(blanks)} such blank(s) in {len({b['run'] for b in entry['run_blanks']})} run(s).")
         missing = [b["reason"] for b in entry["run_blanks"] if b["analyte_percent"] is None]
         if missing and blanks:
@@ -33,6 +35,8 @@ def sentences(entry: dict, reading) -> dict:
         out["internal_standard"] = (f"At the internal standard's retention the largest is "
                                     f"{fmt(entry['max_internal_standard_percent'], 3)} % of the mean IS response, {word} "
                                     f"{fmt(entry['internal_standard_limit_percent'])} %.")
+    elif entry.get("internal_standard_note"):
+        out["internal_standard"] = f"The internal-standard part is not judged: {entry['internal_standard_note']}."
     return out
 
 

@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
+import numpy as np
+
 from .._entry import Assessment, Characteristic
+from ..runs.analysis import RunsResult, study_qc_found
 from . import presentation, settings
 from .analysis import DilutionResult, assess_dilution, dilution_criteria
 from .settings import DilutionData, DilutionIntegritySection
@@ -16,7 +21,15 @@ def assess(ctx) -> Assessment[DilutionResult] | None:
     s: DilutionIntegritySection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
+    from_runs = isinstance(data, RunsResult)
+    if from_runs:                 # no file of its own: the runs' QC injections with a dilution factor
+        qc = study_qc_found(data, "dilution")
+        if qc is None:
+            return None
+        data = DilutionData(np.array(qc.labels, float), qc.nominal, qc.found)
     result = assess_dilution(data, max_bias_pct=s.max_bias_pct, max_cv_pct=s.max_cv_pct, min_replicates=s.min_replicates)
+    if from_runs:
+        result = replace(result, data_from="runs")
     return Assessment(result, dilution_criteria(result))
 
 

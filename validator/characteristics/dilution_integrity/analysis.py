@@ -14,6 +14,9 @@ __all__ = ["DilutionResult", "assess_dilution", "dilution_criteria"]
 @dataclass(frozen=True)
 class DilutionResult:
     levels: tuple[DilutionIntegrity, ...]       # one per (factor, nominal), in order of appearance
+    # "file" (the [dilution_integrity] data file) or "runs" (the QC injections of [[runs]] with a dilution
+    # factor; found = read back through the run's calibration, before the factor)
+    data_from: str = "file"
 
 
 def assess_dilution(data, *, max_bias_pct: float, max_cv_pct: float, min_replicates: int) -> DilutionResult:

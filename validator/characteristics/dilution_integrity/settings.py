@@ -10,6 +10,7 @@ data = "dilution.csv"   # columns factor (>= 1), nominal (of the undiluted over-
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import ClassVar, Optional
 
 import numpy as np
 from pydantic import Field
@@ -20,7 +21,8 @@ __all__ = ["DilutionIntegritySection", "DilutionData", "load"]
 
 
 class DilutionIntegritySection(_Section):
-    data: DataPath
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    data: Optional[DataPath] = None       # required unless [[runs]] give the data (left out with [[runs]]: the QC injections that have a dilution factor)
     max_bias_pct: float = Field(15.0, gt=0, le=100)
     max_cv_pct: float = Field(15.0, gt=0, le=100)
     min_replicates: int = Field(5, ge=2, le=10000)
@@ -35,6 +37,8 @@ class DilutionData:
 
 def load(reader, settings: DilutionIntegritySection, analytes: dict) -> dict:
     """``{analyte: DilutionData}``; a factor below 1 or a nominal not above 0 is an error at its row."""
+    if settings.data is None:          # the QC injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError, show
     from ...inputs.sector_tables import numbers, positive, read_rows
 

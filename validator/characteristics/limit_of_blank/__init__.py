@@ -39,7 +39,7 @@ def _from_runs(runs: RunsResult) -> LimitOfBlankData | None:
     """The found values of the blank and low_level injections (through their run's calibration); lot "1"
     where no lot is given, as for a file without a lot column; the nominal values when every low_level
     injection has a level. ``None`` without a blank with a found value."""
-    blanks = [i for i in runs.injections if i.type == "blank" and i.found is not None]
+    blanks = [i for i in runs.injections if i.type in ("blank", "zero") and i.found is not None]
     low = [i for i in runs.injections if i.type == "low_level" and i.found is not None]
     if not blanks:
         return None

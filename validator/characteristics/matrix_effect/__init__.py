@@ -3,7 +3,10 @@ the ``[matrix_effect]`` section."""
 
 from __future__ import annotations
 
-from .. import calibration
+from dataclasses import replace
+
+from .. import calibration, runs
+from ..runs.analysis import study_qc_found
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
@@ -18,7 +21,15 @@ def assess(ctx) -> Assessment[MatrixEffect] | None:
     with the weighting of its fit."""
     data: MatrixEffectData | None = ctx.data_of(ENTRY)
     s: MatrixEffectSection | None = ctx.settings_of(ENTRY)
-    if data is None or s is None:
+    if s is None:
+        return None
+    # no lots_data with [[runs]]: the lots are the QC injections with a lot, found through their run's calibration
+    lots = ctx.result_of(runs.ENTRY) if s.lots_data is None else None
+    lots = None if lots is None else study_qc_found(lots, "matrix lots")
+    if lots is not None:
+        data = replace(data or MatrixEffectData(), lots=tuple(lots.labels), lot_nominal=lots.nominal,
+                       lot_found=lots.found)
+    if data is None:
         return None
     cal = ctx.data.calibration
     fitted = ctx.result_of(calibration.ENTRY)
@@ -29,6 +40,8 @@ def assess(ctx) -> Assessment[MatrixEffect] | None:
                            limit_pct=s.limit_pct, lot_max_bias_pct=s.lot_max_bias_pct, lot_max_cv_pct=s.lot_max_cv_pct,
                            min_lots=s.min_lots, min_replicates=s.min_replicates, factor_max_cv_pct=s.factor_max_cv_pct,
                            judge_slope_ratio=s.judge_slope_ratio)
+    if lots is not None:
+        result = replace(result, data_from="runs")
     return Assessment(result, matrix_effect_criteria(result, judge_slope_ratio=s.judge_slope_ratio, limit_pct=s.limit_pct))
 
 

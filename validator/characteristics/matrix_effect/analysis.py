@@ -36,6 +36,9 @@ class MatrixEffect:
     # whether ME % is a criterion (judge_slope_ratio); when it is not, why it is reported only
     slope_ratio_judged: bool = False
     slope_ratio_note: str = ""
+    # where the lots' results came from: "file" (lots_data) or "runs" (the QC injections of [[runs]] with a
+    # lot, each found through its run's calibration, as listed in the runs' chain); "file" without lots too
+    data_from: str = "file"
 
 
 # the slope ratio is reported, not judged, unless judge_slope_ratio = true: why, in results.json and the dossier

@@ -5,6 +5,7 @@
 solvent_data = "solvent-calibration.csv"   # columns concentration, response; optional analyte
                                            # ([calibration] is the matrix-matched one)
 lots_data = "matrix-lots.csv"              # ICH M10: columns lot, nominal, found; optional analyte
+                                           # (left out with [[runs]]: the QC injections that have a lot)
 factor_data = "matrix-factor.csv"          # columns lot, analyte_response, internal_standard_response;
                                            # rows with lot "neat" are the neat-solution responses
 ```
@@ -13,10 +14,10 @@ factor_data = "matrix-factor.csv"          # columns lot, analyte_response, inte
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal, Optional
+from typing import ClassVar, Literal, Optional
 
 import numpy as np
-from pydantic import Field, model_validator
+from pydantic import Field
 
 from ...inputs.study import DataPath, _Section
 
@@ -26,6 +27,7 @@ NEAT = "neat"        # the lot name that marks neat-solution rows of factor_data
 
 
 class MatrixEffectSection(_Section):
+    OPTIONAL_TABLE: ClassVar[bool] = True
     solvent_data: Optional[DataPath] = None
     # "separate": each line its own residual variance, Welch-Satterthwaite df (valid whether or not they
     # differ); "pooled": one residual variance for both lines
@@ -42,11 +44,8 @@ class MatrixEffectSection(_Section):
     factor_data: Optional[DataPath] = None
     factor_max_cv_pct: float = Field(15.0, gt=0, le=100)
 
-    @model_validator(mode="after")
-    def _some_data(self):
-        if self.solvent_data is None and self.lots_data is None and self.factor_data is None:
-            raise ValueError("give at least one of solvent_data, lots_data and factor_data")
-        return self
+    # at least one of the three files, unless [[runs]] give the lots (lots_data left out): checked with the
+    # whole study (validator.inputs.study._check_sector_sources)
 
 
 @dataclass(frozen=True)

@@ -37,7 +37,7 @@ def _from_runs(runs: RunsResult) -> MethodDetectionLimitData | None:
     (each through its run's calibration); the run as batch; the spike level when the low_level injections
     give one. ``None`` without a low_level injection with a found value."""
     spiked = [i for i in runs.injections if i.type == "low_level" and i.found is not None]
-    blanks = [i for i in runs.injections if i.type == "blank" and i.found is not None]
+    blanks = [i for i in runs.injections if i.type in ("blank", "zero") and i.found is not None]
     if not spiked:
         return None
     level = spiked[0].level if all(i.level is not None for i in spiked) else None

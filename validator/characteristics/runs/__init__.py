@@ -18,7 +18,7 @@ from .. import calibration
 from .._entry import Assessment, Characteristic
 from . import presentation
 from .analysis import (QuantifiedInjection, RunCalibration, RunsResult, qc_found, quantify_runs, reference_found,
-                       run_samples, spiked_found)
+                       run_samples, spiked_found, study_qc, study_qc_found)
 
 __all__ = ["ENTRY", "SECTOR_READS", "RunsResult", "RunCalibration", "QuantifiedInjection", "quantify_runs"]
 
@@ -39,20 +39,36 @@ def assess(ctx) -> Assessment[RunsResult] | None:
         if data is not None:
             provides.append((name, data))
     # the sector tables that name no file of their own read the run sequences: they get this result
-    for name, (key, kinds) in SECTOR_READS.items():
+    for name, (key, reads) in SECTOR_READS.items():
         settings = getattr(ctx.config, name, None)
         if (settings is not None and getattr(settings, key) is None and ctx.data.of(name) is None
-                and (kinds is None or any(i.type in kinds for i in result.injections))):
+                and (reads is None or any(reads(i) for i in result.injections))):
             provides.append((name, result))
-    result = replace(result, feeds=tuple(name for name, _ in provides))
+    feeds = [name for name, _ in provides]
+    # the matrix effect's lots: its other parts may come from its own files, so it reads this result itself
+    me = ctx.config.matrix_effect
+    if me is not None and me.lots_data is None and study_qc_found(result, "matrix lots") is not None:
+        feeds.append("matrix_effect")
+    result = replace(result, feeds=tuple(sorted(feeds, key=_ORDER.index)))
     return Assessment(result, (), provides=tuple((name, result if isinstance(data, RunsResult) else data)
                                                  for name, data in provides))
 
 
-# sector table -> (its file key: None means "read the runs"; the injection types it needs, None: the sequence)
-# (the study-file side of the same rule: validator.inputs.study.RUN_FED_SECTOR)
-SECTOR_READS = {"limit_of_blank": ("blanks", ("blank",)), "method_detection_limit": ("spiked", ("low_level",)),
-                "carry_over": ("data", None), "selectivity": ("data", ("matrix_blank",))}
+def _of_type(*kinds):
+    return lambda inj: inj.type in kinds
+
+
+# sector table -> (its file key: None means "read the runs"; which injections it needs, None: the sequence)
+# (the study-file side of the same rule: validator.inputs.study.RUN_FED_SECTOR; the matrix effect's lots
+# are read by the matrix effect itself, see assess)
+SECTOR_READS = {"limit_of_blank": ("blanks", _of_type("blank", "zero")),
+                "method_detection_limit": ("spiked", _of_type("low_level")),
+                "carry_over": ("data", None), "selectivity": ("data", _of_type("matrix_blank")),
+                "stability": ("data", lambda inj: study_qc(inj) == "stability"),
+                "dilution_integrity": ("data", lambda inj: study_qc(inj) == "dilution")}
+# the order feeds are listed in (the registry's)
+_ORDER = ("samples", "recovery", "precision", "reference_material", "limit_of_blank", "method_detection_limit",
+          "matrix_effect", "carry_over", "selectivity", "stability", "dilution_integrity")
 
 
 ENTRY: Characteristic[RunsResult] = Characteristic(

@@ -19,9 +19,13 @@ import numpy as np
 from ..._common import quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
 
-__all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs"]
+__all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs", "study_qc", "study_qc_found",
+           "StudyQcFound"]
 
 POOLED = "pooled"
+# why a blank without an internal-standard area has no found value (its chain in results.json says it)
+NO_RATIO = ("no internal-standard area (a blank has none): the ratio analyte/IS is undefined, so nothing is "
+            "quantified; the injection serves the checks on raw areas only (carry-over, selectivity)")
 
 
 @dataclass(frozen=True)
@@ -50,7 +54,8 @@ class QuantifiedInjection:
     """One injection read back through a calibration: response -> calibration -> found.
 
     ``found`` is None (with ``reason``) when no concentration corresponds to the response
-    (beyond the vertex of a quadratic). ``within_range`` is False for an extrapolated value.
+    (beyond the vertex of a quadratic), or when a blank has no internal-standard area (``response``
+    None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
     """
 
     run: str
@@ -58,7 +63,7 @@ class QuantifiedInjection:
     sample: str
     type: str
     level: float | None = field(metadata={"omit_none": True})
-    response: float
+    response: float | None
     analyte_response: float
     internal_standard_response: float | None = field(metadata={"omit_none": True})
     file: str
@@ -71,6 +76,8 @@ class QuantifiedInjection:
     matrix: str = field(default="", metadata={"json": None})   # spiked: its unspiked matrix's sample id
     lot: str = field(default="", metadata={"when": lambda i: bool(i.lot)})   # [columns] lot, when given
     position: float = field(default=0.0, metadata={"json": None})             # its place in the run's sequence
+    condition: str = field(default="", metadata={"when": lambda i: bool(i.condition)})    # a QC's storage condition
+    dilution: float | None = field(default=None, metadata={"omit_none": True})           # a diluted QC's factor
 
 
 @dataclass(frozen=True)
@@ -156,12 +163,15 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
     out, calibrators = [], []
     for inj in injections:
         c = used[inj.run]
-        x0, inside = c.fit.inverse(inj.response)
-        reason = ""
-        found = float(x0)
-        if not np.isfinite(found):
-            found, reason = None, ("the response lies beyond the vertex of the quadratic; no concentration "
-                                   "corresponds to it")
+        if inj.response is None:
+            found, inside, reason = None, False, NO_RATIO
+        else:
+            x0, inside = c.fit.inverse(inj.response)
+            reason = ""
+            found = float(x0)
+            if not np.isfinite(found):
+                found, reason = None, ("the response lies beyond the vertex of the quadratic; no concentration "
+                                       "corresponds to it")
         with quiet_numpy():
             within = found is not None and bool(inside) and c.low <= found <= c.high
         (calibrators if inj.type == "calibrator" else out).append(QuantifiedInjection(run=inj.run, day=inj.day, sample=inj.sample, type=inj.type, level=inj.level,
@@ -169,7 +179,8 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
                                        internal_standard_response=inj.internal_standard_response, file=inj.file,
                                        sheet=inj.sheet, row=inj.row, calibration=c.run, found=found,
                                        within_range=within, reason=reason, matrix=getattr(inj, "matrix", ""),
-                                       lot=getattr(inj, "lot", ""), position=getattr(inj, "position", 0.0)))
+                                       lot=getattr(inj, "lot", ""), position=getattr(inj, "position", 0.0),
+                                       condition=getattr(inj, "condition", ""), dilution=getattr(inj, "dilution", None)))
     return RunsResult(quantified_with=POOLED if pooled else "run", model=model, weighting=weighting,
                       calibrations=calibrations, injections=tuple(out), calibrators=tuple(calibrators))
 
@@ -242,7 +253,7 @@ def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
     With a nested ``design`` (factor names "day" and/or "run"), each factor's labels come from
     the injections, and the series is the innermost unit (labels joined, "day / run").
     """
-    qc = _usable(result, "qc")
+    qc = tuple(i for i in _usable(result, "qc") if not study_qc(i))
     if not qc:
         return None
     from decimal import Decimal
@@ -253,6 +264,39 @@ def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
     return QcFound(level=np.array([i.level for i in qc], float), series=series,
                    found=np.array([float(v - values[0]) for v in values]), offset=float(values[0]),
                    factors=factors)
+
+
+def study_qc(inj) -> str:
+    """What a QC injection with a lot, a storage condition or a dilution factor serves ("matrix lots",
+    "stability", "dilution"); "" for a QC of the accuracy and precision runs (and any other injection).
+    Such QCs feed their sector table only, never precision."""
+    if inj.type != "qc":
+        return ""
+    return ("matrix lots" if inj.lot else "stability" if inj.condition
+            else "dilution" if inj.dilution is not None else "")
+
+
+@dataclass(frozen=True)
+class StudyQcFound:
+    """The found values of the QC injections of one sector study (matrix lots, stability or dilution):
+    each QC's label (its lot, condition or dilution factor), nominal level and found value, in run order."""
+
+    labels: tuple[str | float, ...] = field(repr=False)
+    nominal: np.ndarray = field(repr=False)
+    found: np.ndarray = field(repr=False)
+
+
+def study_qc_found(result: RunsResult, kind: str) -> StudyQcFound | None:
+    """The QC injections that serve ``kind`` (see :func:`study_qc`) with a found value; ``None`` without any.
+
+    The found value is the concentration read back through the QC's run calibration, before any dilution
+    factor (dilution integrity multiplies it)."""
+    qc = [i for i in _usable(result, "qc") if study_qc(i) == kind]
+    if not qc:
+        return None
+    attribute = {"matrix lots": "lot", "stability": "condition", "dilution": "dilution"}[kind]
+    return StudyQcFound(tuple(getattr(i, attribute) for i in qc), np.array([i.level for i in qc], float),
+                        np.array([i.found for i in qc], float))
 
 
 def reference_found(result: RunsResult) -> np.ndarray | None:

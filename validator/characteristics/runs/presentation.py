@@ -18,7 +18,8 @@ def sentences(entry: dict, reading) -> dict:
     names = {"samples": "samples", "recovery": "recovery", "precision": "precision (series = run)",
              "reference_material": "reference material", "limit_of_blank": "the limit of blank (EP17)",
              "method_detection_limit": "the method detection limit", "carry_over": "carry-over (the run sequences)",
-             "selectivity": "selectivity (matrix blanks)"}
+             "selectivity": "selectivity (matrix blanks)", "matrix_effect": "the matrix effect (QCs of each lot)",
+             "stability": "stability (stored QCs)", "dilution_integrity": "dilution integrity (diluted QCs)"}
     fed = [names.get(n, n) for n in entry.get("feeds", ())]
     uses = (f"{fed[0][0].upper()}{fed[0][1:]}" + "".join(f", {f}" for f in fed[1:-1])
             + (f" and {fed[-1]}" if len(fed) > 1 else "") + " use these injections" if fed

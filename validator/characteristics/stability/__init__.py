@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from .._entry import Assessment, Characteristic
+from ..runs.analysis import RunsResult, study_qc_found
 from . import presentation, settings
 from .analysis import StabilityResult, assess_stability, stability_criteria
 from .settings import StabilityData, StabilitySection
@@ -16,8 +19,16 @@ def assess(ctx) -> Assessment[StabilityResult] | None:
     s: StabilitySection | None = ctx.settings_of(ENTRY)
     if data is None or s is None:
         return None
+    from_runs = isinstance(data, RunsResult)
+    if from_runs:                 # no file of its own: the runs' QC injections with a condition
+        qc = study_qc_found(data, "stability")
+        if qc is None:
+            return None
+        data = StabilityData(tuple(qc.labels), qc.nominal, qc.found)
     result = assess_stability(data, reference=s.reference, limit_pct=s.limit_pct, judged_on=s.judged_on,
                               min_replicates=s.min_replicates, level=1 - ctx.alpha)
+    if from_runs:
+        result = replace(result, data_from="runs")
     return Assessment(result, stability_criteria(result))
 
 

@@ -26,6 +26,9 @@ class StabilityCondition:
 @dataclass(frozen=True)
 class StabilityResult:
     conditions: tuple[StabilityCondition, ...]
+    # "file" (the [stability] data file) or "runs" (the QC injections of [[runs]] with a condition, each
+    # found through its run's calibration, as listed in the runs' chain)
+    data_from: str = "file"
 
 
 def assess_stability(data, *, reference: str, limit_pct: float, judged_on: str, min_replicates: int,

@@ -11,7 +11,7 @@ data = "stability.csv"   # columns condition (e.g. "bench-top 24 h", "3 freeze-t
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import ClassVar, Literal, Optional
 
 import numpy as np
 from pydantic import Field
@@ -24,7 +24,8 @@ FRESH = "fresh"
 
 
 class StabilitySection(_Section):
-    data: DataPath
+    OPTIONAL_TABLE: ClassVar[bool] = True
+    data: Optional[DataPath] = None       # required unless [[runs]] give the data (left out with [[runs]]: the QC injections that have a condition)
     reference: Literal["nominal", "fresh"] = "nominal"
     limit_pct: float = Field(15.0, gt=0, le=100)
     judged_on: Literal["estimate", "interval"] = "estimate"
@@ -40,6 +41,8 @@ class StabilityData:
 
 def load(reader, settings: StabilitySection, analytes: dict) -> dict:
     """``{analyte: StabilityData}``; with ``reference = "fresh"`` each nominal level needs fresh rows."""
+    if settings.data is None:          # the QC injections of [[runs]] give the data (characteristics.runs)
+        return {}
     from ...errors import DataError
     from ...inputs.sector_names import one_spelling, slug
     from ...inputs.sector_tables import labels, numbers, positive, read_rows
