@@ -18,7 +18,7 @@ the parts with pypdf and gives the joined document what each part could not know
 
 The layout runs in worker processes whatever the size, so that a run stopped during the layout
 (SIGTERM, Ctrl-C) ends them at once (SIGKILL is not needed: they die with their parent, and
-:func:`_in_workers` terminates them when the run unwinds) instead of waiting for WeasyPrint.
+:func:`_workers` terminates them when the run unwinds) instead of waiting for WeasyPrint.
 """
 
 from __future__ import annotations
@@ -27,6 +27,7 @@ import html as html_lib
 import io
 import os
 import re
+from contextlib import contextmanager
 
 __all__ = ["PART", "write_pdf", "write_pdf_in_parts", "url_fetcher"]
 
@@ -92,28 +93,43 @@ def _worker_start(parent: int) -> None:
     _die_with_parent(parent)
 
 
-def _in_workers(function, tasks: list, processes: int, on_done=None) -> list:
-    """``[function(t) for t in tasks]``, computed in ``processes`` forked worker processes.
+@contextmanager
+def _workers(processes: int, start: str = "fork"):
+    """``run(function, tasks, on_done=None)`` -> ``[function(t) for t in tasks]``, computed in
+    ``processes`` worker processes.
 
+    ``start``: "fork" (quick to start: the one-piece layout of a small dossier) or "spawn" (a
+    fresh interpreter, about 1 s to start: the parts of a large dossier, whose run holds several
+    hundred MB that forked workers would share at first and copy as Python touches it).
     Whatever ends the wait (SIGTERM, Ctrl-C, an error), the workers are terminated before the
     exception goes on, so nothing outlives the run and the run ends promptly.
     """
     import multiprocessing
 
-    _weasyprint()             # imported once, before the workers are forked
-    pool = multiprocessing.get_context("fork").Pool(processes=max(1, min(processes, len(tasks))),
-                                                    initializer=_worker_start, initargs=(os.getpid(),))
-    try:
+    if start == "fork":
+        _weasyprint()         # imported once, before the workers are forked
+    pool = multiprocessing.get_context(start).Pool(processes=processes, initializer=_worker_start,
+                                                   initargs=(os.getpid(),))
+
+    def run(function, tasks, on_done=None):
         out = []
         for value in pool.imap(function, tasks):
             out.append(value)
             if on_done is not None:
                 on_done(len(out), len(tasks))
-        pool.close()
         return out
+    try:
+        yield run
+        pool.close()
     finally:
         pool.terminate()
         pool.join()
+
+
+def _call(task):
+    """``function(argument)`` for ``task = (function, argument)``: two kinds of task in one pool."""
+    function, argument = task
+    return function(argument)
 
 
 # --- one piece ----------------------------------------------------------------------------------
@@ -130,7 +146,8 @@ def _lay_out_whole(task) -> list:
 
 def write_pdf(html: str, target) -> list:
     """Render the HTML to PDF in one piece (in a worker process); returns the list of refused URLs."""
-    return _in_workers(_lay_out_whole, [(html, str(target))], 1)[0]
+    with _workers(1) as run:
+        return run(_lay_out_whole, [(html, str(target))])[0]
 
 
 # --- in parts -----------------------------------------------------------------------------------
@@ -205,20 +222,26 @@ def write_pdf_in_parts(html: str, target, *, analytes_per_part: int = ANALYTES_P
         return head + body + tail
 
     tasks = [document(front), document(_with_numbers(toc, None))] + [document(g) for g in groups] + [document(back)]
-    done = (lambda k, n: progress("laying out the PDF in parts", k, n + 2)) if progress else None
-    laid = _in_workers(_lay_out_part, tasks, 2, done)
-    for _ in range(3):        # the contents' page count with its real numbers (it cannot grow, but check)
-        first = _first_pages([p["pages"] for p in laid])
-        pages = {name: first[i] + number + 1 for i, p in enumerate(laid) for name, (number, _, _) in p["anchors"].items()}
-        toc_laid = _in_workers(_lay_out_part, [document(_with_numbers(toc, pages))], 1)[0]
-        same = toc_laid["pages"] == laid[1]["pages"]
-        laid[1] = toc_laid
-        if same:
-            break
-    total = sum(p["pages"] for p in laid)
+    done = (lambda k, n: progress("laying out the PDF in parts", k, n + 1)) if progress else None
+    with _workers(2, start="spawn") as run:
+        laid = run(_lay_out_part, tasks, done)
+        for _ in range(3):
+            # the contents again with the page numbers, and the header-and-footer document, which
+            # assumes that the contents keep their page count (they cannot grow, but it is checked)
+            first = _first_pages([p["pages"] for p in laid])
+            pages = {name: first[i] + number + 1 for i, p in enumerate(laid)
+                     for name, (number, _, _) in p["anchors"].items()}
+            total = sum(p["pages"] for p in laid)
+            toc_laid, frame = run(_call, [(_lay_out_part, document(_with_numbers(toc, pages))),
+                                          (_lay_out_frame, _frame(head.replace(_PART_CSS, ""), front, total))])
+            same = toc_laid["pages"] == laid[1]["pages"]
+            laid[1] = toc_laid
+            if same:
+                break
+        else:
+            raise RuntimeError("the contents of the PDF changed their page count three times")
     if progress is not None:
-        progress("laying out the PDF: headers and footers", len(tasks) + 1, len(tasks) + 2)
-    frame = _in_workers(_lay_out_frame, [_frame(head.replace(_PART_CSS, ""), front, total)], 1)[0]
+        progress("laying out the PDF in parts", len(tasks) + 1, len(tasks) + 1)
     _join(laid, frame, target)
     return sorted({url for p in laid for url in p["refused"]})
 
