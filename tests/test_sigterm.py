@@ -66,7 +66,8 @@ def test_sigterm_during_the_pdf_layout_stops_promptly(outside, tmp_path, analyte
     if analytes is None:
         study = EXAMPLE
     else:
-        spec = importlib.util.spec_from_file_location("make_multiresidue", ROOT / "example_studies" / "make_multiresidue.py")
+        spec = importlib.util.spec_from_file_location("make_multiresidue",
+                                                      ROOT / "example_studies" / "make_multiresidue.py")
         generator = importlib.util.module_from_spec(spec)
         spec.loader.exec_module(generator)
         study = generator.write(tmp_path / "study", analytes)

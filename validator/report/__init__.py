@@ -208,7 +208,8 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     html = _environment().get_template("dossier.html.j2").render(
-        part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha, sections=sections, placed=placed,
+        part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
+        sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
