@@ -68,6 +68,39 @@ def test_breusch_pagan_matches_statsmodels():
     assert_allclose(res.heteroscedasticity.pvalue, p, rtol=1e-8)
 
 
+@pytest.mark.parametrize("seed", range(6))
+@pytest.mark.parametrize("powers", [(1,), (1, 2)])
+def test_breusch_pagan_arithmetic_is_statsmodels(seed, powers):
+    # cross-check: statsmodels het_breuschpagan(robust=True), the computation validator's own
+    # maths.heteroscedasticity.breusch_pagan replaces in the run path (seeded simulated residuals,
+    # variance rising with x or constant)
+    from validator.maths.heteroscedasticity import breusch_pagan
+
+    rng = np.random.default_rng(seed)
+    x = np.repeat(np.linspace(0.5, 20.0, 8), 3)
+    u = (x - x.mean()) / x.std()
+    exog = np.column_stack([np.ones_like(u)] + [u**k for k in powers])
+    resid = rng.normal(0.0, 1.0 + (seed % 2) * x, x.size)
+    result = breusch_pagan(resid, exog)
+    expected_lm, expected_p, _, _ = het_breuschpagan(resid, exog)
+    assert_allclose(result.statistic, expected_lm, rtol=1e-12)
+    assert_allclose(result.pvalue, expected_p, rtol=1e-12)
+    assert result.df == (len(powers),)
+
+
+def test_breusch_pagan_without_information_is_not_applicable_where_statsmodels_is_not_finite():
+    # cross-check: statsmodels het_breuschpagan gives a non-finite LM when e^2 is constant
+    from validator.maths.heteroscedasticity import breusch_pagan
+
+    exog = np.column_stack([np.ones(6), np.arange(6.0)])
+    resid = np.array([1.0, -1.0, 1.0, -1.0, 1.0, -1.0])
+    with np.errstate(all="ignore"):
+        expected_lm = het_breuschpagan(resid, exog)[0]
+    result = breusch_pagan(resid, exog)
+    assert not np.isfinite(expected_lm)
+    assert result.statistic is None and "no information" in result.reason
+
+
 def test_levene_matches_scipy():
     # cross-check: scipy.stats.levene(center="median") across levels
     res = analyse_calibration(X, Y)

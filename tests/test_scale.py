@@ -10,6 +10,7 @@ from __future__ import annotations
 import importlib.util
 import json
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -72,20 +73,64 @@ def test_300_analytes_summary_links_to_each_analyte_section(multiresidue_300):
         assert section.find("h2").get_text(" ", strip=True).startswith(f"{analyte['name']}: calibration")
 
 
-@pytest.mark.slow
-def test_pdf_outline_has_an_entry_per_analyte_at_20_analytes(tmp_path):
-    from pypdf import PdfReader
+@pytest.fixture(scope="module")
+def multiresidue_20_pdf(tmp_path_factory):
+    """20 analytes: the PDF is laid out in parts (validator.report.PARTS_FROM), its figures as PNG."""
+    return _run(tmp_path_factory.mktemp("mr20"), 20, "json,pdf")
 
-    out = _run(tmp_path, 20, "json,pdf")
-    names = [a["name"] for a in json.loads((out / "results.json").read_text(encoding="utf-8"))["analytes"]]
 
-    def titles(items):
+def _outline(reader):
+    def walk(items):
         for item in items:
             if isinstance(item, list):
-                yield from titles(item)
+                yield from walk(item)
             else:
-                yield item.title
+                yield item.title, reader.get_destination_page_number(item) + 1
+    return list(walk(reader.outline))
 
-    outline = list(titles(PdfReader(str(out / "dossier.pdf")).outline))
+
+@pytest.mark.slow
+def test_pdf_outline_has_an_entry_per_analyte_at_20_analytes(multiresidue_20_pdf):
+    from pypdf import PdfReader
+
+    from validator.report import PARTS_FROM
+
+    out = multiresidue_20_pdf
+    assert PARTS_FROM <= 20                     # this test covers the PDF laid out in parts
+    names = [a["name"] for a in json.loads((out / "results.json").read_text(encoding="utf-8"))["analytes"]]
+    reader = PdfReader(str(out / "dossier.pdf"))
+    texts = [page.extract_text() for page in reader.pages]
+    outline = _outline(reader)
+    assert outline[0][1] == 1 and [t for t, _ in outline[1:3]] == ["Summary", "Contents"]
     for name in names:
-        assert sum(t.startswith(f"{name}: calibration") for t in outline) == 1, name
+        entries = [(t, page) for t, page in outline if t.startswith(f"{name}: calibration")]
+        assert len(entries) == 1, name
+        # the entry opens the page where the analyte's section begins
+        assert texts[entries[0][1] - 1].lstrip().startswith(f"{name}: calibration"), name
+
+
+@pytest.mark.slow
+def test_pdf_in_parts_numbers_pages_contents_and_links_as_one_document(multiresidue_20_pdf):
+    from pypdf import PdfReader
+
+    out = multiresidue_20_pdf
+    names = [a["name"] for a in json.loads((out / "results.json").read_text(encoding="utf-8"))["analytes"]]
+    reader = PdfReader(str(out / "dossier.pdf"))
+    texts = [page.extract_text() for page in reader.pages]
+    total = len(texts)
+    for number, text in enumerate(texts, start=1):            # one page count for the whole document
+        assert f"page {number} of {total}" in text, number
+        assert number == 1 or "MR-GRAIN-20 · document VR-MR-20" in text   # the running header
+    starts = {name: next(i for i, t in enumerate(texts, 1) if t.lstrip().startswith(f"{name}: calibration"))
+              for name in names}
+    first = next(i for i, t in enumerate(texts) if t.startswith("Contents\n") or "\nContents\n" in t)
+    contents = "".join(texts[first:starts[names[0]] - 1])
+    shown = {m[1]: int(m[2]) for m in re.finditer(r"(residue-\d+): calibration[ .]*?\.+\s*(\d+)", contents)}
+    assert shown == starts                                      # the contents' page numbers
+    destinations = reader.named_destinations
+    for i, name in enumerate(names):                            # the summary's links, across parts
+        assert reader.get_destination_page_number(destinations[f"analyte-{i}"]) + 1 == starts[name]
+    summary = next(i for i, t in enumerate(texts) if t.lstrip().startswith("Summary"))
+    linked = {a.get_object()["/Dest"] for a in reader.pages[summary].get("/Annots", [])}
+    assert {f"analyte-{i}" for i in range(len(names))} <= linked
+    assert all(str(name) in destinations for name in linked)

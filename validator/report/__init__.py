@@ -10,16 +10,23 @@ compute.
 
 from __future__ import annotations
 
+import re
 from importlib import resources
 from pathlib import Path
 
 import jinja2
 
 from . import numbers, summary
-from .plots import PALETTE, analyte_figures, figures_for_all, style
+from .pdf import PART, write_pdf, write_pdf_in_parts
+from .plots import PALETTE, Drawn, analyte_figures, figures_for_all, style
 from .text import SIG, SIG_P, fmt, fmt_p, level_label, met, verdict_label
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
+
+# from this many analytes the PDF is laid out in parts, its figures as PNG (docs/performance.md:
+# a 20-analyte dossier in one piece took 26 s and 740 MB in WeasyPrint, its layout grows with the
+# whole document's size, and a 300-analyte one did not finish)
+PARTS_FROM = 12
 
 
 def templates_dir() -> Path:
@@ -155,6 +162,13 @@ def _analyte_figures(d: dict) -> dict:
 def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> str:
     """The dossier as one self-contained HTML document (``progress(stage, done, total)``: see
     validator.progress)."""
+    return _render(result, results, paper=paper, progress=progress)
+
+
+def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: bool = False,
+            figure_outputs=("svg",)):
+    """The dossier's HTML; with ``parts``, marked for :func:`pdf.write_pdf_in_parts` and its figures
+    left as placeholders: ``(html, figures)``, see :func:`_fill`."""
     from .. import registry
 
     study = results["study"]
@@ -163,7 +177,11 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
     units = [summary.units_of(a, study) for a in results["analytes"]]
     figures = figures_for_all([{**_plot_data(i, a, units[i]), "characteristics": readings[i]}
                                for i, a in enumerate(result.analytes)], _analyte_figures,
-                              on_done=None if progress is None else lambda k, n: progress("drawing figures", k, n))
+                              on_done=None if progress is None else lambda k, n: progress("drawing figures", k, n),
+                              outputs=figure_outputs)
+    drawn = []
+    if parts:
+        figures = [_placeholders(f, drawn) for f in figures]
     if progress is not None:
         progress("writing the HTML dossier")
     sentences = {e.name: e.sentences for e in registry.REGISTRY if e.sentences}
@@ -194,8 +212,9 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
     sector_used = sorted({name for a in results["analytes"] for name in a["characteristics_assessed"]})
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
-    return _environment().get_template("dossier.html.j2").render(
-        r=results, study=study, analytes=analytes, alpha=alpha, sections=sections, placed=placed,
+    html = _environment().get_template("dossier.html.j2").render(
+        part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
+        sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
@@ -207,48 +226,58 @@ def render_html(result, results: dict, *, paper: str = "a4", progress=None) -> s
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
+    return (html, drawn) if parts else html
 
 
-def _url_fetcher():
-    """A WeasyPrint URL fetcher that serves only inline ``data:`` URLs.
-
-    Everything else (file://, http(s)://, relative paths) is refused, so the
-    PDF step can read nothing but what is inside the HTML.
-    """
-    from weasyprint.urls import URLFetcher
-
-    class InlineOnlyFetcher(URLFetcher):
-        refused: list = []
-
-        def fetch(self, url, headers=None):
-            if url.startswith("data:"):
-                return super().fetch(url, headers)
-            InlineOnlyFetcher.refused.append(url)
-            raise ValueError(f"validator: external resource refused: {url}")
-
-    return InlineOnlyFetcher(allowed_protocols=("data",))
+_FIGURE = "<!--validator:figure:{}-->"
 
 
-def write_pdf(html: str, target: Path) -> list:
-    """Render the HTML to PDF; returns the list of refused URLs."""
-    import logging
+def _placeholders(figures, drawn: list):
+    """``figures`` (a dict of figures, or of dicts of figures) with each figure replaced by a
+    placeholder comment; the figures are appended to ``drawn`` in placeholder order."""
+    if isinstance(figures, dict):
+        return {k: _placeholders(v, drawn) for k, v in figures.items()}
+    if not figures and not getattr(figures, "png", b""):
+        return figures
+    drawn.append(figures)
+    return _FIGURE.format(len(drawn) - 1)
 
-    import weasyprint
 
-    logging.getLogger("weasyprint").setLevel(logging.CRITICAL)
-    fetcher = _url_fetcher()
-    type(fetcher).refused = []
-    weasyprint.HTML(string=html, base_url=None, url_fetcher=fetcher).write_pdf(
-        str(target), pdf_identifier=b"validator-dossier", uncompressed_pdf=False)
-    return list(type(fetcher).refused)
+def _fill(html: str, drawn: list, print_version: bool) -> str:
+    """The HTML with its figure placeholders replaced: inline SVG (the screen), or the print
+    version (PNG where drawn); the part markers are taken out of the screen version."""
+    def figure(m):
+        if m[1] is None:
+            return m[0] if print_version else ""
+        f = drawn[int(m[1])]
+        return f.print_tag() if print_version and isinstance(f, Drawn) else str(f)
+    return re.sub(r"<!--validator:figure:(\d+)-->|" + re.escape(PART), figure, html)
 
 
 def render_dossier(result, results: dict, folder: Path, *, formats=("html", "pdf"), paper="a4",
                    progress=None) -> None:
-    html = render_html(result, results, paper=paper, progress=progress)
+    """dossier.html and/or dossier.pdf into ``folder``.
+
+    From :data:`PARTS_FROM` analytes the PDF is laid out in parts (:func:`pdf.write_pdf_in_parts`)
+    with its figures as PNG (drawn from the same figure as the HTML's SVG); below, in one piece
+    with the HTML's inline SVG.
+    """
+    in_parts = "pdf" in formats and len(results["analytes"]) >= PARTS_FROM
+    if not in_parts:
+        html = render_html(result, results, paper=paper, progress=progress)
+        if "html" in formats:
+            (folder / "dossier.html").write_text(html, encoding="utf-8")
+        if "pdf" in formats:
+            if progress is not None:
+                progress("laying out the PDF (the longest step)")
+            write_pdf(html, folder / "dossier.pdf")
+        return
+    outputs = ("svg", "png") if "html" in formats else ("png",)
+    marked, drawn = _render(result, results, paper=paper, progress=progress, parts=True, figure_outputs=outputs)
     if "html" in formats:
-        (folder / "dossier.html").write_text(html, encoding="utf-8")
-    if "pdf" in formats:
-        if progress is not None:
-            progress("laying out the PDF (the longest step)")
-        write_pdf(html, folder / "dossier.pdf")
+        (folder / "dossier.html").write_text(_fill(marked, drawn, print_version=False), encoding="utf-8")
+    printed = _fill(marked, drawn, print_version=True)
+    del marked, drawn                 # the layout workers are forked from this process: keep it small
+    if progress is not None:
+        progress("laying out the PDF in parts (the longest step)")
+    write_pdf_in_parts(printed, folder / "dossier.pdf", progress=progress)

@@ -12,11 +12,12 @@ matplotlib's mathtext (``$...$``) and TeX are switched off for all figures.
 
 from __future__ import annotations
 
+import base64
+import functools
 import io
 import os
 import re
 from concurrent.futures import ProcessPoolExecutor
-
 
 
 def _pyplot():
@@ -40,7 +41,12 @@ class _LazyPyplot:
 
 plt = _LazyPyplot()
 
-__all__ = ["PALETTE", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x"]
+__all__ = ["PALETTE", "Drawn", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x"]
+
+# the print version's raster figures: resolution (dots per inch) of the PNG drawn beside the SVG
+PRINT_DPI = 150
+# what ``svg()`` makes in this process: ("svg",) as a rule; figures_for_all sets it while drawing
+_OUTPUTS = ("svg",)
 
 # our own palette: blue / amber / plum / slate, distinguishable with common colour-vision deficiencies
 PALETTE = {"ink": "#1d2430", "data": "#1f5a8c", "fit": "#1d2430", "conf": "#1f5a8c",
@@ -90,15 +96,45 @@ def points(ax, x, y, marker="o", colour=None, **kw):
     _points(ax, x, y, marker, colour, **kw)
 
 
+class Drawn(str):
+    """A figure drawn for the screen and for print: the text is its inline SVG (empty when the HTML
+    dossier is not written), ``png`` the same figure as PNG bytes (for the print version of a large
+    dossier, whose layout is then much cheaper: see docs/performance.md)."""
+
+    png: bytes = b""
+
+    def print_tag(self) -> str:
+        """The HTML of the print version: an ``img`` of the PNG (a data URI), else the SVG itself."""
+        if not self.png:
+            return str(self)
+        return f'<img class="raster" alt="" src="data:image/png;base64,{base64.b64encode(self.png).decode("ascii")}">'
+
+
 def svg(fig, name: str) -> str:
-    """The figure as inline SVG text (closed afterwards); ``name`` makes its element ids unique."""
+    """The figure as inline SVG text (closed afterwards); ``name`` makes its element ids unique.
+
+    While :func:`figures_for_all` draws for print too, the value is a :class:`Drawn` (a ``str``)
+    that also carries the PNG."""
     return _svg(fig, name)
 
 
 def _svg(fig, name: str) -> str:
+    if _OUTPUTS == ("svg",):
+        return _svg_text(fig, name)
+    drawn = Drawn(_svg_text(fig, name, close=False) if "svg" in _OUTPUTS else "")
+    if "png" in _OUTPUTS:
+        buf = io.BytesIO()
+        fig.savefig(buf, format="png", dpi=PRINT_DPI, metadata={"Software": None})
+        drawn.png = buf.getvalue()
+    plt.close(fig)
+    return drawn
+
+
+def _svg_text(fig, name: str, close: bool = True) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": "validator", "Title": name})
-    plt.close(fig)
+    if close:
+        plt.close(fig)
     text = buf.getvalue()
     text = text[text.index("<svg"):]
     # unique ids per figure so that several inline SVGs never share an id
@@ -282,13 +318,27 @@ def _die_with_parent(parent: int) -> None:
         os._exit(1)
 
 
-def figures_for_all(plot_data: list, draw=analyte_figures, on_done=None) -> list:
+def _draw_as(outputs: tuple, draw, d: dict):
+    """``draw(d)`` with :func:`svg` making ``outputs`` (in a worker process, or restored afterwards)."""
+    global _OUTPUTS
+    before, _OUTPUTS = _OUTPUTS, outputs
+    try:
+        return draw(d)
+    finally:
+        _OUTPUTS = before
+
+
+def figures_for_all(plot_data: list, draw=analyte_figures, on_done=None, outputs=("svg",)) -> list:
     """``draw(d)`` (the figures of one analyte) for every analyte; two processes when there are several.
 
     ``draw`` must be a module-level function (it is sent to the worker processes by name);
     ``on_done(done, total)``, if given, is called in this process as each analyte's figures arrive.
+    ``outputs``: ``("svg",)`` (inline SVG text), or any of "svg" and "png" (each figure a
+    :class:`Drawn`, drawn once and saved in both formats).
     """
     _pyplot()       # imported once here, before the workers are forked, not once in each
+    if tuple(outputs) != ("svg",):
+        draw = functools.partial(_draw_as, tuple(outputs), draw)
     done = []
 
     def collect(figures):

@@ -32,10 +32,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy import stats
-from statsmodels.stats.diagnostic import het_breuschpagan
 
 from ..._common import ConfidenceInterval, TestResult, not_above, not_applicable, quiet_numpy
 from ...criteria import Criterion, at_least, missing
+from ...maths.heteroscedasticity import BREUSCH_PAGAN, breusch_pagan
 from ...maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
@@ -280,20 +280,12 @@ def _normality(fit: PolynomialFit) -> TestResult:
 
 
 def _breusch_pagan(x, y, model: str) -> TestResult:
-    method = "Breusch-Pagan (Koenker studentised)"
     unweighted = fit_polynomial(x, y, model=model, weighting="none")
-    resid = unweighted.residuals
     if unweighted.exact:
-        return not_applicable(method, "the residuals are all zero (perfect fit)")
-    powers = unweighted.powers
+        return not_applicable(BREUSCH_PAGAN, "the residuals are all zero (perfect fit)")
     u = (np.asarray(x, float) - unweighted.centre) / unweighted.scale
-    exog = np.column_stack([np.ones_like(u)] + [u**k for k in powers if k > 0])
-    with quiet_numpy():
-        lm, lm_p, _, _ = het_breuschpagan(resid, exog)
-    if not (np.isfinite(lm) and np.isfinite(lm_p)):     # e.g. every residual of the same size: e^2 constant
-        return not_applicable(method, "the squared residuals do not vary (every residual has the same size), "
-                                      "so the test has no information")
-    return TestResult(method, float(lm), float(lm_p), (exog.shape[1] - 1,))
+    exog = np.column_stack([np.ones_like(u)] + [u**k for k in unweighted.powers if k > 0])
+    return breusch_pagan(unweighted.residuals, exog)
 
 
 def _levene(x, y) -> TestResult:
