@@ -171,13 +171,13 @@ def test_isr_difference_exactly_20_percent_is_within():
     assert all(s.within for s in isr.samples) and isr.n_within == 3 and isr.passed is True
 
 
-def test_on_the_limit_end_to_end(tmp_path, outside, capsys):
-    folder = tmp_path / "p"
-    shutil.copytree(PLASMA, folder)
-    (folder / "carry-over.csv").write_text("kind,response,internal_standard_response\nlloq,0.7,1000\n"
-                                           "blank,0.14,10\n", encoding="utf-8")
-    (folder / "stability.csv").write_text("condition,nominal,found\n" + "bench,3,2.55\n" * 3, encoding="utf-8")
-    code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+def test_on_the_limit_end_to_end(make_study, outside, capsys):
+    study = make_study('[calibration]\ndata = "calibration.csv"\n[carry_over]\ndata = "carry-over.csv"\n'
+                       '[stability]\ndata = "stability.csv"\n',
+                       {"calibration.csv": CALIBRATION,
+                        "carry-over.csv": "kind,response,internal_standard_response\nlloq,0.7,1000\nblank,0.14,10\n",
+                        "stability.csv": "condition,nominal,found\n" + "bench,3,2.55\n" * 3})
+    code, _, err = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
     crit = _criteria(json.loads((outside / "o" / "results.json").read_text()))
     assert crit["carry-over"]["pass"] is True and crit["stability-bench-3"]["pass"] is True, err
     assert code == 0, err
@@ -224,12 +224,15 @@ def test_matrix_factor_cv_end_to_end_not_applicable(tmp_path, outside, capsys):
     ("matrix-factor.csv", "lot,analyte_response,internal_standard_response\nneat,100,100\nL1,-3,100\n",
      3, "analyte_response", "-3"),
 ])
-def test_negative_responses_in_sector_files_are_refused(tmp_path, outside, capsys, file, content, row, column, value):
+def test_negative_responses_in_sector_files_are_refused(make_study, outside, capsys, file, content, row, column,
+                                                        value):
     # FINDINGS 14: a blank area of -500 gave carry-over -13.5 % "met"; run exports refuse negative areas
-    folder = tmp_path / "p"
-    shutil.copytree(PLASMA, folder)
-    (folder / file).write_text(content, encoding="utf-8")
-    code, _, err = _run(capsys, "run", folder / "study.toml", "--out", outside / "o", "--format", "json")
+    table = {"carry-over.csv": "[carry_over]\ndata = \"carry-over.csv\"\n",
+             "selectivity.csv": "[selectivity]\ndata = \"selectivity.csv\"\n",
+             "matrix-factor.csv": "[matrix_effect]\nfactor_data = \"matrix-factor.csv\"\n"}[file]
+    study = make_study('[calibration]\ndata = "calibration.csv"\n' + table,
+                       {"calibration.csv": CALIBRATION, file: content})
+    code, _, err = _run(capsys, "run", study, "--out", outside / "o", "--format", "json")
     assert (code, err) == (2, f'validator: error: {file}, row {row}, column "{column}": {column} {value} is '
                               "negative: a response (peak area) cannot be below zero\n")
 
