@@ -31,7 +31,7 @@ def figures(mc: dict, reading) -> dict[str, str]:
     points(ax1, x, y, "o")
     ax1.set_xlabel(f"previous / reference ({unit})")
     ax1.set_ylabel(f"this run / test ({unit})")
-    ax1.legend(frameon=False, fontsize=6)
+    ax1.legend(frameon=False, fontsize=6, loc="upper left", bbox_to_anchor=(1.0, 1.0))   # outside: never over data
     means = [(a + b) / 2 for a, b in zip(x, y)]
     points(ax2, means, _nan(ba["differences"]), "s")
     if ba["bias"] is not None:

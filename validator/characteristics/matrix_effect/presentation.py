@@ -70,6 +70,6 @@ def figures(entry: dict, reading) -> dict:
     ax.set_xticklabels(names, rotation=30, ha="right")
     ax.set_xlabel("matrix lot")
     ax.set_ylabel("bias of the lot mean, %")
-    ax.legend(loc="best", frameon=False)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)   # outside: never over data
     fig.tight_layout()
     return {"lots": svg(fig, f"melots{reading.key}")}

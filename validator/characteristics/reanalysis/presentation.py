@@ -49,6 +49,6 @@ def figures(entry: dict, reading) -> dict:
         log_x(ax)
     ax.set_xlabel(f"mean of original and repeat ({reading.unit})")
     ax.set_ylabel("(repeat − original) / mean, %")
-    ax.legend(loc="best", frameon=False)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)   # outside: never over data
     fig.tight_layout()
     return {"differences": svg(fig, f"isr{reading.key}")}

@@ -40,6 +40,6 @@ def figures(rv: dict, reading) -> dict[str, str]:
            [b["response"] for b in calibration["back_calculated"]], "o", label="calibrators, this run")
     ax.set_xlabel(f"concentration ({reading.unit})")
     ax.set_ylabel(f"response ({reading.response_unit})")
-    ax.legend(frameon=False, fontsize=7, loc="upper left")
+    ax.legend(frameon=False, fontsize=7, loc="upper left", bbox_to_anchor=(1.0, 1.0))   # outside: never over data
     fig.tight_layout()
     return {"functions": svg(fig, f"rv{reading.key}")}
