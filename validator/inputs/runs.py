@@ -7,7 +7,8 @@ order, lot, condition and dilution), ``[types]`` which of its words means which 
 Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
-(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
+(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level,
+post_extraction, neat, solvent_calibrator), its
 level (the nominal concentration of a calibrator or QC, the added amount of a spiked sample),
 its response, its lot and its place in the run's sequence (the ``order`` column, else the row).
 When an internal-standard column is mapped, the response is the ratio analyte / internal
@@ -33,7 +34,7 @@ from .tables import MAX_NAME_LENGTH
 __all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
 
 # the types whose level (nominal concentration, or added amount) must be given
-NEEDS_LEVEL = ("calibrator", "qc", "spiked")
+NEEDS_LEVEL = ("calibrator", "qc", "spiked", "solvent_calibrator")
 
 
 @dataclass(frozen=True)
@@ -281,7 +282,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind in NEEDS_LEVEL and levels[i] is None:
             what = {"calibrator": "its nominal concentration", "qc": "its nominal concentration",
-                    "spiked": "the amount added"}[kind]
+                    "spiked": "the amount added", "solvent_calibrator": "its nominal concentration"}[kind]
             raise _error(table, f"a {kind} injection needs a level ({what})", row=row, column=mapped["level"])
         if levels[i] is not None and levels[i] < 0:
             raise _error(table, f"the level {levels[i]:g} is negative", row=row, column=mapped["level"],
@@ -297,9 +298,13 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
             lots[i] = text.strip()
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
-        if kind == "matrix_blank" and not lots[i]:
-            raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
+        if kind in ("matrix_blank", "post_extraction") and not lots[i]:
+            raise _error(table, f"a {kind} injection needs its lot (map the lot column in [columns] lot)",
                          row=row, column=mapped["lot"] or "lot", value=lots[i])
+        if kind == "neat" and lots[i]:
+            raise _error(table, "a neat injection is the neat solution (no matrix): it has no lot; a spike into "
+                         "extracted blank matrix of one lot is a post_extraction injection", row=row,
+                         column=mapped["lot"], value=lots[i])
     conditions = [""] * len(table)
     if mapped["condition"] and table.has(mapped["condition"]):
         column = mapped["condition"]
@@ -484,6 +489,7 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 if inj.level not in fresh:
                     raise DataError(f'reference = "fresh" but nominal {inj.level:g} has no QC of condition "fresh" '
                                     "to compare with", file=inj.file, row=inj.row, column=header, value=inj.level)
+    _check_matrix_factor(own, header)
     low = [i for i in own if i.type == "low_level" and i.level is not None]
     if fed_by_runs(cfg, "limit_of_blank"):
         first: dict = {}
@@ -499,6 +505,40 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 raise DataError(f"low-level injection at level {inj.level:g}, but {show(low[0].file)} row "
                                 f"{low[0].row} has {low[0].level:g}; the MDL takes one spike level per analyte",
                                 file=inj.file, row=inj.row, column=header, value=inj.level)
+
+
+def _level_text(level) -> str:
+    return "no level" if level is None else f"level {level:g}"
+
+
+def _check_matrix_factor(own, header: str) -> None:
+    """The matrix factor's injections of one analyte: one level for every post_extraction injection (one
+    factor per analyte, as from factor_data), and neat injections at that level to divide by."""
+    spiked = [i for i in own if i.type == "post_extraction"]
+    neat = [i for i in own if i.type == "neat"]
+    if neat and not spiked:
+        raise DataError(f'neat injection "{show(neat[0].sample)}" has no post_extraction injection of analyte '
+                        f'"{show(neat[0].analyte)}" to compare with: the matrix factor divides the response in each '
+                        "lot by the neat solution's", file=neat[0].file, row=neat[0].row, value=neat[0].sample)
+    if not spiked:
+        return
+    first = spiked[0]
+    for inj in spiked[1:]:
+        if inj.level != first.level:
+            raise DataError(f"post_extraction injection at {_level_text(inj.level)}, but {show(first.file)} row "
+                            f"{first.row} is at {_level_text(first.level)}; the matrix factor takes one level per "
+                            "analyte", file=inj.file, row=inj.row, column=header, value=inj.level)
+    if not any(i.level == first.level for i in neat):
+        have = ", ".join(dict.fromkeys(_level_text(i.level) for i in neat)) or "none"
+        raise DataError(f'post_extraction injection "{show(first.sample)}" at {_level_text(first.level)} has no neat '
+                        f"injection at the same level to compare with (neat injections of analyte "
+                        f'"{show(first.analyte)}": {have})', file=first.file, row=first.row, column=header,
+                        value=first.level)
+    for inj in neat:
+        if inj.level != first.level:
+            raise DataError(f"neat injection at {_level_text(inj.level)}, but the post_extraction injections are at "
+                            f"{_level_text(first.level)} ({show(first.file)} row {first.row}); the matrix factor "
+                            "compares one level", file=inj.file, row=inj.row, column=header, value=inj.level)
 
 
 @dataclass(frozen=True)
@@ -579,6 +619,21 @@ def load_runs(reader) -> RunsData:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
                             "takes its data from the runs; add one without a data file of its own",
                             file=first.file, row=first.row)
+    from .study import RUN_FED_PARTS, part_fed_by_runs
+    for kind, (table, key) in RUN_FED_PARTS.items():
+        first = next((i for i in injections if i.type == kind), None)
+        if first is not None and not part_fed_by_runs(cfg, kind):
+            how = (f"[{table}] names its own {key}" if getattr(cfg, table, None) is not None
+                   else f"the study has no [{table}] table")
+            raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but {how}: no table '
+                            f"reads them; add [{table}] without {key} to take them from the runs",
+                            file=first.file, row=first.row, value=first.sample)
+    factor = [i for i in injections if i.type in ("post_extraction", "neat")]
+    internal = (cfg.columns or ColumnsSection()).internal_standard
+    if factor and not internal:
+        raise DataError(f'{factor[0].type} injection "{show(factor[0].sample)}": the IS-normalised matrix factor '
+                        "needs the internal-standard area of each injection; map its column ([columns] "
+                        "internal_standard)", file=factor[0].file, row=factor[0].row, value=factor[0].sample)
     from .study import QC_ROLES
     for column, table in QC_ROLES.items():
         first = next((i for i in injections if i.type == "qc" and getattr(i, column)), None)
