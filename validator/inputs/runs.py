@@ -14,9 +14,12 @@ its response, its lot and its place in the run's sequence (the ``order`` column,
 When an internal-standard column is mapped, the response is the ratio analyte / internal
 standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
 or negative internal-standard area is an error naming the row, except that a blank or a
-matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0: its ratio
-is then undefined (``response`` None) and it serves the checks on raw areas only. A zero
-sample (type ``zero``: blank matrix with the internal standard) needs its IS area.
+matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0. A blank's
+or matrix blank's ratio is never computed when an internal standard is mapped (``response``
+None), whatever IS area it shows: the IS area of a blank is carry-over or noise, so the ratio
+means nothing, and the injection serves the checks on raw areas only (carry-over,
+selectivity). Blank matrix with the internal standard is a zero sample (type ``zero``): it
+needs its IS area, has a ratio and is quantified (limits of blank, MDL method blanks).
 
 Quantification (a response read back through its run's calibration) is analysis and happens
 downstream; this module only reads.
@@ -52,8 +55,9 @@ class Injection:
         Nominal concentration (calibrator, QC) or added amount (spiked); None when not given.
     response : float or None
         What is calibrated: the analyte's response, or its ratio to the internal standard; None
-        for a blank or matrix blank with no internal-standard area (missing, or 0): the ratio is
-        undefined and the injection serves the checks on raw areas only (carry-over, selectivity).
+        for a blank or matrix blank when an internal standard is mapped (it has none: the ratio is
+        not computed, whatever IS area is read) and the injection serves the checks on raw areas
+        only (carry-over, selectivity).
     analyte_response, internal_standard_response : float, float or None
         The raw areas (heights) as read; the second is None without an internal standard, or
         when a blank's IS area is not given.
@@ -356,8 +360,8 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     for i, row in enumerate(table.rows):
         if not mapped["internal_standard"]:
             ratio = response[i]
-        else:             # a blank without an IS area has no ratio: used for its raw areas only
-            ratio = response[i] / internal[i] if internal[i] else None
+        else:             # a blank has no IS: its ratio means nothing, whatever IS area it shows (raw areas only)
+            ratio = response[i] / internal[i] if kinds[i] not in BLANK_TYPES else None
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
@@ -619,6 +623,16 @@ def load_runs(reader) -> RunsData:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
                             "takes its data from the runs; add one without a data file of its own",
                             file=first.file, row=first.row)
+    internal = (cfg.columns or ColumnsSection()).internal_standard
+    if internal and fed_by_runs(cfg, "limit_of_blank"):
+        for own in grouped.values():
+            blank = next((i for i in own if i.type == "blank"), None)
+            if blank is not None and not any(i.type == "zero" for i in own):
+                raise DataError(f'[limit_of_blank] reads the runs\' blank results, but analyte "{show(blank.analyte)}" '
+                                f'has blank injections (first: "{show(blank.sample)}") and no zero injection: with an '
+                                "internal standard a blank (neither analyte nor IS) has no ratio and is not "
+                                "quantified; type blank matrix with the internal standard as zero ([types] zero)",
+                                file=blank.file, row=blank.row, value=blank.sample)
     from .study import RUN_FED_PARTS, part_fed_by_runs
     for kind, (table, key) in RUN_FED_PARTS.items():
         first = next((i for i in injections if i.type == kind), None)
@@ -629,7 +643,6 @@ def load_runs(reader) -> RunsData:
                             f"reads them; add [{table}] without {key} to take them from the runs",
                             file=first.file, row=first.row, value=first.sample)
     factor = [i for i in injections if i.type in ("post_extraction", "neat")]
-    internal = (cfg.columns or ColumnsSection()).internal_standard
     if factor and not internal:
         raise DataError(f'{factor[0].type} injection "{show(factor[0].sample)}": the IS-normalised matrix factor '
                         "needs the internal-standard area of each injection; map its column ([columns] "

@@ -24,9 +24,10 @@ __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs
            "solvent_calibration"]
 
 POOLED = "pooled"
-# why a blank without an internal-standard area has no found value (its chain in results.json says it)
-NO_RATIO = ("no internal-standard area (a blank has none): the ratio analyte/IS is undefined, so nothing is "
-            "quantified; the injection serves the checks on raw areas only (carry-over, selectivity)")
+# why a blank has no found value when an internal standard is mapped (its chain in results.json says it)
+NO_RATIO = ("a blank has neither analyte nor internal standard: with an internal standard its ratio analyte/IS is "
+            "undefined (whatever IS area it shows), so nothing is quantified; the injection serves the checks on raw "
+            "areas only (carry-over, selectivity); blank matrix with the internal standard is a zero sample")
 
 
 @dataclass(frozen=True)
@@ -55,8 +56,8 @@ class QuantifiedInjection:
     """One injection read back through a calibration: response -> calibration -> found.
 
     ``found`` is None (with ``reason``) when no concentration corresponds to the response
-    (beyond the vertex of a quadratic), or when a blank has no internal-standard area (``response``
-    None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
+    (beyond the vertex of a quadratic), or for a blank or matrix blank when an internal standard is
+    mapped (``response`` None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
     """
 
     run: str
