@@ -3,7 +3,8 @@
 Scenario: the residue laboratory of a (fictional) dairy cooperative validates a method for the
 veterinary drug marbofloxacin in raw milk by LC-MS/MS with an isotope-labelled internal
 standard. Three analytical runs on three days; each run has a calibration (seven levels in
-the measured extract), two blanks, QCs at three levels in duplicate, an unspiked and a spiked
+the measured extract), two blanks with the internal standard (zero samples; the study's [types]
+maps the export's word "Blank" to zero), QCs at three levels in duplicate, an unspiked and a spiked
 milk, a reference milk and two milk samples. Run 1 comes as the instrument software's .xlsx
 workbook, runs 2 and 3 as its CSV export (run 3 written on a computer with a decimal comma).
 Every number is drawn from a fixed-seed random generator around responses we chose; run this

@@ -50,9 +50,11 @@ def reader_for(make_study):
 def test_an_xlsx_export_is_read_through_the_mapping(make_study):
     reader, folder = reader_for(make_study)
     book(folder / "run-1.xlsx")
-    injections = read_runs(reader, [RunSource(data="run-1.xlsx", header_row=2, day="2026-11-30")], COLUMNS, TYPES,
+    # the export's "Blank" holds the internal standard: a zero sample (a blank has neither analyte nor IS)
+    types = TypesSection(calibrator=["Cal Std"], blank=[], zero=["Blank"], qc=["QC"], sample=["Unknown"])
+    injections = read_runs(reader, [RunSource(data="run-1.xlsx", header_row=2, day="2026-11-30")], COLUMNS, types,
                            "T-1")
-    assert [i.type for i in injections] == ["calibrator", "calibrator", "blank", "qc", "sample"]
+    assert [i.type for i in injections] == ["calibrator", "calibrator", "zero", "qc", "sample"]
     assert [i.row for i in injections] == [3, 4, 5, 6, 7]                   # sheet rows
     assert {(i.run, i.day, i.analyte, i.sheet) for i in injections} == {("run 1", "2026-11-30", "enro", "Results")}
     for inj, written in zip(injections, ROWS):
@@ -102,9 +104,10 @@ def test_export_errors_name_the_cell(make_study, change, expected):
     assert str(info.value).startswith(expected)
 
 
-@pytest.mark.parametrize("area", [None, 0.0])
+@pytest.mark.parametrize("area", [None, 0.0, 10020.0])
 def test_a_blank_without_internal_standard_has_no_ratio(make_study, area):
-    # ICH M10: a blank has neither analyte nor internal standard; its IS area may be missing or 0
+    # ICH M10: a blank has neither analyte nor internal standard; its IS area may be missing or 0, and an IS
+    # area it shows (IS carry-over, or blank matrix with IS typed as a blank) gives no ratio either
     reader, folder = reader_for(make_study)
     rows = [list(r) for r in ROWS]
     rows[2][5] = area

@@ -99,7 +99,7 @@ response = "Area"
 internal_standard = "IS Area"
 [types]
 calibrator = ["Cal"]
-blank = ["Blk"]
+zero = ["Blk"]                 # blank matrix with the internal standard: zero samples (a blank has no IS)
 qc = ["QC"]
 unspiked = ["Unspiked"]
 spiked = ["Spiked"]

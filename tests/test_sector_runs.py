@@ -52,13 +52,13 @@ low_level = ["Low"]
 HEADER = "Sample,Type,Level,Area,IS Area,Lot\n"
 # run 1: the blank right after the highest calibrator (Cal 4, row 6) is DB-1 (row 7)
 RUN_1 = HEADER + """\
-ZB-1,Blank,,3,1000,
+ZB-1,Zero,,3,1000,
 Cal 1,Cal,1,100,1000,
 Cal 2,Cal,2,210,1020,
 Cal 3,Cal,5,490,980,
 Cal 4,Cal,10,1010,1000,
 DB-1,Blank,,12,30,
-ZB-2,Blank,,2,995,
+ZB-2,Zero,,2,995,
 Cal 1b,Cal,1,104,990,
 MB-1,Blank Lot,,5,20,L1
 MB-2,Blank Lot,,8,10,L2
@@ -84,7 +84,7 @@ Cal 3,Cal,5,505,1000,
 Cal 4,Cal,10,995,1000,
 Cal 4b,Cal,10,1000,1000,
 DB-2,Blank,,18,25,
-ZB-3,Blank,,4,1002,
+ZB-3,Zero,,4,1002,
 LL-A,Low,0.5,48,1000,L1
 LL-B,Low,0.5,54,1000,L2
 """
@@ -153,7 +153,7 @@ def test_carry_over_follows_the_mapped_order_column(tmp_path, outside):
 
 
 def test_no_blank_after_the_highest_calibrator_is_not_applicable(tmp_path, outside):
-    text = RUN_1.replace("DB-1,Blank,,12,30,\n", "").replace("ZB-2,Blank,,2,995,\n", "")   # Cal 4, then Cal 1b
+    text = RUN_1.replace("DB-1,Blank,,12,30,\n", "").replace("ZB-2,Zero,,2,995,\n", "")   # Cal 4, then Cal 1b
     r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": text}), outside))
     co = r["carry_over"]
     assert co["passed"] is None and co["max_analyte_percent"] is None
@@ -337,13 +337,13 @@ def test_limits_from_runs_equal_the_own_files(tmp_path, outside):
     sectors = '\n[limit_of_blank]\nmethod = "parametric"\n[method_detection_limit]\n'
     def zero_blanks(text):      # the blanks with the internal standard only (not the carry-over or matrix blanks)
         return ("".join(line + "\n" for line in text.splitlines() if not line.startswith(("MB-", "DB-")))
-                + "ZB-1,Blank,,5,1001,\nZB-2,Blank,,3,997,\nZB-1,Blank,,2,1000,\n")
+                + "ZB-1,Zero,,5,1001,\nZB-2,Zero,,3,997,\nZB-1,Zero,,2,1000,\n")
 
     ra = run_json(write_runs(runs_dir, {"run-1.csv": zero_blanks(RUN_1), "run-2.csv": zero_blanks(RUN_2)},
                              sectors=sectors), outside, "a")
     a = analyte(ra)
     injections = a["runs"]["injections"]
-    blanks = [i for i in injections if i["type"] == "blank"]
+    blanks = [i for i in injections if i["type"] == "zero"]
     low = [i for i in injections if i["type"] == "low_level"]
     assert len(low) == 10 and all(i["found"] is not None for i in blanks + low)
     # the chain response -> run calibration -> found, for one low-level injection (hand computation,
@@ -556,3 +556,31 @@ def test_the_dossier_says_the_qc_studies_came_from_the_runs(tmp_path, outside):
     for what in ("have a lot", "have a storage condition", "have a dilution factor"):
         assert f"the runs' QC injections that {what}" in text
     assert "the matrix effect (QCs of each lot)" in text and "dilution integrity (diluted QCs)" in text
+
+
+# --- a blank with an internal standard mapped ------------------------------------------------------
+
+def test_a_blank_showing_an_is_area_has_no_ratio_and_feeds_no_limit(tmp_path, outside):
+    """A blank has neither analyte nor IS (ICH M10): the small IS area a blank shows (carry-over of the IS)
+    gives no ratio, so it is not quantified and is not a blank result of the LoB or MDL; the zero samples
+    (blank matrix with the IS) are."""
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": RUN_1, "run-2.csv": RUN_2}), outside))
+    db = next(i for i in r["runs"]["injections"] if i["sample"] == "DB-1")
+    assert (db["type"], db["internal_standard_response"]) == ("blank", 30)
+    assert db["response"] is None and db["found"] is None and "ratio analyte/IS is undefined" in db["reason"]
+    zeros = [i for i in r["runs"]["injections"] if i["type"] == "zero"]
+    assert [i["sample"] for i in zeros] == ["ZB-1", "ZB-2", "ZB-3"]
+    # the LoB's blank results are the zero samples' found values, not the blanks' (DB-1, DB-2)
+    assert r["limit_of_blank"]["blank_results"] == pytest.approx([i["found"] for i in zeros], rel=1e-15)
+    assert r["method_detection_limit"]["n_blanks"] == 3
+    # still read on raw areas: the carry-over of run 1 is DB-1's (hand computation, 100 x 12/102)
+    assert r["carry_over"]["run_blanks"][0]["analyte_percent"] == pytest.approx(100 * 12 / 102, rel=1e-12)
+
+
+def test_blanks_without_zero_samples_cannot_give_the_limit_of_blank(tmp_path):
+    text = RUN_1.replace("ZB-1,Zero,,3,1000,\n", "").replace("ZB-2,Zero,,2,995,\n", "")
+    with pytest.raises(DataError) as err:
+        load_study(write_runs(tmp_path, {"run-1.csv": text}))
+    assert str(err.value).startswith('run-1.csv, row 6: [limit_of_blank] reads the runs\' blank results, but '
+                                     'analyte "SR-1" has blank injections (first: "DB-1") and no zero injection')
+    assert "type blank matrix with the internal standard as zero" in str(err.value)

@@ -7,15 +7,19 @@ order, lot, condition and dilution), ``[types]`` which of its words means which 
 Std" is a calibrator). Columns the study does not map are left unread.
 
 Each row becomes an :class:`Injection` with its run and day labels, its analyte, its type
-(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level), its
+(calibrator, blank, zero, qc, spiked, unspiked, reference, sample, matrix_blank, low_level,
+post_extraction, neat, solvent_calibrator), its
 level (the nominal concentration of a calibrator or QC, the added amount of a spiked sample),
 its response, its lot and its place in the run's sequence (the ``order`` column, else the row).
 When an internal-standard column is mapped, the response is the ratio analyte / internal
 standard, computed here; both raw areas are kept for the audit trail, and a missing, zero
 or negative internal-standard area is an error naming the row, except that a blank or a
-matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0: its ratio
-is then undefined (``response`` None) and it serves the checks on raw areas only. A zero
-sample (type ``zero``: blank matrix with the internal standard) needs its IS area.
+matrix blank (neither analyte nor internal standard, ICH M10) may have none or 0. A blank's
+or matrix blank's ratio is never computed when an internal standard is mapped (``response``
+None), whatever IS area it shows: the IS area of a blank is carry-over or noise, so the ratio
+means nothing, and the injection serves the checks on raw areas only (carry-over,
+selectivity). Blank matrix with the internal standard is a zero sample (type ``zero``): it
+needs its IS area, has a ratio and is quantified (limits of blank, MDL method blanks).
 
 Quantification (a response read back through its run's calibration) is analysis and happens
 downstream; this module only reads.
@@ -33,7 +37,7 @@ from .tables import MAX_NAME_LENGTH
 __all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
 
 # the types whose level (nominal concentration, or added amount) must be given
-NEEDS_LEVEL = ("calibrator", "qc", "spiked")
+NEEDS_LEVEL = ("calibrator", "qc", "spiked", "solvent_calibrator")
 
 
 @dataclass(frozen=True)
@@ -51,8 +55,9 @@ class Injection:
         Nominal concentration (calibrator, QC) or added amount (spiked); None when not given.
     response : float or None
         What is calibrated: the analyte's response, or its ratio to the internal standard; None
-        for a blank or matrix blank with no internal-standard area (missing, or 0): the ratio is
-        undefined and the injection serves the checks on raw areas only (carry-over, selectivity).
+        for a blank or matrix blank when an internal standard is mapped (it has none: the ratio is
+        not computed, whatever IS area is read) and the injection serves the checks on raw areas
+        only (carry-over, selectivity).
     analyte_response, internal_standard_response : float, float or None
         The raw areas (heights) as read; the second is None without an internal standard, or
         when a blank's IS area is not given.
@@ -281,7 +286,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind in NEEDS_LEVEL and levels[i] is None:
             what = {"calibrator": "its nominal concentration", "qc": "its nominal concentration",
-                    "spiked": "the amount added"}[kind]
+                    "spiked": "the amount added", "solvent_calibrator": "its nominal concentration"}[kind]
             raise _error(table, f"a {kind} injection needs a level ({what})", row=row, column=mapped["level"])
         if levels[i] is not None and levels[i] < 0:
             raise _error(table, f"the level {levels[i]:g} is negative", row=row, column=mapped["level"],
@@ -297,9 +302,13 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
             lots[i] = text.strip()
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
-        if kind == "matrix_blank" and not lots[i]:
-            raise _error(table, "a matrix_blank injection needs its lot (map the lot column in [columns] lot)",
+        if kind in ("matrix_blank", "post_extraction") and not lots[i]:
+            raise _error(table, f"a {kind} injection needs its lot (map the lot column in [columns] lot)",
                          row=row, column=mapped["lot"] or "lot", value=lots[i])
+        if kind == "neat" and lots[i]:
+            raise _error(table, "a neat injection is the neat solution (no matrix): it has no lot; a spike into "
+                         "extracted blank matrix of one lot is a post_extraction injection", row=row,
+                         column=mapped["lot"], value=lots[i])
     conditions = [""] * len(table)
     if mapped["condition"] and table.has(mapped["condition"]):
         column = mapped["condition"]
@@ -351,8 +360,8 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     for i, row in enumerate(table.rows):
         if not mapped["internal_standard"]:
             ratio = response[i]
-        else:             # a blank without an IS area has no ratio: used for its raw areas only
-            ratio = response[i] / internal[i] if internal[i] else None
+        else:             # a blank has no IS: its ratio means nothing, whatever IS area it shows (raw areas only)
+            ratio = response[i] / internal[i] if kinds[i] not in BLANK_TYPES else None
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
@@ -484,6 +493,7 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 if inj.level not in fresh:
                     raise DataError(f'reference = "fresh" but nominal {inj.level:g} has no QC of condition "fresh" '
                                     "to compare with", file=inj.file, row=inj.row, column=header, value=inj.level)
+    _check_matrix_factor(own, header)
     low = [i for i in own if i.type == "low_level" and i.level is not None]
     if fed_by_runs(cfg, "limit_of_blank"):
         first: dict = {}
@@ -499,6 +509,40 @@ def _check_sector_injections(own, cfg, pooled: bool) -> None:
                 raise DataError(f"low-level injection at level {inj.level:g}, but {show(low[0].file)} row "
                                 f"{low[0].row} has {low[0].level:g}; the MDL takes one spike level per analyte",
                                 file=inj.file, row=inj.row, column=header, value=inj.level)
+
+
+def _level_text(level) -> str:
+    return "no level" if level is None else f"level {level:g}"
+
+
+def _check_matrix_factor(own, header: str) -> None:
+    """The matrix factor's injections of one analyte: one level for every post_extraction injection (one
+    factor per analyte, as from factor_data), and neat injections at that level to divide by."""
+    spiked = [i for i in own if i.type == "post_extraction"]
+    neat = [i for i in own if i.type == "neat"]
+    if neat and not spiked:
+        raise DataError(f'neat injection "{show(neat[0].sample)}" has no post_extraction injection of analyte '
+                        f'"{show(neat[0].analyte)}" to compare with: the matrix factor divides the response in each '
+                        "lot by the neat solution's", file=neat[0].file, row=neat[0].row, value=neat[0].sample)
+    if not spiked:
+        return
+    first = spiked[0]
+    for inj in spiked[1:]:
+        if inj.level != first.level:
+            raise DataError(f"post_extraction injection at {_level_text(inj.level)}, but {show(first.file)} row "
+                            f"{first.row} is at {_level_text(first.level)}; the matrix factor takes one level per "
+                            "analyte", file=inj.file, row=inj.row, column=header, value=inj.level)
+    if not any(i.level == first.level for i in neat):
+        have = ", ".join(dict.fromkeys(_level_text(i.level) for i in neat)) or "none"
+        raise DataError(f'post_extraction injection "{show(first.sample)}" at {_level_text(first.level)} has no neat '
+                        f"injection at the same level to compare with (neat injections of analyte "
+                        f'"{show(first.analyte)}": {have})', file=first.file, row=first.row, column=header,
+                        value=first.level)
+    for inj in neat:
+        if inj.level != first.level:
+            raise DataError(f"neat injection at {_level_text(inj.level)}, but the post_extraction injections are at "
+                            f"{_level_text(first.level)} ({show(first.file)} row {first.row}); the matrix factor "
+                            "compares one level", file=inj.file, row=inj.row, column=header, value=inj.level)
 
 
 @dataclass(frozen=True)
@@ -579,6 +623,30 @@ def load_runs(reader) -> RunsData:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but no {names} table '
                             "takes its data from the runs; add one without a data file of its own",
                             file=first.file, row=first.row)
+    internal = (cfg.columns or ColumnsSection()).internal_standard
+    if internal and fed_by_runs(cfg, "limit_of_blank"):
+        for own in grouped.values():
+            blank = next((i for i in own if i.type == "blank"), None)
+            if blank is not None and not any(i.type == "zero" for i in own):
+                raise DataError(f'[limit_of_blank] reads the runs\' blank results, but analyte "{show(blank.analyte)}" '
+                                f'has blank injections (first: "{show(blank.sample)}") and no zero injection: with an '
+                                "internal standard a blank (neither analyte nor IS) has no ratio and is not "
+                                "quantified; type blank matrix with the internal standard as zero ([types] zero)",
+                                file=blank.file, row=blank.row, value=blank.sample)
+    from .study import RUN_FED_PARTS, part_fed_by_runs
+    for kind, (table, key) in RUN_FED_PARTS.items():
+        first = next((i for i in injections if i.type == kind), None)
+        if first is not None and not part_fed_by_runs(cfg, kind):
+            how = (f"[{table}] names its own {key}" if getattr(cfg, table, None) is not None
+                   else f"the study has no [{table}] table")
+            raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but {how}: no table '
+                            f"reads them; add [{table}] without {key} to take them from the runs",
+                            file=first.file, row=first.row, value=first.sample)
+    factor = [i for i in injections if i.type in ("post_extraction", "neat")]
+    if factor and not internal:
+        raise DataError(f'{factor[0].type} injection "{show(factor[0].sample)}": the IS-normalised matrix factor '
+                        "needs the internal-standard area of each injection; map its column ([columns] "
+                        "internal_standard)", file=factor[0].file, row=factor[0].row, value=factor[0].sample)
     from .study import QC_ROLES
     for column, table in QC_ROLES.items():
         first = next((i for i in injections if i.type == "qc" and getattr(i, column)), None)

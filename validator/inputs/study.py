@@ -212,7 +212,7 @@ def check_range(v, name: str = "range_pct"):
 # --- analytical runs: instrument exports read untouched (validator.inputs.runs) ---------------------
 
 INJECTION_TYPES = ("calibrator", "blank", "zero", "qc", "spiked", "unspiked", "reference", "sample", "matrix_blank",
-                   "low_level")
+                   "low_level", "post_extraction", "neat", "solvent_calibrator")
 # ICH M10's words: a blank has neither analyte nor internal standard, a zero sample the internal standard only.
 # The blank types may have no internal-standard area (missing, or 0): their ratio response is then undefined
 # and they serve the checks on raw areas only (carry-over, selectivity)
@@ -285,6 +285,12 @@ class TypesSection(_Section):
     zero: Words = []
     matrix_blank: Words = []
     low_level: Words = []
+    # no default words either: the matrix factor's analyte and IS spiked after extraction into a blank matrix
+    # of one lot, and the same amounts in neat solution (ICH M10); a calibrator prepared in solvent, the
+    # solvent calibration of the slope ratio (SANTE/11312/2021) beside the runs' matrix-matched calibrators
+    post_extraction: Words = []
+    neat: Words = []
+    solvent_calibrator: Words = []
 
     @model_validator(mode="after")
     def _distinct(self):
@@ -724,6 +730,18 @@ RUN_FED_SECTOR = {"carry_over": ("data",), "selectivity": ("data",), "limit_of_b
 _OPTIONAL_FILE_KEYS = ("low_samples", "lots_data")
 # the QC injections a sector table reads from the runs: the [columns] field that marks them -> the table
 QC_ROLES = {"lot": "matrix_effect", "condition": "stability", "dilution": "dilution_integrity"}
+# the parts of [matrix_effect] the runs give when its own file for them is left out: injection type ->
+# (the table, its file key). post_extraction and neat: the matrix factor; solvent_calibrator: the slope ratio
+RUN_FED_PARTS = {"post_extraction": ("matrix_effect", "factor_data"), "neat": ("matrix_effect", "factor_data"),
+                 "solvent_calibrator": ("matrix_effect", "solvent_data")}
+
+
+def part_fed_by_runs(config, kind: str) -> bool:
+    """True when the study has the table that reads injections of ``kind`` (a key of :data:`RUN_FED_PARTS`)
+    from the runs: the table is there and names no file of its own for that part."""
+    table, key = RUN_FED_PARTS[kind]
+    section = getattr(config, table, None)
+    return bool(config.runs) and section is not None and getattr(section, key) is None
 
 
 def fed_by_runs(config, name: str) -> bool:

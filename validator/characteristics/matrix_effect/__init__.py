@@ -5,8 +5,10 @@ from __future__ import annotations
 
 from dataclasses import replace
 
+import numpy as np
+
 from .. import calibration, runs
-from ..runs.analysis import study_qc_found
+from ..runs.analysis import matrix_factor_responses, solvent_calibration, study_qc_found
 from .._entry import Assessment, Characteristic
 from . import presentation, settings
 from .analysis import MatrixEffect, matrix_effect, matrix_effect_criteria
@@ -23,12 +25,26 @@ def assess(ctx) -> Assessment[MatrixEffect] | None:
     s: MatrixEffectSection | None = ctx.settings_of(ENTRY)
     if s is None:
         return None
-    # no lots_data with [[runs]]: the lots are the QC injections with a lot, found through their run's calibration
-    lots = ctx.result_of(runs.ENTRY) if s.lots_data is None else None
-    lots = None if lots is None else study_qc_found(lots, "matrix lots")
+    # the parts whose own file is left out, with [[runs]]: the lots are the QC injections with a lot, found
+    # through their run's calibration; the matrix factor the areas of the post_extraction and neat injections;
+    # the solvent calibration the solvent_calibrator injections
+    sequence = ctx.result_of(runs.ENTRY)
+    lots = study_qc_found(sequence, "matrix lots") if sequence is not None and s.lots_data is None else None
+    factor = matrix_factor_responses(sequence) if sequence is not None and s.factor_data is None else None
+    solvent = solvent_calibration(sequence) if sequence is not None and s.solvent_data is None else None
     if lots is not None:
         data = replace(data or MatrixEffectData(), lots=tuple(lots.labels), lot_nominal=lots.nominal,
                        lot_found=lots.found)
+    if factor is not None:
+        neat = np.arange(factor.analyte.size + factor.neat_analyte.size) >= factor.analyte.size
+        data = replace(data or MatrixEffectData(), factor_lots=factor.lots + ("",) * factor.neat_analyte.size,
+                       factor_analyte=np.concatenate([factor.analyte, factor.neat_analyte]),
+                       factor_internal_standard=np.concatenate([factor.internal_standard,
+                                                                factor.neat_internal_standard]),
+                       factor_neat=neat)
+    if solvent is not None:
+        data = replace(data or MatrixEffectData(), solvent_concentration=solvent.concentration,
+                       solvent_response=solvent.response)
     if data is None:
         return None
     cal = ctx.data.calibration
@@ -40,8 +56,8 @@ def assess(ctx) -> Assessment[MatrixEffect] | None:
                            limit_pct=s.limit_pct, lot_max_bias_pct=s.lot_max_bias_pct, lot_max_cv_pct=s.lot_max_cv_pct,
                            min_lots=s.min_lots, min_replicates=s.min_replicates, factor_max_cv_pct=s.factor_max_cv_pct,
                            judge_slope_ratio=s.judge_slope_ratio)
-    if lots is not None:
-        result = replace(result, data_from="runs")
+    from_runs = {"data_from": lots, "factor_data_from": factor, "slope_ratio_data_from": solvent}
+    result = replace(result, **{key: "runs" for key, part in from_runs.items() if part is not None})
     return Assessment(result, matrix_effect_criteria(result, judge_slope_ratio=s.judge_slope_ratio, limit_pct=s.limit_pct))
 
 

@@ -21,9 +21,6 @@ from ...sector.matrix_effect import (LotAccuracyAssessment, NormalisedMatrixFact
 
 __all__ = ["MatrixEffect", "matrix_effect", "matrix_effect_criteria"]
 
-NEAT = "neat"
-
-
 @dataclass(frozen=True)
 class MatrixEffect:
     """What was assessed; a part not assessed is ``None`` (or an empty tuple of lots) with its reason."""
@@ -39,6 +36,10 @@ class MatrixEffect:
     # where the lots' results came from: "file" (lots_data) or "runs" (the QC injections of [[runs]] with a
     # lot, each found through its run's calibration, as listed in the runs' chain); "file" without lots too
     data_from: str = "file"
+    # likewise for the matrix factor ("runs": the areas of the post_extraction and neat injections) and the
+    # slope ratio's solvent calibration ("runs": the solvent_calibrator injections); "file" without them too
+    factor_data_from: str = "file"
+    slope_ratio_data_from: str = "file"
 
 
 # the slope ratio is reported, not judged, unless judge_slope_ratio = true: why, in results.json and the dossier
@@ -104,7 +105,7 @@ def matrix_effect(data, matrix_concentration, matrix_response, *, level: float, 
     if data.factor_analyte is None:
         factor_reason = "no matrix-factor responses (factor_data) were given"
     else:
-        neat = np.array([lot.casefold() == NEAT for lot in data.factor_lots])
+        neat = np.asarray(data.factor_neat, bool)
         factor = normalised_matrix_factor(data.factor_analyte[~neat], data.factor_internal_standard[~neat],
                                           [lot for lot, n in zip(data.factor_lots, neat) if not n],
                                           data.factor_analyte[neat], data.factor_internal_standard[neat],

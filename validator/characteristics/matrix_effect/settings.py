@@ -8,7 +8,10 @@ lots_data = "matrix-lots.csv"              # ICH M10: columns lot, nominal, foun
                                            # (left out with [[runs]]: the QC injections that have a lot)
 factor_data = "matrix-factor.csv"          # columns lot, analyte_response, internal_standard_response;
                                            # rows with lot "neat" are the neat-solution responses
+                                           # (left out with [[runs]]: the post_extraction and neat injections)
 ```
+With [[runs]], solvent_data may be left out too: the solvent_calibrator injections are the solvent
+calibration.
 """
 
 from __future__ import annotations
@@ -58,6 +61,8 @@ class MatrixEffectData:
     factor_lots: tuple[str, ...] = field(default=(), repr=False)
     factor_analyte: np.ndarray | None = field(default=None, repr=False)
     factor_internal_standard: np.ndarray | None = field(default=None, repr=False)
+    # which factor responses are the neat solution's (factor_data: lot "neat"; the runs: neat injections)
+    factor_neat: np.ndarray | None = field(default=None, repr=False)
 
 
 def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
@@ -101,5 +106,6 @@ def load(reader, settings: MatrixEffectSection, analytes: dict) -> dict:
                                 "compares each lot with the neat solution", file=table.path,
                                 row=table.rows[idx[0]], column="lot")
             parts.setdefault(name, {}).update(factor_lots=tuple(lots[i] for i in idx), factor_analyte=a[idx],
-                                              factor_internal_standard=s[idx])
+                                              factor_internal_standard=s[idx],
+                                              factor_neat=np.array([lots[i].casefold() == NEAT for i in idx]))
     return {name: MatrixEffectData(**values) for name, values in parts.items()}

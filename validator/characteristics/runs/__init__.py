@@ -45,9 +45,12 @@ def assess(ctx) -> Assessment[RunsResult] | None:
                 and (reads is None or any(reads(i) for i in result.injections))):
             provides.append((name, result))
     feeds = [name for name, _ in provides]
-    # the matrix effect's lots: its other parts may come from its own files, so it reads this result itself
+    # the matrix effect's lots, matrix factor and solvent calibration: its other parts may come from its own
+    # files, so it reads this result itself
     me = ctx.config.matrix_effect
-    if me is not None and me.lots_data is None and study_qc_found(result, "matrix lots") is not None:
+    if me is not None and ((me.lots_data is None and study_qc_found(result, "matrix lots") is not None)
+                           or (me.factor_data is None and result.of_type("post_extraction"))
+                           or (me.solvent_data is None and result.of_type("solvent_calibrator"))):
         feeds.append("matrix_effect")
     result = replace(result, feeds=tuple(sorted(feeds, key=_ORDER.index)))
     return Assessment(result, (), provides=tuple((name, result if isinstance(data, RunsResult) else data)

@@ -20,12 +20,14 @@ from ..._common import quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
 
 __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs", "study_qc", "study_qc_found",
-           "StudyQcFound"]
+           "StudyQcFound", "MatrixFactorResponses", "matrix_factor_responses", "SolventCalibration",
+           "solvent_calibration"]
 
 POOLED = "pooled"
-# why a blank without an internal-standard area has no found value (its chain in results.json says it)
-NO_RATIO = ("no internal-standard area (a blank has none): the ratio analyte/IS is undefined, so nothing is "
-            "quantified; the injection serves the checks on raw areas only (carry-over, selectivity)")
+# why a blank has no found value when an internal standard is mapped (its chain in results.json says it)
+NO_RATIO = ("a blank has neither analyte nor internal standard: with an internal standard its ratio analyte/IS is "
+            "undefined (whatever IS area it shows), so nothing is quantified; the injection serves the checks on raw "
+            "areas only (carry-over, selectivity); blank matrix with the internal standard is a zero sample")
 
 
 @dataclass(frozen=True)
@@ -54,8 +56,8 @@ class QuantifiedInjection:
     """One injection read back through a calibration: response -> calibration -> found.
 
     ``found`` is None (with ``reason``) when no concentration corresponds to the response
-    (beyond the vertex of a quadratic), or when a blank has no internal-standard area (``response``
-    None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
+    (beyond the vertex of a quadratic), or for a blank or matrix blank when an internal standard is
+    mapped (``response`` None: the ratio is undefined). ``within_range`` is False for an extrapolated value.
     """
 
     run: str
@@ -297,6 +299,50 @@ def study_qc_found(result: RunsResult, kind: str) -> StudyQcFound | None:
     attribute = {"matrix lots": "lot", "stability": "condition", "dilution": "dilution"}[kind]
     return StudyQcFound(tuple(getattr(i, attribute) for i in qc), np.array([i.level for i in qc], float),
                         np.array([i.found for i in qc], float))
+
+
+@dataclass(frozen=True)
+class MatrixFactorResponses:
+    """The matrix factor's raw responses from the runs: each post_extraction injection's lot, analyte and IS
+    areas, and the neat injections' (run order). Areas, never ratios: the factor compares the detector's
+    response with and without matrix, for the analyte and the IS each."""
+
+    lots: tuple[str, ...] = field(repr=False)
+    analyte: np.ndarray = field(repr=False)
+    internal_standard: np.ndarray = field(repr=False)
+    neat_analyte: np.ndarray = field(repr=False)
+    neat_internal_standard: np.ndarray = field(repr=False)
+
+
+def matrix_factor_responses(result: RunsResult) -> MatrixFactorResponses | None:
+    """The post_extraction and neat injections' areas (:class:`MatrixFactorResponses`); ``None`` without a
+    post_extraction injection. Their level was checked when the runs were read (one per analyte, the
+    neat injections at it: :func:`validator.inputs.runs.read_runs`)."""
+    spiked = result.of_type("post_extraction")
+    if not spiked:
+        return None
+    neat = result.of_type("neat")
+    return MatrixFactorResponses(tuple(i.lot for i in spiked), np.array([i.analyte_response for i in spiked], float),
+                                 np.array([i.internal_standard_response for i in spiked], float),
+                                 np.array([i.analyte_response for i in neat], float),
+                                 np.array([i.internal_standard_response for i in neat], float))
+
+
+@dataclass(frozen=True)
+class SolventCalibration:
+    """The solvent calibration of the slope ratio from the runs: the solvent_calibrator injections' levels
+    and responses (area, or ratio to the IS as for the matrix-matched calibrators), all runs together."""
+
+    concentration: np.ndarray = field(repr=False)
+    response: np.ndarray = field(repr=False)
+
+
+def solvent_calibration(result: RunsResult) -> SolventCalibration | None:
+    """The solvent_calibrator injections of every run (:class:`SolventCalibration`); ``None`` without any."""
+    solvent = result.of_type("solvent_calibrator")
+    if not solvent:
+        return None
+    return SolventCalibration(np.array([i.level for i in solvent], float), np.array([i.response for i in solvent], float))
 
 
 def reference_found(result: RunsResult) -> np.ndarray | None:
