@@ -19,6 +19,7 @@ from .characteristics import calibration
 from .characteristics._entry import Assessment, Characteristic
 from .characteristics.calibration import CalibrationResult
 from .characteristics.precision import PrecisionLevel, PrecisionResult
+from .characteristics.runs import SECTOR_READS, RunsResult
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 
@@ -224,10 +225,20 @@ def _declared_without_data(step: Characteristic, ctx: AnalyteContext) -> Criteri
     """A not-applicable criterion when the study declares ``step``'s table but this analyte has
     no data for it: the analyte's validation is then incomplete, never silently shorter."""
     settings = ctx.settings_of(step)
-    if not step.judges or step.load is None or settings is None or ctx.data_of(step) is not None:
+    if not step.judges or step.load is None or settings is None:
         return None
     if getattr(settings, "analyte", None) not in (None, ctx.data.name):
         return None             # the table is for another analyte (a reference material certified for one)
+    data = ctx.data_of(step)
+    reads_runs = (bool(step.runs_reads) and step.name in SECTOR_READS
+                  and getattr(settings, SECTOR_READS[step.name][0], None) is None)
+    if data is not None and not (reads_runs and isinstance(data, RunsResult)):
+        return None
+    if reads_runs:          # no file of its own: the runs gave none of what it reads (or nothing with a found value)
+        return Criterion(f"{step.name}-data", f"{step.title}: data for this analyte", None, None, None,
+                         f"not applicable: the study declares [{step.name}] to read the runs, but the runs of "
+                         f'analyte "{ctx.data.name}" have no {step.runs_reads}, so it was not assessed for this '
+                         "analyte")
     return Criterion(f"{step.name}-data", f"{step.title}: data for this analyte", None, None, None,
                      f"not applicable: the study declares [{step.name}], but its data have no rows for "
                      f'analyte "{ctx.data.name}", so it was not assessed for this analyte')

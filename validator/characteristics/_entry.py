@@ -71,7 +71,11 @@ class Characteristic(Generic[R]):
     results.json writes for a result that holds more than it shows (the calibration's fit).
     ``judges``: when the study declares the table but the analyte has no data in its file, the
     analyte gets a not-applicable criterion ``<name>-data`` saying so (never a silent omission);
-    False for entries that only supply data or quantify (blanks, samples).
+    False for entries that only supply data or quantify (blanks, samples). ``runs_reads``: for an
+    entry that can read the runs, what it reads there (``"blank or zero injections with a found
+    value"``); when the study declares the table to read the runs and ``assess`` returns ``None``
+    because the analyte's runs have none of these, the analyte gets the same ``<name>-data``
+    criterion, saying so.
     """
 
     name: str
@@ -88,6 +92,7 @@ class Characteristic(Generic[R]):
     judges: bool = True
     json_path: str | None = None
     record: Callable[[R], Any] | None = None
+    runs_reads: str = ""
 
     @property
     def written_at(self) -> str:

@@ -87,6 +87,8 @@ class MethodDetectionLimit:
 
     @property
     def blank_reason(self) -> str:
+        if self.n_blanks == 0:
+            return "no method blank was analysed: MDL_b is unknown"
         if self.blank_rule == "none numerical":
             return "no method blank gave a numerical result: MDL_b does not apply"
         why = [n for n in self.notes if "MDL_b does not apply" in n]
@@ -146,7 +148,8 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
       - all do: MDL_b = X_b + t(n_b - 1, 1 - alpha) S_b, with X_b taken as 0
         when it is negative.
     * MDL = max(MDL_s, MDL_b), or MDL_s when MDL_b does not apply.
-    Fewer than seven spiked samples give no MDL (value ``None``); so does a
+    Fewer than seven spiked samples give no MDL (value ``None``); so does the
+    absence of any method blank (MDL_b, and so the MDL, is then unknown); so does a
     spiked result that is not a numerical result above zero (from memory:
     Appendix B Rev. 2, II(2): such a result means the spiked samples are to be
     repeated at a higher concentration, so they do not determine an MDL), and
@@ -228,6 +231,12 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
 
     if mdl_s is None:
         value, reason = None, f"MDL_s not available: {reason_s}"
+    elif n_b == 0:
+        # Appendix B Rev. 2, II(2): MDL = the higher of MDL_s and MDL_b; without a single method blank MDL_b
+        # is unknown (not "does not apply", which needs blanks that gave no numerical result), so the MDL is too
+        value, reason = None, (f"no method blank was analysed: MDL_b is unknown, so the MDL (the higher of MDL_s, "
+                               f"{mdl_s:.4g}, and MDL_b) is not known; 40 CFR 136 Appendix B requires at least "
+                               f"{MINIMUM_BLANKS} method blanks")
     else:
         value, reason = (mdl_s if mdl_b is None else max(mdl_s, mdl_b)), ""
     if n_s >= MINIMUM_SPIKED and not_positive:

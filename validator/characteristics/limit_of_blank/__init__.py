@@ -52,4 +52,5 @@ def _from_runs(runs: RunsResult) -> LimitOfBlankData | None:
 
 ENTRY: Characteristic[DetectionCapability] = Characteristic(
     "limit_of_blank", "Limit of blank, detection and quantitation (CLSI EP17-A2)", assess, settings=settings.LimitOfBlankSection, load=settings.load, result_types=(DetectionCapability,),
-    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/limit_of_blank.html.j2")
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/limit_of_blank.html.j2",
+    runs_reads="blank or zero injection with a found value (the limit of blank needs blank results)")

@@ -48,4 +48,5 @@ def _from_runs(runs: RunsResult) -> MethodDetectionLimitData | None:
 
 ENTRY: Characteristic[MethodDetectionLimit] = Characteristic(
     "method_detection_limit", "Method detection limit (40 CFR 136 Appendix B)", assess, settings=settings.MethodDetectionLimitSection, load=settings.load, result_types=(MethodDetectionLimit,),
-    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/method_detection_limit.html.j2")
+    sentences=presentation.sentences, figures=presentation.figures, fragment="characteristics/method_detection_limit.html.j2",
+    runs_reads="low_level injection with a found value (the MDL needs spiked results)")

@@ -25,7 +25,8 @@ def sentences(entry: dict, reading) -> dict:
                            f"{fmt(entry['spiked'])} {unit} (t = {fmt(entry['spiked_t'], 4)} on {entry['n_spiked'] - 1} df "
                            f"times the SD of {entry['n_spiked']} spiked results) and MDL_b = {fmt(entry['blank'])} {unit}; "
                            f"here {which}.")}
-    out["blanks"] = f"Method blanks: {entry['n_blanks']}, {entry['n_blanks_numerical']} with a numerical result; {_RULES[entry['blank_rule']]}."
+    rule = ("none was analysed, so MDL_b is unknown" if entry["n_blanks"] == 0 else _RULES[entry["blank_rule"]])
+    out["blanks"] = f"Method blanks: {entry['n_blanks']}, {entry['n_blanks_numerical']} with a numerical result; {rule}."
     if entry["blank_rule_reading"]:
         out["reading"] = f"Rule applied: {entry['blank_rule_reading']}."
     if entry["notes"]:
