@@ -100,3 +100,20 @@ def test_the_mdl_function_without_blanks_gives_no_value():
     # with one blank (fewer than 7) the MDL is still given, with the note (kept as before)
     r1 = method_detection_limit(spiked, [0.01, 0.02])
     assert r1.value is not None and any("fewer than the 7" in n for n in r1.notes)
+
+
+# ---------------------------------------------------------------- finding 9: extreme areas refused at load
+
+@pytest.mark.parametrize("row, bad", [(8, "1e101"), (2, "1e-101")])   # a blank's area; the lowest calibrator's
+def test_an_area_beyond_the_magnitude_limit_is_an_input_error_naming_its_cell(make_study, row, bad):
+    files = {f"run-{i}.csv": _run_file(i) for i in (1, 2, 3)}
+    lines = files["run-1.csv"].splitlines()
+    cells = lines[row - 1].split(",")
+    cells[3] = bad
+    lines[row - 1] = ",".join(cells)
+    files["run-1.csv"] = "\n".join(lines) + "\n"
+    study = make_study(RUNS + "[method_detection_limit]\n", files=files)
+    with pytest.raises(DataError) as err:
+        load_study(study)
+    # the limit of validator.maths.regression.MAGNITUDE_LIMIT (1e50), as for the other tables
+    assert err.value.row == row and err.value.column.lower() == "area" and "outside the magnitudes" in str(err.value)

@@ -31,6 +31,7 @@ import dataclasses
 from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
+from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
 from .study import BLANK_TYPES, INJECTION_TYPES
 from .tables import MAX_NAME_LENGTH
 
@@ -253,6 +254,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         days = [source.day] * len(table) if source.day else list(runs)
 
     response = table.numbers(mapped["response"])
+    _within_magnitudes(table, mapped["response"], response, table.rows)
     for value, row in zip(response, table.rows):
         if value < 0:
             raise _error(table, f"the response {value:g} is negative", row=row, column=mapped["response"], value=value)
@@ -268,6 +270,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
         for i, value in zip(given, _subset(table, given).numbers(column)):
             internal[i] = value
+        _within_magnitudes(table, column, [internal[i] for i in given], [table.rows[i] for i in given])
         for value, kind, row in zip(internal, kinds, table.rows):
             if value is None:
                 continue
@@ -283,6 +286,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
         given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
         for i, value in zip(given, _subset(table, given).numbers(column)):
             levels[i] = value
+        _within_magnitudes(table, column, [levels[i] for i in given], [table.rows[i] for i in given])
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind in NEEDS_LEVEL and levels[i] is None:
             what = {"calibrator": "its nominal concentration", "qc": "its nominal concentration",
@@ -322,6 +326,8 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
     if mapped["dilution"] and table.has(mapped["dilution"]):
         column = mapped["dilution"]
         given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+        _within_magnitudes(table, column, [float(v) for v in _subset(table, given).numbers(column)],
+                           [table.rows[i] for i in given])
         for i, value in zip(given, _subset(table, given).numbers(column)):
             row = table.rows[i]
             if not value >= 1:
@@ -362,12 +368,29 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
             ratio = response[i]
         else:             # a blank has no IS: its ratio means nothing, whatever IS area it shows (raw areas only)
             ratio = response[i] / internal[i] if kinds[i] not in BLANK_TYPES else None
+            if ratio is not None and first_out_of_range([ratio]) is not None:
+                raise _error(table, f"the response ratio {response[i]:g} / {internal[i]:g} = {ratio:g} is outside "
+                             f"the magnitudes validator can compute with (non-zero values from "
+                             f"{1 / MAGNITUDE_LIMIT:g} to {MAGNITUDE_LIMIT:g}); check the areas or rescale them",
+                             row=row, column=mapped["response"], value=response[i])
         out.append(Injection(run=runs[i], day=days[i], analyte=analytes[i], sample=samples[i], type=kinds[i],
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
                              lot=lots[i], position=float(positions[i]), condition=conditions[i],
                              dilution=dilutions[i]))
     return out
+
+
+def _within_magnitudes(table, column: str, values, rows) -> None:
+    """Refuse a number of a run export beyond the magnitudes the statistics compute with (as
+    :func:`validator.inputs.loading.numeric_column` does for the other tables): an instrument's overflow
+    value or a mistyped exponent is an input error naming its cell, never an internal one later on."""
+    i = first_out_of_range(values)
+    if i is not None:
+        raise _error(table, f"{column} {values[i]:g} is outside the magnitudes validator can compute with "
+                     f"(non-zero values from {1 / MAGNITUDE_LIMIT:g} to {MAGNITUDE_LIMIT:g}, so that squares and "
+                     "products of the data stay finite); check the cell or rescale the unit", row=rows[i],
+                     column=column, value=values[i])
 
 
 def _qc_role(inj) -> str:
