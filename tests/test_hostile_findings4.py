@@ -117,3 +117,22 @@ def test_an_area_beyond_the_magnitude_limit_is_an_input_error_naming_its_cell(ma
         load_study(study)
     # the limit of validator.maths.regression.MAGNITUDE_LIMIT (1e50), as for the other tables
     assert err.value.row == row and err.value.column.lower() == "area" and "outside the magnitudes" in str(err.value)
+
+
+# ---------------------------------------------------------------- finding 7: one empty low_level level is refused
+
+def test_an_empty_level_among_given_low_level_levels_is_an_input_error(make_study):
+    files = {f"run-{i}.csv": _run_file(i) for i in (1, 2, 3)}
+    files["run-2.csv"] = files["run-2.csv"].replace("Low 0,Low,0.5,", "Low 0,Low,,")
+    study = make_study(RUNS + "[method_detection_limit]\nmdl_max = 5\n", files=files)
+    with pytest.raises(DataError) as err:
+        load_study(study)
+    # the header row is row 1, the run's comment calibrator row 2, 5 calibrators, 5 blanks: "Low 0" is row 13
+    assert "run-2.csv" in str(err.value.file) and err.value.row == 13 and err.value.column == "Level"
+    assert "no level" in str(err.value)
+
+
+def test_low_level_injections_without_any_level_stay_allowed(make_study):
+    files = {f"run-{i}.csv": _run_file(i, low_level="") for i in (1, 2, 3)}
+    entry = _results(make_study(RUNS + "[method_detection_limit]\n", files=files))["analytes"][0]
+    assert entry["method_detection_limit"]["spike_level"] is None        # optional, README

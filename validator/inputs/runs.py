@@ -393,6 +393,23 @@ def _within_magnitudes(table, column: str, values, rows) -> None:
                      column=column, value=values[i])
 
 
+def _check_low_levels(own, cfg) -> None:
+    """The level of a low_level injection is optional, but for all of an analyte's or none: one empty cell
+    among given levels would silently drop the MDL's spike level (and its check) or the LoQ's nominal
+    values for the whole analyte."""
+    low = [i for i in own if i.type == "low_level"]
+    given = next((i for i in low if i.level is not None), None)
+    empty = next((i for i in low if i.level is None), None)
+    if given is not None and empty is not None:
+        from .study import ColumnsSection
+
+        column = (cfg.columns or ColumnsSection()).level or "level"
+        raise DataError(f'low_level injection "{show(empty.sample)}" of analyte "{show(empty.analyte)}" has no level, '
+                        f'but "{show(given.sample)}" ({show(given.file)} row {given.row}) has {given.level:g}: give the '
+                        "level (the spike level) on every low_level injection of the analyte, or on none",
+                        file=empty.file, row=empty.row, column=column)
+
+
 def _qc_role(inj) -> str:
     """The sector table a QC injection feeds instead of precision ("" for any other injection): one with a
     lot the matrix effect, with a condition stability, with a dilution factor dilution integrity."""
@@ -679,6 +696,7 @@ def load_runs(reader) -> RunsData:
                             f"(or leave the {column} column unmapped)", file=first.file, row=first.row)
     for own in grouped.values():
         _check_sector_injections(own, cfg, pooled)
+        _check_low_levels(own, cfg)
     design = tuple(getattr(cfg.precision, "design", None) or ()) if cfg.precision is not None else ()
     if set(design) - {"day", "run"}:
         raise StudyError("with [[runs]], a precision design can name the factors day and run only (they come "
