@@ -136,3 +136,22 @@ def test_low_level_injections_without_any_level_stay_allowed(make_study):
     files = {f"run-{i}.csv": _run_file(i, low_level="") for i in (1, 2, 3)}
     entry = _results(make_study(RUNS + "[method_detection_limit]\n", files=files))["analytes"][0]
     assert entry["method_detection_limit"]["spike_level"] is None        # optional, README
+
+
+# ---------------------------------------------------------------- finding 6: the carry-over note names runs not judged
+
+def _carry_run(k: int, blank_after_top: bool) -> str:
+    rows = ["Sample,Type,Level,Area", f"Blank first {k},Blank,,1"]
+    rows += [f"Cal {x},Cal,{x},{100 * x}" for x in LEVELS]
+    rows += ["Blank after,Blank,,5" if blank_after_top else f"Low {k},Low,0.5,50"]
+    return "\n".join(rows) + "\n"
+
+
+def test_a_met_carry_over_names_the_runs_it_could_not_judge(make_study):
+    files = {"run-1.csv": _carry_run(1, False), "run-2.csv": _carry_run(2, True), "run-3.csv": _carry_run(3, True)}
+    body = RUNS + "[carry_over]\n[limit_of_blank]\n"
+    entry = _results(make_study(body, files=files))["analytes"][0]
+    crit = _criterion(entry, "carry-over")
+    # hand computation: blank 5 / LLOQ (level 1) area 100 = 5 % <= 20 % (ICH M10), in runs 2 and 3
+    assert crit["pass"] is True and crit["value"] == pytest.approx(5.0)
+    assert "run(s) not judged: run-1" in crit["note"] and "no blank was injected right after" in crit["note"]

@@ -158,8 +158,13 @@ def carry_over_from_runs(injections, *, analyte_limit_pct: float, internal_stand
 def carry_over_criteria(result: CarryOver) -> tuple[Criterion, ...]:
     """``carry-over`` (largest blank, % of the LLOQ response) and, with IS responses,
     ``carry-over-internal-standard``; not applicable (with the reason) when no blank was found, and
-    the IS part alone when an IS is mapped but no blank without it shows its IS area."""
-    note = f"not applicable: {result.reason}" if result.max_analyte_percent is None else ""
+    the IS part alone when an IS is mapped but no blank without it shows its IS area. A run of the sequences
+    with no assessable blank is named in the note of the criteria judged on the others (never a silent gap)."""
+    unjudged = list(dict.fromkeys(r.run for r in result.run_blanks if r.analyte_percent is None))
+    partly = (f"run(s) not judged: {', '.join(unjudged)} ("
+              + "; ".join(r.reason for r in result.run_blanks if r.analyte_percent is None and r.reason) + ")"
+              if unjudged else "")
+    note = f"not applicable: {result.reason}" if result.max_analyte_percent is None else partly
     out = [Criterion("carry-over", f"largest blank after the highest calibrator at most {result.analyte_limit_percent:g} % "
                      "of the mean LLOQ analyte response", result.max_analyte_percent, result.analyte_limit_percent,
                      at_most(result.max_analyte_percent, result.analyte_limit_percent), note)]
@@ -168,7 +173,8 @@ def carry_over_criteria(result: CarryOver) -> tuple[Criterion, ...]:
                              f"largest IS response in those blanks at most {result.internal_standard_limit_percent:g} % "
                              "of the mean IS response", result.max_internal_standard_percent,
                              result.internal_standard_limit_percent,
-                             at_most(result.max_internal_standard_percent, result.internal_standard_limit_percent)))
+                             at_most(result.max_internal_standard_percent, result.internal_standard_limit_percent),
+                             partly))
     elif result.internal_standard_note:        # an IS is mapped, but no blank without it can show its part
         out.append(Criterion("carry-over-internal-standard",
                              f"largest IS response in those blanks at most {result.internal_standard_limit_percent:g} % "
