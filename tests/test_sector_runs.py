@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass
+from pathlib import Path
 
 import pytest
 from bs4 import BeautifulSoup
@@ -584,3 +585,30 @@ def test_blanks_without_zero_samples_cannot_give_the_limit_of_blank(tmp_path):
     assert str(err.value).startswith('run-1.csv, row 6: [limit_of_blank] reads the runs\' blank results, but '
                                      'analyte "SR-1" has blank injections (first: "DB-1") and no zero injection')
     assert "type blank matrix with the internal standard as zero" in str(err.value)
+
+
+# ---------------------------------------------------------------- carry-over and [[exclusions]] of the sequence
+PLASMA_EXAMPLE = Path(__file__).resolve().parents[1] / "example_studies" / "plasma-lcms-bioanalytical"
+
+
+@pytest.mark.parametrize("exclusion, refused", [
+    ('run = "run-1"\ninjection = "Cal 8"', True),          # the run's highest calibrator (level 500)
+    ('file = "run-1.csv"\nrow = 10', True),                 # the double blank right after it (file row 10)
+    ('run = "run-1"\ninjection = "Cal 1"', False),         # a lower calibrator: the sequence after the top is whole
+])
+def test_carry_over_refuses_exclusions_that_change_the_sequence_after_the_top(tmp_path, outside, capsys,
+                                                                             exclusion, refused):
+    # found by a black-box tester: excluding the highest calibrator made the carry-over use the blank after
+    # the next-highest one (2.6 %) instead of the 78 % blank injected right after the excluded top calibrator
+    import shutil
+    folder = tmp_path / "p"
+    shutil.copytree(PLASMA_EXAMPLE, folder)
+    study = folder / "study.toml"
+    study.write_text(study.read_text(encoding="utf-8") + f'\n[[exclusions]]\n{exclusion}\nreason = "test"\n',
+                     encoding="utf-8")
+    code = main(["run", str(study), "--out", str(outside / "o"), "--format", "json"])
+    err = capsys.readouterr().err
+    if refused:
+        assert code == 2 and "run-1.csv, row " in err and "[carry_over] reads the injection sequence" in err
+    else:
+        assert code in (0, 1), err

@@ -595,6 +595,43 @@ class RunsData:
     injections: dict
 
 
+def _check_sequence_kept(reader, injections, columns, types) -> None:
+    """Carry-over read from the runs' sequences needs the sequence around each highest calibrator whole.
+
+    [[exclusions]] leave a row out of the statistics, but the injection was still made: with a
+    calibrator at (or above) its run's highest kept level, or a blank or zero sample, left out, the
+    blank found "right after the highest calibrator" would be another one (or none), and the
+    carry-over would be judged on the wrong injection. Refused, naming the row: keep the injection,
+    or give [carry_over] its own data file.
+    """
+    type_header, level_header = _header(columns.type), _header(columns.level)
+    top: dict = {}
+    for i in injections:
+        if i.type == "calibrator" and i.level is not None:
+            top[i.file] = max(top.get(i.file, i.level), i.level)
+    for e in reader.exclusions.applied:
+        if e.role != "runs":
+            continue
+        cells = dict(e.cells)
+        word = (cells.get(type_header) or cells.get("type") or "").strip()
+        kind = types.type_of(word) or (word if word in INJECTION_TYPES else None)
+        if kind == "calibrator":
+            text = (cells.get(level_header) or cells.get("level") or "").strip()
+            try:
+                level = float(text.replace(",", "."))
+            except ValueError:
+                level = None
+            if level is not None and e.file in top and level < top[e.file]:
+                continue          # below the run's highest kept level: the sequence after the top is unchanged
+        elif kind not in ("blank", "zero"):
+            continue
+        raise DataError(f"[carry_over] reads the injection sequence of the runs, and [[exclusions]] leave out a "
+                        f"{kind} injection of it (exclusions[{e.index}]): the blank right after the highest "
+                        "calibrator would then be another injection, or none; the injection was made, so keep it "
+                        "in the sequence (remove the exclusion) or give [carry_over] its own data file",
+                        file=e.file, row=e.row)
+
+
 def load_runs(reader) -> RunsData:
     """Read every ``[[runs]]`` export of the study and check what the fits will need.
 
@@ -673,6 +710,8 @@ def load_runs(reader) -> RunsData:
                                 "internal standard a blank (neither analyte nor IS) has no ratio and is not "
                                 "quantified; type blank matrix with the internal standard as zero ([types] zero)",
                                 file=blank.file, row=blank.row, value=blank.sample)
+    if fed_by_runs(cfg, "carry_over"):
+        _check_sequence_kept(reader, injections, cfg.columns or ColumnsSection(), cfg.types or TypesSection())
     from .study import RUN_FED_PARTS, part_fed_by_runs
     for kind, (table, key) in RUN_FED_PARTS.items():
         first = next((i for i in injections if i.type == kind), None)
