@@ -1,0 +1,35 @@
+"""Findings of the second hostile black-box run, round 2 (notes: hostile-r2/FINDINGS.md numbers), each kept as a test.
+
+The rules are the README's (common practice, no published source, unless a test names one);
+expected numbers are hand computations from the formula beside them.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from validator.characteristics.working_range.analysis import loq_criterion, verify_loq
+
+
+class _P:
+    """A precision level as verify_loq reads it (level and repeatability RSD)."""
+
+    def __init__(self, level, rsd):
+        self.level, self.repeatability_rsd_pct = level, rsd
+
+
+# ----------------------------------------------------------------------------- 3: LOQ check on an RSD of 0
+def test_loq_check_on_identical_results_is_not_applicable():
+    # README "On the limit": identical results (SD exactly 0) show no spread; an RSD of 0 is never judged met
+    check = verify_loq(1.18, [_P(1.0, 0.0)], [], 20.0)
+    assert check.passed is None
+    assert "precision level 1 show no spread at all (SD exactly 0)" in check.reason
+    c = loq_criterion(check)
+    assert c.passed is None and c.value is None and c.note.startswith("not applicable: ")
+    # with another level that has a real RSD the check is still not met, and the value shown is that RSD
+    check = verify_loq(1.18, [_P(1.0, 0.0), _P(2.0, 3.0)], [], 20.0)
+    assert check.passed is None
+    c = loq_criterion(check)
+    assert c.passed is None and c.value == 3.0
+    # a level beyond the maximum fails whatever the other shows
+    assert verify_loq(1.18, [_P(1.0, 0.0), _P(2.0, 25.0)], [], 20.0).passed is False
