@@ -33,3 +33,21 @@ def test_loq_check_on_identical_results_is_not_applicable():
     assert c.passed is None and c.value == 3.0
     # a level beyond the maximum fails whatever the other shows
     assert verify_loq(1.18, [_P(1.0, 0.0), _P(2.0, 25.0)], [], 20.0).passed is False
+
+
+# ----------------------------------------------------------------------------- 8: huge dilution factor, figure
+def test_dilution_figure_skips_results_outside_the_floating_point_range():
+    # a factor of 1e306 makes result × factor overflow: results.json holds null for it (the level is not
+    # judged); the figure draws the other levels and says that one result was not drawn
+    from types import SimpleNamespace
+
+    from validator.characteristics.dilution_integrity.presentation import figures
+    entry = {"levels": [
+        {"dilution_factor": 1e306, "nominal": 2000.0, "back_calculated": [None], "max_bias_percent": 15.0},
+        {"dilution_factor": 10.0, "nominal": 2000.0, "back_calculated": [1970.0, float("inf"), 2010.0],
+         "max_bias_percent": 15.0}]}
+    drawn = figures(entry, SimpleNamespace(unit="ng/mL", key="a"))
+    assert "2 diluted QC results not drawn" in drawn["accuracy"]
+    # nothing finite at all: the figure is still drawn (the limits), with the count
+    entry["levels"] = entry["levels"][:1]
+    assert "1 diluted QC result not drawn" in figures(entry, SimpleNamespace(unit="ng/mL", key="a"))["accuracy"]
