@@ -51,3 +51,33 @@ def test_dilution_figure_skips_results_outside_the_floating_point_range():
     # nothing finite at all: the figure is still drawn (the limits), with the count
     entry["levels"] = entry["levels"][:1]
     assert "1 diluted QC result not drawn" in figures(entry, SimpleNamespace(unit="ng/mL", key="a"))["accuracy"]
+
+
+# ----------------------------------------------------------------------------- 2/2b: rounded value vs limit
+from validator.report.numbers import CriterionDisplay, criterion_value  # noqa: E402
+
+_PERCENT_MAX = CriterionDisplay("carry-over", "%", "≤", "percent")
+_PERCENT_WITHIN = CriterionDisplay("stability", "%", "within", "percent")
+_RSD_MAX = CriterionDisplay("rsd", "%", "≤", "rsd")
+_AT_LEAST = CriterionDisplay("fraction", "", "≥", "statistic")
+
+
+@pytest.mark.parametrize("value, limit, display, passed, shown", [
+    # hand computation: the rule's rounding (1 decimal for %, 2 s.f. for an RSD, 3 s.f. for a statistic),
+    # and as many more significant figures as make the printed value read as the verdict says
+    (20.0001, 20.0, _PERCENT_MAX, False, "20.0001"),        # hostile r2 #2: was "20.0 ≤ 20 NOT MET"
+    (20.0, 20.0, _PERCENT_MAX, True, "20.0"),               # exactly the limit: met, as printed
+    (19.96, 20.0, _PERCENT_MAX, True, "20.0"),              # rounds to the limit and is met: consistent
+    (20.04, 20.0, _PERCENT_MAX, False, "20.04"),            # rounds to the limit but lies above it
+    (20.4, 20.0, _PERCENT_MAX, False, "20.4"),              # clearly above: the rule alone
+    (15.0001, (-15.0, 15.0), _PERCENT_WITHIN, False, "15.0001"),    # hostile r2 #2b, condition a
+    (15.0, (-15.0, 15.0), _PERCENT_WITHIN, True, "15.0"),           # hostile r2 #2b, condition b
+    (-15.00004, (-15.0, 15.0), _PERCENT_WITHIN, False, "-15.00004"),
+    (2.555, 2.56, _RSD_MAX, True, "2.56"),                  # "2.6" would read as above a limit of 2.56
+    (15.2, 15.0, _RSD_MAX, False, "15.2"),                  # "15" would read as the limit itself
+    (0.6669, 0.667, _AT_LEAST, False, "0.6669"),            # "0.667" would read as at the limit
+    (None, 20.0, _PERCENT_MAX, None, "n/a"),
+    (20.0001, 20.0, _PERCENT_MAX, None, "20.0"),            # no verdict: nothing to contradict
+])
+def test_criterion_value_never_reads_as_the_other_verdict(value, limit, display, passed, shown):
+    assert criterion_value(value, limit, display, passed) == shown
