@@ -81,3 +81,47 @@ _AT_LEAST = CriterionDisplay("fraction", "", "≥", "statistic")
 ])
 def test_criterion_value_never_reads_as_the_other_verdict(value, limit, display, passed, shown):
     assert criterion_value(value, limit, display, passed) == shown
+
+
+# ----------------------------------------------------------------------------- 11: -20 °C and 20 °C
+from validator.inputs.sample_ids import spelling_variant  # noqa: E402
+from validator.inputs.sector_names import lot_key, slug  # noqa: E402
+
+
+def test_a_minus_sign_before_a_number_is_not_punctuation():
+    # README (sector files): conditions differing in case or punctuation are one condition; a sign is not
+    # punctuation (common practice, no published source: -20 °C and 20 °C are two storage conditions)
+    assert slug("stored at -20 °C") == "stored-at-minus-20-c"
+    assert slug("stored at 20 °C") == "stored-at-20-c"
+    assert slug("stored at \u221220 °C") == "stored-at-minus-20-c"     # U+2212 MINUS SIGN, same condition
+    assert slug("2.5 h") != slug("25 h") and slug("2.5 h") != slug("2 5 h")
+    assert lot_key("-1") != lot_key("1") and lot_key("1.5") != lot_key("15")
+    # the variants of one name are still one name
+    assert slug("bench top") == slug("Bench-Top") == slug("bench_top") == "bench-top"
+    assert len({lot_key(n) for n in ("d1", "d 1", "d-1", "d_1", "d.1", "d1.", "D-1")}) == 1
+    assert spelling_variant(["stored at -20 °C", "stored at 20 °C"]) is None
+    assert spelling_variant(["Run 1", "run  1"]) == (0, 1)
+
+
+def test_stability_conditions_minus_20_and_20_are_two_conditions(tmp_path, outside):
+    # hostile r2 #11: the reproduction's study (invented data, demo only; no value is checked but the ids)
+    import json
+
+    from conftest import CALIBRATION
+    from validator.cli import main
+    (tmp_path / "calibration.csv").write_text(CALIBRATION)
+    (tmp_path / "stability.csv").write_text(
+        "condition,nominal,found\n" + "".join(f"stored at -20 °C,10,{v}\n" for v in (10.1, 10.0, 9.9))
+        + "".join(f"stored at 20 °C,10,{v}\n" for v in (12.1, 12.0, 12.2)))
+    (tmp_path / "study.toml").write_text(
+        '[study]\nid = "S"\ntitle = "t"\nconcentration_unit = "mg/L"\nresponse_unit = "uS"\n'
+        '[calibration]\ndata = "calibration.csv"\nmodel = "linear"\n'
+        '[stability]\ndata = "stability.csv"\nlimit_pct = 15\nmin_replicates = 3\n')
+    assert main(["run", str(tmp_path / "study.toml"), "--out", str(outside / "o"), "--format", "json"]) in (0, 1)
+    ids = [c["id"] for a in json.loads((outside / "o" / "results.json").read_text())["analytes"]
+           for c in a["criteria"] if c["id"].startswith("stability-")]
+    assert sorted(ids) == ["stability-stored-at-20-c-10", "stability-stored-at-minus-20-c-10"]
+    # a hyphen typed for a space in the same data is still refused (one condition written two ways)
+    text = (tmp_path / "stability.csv").read_text()
+    (tmp_path / "stability.csv").write_text(text.replace("stored at 20 °C,10,12.1", "stored-at 20 °C,10,12.1"))
+    assert main(["run", str(tmp_path / "study.toml"), "--out", str(outside / "o2"), "--format", "json"]) == 2
