@@ -125,3 +125,33 @@ def test_stability_conditions_minus_20_and_20_are_two_conditions(tmp_path, outsi
     text = (tmp_path / "stability.csv").read_text()
     (tmp_path / "stability.csv").write_text(text.replace("stored at 20 °C,10,12.1", "stored-at 20 °C,10,12.1"))
     assert main(["run", str(tmp_path / "study.toml"), "--out", str(outside / "o2"), "--format", "json"]) == 2
+
+
+# ----------------------------------------------------------------------------- 12: s_WL claim below s_r claim
+from pydantic import ValidationError  # noqa: E402
+
+from validator.characteristics.precision.settings import PrecisionSection  # noqa: E402
+
+
+@pytest.mark.parametrize("section", [
+    {"levels": [{"level": 1, "claimed_repeatability_sd": 0.05, "claimed_within_laboratory_sd": 0.02}]},
+    {"levels": [{"level": 1, "claimed_repeatability_rsd_pct": 5, "claimed_within_laboratory_rsd_pct": 2}]},
+    {"claimed_repeatability_rsd_pct": 5, "claimed_within_laboratory_rsd_pct": 2},
+    # the level's own repeatability claim with the section's within-laboratory claim
+    {"claimed_within_laboratory_rsd_pct": 4, "levels": [{"level": 2, "claimed_repeatability_rsd_pct": 6}]},
+])
+def test_within_laboratory_claim_below_repeatability_claim_is_refused(section):
+    # CLSI EP15-A3: the within-laboratory variance is the repeatability variance plus the between-day one,
+    # so s_WL >= s_r (exact arithmetic)
+    with pytest.raises(ValidationError) as e:
+        PrecisionSection(**section)
+    text = str(e.value)
+    assert "claimed_within_laboratory_" in text and "claimed_repeatability_" in text and "is below" in text
+    if "levels" in section and "claimed_repeatability_rsd_pct" not in section:
+        assert f"level {section['levels'][0]['level']:g}" in text
+
+
+def test_equal_claims_are_accepted():
+    # no between-day component: s_WL = s_r is possible
+    PrecisionSection(levels=[{"level": 1, "claimed_repeatability_sd": 0.05, "claimed_within_laboratory_sd": 0.05}])
+    PrecisionSection(claimed_repeatability_rsd_pct=3, claimed_within_laboratory_rsd_pct=4)
