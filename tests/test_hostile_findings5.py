@@ -155,3 +155,27 @@ def test_equal_claims_are_accepted():
     # no between-day component: s_WL = s_r is possible
     PrecisionSection(levels=[{"level": 1, "claimed_repeatability_sd": 0.05, "claimed_within_laboratory_sd": 0.05}])
     PrecisionSection(claimed_repeatability_rsd_pct=3, claimed_within_laboratory_rsd_pct=4)
+
+
+# ----------------------------------------------------------------------------- 13: dot leader in the Contents text
+def test_contents_leaders_only_on_list_entries():
+    # the Contents page's introductory sentence links to the rounding rules; only the list entries get a
+    # dot leader and page number (the rule's selector names the list item's own link)
+    import re
+
+    import tinycss2
+
+    from conftest import REPO
+    css = (REPO / "report_templates" / "dossier.css").read_text()
+    selectors = []
+    for rule in tinycss2.parse_stylesheet(css, skip_comments=True, skip_whitespace=True):
+        rules = ([rule] if rule.type == "qualified-rule" else
+                 tinycss2.parse_rule_list(rule.content, skip_comments=True, skip_whitespace=True)
+                 if rule.type == "at-rule" and rule.content else [])
+        for r in rules:
+            if r.type == "qualified-rule" and "target-counter" in tinycss2.serialize(r.content):
+                selectors.append(tinycss2.serialize(r.prelude).strip())
+    assert selectors and all(re.search(r"\bli\s*>\s*a::after$", s) for s in selectors), selectors
+    template = (REPO / "report_templates" / "dossier.html.j2").read_text()
+    toc = template[template.index('<nav class="toc"'):template.index("<ol>", template.index('<nav class="toc"'))]
+    assert '<a href="#rounding">' in toc          # the link in the sentence is not a list entry
