@@ -179,3 +179,23 @@ def test_contents_leaders_only_on_list_entries():
     template = (REPO / "report_templates" / "dossier.html.j2").read_text()
     toc = template[template.index('<nav class="toc"'):template.index("<ol>", template.index('<nav class="toc"'))]
     assert '<a href="#rounding">' in toc          # the link in the sentence is not a list entry
+
+
+# ----------------------------------------------------------------------------- 4: Ctrl-C and figure workers
+def _worker_signals(_d):
+    import os
+    import signal
+    return os.getpid(), signal.getsignal(signal.SIGINT), signal.getsignal(signal.SIGTERM)
+
+
+def test_figure_workers_ignore_sigint(monkeypatch):
+    # a terminal's Ctrl-C reaches the whole process group: the figure workers ignore it (the parent's
+    # KeyboardInterrupt terminates them), so none prints a KeyboardInterrupt traceback
+    import os
+    import signal
+
+    from validator.report import plots
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
+    got = plots.figures_for_all([{}, {}, {}], draw=_worker_signals)
+    assert len(got) == 3 and all(pid != os.getpid() for pid, _, _ in got)
+    assert all(i == signal.SIG_IGN and t == signal.SIG_DFL for _, i, t in got)

@@ -17,7 +17,6 @@ import functools
 import io
 import os
 import re
-from concurrent.futures import ProcessPoolExecutor
 
 
 def _pyplot():
@@ -350,7 +349,24 @@ def figures_for_all(plot_data: list, draw=analyte_figures, on_done=None, outputs
 
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
-        with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
-                                 initializer=_die_with_parent, initargs=(os.getpid(),)) as pool:
-            return collect(pool.map(draw, plot_data))
+        pool = multiprocessing.get_context("fork").Pool(processes=2, initializer=_figure_worker_start,
+                                                        initargs=(os.getpid(),))
+        try:
+            out = collect(pool.imap(draw, plot_data))
+            pool.close()
+            return out
+        finally:    # whatever ends the wait (Ctrl-C, SIGTERM, an error): no worker outlives it
+            pool.terminate()
+            pool.join()
     return collect(draw(d) for d in plot_data)
+
+
+def _figure_worker_start(parent: int) -> None:
+    """A figure worker: SIGINT ignored (a terminal's Ctrl-C reaches the whole process group; the run's
+    own interrupt unwinds the parent, which terminates the workers, so no worker prints a traceback),
+    default SIGTERM (die at once when terminated), and ended with its parent (:func:`_die_with_parent`)."""
+    import signal
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _die_with_parent(parent)
