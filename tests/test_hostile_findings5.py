@@ -199,3 +199,36 @@ def test_figure_workers_ignore_sigint(monkeypatch):
     got = plots.figures_for_all([{}, {}, {}], draw=_worker_signals)
     assert len(got) == 3 and all(pid != os.getpid() for pid, _, _ in got)
     assert all(i == signal.SIG_IGN and t == signal.SIG_DFL for _, i, t in got)
+
+
+def test_a_ctrl_c_while_workers_start_is_held_for_the_run_not_lost():
+    # the workers are started with SIGINT ignored and blocked here; an interrupt arriving meanwhile is
+    # delivered to this process as soon as they have started (POSIX: a blocked signal stays pending)
+    import os
+    import signal
+
+    from validator.report.plots import sigint_ignored_in_new_workers
+    before = signal.getsignal(signal.SIGINT)
+    with pytest.raises(KeyboardInterrupt):
+        with sigint_ignored_in_new_workers():
+            assert signal.getsignal(signal.SIGINT) == signal.SIG_IGN
+            os.kill(os.getpid(), signal.SIGINT)
+        for _ in range(1000):       # the Python-level handler runs between bytecodes
+            pass
+    assert signal.getsignal(signal.SIGINT) == before
+    assert signal.SIGINT not in signal.pthread_sigmask(signal.SIG_BLOCK, set())
+
+
+def test_pdf_layout_workers_ignore_sigint_from_birth():
+    # spawned layout workers (fresh interpreters) report their SIGINT disposition and signal mask
+    import signal
+
+    from validator.report.pdf import _workers
+    with _workers(2, start="spawn") as run:
+        got = run(_spawned_signals, [0, 1])
+    assert all(handler == signal.SIG_IGN and not blocked for handler, blocked in got)
+
+
+def _spawned_signals(_task):
+    import signal
+    return signal.getsignal(signal.SIGINT), signal.SIGINT in signal.pthread_sigmask(signal.SIG_BLOCK, set())
