@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 import warnings
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -155,3 +156,28 @@ def no_relative_sd(mean, what: str = "the mean") -> str:
         return (f"{what} is negative ({float(mean):.4g}), so an RSD (CV) is not meaningful: it needs a positive "
                 "mean (the results scatter around or below zero)")
     return ""
+
+
+# a minus sign (ASCII or U+2212) that is a sign: not after a letter or digit ("d-1" is a hyphen), before a
+# digit or a decimal point and digit ("-20 °C", "-.5")
+_SIGN = re.compile(r"(?<![^\W_])[-\u2212](?=\.?\d)")
+# a decimal point between two digits ("2.5")
+_DECIMAL_POINT = re.compile(r"(?<=\d)\.(?=\d)")
+
+
+def name_slug(name: str) -> str:
+    """The id form of a name (stability conditions in criterion ids): case-folded, runs of characters
+    other than letters and digits replaced by one hyphen, except that a minus sign before a number is
+    written "minus" and a decimal point between digits is kept: "stored at -20 °C" ->
+    "stored-at-minus-20-c", "stored at 20 °C" -> "stored-at-20-c", "2.5 h" -> "2.5-h", "bench top" and
+    "Bench-Top" -> "bench-top"."""
+    text = _SIGN.sub(" minus ", name.casefold())
+    return ".".join(re.sub(r"[\W_]+", "-", part).strip("-") for part in _DECIMAL_POINT.split(text))
+
+
+def name_key(name: str) -> str:
+    """A name compared ignoring letter case, spaces and punctuation, but not a minus sign before a
+    number nor a decimal point between digits ("D-1", "d 1", "d1." -> "d1"; "-1" -> "minus1"; "1.5" ->
+    "1.5", not "15")."""
+    text = _SIGN.sub(" minus ", name.casefold())
+    return ".".join(re.sub(r"[\W_]+", "", part) for part in _DECIMAL_POINT.split(text))

@@ -17,21 +17,25 @@ from __future__ import annotations
 
 import re
 
+from .._common import name_key, name_slug
 from ..errors import DataError, show
 
 __all__ = ["one_spelling", "slug", "lot_key", "one_lot_spelling"]
 
 
 def slug(name: str) -> str:
-    """The criterion-id form of a name: case-folded, runs of characters other than letters and digits
-    replaced by one hyphen (the same rule as ``validator.characteristics.stability.analysis``)."""
-    return re.sub(r"[\W_]+", "-", name.casefold()).strip("-")
+    """The criterion-id form of a name: :func:`validator._common.name_slug` (case-folded, runs of
+    characters other than letters and digits replaced by one hyphen; a minus sign before a number kept
+    as "minus" and a decimal point between digits kept, so "-20 °C" and "20 °C" stay two conditions;
+    the same rule as ``validator.characteristics.stability.analysis``)."""
+    return name_slug(name)
 
 
 def lot_key(name: str) -> str:
     """A lot name compared ignoring letter case, spaces and punctuation: its letters and digits only,
-    case-folded ("D-1", "d 1", "d1." -> "d1")."""
-    return re.sub(r"[\W_]+", "", name.casefold())
+    case-folded ("D-1", "d 1", "d1." -> "d1"), except a minus sign before a number and a decimal point
+    between digits (:func:`validator._common.name_key`: "1.5" and "15" are two lots)."""
+    return name_key(name)
 
 
 def one_lot_spelling(table, column: str, names, idx) -> None:

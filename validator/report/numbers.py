@@ -27,7 +27,7 @@ from dataclasses import dataclass
 
 __all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule",
            "rule_for_path", "superscript", "superscripts_in", "basis_label", "characteristic_label", "weighting_label",
-           "criterion_display", "CriterionDisplay"]
+           "criterion_display", "CriterionDisplay", "criterion_value"]
 
 MISSING = "n/a"
 UNCERTAINTY_SIG = 2
@@ -393,3 +393,64 @@ def _more_displays(criterion_id: str, cu: str) -> CriterionDisplay | None:
             return CriterionDisplay(label.format(*groups, cu=cu).replace("  ", " "), cu if unit == "cu" else unit,
                                     comparison, rule)
     return None
+
+
+# --- a criterion's value beside its limit ----------------------------------------------------------
+
+_RULE_DIGITS = {"uncertainty": UNCERTAINTY_SIG, "p": P_SIG, "rsd": RSD_SIG, "statistic": STATISTIC_SIG,
+                "value": DEFAULT_SIG, "recorded": 15, "count": DEFAULT_SIG}
+_RULE_DECIMALS = {"percent": PERCENT_DECIMALS, "correlation": CORRELATION_DECIMALS}
+# the most significant figures a float carries: beyond them more digits show nothing new
+_MOST_DIGITS = 17
+
+
+def _as_shown(value: float, rule: str) -> float:
+    """The number a reader sees when ``value`` is written by ``rule`` (the rounding of :func:`by_rule`)."""
+    if rule == "count" and float(value).is_integer():
+        return float(value)
+    if rule in _RULE_DECIMALS and abs(value) < 10.0 ** SCIENTIFIC_FROM:
+        return float(f"{value:.{_RULE_DECIMALS[rule]}f}")
+    digits = _RULE_DIGITS.get(rule, DEFAULT_SIG)
+    return float(f"{value:.{digits - 1}e}")
+
+
+def _shown_verdict(value: float, limit, comparison: str):
+    """The verdict a reader would read from the numbers as shown (None: no comparison to read)."""
+    if comparison == "≤":
+        return value <= limit
+    if comparison == "≥":
+        return value >= limit
+    if comparison == ">":
+        return value > limit
+    if comparison == "within" and isinstance(limit, (list, tuple)) and len(limit) == 2:
+        return limit[0] <= value <= limit[1]
+    return None
+
+
+def criterion_value(value, limit, display: CriterionDisplay, passed) -> str:
+    """A criterion's value, rounded by its display rule, with more significant figures when the rounded
+    value read against the limit as printed would give the other verdict (20.0001 % beyond a limit of
+    20 % is shown as 20.0001, never as 20.0 beside NOT MET). A pair (an interval) or a value without a
+    verdict is shown by the rule alone."""
+    if isinstance(value, (list, tuple)):       # an interval: both ends by the rule (the template's lim)
+        return " to ".join(by_rule(v, display.rule) for v in value)
+    text = by_rule(value, display.rule)
+    if passed is None or _missing(value) or isinstance(value, bool) or not isinstance(value, (int, float)):
+        return text
+    if isinstance(limit, (list, tuple)):
+        if any(_missing(v) or isinstance(v, bool) for v in limit):
+            return text
+        shown_limit = [_as_shown(float(v), display.limit_rule) for v in limit]
+    elif _missing(limit) or isinstance(limit, bool) or not isinstance(limit, (int, float)):
+        return text
+    else:
+        shown_limit = _as_shown(float(limit), display.limit_rule)
+    value = float(value)
+    read = _shown_verdict(_as_shown(value, display.rule), shown_limit, display.comparison)
+    if read is None or read == bool(passed):
+        return text
+    for digits in range(_RULE_DIGITS.get(display.rule, UNCERTAINTY_SIG), _MOST_DIGITS + 1):
+        if _shown_verdict(float(f"{value:.{digits - 1}e}"), shown_limit, display.comparison) == bool(passed):
+            return sig(value, digits, keep_zeros=False)
+    # judged by the documented tolerance on the limit: the value as printed cannot differ from it
+    return text

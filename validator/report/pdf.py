@@ -86,10 +86,10 @@ def _worker_start(parent: int) -> None:
     parent, which terminates the workers), and ended with its parent (see plots._die_with_parent)."""
     import signal
 
-    from .plots import _die_with_parent
+    from .plots import _die_with_parent, _sigint_off
 
     signal.signal(signal.SIGTERM, signal.SIG_DFL)
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _sigint_off()
     _die_with_parent(parent)
 
 
@@ -108,8 +108,9 @@ def _workers(processes: int, start: str = "fork"):
 
     if start == "fork":
         _weasyprint()         # imported once, before the workers are forked
-    pool = multiprocessing.get_context(start).Pool(processes=processes, initializer=_worker_start,
-                                                   initargs=(os.getpid(),))
+    from .plots import sigint_ignored_in_new_workers
+
+    pool = None
 
     def run(function, tasks, on_done=None):
         out = []
@@ -119,11 +120,15 @@ def _workers(processes: int, start: str = "fork"):
                 on_done(len(out), len(tasks))
         return out
     try:
+        with sigint_ignored_in_new_workers():     # no worker ever sees a Ctrl-C (no traceback from one)
+            pool = multiprocessing.get_context(start).Pool(processes=processes, initializer=_worker_start,
+                                                           initargs=(os.getpid(),))
         yield run
         pool.close()
     finally:
-        pool.terminate()
-        pool.join()
+        if pool is not None:
+            pool.terminate()
+            pool.join()
 
 
 def _call(task):

@@ -13,11 +13,11 @@ matplotlib's mathtext (``$...$``) and TeX are switched off for all figures.
 from __future__ import annotations
 
 import base64
+import contextlib
 import functools
 import io
 import os
 import re
-from concurrent.futures import ProcessPoolExecutor
 
 
 def _pyplot():
@@ -298,6 +298,37 @@ def analyte_figures(d: dict) -> dict:
         return figs
 
 
+@contextlib.contextmanager
+def sigint_ignored_in_new_workers():
+    """Start worker processes inside this: they are born with SIGINT ignored, so a terminal's Ctrl-C
+    (sent to the whole process group) cannot raise KeyboardInterrupt in a worker that is still starting
+    (a spawned interpreter importing, a forked one before its initializer), which would print a
+    traceback. SIGINT is blocked in this process meanwhile, so an interrupt that arrives then is held
+    and delivered here when the block ends, never lost. (A blocked signal is kept pending on Linux even
+    while ignored; the workers inherit the block and the disposition and lift the block themselves.)"""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    mask = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT})
+    handler = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, handler)
+        signal.pthread_sigmask(signal.SIG_SETMASK, mask)
+
+
+def _sigint_off() -> None:
+    """In a worker: SIGINT ignored and no longer blocked (see :func:`sigint_ignored_in_new_workers`)."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    signal.pthread_sigmask(signal.SIG_UNBLOCK, {signal.SIGINT})
+
+
 def _die_with_parent(parent: int) -> None:
     """Worker start-up: end this worker when the run that forked it ends, however it ends.
 
@@ -350,7 +381,27 @@ def figures_for_all(plot_data: list, draw=analyte_figures, on_done=None, outputs
 
     if len(plot_data) >= 2 and (os.cpu_count() or 1) > 1:
         import multiprocessing
-        with ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("fork"),
-                                 initializer=_die_with_parent, initargs=(os.getpid(),)) as pool:
-            return collect(pool.map(draw, plot_data))
+        pool = None
+        try:
+            with sigint_ignored_in_new_workers():
+                pool = multiprocessing.get_context("fork").Pool(processes=2, initializer=_figure_worker_start,
+                                                                initargs=(os.getpid(),))
+            out = collect(pool.imap(draw, plot_data))
+            pool.close()
+            return out
+        finally:    # whatever ends the wait (Ctrl-C, SIGTERM, an error): no worker outlives it
+            if pool is not None:
+                pool.terminate()
+                pool.join()
     return collect(draw(d) for d in plot_data)
+
+
+def _figure_worker_start(parent: int) -> None:
+    """A figure worker: SIGINT ignored (a terminal's Ctrl-C reaches the whole process group; the run's
+    own interrupt unwinds the parent, which terminates the workers, so no worker prints a traceback),
+    default SIGTERM (die at once when terminated), and ended with its parent (:func:`_die_with_parent`)."""
+    import signal
+
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+    _sigint_off()
+    _die_with_parent(parent)

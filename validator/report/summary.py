@@ -175,6 +175,8 @@ def ordered_criteria(results: dict) -> list[dict]:
     rows = [dict(c, analyte=a["name"], analyte_index=i, criterion_index=j,
                  display=N.criterion_display(c["id"], c["description"], units_of(a, study)[0]))
             for i, a in enumerate(results["analytes"]) for j, c in enumerate(a["criteria"])]
+    for c in rows:       # the value as printed beside its limit: never seeming to contradict its verdict
+        c["value_text"] = N.criterion_value(c["value"], c["limit"], c["display"], c["pass"])
     return sorted(rows, key=lambda c: _ORDER[c["pass"]])
 
 

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from ...report.plots import PALETTE, figure, points, svg
 from ...report.text import fmt
 
@@ -35,8 +37,15 @@ def figures(entry: dict, reading) -> dict:
         return {}
     fig, ax = figure(figsize=(6.4, 2.8))
     start = 1
+    skipped = 0
     for i, lv in enumerate(levels):
-        accuracy = [100.0 * v / lv["nominal"] for v in lv["back_calculated"]]
+        # a result × factor outside the floating-point range is null in results.json (its level is not
+        # judged, see the table): such values are not drawn, and the figure says how many were left out
+        accuracy = [a for a in (100.0 * v / lv["nominal"] if isinstance(v, (int, float)) else None
+                                for v in lv["back_calculated"]) if a is not None and math.isfinite(a)]
+        skipped += len(lv["back_calculated"]) - len(accuracy)
+        if not accuracy:
+            continue
         points(ax, range(start, start + len(accuracy)), accuracy, _MARKERS[i % len(_MARKERS)],
                colour=PALETTE["data"] if i % 2 == 0 else PALETTE["pred"],
                label=f"×{fmt(lv['dilution_factor'])} of {fmt(lv['nominal'])} {reading.unit} ({len(accuracy)})",
@@ -48,6 +57,10 @@ def figures(entry: dict, reading) -> dict:
                        label=f"limits 100 ± {fmt(lim)} % (on the mean)" if y > 100 and i == 0 else None,
                        gid=f"limit-{i}")
     ax.axhline(100, color=PALETTE["ink"], lw=0.6)
+    if skipped:
+        ax.text(0.01, 0.02, f"{skipped} diluted QC result{'s' if skipped != 1 else ''} not drawn: the result × "
+                "factor is not a finite number (see the table)", transform=ax.transAxes, fontsize=7,
+                color=PALETTE["ink"], gid="not-drawn")
     ax.set_xlabel("diluted QC number (in file order within each dilution)")
     ax.set_ylabel("accuracy after the factor (% of nominal)")
     ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole

@@ -43,6 +43,14 @@ class PrecisionLevelLimit(_Section):
                     and getattr(self, f"claimed_{quantity}_sd") is not None):
                 raise ValueError(f"level {self.level:g} claims the {quantity.replace('_', '-')} precision both as an "
                                  f"RSD and as an SD; give one (claimed_{quantity}_rsd_pct or claimed_{quantity}_sd)")
+        # a within-laboratory SD includes the repeatability (CLSI EP15-A3: s_WL^2 = s_r^2 + s_B^2), so a
+        # claim below the repeatability claim is impossible: mistyped or the two swapped
+        for unit in ("sd", "rsd_pct"):
+            r, wl = getattr(self, f"claimed_repeatability_{unit}"), getattr(self, f"claimed_within_laboratory_{unit}")
+            if r is not None and wl is not None and wl < r:
+                raise ValueError(f"level {self.level:g}: claimed_within_laboratory_{unit} = {wl:g} is below "
+                                 f"claimed_repeatability_{unit} = {r:g}; a within-laboratory precision includes the "
+                                 "repeatability, so it cannot be smaller (are the two swapped?)")
         if self.reference_value is None and (self.reference_standard_uncertainty is not None
                                              or self.reference_df is not None):
             raise ValueError(f"level {self.level:g} gives reference_standard_uncertainty or reference_df without "
@@ -77,6 +85,16 @@ class PrecisionSection(DataSource):        # data (sheet, header_row); none when
 
     @model_validator(mode="after")
     def _design(self):
+        # RSD claims combine a level's own with the section's: a within-laboratory claim below the
+        # repeatability claim is impossible (it includes the repeatability, CLSI EP15-A3)
+        for lv in [None, *self.levels]:
+            r, wl = self.claims_for(lv.level) if lv is not None else (self.claimed_repeatability_rsd_pct,
+                                                                       self.claimed_within_laboratory_rsd_pct)
+            if r is not None and wl is not None and wl < r:
+                where = "" if lv is None else f"level {lv.level:g} (its own or the section's claims): "
+                raise ValueError(f"{where}claimed_within_laboratory_rsd_pct = {wl:g} is below "
+                                 f"claimed_repeatability_rsd_pct = {r:g}; a within-laboratory precision includes "
+                                 "the repeatability, so it cannot be smaller (are the two swapped?)")
         if self.design is not None:
             if len(set(self.design)) != len(self.design):
                 raise ValueError(f"design must name distinct columns, got {show(list(self.design))}")

@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import numpy as np
 
+from ..._common import name_slug
 from ...criteria import Criterion
 from ...sector._shared import number_id
 from ...sector.bioanalytical import Stability, stability
@@ -68,7 +68,7 @@ def stability_criteria(result: StabilityResult) -> tuple[Criterion, ...]:
         what = f"{s.interval.label} CI of the deviation" if on_interval and s.interval is not None else \
             ("CI of the deviation" if on_interval else "deviation")
         # the same rule as validator.inputs.sector_names.slug, which refuses two conditions of one slug
-        slug = re.sub(r"[\W_]+", "-", c.condition.casefold()).strip("-")
+        slug = name_slug(c.condition)
         out.append(Criterion(f"stability-{slug}-{number_id(c.nominal)}",
                              f"stability, {c.condition} at nominal {c.nominal:g}: {what} of the mean from "
                              f"{s.reference} within ±{s.limit_percent:g} %", value, [-s.limit_percent, s.limit_percent],

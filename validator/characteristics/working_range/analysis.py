@@ -122,12 +122,19 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
                         reason="no precision or recovery level at or below 2 × LOQ", levels=())
     rsds = [r.rsd_pct for r in rows if r.rsd_pct is not None]
     missing = [f"{r.source} level {r.level:g}" for r in rows if r.rsd_pct is None]
+    # identical results (SD exactly 0) show no spread within the resolution of the reported values:
+    # an RSD of 0 is never judged met (README "On the limit"; as precision's criteria)
+    no_spread = [f"{r.source} level {r.level:g}" for r in rows if r.rsd_pct == 0]
     # a level without an RSD (one result, a mean that is not positive) shows nothing: the check is met
     # only when every level up to 2 x LOQ has an RSD within the maximum (not shown is not passed)
     if any(at_most(v, rsd_max_pct) is False for v in rsds):
         passed, reason = False, ""
-    elif missing:
-        passed, reason = None, f"no RSD exists at {', '.join(missing)} (see its section)"
+    elif missing or no_spread:
+        parts = ([f"no RSD exists at {', '.join(missing)} (see its section)"] if missing else []) + (
+            [f"the results at {', '.join(no_spread)} show no spread at all (SD exactly 0): the spread is below "
+             "the resolution of the reported values, so precision is not shown; report the results with more "
+             "digits"] if no_spread else [])
+        passed, reason = None, "; ".join(parts)
     else:
         passed, reason = True, ""
     return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed, reason=reason, levels=tuple(rows))
@@ -152,7 +159,8 @@ def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
 
 
 def loq_criterion(check) -> Criterion:
-    worst = max((r.rsd_pct for r in check.levels if r.rsd_pct is not None), default=None)
+    # an RSD of exactly 0 is not a value that is judged (see verify_loq): never shown as the criterion value
+    worst = max((r.rsd_pct for r in check.levels if r.rsd_pct), default=None)
     return Criterion("loq-verification",
                      f"RSD at every precision/recovery level up to 2 × LOQ at most {check.rsd_max_pct:g} %",
                      worst, check.rsd_max_pct, check.passed,
