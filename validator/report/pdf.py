@@ -41,7 +41,7 @@ ANALYTES_PER_PART = 6
 _PART_CSS = """<style>
 @page { @top-left { content: none; } @top-right { content: none; }
         @bottom-center { content: none; } @bottom-right { content: none; } }
-@media print { .toc a::after { content: leader(".") " " attr(data-page); } }
+@media print { .toc li > a::after { content: leader(".") " " attr(data-page); } }
 </style>
 """
 # the header-and-footer document: its first page carries the cover's title and identifier,
