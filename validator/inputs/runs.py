@@ -267,10 +267,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
                 raise _error(table, f"the internal-standard area is missing; a {kinds[i]} injection needs one to "
                              "compute the response ratio (only blank and matrix_blank injections may have none)",
                              row=row, column=column, value=cell)
-        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
-        for i, value in zip(given, _subset(table, given).numbers(column)):
-            internal[i] = value
-        _within_magnitudes(table, column, [internal[i] for i in given], [table.rows[i] for i in given])
+        internal = _optional_numbers(table, column)
         for value, kind, row in zip(internal, kinds, table.rows):
             if value is None:
                 continue
@@ -280,13 +277,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
                              " (only blank and matrix_blank injections may have none)"),
                              row=row, column=column, value=value)
 
-    levels = [None] * len(table)
-    if mapped["level"] and table.has(mapped["level"]):
-        column = mapped["level"]
-        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
-        for i, value in zip(given, _subset(table, given).numbers(column)):
-            levels[i] = value
-        _within_magnitudes(table, column, [levels[i] for i in given], [table.rows[i] for i in given])
+    levels = _optional_numbers(table, mapped["level"])
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind in NEEDS_LEVEL and levels[i] is None:
             what = {"calibrator": "its nominal concentration", "qc": "its nominal concentration",
@@ -299,12 +290,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
             raise _error(table, "a spiked injection needs an added amount above zero", row=row,
                          column=mapped["level"], value=levels[i])
 
-    lots = [""] * len(table)
-    if mapped["lot"] and table.has(mapped["lot"]):
-        column = mapped["lot"]
-        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
-        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
-            lots[i] = text.strip()
+    lots = _optional_names(table, mapped["lot"])
     for i, (kind, row) in enumerate(zip(kinds, table.rows)):
         if kind in ("matrix_blank", "post_extraction") and not lots[i]:
             raise _error(table, f"a {kind} injection needs its lot (map the lot column in [columns] lot)",
@@ -313,32 +299,24 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
             raise _error(table, "a neat injection is the neat solution (no matrix): it has no lot; a spike into "
                          "extracted blank matrix of one lot is a post_extraction injection", row=row,
                          column=mapped["lot"], value=lots[i])
-    conditions = [""] * len(table)
-    if mapped["condition"] and table.has(mapped["condition"]):
-        column = mapped["condition"]
-        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
-        for i, text in zip(given, _subset(table, given).texts(column, MAX_NAME_LENGTH)):
-            conditions[i] = text.strip()
-            if kinds[i] != "qc":
-                raise _error(table, f"a storage condition is read for QC injections only (stability), not for a "
-                             f"{kinds[i]} injection", row=table.rows[i], column=column, value=text)
-    dilutions = [None] * len(table)
-    if mapped["dilution"] and table.has(mapped["dilution"]):
-        column = mapped["dilution"]
-        given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
-        _within_magnitudes(table, column, [float(v) for v in _subset(table, given).numbers(column)],
-                           [table.rows[i] for i in given])
-        for i, value in zip(given, _subset(table, given).numbers(column)):
-            row = table.rows[i]
-            if not value >= 1:
-                raise _error(table, f"the dilution factor {value:g} is below 1", row=row, column=column, value=value)
-            if value == 1:
-                continue                 # not diluted
-            if kinds[i] != "qc":
-                raise _error(table, f"a dilution factor other than 1 is read for QC injections only (dilution "
-                             f"integrity), not for a {kinds[i]} injection; give a sample's dilution in "
-                             "[sample_preparation]", row=row, column=column, value=value)
-            dilutions[i] = value
+    conditions = _optional_names(table, mapped["condition"])
+    for condition, kind, row in zip(conditions, kinds, table.rows):
+        if condition and kind != "qc":
+            raise _error(table, f"a storage condition is read for QC injections only (stability), not for a "
+                         f"{kind} injection", row=row, column=mapped["condition"], value=condition)
+    dilutions = _optional_numbers(table, mapped["dilution"])
+    for i, (value, row) in enumerate(zip(dilutions, table.rows)):
+        if value is None:
+            continue
+        if not value >= 1:
+            raise _error(table, f"the dilution factor {value:g} is below 1", row=row, column=mapped["dilution"],
+                         value=value)
+        if value == 1:
+            dilutions[i] = None          # not diluted
+        elif kinds[i] != "qc":
+            raise _error(table, f"a dilution factor other than 1 is read for QC injections only (dilution "
+                         f"integrity), not for a {kinds[i]} injection; give a sample's dilution in "
+                         "[sample_preparation]", row=row, column=mapped["dilution"], value=value)
     for i, row in enumerate(table.rows):
         roles = [f for f, v in (("lot", lots[i]), ("condition", conditions[i]), ("dilution", dilutions[i])) if v]
         if kinds[i] == "qc" and len(roles) > 1:
@@ -379,6 +357,37 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
                              lot=lots[i], position=float(positions[i]), condition=conditions[i],
                              dilution=dilutions[i]))
     return out
+
+
+def _filled(table, column: str) -> tuple[list[int], object]:
+    """The positions of the non-empty cells of ``column``, and ``table`` restricted to them (row numbers
+    kept): an optional field is read, and checked, only where it is given."""
+    given = [i for i, cell in enumerate(table.columns[column]) if cell.strip() != ""]
+    return given, _subset(table, given)
+
+
+def _optional_names(table, column: str | None) -> list[str]:
+    """The names of an optional column (lot, condition) per row, as :meth:`texts` reads names; ``""`` where
+    the cell is empty, and on every row when the column is not mapped or not in this export."""
+    names = [""] * len(table)
+    if column and table.has(column):
+        given, filled = _filled(table, column)
+        for i, text in zip(given, filled.texts(column, MAX_NAME_LENGTH)):
+            names[i] = text.strip()
+    return names
+
+
+def _optional_numbers(table, column: str | None) -> list:
+    """The numbers of an optional column (level, dilution; an internal standard area may be left empty on a
+    blank) per row, within the magnitudes the statistics compute with; None where the cell is empty, and on
+    every row when the column is not mapped or not in this export."""
+    values = [None] * len(table)
+    if column and table.has(column):
+        given, filled = _filled(table, column)
+        for i, value in zip(given, filled.numbers(column)):
+            values[i] = value
+        _within_magnitudes(table, column, [values[i] for i in given], [table.rows[i] for i in given])
+    return values
 
 
 def _within_magnitudes(table, column: str, values, rows) -> None:
