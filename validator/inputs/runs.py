@@ -32,7 +32,7 @@ from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
 from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
-from .study import BLANK_TYPES, INJECTION_TYPES
+from .study import BLANK_TYPES, INJECTION_TYPES, QC_ROLES
 from .tables import MAX_NAME_LENGTH
 
 __all__ = ["Injection", "RunsData", "read_runs", "load_runs", "by_analyte", "check_run_calibrations", "NEEDS_LEVEL"]
@@ -84,6 +84,9 @@ class Injection:
     position: float = 0.0        # the place in the run's sequence: [columns] order, else the row
     condition: str = ""          # a QC's storage condition ([columns] condition; "": not given)
     dilution: float | None = None    # a diluted QC's dilution factor, above 1 ([columns] dilution; None: not diluted)
+    # the sector table a QC with a lot, a condition or a dilution factor feeds instead of precision (a value of
+    # validator.inputs.study.QC_ROLES: "matrix_effect", "stability", "dilution_integrity"); "" for any other
+    role: str = ""
 
 
 def _subset(table, idx: list):
@@ -317,12 +320,17 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
             raise _error(table, f"a dilution factor other than 1 is read for QC injections only (dilution "
                          f"integrity), not for a {kinds[i]} injection; give a sample's dilution in "
                          "[sample_preparation]", row=row, column=mapped["dilution"], value=value)
+    marks = {"lot": lots, "condition": conditions, "dilution": dilutions}
+    roles = [""] * len(table)
     for i, row in enumerate(table.rows):
-        roles = [f for f, v in (("lot", lots[i]), ("condition", conditions[i]), ("dilution", dilutions[i])) if v]
-        if kinds[i] == "qc" and len(roles) > 1:
+        if kinds[i] != "qc":
+            continue
+        given = [column for column in QC_ROLES if marks[column][i]]
+        if len(given) > 1:
             raise _error(table, "a QC injection serves one of matrix lots (lot), stability (condition) and "
-                         f"dilution integrity (dilution); this one has {' and '.join(roles)}", row=row,
-                         column=mapped[roles[1]])
+                         f"dilution integrity (dilution); this one has {' and '.join(given)}", row=row,
+                         column=mapped[given[1]])
+        roles[i] = QC_ROLES[given[0]] if given else ""
     positions = [float(r) for r in table.rows]
     if mapped["order"] and table.has(mapped["order"]):
         column = mapped["order"]
@@ -355,7 +363,7 @@ def _injections(table, source, k: int, mapped: dict, types, default_analyte: str
                              level=levels[i], response=ratio, analyte_response=response[i],
                              internal_standard_response=internal[i], file=table.path, sheet=sheet, row=row,
                              lot=lots[i], position=float(positions[i]), condition=conditions[i],
-                             dilution=dilutions[i]))
+                             dilution=dilutions[i], role=roles[i]))
     return out
 
 
@@ -417,16 +425,6 @@ def _check_low_levels(own, cfg) -> None:
                         f'but "{show(given.sample)}" ({show(given.file)} row {given.row}) has {given.level:g}: give the '
                         "level (the spike level) on every low_level injection of the analyte, or on none",
                         file=empty.file, row=empty.row, column=column)
-
-
-def _qc_role(inj) -> str:
-    """The sector table a QC injection feeds instead of precision ("" for any other injection): one with a
-    lot the matrix effect, with a condition stability, with a dilution factor dilution integrity."""
-    from .study import QC_ROLES
-
-    if inj.type != "qc":
-        return ""
-    return next((table for column, table in QC_ROLES.items() if getattr(inj, column, None)), "")
 
 
 def _check_labels(injections, study: str) -> None:
@@ -697,7 +695,7 @@ def load_runs(reader) -> RunsData:
                                                                  rows=[i.row for i in own_file], file=file))
     for kind, table, what in (("spiked", "recovery", "its acceptance range"), ("qc", "precision", "its limits"),
                               ("reference", "reference_material", "the certified value")):
-        first = next((i for i in injections if i.type == kind and not _qc_role(i)), None)
+        first = next((i for i in injections if i.type == kind and not i.role), None)
         if first is not None and getattr(cfg, table) is None:
             raise DataError(f'the runs have {kind} injections (first: "{show(first.sample)}") but the study has no '
                             f"[{table}] table; add it with {what}", file=first.file, row=first.row)
@@ -735,9 +733,8 @@ def load_runs(reader) -> RunsData:
         raise DataError(f'{factor[0].type} injection "{show(factor[0].sample)}": the IS-normalised matrix factor '
                         "needs the internal-standard area of each injection; map its column ([columns] "
                         "internal_standard)", file=factor[0].file, row=factor[0].row, value=factor[0].sample)
-    from .study import QC_ROLES
     for column, table in QC_ROLES.items():
-        first = next((i for i in injections if i.type == "qc" and getattr(i, column)), None)
+        first = next((i for i in injections if i.role == table), None)
         if first is not None and not fed_by_runs(cfg, table):
             raise DataError(f'the runs have QC injections with a {column} (first: "{show(first.sample)}") but no '
                             f"[{table}] table takes its data from the runs; add one without a data file of its own "

@@ -23,7 +23,7 @@ def assess(ctx) -> Assessment[DilutionResult] | None:
         return None
     from_runs = isinstance(data, RunsResult)
     if from_runs:                 # no file of its own: the runs' QC injections with a dilution factor
-        qc = study_qc_found(data, "dilution")
+        qc = study_qc_found(data, "dilution_integrity")
         if qc is None:
             return None
         data = DilutionData(np.array(qc.labels, float), qc.nominal, qc.found)

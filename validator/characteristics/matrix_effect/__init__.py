@@ -29,7 +29,7 @@ def assess(ctx) -> Assessment[MatrixEffect] | None:
     # through their run's calibration; the matrix factor the areas of the post_extraction and neat injections;
     # the solvent calibration the solvent_calibrator injections
     sequence = ctx.result_of(runs.ENTRY)
-    lots = study_qc_found(sequence, "matrix lots") if sequence is not None and s.lots_data is None else None
+    lots = study_qc_found(sequence, "matrix_effect") if sequence is not None and s.lots_data is None else None
     factor = matrix_factor_responses(sequence) if sequence is not None and s.factor_data is None else None
     solvent = solvent_calibration(sequence) if sequence is not None and s.solvent_data is None else None
     if lots is not None:

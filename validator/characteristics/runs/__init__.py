@@ -18,7 +18,7 @@ from .. import calibration
 from .._entry import Assessment, Characteristic
 from . import presentation
 from .analysis import (QuantifiedInjection, RunCalibration, RunsResult, qc_found, quantify_runs, reference_found,
-                       run_samples, spiked_found, study_qc, study_qc_found)
+                       run_samples, spiked_found, study_qc_found)
 
 __all__ = ["ENTRY", "SECTOR_READS", "RunsResult", "RunCalibration", "QuantifiedInjection", "quantify_runs"]
 
@@ -48,7 +48,7 @@ def assess(ctx) -> Assessment[RunsResult] | None:
     # the matrix effect's lots, matrix factor and solvent calibration: its other parts may come from its own
     # files, so it reads this result itself
     me = ctx.config.matrix_effect
-    if me is not None and ((me.lots_data is None and study_qc_found(result, "matrix lots") is not None)
+    if me is not None and ((me.lots_data is None and study_qc_found(result, "matrix_effect") is not None)
                            or (me.factor_data is None and result.of_type("post_extraction"))
                            or (me.solvent_data is None and result.of_type("solvent_calibrator"))):
         feeds.append("matrix_effect")
@@ -67,8 +67,8 @@ def _of_type(*kinds):
 SECTOR_READS = {"limit_of_blank": ("blanks", _of_type("blank", "zero")),
                 "method_detection_limit": ("spiked", _of_type("low_level")),
                 "carry_over": ("data", None), "selectivity": ("data", _of_type("matrix_blank")),
-                "stability": ("data", lambda inj: study_qc(inj) == "stability"),
-                "dilution_integrity": ("data", lambda inj: study_qc(inj) == "dilution")}
+                "stability": ("data", lambda inj: inj.role == "stability"),
+                "dilution_integrity": ("data", lambda inj: inj.role == "dilution_integrity")}
 # the order feeds are listed in (the registry's)
 _ORDER = ("samples", "recovery", "precision", "reference_material", "limit_of_blank", "method_detection_limit",
           "matrix_effect", "carry_over", "selectivity", "stability", "dilution_integrity")

@@ -19,7 +19,7 @@ import numpy as np
 from ..._common import quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
 
-__all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs", "study_qc", "study_qc_found",
+__all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs", "study_qc_found",
            "StudyQcFound", "MatrixFactorResponses", "matrix_factor_responses", "SolventCalibration",
            "solvent_calibration"]
 
@@ -80,6 +80,9 @@ class QuantifiedInjection:
     position: float = field(default=0.0, metadata={"json": None})             # its place in the run's sequence
     condition: str = field(default="", metadata={"when": lambda i: bool(i.condition)})    # a QC's storage condition
     dilution: float | None = field(default=None, metadata={"omit_none": True})           # a diluted QC's factor
+    # the sector table a QC with a lot, condition or dilution feeds instead of precision, as the runs were read
+    # (validator.inputs.runs.Injection.role); "" for any other injection
+    role: str = field(default="", metadata={"json": None})
 
 
 @dataclass(frozen=True)
@@ -182,7 +185,8 @@ def quantify_runs(injections, *, model: str, weighting: str, alpha: float, poole
                                        sheet=inj.sheet, row=inj.row, calibration=c.run, found=found,
                                        within_range=within, reason=reason, matrix=getattr(inj, "matrix", ""),
                                        lot=getattr(inj, "lot", ""), position=getattr(inj, "position", 0.0),
-                                       condition=getattr(inj, "condition", ""), dilution=getattr(inj, "dilution", None)))
+                                       condition=getattr(inj, "condition", ""), dilution=getattr(inj, "dilution", None),
+                                       role=getattr(inj, "role", "")))
     return RunsResult(quantified_with=POOLED if pooled else "run", model=model, weighting=weighting,
                       calibrations=calibrations, injections=tuple(out), calibrators=tuple(calibrators))
 
@@ -255,7 +259,7 @@ def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
     With a nested ``design`` (factor names "day" and/or "run"), each factor's labels come from
     the injections, and the series is the innermost unit (labels joined, "day / run").
     """
-    qc = tuple(i for i in _usable(result, "qc") if not study_qc(i))
+    qc = tuple(i for i in _usable(result, "qc") if not i.role)
     if not qc:
         return None
     from decimal import Decimal
@@ -268,16 +272,6 @@ def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
                    factors=factors)
 
 
-def study_qc(inj) -> str:
-    """What a QC injection with a lot, a storage condition or a dilution factor serves ("matrix lots",
-    "stability", "dilution"); "" for a QC of the accuracy and precision runs (and any other injection).
-    Such QCs feed their sector table only, never precision."""
-    if inj.type != "qc":
-        return ""
-    return ("matrix lots" if inj.lot else "stability" if inj.condition
-            else "dilution" if inj.dilution is not None else "")
-
-
 @dataclass(frozen=True)
 class StudyQcFound:
     """The found values of the QC injections of one sector study (matrix lots, stability or dilution):
@@ -288,15 +282,17 @@ class StudyQcFound:
     found: np.ndarray = field(repr=False)
 
 
-def study_qc_found(result: RunsResult, kind: str) -> StudyQcFound | None:
-    """The QC injections that serve ``kind`` (see :func:`study_qc`) with a found value; ``None`` without any.
+def study_qc_found(result: RunsResult, table: str) -> StudyQcFound | None:
+    """The QC injections that feed the sector ``table`` ("matrix_effect", "stability", "dilution_integrity":
+    their ``role``, decided when the runs were read) with a found value; ``None`` without any. Such QCs feed
+    their sector table only, never precision.
 
     The found value is the concentration read back through the QC's run calibration, before any dilution
     factor (dilution integrity multiplies it)."""
-    qc = [i for i in _usable(result, "qc") if study_qc(i) == kind]
+    qc = [i for i in _usable(result, "qc") if i.role == table]
     if not qc:
         return None
-    attribute = {"matrix lots": "lot", "stability": "condition", "dilution": "dilution"}[kind]
+    attribute = {"matrix_effect": "lot", "stability": "condition", "dilution_integrity": "dilution"}[table]
     return StudyQcFound(tuple(getattr(i, attribute) for i in qc), np.array([i.level for i in qc], float),
                         np.array([i.found for i in qc], float))
 
