@@ -11,6 +11,7 @@ import json
 
 import pytest
 
+from _builders import RUN_COLUMNS, runs_tables
 from conftest import STUDY_HEAD
 from validator.engine import analyse_study
 from validator.errors import DataError
@@ -22,31 +23,8 @@ LEVELS = (1, 2, 5, 10, 20)
 LOW = (0.50, 0.53, 0.47, 0.52, 0.48, 0.51, 0.49)
 BLANKS = (0.02, 0.05, 0.01, 0.04, 0.03)
 
-RUNS = """
-[calibration]
-model = "linear"
-
-[[runs]]
-data = "run-1.csv"
-run = "run-1"
-[[runs]]
-data = "run-2.csv"
-run = "run-2"
-[[runs]]
-data = "run-3.csv"
-run = "run-3"
-
-[columns]
-sample = "Sample"
-type = "Type"
-level = "Level"
-response = "Area"
-
-[types]
-calibrator = ["Cal"]
-blank = ["Blank"]
-low_level = ["Low"]
-"""
+RUNS = ('\n[calibration]\nmodel = "linear"\n' + runs_tables(f"run-{k}.csv" for k in (1, 2, 3)) + "\n" + RUN_COLUMNS
+        + '\n[types]\ncalibrator = ["Cal"]\nblank = ["Blank"]\nlow_level = ["Low"]\n')
 
 
 def _run_file(k: int, blanks=BLANKS, low=LOW, low_level="0.5") -> str:

@@ -14,6 +14,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
+from _builders import IS_AND_LOT, analyte, close, run_json, runs_head, write_own_files
+from _builders import write_runs as _write_runs
 from bs4 import BeautifulSoup
 from test_dossier import assert_correctly_rounded, lookup
 
@@ -23,32 +25,13 @@ from validator.cli import main
 from validator.errors import DataError, StudyError
 from validator.inputs.loading import load_study
 
-HEAD = """\
-[study]
-id = "SR-1"
-title = "Sector characteristics from runs"
-concentration_unit = "ng/mL"
-response_unit = "area ratio"
-
-[calibration]
-model = "linear"
-weighting = "none"
-
-[columns]
-sample = "Sample"
-type = "Type"
-level = "Level"
-response = "Area"
-internal_standard = "IS Area"
-lot = "Lot"
-{order}
-[types]
+HEAD = runs_head("SR-1", "Sector characteristics from runs", columns=IS_AND_LOT + "{order}", types="""\
 calibrator = ["Cal"]
 blank = ["Blank"]
 zero = ["Zero"]
 matrix_blank = ["Blank Lot"]
 low_level = ["Low"]
-"""
+""")
 
 HEADER = "Sample,Type,Level,Area,IS Area,Lot\n"
 # run 1: the blank right after the highest calibrator (Cal 4, row 6) is DB-1 (row 7)
@@ -94,22 +77,8 @@ SECTORS = "\n[carry_over]\n\n[selectivity]\nmin_lots = 6\n\n[limit_of_blank]\n\n
 
 
 def write_runs(folder, runs: dict, *, order: str = "", sectors: str = SECTORS):
-    for name, text in runs.items():
-        (folder / name).write_text(text, encoding="utf-8")
-    body = HEAD.format(order=order) + "".join(f'\n[[runs]]\ndata = "{name}"\nrun = "{name[:-4]}"\n' for name in runs)
-    study = folder / "study.toml"
-    study.write_text(body + sectors, encoding="utf-8")
-    return study
-
-
-def run_json(study, outside, name="out") -> dict:
-    out = outside / name
-    assert main(["run", str(study), "--out", str(out), "--format", "json"]) in (0, 1)
-    return json.loads((out / "results.json").read_text(encoding="utf-8"))
-
-
-def analyte(results: dict) -> dict:
-    return results["analytes"][0]
+    """The exports and their study (``order``: [columns] lines added after the lot's)."""
+    return _write_runs(folder, runs, head=HEAD.format(order=order), sectors=sectors)
 
 
 def criterion(entry: dict, cid: str) -> dict:
@@ -261,13 +230,9 @@ def test_carry_over_from_runs_equals_the_own_file(tmp_path, outside):
     only = "".join(line + "\n" for line in RUN_1.splitlines() if not line.startswith(("MB-", "LL-")))
     a = analyte(run_json(write_runs(runs_dir, {"run-1.csv": only}, sectors="\n[carry_over]\n"), outside, "a"))
     # the same design as a [carry_over] file: the blank, and the LLOQ rows whose IS mean is the run's (998)
-    (file_dir / "carry-over.csv").write_text(
-        "kind,response,internal_standard_response\nblank,12,30\nlloq,100,998\nlloq,104,998\n", encoding="utf-8")
-    (file_dir / "calibration.csv").write_text("concentration,response\n1,1\n2,2.1\n5,4.9\n10,10.1\n", encoding="utf-8")
-    (file_dir / "study.toml").write_text(
-        '[study]\nid = "SR-2"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area"\n'
-        '[calibration]\ndata = "calibration.csv"\n[carry_over]\ndata = "carry-over.csv"\n', encoding="utf-8")
-    b = analyte(run_json(file_dir / "study.toml", outside, "b"))
+    own = write_own_files(file_dir, "SR-2", '[carry_over]\ndata = "carry-over.csv"\n', {"carry-over.csv":
+                          "kind,response,internal_standard_response\nblank,12,30\nlloq,100,998\nlloq,104,998\n"})
+    b = analyte(run_json(own, outside, "b"))
     assert b["carry_over"]["data_from"] == "file" and b["carry_over"]["run_blanks"] == []
     for key in ("analyte_percent", "internal_standard_percent"):
         assert a["carry_over"][key] == pytest.approx(b["carry_over"][key], rel=1e-12, abs=0)
@@ -284,13 +249,9 @@ def test_selectivity_from_runs_equals_the_own_file(tmp_path, outside):
     rows = "".join(f"{lot},blank,{area},{ist}\n" for lot, area, ist in
                    [("L1", 5, 20), ("L2", 8, 10), ("L3", 3, 5), ("L4", 15, 40), ("L5", 22, 60), ("L6", 6, 12),
                     ("L4", 9, 45)])
-    (file_dir / "selectivity.csv").write_text(
-        "lot,kind,response,internal_standard_response\n" + rows + ",lloq,100,1000\n,lloq,104,990\n", encoding="utf-8")
-    (file_dir / "calibration.csv").write_text("concentration,response\n1,1\n2,2.1\n5,4.9\n10,10.1\n", encoding="utf-8")
-    (file_dir / "study.toml").write_text(
-        '[study]\nid = "SR-2"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area"\n'
-        '[calibration]\ndata = "calibration.csv"\n[selectivity]\ndata = "selectivity.csv"\n', encoding="utf-8")
-    b = analyte(run_json(file_dir / "study.toml", outside, "b"))
+    own = write_own_files(file_dir, "SR-2", '[selectivity]\ndata = "selectivity.csv"\n', {"selectivity.csv":
+                          "lot,kind,response,internal_standard_response\n" + rows + ",lloq,100,1000\n,lloq,104,990\n"})
+    b = analyte(run_json(own, outside, "b"))
     sa, sb = a["selectivity"], b["selectivity"]
     assert (sa["data_from"], sb["data_from"]) == ("runs", "file")
     assert [lot["lot"] for lot in sa["lots"]] == [lot["lot"] for lot in sb["lots"]]
@@ -355,40 +316,26 @@ def test_limits_from_runs_equal_the_own_files(tmp_path, outside):
     assert i["found"] == pytest.approx((i["response"] - cal[i["calibration"]]["intercept"])
                                        / cal[i["calibration"]]["slope"], rel=1e-12)
     # the same found values as the characteristics' own files (lot "1" where none is given, batch = run)
-    (file_dir / "blanks.csv").write_text("sample,lot,found\n" + "".join(
-        f"{i['sample']},{i.get('lot', '1')},{i['found']!r}\n" for i in blanks), encoding="utf-8")
-    (file_dir / "low.csv").write_text("sample,lot,nominal,found\n" + "".join(
-        f"{i['sample']},{i['lot']},{i['level']!r},{i['found']!r}\n" for i in low), encoding="utf-8")
-    (file_dir / "mdl-spiked.csv").write_text("batch,spike_level,found\n" + "".join(
-        f"{i['run']},{i['level']!r},{i['found']!r}\n" for i in low), encoding="utf-8")
-    (file_dir / "mdl-blanks.csv").write_text("batch,found\n" + "".join(
-        f"{i['run']},{i['found']!r}\n" for i in blanks), encoding="utf-8")
-    (file_dir / "calibration.csv").write_text("concentration,response\n1,1\n2,2.1\n5,4.9\n10,10.1\n", encoding="utf-8")
-    (file_dir / "study.toml").write_text(
-        '[study]\nid = "SR-3"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area"\n'
-        '[calibration]\ndata = "calibration.csv"\n[limit_of_blank]\nmethod = "parametric"\nblanks = "blanks.csv"\n'
-        'low_samples = "low.csv"\n'
-        '[method_detection_limit]\nspiked = "mdl-spiked.csv"\nblanks = "mdl-blanks.csv"\n', encoding="utf-8")
-    b = analyte(run_json(file_dir / "study.toml", outside, "b"))
+    tables = ('[limit_of_blank]\nmethod = "parametric"\nblanks = "blanks.csv"\nlow_samples = "low.csv"\n'
+              '[method_detection_limit]\nspiked = "mdl-spiked.csv"\nblanks = "mdl-blanks.csv"\n')
+    own = write_own_files(file_dir, "SR-3", tables, {
+        "blanks.csv": "sample,lot,found\n" + "".join(
+            f"{i['sample']},{i.get('lot', '1')},{i['found']!r}\n" for i in blanks),
+        "low.csv": "sample,lot,nominal,found\n" + "".join(
+            f"{i['sample']},{i['lot']},{i['level']!r},{i['found']!r}\n" for i in low),
+        "mdl-spiked.csv": "batch,spike_level,found\n" + "".join(
+            f"{i['run']},{i['level']!r},{i['found']!r}\n" for i in low),
+        "mdl-blanks.csv": "batch,found\n" + "".join(f"{i['run']},{i['found']!r}\n" for i in blanks)})
+    b = analyte(run_json(own, outside, "b"))
     for name in ("limit_of_blank", "method_detection_limit"):
         assert (a[name]["data_from"], b[name]["data_from"]) == ("runs", "file")
-        assert _close(_without(a[name]), _without(b[name]))
+        assert close(_without(a[name]), _without(b[name]))
     assert a["limit_of_blank"]["lod"] is not None and a["method_detection_limit"]["value"] is not None
     assert {"limit_of_blank", "method_detection_limit"} <= set(a["runs"]["feeds"])
 
 
 def _without(entry: dict) -> dict:
     return {k: v for k, v in entry.items() if k != "data_from"}
-
-
-def _close(x, y) -> bool:
-    if isinstance(x, dict):
-        return x.keys() == y.keys() and all(_close(x[k], y[k]) for k in x)
-    if isinstance(x, list):
-        return len(x) == len(y) and all(_close(a, b) for a, b in zip(x, y))
-    if isinstance(x, float) and isinstance(y, (int, float)):
-        return abs(x - y) <= 1e-12 * max(abs(x), abs(y), 1e-300)
-    return x == y
 
 
 # --- errors ----------------------------------------------------------------------------------------
@@ -489,22 +436,18 @@ def test_matrix_lots_stability_and_dilution_from_runs_equal_the_own_files(tmp_pa
     q = diluted[-1]
     assert q["found"] == pytest.approx((q["response"] - cal[q["run"]]["intercept"]) / cal[q["run"]]["slope"],
                                        rel=1e-12)
-    (file_dir / "lots.csv").write_text("lot,nominal,found\n" + "".join(
-        f"{i['lot']},{i['level']!r},{i['found']!r}\n" for i in lots), encoding="utf-8")
-    (file_dir / "stability.csv").write_text("condition,nominal,found\n" + "".join(
-        f"{i['condition']},{i['level']!r},{i['found']!r}\n" for i in stored), encoding="utf-8")
-    (file_dir / "dilution.csv").write_text("factor,nominal,found\n" + "".join(
-        f"{i['dilution']!r},{i['level']!r},{i['found']!r}\n" for i in diluted), encoding="utf-8")
-    (file_dir / "calibration.csv").write_text("concentration,response\n1,1\n2,2.1\n5,4.9\n10,10.1\n", encoding="utf-8")
-    (file_dir / "study.toml").write_text(
-        '[study]\nid = "SR-4"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area"\n'
-        '[calibration]\ndata = "calibration.csv"\n[matrix_effect]\nmin_lots = 6\nlots_data = "lots.csv"\n'
-        '[stability]\nmin_replicates = 3\ndata = "stability.csv"\n[dilution_integrity]\ndata = "dilution.csv"\n',
-        encoding="utf-8")
-    b = analyte(run_json(file_dir / "study.toml", outside, "b"))
+    tables = ('[matrix_effect]\nmin_lots = 6\nlots_data = "lots.csv"\n[stability]\nmin_replicates = 3\n'
+              'data = "stability.csv"\n[dilution_integrity]\ndata = "dilution.csv"\n')
+    own = write_own_files(file_dir, "SR-4", tables, {
+        "lots.csv": "lot,nominal,found\n" + "".join(f"{i['lot']},{i['level']!r},{i['found']!r}\n" for i in lots),
+        "stability.csv": "condition,nominal,found\n" + "".join(
+            f"{i['condition']},{i['level']!r},{i['found']!r}\n" for i in stored),
+        "dilution.csv": "factor,nominal,found\n" + "".join(
+            f"{i['dilution']!r},{i['level']!r},{i['found']!r}\n" for i in diluted)})
+    b = analyte(run_json(own, outside, "b"))
     for name in ("matrix_effect", "stability", "dilution_integrity"):
         assert (a[name]["data_from"], b[name]["data_from"]) == ("runs", "file")
-        assert _close(_without(a[name]), _without(b[name]))
+        assert close(_without(a[name]), _without(b[name]))
     # hand computation, ICH M10 lot accuracy: 100 x mean found / nominal, lot L1 at 3
     l1 = [i["found"] for i in lots if i["lot"] == "L1" and i["level"] == 3]
     lv = next(x for x in a["matrix_effect"]["lots"] if x["nominal"] == 3)

@@ -10,39 +10,20 @@ beside them.
 
 from __future__ import annotations
 
-import json
-
 import pytest
+from _builders import analyte, close, run_json, runs_head, write_own_files
+from _builders import write_runs as _write_runs
 
 from validator.cli import main
 from validator.errors import DataError
 from validator.inputs.loading import load_study
 
-HEAD = """\
-[study]
-id = "MF-1"
-title = "Matrix factor and slope ratio from runs"
-concentration_unit = "ng/mL"
-response_unit = "area ratio"
-
-[calibration]
-model = "linear"
-weighting = "none"
-
-[columns]
-sample = "Sample"
-type = "Type"
-level = "Level"
-response = "Area"
-internal_standard = "IS Area"
-lot = "Lot"
-
-[types]
+HEAD = runs_head("MF-1", "Matrix factor and slope ratio from runs", types="""\
 calibrator = ["Cal"]
 post_extraction = ["PES"]
 neat = ["Neat"]
 solvent_calibrator = ["Solvent Cal"]
-"""
+""")
 
 HEADER = "Sample,Type,Level,Area,IS Area,Lot\n"
 LOTS = ("L1", "L2", "L3", "L4", "L5", "L6")
@@ -63,60 +44,38 @@ def run_text(k: int, *, factor: bool = True, solvent: bool = True) -> str:
 
 
 def write_runs(folder, runs: dict, *, sectors: str = "\n[matrix_effect]\n", head: str = HEAD):
-    for name, text in runs.items():
-        (folder / name).write_text(text, encoding="utf-8")
-    body = head + "".join(f'\n[[runs]]\ndata = "{name}"\nrun = "{name[:-4]}"\n' for name in runs)
-    study = folder / "study.toml"
-    study.write_text(body + sectors, encoding="utf-8")
-    return study
-
-
-def run_json(study, outside, name="out") -> dict:
-    out = outside / name
-    assert main(["run", str(study), "--out", str(out), "--format", "json"]) in (0, 1)
-    return json.loads((out / "results.json").read_text(encoding="utf-8"))["analytes"][0]
+    return _write_runs(folder, runs, head=head, sectors=sectors)
 
 
 def _rows(text: str) -> list[list[str]]:
     return [line.split(",") for line in text.splitlines()[1:]]
 
 
-def _close(x, y) -> bool:
-    if isinstance(x, dict):
-        return x.keys() == y.keys() and all(_close(x[k], y[k]) for k in x)
-    if isinstance(x, list):
-        return len(x) == len(y) and all(_close(a, b) for a, b in zip(x, y))
-    if isinstance(x, float) and isinstance(y, (int, float)):
-        return abs(x - y) <= 1e-12 * max(abs(x), abs(y), 1e-300)
-    return x == y
-
-
 def test_matrix_factor_and_slope_ratio_from_runs_equal_the_own_files(tmp_path, outside):
     runs_dir, file_dir = tmp_path / "runs", tmp_path / "file"
     runs_dir.mkdir(), file_dir.mkdir()
     texts = {"run-1.csv": run_text(0), "run-2.csv": run_text(1)}
-    a = run_json(write_runs(runs_dir, texts), outside, "a")
+    a = analyte(run_json(write_runs(runs_dir, texts), outside, "a"))
     me = a["matrix_effect"]
     assert (me["factor_data_from"], me["slope_ratio_data_from"], me["data_from"]) == ("runs", "runs", "file")
     assert "matrix_effect" in a["runs"]["feeds"] and me["lots"] == []
     # the same data as the characteristic's own files: factor_data with the raw areas (lot "neat" for the
     # neat solution), solvent_data with the solvent calibrators' ratios, [calibration] with the calibrators'
     rows = [r for text in texts.values() for r in _rows(text)]
-    (file_dir / "factor.csv").write_text("lot,analyte_response,internal_standard_response\n" + "".join(
-        f"{r[5] or 'neat'},{r[3]},{r[4]}\n" for r in rows if r[1] in ("PES", "Neat")), encoding="utf-8")
-    (file_dir / "solvent.csv").write_text("concentration,response\n" + "".join(
-        f"{r[2]},{float(r[3]) / float(r[4])!r}\n" for r in rows if r[1] == "Solvent Cal"), encoding="utf-8")
-    (file_dir / "calibration.csv").write_text("concentration,response\n" + "".join(
-        f"{r[2]},{float(r[3]) / float(r[4])!r}\n" for r in rows if r[1] == "Cal"), encoding="utf-8")
-    (file_dir / "study.toml").write_text(
-        '[study]\nid = "MF-2"\ntitle = "t"\nconcentration_unit = "ng/mL"\nresponse_unit = "area ratio"\n'
-        '[calibration]\ndata = "calibration.csv"\nmodel = "linear"\nweighting = "none"\n'
-        '[matrix_effect]\nsolvent_data = "solvent.csv"\nfactor_data = "factor.csv"\n', encoding="utf-8")
-    b = run_json(file_dir / "study.toml", outside, "b")["matrix_effect"]
+    tables = '[matrix_effect]\nsolvent_data = "solvent.csv"\nfactor_data = "factor.csv"\n'
+    own = write_own_files(file_dir, "MF-2", tables, {
+        "factor.csv": "lot,analyte_response,internal_standard_response\n" + "".join(
+            f"{r[5] or 'neat'},{r[3]},{r[4]}\n" for r in rows if r[1] in ("PES", "Neat")),
+        "solvent.csv": "concentration,response\n" + "".join(
+            f"{r[2]},{float(r[3]) / float(r[4])!r}\n" for r in rows if r[1] == "Solvent Cal")},
+        calibration="concentration,response\n" + "".join(
+            f"{r[2]},{float(r[3]) / float(r[4])!r}\n" for r in rows if r[1] == "Cal"),
+        response_unit="area ratio", calibration_keys='model = "linear"\nweighting = "none"\n')
+    b = analyte(run_json(own, outside, "b"))["matrix_effect"]
     assert (b["factor_data_from"], b["slope_ratio_data_from"]) == ("file", "file")
     assert me["normalised_factor"] is not None and me["slope_ratio"] is not None
-    assert _close(me["normalised_factor"], b["normalised_factor"])
-    assert _close(me["slope_ratio"], b["slope_ratio"])
+    assert close(me["normalised_factor"], b["normalised_factor"])
+    assert close(me["slope_ratio"], b["slope_ratio"])
     # hand computation, ICH M10 matrix factor: lot L1 (2 injections per run, 2 runs) against the 6 neat ones
     pes = [(float(r[3]), float(r[4])) for r in rows if r[1] == "PES" and r[5] == "L1"]
     neat = [(float(r[3]), float(r[4])) for r in rows if r[1] == "Neat"]
@@ -139,8 +98,8 @@ def test_slope_ratio_from_runs_beside_a_factor_file(tmp_path, outside):
     """Each part reads its own source: the factor file stays, the solvent calibration comes from the runs."""
     (tmp_path / "factor.csv").write_text("lot,analyte_response,internal_standard_response\n"
                                          "A,90,1000\nB,95,990\nneat,100,1000\n", encoding="utf-8")
-    r = run_json(write_runs(tmp_path, {"run-1.csv": run_text(0, factor=False)},
-                            sectors='\n[matrix_effect]\nfactor_data = "factor.csv"\nmin_lots = 2\n'), outside)
+    r = analyte(run_json(write_runs(tmp_path, {"run-1.csv": run_text(0, factor=False)},
+                                    sectors='\n[matrix_effect]\nfactor_data = "factor.csv"\nmin_lots = 2\n'), outside))
     me = r["matrix_effect"]
     assert (me["factor_data_from"], me["slope_ratio_data_from"]) == ("file", "runs")
     # hand computation: lot A 0.9 / 1.0, lot B 0.95 / 0.99
