@@ -41,7 +41,8 @@ class _LazyPyplot:
 
 plt = _LazyPyplot()
 
-__all__ = ["PALETTE", "Drawn", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x"]
+__all__ = ["PALETTE", "Drawn", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x",
+           "results_in_file_order"]
 
 # the print version's raster figures: resolution (dots per inch) of the PNG drawn beside the SVG
 PRINT_DPI = 150
@@ -94,6 +95,21 @@ def figure(nrows: int = 1, ncols: int = 1, **kw):
 def points(ax, x, y, marker="o", colour=None, **kw):
     """Data points in the house style (open markers)."""
     _points(ax, x, y, marker, colour, **kw)
+
+
+def results_in_file_order(fig, ax, *, what: str, unit: str, name: str) -> str:
+    """The end of a figure of single results numbered in file order, with limits drawn as lines
+    (limit of blank, method detection limit): axis labels, whole result numbers on the x axis, the
+    legend to the right of the axes; laid out and returned as :func:`svg` (``name``: its ids).
+
+    ``what``: the groups in the order they are numbered, e.g. "blanks, then low-level samples".
+    """
+    ax.set_xlabel(f"result number ({what}, in file order)")
+    ax.set_ylabel(f"result ({unit})")
+    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return svg(fig, name)
 
 
 class Drawn(str):
