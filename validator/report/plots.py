@@ -141,10 +141,13 @@ def _without_layout_engine(fig) -> None:
     whole figure once more before drawing it for real (ticks, tick labels and text extents computed
     twice: about a quarter of a figure's cost, twice when it is saved as SVG and PNG). The saved
     files are the same without it."""
+    import matplotlib
     from matplotlib.layout_engine import PlaceHolderLayoutEngine
 
     if isinstance(fig.get_layout_engine(), PlaceHolderLayoutEngine):
-        fig.set_layout_engine(None)
+        # None means "no engine" only while these are off (a user's matplotlibrc may turn them on)
+        with matplotlib.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+            fig.set_layout_engine(None)
 
 
 def _svg(fig, name: str) -> str:
