@@ -41,7 +41,8 @@ class _LazyPyplot:
 
 plt = _LazyPyplot()
 
-__all__ = ["PALETTE", "Drawn", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x"]
+__all__ = ["PALETTE", "Drawn", "analyte_figures", "figures_for_all", "style", "figure", "points", "svg", "log_x",
+           "results_in_file_order"]
 
 # the print version's raster figures: resolution (dots per inch) of the PNG drawn beside the SVG
 PRINT_DPI = 150
@@ -96,6 +97,21 @@ def points(ax, x, y, marker="o", colour=None, **kw):
     _points(ax, x, y, marker, colour, **kw)
 
 
+def results_in_file_order(fig, ax, *, what: str, unit: str, name: str) -> str:
+    """The end of a figure of single results numbered in file order, with limits drawn as lines
+    (limit of blank, method detection limit): axis labels, whole result numbers on the x axis, the
+    legend to the right of the axes; laid out and returned as :func:`svg` (``name``: its ids).
+
+    ``what``: the groups in the order they are numbered, e.g. "blanks, then low-level samples".
+    """
+    ax.set_xlabel(f"result number ({what}, in file order)")
+    ax.set_ylabel(f"result ({unit})")
+    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
+    fig.tight_layout()
+    return svg(fig, name)
+
+
 class Drawn(str):
     """A figure drawn for the screen and for print: the text is its inline SVG (empty when the HTML
     dossier is not written), ``png`` the same figure as PNG bytes (for the print version of a large
@@ -118,7 +134,24 @@ def svg(fig, name: str) -> str:
     return _svg(fig, name)
 
 
+def _without_layout_engine(fig) -> None:
+    """Drop the placeholder layout engine that ``fig.tight_layout()`` leaves behind.
+
+    The layout is done by then; the placeholder does nothing but makes every ``savefig`` draw the
+    whole figure once more before drawing it for real (ticks, tick labels and text extents computed
+    twice: about a quarter of a figure's cost, twice when it is saved as SVG and PNG). The saved
+    files are the same without it."""
+    import matplotlib
+    from matplotlib.layout_engine import PlaceHolderLayoutEngine
+
+    if isinstance(fig.get_layout_engine(), PlaceHolderLayoutEngine):
+        # None means "no engine" only while these are off (a user's matplotlibrc may turn them on)
+        with matplotlib.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+            fig.set_layout_engine(None)
+
+
 def _svg(fig, name: str) -> str:
+    _without_layout_engine(fig)
     if _OUTPUTS == ("svg",):
         return _svg_text(fig, name)
     drawn = Drawn(_svg_text(fig, name, close=False) if "svg" in _OUTPUTS else "")

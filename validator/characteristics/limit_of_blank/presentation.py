@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.plots import PALETTE, figure, points, svg
+from ...report.plots import PALETTE, figure, points, results_in_file_order
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -72,9 +72,5 @@ def figures(entry: dict, reading) -> dict:
         ax.axhline(lob, color=PALETTE["ink"], ls="--", lw=0.8, label=f"LoB {fmt(lob)} {reading.unit}", gid="lob-line")
     if lod is not None:
         ax.axhline(lod, color=PALETTE["bad"], ls="-.", lw=0.8, label=f"LoD {fmt(lod)} {reading.unit}", gid="lod-line")
-    ax.set_xlabel("result number (blanks, then low-level samples, in file order)")
-    ax.set_ylabel(f"result ({reading.unit})")
-    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
-    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
-    fig.tight_layout()
-    return {"results": svg(fig, f"lob{reading.key}")}
+    return {"results": results_in_file_order(fig, ax, what="blanks, then low-level samples", unit=reading.unit,
+                                              name=f"lob{reading.key}")}

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.plots import PALETTE, figure, points, svg
+from ...report.plots import PALETTE, figure, points, results_in_file_order
 from ...report.text import fmt
 
 __all__ = ["sentences", "figures"]
@@ -55,9 +55,5 @@ def figures(entry: dict, reading) -> dict:
     if entry.get("spike_level") is not None:
         ax.axhline(entry["spike_level"], color=PALETTE["data"], ls=":", lw=0.8,
                    label=f"spike level {fmt(entry['spike_level'])} {reading.unit}", gid="spike-line")
-    ax.set_xlabel("result number (spiked samples, then method blanks, in file order)")
-    ax.set_ylabel(f"result ({reading.unit})")
-    ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
-    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
-    fig.tight_layout()
-    return {"results": svg(fig, f"mdl{reading.key}")}
+    return {"results": results_in_file_order(fig, ax, what="spiked samples, then method blanks", unit=reading.unit,
+                                              name=f"mdl{reading.key}")}
