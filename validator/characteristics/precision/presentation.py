@@ -39,7 +39,7 @@ def sentences(prec: dict, reading) -> dict[str, str]:
     else:
         outliers += " Grubbs' test within a series flags no single result where it applies."
     if any(lvl.get("flagged_results") for lvl in prec["levels"]):
-        outliers += " Each flagged result is listed with its file row below and marked in the raw data."
+        outliers += " Each flagged result is listed with its file row in the table of flagged results and marked in the raw data."
     out["outliers"] = outliers
     nested = _nested(prec, unit)
     if nested:
