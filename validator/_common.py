@@ -6,11 +6,11 @@ import math
 import re
 import warnings
 from contextlib import contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["ConfidenceInterval", "TestResult", "not_applicable", "finite_or_none", "quiet_numpy", "level_label",
+__all__ = ["ConfidenceInterval", "TestResult", "SourceRow", "not_applicable", "finite_or_none", "quiet_numpy", "level_label",
            "open_unit", "positive", "no_relative_sd", "LIMIT_RELATIVE_TOLERANCE", "not_above", "not_below",
            "between"]
 
@@ -30,6 +30,17 @@ class ConfidenceInterval:
     def label(self) -> str:
         """The level as text, e.g. "95 %": the one way a confidence level becomes a label."""
         return level_label(self.level)
+
+
+@dataclass(frozen=True)
+class SourceRow:
+    """Where one input value was read: the data file as the study names it, the sheet of a workbook
+    (``None`` for CSV) and the file row (CSV line, header = row 1, or sheet row), as results.json's
+    ``data_rows`` and the run injections name them."""
+
+    file: str
+    sheet: str | None = field(metadata={"omit_none": True})
+    row: int
 
 
 def level_label(level: float | None) -> str:

@@ -296,7 +296,8 @@ def build_results(result, *, generated_at: str) -> dict:
         "defaults_applied": [{"key": k, "value": v} for k, v in loaded.study.defaults_applied],
         # data rows left out by [[exclusions]]: kept here with their reason, never dropped silently
         "exclusions": [{"file": e.file, "sheet": e.sheet, "row": e.row, "role": e.role, "reason": e.reason,
-                        "who": e.who, "cells": [{"column": c, "value": v} for c, v in e.cells]}
+                        "who": e.who, "cells": [{"column": c, "value": v} for c, v in e.cells],
+                        **({} if e.analyte is None else {"analyte": e.analyte})}
                        for e in loaded.excluded],
         # sample ids one character apart with one reading each: a flagged warning, never silence
         "sample_id_warnings": [{"analyte": w.analyte, "file": w.file, "ids": list(w.ids), "rows": list(w.rows),

@@ -40,6 +40,9 @@ class Excluded:
         As written in the study (``who`` may be empty).
     cells : tuple of (column, value)
         The excluded record as written in the file.
+    analyte : str or None
+        The analyte a run export's row concerns (its analyte column, else the study's one analyte);
+        ``None`` for the rows of other files (their analyte is in the raw data's tables).
     """
 
     index: int
@@ -50,6 +53,7 @@ class Excluded:
     reason: str
     who: str
     cells: tuple[tuple[str, str], ...]
+    analyte: str | None = None
 
 
 def _same_file(a: Path, b: Path) -> bool:
@@ -142,6 +146,12 @@ class Exclusions:
             changes["kinds"] = {n: tuple(v[k] for k in keep) for n, v in table.kinds.items()}
         return dataclasses.replace(table, **changes)
 
+    def name_analytes(self, start: int, analyte_of) -> None:
+        """Say which analyte each row left out since ``applied[start]`` concerns: ``analyte_of(cells)``,
+        ``cells`` the row as ``{column: value}`` (a run export's row names its analyte, or the study has one)."""
+        self.applied[start:] = [dataclasses.replace(e, analyte=analyte_of(dict(e.cells)))
+                                for e in self.applied[start:]]
+
     def refuse_emptied(self, role: str, column: str, kept, what: str) -> None:
         """Refuse a value of ``column`` (an analyte) whose every row of the ``role`` file is excluded.
 
@@ -196,7 +206,7 @@ class Exclusions:
             if inj.internal_standard_response is not None:
                 cells += (("internal standard", repr(inj.internal_standard_response)),)
             self.applied.append(Excluded(index=i, file=inj.file, sheet=inj.sheet, row=inj.row, role="runs",
-                                         reason=e.reason, who=e.who, cells=cells))
+                                         reason=e.reason, who=e.who, cells=cells, analyte=inj.analyte))
         return tuple(keep)
 
     def check(self) -> tuple[Excluded, ...]:

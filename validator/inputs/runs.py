@@ -28,6 +28,7 @@ downstream; this module only reads.
 from __future__ import annotations
 
 import dataclasses
+import unicodedata
 from dataclasses import dataclass
 
 from ..errors import DataError, StudyError, show
@@ -136,6 +137,9 @@ def read_runs(reader, runs, columns, types, default_analyte: str) -> tuple[Injec
         table = reader.table("runs", source, required, optional, other_columns="ignore")
         _check_not_read_twice(read, k, source, reader.inputs[-1], reader.study)
         by_row.update(_excluded_injections(reader.exclusions.applied[before:], table, source, k, mapped))
+        analyte_column = mapped["analyte"] if mapped["analyte"] and table.has(mapped["analyte"]) else None
+        reader.exclusions.name_analytes(before, lambda cells: unicodedata.normalize(
+            "NFC", cells.get(analyte_column, "").strip()) if analyte_column else default_analyte)
         out.extend(_injections(table, source, k, mapped, types, default_analyte, reader.study.shown))
     _check_labels(out, reader.study.shown)
     _check_lots(out)

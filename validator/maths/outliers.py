@@ -35,7 +35,11 @@ class OutlierTest:
     Carlo), ``pvalue_se`` is the Monte Carlo standard error of the p-value
     (``None`` for closed forms), ``suspect`` names the series or result the
     statistic points at, ``series`` the series a within-series test ran on and
-    ``sizes`` the series sizes the reference distribution was built for.
+    ``sizes`` the series sizes the reference distribution was built for and
+    ``positions`` the indices (into the values tested) of the results the
+    statistic points at: every result of the suspect series, or the suspect
+    result of a within-series test (not written to results.json; a caller that
+    knows where each value was read names them).
     """
 
     method: str
@@ -48,10 +52,16 @@ class OutlierTest:
     df: tuple[float, ...] | None = field(default=None, metadata={"omit_none": True})
     sizes: tuple[int, ...] | None = field(default=None, metadata={"json": "series_sizes", "omit_none": True})
     series: str | None = field(default=None, metadata={"omit_none": True})
+    positions: tuple[int, ...] = field(default=(), metadata={"json": None}, repr=False)
 
     @property
     def applicable(self) -> bool:
         return self.statistic is not None
+
+
+def _positions(groups, label) -> tuple[int, ...]:
+    """The indices of the results of series ``label``, in input order."""
+    return tuple(int(i) for i in np.flatnonzero(np.asarray(groups) == label))
 
 
 def _outlier_na(method, reason, series=None) -> OutlierTest:
@@ -162,6 +172,7 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
                                    "whatever the one variance is; the test cannot judge it")
     C = float(var.max() / var.sum())
     suspect = f"series {labels[int(np.argmax(var))]}"
+    positions = _positions(g, labels[int(np.argmax(var))])
     if np.all(sizes == sizes[0]):
         n = int(sizes[0])
         d1, d2 = n - 1, (n - 1) * (k - 1)
@@ -171,7 +182,8 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
         basis = ("closed form from the F distribution, exact (equal series sizes, C >= 1/2)" if C >= 0.5 else
                  "closed form from the F distribution, Bonferroni upper bound (equal series sizes, C < 1/2; "
                  "conservative)")
-        return OutlierTest(method, C, p, df=(k, n), basis=basis, suspect=suspect, sizes=tuple(int(s) for s in sizes))
+        return OutlierTest(method, C, p, df=(k, n), basis=basis, suspect=suspect, sizes=tuple(int(s) for s in sizes),
+                           positions=positions)
     if k > MAX_SIMULATED_SERIES:
         return _outlier_na(method, f"unequal series sizes need a simulated p-value, done for at most "
                                    f"{MAX_SIMULATED_SERIES} series (this level has {k})")
@@ -180,7 +192,7 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
     basis = (f"Monte Carlo under the normal null with the actual series sizes ({MONTE_CARLO_DRAWS} draws, "
              f"seed {MONTE_CARLO_SEED}; standard error of p {se:.2g}); unequal sizes, so no closed form")
     return OutlierTest(method, C, p, basis=basis, pvalue_se=se, suspect=suspect,
-                       sizes=tuple(int(s) for s in sizes))
+                       sizes=tuple(int(s) for s in sizes), positions=positions)
 
 
 def grubbs_critical_value(n: int, alpha: float = 0.05) -> float:
@@ -273,7 +285,8 @@ def grubbs_means(values, groups, alpha=0.05) -> OutlierTest:
     if _at_grubbs_maximum(m):
         return _outlier_na(method, _TIES.replace("results", "series means"))
     G, p, idx, exact = _grubbs_single(m)
-    return OutlierTest(method, G, p, df=(k,), basis=_grubbs_basis(exact), suspect=f"series {labels[idx]}")
+    return OutlierTest(method, G, p, df=(k,), basis=_grubbs_basis(exact), suspect=f"series {labels[idx]}",
+                       positions=_positions(groups, labels[idx]))
 
 
 def grubbs_within_series(values, groups, alpha=0.05, offset=0.0) -> tuple:
@@ -308,7 +321,8 @@ def grubbs_within_series(values, groups, alpha=0.05, offset=0.0) -> tuple:
         else:
             G, p, idx, exact = _grubbs_single(x)
             out.append(OutlierTest(method, G, p, df=(int(x.size),), basis=_grubbs_basis(exact),
-                                   suspect=f"result {float(x[idx]) + offset:.12g}", series=str(lab)))
+                                   suspect=f"result {float(x[idx]) + offset:.12g}", series=str(lab),
+                                   positions=(_positions(g, lab)[idx],)))
     return tuple(out)
 
 
@@ -367,4 +381,5 @@ def grubbs_double(values, groups, alpha=0.05) -> OutlierTest:
     basis = (f"Monte Carlo under the normal null ({MONTE_CARLO_DRAWS} draws, seed {MONTE_CARLO_SEED}; "
              f"standard error of p {se:.2g}); lower tail of min(G_high, G_low)")
     return OutlierTest(method, G, p, df=(k,), basis=basis, pvalue_se=se,
-                       suspect=f"{which}: series {labels[pair[0]]}, {labels[pair[1]]}")
+                       suspect=f"{which}: series {labels[pair[0]]}, {labels[pair[1]]}",
+                       positions=tuple(sorted(_positions(groups, labels[pair[0]]) + _positions(groups, labels[pair[1]]))))

@@ -199,7 +199,9 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
                          "unit": units[i][0], "response_unit": units[i][1],
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
                          "remarks": summary.remarks(a, units[i][0], results.get("guideline")), "flagged_points": summary.flagged_points(a["calibration"]),
-                         "file_rows": _calibration_rows(result.analytes[i], a)})
+                         "file_rows": _calibration_rows(result.analytes[i], a),
+                         # precision results flagged by an outlier test, and their (file, sheet, row) marks
+                         "flagged_results": summary.flagged_results(a), "flagged_sources": summary.flagged_sources(a)})
     criteria = summary.ordered_criteria(results)
     matrix = summary.matrix(results)
     flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point,

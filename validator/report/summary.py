@@ -13,7 +13,8 @@ from dataclasses import dataclass
 from . import numbers as N
 
 __all__ = ["Cell", "MatrixRow", "matrix", "ordered_criteria", "conclusion", "characteristic_verdicts",
-           "criterion_characteristic", "studied_heading", "units_of", "common_unit", "units_by_analyte"]
+           "criterion_characteristic", "studied_heading", "units_of", "common_unit", "units_by_analyte",
+           "flagged_results", "flagged_sources"]
 
 
 def units_of(analyte: dict, study: dict) -> tuple[str, str]:
@@ -415,3 +416,25 @@ def flagged_points(calibration: dict) -> list[str]:
                       if b["nominal"] == o["concentration"] and b["response"] == o["response"]), "?")
         out.append(match)
     return out
+
+
+def flagged_results(analyte: dict) -> list[dict]:
+    """Each precision result an outlier test flags, as results.json gives it (``precision.levels[].
+    flagged_results[]``), with its level, its position there (``src``, the results.json path) and the
+    names of the flagging tests in words (``by``), in level and input order."""
+    out = []
+    levels = (analyte.get("precision") or {}).get("levels", [])
+    for li, lvl in enumerate(levels):
+        for k, f in enumerate(lvl.get("flagged_results", [])):
+            out.append({**f, "level": lvl["level"], "level_src": f"precision.levels.{li}.level",
+                        "src": f"precision.levels.{li}.flagged_results.{k}",
+                        "by": [_TEST_NAMES[t] for t in f["tests"]]})
+    return out
+
+
+def flagged_sources(analyte: dict) -> dict:
+    """``{(file, sheet or None, row): "the flagging tests in words"}`` of the analyte's flagged precision
+    results that name their source (for marking them among the raw data; a row holds one result)."""
+    return {(f["source"]["file"], f["source"].get("sheet"), f["source"]["row"]): ", ".join(f["by"])
+            for f in flagged_results(analyte) if f.get("source") is not None}
+

@@ -52,7 +52,8 @@ def assess(ctx) -> Assessment[PrecisionResult] | None:
             factors=tuple(np.asarray(f)[mask] for f in p.factors), claims=pc.claims_for(float(level)),
             bounds=ctx.config.criteria.on_intervals, claim_levels=claim_levels,
             sd_claims=pc.sd_claims_for(float(level)), reference=pc.reference_for(float(level)),
-            reference_levels=reference_levels))
+            reference_levels=reference_levels,
+            sources=tuple(src for src, m in zip(p.sources, mask) if m)))
     result = PrecisionResult(tuple(levels))
     criteria = tuple(c for lv in result.levels for c in level_criteria(ctx, lv)
                      + design_criteria(lv, pc.min_series, pc.min_replicates))

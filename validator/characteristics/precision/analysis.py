@@ -28,14 +28,14 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import stats
 
-from ..._common import ConfidenceInterval, level_label, no_relative_sd, quiet_numpy
+from ..._common import ConfidenceInterval, SourceRow, level_label, no_relative_sd, quiet_numpy
 from ...criteria import Criterion, at_least, at_most
 from ...maths.anova import OneWayAnova, one_way_anova
 from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
 from ...maths.variance_components import (mls_upper_bound, nested_variance_components, one_way_mean_standard_error,
                                           verify_bias, verify_precision_claim)
 
-__all__ = ["PrecisionResult", "PrecisionLevel", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate",
+__all__ = ["PrecisionResult", "PrecisionLevel", "FlaggedResult", "NestedPrecision", "VarianceEstimate", "PrecisionConditionEstimate",
            "ClaimCheck", "TruenessCheck", "RsdUpperBounds", "assess_precision_level", "precision_criteria",
            "design_criteria", "levels_criterion", "mass_fraction_factor", "horwitz_prsd"]
 
@@ -360,6 +360,23 @@ def _claims(claims, mean, rep_sd, rep_df, ip_sd, ip_df, ip_reason, alpha, claim_
 
 
 @dataclass(frozen=True)
+class FlaggedResult:
+    """One result that an outlier test of its level flags (p below alpha), with where it was read.
+
+    ``tests`` names the flagging tests by their results.json keys: ``cochran`` and ``grubbs`` (the
+    result's series has the largest variance or the most extreme mean), ``grubbs_double`` (its series
+    is one of the pair), ``grubbs_within_series`` (the result itself). ``source`` is the file, sheet
+    and row the result was read from (a precision file's row or a run export's QC injection), absent
+    when the caller gave none. The result stays in every estimate.
+    """
+
+    value: float
+    series: str
+    tests: tuple[str, ...]
+    source: SourceRow | None = field(default=None, metadata={"omit_none": True})
+
+
+@dataclass(frozen=True)
 class PrecisionLevel:
     """One concentration level. Field order and ``metadata`` give its results.json form."""
 
@@ -381,6 +398,8 @@ class PrecisionLevel:
     grubbs: OutlierTest
     grubbs_double: OutlierTest | None
     grubbs_within: tuple[OutlierTest, ...] = field(metadata={"json": "grubbs_within_series"})   # one per series
+    # every result a test above flags, in input order, with its file, sheet and row
+    flagged: tuple[FlaggedResult, ...] = field(metadata={"json": "flagged_results"})
     horrat: float | None = field(metadata={"null_reason": "horwitz_reason"})
     horwitz_prsd_pct: float | None = field(metadata={"null_reason": "horwitz_reason"})
     horwitz_note: str
@@ -439,7 +458,7 @@ def _sd_ci(sd, df, alpha):
 
 def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset=0.0, design=None,
                            factors=(), claims=(None, None), bounds=False, claim_levels=(1, 1),
-                           sd_claims=(None, None), reference=None, reference_levels=1) -> PrecisionLevel:
+                           sd_claims=(None, None), reference=None, reference_levels=1, sources=()) -> PrecisionLevel:
     """Repeatability, between-series and intermediate precision at one level.
 
     Notes
@@ -464,6 +483,8 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     claim takes precedence over an RSD claim of the same quantity). ``reference`` (target value,
     its standard uncertainty, its df or None) adds the EP15 verification of the bias
     (:class:`TruenessCheck`), ``reference_levels`` being the number of levels with a target value.
+    ``sources`` (one :class:`~validator._common.SourceRow` per value, or empty) name where each
+    result flagged by an outlier test was read (``flagged``).
     """
     a = one_way_anova(values, series, offset)
     notes = []
@@ -535,17 +556,38 @@ def assess_precision_level(level, values, series, *, alpha=0.05, unit="", offset
     counts = {}
     for label in series:
         counts[label] = counts.get(label, 0) + 1
+    tests = {"cochran": cochran_c(values, series, alpha), "grubbs": grubbs_means(values, series, alpha),
+             "grubbs_double": grubbs_double(values, series, alpha)}
+    within = grubbs_within_series(values, series, alpha, offset)
     return PrecisionLevel(
         level=float(level), series=a.groups, n=a.n, mean=mean, anova=a, repeatability_sd=sr,
         repeatability_rsd_pct=rsd(sr), between_series_sd=sl, between_clamped=clamped, intermediate_sd=si,
         intermediate_rsd_pct=rsd(si),
         repeatability_sd_ci=_sd_ci(sr, a.df_within, alpha) if np.isfinite(sr) else None,
         intermediate_sd_ci=_sd_ci(si, df_i, alpha) if np.isfinite(si) else None, intermediate_df=df_i,
-        cochran=cochran_c(values, series, alpha), grubbs=grubbs_means(values, series, alpha),
-        grubbs_double=grubbs_double(values, series, alpha),
-        grubbs_within=grubbs_within_series(values, series, alpha, offset), horrat=horrat, horwitz_prsd_pct=prsd,
+        cochran=tests["cochran"], grubbs=tests["grubbs"], grubbs_double=tests["grubbs_double"], grubbs_within=within,
+        flagged=_flagged(values, series, offset, sources, alpha,
+                         list(tests.items()) + [("grubbs_within_series", t) for t in within]),
+        horrat=horrat, horwitz_prsd_pct=prsd,
         horwitz_note=note, reason="; ".join(notes), rsd_upper_bounds=upper, nested=nested, claims=checks,
         trueness=trueness, fewest_results_per_series=min(counts.values()) if counts else 0)
+
+
+def _flagged(values, series, offset, sources, alpha, tests) -> tuple[FlaggedResult, ...]:
+    """Each result that a test of ``tests`` ((results.json key, OutlierTest) pairs) flags at p < alpha,
+    in input order, with the keys of the tests that flag it and its source (``sources[i]``, when given).
+    The value is the centred result plus ``offset`` to 12 significant digits (as the suspect's text)."""
+    by_position: dict[int, list[str]] = {}
+    for key, t in tests:
+        if t is not None and t.pvalue is not None and t.pvalue < alpha:
+            for i in t.positions:
+                names = by_position.setdefault(i, [])
+                if key not in names:
+                    names.append(key)
+    y = np.asarray(values, dtype=float)
+    return tuple(FlaggedResult(value=float(f"{y[i] + offset:.12g}"), series=str(series[i]), tests=tuple(by_position[i]),
+                               source=sources[i] if len(sources) == len(y) else None)
+                 for i in sorted(by_position))
 
 
 NO_SPREAD = ("the results show no spread at all (SD exactly 0): the spread is below the resolution of the "

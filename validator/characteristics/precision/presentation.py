@@ -33,11 +33,13 @@ def sentences(prec: dict, reading) -> dict[str, str]:
                 if flagged else "Neither Cochran's nor Grubbs' tests (single or double) flag a series.")
     if within:
         outliers += (" Grubbs' test within a series flags "
-                     + "; ".join(f"{t['suspect']} in series {t['series']} at level {fmt(lvl['level'])} "
-                                 f"(p = {fmt_p(t['p_value'])})" for lvl, t in within)
+                     + "; ".join(f"{t['suspect']}{_read_from(lvl, t['series'])} in series {t['series']} at level "
+                                 f"{fmt(lvl['level'])} (p = {fmt_p(t['p_value'])})" for lvl, t in within)
                      + "; these results stay in the estimate and need a reviewer's judgement.")
     else:
         outliers += " Grubbs' test within a series flags no single result where it applies."
+    if any(lvl.get("flagged_results") for lvl in prec["levels"]):
+        outliers += " Each flagged result is listed with its file row in the table of flagged results and marked in the raw data."
     out["outliers"] = outliers
     nested = _nested(prec, unit)
     if nested:
@@ -80,3 +82,14 @@ def _nested(prec: dict, unit: str) -> str:
                              f"{fmt(t['verification_interval'][1])}: " + ("verified" if t["verified"] else "NOT verified"))
         text += (" " if text else "") + "Bias against the reference values (CLSI EP15) " + "; ".join(parts) + "."
     return text
+
+
+def _read_from(level: dict, series: str) -> str:
+    """" (file row N)" of the result Grubbs' test within ``series`` flags at ``level``, "" when not recorded."""
+    for f in level.get("flagged_results", []):
+        if f["series"] == series and "grubbs_within_series" in f["tests"] and "source" in f:
+            src = f["source"]
+            sheet = f", sheet {src['sheet']}" if "sheet" in src else ""
+            return f" ({src['file']}{sheet} row {src['row']})"
+    return ""
+

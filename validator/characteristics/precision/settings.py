@@ -13,6 +13,7 @@ from typing import Annotated, Optional
 import numpy as np
 from pydantic import Field, model_validator
 
+from ..._common import SourceRow
 from ...errors import show
 from ...inputs.loading import declared_levels_exist, numeric_column, per_analyte
 from ...inputs.study import DataSource, _Section
@@ -145,6 +146,8 @@ class PrecisionData:
     offset: float = 0.0
     # the labels of each factor of [precision] design, outermost first (empty: the one-way design)
     factors: tuple[tuple[str, ...], ...] = field(default=(), repr=False)
+    # where each result was read (file as the study names it, sheet, row), for naming flagged results
+    sources: tuple[SourceRow, ...] = field(default=(), repr=False)
 
 
 def load(reader, settings: PrecisionSection, analytes) -> dict[str, PrecisionData]:
@@ -174,8 +177,10 @@ def load(reader, settings: PrecisionSection, analytes) -> dict[str, PrecisionDat
     def make(columns, idx, name):
         table, level, series, labels = columns
         offset, centred = exact_centre([table.columns["found"][i] for i in idx], table.decimal)
+        sheet = getattr(table, "sheet", None) or None
         return PrecisionData(level[idx], tuple(series[i] for i in idx), centred, offset,
-                             tuple(tuple(column[i] for i in idx) for column in labels))
+                             tuple(tuple(column[i] for i in idx) for column in labels),
+                             tuple(SourceRow(table.path, sheet, table.rows[i]) for i in idx))
 
     required = ("level", "found") + (design if design else ("series",))
     optional = ("analyte",) + (("series",) if design and "series" not in design else ())

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..._common import quiet_numpy
+from ..._common import SourceRow, quiet_numpy
 from ...maths.regression import PolynomialFit, fit_polynomial
 
 __all__ = ["RunCalibration", "QuantifiedInjection", "RunsResult", "quantify_runs", "study_qc_found",
@@ -217,6 +217,8 @@ class QcFound:
     offset: float = 0.0
     # the labels of each factor of the [precision] design ("day", "run"), outermost first
     factors: tuple[tuple[str, ...], ...] = field(default=(), repr=False)
+    # where each QC injection was read (export, sheet, row), for naming flagged results
+    sources: tuple[SourceRow, ...] = field(default=(), repr=False)
 
 
 @dataclass(frozen=True)
@@ -269,7 +271,7 @@ def qc_found(result: RunsResult, design: tuple = ()) -> QcFound | None:
     series = tuple(" / ".join(path) for path in zip(*factors)) if design else tuple(i.run for i in qc)
     return QcFound(level=np.array([i.level for i in qc], float), series=series,
                    found=np.array([float(v - values[0]) for v in values]), offset=float(values[0]),
-                   factors=factors)
+                   factors=factors, sources=tuple(SourceRow(i.file, i.sheet, i.row) for i in qc))
 
 
 @dataclass(frozen=True)
