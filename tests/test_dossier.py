@@ -84,7 +84,7 @@ def test_every_number_shown_matches_results_json(demo_out):
 def test_summary_lists_every_criterion_with_words(demo_out):
     results = json.loads((demo_out / "results.json").read_text())
     soup = BeautifulSoup((demo_out / "dossier.html").read_text(), "html.parser")
-    rows = soup.select("#summary tr[data-criterion]")
+    rows = soup.select("#summary tr[data-criterion], #criteria-met tr[data-criterion]")
     expected = [(a["name"], c["id"]) for a in results["analytes"] for c in a["criteria"]]
     assert [(r.find("td").get_text(), r["data-criterion"]) for r in rows] == expected
     for row in rows:
@@ -136,7 +136,14 @@ def test_pdf_text_pages_and_previews(demo_out, artefacts):
     assert "all acceptance criteria met" in pages[0]
     for i, text in enumerate(pages, start=1):
         assert f"page {i} of {total}" in text
-    assert any("Criteria met" in t and "Lack of fit" in t for t in pages[:3])
+    # a reviewer signs from the first two pages: verdict, matrix, the criteria not met, remarks,
+    # deviations and what a signature means; the full list of criteria met is further on (issue #14)
+    first_two = pages[0] + pages[1]
+    for heading in ("Summary", "Criteria not met or not evaluated", "Remarks for the reviewer",
+                    "Deviations and flagged data", "What a signature means"):
+        assert heading in first_two, heading
+    assert "Lack of fit" not in first_two
+    assert any("Acceptance criteria met" in t and "Lack of fit" in t for t in pages[3:])
     # A4: 595 x 842 pt
     box = reader.pages[0].mediabox
     assert (round(float(box.width)), round(float(box.height))) == (595, 842)
@@ -341,9 +348,10 @@ def test_real_browser_follows_every_summary_link(demo_out, tmp_path):
 
 
 # issue #14 asks for at most 3 pages per analyte of a full study; the demo (every characteristic
-# but the sector ones, with EP15 claims and a bias check) reaches 6 for nitrate and 5 for fluoride (was
-# 10 each): the calibration's two figures and its tests take about 1.5 pages; target missed, guarded here
-PAGES_PER_ANALYTE_REACHED = 6
+# but the sector ones, with EP15 claims and a bias check) reaches 3 for nitrate and for fluoride (was 10,
+# then 6 and 5): the calibration's figures side by side, the characteristics' figures three to a row,
+# compact type, the LOD bases' derivations in appendix C
+PAGES_PER_ANALYTE_REACHED = 3
 
 
 def test_pages_per_analyte(demo_out):

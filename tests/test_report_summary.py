@@ -102,7 +102,7 @@ def test_conclusion_agrees_with_results(failing_out):
 
 def test_failing_criteria_first(failing_out):
     results, soup = failing_out
-    rows = soup.select("#summary tr[data-criterion]")
+    rows = soup.select("#summary tr[data-criterion], #criteria-met tr[data-criterion]")
     verdicts = [r.select_one(".verdict").get_text() for r in rows]
     order = {"✗ NOT MET": 0, "– not applicable": 1, "✓ met": 2}
     assert [order[v] for v in verdicts] == sorted(order[v] for v in verdicts)

@@ -234,7 +234,8 @@ def _calibration_figure(d: dict) -> str:
     """The fit over the whole range; beside it, for a range over a decade, the same on log axes so that
     the low levels (where weighting matters) can be seen. The legend sits below the axes."""
     low_view = _wide(d["x"])
-    fig, axes = plt.subplots(1, 2 if low_view else 1, figsize=(6.4, 3.2), squeeze=False)
+    # half the text width in the dossier, beside the diagnostics (figsize in inches, text at 8 pt)
+    fig, axes = plt.subplots(1, 2 if low_view else 1, figsize=(4.2, 2.9), squeeze=False)
     _draw_calibration(axes[0, 0], d, labels=True)
     axes[0, 0].set_title("whole range", fontsize=8, loc="left")
     if low_view:
@@ -242,13 +243,13 @@ def _calibration_figure(d: dict) -> str:
         _log_x(ax, both=True)
         _draw_calibration(ax, d, labels=False)
         ax.set_title("log axes: the low levels", fontsize=8, loc="left")
-    fig.legend(frameon=False, fontsize=7, loc="lower center", ncol=3)
-    fig.tight_layout(rect=(0, 0.12, 1, 1))
+    fig.legend(frameon=False, fontsize=7, loc="lower center", ncol=2)
+    fig.tight_layout(rect=(0, 0.17, 1, 1))
     return _svg(fig, f"cal{d['key']}")
 
 
 def _diagnostic_figure(d: dict) -> str:
-    fig, axes = plt.subplots(2, 2, figsize=(6.4, 4.2))
+    fig, axes = plt.subplots(2, 2, figsize=(4.2, 3.3))     # half the text width, beside the fit
     ax = axes[0, 0]
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
     _points(ax, d["x"], d["residuals"], "o")
@@ -267,7 +268,7 @@ def _diagnostic_figure(d: dict) -> str:
         lo, hi = min(d["qq_theoretical"]), max(d["qq_theoretical"])
         a, b = d["qq_line"]
         ax.plot([lo, hi], [a + b * lo, a + b * hi], "--", color=PALETTE["ink"], linewidth=0.8)
-    ax.set_title("normal Q-Q of scaled residuals", fontsize=8, loc="left")
+    ax.set_title("normal Q-Q, scaled residuals", fontsize=8, loc="left")
     ax.set_xlabel("theoretical normal quantile")
     ax.set_ylabel("ordered residual")
     ax = axes[1, 1]
@@ -286,7 +287,7 @@ def _diagnostic_figure(d: dict) -> str:
     if bad:
         ax.plot(*zip(*bad), "x", markersize=6, color=PALETTE["bad"], markeredgewidth=1.4, label="outside tolerance")
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.8)
-    ax.set_title("back-calculated deviation (band: tolerance)", fontsize=8, loc="left")
+    ax.set_title("back-calculated deviation", fontsize=8, loc="left")
     ax.set_xlabel(f"nominal ({d['xunit']})")
     ax.set_ylabel("% deviation")
     if _wide(d["x"]):
@@ -298,7 +299,7 @@ def _diagnostic_figure(d: dict) -> str:
 
 
 def _precision_figure(d: dict) -> str:
-    fig, ax = plt.subplots(figsize=(4.4, 2.8))
+    fig, ax = plt.subplots(figsize=(3.4, 2.3))     # a third of the text width in the dossier
     markers = "osD^v<>p*h"
     names = list(dict.fromkeys(series for lv in d["precision"] for series, _ in lv["series"]))
     labelled = set()

@@ -43,10 +43,10 @@ def figures(entry: dict, reading) -> dict[str, str]:
     levels = [lv for lv in entry["levels"] if lv["tolerance_low_pct"] is not None]
     if not levels:
         return {}
-    fig, ax = figure(figsize=(6.4, 3.2))
+    fig, ax = figure(figsize=(3.0, 2.3))     # a third of the text width in the dossier
     x = [lv["nominal"] for lv in levels]
     ax.fill_between(x, [lv["tolerance_low_pct"] for lv in levels], [lv["tolerance_high_pct"] for lv in levels],
-                    color=PALETTE["band"], linewidth=0, label="beta-expectation tolerance interval")
+                    color=PALETTE["band"], linewidth=0, label="tolerance interval")
     ax.plot(x, [lv["tolerance_low_pct"] for lv in levels], "-", color=PALETTE["conf"], linewidth=1.0)
     ax.plot(x, [lv["tolerance_high_pct"] for lv in levels], "-", color=PALETTE["conf"], linewidth=1.0)
     ax.plot(x, [lv["relative_bias_pct"] for lv in levels], "-", color=PALETTE["ink"], linewidth=0.8)
@@ -57,8 +57,8 @@ def figures(entry: dict, reading) -> dict[str, str]:
     for r in entry.get("validated_ranges") or ():
         ax.axvspan(r["low"], r["high"], color=PALETTE["grid"], alpha=0.35, linewidth=0)
     ax.axhline(0, color=PALETTE["ink"], linewidth=0.6, ls=":")
-    ax.set_xlabel(f"nominal concentration ({reading.unit})")
+    ax.set_xlabel(f"nominal ({reading.unit})")
     ax.set_ylabel("relative error (%)")
-    ax.legend(fontsize=7, frameon=False, ncol=3, loc="lower left", bbox_to_anchor=(0.0, 1.01))
+    ax.legend(fontsize=6, frameon=False, ncol=2, loc="lower left", bbox_to_anchor=(0.0, 1.01))
     fig.tight_layout()
     return {"profile": svg(fig, f"ap{reading.key}")}
