@@ -11,7 +11,6 @@ from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING, Any, TypeVar
 
 import numpy as np
-from scipy import stats
 
 from . import registry
 from ._common import quiet_numpy
@@ -22,6 +21,7 @@ from .characteristics.precision import PrecisionLevel, PrecisionResult
 from .characteristics.runs import SECTOR_READS, RunsResult
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
+from .maths.normality import probability_plot
 
 if TYPE_CHECKING:
     from .inputs.study import StudyConfig
@@ -86,7 +86,7 @@ class ResidualSeries:
     Relative residual = 100 e_i / yhat_i (undefined where yhat_i = 0).
     Q-Q: ordered weight-scaled residuals against normal quantiles with
     Filliben's plotting positions, and the least-squares line through them,
-    as scipy.stats.probplot computes them.
+    as scipy.stats.probplot computes them (:func:`validator.maths.normality.probability_plot`).
     """
 
     relative_x: tuple[float, ...]
@@ -101,10 +101,10 @@ def residual_series(fit) -> ResidualSeries:
     keep = np.abs(yhat) > 0
     rel = 100.0 * fit.residuals[keep] / yhat[keep]
     with quiet_numpy():
-        (osm, osr), (slope, intercept, _) = stats.probplot(fit.weighted_residuals, dist="norm")
-    line = StraightLine(float(intercept), float(slope)) if np.isfinite(slope) and not fit.exact else None
+        plot = probability_plot(fit.weighted_residuals)
+    line = StraightLine(plot.intercept, plot.slope) if np.isfinite(plot.slope) and not fit.exact else None
     return ResidualSeries(tuple(map(float, fit.x[keep])), tuple(map(float, rel)),
-                          tuple(map(float, osm)), tuple(map(float, osr)), line)
+                          tuple(map(float, plot.theoretical)), tuple(map(float, plot.ordered)), line)
 
 
 @dataclass(frozen=True)

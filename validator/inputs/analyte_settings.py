@@ -102,24 +102,29 @@ class AnalyteSettings:
         return any(c.key == f"{table}.{key}" for c in self.changes)
 
 
-def _tables():
-    """{table name: pydantic model} of the tables of the study schema a per-analyte setting may change."""
+def _tables(design: dict | None = None):
+    """{table name: pydantic model} of the tables of the study schema a per-analyte setting may change
+    (``design``: ``protocol.criteria_and_design()``, derived here if not given)."""
+    from ..protocol import criteria_and_design
     from .study import _model_at, study_config_model
 
+    design = criteria_and_design() if design is None else design
     models = {name: _model_at((name, "key")) for name in study_config_model().model_fields}
     return {name: model for name, model in models.items()
-            if model is not None and name not in NOT_TABLES and overridable_keys(name, model)}
+            if model is not None and name not in NOT_TABLES and overridable_keys(name, model, design)}
 
 
-def overridable_keys(table: str, model: type[BaseModel]) -> tuple[str, ...]:
-    """The keys of ``table`` an analyte may set (empty: none)."""
-    from ..protocol import ALL, CRITERIA_AND_DESIGN
+def overridable_keys(table: str, model: type[BaseModel], design: dict | None = None) -> tuple[str, ...]:
+    """The keys of ``table`` an analyte may set (empty: none). ``design``: the tables' design and
+    criteria keys (``protocol.criteria_and_design()``; derived if not given: it walks every
+    settings model, so a caller asking for many tables derives it once)."""
+    from ..protocol import ALL, criteria_and_design
 
     if table in STUDY_WIDE_TABLES:
         return ()
     if table in FRAME_TABLES:
         return tuple(k for k in model.model_fields if k in EXPRESSION_KEYS[table])
-    listed = CRITERIA_AND_DESIGN.get(table, ())
+    listed = (criteria_and_design() if design is None else design).get(table, ())
     keys = tuple(model.model_fields) if listed == ALL else tuple(listed)
     keys += DATA_KEYS.get(table, ()) + EXPRESSION_KEYS.get(table, ())
     return tuple(k for k in model.model_fields if k in keys and (table, k) not in STUDY_WIDE)
@@ -140,11 +145,13 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
 
     Errors name ``analyte_settings.<analyte>.<table>[.<key>]``, its line and the value.
     """
+    from ..protocol import criteria_and_design
     from .study import _key_line, _translate
 
     table_of_all = getattr(config, ROOT, None)
     raw = {} if table_of_all is None else table_of_all.root
-    tables = _tables()
+    design = criteria_and_design() if raw else {}        # walks every settings model: only when needed
+    tables = _tables(design) if raw else {}
     out = []
     for analyte, given in raw.items():
         if not given:
@@ -165,7 +172,7 @@ def resolve(config, shown: str, text: str) -> tuple[AnalyteSettings, ...]:
                 hint = (f'; did you mean "{close[0]}"?' if close else
                         "; allowed: " + ", ".join(list(tables) + list(STUDY_WIDE_TABLES)))
                 raise StudyError(f"unknown table{hint}", file=shown, line=line, key=dotted, value=table)
-            allowed = overridable_keys(table, model)
+            allowed = overridable_keys(table, model, design)
             if not allowed:
                 why = STUDY_WIDE_TABLES.get(table, "it has no acceptance criteria or design keys")
                 raise StudyError(f"[{table}] cannot be set per analyte: {why}", file=shown, line=line, key=dotted)

@@ -12,9 +12,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from .._common import quiet_numpy
+from .distributions import f_sf
 
 __all__ = ["OneWayAnova", "one_way_anova"]
 
@@ -69,7 +69,7 @@ def one_way_anova(values, groups, offset: float = 0.0) -> OneWayAnova:
     ms_w = ss_w / df_w if df_w > 0 else float("nan")
     with quiet_numpy():
         F = ms_b / ms_w if df_b > 0 and df_w > 0 and ms_w > 0 else None
-    pval = float(stats.f.sf(F, df_b, df_w)) if F is not None else None
+    pval = float(f_sf(F, df_b, df_w)) if F is not None else None
     n0 = float((N - np.sum(nj**2) / N) / df_b) if df_b > 0 else float("nan")
     return OneWayAnova(p, N, grand, float(ss_b), float(ss_w), df_b, df_w, float(ms_b), float(ms_w),
                        None if F is None else float(F), pval, n0)

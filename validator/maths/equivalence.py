@@ -22,9 +22,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from .._common import ConfidenceInterval, no_relative_sd, open_unit, positive, quiet_numpy
+from .distributions import chi2_ppf, t_cdf, t_ppf, t_sf
 
 __all__ = ["EquivalenceTest", "RsdBound", "tost_mean", "tost_two_samples", "rsd_upper_bound"]
 
@@ -92,9 +92,9 @@ def _sample(name, values) -> np.ndarray:
 def _tost(method, estimate, se, df, lo, hi, alpha) -> EquivalenceTest:
     t_lower = (estimate - lo) / se
     t_upper = (estimate - hi) / se
-    p_lower = float(stats.t.sf(t_lower, df))
-    p_upper = float(stats.t.cdf(t_upper, df))
-    q = float(stats.t.ppf(1.0 - alpha, df))
+    p_lower = float(t_sf(t_lower, df))
+    p_upper = float(t_cdf(t_upper, df))
+    q = float(t_ppf(1.0 - alpha, df))
     ci = ConfidenceInterval(estimate - q * se, estimate + q * se, 1.0 - 2.0 * alpha)
     p = max(p_lower, p_upper)
     return EquivalenceTest(method, estimate, se, float(df), lo, hi, float(t_lower), float(t_upper),
@@ -185,5 +185,5 @@ def rsd_upper_bound(values, *, confidence: float = 0.95, limit_percent: float | 
         return RsdBound(None, None, df, conf, limit, None, no_relative_sd(mean))
     sd = float(np.std(x - mean, ddof=1))
     rsd = 100.0 * sd / mean
-    bound = rsd * math.sqrt(df / stats.chi2.ppf(1.0 - conf, df))
+    bound = rsd * math.sqrt(df / chi2_ppf(1.0 - conf, df))
     return RsdBound(rsd, bound, df, conf, limit, None if limit is None else bool(bound <= limit))

@@ -23,9 +23,9 @@ from dataclasses import dataclass, field
 from fractions import Fraction
 
 import numpy as np
-from scipy import stats
 
 from .._common import ConfidenceInterval, quiet_numpy
+from .distributions import kstwobign_sf, norm_ppf, t_ppf
 
 __all__ = ["PassingBablok", "Deming", "BlandAltman", "passing_bablok", "passing_bablok_min_n",
            "deming", "bland_altman", "percentage_differences"]
@@ -59,7 +59,7 @@ class PassingBablok:
 
 def _rank_half_width(n: int, alpha: float) -> float:
     """C = z(1 - alpha/2) sqrt(n (n - 1)(2n + 5)/18) [PB1983]."""
-    return float(stats.norm.ppf(1 - alpha / 2) * np.sqrt(n * (n - 1) * (2 * n + 5) / 18))
+    return float(norm_ppf(1 - alpha / 2) * np.sqrt(n * (n - 1) * (2 * n + 5) / 18))
 
 
 def _rank_limits(n: int, n_slopes: int, alpha: float) -> tuple:
@@ -219,7 +219,7 @@ def _cusum(xf, yf, a, b):
         walk += below if v > 0 else -above if v < 0 else 0
         peak = max(peak, abs(walk))
     H = peak / np.sqrt(above * below) / np.sqrt(below + 1)
-    return float(H), float(stats.kstwobign.sf(H)), ""
+    return float(H), float(kstwobign_sf(H)), ""
 
 
 def passing_bablok(x, y, alpha: float = 0.05) -> PassingBablok:
@@ -402,7 +402,7 @@ def deming(x, y, error_ratio: float = 1.0, alpha: float = 0.05) -> Deming:
         return none("the Deming slope is not defined on these data (reference and test values are "
                     "uncorrelated, Sxy = 0, in the full data or a jackknife subset)")
     se = [float(v) for v in se]
-    t = float(stats.t.ppf(1 - alpha / 2, n - 2))
+    t = float(t_ppf(1 - alpha / 2, n - 2))
     level = 1 - alpha
     return Deming(slope=float(b), slope_ci=ConfidenceInterval(b - t * se[0], b + t * se[0], level),
                   intercept=float(a), intercept_ci=ConfidenceInterval(a - t * se[1], a + t * se[1], level),
@@ -489,7 +489,7 @@ def bland_altman(x, y, alpha: float = 0.05, percentage: bool = False, *, samples
                            excluded=excluded, note=note, differences=every, samples=samples)
     bias = float(d.mean())
     sd = float(np.std(d - bias, ddof=1))
-    t = float(stats.t.ppf(1 - alpha / 2, n - 1))
+    t = float(t_ppf(1 - alpha / 2, n - 1))
     z = LIMITS_Z
     se_bias = float(sd / np.sqrt(n))
     se_lim = float(sd * np.sqrt(1 / n + z**2 / (2 * (n - 1))))

@@ -13,9 +13,9 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
-from scipy import stats
 
 from .._common import quiet_numpy
+from .distributions import f_isf, f_sf, t_isf, t_sf
 
 __all__ = ["OutlierTest", "MONTE_CARLO_DRAWS", "MONTE_CARLO_SEED", "cochran_c", "cochran_critical_value",
            "cochran_null_sample", "grubbs_means", "grubbs_double", "grubbs_double_null_sample",
@@ -126,7 +126,7 @@ def cochran_critical_value(series: int, n: int, alpha: float = 0.05) -> float:
     Exact when C_crit >= 1/2 (then at most one series can exceed it); below
     1/2 it is the Bonferroni value, a slightly conservative (too large) limit.
     """
-    F = stats.f.isf(alpha / series, n - 1, (series - 1) * (n - 1))
+    F = f_isf(alpha / series, n - 1, (series - 1) * (n - 1))
     return float(1.0 / (1.0 + (series - 1) / F))
 
 
@@ -178,7 +178,7 @@ def cochran_c(values, groups, alpha=0.05) -> OutlierTest:
         d1, d2 = n - 1, (n - 1) * (k - 1)
         with quiet_numpy():
             f_equiv = (k - 1) * C / (1 - C) if C < 1 else np.inf
-        p = float(min(1.0, k * stats.f.sf(f_equiv, d1, d2)))
+        p = float(min(1.0, k * f_sf(f_equiv, d1, d2)))
         basis = ("closed form from the F distribution, exact (equal series sizes, C >= 1/2)" if C >= 0.5 else
                  "closed form from the F distribution, Bonferroni upper bound (equal series sizes, C < 1/2; "
                  "conservative)")
@@ -203,7 +203,7 @@ def grubbs_critical_value(n: int, alpha: float = 0.05) -> float:
     G_crit = ((n - 1)/sqrt(n)) sqrt(t^2/(n - 2 + t^2)), t = t(1 - alpha/n, n - 2)
     (Grubbs 1969). The two-sided value (largest |deviation|) uses alpha/2.
     """
-    t = stats.t.isf(alpha / n, n - 2)
+    t = t_isf(alpha / n, n - 2)
     return float((n - 1) / np.sqrt(n) * np.sqrt(t**2 / (n - 2 + t**2)))
 
 
@@ -223,7 +223,7 @@ def _grubbs_single(x):
     G = float(abs(dev[idx]) / sd)
     denom = (n - 1) ** 2 - n * G**2
     t_equiv = np.inf if denom <= 0 else np.sqrt(G**2 * n * (n - 2) / denom)
-    p = float(min(1.0, 2 * n * stats.t.sf(t_equiv, n - 2)))
+    p = float(min(1.0, 2 * n * t_sf(t_equiv, n - 2)))
     return G, p, idx, bool(G > np.sqrt((n - 1) / 2))
 
 

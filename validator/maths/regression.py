@@ -49,9 +49,10 @@ from dataclasses import dataclass, field
 from math import comb
 
 import numpy as np
-from scipy import linalg, stats
+from scipy import linalg
 
 from .._common import ConfidenceInterval, quiet_numpy
+from .distributions import t_ppf, t_sf
 
 __all__ = ["PolynomialFit", "fit_polynomial", "raw_weights", "Coefficient", "MODELS", "WEIGHTINGS", "WEIGHTED_BY",
            "EXACT_RTOL", "MAGNITUDE_LIMIT", "first_out_of_range"]
@@ -173,7 +174,7 @@ class PolynomialFit:
     @property
     def t_quantile(self) -> float:
         """t(1 - alpha/2, n - p) used for every two-sided interval of this fit."""
-        return float(stats.t.ppf(1 - self.alpha / 2, self.df_resid))
+        return float(t_ppf(1 - self.alpha / 2, self.df_resid))
 
     def _u(self, x):
         return (np.asarray(x, float) - self.centre) / self.scale
@@ -332,14 +333,14 @@ def fit_polynomial(x, y, *, model: str = "linear", weighting: str = "none",
     T = _to_x_basis(powers, centre, scale)
     beta_x = T @ beta_u
     cov_x = s2 * (T @ cov_u @ T.T)
-    tq = float(stats.t.ppf(1 - alpha / 2, df))
+    tq = float(t_ppf(1 - alpha / 2, df))
     coefficients = {}
     for i, k in enumerate(powers):
         est = float(beta_x[i])
         se = float(np.sqrt(max(cov_x[i, i], 0.0)))
         with quiet_numpy():
             t = est / se if se > 0 else None
-        pval = float(2 * stats.t.sf(abs(t), df)) if t is not None else None
+        pval = float(2 * t_sf(abs(t), df)) if t is not None else None
         coefficients[_NAMES[k]] = Coefficient(
             estimate=est, std_error=se,
             ci=ConfidenceInterval(est - tq * se, est + tq * se, 1 - alpha),

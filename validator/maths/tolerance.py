@@ -51,9 +51,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import integrate, optimize, special, stats
+from scipy import special
 
 from .._common import between, open_unit, positive, quiet_numpy
+from .distributions import chi2_ppf, chi2_sf, nct_ppf, ncx2_ppf, norm_pdf, norm_ppf
 
 __all__ = ["ToleranceInterval", "BetaExpectationInterval", "ProfileLevel", "AccuracyProfile",
            "normal_tolerance_factor", "normal_tolerance_interval", "beta_expectation_interval",
@@ -99,8 +100,10 @@ def _two_sided_coverage(k: float, n: int, df: float, content: float) -> float:
     quantile of the noncentral chi-square with 1 df and noncentrality x^2.
     """
     def integrand(z):
-        r2 = stats.ncx2.ppf(content, 1, z * z / n) if z > 0 else stats.chi2.ppf(content, 1)
-        return 2.0 * stats.norm.pdf(z) * stats.chi2.sf(df * r2 / (k * k), df)
+        r2 = ncx2_ppf(content, 1, z * z / n) if z > 0 else chi2_ppf(content, 1)
+        return 2.0 * norm_pdf(z) * chi2_sf(df * r2 / (k * k), df)
+
+    from scipy import integrate           # imported here: about 0.25 s, and only this path needs it
 
     value, _ = integrate.quad(integrand, 0.0, 12.0, epsabs=1e-13, epsrel=1e-11, limit=200)
     return value
@@ -150,8 +153,8 @@ def normal_tolerance_factor(n: int, content: float, confidence: float, *, sides:
         df = positive("df", df)
     if sides == "two":
         _choice("method", method, TWO_SIDED_METHODS)
-        z = stats.norm.ppf((1.0 + content) / 2.0)
-        howe = z * math.sqrt(df * (1.0 + 1.0 / n) / stats.chi2.ppf(1.0 - confidence, df))
+        z = norm_ppf((1.0 + content) / 2.0)
+        howe = z * math.sqrt(df * (1.0 + 1.0 / n) / chi2_ppf(1.0 - confidence, df))
         if method == "howe":
             return float(howe)
         with quiet_numpy():
@@ -161,11 +164,13 @@ def normal_tolerance_factor(n: int, content: float, confidence: float, *, sides:
                 lo *= 0.5
             while f(hi) < 0:
                 hi *= 2.0
+            from scipy import optimize    # imported here: about 0.2 s, and only this path needs it
+
             return float(optimize.brentq(f, lo, hi, xtol=1e-12, rtol=1e-12))
     _choice("method", method, ONE_SIDED_METHODS)
-    zp = stats.norm.ppf(content)
+    zp = norm_ppf(content)
     if method == "natrella":
-        zg = stats.norm.ppf(confidence)
+        zg = norm_ppf(confidence)
         a = 1.0 - zg * zg / (2.0 * (n - 1))
         b = zp * zp - zg * zg / n
         if a <= 0 or zp * zp - a * b < 0:
@@ -173,7 +178,7 @@ def normal_tolerance_factor(n: int, content: float, confidence: float, *, sides:
                              f"{confidence!r}; use method='exact'")
         return float((zp + math.sqrt(zp * zp - a * b)) / a)
     with quiet_numpy():
-        return float(stats.nct.ppf(confidence, df, zp * math.sqrt(n)) / math.sqrt(n))
+        return float(nct_ppf(confidence, df, zp * math.sqrt(n)) / math.sqrt(n))
 
 
 @dataclass(frozen=True)
@@ -426,7 +431,7 @@ def runs_content_interval(runs, content: float, confidence: float) -> RunsConten
     var_ip = base.sd_intermediate ** 2
     n_e = var_ip / base.centre_variance
     sd_upper = math.sqrt(max(mls[1], var_ip))
-    z = float(stats.norm.ppf((1.0 + content) / 2.0))
+    z = float(norm_ppf((1.0 + content) / 2.0))
     half = z * math.sqrt(1.0 + 1.0 / n_e) * sd_upper
     return RunsContentInterval(base.mean - half, base.mean + half, base.mean, half / base.sd_intermediate, n_e,
                                base.sd_intermediate, sd_upper, content, confidence)

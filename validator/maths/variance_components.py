@@ -43,9 +43,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg, optimize, stats
+from scipy import linalg
 
 from .._common import ConfidenceInterval, open_unit, quiet_numpy
+from .distributions import chi2_ppf, norm_ppf, t_ppf
 
 __all__ = ["MeanSquare", "VarianceComponent", "PrecisionCondition", "NestedVarianceComponents",
            "ClaimVerification", "nested_variance_components", "sum_of_mean_squares_interval", "mls_upper_bound",
@@ -196,9 +197,9 @@ def sum_of_mean_squares_interval(coefficients, mean_squares, dfs, confidence: fl
     scale = float(terms.max())         # squares taken of terms / scale, so tiny mean squares do not underflow
     unit = terms / scale
     nu = (g / scale) ** 2 / float(np.sum(unit ** 2 / n))
-    satt = (nu * g / stats.chi2.ppf(1 - a / 2, nu), nu * g / stats.chi2.ppf(a / 2, nu))
-    G = 1.0 - n / stats.chi2.ppf(1 - a / 2, n)
-    H = n / stats.chi2.ppf(a / 2, n) - 1.0
+    satt = (nu * g / chi2_ppf(1 - a / 2, nu), nu * g / chi2_ppf(a / 2, nu))
+    G = 1.0 - n / chi2_ppf(1 - a / 2, n)
+    H = n / chi2_ppf(a / 2, n) - 1.0
     mls = (g - scale * math.sqrt(float(np.sum(G ** 2 * unit ** 2))),
            g + scale * math.sqrt(float(np.sum(H ** 2 * unit ** 2))))
     return g, float(nu), (float(satt[0]), float(satt[1])), (max(float(mls[0]), 0.0), float(mls[1]))
@@ -224,7 +225,7 @@ def mls_upper_bound(coefficients, mean_squares, dfs, confidence: float = 0.95) -
     if g == 0.0:
         return 0.0
     scale = float(terms.max())
-    h = n / stats.chi2.ppf(1.0 - confidence, n) - 1.0
+    h = n / chi2_ppf(1.0 - confidence, n) - 1.0
     return g + scale * math.sqrt(float(np.sum(h ** 2 * (terms / scale) ** 2)))
 
 
@@ -324,6 +325,8 @@ def _reml(y, codes):
     def objective(ratios):
         quad, logdet, xthx = profile(ratios)
         return (n - 1) * math.log(max(quad, 1e-300)) + logdet + math.log(xthx)
+
+    from scipy import optimize                # imported here: about 0.2 s, and only REML needs it
 
     k = len(codes)
     best = None
@@ -540,12 +543,12 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
                  "intermediate precision" if m == 0 else " + ".join(reversed(included)))
         if m == len(sources) - 1:
             df = anova[-1].df
-            pair = (df * ms[-1] / stats.chi2.ppf(1 - a / 2, df), df * ms[-1] / stats.chi2.ppf(a / 2, df))
+            pair = (df * ms[-1] / chi2_ppf(1 - a / 2, df), df * ms[-1] / chi2_ppf(a / 2, df))
             ci = _sd_interval(pair, confidence)
             conditions.append(PrecisionCondition(label, included, variance, math.sqrt(variance), float(df), ci, ci,
                                                  "" if use == "ANOVA" else
                                                  "interval from the residual mean square",
-                                                 df * variance / stats.chi2.ppf(a, df), "chi-square"))
+                                                 df * variance / chi2_ppf(a, df), "chi-square"))
             continue
         if use != "ANOVA":
             nu = _reml_sum_df(cov, m, variance)
@@ -562,12 +565,12 @@ def nested_variance_components(values, factors, *, names=None, confidence: float
                     "estimable)", None if anova_upper is None else _at_least(max(candidates), conditions[-1]),
                     "one-sided modified large-sample bound from the nested ANOVA mean squares"))
                 continue
-            pair = (nu * variance / stats.chi2.ppf(1 - a / 2, nu), nu * variance / stats.chi2.ppf(a / 2, nu))
+            pair = (nu * variance / chi2_ppf(1 - a / 2, nu), nu * variance / chi2_ppf(a / 2, nu))
             conditions.append(PrecisionCondition(
                 label, included, variance, math.sqrt(variance), nu, _sd_interval(pair, confidence), None,
                 "REML (unbalanced design): Satterthwaite interval with df from the REML information (asymptotic); "
                 "no modified large-sample interval",
-                _at_least(max(candidates + [nu * variance / stats.chi2.ppf(a, nu)]), conditions[-1]), basis))
+                _at_least(max(candidates + [nu * variance / chi2_ppf(a, nu)]), conditions[-1]), basis))
             continue
         c = [1.0 / anova[m].per_unit]
         for j in range(m + 1, len(names)):
@@ -619,7 +622,7 @@ def verify_precision_claim(observed_sd: float, claimed_sd: float, df: float, *, 
         raise ValueError(f"levels must be an integer >= 1, got {levels!r}")
     estimated = float(df)
     df = float(max(1, round(estimated)))
-    factor = math.sqrt(stats.chi2.ppf(1.0 - alpha_f / levels, df) / df)
+    factor = math.sqrt(chi2_ppf(1.0 - alpha_f / levels, df) / df)
     uvl = float(claimed_sd) * factor
     observed = float(observed_sd)
     if observed <= claimed_sd:
@@ -748,7 +751,7 @@ def verify_bias(mean: float, se_mean: float, df_mean: float, target: float, targ
                          "uncertainty are both 0")
     den = se_mean ** 4 / df_mean + (target_uncertainty ** 4 / target_df if target_df is not None else 0.0)
     df = se_c ** 4 / den if den > 0 else None
-    m = float(stats.t.ppf(1.0 - alpha_f / (2 * levels), df)) if df is not None else \
-        float(stats.norm.ppf(1.0 - alpha_f / (2 * levels)))
+    m = float(t_ppf(1.0 - alpha_f / (2 * levels), df)) if df is not None else \
+        float(norm_ppf(1.0 - alpha_f / (2 * levels)))
     return BiasVerification(float(mean - target), se_c, None if df is None else float(df), m, float(target - m * se_c),
                             float(target + m * se_c), alpha_f, int(levels), bool(abs(mean - target) <= m * se_c))

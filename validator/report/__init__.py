@@ -13,13 +13,15 @@ from __future__ import annotations
 import re
 from importlib import resources
 from pathlib import Path
-
-import jinja2
+from typing import TYPE_CHECKING
 
 from . import numbers, summary
 from .pdf import PART, write_pdf, write_pdf_in_parts
 from .plots import PALETTE, Drawn, analyte_figures, figures_for_all, style
 from .text import SIG, SIG_P, fmt, fmt_p, level_label, met, verdict_label
+
+if TYPE_CHECKING:
+    import jinja2
 
 __all__ = ["render_dossier", "render_html", "write_pdf", "templates_dir"]
 
@@ -49,6 +51,10 @@ def _fragments() -> dict:
 
 
 def _environment() -> jinja2.Environment:
+    # imported here, not with the package: the characteristics' presentation modules import
+    # report.text, and a run that writes only results.json need not load the template engine
+    import jinja2
+
     fragments = _fragments()
     loader = jinja2.FileSystemLoader(str(templates_dir()))
     if fragments:

@@ -10,9 +10,9 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from .._common import ConfidenceInterval, no_relative_sd, quiet_numpy
+from ..maths.distributions import t_isf
 
 __all__ = ["MAX_MAGNITUDE", "OUT_OF_RANGE", "NO_SPREAD_CV", "as_float_array", "labels", "check_count", "check_fraction", "check_positive", "check_level", "mean_sd_cv",
            "MeanSummary", "fieller_ratio_interval", "t_quantile_two_sided", "number_id"]
@@ -187,4 +187,4 @@ def number_id(value: float) -> str:
 
 
 def t_quantile_two_sided(level: float, df: float) -> float:
-    return float(stats.t.isf((1.0 - level) / 2.0, df))
+    return float(t_isf((1.0 - level) / 2.0, df))

@@ -34,10 +34,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from scipy import stats
 
 from .._common import no_relative_sd, not_above, quiet_numpy
 from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
+from ..maths.distributions import binom_ppf
 
 __all__ = ["LotLimit", "LimitOfBlank", "LimitOfDetection", "QuantitationLevel", "LimitOfQuantitation",
            "coverage_factor", "nonparametric_percentile", "limit_of_blank", "limit_of_detection",
@@ -376,7 +376,7 @@ def minimum_count_above_blank(n: int) -> int:
     """
     if n < 1:
         raise ValueError(f"minimum_count_above_blank: n must be >= 1, got {n!r}")
-    return int(stats.binom.ppf(ABOVE_BLANK_ALPHA, n, ABOVE_BLANK_PROPORTION))
+    return int(binom_ppf(ABOVE_BLANK_ALPHA, n, ABOVE_BLANK_PROPORTION))
 
 
 def above_blank(low_level_results, limit_of_blank: float, *, lot=None) -> tuple[AboveBlank, ...]:

@@ -22,9 +22,9 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ._shared import OUT_OF_RANGE, as_float_array, check_fraction, check_positive, mean_sd_cv
+from ..maths.distributions import t_ppf
 
 __all__ = ["MethodDetectionLimit", "method_detection_limit", "MINIMUM_SPIKED", "BLANK_RANK_THRESHOLD"]
 
@@ -190,7 +190,7 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
     elif s.sd == 0:
         reason_s = "the spiked results have no spread (S_s = 0): MDL_s would be zero"
     else:
-        t_s = float(stats.t.ppf(conf, n_s - 1))
+        t_s = float(t_ppf(conf, n_s - 1))
         mdl_s = t_s * s.sd
 
     # MDL_b
@@ -226,7 +226,7 @@ def method_detection_limit(spiked_results, blank_results, *, confidence: float =
         elif b.sd is None:
             notes.append(f"MDL_b does not apply: {OUT_OF_RANGE}")
         else:
-            t_b = float(stats.t.ppf(conf, n_b - 1))
+            t_b = float(t_ppf(conf, n_b - 1))
             mdl_b = max(b.mean, 0.0) + t_b * b.sd
 
     if mdl_s is None:

@@ -31,11 +31,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ..._common import ConfidenceInterval, TestResult, not_above, not_applicable, quiet_numpy
 from ...criteria import Criterion, at_least, missing
-from ...maths.heteroscedasticity import BREUSCH_PAGAN, breusch_pagan
+from ...maths.distributions import f_ppf, f_sf, t_ppf
+from ...maths.heteroscedasticity import BREUSCH_PAGAN, breusch_pagan, levene_median
+from ...maths.normality import shapiro_wilk
 from ...maths.regression import EXACT_RTOL, WEIGHTINGS, PolynomialFit, fit_polynomial, raw_weights
 
 __all__ = [
@@ -177,7 +178,7 @@ def lack_of_fit(fit: PolynomialFit) -> TestResult:
     if ss_pe <= (EXACT_RTOL * fit.response_spread) ** 2 * n:     # relative to the centred SS_tot
         return not_applicable(method, "replicates are identical (zero pure error)")
     F = (ss_lof / d1) / (ss_pe / d2)
-    return TestResult(method, float(F), float(stats.f.sf(F, d1, d2)), (d1, d2))
+    return TestResult(method, float(F), float(f_sf(F, d1, d2)), (d1, d2))
 
 
 def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResult:
@@ -203,7 +204,7 @@ def mandel_test(x, y, weighting: str = "none", alpha: float = 0.05) -> TestResul
         return not_applicable(method, "the quadratic fits exactly (zero residual SD)")
     ds2 = (n - 2) * lin.residual_variance - (n - 3) * quad.residual_variance
     F = max(ds2, 0.0) / quad.residual_variance
-    return TestResult(method, float(F), float(stats.f.sf(F, 1, n - 3)), (1, n - 3))
+    return TestResult(method, float(F), float(f_sf(F, 1, n - 3)), (1, n - 3))
 
 
 def back_calculate(fit: PolynomialFit, tolerance_pct: float, lowest_tolerance_pct: float) -> tuple:
@@ -275,7 +276,7 @@ def _normality(fit: PolynomialFit) -> TestResult:
     if fit.exact:
         return not_applicable(method, "the residuals are all zero (perfect fit)")
     with quiet_numpy():
-        res = stats.shapiro(r)
+        res = shapiro_wilk(r)
     return TestResult(method, float(res.statistic), float(res.pvalue))
 
 
@@ -298,7 +299,7 @@ def _levene(x, y) -> TestResult:
     if all(np.ptp(g) == 0 for g in groups):
         return not_applicable(method, "every level has identical replicates")
     with quiet_numpy():
-        res = stats.levene(*groups, center="median")
+        res = levene_median(*groups)
     return TestResult(method, float(res.statistic), float(res.pvalue), (levels.size - 1, x.size - levels.size))
 
 
@@ -320,8 +321,8 @@ def _outliers(fit: PolynomialFit, alpha: float):
         r = fit.weighted_residuals / (fit.residual_sd * np.sqrt(1 - h))
         t = r * np.sqrt((n - p - 1) / np.maximum(n - p - r**2, 1e-300))
         cooks = r**2 * h / (p * (1 - h))
-    t_limit = float(stats.t.ppf(1 - alpha / (2 * n), n - p - 1))
-    d_limit = float(stats.f.ppf(0.5, p, n - p))
+    t_limit = float(t_ppf(1 - alpha / (2 * n), n - p - 1))
+    d_limit = float(f_ppf(0.5, p, n - p))
     flags = []
     for i in np.flatnonzero((np.abs(t) > t_limit) | (cooks > d_limit)):
         reasons = []

@@ -17,7 +17,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import optimize, stats
+
+from ...maths.distributions import nct_cdf, t_isf
 
 __all__ = ["DetectionEstimate", "DetectionResult", "assess_detection", "noncentrality_delta"]
 
@@ -90,12 +91,12 @@ def noncentrality_delta(df: int, alpha: float, beta: float, *, max_iter: int = 2
     if not (0 < alpha < 1 and 0 < beta < 1 and alpha + beta < 1):
         raise ValueError(f"noncentrality_delta: needs 0 < alpha, 0 < beta and alpha + beta < 1, "
                          f"got alpha = {alpha!r}, beta = {beta!r}")
-    tc = float(stats.t.isf(alpha, df))       # isf, not ppf(1 - alpha): 1 - 1e-17 rounds to 1
+    tc = float(t_isf(alpha, df))       # isf, not ppf(1 - alpha): 1 - 1e-17 rounds to 1
     if not np.isfinite(tc):
         raise ValueError(f"noncentrality_delta: t quantile for alpha = {alpha!r}, df = {df!r} is not finite")
 
     def f(d):                                 # decreasing in d
-        v = float(stats.nct.cdf(tc, df, d)) - beta
+        v = float(nct_cdf(tc, df, d)) - beta
         if not np.isfinite(v):
             raise ValueError(f"noncentrality_delta: non-central t probability not finite at delta = {d!r} "
                              f"(alpha = {alpha!r}, beta = {beta!r}, df = {df!r})")
@@ -113,6 +114,8 @@ def noncentrality_delta(df: int, alpha: float, beta: float, *, max_iter: int = 2
     if not np.isfinite(hi):
         raise ValueError(f"noncentrality_delta: no root bracketed for alpha = {alpha!r}, beta = {beta!r}, "
                          f"df = {df!r}")
+    from scipy import optimize            # imported here: about 0.2 s, and only this path needs it
+
     try:
         root = optimize.brentq(f, 0.0, hi, xtol=1e-12, maxiter=max_iter)
     except RuntimeError as exc:               # brentq did not converge within maxiter
@@ -260,7 +263,7 @@ def _iso11843(cal, K, alpha, beta, f_loq) -> DetectionEstimate:
     b = abs(b_signed)
     s = fit.residual_sd
     root = np.sqrt(1.0 / K + 1.0 / n + xbar**2 / sxx)
-    tq = float(stats.t.isf(alpha, df))
+    tq = float(t_isf(alpha, df))
     try:
         delta = noncentrality_delta(df, alpha, beta)
     except ValueError as exc:

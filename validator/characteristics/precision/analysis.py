@@ -26,11 +26,11 @@ import re
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ..._common import ConfidenceInterval, SourceRow, level_label, no_relative_sd, quiet_numpy
 from ...criteria import Criterion, at_least, at_most
 from ...maths.anova import OneWayAnova, one_way_anova
+from ...maths.distributions import chi2_ppf
 from ...maths.outliers import OutlierTest, cochran_c, grubbs_double, grubbs_means, grubbs_within_series
 from ...maths.variance_components import (mls_upper_bound, nested_variance_components, one_way_mean_standard_error,
                                           verify_bias, verify_precision_claim)
@@ -104,7 +104,7 @@ def _upper_rsd(sd, df, mean, alpha):
     if sd is None or df is None or not (np.isfinite(sd) and np.isfinite(df) and df > 0) or no_relative_sd(mean):
         return None
     with quiet_numpy():
-        return float(100.0 * sd * np.sqrt(df / stats.chi2.ppf(alpha, df)) / mean)
+        return float(100.0 * sd * np.sqrt(df / chi2_ppf(alpha, df)) / mean)
 
 
 def _rsd_of_variance(variance, mean):
@@ -451,8 +451,8 @@ class PrecisionResult:
 def _sd_ci(sd, df, alpha):
     if df is None or not np.isfinite(df) or df <= 0:
         return None
-    lo = sd * np.sqrt(df / stats.chi2.ppf(1 - alpha / 2, df))
-    hi = sd * np.sqrt(df / stats.chi2.ppf(alpha / 2, df))
+    lo = sd * np.sqrt(df / chi2_ppf(1 - alpha / 2, df))
+    hi = sd * np.sqrt(df / chi2_ppf(alpha / 2, df))
     return ConfidenceInterval(float(lo), float(hi), 1 - alpha)
 
 

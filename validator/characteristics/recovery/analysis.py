@@ -12,10 +12,10 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ..._common import ConfidenceInterval, between, no_relative_sd
 from ...criteria import Criterion
+from ...maths.distributions import t_ppf, t_sf
 
 __all__ = ["RecoveryLevel", "RecoveryResult", "assess_recovery", "recovery_criteria"]
 
@@ -76,10 +76,10 @@ def assess_recovery(added, found, native=None, *, alpha=0.05, range_for=lambda a
         if n >= 2:
             sd = float(np.std(r - mean, ddof=1))
             se = sd / np.sqrt(n)
-            tq = float(stats.t.ppf(1 - alpha / 2, n - 1))
+            tq = float(t_ppf(1 - alpha / 2, n - 1))
             ci = ConfidenceInterval(mean - tq * se, mean + tq * se, 1 - alpha)
             t = (mean - 100.0) / se if se > 0 else None
-            p = float(2 * stats.t.sf(abs(t), n - 1)) if t is not None else None
+            p = float(2 * t_sf(abs(t), n - 1)) if t is not None else None
             rsd = None if no_relative_sd(mean) else 100 * sd / mean
             reasons = (["every recovery at this level is identical, so the t test is not applicable"] if t is None
                        else []) + ([no_relative_sd(mean, "the mean recovery")] if rsd is None else [])

@@ -34,12 +34,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy import stats
 
 from ..._common import ConfidenceInterval, not_above, quiet_numpy
 from ...criteria import Criterion, at_most, interval_within
-from ...maths.distributions import f_test_two_sided
+from ...maths.distributions import f_test_two_sided, t_ppf, t_sf
 from ...maths.regression import PolynomialFit, fit_polynomial
+from ...maths.welch import welch_t_test
 
 __all__ = ["SlopeComparison", "JointComparison", "RevalidationResult", "CalibrationFunction", "RunPair", "RecoveryChange", "ResidualSdChange",
            "PreviousResults", "revalidation_criteria", "unmatched_criterion",
@@ -88,8 +88,8 @@ def _decide(b1, b2, diff_se, df, margin_pct, alpha):
     """Change %, its 1 - 2 alpha CI, t, p and the TOST verdict (b1 is the reference value)."""
     with quiet_numpy():
         t = float((b2 - b1) / diff_se) if diff_se > 0 else None
-    p = float(2 * stats.t.sf(abs(t), df)) if t is not None and np.isfinite(t) else None
-    tq = float(stats.t.ppf(1 - alpha, df))
+    p = float(2 * t_sf(abs(t), df)) if t is not None and np.isfinite(t) else None
+    tq = float(t_ppf(1 - alpha, df))
     lo, hi = 100 * (b2 - b1 - tq * diff_se) / b1, 100 * (b2 - b1 + tq * diff_se) / b1
     lo, hi = min(lo, hi), max(lo, hi)
     if interval_within([lo, hi], [-margin_pct, margin_pct]):
@@ -508,7 +508,7 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
     runs are compared in one joint fit (:func:`joint_comparison`); without them, for
     straight lines only, by :func:`compare_slopes` on the summary numbers. Residual SD:
     ratio s2/s1 and F = ratio^2 on (n2 - p, n1 - p), two-sided. Recovery: Welch's t test
-    on the per-replicate recoveries of all levels (scipy.stats.ttest_ind, equal_var=False),
+    on the per-replicate recoveries of all levels (:func:`validator.maths.welch.welch_t_test`),
     and the F test of their variances. Repeatability: F = s_r2^2/s_r1^2 per level present in
     both runs. Verdict: "different" when the sensitivity interval lies outside the margin or
     the residual SD ratio exceeds its maximum; "not shown equivalent" when the interval
@@ -540,7 +540,7 @@ def assess_revalidation(previous: RunSummary, current: RunSummary, *, slope_chan
         welch = f_p = None
         if len(r1) > 1 and len(r2) > 1:
             with quiet_numpy():
-                welch = float(stats.ttest_ind(r2, r1, equal_var=False).pvalue)
+                welch = welch_t_test(r2, r1).pvalue
                 welch = welch if np.isfinite(welch) else None
                 if np.var(r1) > 0 and np.var(r2) > 0:
                     f = np.var(r2, ddof=1) / np.var(r1, ddof=1)
