@@ -15,6 +15,7 @@ from __future__ import annotations
 import argparse
 import importlib.util
 import os
+import resource
 import statistics
 import subprocess
 import sys
@@ -46,15 +47,19 @@ def generator():
 
 
 def run_once(study: Path, out: Path, formats: str) -> tuple:
-    """(wall seconds, peak RSS in MiB) of one run in a child process."""
+    """(wall seconds, peak RSS in MiB, CPU seconds) of one run in a child process; the CPU time is
+    user + system of the run and of every worker it waited for."""
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     proc = subprocess.run([sys.executable, "-c", CHILD, "run", str(study), "--out", str(out), "--format", formats,
                            "--force", "--quiet"], capture_output=True, text=True, env=env)
     elapsed = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if proc.returncode not in (0, 1):
         raise SystemExit(proc.stderr)
-    return elapsed, int(proc.stderr.strip().splitlines()[-1]) / 1024
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return elapsed, int(proc.stderr.strip().splitlines()[-1]) / 1024, cpu
 
 
 def outline_entries(pdf: Path, names: list) -> int:
@@ -77,9 +82,9 @@ def main(argv=None):
     parser.add_argument("--formats", nargs="+", default=["json", "json,html", "json,html,pdf"])
     args = parser.parse_args(argv)
     gen = generator()
-    print("| analytes | formats | median wall (s) | s per analyte | peak RSS (MiB) | PDF pages | outline entries "
+    print("| analytes | formats | median wall (s) | s per analyte | median CPU (s) | peak RSS (MiB) | PDF pages | outline entries "
           "naming an analyte | load average (1 min) |")
-    print("|---:|---|---:|---:|---:|---:|---:|---:|")
+    print("|---:|---|---:|---:|---:|---:|---:|---:|---:|")
     for n in args.analytes:
         with tempfile.TemporaryDirectory() as tmp:
             study = gen.write(Path(tmp) / "study", n)
@@ -87,6 +92,7 @@ def main(argv=None):
                 runs = [run_once(study, Path(tmp) / f"out{i}", formats) for i in range(args.repeat)]
                 wall = statistics.median(r[0] for r in runs)
                 peak = max(r[1] for r in runs)
+                cpu = statistics.median(r[2] for r in runs)
                 pages = entries = ""
                 if "pdf" in formats:
                     from pypdf import PdfReader
@@ -94,7 +100,7 @@ def main(argv=None):
                     pdf = Path(tmp) / "out0" / "dossier.pdf"
                     pages = len(PdfReader(str(pdf)).pages)
                     entries = outline_entries(pdf, gen.names(n))
-                print(f"| {n} | {formats} | {wall:.1f} | {wall / n:.3f} | {peak:.0f} | {pages} | {entries} | "
+                print(f"| {n} | {formats} | {wall:.1f} | {wall / n:.3f} | {cpu:.1f} | {peak:.0f} | {pages} | {entries} | "
                       f"{os.getloadavg()[0]:.1f} |", flush=True)
 
 
