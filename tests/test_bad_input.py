@@ -98,6 +98,14 @@ CATALOGUE = [
      "max_data_file_mb = 1\n", "calibration.csv: is 1200023 bytes, over the limit of 1048576 bytes"),
     ("bad-range", CALIB + '[recovery]\ndata = "r.csv"\nrange_pct = [110, 90]\n', None, "",
      "{dir}/study.toml, line 8, key recovery: range_pct must be [low, high] with low < high, got [110.0, 90.0]"),
+    # a key checked against the data after the study file was read still gets its line and a hint
+    ("analyte-typo", CALIB + '[reference_material]\ndata = "rm.csv"\ncertified_value = 2\nstandard_uncertainty = 0.01\n'
+     'analyte = "nitrat"\n',
+     {"calibration.csv": "analyte,concentration,response\n" + "".join(
+         f"{a},{x},{2 * x + d}\n" for a in ("nitrate", "nitrite") for x in (1, 2, 4, 8) for d in (0.01, -0.01)),
+      "rm.csv": "found\n2.01\n1.99\n"}, "",
+     '{dir}/study.toml, line 12, key reference_material.analyte: analyte "nitrat" is not in the calibration '
+     'data; did you mean "nitrate"?'),
 ]
 
 

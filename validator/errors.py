@@ -20,7 +20,7 @@ from __future__ import annotations
 import re
 
 __all__ = ["ValidatorError", "StudyError", "DataError", "OutputError", "MAX_ECHO", "show", "shorten",
-           "escape_control", "one_line", "control_character"]
+           "escape_control", "one_line", "control_character", "did_you_mean"]
 
 MAX_ECHO = 80            # characters of a user's value echoed in a message
 MAX_LOCATION = 300       # characters of a path or key named in a message
@@ -75,6 +75,20 @@ def show(value: object, limit: int = MAX_ECHO) -> str:
             text = (f"<an integer of about {int(value.bit_length() * 0.30103) + 1} digits>"
                     if isinstance(value, int) else f"<a {type(value).__name__} holding such an integer>")
     return escape_control(shorten(text, limit))
+
+
+def did_you_mean(value: str, choices) -> str:
+    """A hint naming the closest of ``choices`` to a mistyped ``value`` (``'; did you mean "x"?'``),
+    else the choices themselves when there are few, else nothing."""
+    import difflib
+
+    choices = [str(c) for c in choices]
+    close = difflib.get_close_matches(str(value), choices, n=1, cutoff=0.6)
+    if close:
+        return f'; did you mean "{show(close[0])}"?'
+    if 0 < len(choices) <= 10:
+        return " (known: " + ", ".join(f'"{show(c)}"' for c in sorted(choices)) + ")"
+    return ""
 
 
 def one_line(text: str) -> str:

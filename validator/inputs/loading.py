@@ -24,7 +24,7 @@ from .tables import MAX_NAME_LENGTH, exact_centre, read_bytes, read_table
 from ..errors import DataError, StudyError, shorten, show
 from ..maths.regression import MAGNITUDE_LIMIT, first_out_of_range
 from .previous import PreviousRun
-from .study import StudyFile, read_study_file
+from .study import StudyFile, read_study_file, with_key_line
 
 if TYPE_CHECKING:
     from ..characteristics.calibration.settings import CalibrationData
@@ -313,6 +313,18 @@ def load_study(path: str | Path) -> LoadedStudy:
     from .. import registry
 
     study = read_study_file(path)
+    try:
+        return _load(study)
+    except StudyError as err:
+        fuller = with_key_line(err, study)
+        if fuller is err:
+            raise
+        raise fuller from err
+
+
+def _load(study) -> LoadedStudy:
+    from .. import registry
+
     reader = Reader(study)
     calibration, loaded = None, {}
     runs = None

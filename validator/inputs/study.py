@@ -454,6 +454,19 @@ def _key_line(text: str, loc: tuple) -> int | None:
     return None
 
 
+def with_key_line(err: StudyError, study: "StudyFile") -> StudyError:
+    """``err`` with the line of its key in the study file filled in, when it names a key of that file
+    and no line or row (checks made after the file was read, e.g. an analyte name that no data file
+    holds, know the key but not its line); otherwise ``err`` itself."""
+    if err.line is not None or err.row is not None or not err.key or err.file != study.shown:
+        return err
+    loc = tuple(part for part in re.split(r"[.\[\]]+", err.key) if part)
+    line = _key_line(study.text, loc) if loc else None
+    if line is None:
+        return err
+    return type(err)(err.problem, file=err.file, column=err.column, key=err.key, value=err.value, line=line)
+
+
 def item_line(text: str, array: str, index: int, key: str | None = None) -> int | None:
     """Best-effort line of ``key`` in the ``index``-th (0-based) ``[[array]]`` table, else of its header."""
     header = re.compile(r"^\s*\[\[\s*" + re.escape(array) + r"\s*\]\]")

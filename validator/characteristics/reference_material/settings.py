@@ -16,7 +16,7 @@ from typing import Optional
 import numpy as np
 from pydantic import Field
 
-from ...errors import DataError, StudyError, show
+from ...errors import DataError, StudyError, did_you_mean, show
 from ...inputs.loading import analyte_rows, numeric_column
 from ...inputs.study import TEXT_LIMITS, DataSource, Text
 
@@ -47,7 +47,8 @@ def load(reader, settings: ReferenceMaterialSection, analytes) -> dict[str, np.n
                          "certifies (analyte = ...)", file=reader.study.shown, key="reference_material.analyte")
     name = settings.analyte or next(iter(analytes))
     if name not in analytes:
-        raise StudyError(f'analyte "{name}" is not in the calibration data', file=reader.study.shown,
+        raise StudyError(f'analyte "{show(name)}" is not in the calibration data{did_you_mean(name, analytes)}',
+                         file=reader.study.shown,
                          key="reference_material.analyte", value=name)
     table = reader.table("reference_material", settings, ("found",), ("analyte",))
     found = numeric_column(table, "found", reader.decimal)
