@@ -111,6 +111,49 @@ def _calibration_rows(engine_analyte, entry: dict) -> list[int] | None:
     return list(rows)
 
 
+def _calibrator_sources(engine_analyte, entry: dict, rows: list[int] | None) -> dict | None:
+    """Where each back-calculated calibrator was read, in results.json order, for appendix A.
+
+    ``{"points": [{"file", "sheet", "run", "row"}, ...], "files": [(file, sheet), ...] in first-seen
+    order, "runs": [...], "from_runs": bool, "response_recorded": bool}``; ``None`` when a calibrator's
+    file cannot be told for certain (no file is ever guessed). A calibrator of the [[runs]] is found
+    among the runs' calibrator injections (the runs result, not written to results.json: the
+    calibration section lists them) by run and file row; one of a calibration file, among that file's
+    rows in ``data_rows``. ``response_recorded``: the response is the file's value, not a ratio to an
+    internal standard computed from two areas, so appendix A prints it as recorded.
+    """
+    from .. import registry
+
+    if rows is None:
+        return None
+    runs_entry = next((e for e in registry.REGISTRY if e.name == "runs"), None)
+    runs = None if runs_entry is None else engine_analyte.result_of(runs_entry)
+    points = []
+    if runs is not None:
+        series = getattr(engine_analyte.data.calibration, "series", None)
+        if series is None or len(series) != len(rows):
+            return None
+        by_key: dict = {}
+        for i in runs.calibrators:
+            by_key.setdefault((i.run, i.row), []).append(i)
+        found = [by_key.get((run, row), []) for run, row in zip(series, rows)]
+        if any(len(f) != 1 for f in found):
+            return None
+        points = [{"file": i.file, "sheet": i.sheet, "run": i.run, "row": i.row} for (i,) in found]
+        recorded = all(i.internal_standard_response is None for (i,) in found)
+    else:
+        groups = [g for g in entry.get("data_rows", ()) if g["role"] == "calibration"]
+        for row in rows:
+            holding = [g for g in groups if any(r["row"] == row for r in g["rows"] if "excluded" not in r)]
+            if len(holding) != 1:
+                return None
+            points.append({"file": holding[0]["file"], "sheet": holding[0].get("sheet"), "run": None, "row": row})
+        recorded = True
+    return {"points": points, "files": list(dict.fromkeys((p["file"], p["sheet"]) for p in points)),
+            "runs": list(dict.fromkeys(p["run"] for p in points if p["run"] is not None)),
+            "from_runs": runs is not None, "response_recorded": recorded}
+
+
 def _series_pct(data, lv):
     """Precision results of one level as % of the level mean, grouped by series (for plotting)."""
     mask = data.level == lv.level
@@ -206,12 +249,16 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
                          "verdicts": summary.characteristic_verdicts(a), "heading": summary.studied_heading(a, shown, titles),
                          "remarks": summary.remarks(a, units[i][0], results.get("guideline")), "flagged_points": summary.flagged_points(a["calibration"]),
                          "file_rows": _calibration_rows(result.analytes[i], a),
+                         "calibrators": _calibrator_sources(result.analytes[i], a,
+                                                            _calibration_rows(result.analytes[i], a)),
                          # precision results flagged by an outlier test, and their (file, sheet, row) marks
                          "flagged_results": summary.flagged_results(a), "flagged_sources": summary.flagged_sources(a)})
     criteria = summary.ordered_criteria(results)
     matrix = summary.matrix(results)
     flagged = [{"index": a["index"], "analyte": a["data"]["name"], "point": point,
-                "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None}
+                "row": a["file_rows"][int(point) - 1] if a["file_rows"] and point.isdigit() else None,
+                "file": (a["calibrators"]["points"][int(point) - 1]["file"]
+                         if a["calibrators"] and point.isdigit() else None)}
                for a in analytes for point in a["flagged_points"]]
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
     # the characteristics shown in each analyte's characteristics section, in registry order
