@@ -31,7 +31,7 @@ def figures(entry: dict, reading) -> dict:
     rows = [c for c in entry["conditions"] if c["result"]["deviation_percent"] is not None]
     if not rows:
         return {}
-    fig, ax = figure(figsize=(6.4, 0.9 + 0.32 * len(rows)))
+    fig, ax = figure(figsize=(5.0, 0.8 + 0.26 * len(rows)))     # two thirds of the text width in the dossier (the condition labels need it)
     ys = list(range(len(rows)))[::-1]
     level = None
     for y, c in zip(ys, rows):
