@@ -223,6 +223,8 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
         part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
         sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
+        # the note on criteria not evaluated only when one is among them
+        any_not_evaluated=any(c["pass"] is None for c in criteria),
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
         # the concentration unit of the matrix's header, None when the analytes' units differ (then each row's)
