@@ -47,3 +47,38 @@ def test_the_bioanalytical_example_shows_the_set(outside):
     # log-axis tick labels are plain numbers: matplotlib's mathtext would show as raw "$\mathdefault{10^{1}}$"
     # in the SVG, whose text is kept as text (seen in the reanalysis figure's log axis)
     assert "mathdefault" not in html and "$10^" not in html
+
+
+# issue #14: compact analyte sections. The bioanalytical example's analyte took 6 pages (figures full
+# width, 40 incurred-sample rows); with the sector figures in the row of figures and the per-row
+# tables in appendix C it takes the calibration's page and 3 more, the last figure line sharing the
+# samples' page
+BIO_PAGES_PER_ANALYTE_REACHED = 4
+
+
+def test_bioanalytical_section_is_compact(outside):
+    from bs4 import BeautifulSoup
+    from pypdf import PdfReader
+
+    out = outside / "out"
+    assert main(["run", str(EXAMPLE / "study.toml"), "--out", str(out)]) in (0, 1)
+    results = json.loads((out / "results.json").read_text(encoding="utf-8"))
+    samples = results["analytes"][0]["reanalysis"]["samples"]
+    soup = BeautifulSoup((out / "dossier.html").read_text(encoding="utf-8"), "html.parser")
+    section, appendix = soup.select_one("#characteristics-0"), soup.select_one("#details-0")
+    shown = {td["data-src"] for td in section.select('[data-src^="analytes.0.reanalysis.samples."]')}
+    # the section: only the samples not within the limit (exact count from results.json)
+    outside_rows = {i for i, s in enumerate(samples) if s["within"] is not True}
+    assert {int(src.split(".")[4]) for src in shown} == outside_rows and 0 < len(outside_rows) < len(samples)
+    # appendix C: every sample
+    listed = {int(e["data-src"].split(".")[4]) for e in appendix.select('[data-src^="analytes.0.reanalysis.samples."]')}
+    assert listed == set(range(len(samples)))
+    assert section.select_one('a[href="#details-0"]') is not None
+    # the sector figures stand in the section's row of figures
+    row = section.select_one("div.figure-row")
+    assert len(row.select("div.figure")) == 4
+    reader = PdfReader(str(out / "dossier.pdf"))
+    entries = {o.title: reader.get_destination_page_number(o) + 1 for o in reader.outline[1] if not isinstance(o, list)}
+    start = next(p for t, p in entries.items() if ": calibration" in t)
+    after = next(p for t, p in entries.items() if t.startswith("Quantified samples"))
+    assert after - start <= BIO_PAGES_PER_ANALYTE_REACHED, (start, after)

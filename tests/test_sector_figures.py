@@ -35,6 +35,15 @@ def _figure(html: str, heading: str) -> str:
     return match.group(0)
 
 
+def _row_figure(html: str, prefix: str) -> str:
+    """The inline SVG whose element ids start with ``prefix`` (its presentation module's figure name),
+    which must stand in the row of figures at the end of the analyte's characteristics section."""
+    row = html.split('<div class="figure-row">', 1)[1]
+    svgs = [m.group(0) for m in re.finditer(r"<svg.*?</svg>", row, flags=re.S) if f'id="{prefix}' in m.group(0)]
+    assert len(svgs) == 1, f"no figure {prefix} in the row of figures"
+    return svgs[0]
+
+
 def _markers(svg: str, gid: str) -> int:
     """The markers drawn by the series whose matplotlib gid is ``gid`` (its ``<use>`` elements)."""
     root = ET.fromstring(svg)
@@ -76,13 +85,14 @@ def test_method_detection_limit_figure(make_study, outside):
 def test_stability_and_dilution_figures(make_study, outside):
     results, html = _dossier(make_study(BIO_BODY, _bio_files()), outside)
     a = results["analytes"][0]
-    svg = _figure(html, "<h3>Stability</h3>")
+    # both in the row of figures at the end of the section (issue #14: compact analyte sections)
+    svg = _row_figure(html, "stab")
     # one mean per condition and level with a deviation: 3 in the study (the 2-result one has a mean too)
     with_mean = [c for c in a["stability"]["conditions"] if c["result"]["deviation_percent"] is not None]
     assert _markers(svg, "means") == len(with_mean) == 3
     text = _text(svg)
     assert "limits ±15 %" in text and "bench-top 24 h, 3 mg/L" in text
-    svg = _figure(html, "<h3>Dilution integrity</h3>")
+    svg = _row_figure(html, "dil")
     assert _markers(svg, "level-0") == 5                  # the five diluted QCs of the file
     text = _text(svg)
     assert "limits 100 ± 15 % (on the mean)" in text and "×10 of 500 mg/L (5)" in text

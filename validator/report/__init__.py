@@ -260,6 +260,11 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
                 "file": (a["calibrators"]["points"][int(point) - 1]["file"]
                          if a["calibrators"] and point.isdigit() else None)}
                for a in analytes for point in a["flagged_points"]]
+    flagged_precision = sum(len(a["flagged_results"]) for a in analytes)
+    # the summary lists the flagged data itself while the list is short; a longer one (a study of many
+    # analytes) is counted there and listed in its own section ahead of the appendices (issue #14: the
+    # verdict, matrix and open criteria on the first two pages)
+    flagged_in_summary = len(flagged) + flagged_precision <= SUMMARY_FLAGGED_ITEMS
     all_remarks = summary.grouped_remarks([(a["index"], a["data"]["name"], a["remarks"]) for a in analytes])
     # the characteristics shown in each analyte's characteristics section, in registry order
     sections = [{"name": e.name, "title": e.title, "fragment": e.fragment} for e in placed["characteristics"]]
@@ -271,18 +276,24 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
         part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
         sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
+        # the note on criteria not evaluated only when one is among them
+        any_not_evaluated=any(c["pass"] is None for c in criteria),
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
         # the concentration unit of the matrix's header, None when the analytes' units differ (then each row's)
         matrix_unit=summary.common_unit(results), own_units=summary.units_by_analyte(results),
         conclusion=summary.conclusion(results), remarks=all_remarks,
-        flagged_total=len(flagged), flagged_list=flagged, doc=result.loaded.config.study,
-        calibration_file=result.loaded.config.calibration.data,
+        flagged_total=len(flagged), flagged_list=flagged, flagged_in_summary=flagged_in_summary,
+        flagged_calibrator_analytes=len({f["index"] for f in flagged}), flagged_precision_total=flagged_precision,
+        doc=result.loaded.config.study,
         css=css, page_size=page, palette=PALETTE, sig=SIG, sig_p=SIG_P, sector_used=sector_used,
         study_text=result.loaded.study.text,
         config=result.loaded.config)
     return (html, drawn) if parts else html
 
+
+#: at most this many flagged calibrators and precision results are listed in the summary itself
+SUMMARY_FLAGGED_ITEMS = 6
 
 _FIGURE = "<!--validator:figure:{}-->"
 

@@ -21,6 +21,15 @@ def sentences(entry: dict, reading) -> dict:
         missing = [b["reason"] for b in entry["run_blanks"] if b["analyte_percent"] is None]
         if missing and blanks:
             out["missing"] = "Not judged in these runs: " + "; ".join(missing) + "."
+        # the blanks beyond a limit, named in the section (every blank's row: appendix C)
+        above = [f"{b['run']}, {b['blank']} ({b['file']} row {b['row']}): analyte {fmt(b['analyte_percent'], 3)} % of LLOQ"
+                 for b in blanks if not not_above(b["analyte_percent"], entry["analyte_limit_percent"])]
+        above += [f"{b['run']}, {b['blank']} ({b['file']} row {b['row']}): internal standard "
+                  f"{fmt(b['internal_standard_percent'], 3)} %" for b in entry["run_blanks"]
+                  if b["internal_standard_percent"] is not None and entry["internal_standard_limit_percent"] is not None
+                  and not not_above(b["internal_standard_percent"], entry["internal_standard_limit_percent"])]
+        if above:
+            out["above"] = "Blank(s) above the limit: " + "; ".join(above) + "."
     if entry["max_analyte_percent"] is None:
         out["analyte"] = f"Carry-over not judged: {entry['reason']}."
         return out

@@ -57,7 +57,7 @@ def figures(entry: dict, reading) -> dict:
         return {}
     names = list(dict.fromkeys(lot["lot"] for lv in entry["lots"] for lot in lv["lots"]))
     markers = "os^Dv<>p"
-    fig, ax = figure(figsize=(6.4, 2.8))
+    fig, ax = figure(figsize=(3.4, 2.4))     # a third of the text width in the dossier
     for k, lv in enumerate(entry["lots"]):
         judged = [lot for lot in lv["lots"] if lot["bias_percent"] is not None]
         points(ax, [names.index(lot["lot"]) for lot in judged], [lot["bias_percent"] for lot in judged],

@@ -23,6 +23,12 @@ def sentences(entry: dict, reading) -> dict:
     if counted:
         out["undefined"] = (f"{counted} pair(s) of different results have a mean of zero or below (or overflow), so "
                             "no % difference: they count as not within the limit.")
+    outside = sum(1 for s in entry["samples"] if s["within"] is False)
+    not_judged = sum(1 for s in entry["samples"] if s["within"] is None)
+    if outside or not_judged:
+        # heads the section's short table of the samples not within the limit (all samples: appendix C)
+        parts = ([f"{outside} outside the limit"] if outside else []) + ([f"{not_judged} not judged"] if not_judged else [])
+        out["outside"] = f"Reanalysed samples {' and '.join(parts)}, of {entry['n']}:"
     if entry["notes"]:
         out["notes"] = "Note: " + "; ".join(entry["notes"]) + "."
     return out
@@ -33,7 +39,7 @@ def figures(entry: dict, reading) -> dict:
     rows = [s for s in entry["samples"] if s["difference_percent"] is not None]
     if not rows:
         return {}
-    fig, ax = figure(figsize=(6.4, 2.8))
+    fig, ax = figure(figsize=(3.4, 2.4))     # a third of the text width in the dossier
     means = [(s["original"] + s["repeat"]) / 2 for s in rows]
     inside = [s["within"] for s in rows]
     points(ax, [m for m, ok in zip(means, inside) if ok],

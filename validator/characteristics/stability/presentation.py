@@ -9,9 +9,23 @@ __all__ = ["sentences", "figures"]
 
 
 def sentences(entry: dict, reading) -> dict:
+    """One sentence for the conditions shown stable (their values are in the section's table) and one for
+    each condition not shown stable or not judged."""
+    conditions = entry["conditions"]
+    stable = [c for c in conditions if c["result"]["passed"] is True]
     out = {}
-    for i, c in enumerate(entry["conditions"]):
+    if stable:
+        limits = sorted({c["result"]["limit_percent"] for c in stable})
+        on = {c["result"]["judged_on"] for c in stable}
+        what = ("mean deviation" if on == {"estimate"} else "confidence interval of the deviation" if "estimate" not in on
+                else "mean deviation (or its confidence interval, as judged)")
+        out["stable"] = (f"{len(stable)} of {len(conditions)} condition(s) and level(s) shown stable: each "
+                         f"{what} within ±{' or ±'.join(fmt(lim) for lim in limits)} % of its reference (values in "
+                         "the table).")
+    for i, c in enumerate(conditions):
         s = c["result"]
+        if s["passed"] is True:
+            continue
         head = f"{c['condition']} at {fmt(c['nominal'])} {reading.unit}"
         if s["deviation_percent"] is None:
             out[f"condition_{i}"] = f"{head}: no deviation: {s['reason']}."
@@ -31,7 +45,7 @@ def figures(entry: dict, reading) -> dict:
     rows = [c for c in entry["conditions"] if c["result"]["deviation_percent"] is not None]
     if not rows:
         return {}
-    fig, ax = figure(figsize=(6.4, 0.9 + 0.32 * len(rows)))
+    fig, ax = figure(figsize=(6.4, 0.8 + 0.26 * len(rows)))     # shown two thirds of the text wide (type as in the thirds)
     ys = list(range(len(rows)))[::-1]
     level = None
     for y, c in zip(ys, rows):
