@@ -38,3 +38,27 @@ def test_excluded_rows_are_listed_among_the_deviations(make_study, outside):
 def test_no_exclusion_is_said_among_the_deviations(make_study, outside):
     _, soup = _run(make_study(), outside / "out")
     assert "No data row excluded" in soup.select_one("#excluded-rows").get_text(" ")
+
+
+# a calibration with slight curvature and tight replicates, fitted by a straight line: every calibrator
+# back-calculates within 15 % but the lack-of-fit test rejects the line (invented data, for the rule only)
+CURVED = "concentration,response\n" + "".join(
+    f"{x},{2.0 * x + 0.004 * x * x + d}\n" for x in (1, 2, 4, 8, 16) for d in (0.001, -0.001))
+
+
+def test_a_range_on_a_failed_calibration_is_not_validated(make_study, outside):
+    study = make_study('[calibration]\ndata = "calibration.csv"\nmodel = "linear"\nweighting = "none"\n',
+                       files={"calibration.csv": CURVED})
+    results, soup = _run(study, outside / "out", expect=1)
+    (a,) = results["analytes"]
+    verdicts = {c["id"]: c for c in a["criteria"]}
+    assert verdicts["lack-of-fit"]["pass"] is False
+    assert verdicts["back-calculation"]["pass"] is True
+    wr = verdicts["working-range"]
+    assert wr["pass"] is None and "lack-of-fit not met" in wr["note"]
+    assert a["working_range"]["low"] is not None      # the passing calibrators still span a range
+    cell = soup.select_one('#matrix tr[data-analyte="0"] td.range').get_text(" ")
+    assert "none" in cell and "lack-of-fit not met" in cell
+    conclusion = soup.select_one("#conclusion").get_text(" ")
+    assert "Validated ranges" not in conclusion and "No validated range for" in conclusion
+    assert "NOT validated" in soup.select_one("#characteristics-0").get_text(" ")
