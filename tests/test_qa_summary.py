@@ -62,3 +62,34 @@ def test_a_range_on_a_failed_calibration_is_not_validated(make_study, outside):
     conclusion = soup.select_one("#conclusion").get_text(" ")
     assert "Validated ranges" not in conclusion and "No validated range for" in conclusion
     assert "NOT validated" in soup.select_one("#characteristics-0").get_text(" ")
+
+
+def test_every_preset_requires_registered_characteristics():
+    from validator.registry import REGISTRY
+    from validator.sector.presets import PRESETS, missing_requirements
+    names = {e.name for e in REGISTRY}
+    for preset in PRESETS.values():
+        assert preset.requires, preset.name          # every preset says what a validation under it must show
+        assert {r.characteristic for r in preset.requires} <= names
+        assert missing_requirements(preset.name, names) == ()
+    assert missing_requirements(None, ()) == ()
+    # ICH M10 sec. 3.2.5 (from memory): accuracy and precision are part of a chromatographic validation
+    assert "precision" in {r.characteristic for r in missing_requirements("ich-m10", ("calibration",))}
+
+
+def test_a_preset_requirement_not_shown_is_not_passed(outside):
+    from conftest import REPO
+    results, soup = _run(REPO / "example_studies" / "plasma-lcms-bioanalytical" / "study.toml", outside / "out")
+    (a,) = results["analytes"]
+    assert "precision" not in a["characteristics_assessed"]       # every QC has a lot, condition or dilution
+    c = next(c for c in a["criteria"] if c["id"] == "guideline-requires-precision")
+    assert c["pass"] is None and "ich-m10" in c["note"] and "not shown is not passed" in c["note"]
+    assert results["verdict"] == "incomplete" and a["verdict"] == "incomplete"
+    note = soup.select_one("#guideline-note").get_text(" ")
+    assert "recalled from memory" in note and "confirmed against the current text of the guideline" in note
+    assert "within-run and between-run accuracy and precision" in note
+    others = soup.select_one('#matrix tr[data-analyte="0"] td.others').get_text(" ")
+    assert "precision (required, not shown)" in others and "stability" in others and "carry-over" in others
+    remarks = soup.select_one("#remarks + ul").get_text(" ")
+    assert "pooling the calibrators of all 3 runs" in remarks
+    assert "fit for the intended use" not in soup.select_one("#conclusion").get_text(" ")

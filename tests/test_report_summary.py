@@ -78,6 +78,10 @@ def test_matrix_agrees_with_results(failing_out):
             assert close(shown(7), [max(lv["expanded_pct"] for lv in a["uncertainty"]["levels"]
                                         if lv["expanded_pct"] is not None)])
             cells = cells[:7] + cells[8:]
+        # the other characteristics' verdicts: calibration, accuracy profile and (nitrate) the CRM in the demo
+        others = cells[7].get_text(" ")
+        assert "calibration" in others and "accuracy profile" in others
+        cells = cells[:7] + cells[8:]
         not_met = sum(c["pass"] is False for c in a["criteria"])
         not_applicable = sum(c["pass"] is None for c in a["criteria"])
         assert cells[7].get_text() == f"{not_met}; {not_applicable}"
@@ -182,3 +186,14 @@ def test_the_precision_table_labels_the_one_way_and_the_judged_rsd(failing_out):
     judged = [s["data-src"] for s in table.select("td.judged span.n[data-src]")]
     assert judged == [f"analytes.0.precision.levels.{i}.nested.conditions.2.rsd_pct"
                       for i in range(len(results["analytes"][0]["precision"]["levels"]))]
+
+
+def test_a_precision_bound_above_its_limit_is_a_remark(failing_out):
+    # nitrate 0.5 mg/L: intermediate RSD 2.3 % within 8 %, its upper bound 8.5 % above it (the criterion's note)
+    results, soup = failing_out
+    c = next(c for c in results["analytes"][0]["criteria"] if c["id"] == "intermediate-rsd-0.5")
+    bound = results["analytes"][0]["precision"]["levels"][0]["nested"]["conditions"][-1]["rsd_upper_pct"]
+    assert c["pass"] is True and bound > c["limit"]
+    remarks = soup.select_one("#remarks + ul").get_text(" ")
+    assert "intermediate precision RSD at 0.5 mg/L meets its limit of 8 % on the point estimate" in remarks
+    assert "criterion intermediate-rsd-0.5: not met on that basis" in remarks

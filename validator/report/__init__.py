@@ -226,6 +226,7 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
         criteria_open=[c for c in criteria if c["pass"] is not True],
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
+        show_others=any(m.others for m in matrix), guideline_note=summary.guideline_note(results),
         # the concentration unit of the matrix's header, None when the analytes' units differ (then each row's)
         matrix_unit=summary.common_unit(results), own_units=summary.units_by_analyte(results),
         conclusion=summary.conclusion(results), remarks=all_remarks,

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from . import numbers as N
 
 __all__ = ["Cell", "MatrixRow", "matrix", "demonstrated_range", "DemonstratedRange", "judged_precision",
-           "RANGE_CRITERIA", "ordered_criteria", "conclusion", "characteristic_verdicts",
+           "RANGE_CRITERIA", "other_verdicts", "guideline_note", "ordered_criteria", "conclusion", "characteristic_verdicts",
            "criterion_characteristic", "studied_heading", "units_of", "common_unit", "units_by_analyte",
            "flagged_results", "flagged_sources"]
 
@@ -68,6 +68,9 @@ class MatrixRow:
     repeatability_max: Cell | None
     intermediate_max: Cell | None
     uncertainty_max: Cell | None
+    # the verdict of each other characteristic with criteria (calibration, the sector ones, ...), and of each
+    # the guideline preset requires but the analyte does not show (``None``: not evaluated)
+    others: tuple[tuple[str, bool | None], ...]
     not_met: int
     not_applicable: int
 
@@ -83,7 +86,7 @@ _CRITERION_CHARACTERISTIC = (
     ("limit-of-quantitation", "limit_of_blank"),
     ("reference-material-", "reference_material"), ("slope-equivalence", "revalidation"),
     ("residual-sd-ratio", "revalidation"), ("method-comparison-", "comparison"),
-    ("protocol-deviation", "protocol"),
+    ("protocol-deviation", "protocol"), ("guideline-requires-", "guideline"),
     # the sector characteristics (issue #15)
     ("carry-over", "carry_over"), ("carry-over-", "carry_over"), ("incurred-sample-reanalysis", "reanalysis"),
     ("matrix-effect-", "matrix_effect"), ("matrix-factor-", "matrix_effect"), ("matrix-lots-", "matrix_effect"),
@@ -207,6 +210,47 @@ def _judged_max(index: int, analyte: dict, which: str) -> Cell | None:
     return Cell(value, f"analytes.{index}.{path}", N.rule_for_path(path))
 
 
+# characteristics the matrix shows in columns of their own (their verdicts are in the analyte's section)
+_MATRIX_COLUMNS = ("working_range", "detection", "recovery", "precision", "uncertainty", "protocol", "guideline")
+_SHORT_LABELS = {"calibration": "calibration", "carry_over": "carry-over", "matrix_effect": "matrix effect",
+                 "selectivity": "selectivity", "stability": "stability", "dilution_integrity": "dilution",
+                 "reanalysis": "ISR", "limit_of_blank": "LoB/LoD", "method_detection_limit": "MDL",
+                 "reference_material": "CRM", "accuracy_profile": "accuracy profile", "comparison": "comparison",
+                 "revalidation": "re-validation", "precision": "precision", "recovery": "recovery",
+                 "other": "other"}
+
+
+def other_verdicts(analyte: dict) -> tuple[tuple[str, bool | None], ...]:
+    """(short label, verdict) of each characteristic with criteria that has no column of its own in the
+    matrix, in criteria order, then each characteristic a guideline preset requires and the analyte does
+    not show (label '<name> (required, not shown)', verdict ``None``)."""
+    verdicts = characteristic_verdicts(analyte)
+    out = [(_SHORT_LABELS.get(name, name.replace("_", " ")), v) for name, v in verdicts.items()
+           if name not in _MATRIX_COLUMNS]
+    for c in analyte["criteria"]:
+        if c["id"].startswith("guideline-requires-"):
+            name = c["id"].removeprefix("guideline-requires-").replace("-", "_")
+            out.append((_SHORT_LABELS.get(name, name.replace("_", " ")) + " (required, not shown)", None))
+    return tuple(out)
+
+
+def guideline_note(results: dict) -> dict | None:
+    """What page 2 says of ``[study] guideline``: the preset's title and name, how many of its values are
+    used as limits and how many of those are recalled (from memory), and per required characteristic
+    the analytes that do not show it (``None`` without a preset)."""
+    g = results.get("guideline")
+    if not g:
+        return None
+    used = [v for v in g["values"] if v["used"]]
+    missing: dict[str, list[tuple[int, str]]] = {}
+    for i, a in enumerate(results["analytes"]):
+        for c in a["criteria"]:
+            if c["id"].startswith("guideline-requires-"):
+                missing.setdefault(c["description"].split(": required by")[0], []).append((i, a["name"]))
+    return {"title": g["title"], "name": g["name"], "used": len(used),
+            "recalled": sum(1 for v in used if v["from_memory"]), "missing": list(missing.items())}
+
+
 def matrix(results: dict) -> list[MatrixRow]:
     """One row per analyte: validated range, LOD/LOQ on the reported basis, range of the level mean
     recoveries, largest repeatability and intermediate RSD, largest relative expanded uncertainty
@@ -237,6 +281,7 @@ def matrix(results: dict) -> list[MatrixRow]:
             repeatability_max=_judged_max(i, a, "repeatability"),
             intermediate_max=_judged_max(i, a, "intermediate"),
             uncertainty_max=_extreme(i, "uncertainty", unc_levels, "expanded_pct", max),
+            others=other_verdicts(a),
             not_met=sum(1 for c in a["criteria"] if c["pass"] is False),
             not_applicable=sum(1 for c in a["criteria"] if c["pass"] is None)))
     return rows
@@ -383,7 +428,9 @@ REMARK_KINDS = {"limits-below-range": "LOD or LOQ below the lowest calibrator",
                 "sample-outside-range": "samples outside the calibrated range",
                 "function-changed": "calibration function other than the earlier validation's",
                 "too-few-data": "tests with too few data",
-                "matrix-effect-beyond-limit": "matrix effect beyond its limit"}
+                "matrix-effect-beyond-limit": "matrix effect beyond its limit",
+                "precision-bound-above-limit": "precision met on the point estimate, its upper bound above the limit",
+                "pooled-calibration": "calibration and limits from one fit pooling the runs"}
 
 
 def grouped_remarks(per_analyte: list[tuple[int, str, list[Remark]]], single_limit: int = 3) -> list[dict]:
@@ -479,8 +526,55 @@ def remarks(analyte: dict, unit: str, guideline: dict | None = None) -> list[Rem
             out.append(Remark("function-changed",
                               f"this run's own calibration function ({_function(*now)}) differs from the earlier "
                               f"validation's ({_function(*before)}); the comparison uses the earlier function."))
+    out.extend(_precision_bounds(analyte, unit))
+    out.extend(_pooled_calibration(analyte))
     out.extend(_too_few(analyte, unit))
     return out
+
+
+def _precision_bounds(analyte: dict, unit: str) -> list[Remark]:
+    """An RSD criterion met on its point estimate while the estimate's one-sided upper confidence bound
+    (1 - alpha, as the criterion's note gives it) lies above the limit: met on that basis only."""
+    criteria = {c["id"]: c for c in analyte["criteria"]}
+    levels = (analyte.get("precision") or {}).get("levels", [])
+    out = []
+    for lv in levels:
+        nested = lv.get("nested")
+        if nested and nested.get("conditions"):
+            bounds = {"repeatability": nested["conditions"][0].get("rsd_upper_pct"),
+                      "intermediate": nested["conditions"][-1].get("rsd_upper_pct")}
+        else:
+            b = lv.get("rsd_upper_bounds") or {}
+            bounds = {"repeatability": b.get("repeatability_rsd_upper_pct"),
+                      "intermediate": b.get("intermediate_rsd_upper_pct")}
+        for kind, label in (("repeatability", "repeatability RSD"), ("intermediate", "intermediate precision RSD")):
+            c = criteria.get(f"{kind}-rsd-{lv['level']:g}")
+            bound = bounds[kind]
+            if (c is None or c["pass"] is not True or bound is None or c["limit"] is None
+                    or bound <= c["limit"] or c["value"] == bound):
+                continue
+            out.append(Remark("precision-bound-above-limit",
+                              f"the {label} at {N.by_rule(lv['level'], 'value')} {unit} meets its limit of "
+                              f"{N.by_rule(c['limit'], 'value')} % on the point estimate "
+                              f"({N.by_rule(c['value'], 'rsd')} %), but its upper confidence bound "
+                              f"({N.by_rule(bound, 'rsd')} %) lies above the limit (criterion {c['id']}: not met on that "
+                              "basis): the data do not show the precision within the limit with confidence; "
+                              "consider more series or replicates, or judge_on = \"interval\"."))
+    return out
+
+
+def _pooled_calibration(analyte: dict) -> list[Remark]:
+    """Runs quantified with their own calibrations while the calibration section, the LOD/LOQ and the
+    working range come from one fit pooling every run's calibrators."""
+    runs = analyte.get("runs") or {}
+    if runs.get("quantified_with") != "run" or len(runs.get("calibrations") or ()) < 2:
+        return []
+    return [Remark("pooled-calibration",
+                   f"the calibration shown, its LOD and LOQ and the working range come from one fit pooling the "
+                   f"calibrators of all {len(runs['calibrations'])} runs, while each run's QCs and samples are "
+                   "quantified with that run's own calibration (see Analytical runs): the pooled figures describe "
+                   "the method across runs, not the calibration any result was read from; judge each run's "
+                   "calibration in its own table.")]
 
 
 def _function(model: str, weighting: str, through_origin: bool) -> str:
