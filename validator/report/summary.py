@@ -157,7 +157,8 @@ def demonstrated_range(index: int, analyte: dict) -> DemonstratedRange:
         return DemonstratedRange((), "", "no working range assessed")
     if wr.get("low") is None:
         return DemonstratedRange((), "", wr["basis"])
-    unmet = _unmet(analyte, RANGE_CRITERIA)
+    # the calibration's criteria first: when one fails, the working-range criterion is not applicable for it
+    unmet = _unmet(analyte, RANGE_CRITERIA[:-1]) or _unmet(analyte, RANGE_CRITERIA[-1:])
     if unmet:
         return DemonstratedRange((), "", "not validated: " + ", ".join(unmet)
                                  + " (a range is validated only when the criteria it rests on are met)")
@@ -554,12 +555,10 @@ def _precision_bounds(analyte: dict, unit: str) -> list[Remark]:
                     or bound <= c["limit"] or c["value"] == bound):
                 continue
             out.append(Remark("precision-bound-above-limit",
-                              f"the {label} at {N.by_rule(lv['level'], 'value')} {unit} meets its limit of "
-                              f"{N.by_rule(c['limit'], 'value')} % on the point estimate "
-                              f"({N.by_rule(c['value'], 'rsd')} %), but its upper confidence bound "
-                              f"({N.by_rule(bound, 'rsd')} %) lies above the limit (criterion {c['id']}: not met on that "
-                              "basis): the data do not show the precision within the limit with confidence; "
-                              "consider more series or replicates, or judge_on = \"interval\"."))
+                              f"the {label} at {N.by_rule(lv['level'], 'value')} {unit} "
+                              f"({N.by_rule(c['value'], 'rsd')} %) meets its {N.by_rule(c['limit'], 'value')} % limit on "
+                              f"the point estimate only: its upper confidence bound, {N.by_rule(bound, 'rsd')} %, is "
+                              f"above it ({c['id']}, not met on that basis)."))
     return out
 
 
