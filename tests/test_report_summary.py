@@ -61,21 +61,27 @@ def test_matrix_agrees_with_results(failing_out):
 
         def close(got, want):
             return got == pytest.approx(want, rel=0.06)      # the rounding of the shown figure
-        if a["working_range"]["low"] is None:
-            assert cells[1].get_text() == "none"
-        else:
-            assert close(shown(1), [a["working_range"]["low"], a["working_range"]["high"]])
+        # the validated range: the working range within the accuracy profile's acceptance limits (both in the demo)
+        wr, (ap_range,) = a["working_range"], a["accuracy_profile"]["validated_ranges"]
+        assert close(shown(1), [max(wr["low"], ap_range["low"]), min(wr["high"], ap_range["high"])])
         det = a["detection"]
         rep = next(e for e in det["estimates"] if e["method"] == det["reported_basis"])
         assert close(shown(2), [rep["lod"]]) and close(shown(3), [rep["loq"]])
         means = [lv["mean_pct"] for lv in a["recovery"]["levels"]]
         assert close(shown(4), [min(means), max(means)])
-        assert close(shown(5), [max(lv["repeatability_rsd_pct"] for lv in a["precision"]["levels"])])
-        assert close(shown(6), [max(lv["intermediate_rsd_pct"] for lv in a["precision"]["levels"])])
+        # the RSDs the criteria judge: the demo declares a day/run design, so the nested estimates
+        judged = {c["id"]: c["value"] for c in a["criteria"] if c["value"] is not None}
+        assert close(shown(5), [max(v for k, v in judged.items() if k.startswith("repeatability-rsd-"))])
+        assert close(shown(6), [max(v for k, v in judged.items() if k.startswith("intermediate-rsd-"))])
+        assert close(shown(6), [max(lv["nested"]["conditions"][-1]["rsd_pct"] for lv in a["precision"]["levels"])])
         if a.get("uncertainty"):       # the demo has an uncertainty budget: U is the 8th column
             assert close(shown(7), [max(lv["expanded_pct"] for lv in a["uncertainty"]["levels"]
                                         if lv["expanded_pct"] is not None)])
             cells = cells[:7] + cells[8:]
+        # the other characteristics' verdicts: calibration, accuracy profile and (nitrate) the CRM in the demo
+        others = cells[7].get_text(" ")
+        assert "calibration" in others and "accuracy profile" in others
+        cells = cells[:7] + cells[8:]
         not_met = sum(c["pass"] is False for c in a["criteria"])
         not_applicable = sum(c["pass"] is None for c in a["criteria"])
         assert cells[7].get_text() == f"{not_met}; {not_applicable}"
@@ -93,11 +99,10 @@ def test_conclusion_agrees_with_results(failing_out):
     assert f"{passed} of {len(results['analytes'])} analyte(s) met every acceptance criterion" in text
     assert re.search(rf"\b{n_failed} criterion/criteria were NOT MET, for {', '.join(failed)}", text)
     for a in results["analytes"]:
-        wr = a["working_range"]
-        if wr["low"] is None:
-            assert re.search(rf"No working range could be stated for [^.]*\b{a['name']}\b", text)
-        else:
-            assert f"{a['name']} {wr['low']:g} to {wr['high']:g} mg/L" in text
+        wr, (ap_range,) = a["working_range"], a["accuracy_profile"]["validated_ranges"]
+        low, high = max(wr["low"], ap_range["low"]), min(wr["high"], ap_range["high"])
+        assert (f"{a['name']} {low:g} to {high:g} mg/L (working range within the accuracy profile's "
+                "acceptance limits)") in text
 
 
 def test_failing_criteria_first(failing_out):
@@ -163,3 +168,32 @@ def test_appendix_names_each_calibrator_by_its_file_row(demo_out):
             assert ("⚑" in row.get_text()) == ((b["nominal"], b["response"]) in flagged)
     assert any((o["concentration"], o["response"]) for a in results["analytes"]
                for o in a["calibration"]["outliers"]["flagged"])      # the demo has a flagged calibrator
+
+
+def test_the_accuracy_profile_range_is_not_called_validated(failing_out):
+    # only the summary's range (working range within the profile's limits) is "validated": the sign-off attests it
+    _, soup = failing_out
+    section = soup.select_one("#characteristics-0").get_text(" ")
+    assert "Range within the acceptance limits:" in section
+    assert "Validated range:" not in section
+
+
+def test_the_precision_table_labels_the_one_way_and_the_judged_rsd(failing_out):
+    results, soup = failing_out
+    table = soup.select_one("#precision-0").find_next("table")
+    heads = [th.get_text() for th in table.select("thead th")]
+    assert "RSD_I % (one-way)" in heads and "RSD_I % judged (day/run)" in heads
+    judged = [s["data-src"] for s in table.select("td.judged span.n[data-src]")]
+    assert judged == [f"analytes.0.precision.levels.{i}.nested.conditions.2.rsd_pct"
+                      for i in range(len(results["analytes"][0]["precision"]["levels"]))]
+
+
+def test_a_precision_bound_above_its_limit_is_a_remark(failing_out):
+    # nitrate 0.5 mg/L: intermediate RSD 2.3 % within 8 %, its upper bound 8.5 % above it (the criterion's note)
+    results, soup = failing_out
+    c = next(c for c in results["analytes"][0]["criteria"] if c["id"] == "intermediate-rsd-0.5")
+    bound = results["analytes"][0]["precision"]["levels"][0]["nested"]["conditions"][-1]["rsd_upper_pct"]
+    assert c["pass"] is True and bound > c["limit"]
+    remarks = soup.select_one("#remarks + ul").get_text(" ")
+    assert "intermediate precision RSD at 0.5 mg/L (2.3 %) meets its 8 % limit on the point estimate only" in remarks
+    assert "(intermediate-rsd-0.5, not met on that basis)" in remarks

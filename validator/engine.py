@@ -22,6 +22,7 @@ from .characteristics.runs import SECTOR_READS, RunsResult
 from .criteria import Criterion, overall_verdict
 from .inputs.loading import AnalyteData, LoadedStudy
 from .maths.normality import probability_plot
+from .sector.presets import missing_requirements, requirement_criterion_note
 
 if TYPE_CHECKING:
     from .inputs.study import StudyConfig
@@ -255,6 +256,13 @@ def analyse_analyte(data: AnalyteData, config, concentration_unit: str = "") -> 
                 ctx = replace(ctx, data=ctx.data.with_entries(done.provides))
         elif (gap := _declared_without_data(step, ctx)) is not None:
             ctx = replace(ctx, criteria=ctx.criteria + (gap,))
+    # what the guideline preset requires and this analyte does not show: not applicable, never passed
+    guideline = config.study.guideline
+    for req in missing_requirements(guideline, (name for name, result in ctx.results if result is not None)):
+        ctx = replace(ctx, criteria=ctx.criteria + (Criterion(
+            f"guideline-requires-{req.characteristic.replace('_', '-')}",
+            f"{req.what}: required by the guideline preset {guideline}", None, None, None,
+            requirement_criterion_note(guideline, req)),))
     cal = ctx.result_of(calibration.ENTRY)
     return AnalyteResult(name=data.name, data=ctx.data, calibration=cal,
                          criteria=ctx.criteria, bands=curve_bands(cal.fit),

@@ -280,6 +280,7 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
         any_not_evaluated=any(c["pass"] is None for c in criteria),
         criteria_met=[c for c in criteria if c["pass"] is True],
         matrix=matrix, show_uncertainty=any(m.uncertainty_max for m in matrix),
+        show_others=any(m.others for m in matrix), guideline_note=summary.guideline_note(results),
         # the concentration unit of the matrix's header, None when the analytes' units differ (then each row's)
         matrix_unit=summary.common_unit(results), own_units=summary.units_by_analyte(results),
         conclusion=summary.conclusion(results), remarks=all_remarks,

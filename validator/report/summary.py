@@ -12,7 +12,8 @@ from dataclasses import dataclass
 
 from . import numbers as N
 
-__all__ = ["Cell", "MatrixRow", "matrix", "ordered_criteria", "conclusion", "characteristic_verdicts",
+__all__ = ["Cell", "MatrixRow", "matrix", "demonstrated_range", "DemonstratedRange", "judged_precision",
+           "RANGE_CRITERIA", "other_verdicts", "guideline_note", "ordered_criteria", "conclusion", "characteristic_verdicts",
            "criterion_characteristic", "studied_heading", "units_of", "common_unit", "units_by_analyte",
            "flagged_results", "flagged_sources"]
 
@@ -56,9 +57,9 @@ class MatrixRow:
     name: str
     verdict: str
     unit: str                  # the analyte's concentration unit (range, LOD and LOQ are in it)
-    range_low: Cell | None
-    range_high: Cell | None
-    range_note: str
+    ranges: tuple[tuple[Cell, Cell], ...]     # the range demonstrated (see :func:`demonstrated_range`)
+    range_basis: str           # what it rests on, in words
+    range_note: str            # why there is none (empty when there is one)
     lod: Cell | None
     loq: Cell | None
     detection_note: str
@@ -67,6 +68,9 @@ class MatrixRow:
     repeatability_max: Cell | None
     intermediate_max: Cell | None
     uncertainty_max: Cell | None
+    # the verdict of each other characteristic with criteria (calibration, the sector ones, ...), and of each
+    # the guideline preset requires but the analyte does not show (``None``: not evaluated)
+    others: tuple[tuple[str, bool | None], ...]
     not_met: int
     not_applicable: int
 
@@ -82,7 +86,7 @@ _CRITERION_CHARACTERISTIC = (
     ("limit-of-quantitation", "limit_of_blank"),
     ("reference-material-", "reference_material"), ("slope-equivalence", "revalidation"),
     ("residual-sd-ratio", "revalidation"), ("method-comparison-", "comparison"),
-    ("protocol-deviation", "protocol"),
+    ("protocol-deviation", "protocol"), ("guideline-requires-", "guideline"),
     # the sector characteristics (issue #15)
     ("carry-over", "carry_over"), ("carry-over-", "carry_over"), ("incurred-sample-reanalysis", "reanalysis"),
     ("matrix-effect-", "matrix_effect"), ("matrix-factor-", "matrix_effect"), ("matrix-lots-", "matrix_effect"),
@@ -124,6 +128,130 @@ def _extreme(analyte_index: int, section: str, levels, key: str, pick) -> Cell |
     return Cell(value, f"analytes.{analyte_index}.{section}.levels.{i}.{key}", N.rule_for_path(key))
 
 
+# the criteria a working range rests on: those of the calibration it is read from, and its own
+RANGE_CRITERIA = ("lack-of-fit", "back-calculation", "monotonic", "r-squared", "working-range")
+
+
+@dataclass(frozen=True)
+class DemonstratedRange:
+    """The range the summary calls validated: the working range when every criterion it rests on
+    (:data:`RANGE_CRITERIA`) is met, intersected with each interval where the accuracy profile lies
+    within its acceptance limits when one was studied (``pieces`` empty, ``note`` why, otherwise)."""
+    pieces: tuple[tuple[Cell, Cell], ...]
+    basis: str
+    note: str
+
+
+def _unmet(analyte: dict, ids) -> list[str]:
+    """'lack-of-fit not met', 'r-squared not applicable' for each of ``ids`` not met."""
+    return [f"{c['id']} {'not met' if c['pass'] is False else 'not applicable'}"
+            for c in analyte["criteria"] if c["id"] in ids and c["pass"] is not True]
+
+
+def demonstrated_range(index: int, analyte: dict) -> DemonstratedRange:
+    """The validated range of one analyte for the summary, the conclusion and the cover (picked from
+    results.json, with the path of each end: a bound of the working range or of the accuracy profile)."""
+    base = f"analytes.{index}"
+    wr = analyte.get("working_range")
+    if not wr:
+        return DemonstratedRange((), "", "no working range assessed")
+    if wr.get("low") is None:
+        return DemonstratedRange((), "", wr["basis"])
+    # the calibration's criteria first: when one fails, the working-range criterion is not applicable for it
+    unmet = _unmet(analyte, RANGE_CRITERIA[:-1]) or _unmet(analyte, RANGE_CRITERIA[-1:])
+    if unmet:
+        return DemonstratedRange((), "", "not validated: " + ", ".join(unmet)
+                                 + " (a range is validated only when the criteria it rests on are met)")
+    low = Cell(wr["low"], f"{base}.working_range.low", "value")
+    high = Cell(wr["high"], f"{base}.working_range.high", "value")
+    ap = analyte.get("accuracy_profile")
+    if not ap:
+        return DemonstratedRange(((low, high),), "working range", "")
+    pieces = []
+    for j, r in enumerate(ap.get("validated_ranges") or ()):
+        a_low = Cell(r["low"], f"{base}.accuracy_profile.validated_ranges.{j}.low", "value")
+        a_high = Cell(r["high"], f"{base}.accuracy_profile.validated_ranges.{j}.high", "value")
+        lo = a_low if a_low.value > low.value else low
+        hi = a_high if a_high.value < high.value else high
+        if lo.value <= hi.value:
+            pieces.append((lo, hi))
+    basis = "working range within the accuracy profile's acceptance limits"
+    if not pieces:
+        return DemonstratedRange((), basis, "not validated: the accuracy profile lies within its acceptance "
+                                 "limits nowhere in the working range")
+    return DemonstratedRange(tuple(pieces), basis, "")
+
+
+def judged_precision(analyte: dict) -> list[dict]:
+    """Per precision level, the repeatability and intermediate RSD the criteria judge, each with its
+    results.json path: the nested design's conditions when a design is declared, else the one-way
+    ANOVA's (``{"level", "repeatability": (value, path), "intermediate": (value, path), "procedure"}``)."""
+    out = []
+    for i, lv in enumerate((analyte.get("precision") or {}).get("levels", [])):
+        nested = lv.get("nested")
+        if nested and nested.get("conditions"):
+            last = len(nested["conditions"]) - 1
+            path = f"precision.levels.{i}.nested.conditions"
+            out.append({"level": lv["level"], "procedure": "nested " + "/".join(nested["design"]),
+                        "repeatability": (nested["conditions"][0]["rsd_pct"], f"{path}.0.rsd_pct"),
+                        "intermediate": (nested["conditions"][last]["rsd_pct"], f"{path}.{last}.rsd_pct")})
+        else:
+            path = f"precision.levels.{i}"
+            out.append({"level": lv["level"], "procedure": "one-way ANOVA by series",
+                        "repeatability": (lv.get("repeatability_rsd_pct"), f"{path}.repeatability_rsd_pct"),
+                        "intermediate": (lv.get("intermediate_rsd_pct"), f"{path}.intermediate_rsd_pct")})
+    return out
+
+
+def _judged_max(index: int, analyte: dict, which: str) -> Cell | None:
+    found = [(lv[which][0], lv[which][1]) for lv in judged_precision(analyte) if lv[which][0] is not None]
+    if not found:
+        return None
+    value, path = max(found)
+    return Cell(value, f"analytes.{index}.{path}", N.rule_for_path(path))
+
+
+# characteristics the matrix shows in columns of their own (their verdicts are in the analyte's section)
+_MATRIX_COLUMNS = ("working_range", "detection", "recovery", "precision", "uncertainty", "protocol", "guideline")
+_SHORT_LABELS = {"calibration": "calibration", "carry_over": "carry-over", "matrix_effect": "matrix effect",
+                 "selectivity": "selectivity", "stability": "stability", "dilution_integrity": "dilution",
+                 "reanalysis": "ISR", "limit_of_blank": "LoB/LoD", "method_detection_limit": "MDL",
+                 "reference_material": "CRM", "accuracy_profile": "accuracy profile", "comparison": "comparison",
+                 "revalidation": "re-validation", "precision": "precision", "recovery": "recovery",
+                 "other": "other"}
+
+
+def other_verdicts(analyte: dict) -> tuple[tuple[str, bool | None], ...]:
+    """(short label, verdict) of each characteristic with criteria that has no column of its own in the
+    matrix, in criteria order, then each characteristic a guideline preset requires and the analyte does
+    not show (label '<name> (required, not shown)', verdict ``None``)."""
+    verdicts = characteristic_verdicts(analyte)
+    out = [(_SHORT_LABELS.get(name, name.replace("_", " ")), v) for name, v in verdicts.items()
+           if name not in _MATRIX_COLUMNS]
+    for c in analyte["criteria"]:
+        if c["id"].startswith("guideline-requires-"):
+            name = c["id"].removeprefix("guideline-requires-").replace("-", "_")
+            out.append((_SHORT_LABELS.get(name, name.replace("_", " ")) + " (required, not shown)", None))
+    return tuple(out)
+
+
+def guideline_note(results: dict) -> dict | None:
+    """What page 2 says of ``[study] guideline``: the preset's title and name, how many of its values are
+    used as limits and how many of those are recalled (from memory), and per required characteristic
+    the analytes that do not show it (``None`` without a preset)."""
+    g = results.get("guideline")
+    if not g:
+        return None
+    used = [v for v in g["values"] if v["used"]]
+    missing: dict[str, list[tuple[int, str]]] = {}
+    for i, a in enumerate(results["analytes"]):
+        for c in a["criteria"]:
+            if c["id"].startswith("guideline-requires-"):
+                missing.setdefault(c["description"].split(": required by")[0], []).append((i, a["name"]))
+    return {"title": g["title"], "name": g["name"], "used": len(used),
+            "recalled": sum(1 for v in used if v["from_memory"]), "missing": list(missing.items())}
+
+
 def matrix(results: dict) -> list[MatrixRow]:
     """One row per analyte: validated range, LOD/LOQ on the reported basis, range of the level mean
     recoveries, largest repeatability and intermediate RSD, largest relative expanded uncertainty
@@ -132,14 +260,7 @@ def matrix(results: dict) -> list[MatrixRow]:
     for i, a in enumerate(results["analytes"]):
         base = f"analytes.{i}"
         unit = units_of(a, results["study"])[0]
-        wr = a.get("working_range")
-        if wr and wr.get("low") is not None:
-            low = Cell(wr["low"], f"{base}.working_range.low", "value")
-            high = Cell(wr["high"], f"{base}.working_range.high", "value")
-            range_note = ""
-        else:
-            low = high = None
-            range_note = wr["basis"] if wr else "not assessed"
+        shown = demonstrated_range(i, a)
         det = a.get("detection")
         lod = loq = None
         det_note = "not assessed"
@@ -151,16 +272,17 @@ def matrix(results: dict) -> list[MatrixRow]:
                 loq = Cell(rep["loq"], f"{base}.detection.estimates.{j}.loq", "uncertainty")
         rec = a.get("recovery")
         rec_levels = rec["levels"] if rec else []
-        prec_levels = (a.get("precision") or {}).get("levels", [])
         unc_levels = (a.get("uncertainty") or {}).get("levels", [])
         rows.append(MatrixRow(
-            index=i, name=a["name"], verdict=a["verdict"], unit=unit, range_low=low, range_high=high, range_note=range_note,
+            index=i, name=a["name"], verdict=a["verdict"], unit=unit, ranges=shown.pieces, range_basis=shown.basis,
+            range_note=shown.note,
             lod=lod, loq=loq, detection_note=det_note,
             recovery_low=_extreme(i, "recovery", rec_levels, "mean_pct", min),
             recovery_high=_extreme(i, "recovery", rec_levels, "mean_pct", max),
-            repeatability_max=_extreme(i, "precision", prec_levels, "repeatability_rsd_pct", max),
-            intermediate_max=_extreme(i, "precision", prec_levels, "intermediate_rsd_pct", max),
+            repeatability_max=_judged_max(i, a, "repeatability"),
+            intermediate_max=_judged_max(i, a, "intermediate"),
             uncertainty_max=_extreme(i, "uncertainty", unc_levels, "expanded_pct", max),
+            others=other_verdicts(a),
             not_met=sum(1 for c in a["criteria"] if c["pass"] is False),
             not_applicable=sum(1 for c in a["criteria"] if c["pass"] is None)))
     return rows
@@ -212,17 +334,22 @@ def conclusion(results: dict) -> str:
             parts.append(f"{n_na} criterion/criteria could not be evaluated on these data"
                          + (f" (for {_names(incomplete)})" if incomplete else "")
                          + "; what was not shown is not passed, so the overall verdict cannot be a pass.")
-    ranges = [(a["name"], a["working_range"], units_of(a, results["study"])[0])
-              for a in analytes if a.get("working_range")]
-    shown = [f"{name} {N.by_rule(wr['low'], 'value')} to {N.by_rule(wr['high'], 'value')} {unit}"
-             for name, wr, unit in ranges if wr.get("low") is not None]
-    missing = [name for name, wr, _ in ranges if wr.get("low") is None]
+    ranges = [(a["name"], demonstrated_range(i, a), units_of(a, results["study"])[0])
+              for i, a in enumerate(analytes) if a.get("working_range")]
+    shown = [f"{name} " + " and ".join(f"{N.by_rule(lo.value, 'value')} to {N.by_rule(hi.value, 'value')}"
+                                      for lo, hi in dr.pieces) + f" {unit} ({dr.basis})"
+             for name, dr, unit in ranges if dr.pieces]
+    missing = [(name, dr.note) for name, dr, _ in ranges if not dr.pieces]
     if shown and len(shown) <= 6:
-        parts.append("Validated working ranges: " + "; ".join(shown) + ".")
+        parts.append("Validated ranges: " + "; ".join(shown) + ".")
     elif shown:
-        parts.append(f"{len(shown)} analyte(s) have a validated working range (see the matrix).")
-    if missing:
-        parts.append(f"No working range could be stated for {_names(missing)}.")
+        parts.append(f"{len(shown)} of {len(analytes)} analyte(s) have a validated range (see the matrix for each "
+                     "and its basis).")
+    if missing and len(missing) <= 6:
+        parts.append("No validated range for " + "; ".join(f"{name} ({note})" for name, note in missing) + ".")
+    elif missing:
+        parts.append(f"No validated range for {_names([name for name, _ in missing])} (the reason of each in the "
+                     "matrix).")
     deviations = (results.get("protocol") or {}).get("deviations") or []
     if deviations:
         parts.append(f"The run deviates from its approved protocol in {len(deviations)} point(s) (listed below).")
@@ -302,7 +429,9 @@ REMARK_KINDS = {"limits-below-range": "LOD or LOQ below the lowest calibrator",
                 "sample-outside-range": "samples outside the calibrated range",
                 "function-changed": "calibration function other than the earlier validation's",
                 "too-few-data": "tests with too few data",
-                "matrix-effect-beyond-limit": "matrix effect beyond its limit"}
+                "matrix-effect-beyond-limit": "matrix effect beyond its limit",
+                "precision-bound-above-limit": "precision met on the point estimate, its upper bound above the limit",
+                "pooled-calibration": "calibration and limits from one fit pooling the runs"}
 
 
 def grouped_remarks(per_analyte: list[tuple[int, str, list[Remark]]], single_limit: int = 3) -> list[dict]:
@@ -398,8 +527,53 @@ def remarks(analyte: dict, unit: str, guideline: dict | None = None) -> list[Rem
             out.append(Remark("function-changed",
                               f"this run's own calibration function ({_function(*now)}) differs from the earlier "
                               f"validation's ({_function(*before)}); the comparison uses the earlier function."))
+    out.extend(_precision_bounds(analyte, unit))
+    out.extend(_pooled_calibration(analyte))
     out.extend(_too_few(analyte, unit))
     return out
+
+
+def _precision_bounds(analyte: dict, unit: str) -> list[Remark]:
+    """An RSD criterion met on its point estimate while the estimate's one-sided upper confidence bound
+    (1 - alpha, as the criterion's note gives it) lies above the limit: met on that basis only."""
+    criteria = {c["id"]: c for c in analyte["criteria"]}
+    levels = (analyte.get("precision") or {}).get("levels", [])
+    out = []
+    for lv in levels:
+        nested = lv.get("nested")
+        if nested and nested.get("conditions"):
+            bounds = {"repeatability": nested["conditions"][0].get("rsd_upper_pct"),
+                      "intermediate": nested["conditions"][-1].get("rsd_upper_pct")}
+        else:
+            b = lv.get("rsd_upper_bounds") or {}
+            bounds = {"repeatability": b.get("repeatability_rsd_upper_pct"),
+                      "intermediate": b.get("intermediate_rsd_upper_pct")}
+        for kind, label in (("repeatability", "repeatability RSD"), ("intermediate", "intermediate precision RSD")):
+            c = criteria.get(f"{kind}-rsd-{lv['level']:g}")
+            bound = bounds[kind]
+            if (c is None or c["pass"] is not True or bound is None or c["limit"] is None
+                    or bound <= c["limit"] or c["value"] == bound):
+                continue
+            out.append(Remark("precision-bound-above-limit",
+                              f"the {label} at {N.by_rule(lv['level'], 'value')} {unit} "
+                              f"({N.by_rule(c['value'], 'rsd')} %) meets its {N.by_rule(c['limit'], 'value')} % limit on "
+                              f"the point estimate only: its upper confidence bound, {N.by_rule(bound, 'rsd')} %, is "
+                              f"above it ({c['id']}, not met on that basis)."))
+    return out
+
+
+def _pooled_calibration(analyte: dict) -> list[Remark]:
+    """Runs quantified with their own calibrations while the calibration section, the LOD/LOQ and the
+    working range come from one fit pooling every run's calibrators."""
+    runs = analyte.get("runs") or {}
+    if runs.get("quantified_with") != "run" or len(runs.get("calibrations") or ()) < 2:
+        return []
+    return [Remark("pooled-calibration",
+                   f"the calibration shown, its LOD and LOQ and the working range come from one fit pooling the "
+                   f"calibrators of all {len(runs['calibrations'])} runs, while each run's QCs and samples are "
+                   "quantified with that run's own calibration (see Analytical runs): the pooled figures describe "
+                   "the method across runs, not the calibration any result was read from; judge each run's "
+                   "calibration in its own table.")]
 
 
 def _function(model: str, weighting: str, through_origin: bool) -> str:

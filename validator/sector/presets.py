@@ -14,7 +14,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["PresetValue", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve", "supplied_note"]
+__all__ = ["PresetValue", "PresetRequirement", "Preset", "PresetUse", "PRESETS", "PRESET_NAMES", "resolve", "supplied_note",
+           "missing_requirements", "requirement_criterion_note"]
 
 
 @dataclass(frozen=True)
@@ -28,10 +29,24 @@ class PresetValue:
 
 
 @dataclass(frozen=True)
+class PresetRequirement:
+    """A characteristic the guideline requires a validation to show: ``characteristic`` is its
+    results.json section (the registry entry's name), ``what`` the guideline's words for it. A study
+    naming the preset without showing it cannot pass (a not-applicable criterion
+    ``guideline-requires-<characteristic>``: not shown is not passed)."""
+
+    characteristic: str
+    what: str
+    source: str
+    from_memory: bool
+
+
+@dataclass(frozen=True)
 class Preset:
     name: str
     title: str
     values: tuple[PresetValue, ...]
+    requires: tuple[PresetRequirement, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -80,15 +95,32 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
         # from memory: ICH M10 sec. 5: ISR on 10 % of the first 1000 study samples and 5 % beyond, so a
         # verdict needs the number of study samples ([reanalysis] study_samples)
         PresetValue("reanalysis.size_rule", "ich-m10", f"{_M10} sec. 5", True),
+    ), (
+        # from memory: ICH M10 sec. 3.2 (validation of chromatographic methods): selectivity, matrix effect,
+        # calibration curve and range, accuracy and precision, carry-over and stability are each shown
+        PresetRequirement("calibration", "calibration curve and range", f"{_M10} sec. 3.2.4", True),
+        PresetRequirement("selectivity", "selectivity", f"{_M10} sec. 3.2.1", True),
+        PresetRequirement("matrix_effect", "matrix effect", f"{_M10} sec. 3.2.3", True),
+        PresetRequirement("precision", "within-run and between-run accuracy and precision of the QCs",
+                          f"{_M10} sec. 3.2.5", True),
+        PresetRequirement("carry_over", "carry-over", f"{_M10} sec. 3.2.6", True),
+        PresetRequirement("stability", "stability", f"{_M10} sec. 3.2.8", True),
     )),
     Preset("sante-11312-2021", _SANTE, (
         # from memory: SANTE/11312/2021 (matrix effects, sec. on calibration / Appendix A glossary): an
         # effect beyond +/-20 % calls for matrix-matched calibration
         PresetValue("matrix_effect.limit_pct", 20.0, f"{_SANTE}, matrix effects (sec. D, calibration)", True),
+    ), (
+        # from memory: SANTE/11312/2021 method validation (sec. on validation requirements): mean recovery and
+        # repeatability RSD at (at least) the LOQ and a higher level
+        PresetRequirement("recovery", "mean recovery", f"{_SANTE}, method validation", True),
+        PresetRequirement("precision", "repeatability (RSD_r)", f"{_SANTE}, method validation", True),
     )),
     Preset("clsi-ep17", _EP17, (
         # from memory: CLSI EP17-A2 sec. 5.3: LoB as the 95th percentile of the blank results
         PresetValue("limit_of_blank.percentile", 0.95, f"{_EP17} sec. 5.3", True),
+    ), (
+        PresetRequirement("limit_of_blank", "limit of blank and limit of detection", _EP17, True),
     )),
     Preset("clsi-ep15", f"{_EP15}, user verification of precision and estimation of bias", (
         # from memory: CLSI EP15-A3 sec. 3 (precision experiment): 5 days, one run a day, 5 replicates per
@@ -97,11 +129,15 @@ PRESETS: dict[str, Preset] = {p.name: p for p in (
         PresetValue("precision.min_series", 5, f"{_EP15} sec. 3, the 5 x 5 design", True),
         PresetValue("precision.min_replicates", 5, f"{_EP15} sec. 3, the 5 x 5 design", True),
         PresetValue("precision.min_levels", 2, f"{_EP15} sec. 3, samples", True),
+    ), (
+        PresetRequirement("precision", "repeatability and within-laboratory precision", f"{_EP15} sec. 3", True),
     )),
     Preset("40-cfr-136-appendix-b", _MDL, (
         # Appendix B Rev. 2, "Definition": the MDL is reported with confidence 0.99 that the measured
         # concentration is distinguishable from method blank results (read in the rule's text, eCFR)
         PresetValue("method_detection_limit.confidence", 0.99, f"{_MDL}, Definition", False),
+    ), (
+        PresetRequirement("method_detection_limit", "method detection limit", _MDL, False),
     )),
 )}
 PRESET_NAMES = tuple(PRESETS)
@@ -150,3 +186,19 @@ def supplied_note(name: str, uses: tuple[PresetUse, ...]) -> str:
     sections = list(dict.fromkeys(pv.key.split(".", 1)[0] for pv in PRESETS[name].values))
     return (f"the preset supplied nothing: it has values only for {', '.join(f'[{s}]' for s in sections)}, "
             "none of which this study declares; every criterion comes from the study file or the tool's defaults")
+
+
+def missing_requirements(name: str | None, assessed) -> tuple[PresetRequirement, ...]:
+    """The characteristics preset ``name`` requires that are not among ``assessed`` (names of the
+    characteristics an analyte has results for); ``()`` without a preset."""
+    if name is None:
+        return ()
+    have = set(assessed)
+    return tuple(r for r in PRESETS[name].requires if r.characteristic not in have)
+
+
+def requirement_criterion_note(name: str, req: PresetRequirement) -> str:
+    """Why the requirement's criterion is not applicable, in words."""
+    recalled = ", from memory" if req.from_memory else ""
+    return (f"not applicable: {req.what} is required by the {PRESETS[name].title} preset (guideline = \"{name}\"; "
+            f"{req.source}{recalled}), but the study does not show it for this analyte; not shown is not passed")

@@ -11,12 +11,12 @@ __all__ = ["sentences", "figures"]
 def _ranges(entry: dict, unit: str) -> str:
     ranges = entry.get("validated_ranges")
     if not ranges:
-        return "no validated range"
+        return "none"
     return " and ".join(f"{fmt(r['low'])} to {fmt(r['high'])} {unit}" for r in ranges)
 
 
 def sentences(entry: dict, reading) -> dict[str, str]:
-    """``summary``: the levels inside, the validated range and its basis."""
+    """``summary``: the levels inside, the range within the acceptance limits and its basis."""
     unit = reading.unit
     levels = entry["levels"]
     inside = [lv for lv in levels if lv["inside"] is True]
@@ -31,7 +31,7 @@ def sentences(entry: dict, reading) -> dict[str, str]:
     if missing:
         parts.append("no interval exists at " + ", ".join(f"{fmt(lv['nominal'])} {unit} ({lv['reason']})"
                                                          for lv in missing))
-    text = "; ".join(parts) + f". Validated range: {_ranges(entry, unit)}"
+    text = "; ".join(parts) + f". Range within the acceptance limits: {_ranges(entry, unit)}"
     if entry.get("validated_ranges"):
         text += f" ({entry['basis']})"
     text += f". Runs are the {entry['runs_by']}."

@@ -12,7 +12,7 @@ from __future__ import annotations
 from .. import calibration, detection, precision, recovery
 from .._entry import Assessment, Characteristic
 from . import presentation
-from .analysis import (LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range,
+from .analysis import (CALIBRATION_CRITERIA, LoqCheck, LoqLevel, WorkingRange, loq_criterion, verify_loq, working_range,
                        working_range_criterion)
 
 __all__ = ["ENTRY", "LOQ_CHECK", "WorkingRange", "LoqCheck", "LoqLevel", "working_range", "verify_loq",
@@ -45,8 +45,11 @@ def assess(ctx) -> Assessment[WorkingRange]:
                   if any(c.passed is False for c in precision.level_criteria(ctx, lv))])
     wr = working_range(ctx.result_of(calibration.ENTRY).back_calculated, reported.loq, reported.method, failing,
                        assessed, ctx.unit)
+    unmet = tuple(f"{c.id} {'not met' if c.passed is False else 'not applicable'}" for c in ctx.criteria
+                  if c.id in CALIBRATION_CRITERIA and c.passed is not True)
     return Assessment(wr, (working_range_criterion(wr, "" if reported.loq is not None else
-                                                   (reported.reason or "it does not exist for these data")),))
+                                                   (reported.reason or "it does not exist for these data"),
+                                                   unmet),))
 
 
 LOQ_CHECK: Characteristic[LoqCheck] = Characteristic(

@@ -140,16 +140,27 @@ def verify_loq(loq, precision_levels, recovery_levels, rsd_max_pct) -> LoqCheck:
     return LoqCheck(loq=loq, rsd_max_pct=rsd_max_pct, passed=passed, reason=reason, levels=tuple(rows))
 
 
-def working_range_criterion(wr, loq_missing: str = "") -> Criterion:
+# the calibration criteria a working range rests on (validator.characteristics.calibration.calibration_criteria)
+CALIBRATION_CRITERIA = ("lack-of-fit", "back-calculation", "monotonic", "r-squared")
+
+
+def working_range_criterion(wr, loq_missing: str = "", calibration_unmet: tuple[str, ...] = ()) -> Criterion:
     """A working range must remain and hold at least one calibrator level that passes back-calculation.
 
     It fails when the LOQ lies above every passing calibrator or failing levels narrow the range
     to nothing: the method was then not shown to quantify anything. When the reported basis gives
     no LOQ (``loq_missing`` says why), the low end of the range was not checked against one, so the
-    criterion is not applicable.
+    criterion is not applicable. A range is read from its calibration, so it is validated only when
+    the calibration's criteria are met: when one of them is not met or could not be evaluated
+    (``calibration_unmet``, e.g. ``("lack-of-fit not met",)``) this criterion is not applicable
+    (the failure is counted once, by the calibration's criterion) and no range is validated.
     # common practice, no published source: the rule that a range holds a passing calibrator
     """
     description = "working range remains and holds at least 1 calibrator level that passes back-calculation"
+    if calibration_unmet and wr.low is not None:
+        return Criterion("working-range", description, None, 1, None,
+                         "not applicable: the calibration it rests on has " + ", ".join(calibration_unmet)
+                         + "; a range is validated only when its calibration criteria are met")
     if loq_missing:
         return Criterion("working-range", description, None, 1, None,
                          f"not applicable: there is no LOQ on the reported basis ({loq_missing}), so the low "

@@ -11,6 +11,12 @@ def sentences(wr: dict, reading) -> dict[str, str]:
     """``range``: the validated working range and its basis."""
     if wr["low"] is None:
         return {"range": f"No working range can be stated: {wr['basis']}."}
+    criteria = (reading.analyte or {}).get("criteria", [])
+    own = next((c for c in criteria if c["id"] == "working-range"), None)
+    if own is not None and own["pass"] is not True:
+        why = own["note"].removeprefix("not applicable: ") or "its criterion is not met"
+        return {"range": f"The calibrators passing back-calculation span {fmt(wr['low'])} to {fmt(wr['high'])} "
+                         f"{reading.unit} ({wr['basis']}), but this range is NOT validated: {why}."}
     return {"range": f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {reading.unit} "
                      f"({wr['basis']})."}
 
