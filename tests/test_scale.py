@@ -134,3 +134,35 @@ def test_pdf_in_parts_numbers_pages_contents_and_links_as_one_document(multiresi
     linked = {a.get_object()["/Dest"] for a in reader.pages[summary].get("/Annots", [])}
     assert {f"analyte-{i}" for i in range(len(names))} <= linked
     assert all(str(name) in destinations for name in linked)
+
+
+def test_back_matter_is_cut_between_analytes_with_each_part_whole_html():
+    from validator.report.pdf import SPLIT, _back_parts
+
+    back = ('<section id="met">m</section>' + SPLIT + '<section id="app" class="x"><h2>A</h2>'
+            + SPLIT.join(f"<div>a{i}</div>" for i in range(5)) + "</section>" + SPLIT + '<section id="audit">t</section>')
+    parts = _back_parts(back, 2)
+    for part in parts:                                          # every part opens and closes its sections
+        assert part.count("<section") == part.count("</section>"), part
+    assert "".join(parts).count("<div>") == 5                  # nothing lost, nothing repeated
+    assert parts[1].startswith('<section id="app" class="x">') and "<h2>A</h2>" not in parts[1]
+    assert _back_parts(back, 100) == [back.replace(SPLIT, "")]
+
+
+def test_appendices_of_20_analytes_are_laid_out_in_several_parts(multiresidue_20_pdf):
+    # the appendices are cut between analytes (issue #14: one document of all appendices took
+    # 2.8 GB in one layout worker at 300 analytes); each analyte's appendix block is still present
+    from pypdf import PdfReader
+
+    out = multiresidue_20_pdf
+    names = [a["name"] for a in json.loads((out / "results.json").read_text(encoding="utf-8"))["analytes"]]
+    reader = PdfReader(str(out / "dossier.pdf"))
+    destinations = reader.named_destinations
+    for i in range(len(names)):
+        assert f"calibration-data-{i}" in destinations and f"raw-data-{i}" in destinations
+
+
+def test_screen_version_carries_no_part_markers(tmp_path):
+    out = _run(tmp_path, 12, "json,html,pdf")                 # PARTS_FROM analytes: the print path
+    html = (out / "dossier.html").read_text(encoding="utf-8")
+    assert "validator:split" not in html and "validator:part" not in html

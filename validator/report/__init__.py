@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from . import numbers, summary
-from .pdf import PART, write_pdf, write_pdf_in_parts
+from .pdf import PART, SPLIT, write_pdf, write_pdf_in_parts
 from .plots import PALETTE, Drawn, analyte_figures, figures_for_all, style
 from .text import SIG, SIG_P, fmt, fmt_p, level_label, met, verdict_label
 
@@ -273,7 +273,7 @@ def _render(result, results: dict, *, paper: str = "a4", progress=None, parts: b
     css = (templates_dir() / "dossier.css").read_text(encoding="utf-8")
     page = {"a4": "A4", "letter": "letter"}[paper]
     html = _environment().get_template("dossier.html.j2").render(
-        part_marker=PART if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
+        part_marker=PART if parts else "", split_marker=SPLIT if parts else "", r=results, study=study, analytes=analytes, alpha=alpha,
         sections=sections, placed=placed,
         criteria_open=[c for c in criteria if c["pass"] is not True],
         # the note on criteria not evaluated only when one is among them
@@ -318,7 +318,7 @@ def _fill(html: str, drawn: list, print_version: bool) -> str:
             return m[0] if print_version else ""
         f = drawn[int(m[1])]
         return f.print_tag() if print_version and isinstance(f, Drawn) else str(f)
-    return re.sub(r"<!--validator:figure:(\d+)-->|" + re.escape(PART), figure, html)
+    return re.sub(r"<!--validator:figure:(\d+)-->|" + re.escape(PART) + "|" + re.escape(SPLIT), figure, html)
 
 
 def render_dossier(result, results: dict, folder: Path, *, formats=("html", "pdf"), paper="a4",

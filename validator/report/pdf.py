@@ -29,10 +29,15 @@ import os
 import re
 from contextlib import contextmanager
 
-__all__ = ["PART", "write_pdf", "write_pdf_in_parts", "url_fetcher"]
+__all__ = ["PART", "SPLIT", "write_pdf", "write_pdf_in_parts", "url_fetcher"]
 
 # the marker the dossier template writes (when asked) at each page break a part may start at
 PART = "<!--validator:part-->"
+# where the back matter (appendices) may begin a new part: between two analytes' blocks of an
+# appendix (the section is closed there and opened again in the next part) or between sections;
+# without it the appendices of a large study were one WeasyPrint document of hundreds of pages
+# (300 analytes: 2.8 GB in one layout worker)
+SPLIT = "<!--validator:split-->"
 # analytes laid out together in one part (a part's fixed cost against its memory and the balance
 # of the two workers)
 ANALYTES_PER_PART = 6
@@ -226,7 +231,8 @@ def write_pdf_in_parts(html: str, target, *, analytes_per_part: int = ANALYTES_P
     def document(body: str) -> str:
         return head + body + tail
 
-    tasks = [document(front), document(_with_numbers(toc, None))] + [document(g) for g in groups] + [document(back)]
+    tasks = ([document(front), document(_with_numbers(toc, None))] + [document(g) for g in groups]
+             + [document(b) for b in _back_parts(back, analytes_per_part)])
     done = (lambda k, n: progress("laying out the PDF in parts", k, n + 1)) if progress else None
     with _workers(2, start="spawn") as run:
         laid = run(_lay_out_part, tasks, done)
@@ -249,6 +255,24 @@ def write_pdf_in_parts(html: str, target, *, analytes_per_part: int = ANALYTES_P
         progress("laying out the PDF in parts", len(tasks) + 1, len(tasks) + 1)
     _join(laid, frame, target)
     return sorted({url for p in laid for url in p["refused"]})
+
+
+def _back_parts(back: str, per_part: int) -> list:
+    """The back matter cut at every ``per_part``-th :data:`SPLIT` marker; a section open at a cut is
+    closed before it and opened again (the same tag) after it, so each part is whole HTML."""
+    pieces = back.split(SPLIT)
+    parts, current, count = [], pieces[0], 0
+    for piece in pieces[1:]:
+        count += 1
+        if count < per_part:
+            current += piece
+            continue
+        opened = re.findall(r"<section\b[^>]*>", current)
+        still_open = len(opened) > current.count("</section>")
+        parts.append(current + ("</section>" if still_open else ""))
+        current = (opened[-1] if still_open else "") + piece
+        count = 0
+    return parts + [current]
 
 
 def _first_pages(counts: list) -> list:
