@@ -134,7 +134,9 @@ def matrix(results: dict) -> list[MatrixRow]:
         unit = units_of(a, results["study"])[0]
         wr = a.get("working_range")
         if wr and wr.get("low") is not None:
-            low = Cell(wr["low"], f"{base}.working_range.low", "value")
+            # a range that starts at the reported LOQ shows it as the detection table does (2 s.f.)
+            low = Cell(wr["low"], f"{base}.working_range.low",
+                       "uncertainty" if str(wr.get("basis", "")).startswith("reported LOQ") else "value")
             high = Cell(wr["high"], f"{base}.working_range.high", "value")
             range_note = ""
         else:

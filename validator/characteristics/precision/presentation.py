@@ -6,7 +6,8 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt, fmt_p
+
+from ...report.text import fmt, fmt_p, suspect_label
 
 __all__ = ["sentences"]
 
@@ -33,7 +34,7 @@ def sentences(prec: dict, reading) -> dict[str, str]:
                 if flagged else "Neither Cochran's nor Grubbs' tests (single or double) flag a series.")
     if within:
         outliers += (" Grubbs' test within a series flags "
-                     + "; ".join(f"{t['suspect']}{_read_from(lvl, t['series'])} in series {t['series']} at level "
+                     + "; ".join(f"{suspect_label(t['suspect'])}{_read_from(lvl, t['series'])} in series {t['series']} at level "
                                  f"{fmt(lvl['level'])} (p = {fmt_p(t['p_value'])})" for lvl, t in within)
                      + "; these results stay in the estimate and need a reviewer's judgement.")
     else:

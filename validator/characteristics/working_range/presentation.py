@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt
+import re
+
+from ...report.text import basis_label, fmt, uncertainty
 
 __all__ = ["sentences", "loq_sentences"]
 
@@ -11,8 +13,28 @@ def sentences(wr: dict, reading) -> dict[str, str]:
     """``range``: the validated working range and its basis."""
     if wr["low"] is None:
         return {"range": f"No working range can be stated: {wr['basis']}."}
-    return {"range": f"The validated working range is {fmt(wr['low'])} to {fmt(wr['high'])} {reading.unit} "
-                     f"({wr['basis']})."}
+    return {"range": f"The validated working range is {range_low(wr)} to {fmt(wr['high'])} {reading.unit} "
+                     f"({_basis_in_words(wr['basis'])})."}
+
+
+_FROM_LOQ = re.compile(r"reported LOQ (\S+) (.*?)\(([^()]*)\)")
+
+
+def range_low(wr: dict) -> str:
+    """The low end of the range: the reported LOQ by the uncertainty rule (2 significant figures, as in
+    the detection table) when the range starts at it, a calibrator's nominal level otherwise."""
+    return uncertainty(wr["low"]) if wr["basis"].startswith("reported LOQ") else fmt(wr["low"])
+
+
+def _basis_in_words(basis: str) -> str:
+    """The basis with the LOQ by the uncertainty rule and its detection basis id in words."""
+    def words(m):
+        try:
+            value = uncertainty(float(m.group(1)))
+        except ValueError:
+            value = m.group(1)
+        return f"reported LOQ {value} {m.group(2)}({basis_label(m.group(3))})"
+    return _FROM_LOQ.sub(words, basis)
 
 
 def loq_sentences(lv: dict, reading) -> dict[str, str]:
