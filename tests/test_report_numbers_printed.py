@@ -74,3 +74,32 @@ def test_rounding_page_states_each_kind():
     names = {r.name for r in N.RULES}
     assert {"plus-minus", "interval-of-estimate", "percent", "rsd", "column"} <= names
     assert next(r for r in N.RULES if r.name == "rsd").how == "1 decimal"
+
+
+@pytest.mark.parametrize("text, html", [
+    # the QA review's free-text cases: subscripts, powers, e-notation, statistics, study keys
+    ("PRSD_R from the Horwitz function, here 2 C^-0.1505 % (mass fraction 1.2e-7 to 0.138)",
+     "PRSD<sub>R</sub> from the Horwitz function, here 2 C<sup>−0.1505</sup> % (mass fraction 1.2×10⁻⁷ to 0.138)"),
+    ("u_m = s/√n", "u<sub>m</sub> = s/√n"),
+    ("Mandel's test (weighting 1/x^2): F = 0.228635, p = 0.638", "Mandel's test (weighting 1/x²): F = 0.229, p = 0.64"),
+    ("negative (-9.33317e-05); set to 0", "negative (-9.333×10⁻⁵); set to 0"),
+    ("reported, not judged (judge_slope_ratio = false)", "reported, not judged (<code>judge_slope_ratio = false</code>)"),
+    ("series run_1 & <b>", "series run_1 &amp; &lt;b&gt;"),      # escaped; a series name is no symbol
+])
+def test_free_text_html(text, html):
+    assert N.free_text_html(text) == html
+
+
+@pytest.mark.parametrize("value, shown", [
+    (False, "false"), (["spiked"], '["spiked"]'), (None, "not set"), (100.0, "100"), (0.05, "0.05"),
+    ("ich-residual-sd", "ich-residual-sd"),
+])
+def test_setting_value_as_toml_writes_it(value, shown):
+    assert N.setting_value(value) == shown
+
+
+@pytest.mark.parametrize("role, shown", [
+    ("matrix_effect.solvent_data", "matrix effect, solvent data"), ("working_range", "working range"),
+])
+def test_data_role_labels(role, shown):
+    assert N.characteristic_label(role) == shown

@@ -76,6 +76,9 @@ def _environment() -> jinja2.Environment:
     env.filters["uncertainty"] = numbers.uncertainty
     env.filters["column"] = numbers.column
     env.filters["suspect"] = numbers.suspect_label
+    env.filters["step"] = numbers.step_label
+    env.filters["setting"] = numbers.setting_value
+    env.filters["notation"] = lambda text: jinja2.utils.markupsafe.Markup(numbers.free_text_html(text))
     env.globals["rounding_rules"] = numbers.RULES
     env.globals["verdict"] = verdict_label
     env.globals["met"] = met

@@ -32,7 +32,8 @@ from dataclasses import dataclass
 __all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule", "plus_minus",
            "interval_at", "column", "decimals_as_shown",
            "rule_for_path", "superscript", "superscripts_in", "basis_label", "characteristic_label", "weighting_label",
-           "criterion_display", "CriterionDisplay", "criterion_value", "suspect_label"]
+           "criterion_display", "CriterionDisplay", "criterion_value", "suspect_label", "free_text_html",
+           "step_label", "setting_value"]
 
 MISSING = "n/a"
 UNCERTAINTY_SIG = 2
@@ -347,8 +348,27 @@ def basis_label(method: str) -> str:
 
 
 def characteristic_label(name: str) -> str:
-    """A results.json section name ('working_range') in words."""
-    return CHARACTERISTIC_LABELS.get(name, name.replace("_", " "))
+    """A results.json section name ('working_range') in words; a data role with a part
+    ('matrix_effect.solvent_data') as 'matrix effect, solvent data'."""
+    head, _, rest = name.partition(".")
+    label = CHARACTERISTIC_LABELS.get(head, head.replace("_", " "))
+    return label if not rest else ", ".join([label] + [part.replace("_", " ") for part in rest.split(".")])
+
+
+def setting_value(value) -> str:
+    """A study-file setting's value as the study file (TOML) writes it: true/false, ["spiked"],
+    "text" as text, a number as given; no value: 'not set'."""
+    if value is None:
+        return "not set"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(f'"{v}"' if isinstance(v, str) else setting_value(v) for v in value) + "]"
+    if isinstance(value, dict):
+        return "{" + ", ".join(f"{k} = {setting_value(v)}" for k, v in value.items()) + "}"
+    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
+        return str(int(value))
+    return str(value)
 
 
 def superscripts_in(text: str) -> str:
@@ -366,6 +386,42 @@ def suspect_label(text: str) -> str:
         return f"result {by_rule(float(m.group(1)), 'value')}"
     except ValueError:
         return text
+
+
+# symbols with a subscript as results.json's free text writes them (s_r) -> base and subscript
+_SUBSCRIPTED = re.compile(r"\b(s|u|se|x|v|RSD|PRSD)_(r|R|I|L|m|c|IP|CRM|run|C|B|W)\b")
+_E_NUMBER = re.compile(r"(?<![\w.])(-?\d+(?:\.\d+)?[eE][-+]?\d+)(?![\w.])")
+_POWER = re.compile(r"\^(−?-?\d+(?:\.\d+)?)")
+_STAT_EQUALS = re.compile(r"\b(F|t|G|C|W) = (-?\d+\.\d{4,})")
+# a study-file key named in a sentence ('judge_slope_ratio = false'), shown as code, not as a word
+_STUDY_KEY = re.compile(r"(?<![\w.<>/])([a-z]+(?:_[a-z]+){1,}(?: = (?:true|false|\d+(?:\.\d+)?))?)(?![\w.])")
+_P_EQUALS = re.compile(r"\bp = (\d\.\d{3,}(?:[eE][-+]?\d+)?)")
+
+
+def free_text_html(text: str) -> str:
+    """Free text of results.json (a note, a basis, a step's outcome) as HTML for the dossier: symbols
+    with subscripts (s_r -> s<sub>r</sub>), powers as superscripts (C^-0.1505), numbers in e-notation
+    with a power of ten at 4 significant figures (1.2e-7 -> 1.2×10⁻⁷), a test statistic after
+    'F = ' to 3 significant figures and a p-value to 2, a study-file key ('judge_slope_ratio = false')
+    as code. The text is escaped first; the caller marks
+    the result safe."""
+    from html import escape
+    out = escape(str(text), quote=False)
+    out = _STAT_EQUALS.sub(lambda m: f"{m.group(1)} = {sig(float(m.group(2)), STATISTIC_SIG)}", out)
+    out = _P_EQUALS.sub(lambda m: f"p = {p_value(float(m.group(1)))}", out)
+    out = _E_NUMBER.sub(lambda m: sig(float(m.group(1)), DEFAULT_SIG, keep_zeros=False), out)
+    out = _POWER.sub(lambda m: (superscript(int(m.group(1).replace("−", "-"))) if "." not in m.group(1)
+                                else f"<sup>{m.group(1).replace('-', '−')}</sup>"), out)
+    out = _SUBSCRIPTED.sub(r"\1<sub>\2</sub>", out)
+    return _STUDY_KEY.sub(r"<code>\1</code>", out)
+
+
+STEP_LABELS = {"weighting": "choice of weighting", "mandel": "Mandel's fitting test", "model": "choice of model"}
+
+
+def step_label(step: str) -> str:
+    """A step id of the automatic calibration choice ('mandel') in words."""
+    return STEP_LABELS.get(step, step.replace("_", " "))
 
 
 def weighting_label(weighting: str) -> str:
