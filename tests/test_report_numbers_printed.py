@@ -103,3 +103,13 @@ def test_setting_value_as_toml_writes_it(value, shown):
 ])
 def test_data_role_labels(role, shown):
     assert N.characteristic_label(role) == shown
+
+
+@pytest.mark.parametrize("text, html", [
+    # hand computation: a long decimal in a note at 4 significant figures; short ones and ids unchanged
+    ("the ANOVA estimate of the 'day' variance is negative (-0.00822446); set to 0",
+     "the ANOVA estimate of the 'day' variance is negative (-0.008224); set to 0"),
+    ("mass fraction 0.138, version 1.2.3, lot 12345", "mass fraction 0.138, version 1.2.3, lot 12345"),
+])
+def test_free_text_long_numbers(text, html):
+    assert N.free_text_html(text) == html

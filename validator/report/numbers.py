@@ -391,6 +391,15 @@ def suspect_label(text: str) -> str:
 # symbols with a subscript as results.json's free text writes them (s_r) -> base and subscript
 _SUBSCRIPTED = re.compile(r"\b(s|u|se|x|v|RSD|PRSD)_(r|R|I|L|m|c|IP|CRM|run|C|B|W)\b")
 _E_NUMBER = re.compile(r"(?<![\w.])(-?\d+(?:\.\d+)?[eE][-+]?\d+)(?![\w.])")
+# a decimal number in free text with more than 4 significant figures (-0.00822446)
+_LONG_NUMBER = re.compile(r"(?<![\w.,])(-?\d+\.\d+)(?![\w.,])")
+
+
+def _long_number(text: str) -> str:
+    digits = text.lstrip("-").replace(".", "").lstrip("0")
+    return sig(float(text), DEFAULT_SIG, keep_zeros=False) if len(digits) > DEFAULT_SIG else text
+
+
 _POWER = re.compile(r"\^(−?-?\d+(?:\.\d+)?)")
 _STAT_EQUALS = re.compile(r"\b(F|t|G|C|W) = (-?\d+\.\d{4,})")
 # a study-file key named in a sentence ('judge_slope_ratio = false'), shown as code, not as a word
@@ -401,7 +410,8 @@ _P_EQUALS = re.compile(r"\bp = (\d\.\d{3,}(?:[eE][-+]?\d+)?)")
 def free_text_html(text: str) -> str:
     """Free text of results.json (a note, a basis, a step's outcome) as HTML for the dossier: symbols
     with subscripts (s_r -> s<sub>r</sub>), powers as superscripts (C^-0.1505), numbers in e-notation
-    with a power of ten at 4 significant figures (1.2e-7 -> 1.2×10⁻⁷), a test statistic after
+    with a power of ten at 4 significant figures (1.2e-7 -> 1.2×10⁻⁷), any longer decimal number at 4
+    significant figures (-0.00822446 -> -0.008224), a test statistic after
     'F = ' to 3 significant figures and a p-value to 2, a study-file key ('judge_slope_ratio = false')
     as code. The text is escaped first; the caller marks
     the result safe."""
@@ -410,6 +420,7 @@ def free_text_html(text: str) -> str:
     out = _STAT_EQUALS.sub(lambda m: f"{m.group(1)} = {sig(float(m.group(2)), STATISTIC_SIG)}", out)
     out = _P_EQUALS.sub(lambda m: f"p = {p_value(float(m.group(1)))}", out)
     out = _E_NUMBER.sub(lambda m: sig(float(m.group(1)), DEFAULT_SIG, keep_zeros=False), out)
+    out = _LONG_NUMBER.sub(lambda m: _long_number(m.group(1)), out)
     out = _POWER.sub(lambda m: (superscript(int(m.group(1).replace("−", "-"))) if "." not in m.group(1)
                                 else f"<sup>{m.group(1).replace('-', '−')}</sup>"), out)
     out = _SUBSCRIPTED.sub(r"\1<sub>\2</sub>", out)
