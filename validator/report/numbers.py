@@ -360,6 +360,8 @@ def setting_value(value) -> str:
     "text" as text, a number as given; no value: 'not set'."""
     if value is None:
         return "not set"
+    if value == "":
+        return "empty (not given)"
     if isinstance(value, bool):
         return "true" if value else "false"
     if isinstance(value, (list, tuple)):

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt, uncertainty
+from ...report.text import by_rule, fmt, uncertainty
 
 __all__ = ["sentences"]
 
@@ -21,7 +21,7 @@ def sentences(entry: dict, reading) -> dict[str, str]:
         absolute = "" if lv["expanded"] is None else f", ± {uncertainty(lv['expanded'])} {unit}"
         parts.append(f"at {fmt(lv['concentration'])} {unit} U = {uncertainty(lv['expanded_pct'])} %{absolute}")
     text = (f"Expanded uncertainty (k = {k}) from u(Rw) and u(bias) = {uncertainty(entry['u_bias_pct'])} % "
-            f"(RMS of {len(entry['bias_evidence'])} bias estimate(s) {fmt(entry['rms_bias_pct'], 3)} %, "
+            f"(RMS of {len(entry['bias_evidence'])} bias estimate(s) {by_rule(entry['rms_bias_pct'], 'percent')} %, "
             f"u(Cref) {uncertainty(entry['reference_uncertainty_pct'])} %): " + "; ".join(parts) + ".")
     loq = entry.get("at_loq")
     if loq is not None and loq["expanded_pct"] is not None:
