@@ -91,7 +91,7 @@ def test_free_text_html(text, html):
 
 
 @pytest.mark.parametrize("value, shown", [
-    (False, "false"), (["spiked"], '["spiked"]'), (None, "not set"), ("", "empty (not given)"), (100.0, "100"), (0.05, "0.05"),
+    (False, "false"), (["spiked"], '["spiked"]'), (None, "not set"), ("", "empty (not given)"), (100.0, "100.0"), (0.05, "0.05"), (3, "3"),
     ("ich-residual-sd", "ich-residual-sd"),
 ])
 def test_setting_value_as_toml_writes_it(value, shown):

@@ -357,7 +357,7 @@ def characteristic_label(name: str) -> str:
 
 def setting_value(value) -> str:
     """A study-file setting's value as the study file (TOML) writes it: true/false, ["spiked"],
-    "text" as text, a number as given; no value: 'not set'."""
+    "text" as text, a float with its decimal point (20.0); no value: 'not set'."""
     if value is None:
         return "not set"
     if value == "":
@@ -368,8 +368,8 @@ def setting_value(value) -> str:
         return "[" + ", ".join(f'"{v}"' if isinstance(v, str) else setting_value(v) for v in value) + "]"
     if isinstance(value, dict):
         return "{" + ", ".join(f"{k} = {setting_value(v)}" for k, v in value.items()) + "}"
-    if isinstance(value, float) and value.is_integer() and abs(value) < 1e15:
-        return str(int(value))
+    if isinstance(value, float):
+        return repr(value)          # as TOML writes a float: 20.0, 0.05
     return str(value)
 
 
