@@ -58,7 +58,7 @@ CATALOGUE = [
      'calibration.csv, row 2, column "response": "2.5" uses a decimal point but the study declares '
      'decimal = ","; set decimal = "." in [study]'),
     ("decimal-comma-in-comma-file", CALIB, {"calibration.csv": "concentration,response\n1,2,5\n"}, "",
-     "calibration.csv, row 2: has 3 cells but the header has 2; is there a decimal comma or a thousands "
+     'calibration.csv, row 2, column "response": "2,5" reads as 3 cells but the header has 2; is there a decimal comma or a thousands '
      'separator? Files with decimal commas need delimiter = ";" and decimal = "," in [study]'),
     ("thousands", CALIB, {"calibration.csv": 'concentration,response\n1,"1,234.5"\n'}, "",
      'calibration.csv, row 2, column "response": "1,234.5" has thousands separators; write the number without them'),

@@ -51,7 +51,7 @@ def test_p_values(p, shown):
 
 
 @pytest.mark.parametrize("value, rule, shown", [    # hand computation, rules as listed in numbers.RULES
-    (1.5154359515275635, "rsd", "1.5"), (12.04, "rsd", "12"), (2.0, "rsd", "2.0"), (15, "rsd", "15"),
+    (1.5154359515275635, "rsd", "1.5"), (12.04, "rsd", "12.0"), (2.0, "rsd", "2.0"), (15, "rsd", "15.0"), (2.307, "rsd", "2.3"),
     (97.84833, "percent", "97.8"), (-1.5079, "percent", "-1.5"), (-0.02, "percent", "0.0"),
     (1.2036, "statistic", "1.20"), (163.58, "statistic", "164"),
     (0.9992904860511326, "correlation", "0.9993"),

@@ -359,7 +359,7 @@ def test_matrix_effect_uses_the_calibration_weighting_and_separate_variances_by_
     # hand computation: Welch-Satterthwaite df of b_m - R b_s
     df = (v_m + r * r * v_s) ** 2 / (v_m ** 2 / (len(matrix) - 2) + r ** 4 * v_s ** 2 / (len(solvent) - 2))
     assert sr["df"] == pytest.approx(df, rel=1e-9)
-    assert "weighted 1/x^2" in (out / "dossier.html").read_text(encoding="utf-8")
+    assert "weighted 1/x²" in (out / "dossier.html").read_text(encoding="utf-8")     # a real superscript
     # a solvent blank at concentration 0 cannot be weighted 1/x^2: no slope ratio, with the reason
     files = _me_files()
     files["solvent.csv"] += "0,0.01\n"

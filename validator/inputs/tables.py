@@ -358,10 +358,27 @@ def _read_csv(text: str, shown: str, *, delimiter: str, decimal: str, required: 
             if len(record) > len(header) and delimiter == ",":
                 hint = ('; is there a decimal comma or a thousands separator? Files with decimal '
                         'commas need delimiter = ";" and decimal = "," in [study]')
-            raise DataError(f"has {len(record)} cells but the header has {len(header)}{hint}",
-                            file=shown, row=line)
+            column, value = _cell_count_culprit(record, header)
+            raise DataError(f'"{show(value)}" reads as {len(record)} cells but the header has {len(header)}{hint}',
+                            file=shown, row=line, column=column, value=value)
         for name, cell in zip(header, record):
             if name in columns:
                 columns[name].append(cell)
     return Table(path=shown, columns=columns, rows=tuple(rows), decimal=decimal, delimiter=delimiter,
                  dialect=dialect, dialect_evidence=tuple(evidence))
+
+
+def _cell_count_culprit(record, header) -> tuple[str, str]:
+    """The column and the text of a row whose cell count differs from the header's, for the message:
+    with too many cells, the last run of cells that reads as one number split at a comma ("0" and
+    "3735" of 0,3735) with as many cells as are extra, under the column the first of them stands in;
+    otherwise the last column with the cells beyond it. With too few, the first column left empty."""
+    extra = len(record) - len(header)
+    if extra < 0:
+        return header[len(record)], ""
+    for group in (r"\s*\d{3}", r"\s*\d"):     # a decimal part or thousands group of 3 digits first
+        for i in reversed(range(min(len(record) - extra, len(header)))):     # the last such pair
+            part = record[i:i + extra + 1]
+            if re.fullmatch(r"\s*[-+]?\d+\s*", part[0]) and all(re.match(group, c) for c in part[1:]):
+                return header[i], ",".join(part)
+    return header[-1], ",".join(record[len(header) - 1:])

@@ -72,6 +72,13 @@ def _environment() -> jinja2.Environment:
     env.filters["basis"] = numbers.basis_label
     env.filters["characteristic"] = numbers.characteristic_label
     env.globals["interval"] = numbers.interval
+    env.globals["interval_at"] = numbers.interval_at
+    env.filters["uncertainty"] = numbers.uncertainty
+    env.filters["column"] = numbers.column
+    env.filters["suspect"] = numbers.suspect_label
+    env.filters["step"] = numbers.step_label
+    env.filters["setting"] = numbers.setting_value
+    env.filters["notation"] = lambda text: jinja2.utils.markupsafe.Markup(numbers.free_text_html(text))
     env.globals["rounding_rules"] = numbers.RULES
     env.globals["verdict"] = verdict_label
     env.globals["met"] = met

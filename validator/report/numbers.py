@@ -7,7 +7,11 @@ rounded by the rule for its kind (:data:`RULES`, listed in the formulas page):
   half-width) to two significant figures, and the value it belongs to rounded
   to the same decimal place (GUM, JCGM 100:2008, 7.2.6);
 * a p-value to two significant figures;
-* a recovery, deviation or bias in % to one decimal; an RSD to two significant figures;
+* a value with its uncertainty ("3.09 ± 0.16"): the uncertainty to two significant figures and the
+  value to its decimal place (:func:`plus_minus`);
+* an interval about an estimate at the decimal place of the estimate as printed (:func:`interval_at`);
+* a percentage statistic (recovery, deviation, bias, change, RSD, CV, difference in %) to one decimal;
+* a column of like values at common decimals, those of its largest value (:func:`column`);
 * a test statistic to three significant figures; R² and r to four decimals;
 * any other value to four significant figures (trailing zeros dropped).
 
@@ -25,15 +29,16 @@ import math
 import re
 from dataclasses import dataclass
 
-__all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule",
+__all__ = ["MISSING", "RULES", "Rule", "sig", "fixed", "matched", "interval", "p_value", "by_rule", "plus_minus",
+           "interval_at", "column", "decimals_as_shown",
            "rule_for_path", "superscript", "superscripts_in", "basis_label", "characteristic_label", "weighting_label",
-           "criterion_display", "CriterionDisplay", "criterion_value"]
+           "criterion_display", "CriterionDisplay", "criterion_value", "suspect_label", "free_text_html",
+           "step_label", "setting_value"]
 
 MISSING = "n/a"
 UNCERTAINTY_SIG = 2
 P_SIG = 2
 STATISTIC_SIG = 3
-RSD_SIG = 2
 DEFAULT_SIG = 4
 PERCENT_DECIMALS = 1
 CORRELATION_DECIMALS = 4
@@ -175,6 +180,56 @@ def interval(low, high) -> tuple[str, str]:
     return matched(low, half), matched(high, half)
 
 
+def plus_minus(value, u, sep: str = " ± ") -> str:
+    """``value ± u``: ``u`` to two significant figures and ``value`` to its decimal place (GUM 7.2.6)."""
+    return f"{matched(value, u)}{sep}{uncertainty(u)}"
+
+
+def decimals_as_shown(value, rule: str) -> int | None:
+    """The decimal places of ``value`` as :func:`by_rule` prints it (None: no plain decimal place)."""
+    value = _as_float(value)
+    if _missing(value) or isinstance(value, bool):
+        return None
+    if rule in _RULE_DECIMALS:
+        return _RULE_DECIMALS[rule]
+    digits = _RULE_DIGITS.get(rule, DEFAULT_SIG)
+    if value == 0:
+        return None
+    return digits - 1 - _rounded_exponent(value, digits)
+
+
+def _at_decimals(value, decimals: int) -> str:
+    special = _special(_as_float(value))
+    if special is not None:
+        return special
+    value = float(value)
+    return _plain_or_scientific(value, decimals, max(_exponent(value), -decimals))
+
+
+def interval_at(low, high, value, rule: str = "value") -> tuple[str, str]:
+    """Both ends of the interval of an estimate at the decimal place of the estimate as printed by
+    ``rule`` (s_r 0.0075 with the interval 0.0052 to 0.0132); without a usable estimate, by
+    :func:`interval`."""
+    decimals = decimals_as_shown(value, rule)
+    if decimals is None or _missing(_as_float(low)) or _missing(_as_float(high)):
+        return interval(low, high)
+    return _at_decimals(low, decimals), _at_decimals(high, decimals)
+
+
+def column(values, rule: str = "value") -> list[str]:
+    """A column of like values at common decimals: those its largest value has by ``rule``
+    (103.0 and 98.8 rather than 103 and 98.81), more where the smallest value would otherwise keep
+    fewer than two significant figures; missing values as ``n/a``."""
+    usable = [abs(float(v)) for v in values if not _missing(_as_float(v)) and not isinstance(v, bool)]
+    if not usable or max(usable) == 0:
+        return [by_rule(v, rule) for v in values]
+    decimals = decimals_as_shown(max(usable), rule)
+    smallest = min((v for v in usable if v > 0), default=None)
+    if smallest is not None:        # never fewer than 2 significant figures of the smallest value
+        decimals = max(decimals, UNCERTAINTY_SIG - 1 - _rounded_exponent(smallest, UNCERTAINTY_SIG))
+    return [_at_decimals(v, decimals) for v in values]
+
+
 def p_value(p) -> str:
     """A p-value to two significant figures."""
     return sig(_as_float(p), P_SIG)
@@ -189,15 +244,23 @@ class Rule:
 
 
 RULES: tuple[Rule, ...] = (
-    Rule("uncertainty", "standard errors, standard deviations, s(y/x), LOD, LOQ, x_C, expanded uncertainties",
+    Rule("uncertainty", "standard errors, standard deviations, s(y/x), LOD, LOQ (also where a range starts at "
+         "it), x_C, standard and expanded uncertainties (absolute and in %), EP15 verification limits",
          "2 significant figures"),
     Rule("matched", "a value with its standard error (coefficients, sample concentrations)",
          "to the decimal place of its standard error at 2 significant figures (GUM 7.2.6)"),
     Rule("interval", "both ends of a confidence interval",
          "to the decimal place of its half-width at 2 significant figures"),
     Rule("p", "p-values", "2 significant figures"),
-    Rule("percent", "recovery, deviation, bias and change in %", "1 decimal"),
-    Rule("rsd", "RSD, SD in % and tolerances in %", "2 significant figures"),
+    Rule("plus-minus", "a value ± its uncertainty (samples' results ± U, slopes ± SE)",
+         "the uncertainty to 2 significant figures, the value to the same decimal place (GUM 7.2.6)"),
+    Rule("interval-of-estimate", "the confidence interval of an estimate shown beside it (the CI of an SD)",
+         "both ends at the decimal place of the estimate as printed"),
+    Rule("percent", "recovery, deviation, bias, change and difference in %", "1 decimal"),
+    Rule("rsd", "RSD, CV, SD in % and tolerances in %", "1 decimal"),
+    Rule("column", "a column of like values (means, nominal levels) in one table",
+         "at common decimals: those of the column's largest value by its rule (more where the smallest "
+         "would keep fewer than 2 significant figures)"),
     Rule("statistic", "test statistics (F, t, W, LM, C, G), HorRat", "3 significant figures"),
     Rule("correlation", "R² and r", "4 decimals"),
     Rule("recorded", "a raw peak area read from an instrument export", "as recorded (up to 15 significant figures)"),
@@ -221,7 +284,7 @@ def by_rule(value, rule: str) -> str:
     if rule == "percent":
         return fixed(value, PERCENT_DECIMALS)
     if rule == "rsd":
-        return sig(value, RSD_SIG)
+        return fixed(value, PERCENT_DECIMALS)
     if rule == "statistic":
         return sig(value, STATISTIC_SIG)
     if rule == "correlation":
@@ -240,13 +303,15 @@ _PATH_RULES: tuple[tuple[str, str], ...] = (
     (r"^(analyte_response|internal_standard_response)$", "recorded"),     # raw areas of a run export
     (r"p_value$", "p"),
     (r"^range_pct$", "value"),      # a declared acceptance range is shown as declared
-    (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct)$", "rsd"),
+    (r"(limit_percent|^max_.*_percent)$", "value"),   # a declared limit in % is shown as declared
+    (r"^(rsd_pct|repeatability_rsd_pct|intermediate_rsd_pct|sd_pct|rsd_max_pct|tolerance_pct|cv_pct|cv)$", "rsd"),
+    (r"^(cv_percent|max_cv_percent)$", "rsd"),
     (r"^(expanded_pct|combined_pct|u_rw_pct|u_bias_pct)$", "uncertainty"),    # relative uncertainties, 2 s.f.
-    (r"_pct$", "percent"),
+    (r"_(pct|percent)$", "percent"),
     (r"^(statistic|t_statistic|f_statistic|horrat|ratio)$", "statistic"),
     (r"^(r_squared|r)$", "correlation"),
-    (r"(^|_)(sd|std_error|u_mean|expanded_uncertainty|standard_uncertainty|p_value_se|lod|loq|critical_value)$",
-     "uncertainty"),
+    (r"(^|_)(sd|std_error|u_mean|expanded_uncertainty|standard_uncertainty|p_value_se|lod|loq|critical_value"
+     r"|combined|expanded|upper_verification_limit|se_slope_matrix|se_slope_solvent|uncertainty)$", "uncertainty"),
 )
 
 
@@ -283,13 +348,93 @@ def basis_label(method: str) -> str:
 
 
 def characteristic_label(name: str) -> str:
-    """A results.json section name ('working_range') in words."""
-    return CHARACTERISTIC_LABELS.get(name, name.replace("_", " "))
+    """A results.json section name ('working_range') in words; a data role with a part
+    ('matrix_effect.solvent_data') as 'matrix effect, solvent data'."""
+    head, _, rest = name.partition(".")
+    label = CHARACTERISTIC_LABELS.get(head, head.replace("_", " "))
+    return label if not rest else ", ".join([label] + [part.replace("_", " ") for part in rest.split(".")])
+
+
+def setting_value(value) -> str:
+    """A study-file setting's value as the study file (TOML) writes it: true/false, ["spiked"],
+    "text" as text, a float with its decimal point (20.0); no value: 'not set'."""
+    if value is None:
+        return "not set"
+    if value == "":
+        return "empty (not given)"
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, (list, tuple)):
+        return "[" + ", ".join(f'"{v}"' if isinstance(v, str) else setting_value(v) for v in value) + "]"
+    if isinstance(value, dict):
+        return "{" + ", ".join(f"{k} = {setting_value(v)}" for k, v in value.items()) + "}"
+    if isinstance(value, float):
+        return repr(value)          # as TOML writes a float: 20.0, 0.05
+    return str(value)
 
 
 def superscripts_in(text: str) -> str:
     """Free text with '^2'-style exponents written as superscripts ('1/x^2' -> '1/x²')."""
     return re.sub(r"\^(-?\d+)", lambda m: superscript(int(m.group(1))), text)
+
+
+def suspect_label(text: str) -> str:
+    """An outlier test's suspect ('result 0.048417', 'series day-2') with a result's number by the
+    "value" rule, as the table of flagged results shows it ('result 0.04842')."""
+    m = re.fullmatch(r"result (\S+)", text or "")
+    if not m:
+        return text
+    try:
+        return f"result {by_rule(float(m.group(1)), 'value')}"
+    except ValueError:
+        return text
+
+
+# symbols with a subscript as results.json's free text writes them (s_r) -> base and subscript
+_SUBSCRIPTED = re.compile(r"\b(s|u|se|x|v|RSD|PRSD)_(r|R|I|L|m|c|IP|CRM|run|C|B|W)\b")
+_E_NUMBER = re.compile(r"(?<![\w.])(-?\d+(?:\.\d+)?[eE][-+]?\d+)(?![\w.])")
+# a decimal number in free text with more than 4 significant figures (-0.00822446)
+_LONG_NUMBER = re.compile(r"(?<![\w.,])(-?\d+\.\d+)(?![\w.,])")
+
+
+def _long_number(text: str) -> str:
+    digits = text.lstrip("-").replace(".", "").lstrip("0")
+    return sig(float(text), DEFAULT_SIG, keep_zeros=False) if len(digits) > DEFAULT_SIG else text
+
+
+_POWER = re.compile(r"\^(−?-?\d+(?:\.\d+)?)")
+_STAT_EQUALS = re.compile(r"\b(F|t|G|C|W) = (-?\d+\.\d{4,})")
+# a study-file key named in a sentence ('judge_slope_ratio = false'), shown as code, not as a word
+_STUDY_KEY = re.compile(r"(?<![\w.<>/])([a-z]+(?:_[a-z]+){1,}(?: = (?:true|false|\d+(?:\.\d+)?))?)(?![\w.])")
+_P_EQUALS = re.compile(r"\bp = (\d\.\d{3,}(?:[eE][-+]?\d+)?)")
+
+
+def free_text_html(text: str) -> str:
+    """Free text of results.json (a note, a basis, a step's outcome) as HTML for the dossier: symbols
+    with subscripts (s_r -> s<sub>r</sub>), powers as superscripts (C^-0.1505), numbers in e-notation
+    with a power of ten at 4 significant figures (1.2e-7 -> 1.2×10⁻⁷), any longer decimal number at 4
+    significant figures (-0.00822446 -> -0.008224), a test statistic after
+    'F = ' to 3 significant figures and a p-value to 2, a study-file key ('judge_slope_ratio = false')
+    as code. The text is escaped first; the caller marks
+    the result safe."""
+    from html import escape
+    out = escape(str(text), quote=False)
+    out = _STAT_EQUALS.sub(lambda m: f"{m.group(1)} = {sig(float(m.group(2)), STATISTIC_SIG)}", out)
+    out = _P_EQUALS.sub(lambda m: f"p = {p_value(float(m.group(1)))}", out)
+    out = _E_NUMBER.sub(lambda m: sig(float(m.group(1)), DEFAULT_SIG, keep_zeros=False), out)
+    out = _LONG_NUMBER.sub(lambda m: _long_number(m.group(1)), out)
+    out = _POWER.sub(lambda m: (superscript(int(m.group(1).replace("−", "-"))) if "." not in m.group(1)
+                                else f"<sup>{m.group(1).replace('-', '−')}</sup>"), out)
+    out = _SUBSCRIPTED.sub(r"\1<sub>\2</sub>", out)
+    return _STUDY_KEY.sub(r"<code>\1</code>", out)
+
+
+STEP_LABELS = {"weighting": "choice of weighting", "mandel": "Mandel's fitting test", "model": "choice of model"}
+
+
+def step_label(step: str) -> str:
+    """A step id of the automatic calibration choice ('mandel') in words."""
+    return STEP_LABELS.get(step, step.replace("_", " "))
 
 
 def weighting_label(weighting: str) -> str:
@@ -363,7 +508,7 @@ _MORE_DISPLAYS = (
      "of the claimed RSD (CLSI EP15)", "cu", "≤", "uncertainty"),
     (r"accuracy-profile-(.+)", "Accuracy profile at {0} {cu}: beta-expectation tolerance interval "
      "(relative to the nominal value)", "%", "within", "percent"),
-    (r"expanded-uncertainty-(.+)", "Relative expanded uncertainty at {0} {cu}", "%", "≤", "percent"),
+    (r"expanded-uncertainty-(.+)", "Relative expanded uncertainty at {0} {cu}", "%", "≤", "uncertainty"),
     (r"limit-of-blank", "Limit of blank (CLSI EP17)", "cu", "≤", "value"),
     (r"limit-of-detection", "Limit of detection (CLSI EP17)", "cu", "≤", "value"),
     (r"limit-of-quantitation", "Limit of quantitation (CLSI EP17)", "cu", "≤", "value"),
@@ -387,19 +532,21 @@ _MORE_DISPLAYS = (
 def _more_displays(criterion_id: str, cu: str) -> CriterionDisplay | None:
     for pattern, label, unit, comparison, rule in _MORE_DISPLAYS:
         m = re.fullmatch(pattern, criterion_id)
+        # an EP15 claim's limit is a computed upper verification limit (an SD), not a declared value
+        limit_rule = "uncertainty" if "-claim-" in criterion_id else "value"
         if m:
             groups = [g[:1].upper() + g[1:] if i == 0 and pattern.startswith("(repeatability") else g
                       for i, g in enumerate(m.groups())]
             return CriterionDisplay(label.format(*groups, cu=cu).replace("  ", " "), cu if unit == "cu" else unit,
-                                    comparison, rule)
+                                    comparison, rule, limit_rule)
     return None
 
 
 # --- a criterion's value beside its limit ----------------------------------------------------------
 
-_RULE_DIGITS = {"uncertainty": UNCERTAINTY_SIG, "p": P_SIG, "rsd": RSD_SIG, "statistic": STATISTIC_SIG,
+_RULE_DIGITS = {"uncertainty": UNCERTAINTY_SIG, "p": P_SIG, "statistic": STATISTIC_SIG,
                 "value": DEFAULT_SIG, "recorded": 15, "count": DEFAULT_SIG}
-_RULE_DECIMALS = {"percent": PERCENT_DECIMALS, "correlation": CORRELATION_DECIMALS}
+_RULE_DECIMALS = {"percent": PERCENT_DECIMALS, "rsd": PERCENT_DECIMALS, "correlation": CORRELATION_DECIMALS}
 # the most significant figures a float carries: beyond them more digits show nothing new
 _MOST_DIGITS = 17
 

@@ -162,7 +162,9 @@ def demonstrated_range(index: int, analyte: dict) -> DemonstratedRange:
     if unmet:
         return DemonstratedRange((), "", "not validated: " + ", ".join(unmet)
                                  + " (a range is validated only when the criteria it rests on are met)")
-    low = Cell(wr["low"], f"{base}.working_range.low", "value")
+    # a range that starts at the reported LOQ shows it as the detection table does (2 s.f.)
+    low = Cell(wr["low"], f"{base}.working_range.low",
+               "uncertainty" if str(wr.get("basis", "")).startswith("reported LOQ") else "value")
     high = Cell(wr["high"], f"{base}.working_range.high", "value")
     ap = analyte.get("accuracy_profile")
     if not ap:

@@ -12,11 +12,12 @@ from __future__ import annotations
 from .._common import level_label, not_above  # noqa: F401 (not_above: the one limit rule, for sentences)
 from . import numbers as N
 # the reporting rules, re-exported for the characteristics' presentation modules (which import report.text)
-from .numbers import basis_label, by_rule, interval, matched, superscripts_in, uncertainty, weighting_label  # noqa: F401
+from .numbers import (basis_label, by_rule, interval, interval_at, matched, plus_minus, superscripts_in,  # noqa: F401
+                      suspect_label, uncertainty, weighting_label)
 from .summary import flagged_points  # noqa: F401
 
 __all__ = ["SIG", "SIG_P", "fmt", "fmt_p", "level_label", "met", "verdict_label",
-           "basis_label", "by_rule", "matched", "superscripts_in", "uncertainty", "interval", "weighting_label",
+           "basis_label", "by_rule", "matched", "plus_minus", "interval_at", "suspect_label", "superscripts_in", "uncertainty", "interval", "weighting_label",
            "flagged_points"]
 
 SIG = N.DEFAULT_SIG

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 
 from ...report.plots import PALETTE, figure, points, svg
-from ...report.text import fmt
+from ...report.text import by_rule, fmt
 
 __all__ = ["sentences", "figures"]
 
@@ -17,9 +17,9 @@ def sentences(entry: dict, reading) -> dict:
         if lv["passed"] is None:
             out[f"level_{i}"] = f"{head}: not judged: {lv['reason']}."
         else:
-            cv = (f"CV {fmt(lv['cv_percent'], 3)} %" if lv["cv_passed"] is not None
+            cv = (f"CV {by_rule(lv['cv_percent'], 'rsd')} %" if lv["cv_passed"] is not None
                   else f"CV not judged ({lv['cv_reason']})")
-            out[f"level_{i}"] = (f"{head}: {lv['n']} QCs, mean accuracy {fmt(lv['accuracy_percent'], 4)} % and {cv} "
+            out[f"level_{i}"] = (f"{head}: {lv['n']} QCs, mean accuracy {by_rule(lv['accuracy_percent'], 'percent')} % and {cv} "
                                  "after the factor; "
                                  + ("dilution does not affect the result within the limits." if lv["passed"]
                                     else "NOT within the limits."))

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from ...report.plots import PALETTE, figure, points, svg
-from ...report.text import fmt, level_label
+from ...report.text import by_rule, fmt, level_label, weighting_label
 
 __all__ = ["sentences", "figures"]
 
@@ -18,15 +18,15 @@ def sentences(entry: dict, reading) -> dict:
     else:
         kind = "suppression" if sr["statistic"] < 0 else "enhancement"
         ci = sr["interval"]
-        interval = ("" if ci is None else f" ({level_label(sr['interval_level'])} CI {fmt(ci[0], 3)} to "
-                    f"{fmt(ci[1], 3)} %, Fieller)")
+        interval = ("" if ci is None else f" ({level_label(sr['interval_level'])} CI {by_rule(ci[0], 'percent')} to "
+                    f"{by_rule(ci[1], 'percent')} %, Fieller)")
         flag = ("beyond" if sr["beyond_limit"] else "within")
         weighted = ("unweighted straight lines" if sr["weighting"] == "none" else
-                    f"straight lines weighted {sr['weighting']}, the weighting of the calibration")
+                    f"straight lines weighted {weighting_label(sr['weighting'])}, the weighting of the calibration")
         variances = ("separate residual variances, Welch-Satterthwaite df" if sr["variance"] == "separate"
                      else "one pooled residual variance")
         out["slope_ratio"] = (f"The matrix-matched calibration's slope is {fmt(sr['slope_ratio'], 4)} times the solvent "
-                              f"slope (both {weighted}; {variances}): a matrix effect of {fmt(sr['statistic'], 3)} % ({kind}){interval}, {flag} "
+                              f"slope (both {weighted}; {variances}): a matrix effect of {by_rule(sr['statistic'], 'percent')} % ({kind}){interval}, {flag} "
                               f"±{fmt(sr['limit_percent'])} %. "
                               + ("Beyond it, quantification against solvent standards would be biased: calibrate in "
                                  "matrix." if sr["beyond_limit"] else ""))
@@ -46,7 +46,7 @@ def sentences(entry: dict, reading) -> dict:
             out["factor"] = f"No CV of the IS-normalised matrix factor: {mf['reason']}."
         else:
             out["factor"] = (f"The IS-normalised matrix factor averages {fmt(mf['mean'], 4)} over {len(mf['lots'])} lots "
-                             f"with a CV of {fmt(mf['cv_percent'], 3)} % (at most {fmt(mf['max_cv_percent'])} % allowed)"
+                             f"with a CV of {by_rule(mf['cv_percent'], 'rsd')} % (at most {fmt(mf['max_cv_percent'])} % allowed)"
                              + (f"; not judged: {mf['reason']}." if mf["passed"] is None and mf["reason"] else "."))
     return out
 

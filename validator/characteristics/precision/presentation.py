@@ -6,7 +6,8 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt, fmt_p
+
+from ...report.text import by_rule, fmt, fmt_p, suspect_label
 
 __all__ = ["sentences"]
 
@@ -19,8 +20,8 @@ def sentences(prec: dict, reading) -> dict[str, str]:
     parts = []
     for lvl in prec["levels"]:
         clamp = " (between-series variance estimated negative, set to 0)" if lvl["between_series_set_to_zero"] else ""
-        parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {fmt(lvl['repeatability_rsd_pct'], 3)} %, "
-                     f"intermediate RSD {fmt(lvl['intermediate_rsd_pct'], 3)} %{clamp}")
+        parts.append(f"at {fmt(lvl['level'])} {unit}: repeatability RSD {by_rule(lvl['repeatability_rsd_pct'], 'rsd')} %, "
+                     f"intermediate RSD {by_rule(lvl['intermediate_rsd_pct'], 'rsd')} %{clamp}")
     out["summary"] = "Precision " + "; ".join(parts) + "."
     flagged = [lvl for lvl in prec["levels"]
                for t in (lvl["cochran"], lvl["grubbs"], lvl.get("grubbs_double"))
@@ -33,7 +34,7 @@ def sentences(prec: dict, reading) -> dict[str, str]:
                 if flagged else "Neither Cochran's nor Grubbs' tests (single or double) flag a series.")
     if within:
         outliers += (" Grubbs' test within a series flags "
-                     + "; ".join(f"{t['suspect']}{_read_from(lvl, t['series'])} in series {t['series']} at level "
+                     + "; ".join(f"{suspect_label(t['suspect'])}{_read_from(lvl, t['series'])} in series {t['series']} at level "
                                  f"{fmt(lvl['level'])} (p = {fmt_p(t['p_value'])})" for lvl, t in within)
                      + "; these results stay in the estimate and need a reviewer's judgement.")
     else:
@@ -53,12 +54,12 @@ def _nested(prec: dict, unit: str) -> str:
         nested = lv.get("nested")
         if nested is None:
             continue
-        comps = ", ".join(f"{c['source']} {fmt(c['sd'], 3)}" + (" (negative estimate set to 0)" if c["set_to_zero"]
+        comps = ", ".join(f"{c['source']} {by_rule(c['sd'], 'uncertainty')}" + (" (negative estimate set to 0)" if c["set_to_zero"]
                                                                   else "") for c in nested["components"])
         ip = nested["conditions"][-1]
         parts.append(f"at {fmt(lv['level'])} {unit} ({nested['method']}): SDs {comps}; intermediate precision "
-                     f"RSD {fmt(ip['rsd_pct'], 3)} %" + ("" if ip["rsd_upper_pct"] is None else
-                                                        f", upper bound {fmt(ip['rsd_upper_pct'], 3)} %"))
+                     f"RSD {by_rule(ip['rsd_pct'], 'rsd')} %" + ("" if ip["rsd_upper_pct"] is None else
+                                                        f", upper bound {by_rule(ip['rsd_upper_pct'], 'rsd')} %"))
     text = ("Nested design " + ", ".join(prec["levels"][0]["nested"]["design"]) + ", replicate: "
             + "; ".join(parts) + ". The one-way tables above treat each innermost unit of the design as a series; "
             "the RSD criteria and the claims use the nested estimates.") if parts else ""

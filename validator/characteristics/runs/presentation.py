@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from ...report.text import weighting_label
+
 __all__ = ["sentences"]
 
 
@@ -13,7 +15,7 @@ def sentences(entry: dict, reading) -> dict:
                f"({len(runs)} pooled calibration)")
     else:
         how = f"each through the calibration of its own run ({len(runs)} run calibrations: {', '.join(runs)})"
-    weighting = "unweighted" if entry["weighting"] == "none" else f"weighted {entry['weighting']}"
+    weighting = "unweighted" if entry["weighting"] == "none" else f"weighted {weighting_label(entry['weighting'])}"
     model = {"linear": "straight line", "quadratic": "quadratic", "origin": "straight line through the origin"}
     names = {"samples": "samples", "recovery": "recovery", "precision": "precision (series = run)",
              "reference_material": "reference material", "limit_of_blank": "the limit of blank (EP17)",

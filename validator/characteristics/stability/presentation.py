@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from ...report.plots import PALETTE, figure, points, svg
-from ...report.text import fmt, level_label
+from ...report.text import by_rule, fmt, level_label
 
 __all__ = ["sentences", "figures"]
 
@@ -30,10 +30,10 @@ def sentences(entry: dict, reading) -> dict:
         if s["deviation_percent"] is None:
             out[f"condition_{i}"] = f"{head}: no deviation: {s['reason']}."
             continue
-        ci = "" if s["interval"] is None else (f" ({level_label(s['interval_level'])} CI {fmt(s['interval'][0], 3)} to "
-                                               f"{fmt(s['interval'][1], 3)} %)")
+        ci = "" if s["interval"] is None else (f" ({level_label(s['interval_level'])} CI {by_rule(s['interval'][0], 'percent')} to "
+                                               f"{by_rule(s['interval'][1], 'percent')} %)")
         word = {True: "stable", False: "NOT shown stable", None: "not judged"}[s["passed"]]
-        out[f"condition_{i}"] = (f"{head}: mean {fmt(s['deviation_percent'], 3)} % from {s['reference']}{ci}; "
+        out[f"condition_{i}"] = (f"{head}: mean {by_rule(s['deviation_percent'], 'percent')} % from {s['reference']}{ci}; "
                                  f"{word} against ±{fmt(s['limit_percent'])} %"
                                  + (f" ({s['reason']})." if s["passed"] is None and s["reason"] else "."))
     return out

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ...report.text import fmt
+from ...report.text import by_rule, fmt, uncertainty
 
 __all__ = ["sentences"]
 
@@ -18,18 +18,18 @@ def sentences(entry: dict, reading) -> dict[str, str]:
         if lv["expanded_pct"] is None:
             parts.append(f"at {fmt(lv['concentration'])} {unit} not estimated ({lv['reason']})")
             continue
-        absolute = "" if lv["expanded"] is None else f", ± {fmt(lv['expanded'], 3)} {unit}"
-        parts.append(f"at {fmt(lv['concentration'])} {unit} U = {fmt(lv['expanded_pct'], 3)} %{absolute}")
-    text = (f"Expanded uncertainty (k = {k}) from u(Rw) and u(bias) = {fmt(entry['u_bias_pct'], 3)} % "
-            f"(RMS of {len(entry['bias_evidence'])} bias estimate(s) {fmt(entry['rms_bias_pct'], 3)} %, "
-            f"u(Cref) {fmt(entry['reference_uncertainty_pct'], 3)} %): " + "; ".join(parts) + ".")
+        absolute = "" if lv["expanded"] is None else f", ± {uncertainty(lv['expanded'])} {unit}"
+        parts.append(f"at {fmt(lv['concentration'])} {unit} U = {uncertainty(lv['expanded_pct'])} %{absolute}")
+    text = (f"Expanded uncertainty (k = {k}) from u(Rw) and u(bias) = {uncertainty(entry['u_bias_pct'])} % "
+            f"(RMS of {len(entry['bias_evidence'])} bias estimate(s) {by_rule(entry['rms_bias_pct'], 'percent')} %, "
+            f"u(Cref) {uncertainty(entry['reference_uncertainty_pct'])} %): " + "; ".join(parts) + ".")
     loq = entry.get("at_loq")
     if loq is not None and loq["expanded_pct"] is not None:
-        text += (f" At the LOQ ({fmt(loq['concentration'])} {unit}), U = {fmt(loq['expanded_pct'], 3)} % "
+        text += (f" At the LOQ ({uncertainty(loq['concentration'])} {unit}), U = {uncertainty(loq['expanded_pct'])} % "
                  f"({loq['basis']}).")
     profile = [lv for lv in entry["levels"] if lv.get("profile_expanded_pct") is not None]
     if profile:
         text += (" From the accuracy profile's intervals, k times their standard deviation is "
-                 + "; ".join(f"{fmt(lv['profile_expanded_pct'], 3)} % at {fmt(lv['concentration'])} {unit}"
+                 + "; ".join(f"{uncertainty(lv['profile_expanded_pct'])} % at {fmt(lv['concentration'])} {unit}"
                              for lv in profile) + " (bias and u(Cref) not included).")
     return {"summary": text}
