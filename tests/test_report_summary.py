@@ -182,7 +182,7 @@ def test_the_precision_table_labels_the_one_way_and_the_judged_rsd(failing_out):
     results, soup = failing_out
     table = soup.select_one("#precision-0").find_next("table")
     heads = [th.get_text() for th in table.select("thead th")]
-    assert "RSD_I % (one-way)" in heads and "RSD_I % judged (day/run)" in heads
+    assert "RSDI % (one-way)" in heads and "RSDI % judged (day/run)" in heads    # RSD<sub>I</sub>
     judged = [s["data-src"] for s in table.select("td.judged span.n[data-src]")]
     assert judged == [f"analytes.0.precision.levels.{i}.nested.conditions.2.rsd_pct"
                       for i in range(len(results["analytes"][0]["precision"]["levels"]))]
