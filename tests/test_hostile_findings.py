@@ -203,7 +203,7 @@ def test_a_declared_level_without_data_is_an_input_error(make_study, capsys):
                        'levels = [{added = 5, range_pct = [99, 101]}]\n',
                        {"calibration.csv": CALIBRATION, "recovery.csv": rec})
     code, _, err = _run(capsys, "check", study)
-    assert (code, err) == (2, f"validator: error: {study}, key recovery.levels[0].added: no recovery result has "
+    assert (code, err) == (2, f"validator: error: {study}, line 10, key recovery.levels[0].added: no recovery result has "
                               "added = 5, so this limit would judge nothing (the data have added 2)\n")
 
 
