@@ -61,7 +61,7 @@ def figures(entry: dict, reading) -> dict:
         ax.text(0.01, 0.02, f"{skipped} diluted QC result{'s' if skipped != 1 else ''} not drawn: the result × "
                 "factor is not a finite number (see the table)", transform=ax.transAxes, fontsize=7,
                 color=PALETTE["ink"], gid="not-drawn")
-    ax.set_xlabel("diluted QC number (in file order within each dilution)")
+    ax.set_xlabel("diluted QC, numbered through the dilutions (file order within each)")
     ax.set_ylabel("accuracy after the factor (% of nominal)")
     ax.xaxis.get_major_locator().set_params(integer=True)      # result numbers are whole
     ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), frameon=False, fontsize=7)
