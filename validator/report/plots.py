@@ -216,7 +216,7 @@ def _draw_calibration(ax, d: dict, labels: bool) -> None:
         x, y, out_x, out_y = d["x"], d["y"], d["outliers_x"], d["outliers_y"]
     label = (lambda text: text) if labels else (lambda text: None)
     ax.fill_between(grid, pred_low, pred_high, color=PALETTE["band"], alpha=0.6, linewidth=0,
-                    label=label(f"{d['level']} prediction band (dotted edges)"))
+                    label=label(f"{d['level']} prediction band"))
     ax.plot(grid, pred_low, ":", color=PALETTE["pred"], linewidth=1)
     ax.plot(grid, pred_high, ":", color=PALETTE["pred"], linewidth=1)
     ax.plot(grid, conf_low, "--", color=PALETTE["conf"], linewidth=1, label=label(f"{d['level']} confidence band"))
@@ -243,7 +243,14 @@ def _calibration_figure(d: dict) -> str:
         _log_x(ax, both=True)
         _draw_calibration(ax, d, labels=False)
         ax.set_title("log axes: the low levels", fontsize=8, loc="left")
-    fig.legend(frameon=False, fontsize=7, loc="lower center", ncol=2)
+    # the band's legend key drawn as the band is: its fill and its dotted edges (the filled area alone
+    # has no edge, so its own key would show a plain fill)
+    from matplotlib.patches import Patch
+
+    handles, texts = axes[0, 0].get_legend_handles_labels()
+    band = texts.index(f"{d['level']} prediction band")
+    handles[band] = Patch(facecolor=PALETTE["band"], alpha=0.6, edgecolor=PALETTE["pred"], linestyle=":", linewidth=1)
+    fig.legend(handles, texts, frameon=False, fontsize=7, loc="lower center", ncol=2)
     fig.tight_layout(rect=(0, 0.17, 1, 1))
     return _svg(fig, f"cal{d['key']}")
 
