@@ -249,7 +249,7 @@ def _calibration_figure(d: dict) -> str:
 
     handles, texts = axes[0, 0].get_legend_handles_labels()
     band = texts.index(f"{d['level']} prediction band")
-    handles[band] = Patch(facecolor=PALETTE["band"], alpha=0.6, edgecolor=PALETTE["pred"], linestyle=":", linewidth=1)
+    handles[band] = Patch(facecolor=PALETTE["band"], alpha=0.6, edgecolor=PALETTE["pred"], ls=":", lw=1)
     fig.legend(handles, texts, frameon=False, fontsize=7, loc="lower center", ncol=2)
     fig.tight_layout(rect=(0, 0.17, 1, 1))
     return _svg(fig, f"cal{d['key']}")
